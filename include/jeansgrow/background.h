@@ -1,0 +1,86 @@
+/*
+ * The expansion history (Friedmann equation) and the quantities derived from it.
+ *
+ *   H(a)^2 = H0^2 [ Omega_r a^-4 + Omega_m a^-3 + Omega_k a^-2 + Omega_de f_de(a) ]
+ *
+ * Omega_gamma from T_cmb (black body), massless neutrinos
+ * Omega_nu = N_eff (7/8) (4/11)^(4/3) Omega_gamma, Omega_de by closure and the
+ * Chevallier-Polarski-Linder form f_de(a) = a^(-3(1+w0+wa)) exp(-3 wa (1 - a)).
+ *
+ * A jg_background is built once and then only read, so any number of threads
+ * may share one. Its fields are public for speed in the right-hand sides of
+ * the later stages; treat them as read-only.
+ */
+#ifndef JEANSGROW_BACKGROUND_H
+#define JEANSGROW_BACKGROUND_H
+
+#include "jeansgrow/error.h"
+#include "jeansgrow/params.h"
+
+#ifdef __cplusplus
+extern "C" {
+#endif
+
+typedef struct jg_background {
+  jg_cosmology cosmology;   /* copy of the input */
+  double H0;                /* s^-1 */
+  double rho_crit0;         /* critical density today, kg m^-3 */
+  double omega_gamma;       /* Omega_gamma (not times h^2) */
+  double omega_nu;          /* Omega_nu, massless */
+  double omega_r;           /* Omega_gamma + Omega_nu */
+  double omega_b, omega_c, omega_m; /* density parameters today */
+  double omega_k, omega_de;
+  double baryon_fraction;   /* f_b = omega_b / omega_m */
+  double n_H0;              /* hydrogen nuclei per m^3 today */
+  double helium_to_hydrogen;/* f_He = n_He / n_H */
+  double R_coefficient;     /* R(a) = 3 rho_b / (4 rho_gamma) = R_coefficient * a */
+} jg_background;
+
+/* Build the background. Fails (JG_EINVAL) if the parameters are invalid or
+ * if H^2 <= 0 somewhere between a = 1e-10 and today (e.g. strong curvature). */
+jg_background *jg_background_new(const jg_cosmology *c, jg_error *err);
+void jg_background_free(jg_background *bg);
+
+/* E(a) = H(a)/H0 and H(a) in s^-1. */
+double jg_background_E(const jg_background *bg, double a);
+double jg_background_hubble(const jg_background *bg, double a);
+/* d ln H / d ln a, analytic. */
+double jg_background_dlnH_dlna(const jg_background *bg, double a);
+
+/* Mean densities at scale factor a, kg m^-3. */
+double jg_background_rho_matter(const jg_background *bg, double a);
+double jg_background_rho_baryon(const jg_background *bg, double a);
+/* Omega_m(a): the matter share of the total density. */
+double jg_background_omega_m_of_a(const jg_background *bg, double a);
+/* Hydrogen-nucleus number density, m^-3, and radiation temperature, K. */
+double jg_background_n_hydrogen(const jg_background *bg, double a);
+double jg_background_T_radiation(const jg_background *bg, double a);
+/* Redshift of matter-radiation equality: 1 + z_eq = Omega_m / Omega_r. */
+double jg_background_z_equality(const jg_background *bg);
+
+/* Integrals (GSL adaptive quadrature). Each returns JG_OK or JG_ENUMERIC. */
+/* Cosmic time since the big bang at scale factor a, in seconds. */
+jg_status jg_background_cosmic_time(const jg_background *bg, double a, double *t, jg_error *err);
+/* Conformal time, c * integral dt/a, in Mpc. */
+jg_status jg_background_conformal_time(const jg_background *bg, double a, double *eta_mpc,
+                                       jg_error *err);
+/* Line-of-sight comoving distance to redshift z, Mpc. */
+jg_status jg_background_comoving_distance(const jg_background *bg, double z, double *d_mpc,
+                                          jg_error *err);
+/* Transverse comoving distance (equal to the line-of-sight one when flat), Mpc. */
+jg_status jg_background_transverse_distance(const jg_background *bg, double z, double *d_mpc,
+                                            jg_error *err);
+/* Comoving sound horizon of the photon-baryon fluid at redshift z,
+ * r_s = int_z^inf c / sqrt(3 (1 + R)) dz / H, Mpc. */
+jg_status jg_background_sound_horizon(const jg_background *bg, double z, double *r_mpc,
+                                      jg_error *err);
+/* Scale-independent linear growth D(a) from the Heath (1977) integral,
+ * D = (5 Omega_m / 2) E(a) int_0^a da' / (a' E(a'))^3, normalised so D -> a
+ * early; radiation is left out of E here, as in the integral's derivation. */
+jg_status jg_background_growth_heath(const jg_background *bg, double a, double *D,
+                                     jg_error *err);
+
+#ifdef __cplusplus
+}
+#endif
+#endif

@@ -1,0 +1,23 @@
+/*
+ * jeansgrow: Jeans and filtering scales and the linear growth of baryon and
+ * dark-matter perturbations with gas pressure, from before recombination to
+ * the end of the dark ages. Umbrella header: include this one.
+ *
+ * Stages, data flowing one way:
+ *   params -> background -> thermal (recombination, gas temperature) -> epochs
+ * with jeans (Jeans scales) and table (output files) beside them.
+ */
+#ifndef JEANSGROW_JEANSGROW_H
+#define JEANSGROW_JEANSGROW_H
+
+#include "jeansgrow/background.h"
+#include "jeansgrow/constants.h"
+#include "jeansgrow/epochs.h"
+#include "jeansgrow/error.h"
+#include "jeansgrow/jeans.h"
+#include "jeansgrow/params.h"
+#include "jeansgrow/table.h"
+#include "jeansgrow/thermal.h"
+#include "jeansgrow/version.h"
+
+#endif

@@ -1,0 +1,105 @@
+/*
+ * Parameters: the plain struct every stage reads, and the parameter-file loader.
+ *
+ * The numerical stages never see a parameter file: they take a jg_params
+ * (or the part of it they need), so a C program or a test can fill one by
+ * hand. jg_params_set_defaults() gives the documented defaults;
+ * jg_params_load() reads a libconfig file, applies `key=value` overrides and
+ * checks every value before any computation starts.
+ *
+ * The struct holds no pointers: it can be copied freely, which is what a
+ * parameter scan does for each grid point.
+ */
+#ifndef JEANSGROW_PARAMS_H
+#define JEANSGROW_PARAMS_H
+
+#include <stdio.h>
+
+#include "jeansgrow/error.h"
+
+#ifdef __cplusplus
+extern "C" {
+#endif
+
+#define JG_MAX_REDSHIFTS 512 /* longest output.redshifts list */
+
+/* The cosmological model (group `cosmology`). */
+typedef struct jg_cosmology {
+  double hubble_h;             /* H0 / (100 km/s/Mpc) */
+  double baryon_density_h2;    /* Omega_b h^2 */
+  double cdm_density_h2;       /* Omega_c h^2 */
+  double curvature_omega;      /* Omega_k today (closed universe: < 0) */
+  double cmb_temperature_K;    /* T_cmb today, K */
+  double helium_mass_fraction; /* Y_P, helium mass fraction of the baryons */
+  double neutrino_number_eff;  /* N_eff, massless neutrino species */
+  double de_w0;                /* dark-energy equation of state today, w0 (CPL) */
+  double de_wa;                /* its evolution, w(a) = w0 + wa (1 - a) (CPL) */
+} jg_cosmology;
+
+/* The ionisation and gas-temperature history (group `thermal`). */
+typedef struct jg_thermal_settings {
+  double start_redshift;     /* first redshift integrated; Saha equilibrium above */
+  double recombination_fudge;/* F multiplying the case-B coefficient (SSS 1999: 1.14) */
+  double saha_limit;         /* hydrogen in Saha equilibrium while x_p exceeds this */
+  double quasi_static_limit; /* T_gas quasi-static while H / Gamma_C is below this */
+  double rel_tol;            /* relative tolerance of the stiff integration */
+  double abs_tol;            /* absolute tolerance (x_p and T_gas in K) */
+  int grid_points;           /* nodes of the stored history, uniform in ln a */
+} jg_thermal_settings;
+
+/* What the commands report (group `output`). */
+typedef struct jg_output_settings {
+  double redshifts[JG_MAX_REDSHIFTS]; /* requested redshifts, in file order */
+  int n_redshifts;
+  int history_rows;    /* rows of the dense `history` table (plus the requested z) */
+  double history_z_max;/* first redshift of the history table (<= thermal.start_redshift) */
+  double history_z_min;/* last redshift of the history table */
+} jg_output_settings;
+
+typedef struct jg_params {
+  jg_cosmology cosmology;
+  jg_thermal_settings thermal;
+  jg_output_settings output;
+} jg_params;
+
+/* Fill every field with its documented default. The three densities-and-h
+ * keys are required in a parameter file; their defaults here are the Planck
+ * 2018 values so that a C program has a valid starting point. */
+void jg_params_set_defaults(jg_params *p);
+
+/*
+ * Read `path` (libconfig syntax), then apply each override "key=value"
+ * (value in libconfig syntax, arrays included), then check every value.
+ * On failure `out` is left untouched and `err` names the file and line (or
+ * the override), the key, the value found and what is allowed.
+ * Unknown keys are errors, with the nearest known key suggested.
+ */
+jg_status jg_params_load(const char *path, const char *const *overrides, int n_overrides,
+                         jg_params *out, jg_error *err);
+
+/* Check a filled struct (ranges, finiteness, consistency). The loader calls
+ * this; programs that fill the struct by hand should call it too. */
+jg_status jg_params_validate(const jg_params *p, jg_error *err);
+
+/* Write every key with its effective value as `# key = value;` lines (the
+ * header block of every output table). */
+void jg_params_write_header(FILE *f, const jg_params *p);
+
+/* One documented key: the loader, `jeansgrow keys` and the README table all
+ * come from the same list. */
+typedef struct jg_param_doc {
+  const char *key;        /* e.g. "cosmology.hubble_h" */
+  const char *type;       /* "number", "integer", "list of numbers", ... */
+  const char *unit;       /* "" when dimensionless */
+  const char *default_text;
+  const char *allowed;    /* human-readable range */
+  const char *meaning;
+} jg_param_doc;
+
+/* The i-th documented key, or NULL past the end. */
+const jg_param_doc *jg_param_doc_at(int i);
+
+#ifdef __cplusplus
+}
+#endif
+#endif

@@ -1,0 +1,54 @@
+/*
+ * Output tables and files.
+ *
+ * Every table is plain text: `#` header lines (program version, the full
+ * effective parameter set, the conventions used), a last header line with the
+ * column names as `name[unit]`, then tab-separated rows. A file is written to
+ * a temporary name in its own folder and renamed into place only when
+ * complete, so an interrupted run leaves either the old file or the new one,
+ * never a truncated table.
+ */
+#ifndef JEANSGROW_TABLE_H
+#define JEANSGROW_TABLE_H
+
+#include <stdio.h>
+
+#include "jeansgrow/error.h"
+#include "jeansgrow/params.h"
+
+#ifdef __cplusplus
+extern "C" {
+#endif
+
+typedef struct jg_output jg_output;
+
+/* Open an output place: a path (written atomically) or NULL / "-" for
+ * stdout. Fails with JG_EIO, naming the path, if the folder cannot be
+ * written; nothing is created in that case. */
+jg_status jg_output_open(const char *path, jg_output **out, jg_error *err);
+/* The stream to write to. */
+FILE *jg_output_stream(jg_output *o);
+/* Flush, sync and rename into place; frees o. On failure the temporary file
+ * is removed and the previous file (if any) is left as it was. */
+jg_status jg_output_commit(jg_output *o, jg_error *err);
+/* Give up: remove the temporary file; frees o. Accepts NULL. */
+void jg_output_discard(jg_output *o);
+/* Path of the temporary file being written (NULL for stdout); for signal
+ * handlers that must remove it. */
+const char *jg_output_temp_path(const jg_output *o);
+
+/* Write the standard header: title line, version, parameters, conventions
+ * (NULL-terminated list of lines, may be NULL). */
+void jg_table_write_preamble(FILE *f, const char *title, const jg_params *p,
+                             const char *const *conventions);
+/* Write the column-name line (the last header line). */
+void jg_table_write_columns(FILE *f, const char *const *names, int n);
+/* Write one row in %.10e. Refuses (JG_ENUMERIC, naming the column and the
+ * row's first value) if any value is NaN or infinite: nothing is written. */
+jg_status jg_table_write_row(FILE *f, const double *values, int n, const char *const *names,
+                             jg_error *err);
+
+#ifdef __cplusplus
+}
+#endif
+#endif

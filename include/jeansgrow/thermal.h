@@ -1,0 +1,78 @@
+/*
+ * The ionisation and gas-temperature history after recombination.
+ *
+ * Hydrogen: the effective three-level atom of Peebles (1968) in the form of
+ * Seager, Sasselov & Scott (1999, ApJ 523, L1; 2000, ApJS 128, 407), with the
+ * case-B coefficient of Pequignot, Petitjean & Boisson (1991) times the fudge
+ * factor F, and Saha equilibrium while x_p > thermal.saha_limit.
+ * Helium: Saha equilibrium for He II <-> He I and He III <-> He II.
+ * Gas temperature: Compton heating by the CMB against adiabatic cooling,
+ *   dT_gas/dt = -2 H T_gas + Gamma_C (T_rad - T_gas),
+ * with the quasi-static solution T_rad (1 - H/Gamma_C) while H/Gamma_C is below
+ * thermal.quasi_static_limit. All stiff pieces use GSL's msbdf stepper with an
+ * analytic Jacobian (recombination.c, gas_temperature.c); thermal.c drives
+ * them and stores the history on a grid uniform in ln a, with cubic splines.
+ *
+ * Above thermal.start_redshift the history is Saha equilibrium and the
+ * quasi-static temperature, evaluated directly. No reionisation.
+ *
+ * Read-only after jg_thermal_new(): share one between threads freely.
+ */
+#ifndef JEANSGROW_THERMAL_H
+#define JEANSGROW_THERMAL_H
+
+#include "jeansgrow/background.h"
+#include "jeansgrow/error.h"
+#include "jeansgrow/params.h"
+
+#ifdef __cplusplus
+extern "C" {
+#endif
+
+typedef struct jg_thermal jg_thermal;
+
+/* The state of the gas at one redshift. */
+typedef struct jg_thermal_state {
+  double z;
+  double x_e;        /* free electrons per hydrogen nucleus, n_e / n_H */
+  double x_p;        /* ionised hydrogen fraction, n_HII / n_H */
+  double x_HeII;     /* n_HeII / n_H */
+  double x_HeIII;    /* n_HeIII / n_H */
+  double T_gas;      /* K */
+  double T_rad;      /* K */
+  double compton_rate; /* Gamma_C, s^-1 (the coefficient of T_rad - T_gas) */
+  double mu;         /* mean molecular weight in units of m_H */
+} jg_thermal_state;
+
+/* Integrate the history for this background. Fails with JG_EINVAL for bad
+ * settings and JG_ENUMERIC (naming the stage and the redshift) if the stiff
+ * integration fails. */
+jg_thermal *jg_thermal_new(const jg_background *bg, const jg_thermal_settings *settings,
+                           jg_error *err);
+void jg_thermal_free(jg_thermal *th);
+
+/* The background the history was built on. */
+const jg_background *jg_thermal_background(const jg_thermal *th);
+
+/* The state at redshift z >= 0 (interpolated on the stored grid, or the
+ * equilibrium solution above the start redshift). */
+void jg_thermal_state_at(const jg_thermal *th, double z, jg_thermal_state *s);
+/* Fast accessors for the perturbation right-hand sides, in ln a. */
+double jg_thermal_x_e(const jg_thermal *th, double ln_a);
+double jg_thermal_T_gas(const jg_thermal *th, double ln_a);
+
+/* Thomson optical depth from today back to z (no reionisation). */
+double jg_thermal_optical_depth(const jg_thermal *th, double z);
+/* Visibility per unit redshift, g = (dtau/dz) exp(-tau). */
+double jg_thermal_visibility(const jg_thermal *th, double z);
+/* Baryon drag depth: the optical-depth integrand divided by
+ * R = 3 rho_b / (4 rho_gamma), integrated from today back to z. */
+double jg_thermal_drag_depth(const jg_thermal *th, double z);
+
+/* Highest redshift of the stored grid (thermal.start_redshift). */
+double jg_thermal_start_redshift(const jg_thermal *th);
+
+#ifdef __cplusplus
+}
+#endif
+#endif

@@ -1,0 +1,527 @@
+/*
+ * The expansion history: Friedmann equation, densities, and the integrals
+ * over it (cosmic and conformal time, distances, sound horizon, Heath growth).
+ *
+ * Every integral is written in s = sqrt(a) over the quantity
+ *
+ *   Q(a) = a^4 E(a)^2 = Omega_r + Omega_m a + Omega_k a^2 + Omega_de a^4 f_de(a),
+ *
+ * which tends to Omega_r > 0 as a -> 0. In a the conformal-time integrand
+ * 1/sqrt(Q) is finite but, when radiation is negligible (test cosmologies
+ * with a tiny T_cmb), behaves like a^-1/2 over almost the whole range; with
+ * da = 2 s ds it becomes 2 s / sqrt(Q(s^2)) -> 2 / sqrt(Omega_m), smooth in
+ * both the radiation- and the matter-dominated limit, so plain Gauss-Kronrod
+ * quadrature (gsl_integration_qag) reaches the 1e-8 target without relying on
+ * extrapolation at an endpoint singularity.
+ *
+ * Thread safety: the object is read-only after jg_background_new; each
+ * integral allocates its own GSL workspace and keeps its state on the stack.
+ * The library never touches the GSL error handler; callers switch it off.
+ */
+#include "jeansgrow/background.h"
+
+#include <math.h>
+#include <stdlib.h>
+
+#include <gsl/gsl_errno.h>
+#include <gsl/gsl_integration.h>
+#include <gsl/gsl_min.h>
+
+#include "jeansgrow/constants.h"
+
+/* Smallest scale factor at which jg_background_new checks H^2 > 0, as the
+ * public header promises (a = 1e-10, z ~ 1e10: far before anything the
+ * thermal history or the perturbations integrate). */
+#define BG_A_CHECK_MIN 1.0e-10
+/* Samples per e-fold of a for the H^2 > 0 scan; any local minimum found on
+ * this grid is then refined with Brent's method, so a dip narrower than the
+ * spacing near a turning point is still caught. */
+#define BG_SCAN_PER_EFOLD 200
+/* Relative accuracy requested from GSL: ten times tighter than the 1e-8
+ * promised for every integral, so the promise holds with the error estimate. */
+#define BG_QUAD_EPSREL 1.0e-9
+#define BG_QUAD_LIMIT 1000
+
+/* ---- the Friedmann equation --------------------------------------------- */
+
+static int is_cosmological_constant(const jg_background *bg) {
+  return bg->cosmology.de_w0 == -1.0 && bg->cosmology.de_wa == 0.0;
+}
+
+/* Omega_de a^4 f_de(a), with the CPL f_de = a^(-3(1+w0+wa)) exp(-3 wa (1-a)).
+ * The cosmological constant is special-cased so that it is exactly a^4 and
+ * the Lambda-CDM results do not carry exp/log rounding. */
+static double de_term_a4(const jg_background *bg, double a) {
+  if (is_cosmological_constant(bg)) {
+    double a2 = a * a;
+    return bg->omega_de * a2 * a2;
+  }
+  double w0 = bg->cosmology.de_w0, wa = bg->cosmology.de_wa;
+  return bg->omega_de * exp((1.0 - 3.0 * (w0 + wa)) * log(a) - 3.0 * wa * (1.0 - a));
+}
+
+/* Q(a) = a^4 E^2: positive and finite from a = 0 on for an accepted model. */
+static double q_of_a(const jg_background *bg, double a) {
+  return bg->omega_r + a * (bg->omega_m + a * bg->omega_k) + de_term_a4(bg, a);
+}
+
+double jg_background_E(const jg_background *bg, double a) {
+  return sqrt(q_of_a(bg, a)) / (a * a);
+}
+
+double jg_background_hubble(const jg_background *bg, double a) {
+  return bg->H0 * jg_background_E(bg, a);
+}
+
+double jg_background_dlnH_dlna(const jg_background *bg, double a) {
+  /* d ln E^2 / d ln a of each term: -4 radiation, -3 matter, -2 curvature,
+   * -3 (1 + w(a)) dark energy with w(a) = w0 + wa (1 - a). */
+  double w = bg->cosmology.de_w0 + bg->cosmology.de_wa * (1.0 - a);
+  double rad = bg->omega_r, mat = bg->omega_m * a, cur = bg->omega_k * a * a;
+  double de = de_term_a4(bg, a);
+  double q = rad + mat + cur + de;
+  return 0.5 * (-4.0 * rad - 3.0 * mat - 2.0 * cur - 3.0 * (1.0 + w) * de) / q;
+}
+
+double jg_background_rho_matter(const jg_background *bg, double a) {
+  return bg->omega_m * bg->rho_crit0 / (a * a * a);
+}
+
+double jg_background_rho_baryon(const jg_background *bg, double a) {
+  return bg->omega_b * bg->rho_crit0 / (a * a * a);
+}
+
+double jg_background_omega_m_of_a(const jg_background *bg, double a) {
+  /* Omega_m a^-3 / E^2 = Omega_m a / Q: the share of H^2 (curvature counted
+   * as a term of H^2, as in the usual Omega_m(z)). */
+  return bg->omega_m * a / q_of_a(bg, a);
+}
+
+double jg_background_n_hydrogen(const jg_background *bg, double a) {
+  return bg->n_H0 / (a * a * a);
+}
+
+double jg_background_T_radiation(const jg_background *bg, double a) {
+  return bg->cosmology.cmb_temperature_K / a;
+}
+
+double jg_background_z_equality(const jg_background *bg) {
+  return bg->omega_m / bg->omega_r - 1.0;
+}
+
+/* ---- construction and validation ---------------------------------------- */
+
+static jg_status check_finite(double v, const char *key, jg_error *err) {
+  if (!isfinite(v))
+    return JG_FAIL(err, JG_EINVAL, "cosmology.%s must be a finite number (got %g)", key, v);
+  return JG_OK;
+}
+
+static jg_status validate_cosmology(const jg_cosmology *c, jg_error *err) {
+  const struct {
+    const char *key;
+    double value;
+  } fields[] = {
+      {"hubble_h", c->hubble_h},
+      {"baryon_density_h2", c->baryon_density_h2},
+      {"cdm_density_h2", c->cdm_density_h2},
+      {"curvature_omega", c->curvature_omega},
+      {"cmb_temperature_K", c->cmb_temperature_K},
+      {"helium_mass_fraction", c->helium_mass_fraction},
+      {"neutrino_number_eff", c->neutrino_number_eff},
+      {"de_w0", c->de_w0},
+      {"de_wa", c->de_wa},
+  };
+  for (size_t i = 0; i < sizeof fields / sizeof fields[0]; ++i) {
+    jg_status st = check_finite(fields[i].value, fields[i].key, err);
+    if (st != JG_OK) return st;
+  }
+  if (!(c->hubble_h > 0.0))
+    return JG_FAIL(err, JG_EINVAL, "cosmology.hubble_h must be > 0 (got %g)", c->hubble_h);
+  if (!(c->baryon_density_h2 > 0.0))
+    return JG_FAIL(err, JG_EINVAL, "cosmology.baryon_density_h2 must be > 0 (got %g)",
+                   c->baryon_density_h2);
+  if (!(c->cdm_density_h2 > 0.0))
+    return JG_FAIL(err, JG_EINVAL, "cosmology.cdm_density_h2 must be > 0 (got %g)",
+                   c->cdm_density_h2);
+  if (!(c->cmb_temperature_K > 0.0))
+    return JG_FAIL(err, JG_EINVAL, "cosmology.cmb_temperature_K must be > 0 (got %g)",
+                   c->cmb_temperature_K);
+  if (!(c->helium_mass_fraction >= 0.0 && c->helium_mass_fraction < 1.0))
+    return JG_FAIL(err, JG_EINVAL, "cosmology.helium_mass_fraction must be in [0, 1) (got %g)",
+                   c->helium_mass_fraction);
+  if (!(c->neutrino_number_eff >= 0.0))
+    return JG_FAIL(err, JG_EINVAL, "cosmology.neutrino_number_eff must be >= 0 (got %g)",
+                   c->neutrino_number_eff);
+  /* The whole library assumes a radiation-dominated start (1 + z_eq =
+   * Omega_m/Omega_r, integrals from a = 0, the thermal history). CPL dark
+   * energy has w -> w0 + wa as a -> 0; at w >= 1/3 it would dilute no faster
+   * than radiation and could dominate, or, if Omega_de < 0, drive H^2
+   * negative below the scanned range. */
+  if (!(c->de_w0 + c->de_wa < 1.0 / 3.0))
+    return JG_FAIL(err, JG_EINVAL,
+                   "cosmology.de_w0 + cosmology.de_wa must be < 1/3 so that dark energy is "
+                   "negligible at early times (got %g + %g = %g)",
+                   c->de_w0, c->de_wa, c->de_w0 + c->de_wa);
+  return JG_OK;
+}
+
+
+/* The state an integrand or the minimiser needs. GSL passes a void *; a
+ * mutable context on the caller's stack keeps the background itself const
+ * and records a bad point (H^2 <= 0) instead of feeding NaN to the quadrature. */
+typedef struct bg_ctx {
+  const jg_background *bg;
+  int bad;      /* set when Q(a) <= 0 or non-finite was met */
+  double bad_a; /* where */
+} bg_ctx;
+
+static double q_checked(bg_ctx *ctx, double a) {
+  double q = q_of_a(ctx->bg, a);
+  if (!(q > 0.0) || !isfinite(q)) {
+    if (!ctx->bad) ctx->bad_a = a;
+    ctx->bad = 1;
+    return NAN;
+  }
+  return q;
+}
+
+/* Q as a function of ln a, for the minimiser. */
+static double q_of_lna(double lna, void *params) {
+  bg_ctx *ctx = params;
+  return q_of_a(ctx->bg, exp(lna));
+}
+
+/* Refine a sampled local minimum of Q between ln a = x_lo and x_hi (with
+ * x_mid the sample) using Brent's method. *q_min gets the smallest Q found
+ * and *x_min its ln a; if the minimiser cannot run (flat samples) or fails,
+ * the sampled value stands, which is still a valid point to check. */
+static jg_status refine_minimum(bg_ctx *ctx, double x_lo, double x_mid, double x_hi,
+                                double *x_min, double *q_min, jg_error *err) {
+  gsl_function f = {q_of_lna, ctx};
+  double f_lo = q_of_lna(x_lo, ctx), f_mid = q_of_lna(x_mid, ctx), f_hi = q_of_lna(x_hi, ctx);
+  *x_min = x_mid;
+  *q_min = f_mid;
+  if (!(f_mid < f_lo && f_mid < f_hi)) return JG_OK;
+  gsl_min_fminimizer *m = gsl_min_fminimizer_alloc(gsl_min_fminimizer_brent);
+  if (!m) return JG_FAIL(err, JG_ENOMEM, "background: cannot allocate the GSL minimiser");
+  if (gsl_min_fminimizer_set_with_values(m, &f, x_mid, f_mid, x_lo, f_lo, x_hi, f_hi) ==
+      GSL_SUCCESS) {
+    /* A double root of Q has a flat bottom: stop on the bracket width in
+     * ln a, far below any physically meaningful interval. */
+    for (int iter = 0; iter < 200; ++iter) {
+      if (gsl_min_fminimizer_iterate(m) != GSL_SUCCESS) break;
+      double lo = gsl_min_fminimizer_x_lower(m), hi = gsl_min_fminimizer_x_upper(m);
+      double fm = gsl_min_fminimizer_f_minimum(m);
+      if (fm < *q_min) {
+        *q_min = fm;
+        *x_min = gsl_min_fminimizer_x_minimum(m);
+      }
+      if (gsl_min_test_interval(lo, hi, 1e-12, 0.0) == GSL_SUCCESS) break;
+    }
+  }
+  gsl_min_fminimizer_free(m);
+  return JG_OK;
+}
+
+/* Reject models in which H^2 <= 0 (or overflows) somewhere on
+ * [BG_A_CHECK_MIN, 1]: such a universe did not expand from a hot big bang
+ * (a bounce or loitering closed model), and every integral from a = 0 would
+ * be meaningless. */
+static jg_status check_expansion(const jg_background *bg, jg_error *err) {
+  bg_ctx ctx = {bg, 0, 0.0};
+  const double x0 = log(BG_A_CHECK_MIN);
+  const int n = (int)ceil(-x0 * BG_SCAN_PER_EFOLD);
+  const double dx = -x0 / n;
+  double worst_q = HUGE_VAL, worst_x = 0.0;
+  double q_prev2 = 0.0, q_prev = 0.0;
+  for (int i = 0; i <= n; ++i) {
+    double x = (i == n) ? 0.0 : x0 + i * dx;
+    double q = q_of_lna(x, &ctx);
+    if (!isfinite(q))
+      return JG_FAIL(err, JG_EINVAL,
+                     "cosmology: H^2 is not finite at z = %.6g (a = %.6g); check "
+                     "cosmology.de_w0 and cosmology.de_wa",
+                     exp(-x) - 1.0, exp(x));
+    if (q < worst_q) {
+      worst_q = q;
+      worst_x = x;
+    }
+    /* A sampled local minimum: a turning point of H^2 between the samples
+     * i-2 and i. Refine it; the true minimum may dip below zero in between. */
+    if (i >= 2 && q_prev <= q_prev2 && q_prev <= q) {
+      double xm, qm;
+      jg_status st = refine_minimum(&ctx, x - 2.0 * dx, x - dx, x, &xm, &qm, err);
+      if (st != JG_OK) return st;
+      if (qm < worst_q) {
+        worst_q = qm;
+        worst_x = xm;
+      }
+    }
+    q_prev2 = q_prev;
+    q_prev = q;
+  }
+  if (!(worst_q > 0.0)) {
+    double a = exp(worst_x);
+    return JG_FAIL(err, JG_EINVAL,
+                   "cosmology: H^2 <= 0 at z = %.6g (a = %.6g, H^2/H0^2 = %.3g): no "
+                   "expansion from a hot big bang with cosmology.curvature_omega = %g, "
+                   "Omega_m = %g and dark-energy Omega_de = %g",
+                   1.0 / a - 1.0, a, worst_q / (a * a * a * a), bg->omega_k, bg->omega_m,
+                   bg->omega_de);
+  }
+  return JG_OK;
+}
+
+jg_background *jg_background_new(const jg_cosmology *c, jg_error *err) {
+  if (!c) {
+    JG_FAIL(err, JG_EINVAL, "jg_background_new: no cosmology given (NULL)");
+    return NULL;
+  }
+  if (validate_cosmology(c, err) != JG_OK) return NULL;
+
+  jg_background *bg = calloc(1, sizeof *bg);
+  if (!bg) {
+    JG_FAIL(err, JG_ENOMEM, "jg_background_new: out of memory");
+    return NULL;
+  }
+  bg->cosmology = *c;
+  const double h = c->hubble_h, T0 = c->cmb_temperature_K, Y = c->helium_mass_fraction;
+  bg->H0 = h * JG_H100;
+  bg->rho_crit0 = 3.0 * bg->H0 * bg->H0 / (8.0 * JG_PI * JG_G_NEWTON);
+  /* Black-body photons: energy density a_rad T^4, as a mass density / c^2. */
+  bg->omega_gamma = JG_A_RADIATION * T0 * T0 * T0 * T0 /
+                    (bg->rho_crit0 * JG_C_LIGHT * JG_C_LIGHT);
+  /* Massless neutrinos: (7/8) per fermionic degree of freedom, with
+   * T_nu/T_gamma = (4/11)^(1/3) after e+e- annihilation. */
+  bg->omega_nu = c->neutrino_number_eff * (7.0 / 8.0) * pow(4.0 / 11.0, 4.0 / 3.0) *
+                 bg->omega_gamma;
+  bg->omega_r = bg->omega_gamma + bg->omega_nu;
+  bg->omega_b = c->baryon_density_h2 / (h * h);
+  bg->omega_c = c->cdm_density_h2 / (h * h);
+  bg->omega_m = bg->omega_b + bg->omega_c;
+  bg->omega_k = c->curvature_omega;
+  bg->omega_de = 1.0 - bg->omega_m - bg->omega_r - bg->omega_k;
+  bg->baryon_fraction = bg->omega_b / bg->omega_m;
+  const double rho_b0 = bg->omega_b * bg->rho_crit0;
+  /* Hydrogen mass fraction 1 - Y carried by 1H atoms (electron included, as
+   * the gas is counted in atoms per unit mass). */
+  bg->n_H0 = (1.0 - Y) * rho_b0 / JG_M_HYDROGEN_ATOM;
+  /* Exact number ratio from the mass fraction and the two atomic masses:
+   * n_He/n_H = [Y/m_He4] / [(1-Y)/m_H] = Y m_H / ((1-Y) m_He4). The common
+   * shortcut Y/(4(1-Y)) takes m_He4 = 4 m_H and is 0.7 % lower. */
+  bg->helium_to_hydrogen = Y * JG_M_HYDROGEN_ATOM / ((1.0 - Y) * JG_M_HELIUM4_ATOM);
+  /* R = 3 rho_b / (4 rho_gamma) grows as a since rho_b ~ a^-3, rho_gamma ~ a^-4. */
+  bg->R_coefficient = 3.0 * bg->omega_b / (4.0 * bg->omega_gamma);
+
+  /* Extreme but finite inputs can still overflow (h ~ 1e200) or underflow
+   * (T_cmb ~ 1e-100) here; every later formula divides by these. */
+  const double positive[] = {bg->H0, bg->rho_crit0, bg->omega_gamma, bg->omega_m, bg->n_H0,
+                             bg->R_coefficient};
+  int representable = isfinite(bg->omega_de) && isfinite(bg->omega_r);
+  for (size_t i = 0; i < sizeof positive / sizeof positive[0]; ++i)
+    representable = representable && isfinite(positive[i]) && positive[i] > 0.0;
+  if (!representable) {
+    JG_FAIL(err, JG_EINVAL,
+            "cosmology: derived densities overflow or underflow double precision "
+            "(hubble_h = %g, baryon_density_h2 = %g, cdm_density_h2 = %g, "
+            "cmb_temperature_K = %g)",
+            h, c->baryon_density_h2, c->cdm_density_h2, T0);
+    free(bg);
+    return NULL;
+  }
+  if (check_expansion(bg, err) != JG_OK) {
+    free(bg);
+    return NULL;
+  }
+  return bg;
+}
+
+void jg_background_free(jg_background *bg) { free(bg); }
+
+/* ---- integrals ----------------------------------------------------------- */
+
+/* Integrands in s = sqrt(a) (da = 2 s ds); see the file comment. */
+
+/* H0 t = int a da / sqrt(Q). */
+static double integrand_time(double s, void *params) {
+  bg_ctx *ctx = params;
+  double a = s * s;
+  return 2.0 * s * a / sqrt(q_checked(ctx, a));
+}
+
+/* H0 eta / c = int da / sqrt(Q) (also the comoving distance). */
+static double integrand_conformal(double s, void *params) {
+  bg_ctx *ctx = params;
+  return 2.0 * s / sqrt(q_checked(ctx, s * s));
+}
+
+/* H0 r_s / c = int da / (sqrt(3 (1 + R)) sqrt(Q)), R = R_coefficient a. */
+static double integrand_sound(double s, void *params) {
+  bg_ctx *ctx = params;
+  double a = s * s;
+  return 2.0 * s / (sqrt(3.0 * (1.0 + ctx->bg->R_coefficient * a)) * sqrt(q_checked(ctx, a)));
+}
+
+/* Heath's integrand without radiation: da / (a E)^3 with
+ * (a E)^2 = P(a) / a, P = Omega_m + Omega_k a + Omega_Lambda a^3,
+ * i.e. a^(3/2) da / P^(3/2) = 2 s^4 ds / P^(3/2). */
+static double heath_p(const jg_background *bg, double a) {
+  return bg->omega_m + a * (bg->omega_k + a * a * bg->omega_de);
+}
+
+static double integrand_heath(double s, void *params) {
+  bg_ctx *ctx = params;
+  double a = s * s;
+  double p = heath_p(ctx->bg, a);
+  if (!(p > 0.0)) {
+    if (!ctx->bad) ctx->bad_a = a;
+    ctx->bad = 1;
+    return NAN;
+  }
+  return 2.0 * a * a / (p * sqrt(p));
+}
+
+/* int_{s_lo}^{s_hi} f ds by GSL's adaptive Gauss-Kronrod rule; `what` and
+ * `z` only name the failure. */
+static jg_status integrate(const jg_background *bg, double (*f)(double, void *), double s_lo,
+                           double s_hi, const char *what, double z, double *result,
+                           jg_error *err) {
+  bg_ctx ctx = {bg, 0, 0.0};
+  gsl_function fn = {f, &ctx};
+  gsl_integration_workspace *w = gsl_integration_workspace_alloc(BG_QUAD_LIMIT);
+  if (!w) return JG_FAIL(err, JG_ENOMEM, "background: cannot allocate the %s workspace", what);
+  double value = 0.0, abserr = 0.0;
+  int st = gsl_integration_qag(&fn, s_lo, s_hi, 0.0, BG_QUAD_EPSREL, BG_QUAD_LIMIT,
+                               GSL_INTEG_GAUSS61, w, &value, &abserr);
+  gsl_integration_workspace_free(w);
+  if (ctx.bad)
+    return JG_FAIL(err, JG_ENUMERIC,
+                   "background: %s to z = %g: H^2 <= 0 at a = %.6g inside the integral", what,
+                   z, ctx.bad_a);
+  if (st != GSL_SUCCESS || !isfinite(value))
+    return JG_FAIL(err, JG_ENUMERIC,
+                   "background: %s to z = %g failed in GSL quadrature: %s (value %g, "
+                   "error estimate %g)",
+                   what, z, gsl_strerror(st), value, abserr);
+  *result = value;
+  return JG_OK;
+}
+
+static jg_status check_args_a(const jg_background *bg, double a, const void *out,
+                              const char *fn, jg_error *err) {
+  if (!bg || !out) return JG_FAIL(err, JG_EINVAL, "%s: NULL background or result pointer", fn);
+  if (!(a > 0.0 && a <= 1.0))
+    return JG_FAIL(err, JG_EINVAL, "%s: scale factor a = %g is outside (0, 1]", fn, a);
+  return JG_OK;
+}
+
+static jg_status check_args_z(const jg_background *bg, double z, const void *out,
+                              const char *fn, jg_error *err) {
+  if (!bg || !out) return JG_FAIL(err, JG_EINVAL, "%s: NULL background or result pointer", fn);
+  if (!(z >= 0.0 && isfinite(z)))
+    return JG_FAIL(err, JG_EINVAL, "%s: redshift z = %g must be finite and >= 0", fn, z);
+  return JG_OK;
+}
+
+/* c / H0 in Mpc. */
+static double hubble_distance_mpc(const jg_background *bg) {
+  return JG_C_LIGHT / bg->H0 / JG_MPC;
+}
+
+jg_status jg_background_cosmic_time(const jg_background *bg, double a, double *t, jg_error *err) {
+  jg_status st = check_args_a(bg, a, t, "jg_background_cosmic_time", err);
+  if (st != JG_OK) return st;
+  double v;
+  st = integrate(bg, integrand_time, 0.0, sqrt(a), "cosmic time", 1.0 / a - 1.0, &v, err);
+  if (st != JG_OK) return st;
+  *t = v / bg->H0;
+  return JG_OK;
+}
+
+jg_status jg_background_conformal_time(const jg_background *bg, double a, double *eta_mpc,
+                                       jg_error *err) {
+  jg_status st = check_args_a(bg, a, eta_mpc, "jg_background_conformal_time", err);
+  if (st != JG_OK) return st;
+  double v;
+  st = integrate(bg, integrand_conformal, 0.0, sqrt(a), "conformal time", 1.0 / a - 1.0, &v,
+                 err);
+  if (st != JG_OK) return st;
+  *eta_mpc = v * hubble_distance_mpc(bg);
+  return JG_OK;
+}
+
+jg_status jg_background_comoving_distance(const jg_background *bg, double z, double *d_mpc,
+                                          jg_error *err) {
+  jg_status st = check_args_z(bg, z, d_mpc, "jg_background_comoving_distance", err);
+  if (st != JG_OK) return st;
+  if (z == 0.0) {
+    *d_mpc = 0.0;
+    return JG_OK;
+  }
+  /* Integrated directly from a to 1 rather than as eta(1) - eta(a), which
+   * would lose relative accuracy at low z. */
+  double v;
+  st = integrate(bg, integrand_conformal, sqrt(1.0 / (1.0 + z)), 1.0, "comoving distance", z,
+                 &v, err);
+  if (st != JG_OK) return st;
+  *d_mpc = v * hubble_distance_mpc(bg);
+  return JG_OK;
+}
+
+jg_status jg_background_transverse_distance(const jg_background *bg, double z, double *d_mpc,
+                                            jg_error *err) {
+  double chi;
+  jg_status st = jg_background_comoving_distance(bg, z, &chi, err);
+  if (st != JG_OK) return st;
+  const double ok = bg->omega_k, dh = hubble_distance_mpc(bg);
+  if (ok > 0.0) {
+    double sk = sqrt(ok);
+    *d_mpc = dh / sk * sinh(sk * chi / dh);
+  } else if (ok < 0.0) {
+    double sk = sqrt(-ok);
+    *d_mpc = dh / sk * sin(sk * chi / dh);
+  } else {
+    *d_mpc = chi;
+  }
+  return JG_OK;
+}
+
+jg_status jg_background_sound_horizon(const jg_background *bg, double z, double *r_mpc,
+                                      jg_error *err) {
+  jg_status st = check_args_z(bg, z, r_mpc, "jg_background_sound_horizon", err);
+  if (st != JG_OK) return st;
+  double v;
+  st = integrate(bg, integrand_sound, 0.0, sqrt(1.0 / (1.0 + z)), "sound horizon", z, &v, err);
+  if (st != JG_OK) return st;
+  *r_mpc = v * hubble_distance_mpc(bg);
+  return JG_OK;
+}
+
+jg_status jg_background_growth_heath(const jg_background *bg, double a, double *D,
+                                     jg_error *err) {
+  jg_status st = check_args_a(bg, a, D, "jg_background_growth_heath", err);
+  if (st != JG_OK) return st;
+  /* Heath's closed form solves the growth equation only when the smooth
+   * components are matter, curvature and a cosmological constant. */
+  if (!is_cosmological_constant(bg))
+    return JG_FAIL(err, JG_EINVAL,
+                   "jg_background_growth_heath: the Heath (1977) integral holds only for a "
+                   "cosmological constant (cosmology.de_w0 = -1, cosmology.de_wa = 0); got "
+                   "w0 = %g, wa = %g",
+                   bg->cosmology.de_w0, bg->cosmology.de_wa);
+  /* Radiation is left out of E, as in the integral's derivation; Omega_Lambda
+   * and Omega_k keep their values (closure with radiation), so E(1) = 1 -
+   * O(Omega_r), and D -> a as a -> 0 whatever the closure. */
+  const double p_a = heath_p(bg, a);
+  if (!(p_a > 0.0))
+    return JG_FAIL(err, JG_EINVAL,
+                   "jg_background_growth_heath: without radiation H^2 <= 0 at a = %g", a);
+  double v;
+  st = integrate(bg, integrand_heath, 0.0, sqrt(a), "Heath growth integral", 1.0 / a - 1.0, &v,
+                 err);
+  if (st != JG_OK) return st;
+  const double e_no_rad = sqrt(p_a / (a * a * a));
+  *D = 2.5 * bg->omega_m * e_no_rad * v;
+  return JG_OK;
+}

@@ -1,0 +1,54 @@
+/* The command-line program: shared option parsing and error reporting. */
+#ifndef JEANSGROW_CLI_H
+#define JEANSGROW_CLI_H
+
+#include "jeansgrow/jeansgrow.h"
+
+#define CLI_MAX_OVERRIDES 256
+
+/* Exit statuses of the program. */
+enum { EXIT_OK = 0, EXIT_RUN_FAILED = 1, EXIT_BAD_INPUT = 2 };
+
+typedef struct cli_command {
+  const char *name;
+  const char *summary;
+  const char *usage;   /* after "jeansgrow NAME " */
+  const char *details; /* extra --help text, may be NULL */
+  int takes_output;    /* accepts -o */
+  int (*run)(const struct cli_command *cmd, int argc, char **argv);
+} cli_command;
+
+typedef struct cli_options {
+  const char *param_path;
+  const char *overrides[CLI_MAX_OVERRIDES];
+  int n_overrides;
+  const char *output_path; /* NULL: stdout */
+} cli_options;
+
+/* Parse `[--set k=v]... [-o FILE] [--help] PARAMFILE`. Returns -1 to go on,
+ * or an exit status (after printing help or an error). */
+int cli_parse_options(const cli_command *cmd, int argc, char **argv, cli_options *o);
+
+/* Load the parameters named by the options; prints the error on failure. */
+int cli_load_params(const cli_options *o, jg_params *p);
+
+/* Print "jeansgrow: MESSAGE" for a failed library call and return the exit
+ * status: 2 for bad input, 1 for a failure during the run. */
+int cli_report(const jg_error *err);
+
+/* Open the output (atomic file or stdout) and protect it from interrupts:
+ * on SIGINT/SIGTERM the temporary file is removed and the program exits. */
+int cli_open_output(const cli_options *o, jg_output **out);
+/* Commit it; returns the exit status. */
+int cli_commit_output(jg_output *out);
+/* Throw it away (after a failure). */
+void cli_discard_output(jg_output *out);
+
+/* The background and thermal history for a parameter set, or an exit status. */
+int cli_build_history(const jg_params *p, jg_background **bg, jg_thermal **th);
+
+int cmd_history(const cli_command *cmd, int argc, char **argv);
+int cmd_epochs(const cli_command *cmd, int argc, char **argv);
+int cmd_keys(const cli_command *cmd, int argc, char **argv);
+
+#endif

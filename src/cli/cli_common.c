@@ -1,0 +1,158 @@
+/* Option parsing, error reporting and interrupt safety shared by all commands. */
+#include <getopt.h>
+#include <signal.h>
+#include <stdio.h>
+#include <stdlib.h>
+#include <string.h>
+#include <unistd.h>
+
+#include "cli.h"
+
+/* The temporary output file being written, for the signal handler. Program
+ * state, not library state: the library keeps no globals. */
+static volatile sig_atomic_t have_temp_path = 0;
+static char temp_path[4096];
+
+static void on_interrupt(int sig) {
+  if (have_temp_path) unlink(temp_path);
+  static const char msg[] = "jeansgrow: interrupted; no output file was written\n";
+  ssize_t ignored = write(STDERR_FILENO, msg, sizeof msg - 1);
+  (void)ignored;
+  _exit(128 + sig);
+}
+
+static void install_interrupt_handlers(void) {
+  struct sigaction sa;
+  memset(&sa, 0, sizeof sa);
+  sa.sa_handler = on_interrupt;
+  sigemptyset(&sa.sa_mask);
+  sigaction(SIGINT, &sa, NULL);
+  sigaction(SIGTERM, &sa, NULL);
+}
+
+static void print_command_help(const cli_command *cmd) {
+  printf("Usage: jeansgrow %s %s\n\n%s.\n", cmd->name, cmd->usage, cmd->summary);
+  if (cmd->details) printf("\n%s\n", cmd->details);
+  printf("\nOptions:\n"
+         "  --set KEY=VALUE  override a parameter (libconfig syntax; repeatable)\n");
+  if (cmd->takes_output)
+    printf("  -o, --output FILE  write the table to FILE (atomically) instead of stdout\n");
+  printf("  -h, --help       show this help\n");
+}
+
+int cli_parse_options(const cli_command *cmd, int argc, char **argv, cli_options *o) {
+  memset(o, 0, sizeof *o);
+  static const struct option long_opts[] = {{"set", required_argument, NULL, 's'},
+                                            {"output", required_argument, NULL, 'o'},
+                                            {"help", no_argument, NULL, 'h'},
+                                            {NULL, 0, NULL, 0}};
+  opterr = 0;
+  optind = 1;
+  int c;
+  while ((c = getopt_long(argc, argv, ":o:h", long_opts, NULL)) != -1) {
+    switch (c) {
+    case 's':
+      if (o->n_overrides >= CLI_MAX_OVERRIDES) {
+        fprintf(stderr, "jeansgrow %s: too many --set options (at most %d)\n", cmd->name,
+                CLI_MAX_OVERRIDES);
+        return EXIT_BAD_INPUT;
+      }
+      o->overrides[o->n_overrides++] = optarg;
+      break;
+    case 'o':
+      if (!cmd->takes_output) {
+        fprintf(stderr, "jeansgrow %s: this command does not write a file (no -o)\n", cmd->name);
+        return EXIT_BAD_INPUT;
+      }
+      o->output_path = optarg;
+      break;
+    case 'h':
+      print_command_help(cmd);
+      return EXIT_OK;
+    case ':':
+      fprintf(stderr, "jeansgrow %s: option '%s' needs a value\n", cmd->name, argv[optind - 1]);
+      return EXIT_BAD_INPUT;
+    default:
+      fprintf(stderr, "jeansgrow %s: unknown option '%s' (see jeansgrow %s --help)\n", cmd->name,
+              argv[optind - 1], cmd->name);
+      return EXIT_BAD_INPUT;
+    }
+  }
+  if (optind >= argc) {
+    fprintf(stderr, "jeansgrow %s: missing parameter file (usage: jeansgrow %s %s)\n", cmd->name,
+            cmd->name, cmd->usage);
+    return EXIT_BAD_INPUT;
+  }
+  if (optind + 1 < argc) {
+    fprintf(stderr, "jeansgrow %s: unexpected argument '%s' (one parameter file only)\n",
+            cmd->name, argv[optind + 1]);
+    return EXIT_BAD_INPUT;
+  }
+  o->param_path = argv[optind];
+  return -1;
+}
+
+int cli_report(const jg_error *err) {
+  fprintf(stderr, "jeansgrow: %s\n", err->message[0] ? err->message : jg_strerror(err->status));
+  switch (err->status) {
+  case JG_EINVAL:
+  case JG_ECONFIG:
+    return EXIT_BAD_INPUT;
+  default:
+    return EXIT_RUN_FAILED;
+  }
+}
+
+int cli_load_params(const cli_options *o, jg_params *p) {
+  jg_error err;
+  jg_error_clear(&err);
+  if (jg_params_load(o->param_path, o->overrides, o->n_overrides, p, &err) != JG_OK) {
+    cli_report(&err);
+    return EXIT_BAD_INPUT; /* a missing or unreadable file is bad input too */
+  }
+  return -1;
+}
+
+int cli_open_output(const cli_options *o, jg_output **out) {
+  jg_error err;
+  jg_error_clear(&err);
+  if (jg_output_open(o->output_path, out, &err) != JG_OK) {
+    cli_report(&err);
+    return EXIT_BAD_INPUT;
+  }
+  const char *tmp = jg_output_temp_path(*out);
+  if (tmp && strlen(tmp) < sizeof temp_path) {
+    strcpy(temp_path, tmp);
+    have_temp_path = 1;
+  }
+  install_interrupt_handlers();
+  return -1;
+}
+
+int cli_commit_output(jg_output *out) {
+  jg_error err;
+  jg_error_clear(&err);
+  jg_status st = jg_output_commit(out, &err);
+  have_temp_path = 0;
+  return st == JG_OK ? EXIT_OK : cli_report(&err);
+}
+
+void cli_discard_output(jg_output *out) {
+  jg_output_discard(out);
+  have_temp_path = 0;
+}
+
+int cli_build_history(const jg_params *p, jg_background **bg, jg_thermal **th) {
+  jg_error err;
+  jg_error_clear(&err);
+  *th = NULL;
+  *bg = jg_background_new(&p->cosmology, &err);
+  if (!*bg) return cli_report(&err);
+  *th = jg_thermal_new(*bg, &p->thermal, &err);
+  if (!*th) {
+    jg_background_free(*bg);
+    *bg = NULL;
+    return cli_report(&err);
+  }
+  return -1;
+}

@@ -1,0 +1,48 @@
+/* Status texts and the error record (see include/jeansgrow/error.h). */
+#include "jeansgrow/error.h"
+
+#include <stdarg.h>
+#include <stdio.h>
+
+const char *jg_strerror(jg_status status) {
+  switch (status) {
+#define JG_STATUS_TEXT(name, value, text) \
+  case name:                              \
+    return text;
+    JG_STATUS_TABLE(JG_STATUS_TEXT)
+#undef JG_STATUS_TEXT
+  }
+  return "unknown status";
+}
+
+const char *jg_status_name(jg_status status) {
+  switch (status) {
+#define JG_STATUS_NAME(name, value, text) \
+  case name:                              \
+    return #name;
+    JG_STATUS_TABLE(JG_STATUS_NAME)
+#undef JG_STATUS_NAME
+  }
+  return "JG_UNKNOWN";
+}
+
+void jg_error_clear(jg_error *err) {
+  if (!err) return;
+  err->status = JG_OK;
+  err->message[0] = '\0';
+  err->source_file = NULL;
+  err->source_line = 0;
+}
+
+jg_status jg_error_set(jg_error *err, jg_status status, const char *file, int line,
+                       const char *fmt, ...) {
+  if (!err) return status;
+  err->status = status;
+  err->source_file = file;
+  err->source_line = line;
+  va_list ap;
+  va_start(ap, fmt);
+  vsnprintf(err->message, sizeof err->message, fmt, ap);
+  va_end(ap);
+  return status;
+}
