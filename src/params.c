@@ -22,29 +22,33 @@
 #include <string.h>
 #include <sys/stat.h>
 
-typedef enum { KIND_NUMBER, KIND_INTEGER, KIND_NUMBER_LIST } spec_kind;
+typedef enum { KIND_NUMBER, KIND_INTEGER, KIND_NUMBER_LIST, KIND_CHOICE } spec_kind;
 
 typedef struct param_spec {
   jg_param_doc doc;
   spec_kind kind;
   size_t offset;       /* of the value (or the first list element) in jg_params */
   size_t count_offset; /* lists: of the int element count */
+  int min_count;       /* lists: fewest elements (0: the list may be absent or empty) */
   int max_count;       /* lists: capacity */
   int required;
   double lo, hi;       /* allowed range */
   int lo_open, hi_open;/* strict (>) or inclusive (>=) bounds */
+  const char *const *choices; /* KIND_CHOICE: the allowed words, NULL-terminated; stored as int index */
 } param_spec;
 
 #define P_OFF(field) offsetof(jg_params, field)
 #define NUMBER(key, field, unit, def, allowed, lo, lo_open, hi, hi_open, meaning) \
-  {{key, "number", unit, def, allowed, meaning}, KIND_NUMBER, P_OFF(field), 0, 0, 0, lo, hi, lo_open, hi_open}
+  {{key, "number", unit, def, allowed, meaning}, KIND_NUMBER, P_OFF(field), 0, 0, 0, 0, lo, hi, lo_open, hi_open, NULL}
 #define REQUIRED_NUMBER(key, field, unit, allowed, lo, lo_open, hi, hi_open, meaning) \
-  {{key, "number", unit, "required", allowed, meaning}, KIND_NUMBER, P_OFF(field), 0, 0, 1, lo, hi, lo_open, hi_open}
+  {{key, "number", unit, "required", allowed, meaning}, KIND_NUMBER, P_OFF(field), 0, 0, 0, 1, lo, hi, lo_open, hi_open, NULL}
 #define INTEGER(key, field, def, allowed, lo, hi, meaning) \
-  {{key, "integer", "", def, allowed, meaning}, KIND_INTEGER, P_OFF(field), 0, 0, 0, lo, hi, 0, 0}
+  {{key, "integer", "", def, allowed, meaning}, KIND_INTEGER, P_OFF(field), 0, 0, 0, 0, lo, hi, 0, 0, NULL}
+
+static const char *const sound_speed_words[] = {"fluctuating", "isothermal", "adiabatic", NULL};
 
 static const param_spec specs[] = {
-    REQUIRED_NUMBER("cosmology.hubble_h", cosmology.hubble_h, "", "0 < h <= 5", 0, 1, 5, 0,
+    REQUIRED_NUMBER("cosmology.hubble_h", cosmology.hubble_h, "", "0 < value <= 5", 0, 1, 5, 0,
                     "H0 / (100 km/s/Mpc)"),
     REQUIRED_NUMBER("cosmology.baryon_density_h2", cosmology.baryon_density_h2, "",
                     "0 < value <= 1", 0, 1, 1, 0, "baryon density Omega_b h^2"),
@@ -83,12 +87,36 @@ static const param_spec specs[] = {
     INTEGER("thermal.grid_points", thermal.grid_points, "4000", "200 <= value <= 1000000", 200,
             1000000, "nodes of the stored history, uniform in ln a"),
 
+    NUMBER("perturbations.k_min", perturbations.k_min, "1/Mpc", "1.0", "1 <= value <= 1e5", 1,
+           0, 1e5, 0,
+           "smallest comoving wavenumber of the log-spaced grid (photon pressure and Silk "
+           "damping are neglected, which needs k >= 1/Mpc)"),
+    NUMBER("perturbations.k_max", perturbations.k_max, "1/Mpc", "5000.0",
+           "k_min <= value <= 1e5", 1, 0, 1e5, 0, "largest comoving wavenumber of the grid"),
+    INTEGER("perturbations.k_count", perturbations.k_count, "128", "1 <= value <= 4096", 1,
+            JG_MAX_WAVENUMBERS, "number of grid wavenumbers"),
+    {{"perturbations.k_values", "list of numbers", "1/Mpc", "(none: use the grid)",
+      "1 to 4096 values, each 1 <= k <= 1e5", "explicit wavenumbers, used instead of the grid"},
+     KIND_NUMBER_LIST, P_OFF(perturbations.k_values), P_OFF(perturbations.n_k_values), 0,
+     JG_MAX_WAVENUMBERS, 0, 1, 1e5, 0, 0, NULL},
+    NUMBER("perturbations.z_initial", perturbations.z_initial, "", "10000.0",
+           "1500 <= value <= 100000 and above every output redshift", 1500, 0, 1e5, 0,
+           "redshift where CDM starts on the Meszaros growing mode, baryons at rest"),
+    {{"perturbations.sound_speed", "one of \"fluctuating\", \"isothermal\", \"adiabatic\"", "",
+      "\"fluctuating\"", "fluctuating | isothermal | adiabatic",
+      "gas pressure model: delta_T evolved (scale dependent), or uniform with gamma = 1 or 5/3"},
+     KIND_CHOICE, P_OFF(perturbations.sound_speed), 0, 0, 0, 0, 0, 2, 0, 0, sound_speed_words},
+    NUMBER("perturbations.rel_tol", perturbations.rel_tol, "", "1e-8", "1e-13 <= value <= 1e-3",
+           1e-13, 0, 1e-3, 0, "relative tolerance of the perturbation integration"),
+    NUMBER("perturbations.abs_tol", perturbations.abs_tol, "", "1e-10", "0 < value <= 1e-3", 0,
+           1, 1e-3, 0, "absolute tolerance, in units of the initial CDM contrast"),
+
     {{"output.redshifts", "list of numbers", "",
       "[1100.0, 1000.0, 500.0, 200.0, 100.0, 50.0, 20.0, 10.0]",
       "1 to 512 values, each 0 <= z <= thermal.start_redshift", "redshifts reported by every "
       "table (added exactly to the history table)"},
-     KIND_NUMBER_LIST, P_OFF(output.redshifts), P_OFF(output.n_redshifts), JG_MAX_REDSHIFTS, 0, 0,
-     1e5, 0, 0},
+     KIND_NUMBER_LIST, P_OFF(output.redshifts), P_OFF(output.n_redshifts), 1, JG_MAX_REDSHIFTS, 0,
+     0, 1e5, 0, 0, NULL},
     INTEGER("output.history_rows", output.history_rows, "1000", "10 <= value <= 1000000", 10,
             1000000, "rows of the history table, uniform in ln(1+z)"),
     NUMBER("output.history_z_min", output.history_z_min, "", "0.0",
@@ -98,7 +126,7 @@ static const param_spec specs[] = {
 
 #define N_SPECS ((int)(sizeof specs / sizeof specs[0]))
 
-static const char *const known_groups[] = {"cosmology", "thermal", "output"};
+static const char *const known_groups[] = {"cosmology", "thermal", "perturbations", "output"};
 #define N_GROUPS ((int)(sizeof known_groups / sizeof known_groups[0]))
 
 static const double default_redshifts[] = {1100.0, 1000.0, 500.0, 200.0,
@@ -124,6 +152,15 @@ void jg_params_set_defaults(jg_params *p) {
   p->thermal.rel_tol = 1e-8;
   p->thermal.abs_tol = 1e-12;
   p->thermal.grid_points = 4000;
+
+  p->perturbations.k_min = 1.0;
+  p->perturbations.k_max = 5000.0;
+  p->perturbations.k_count = 128;
+  p->perturbations.n_k_values = 0;
+  p->perturbations.z_initial = 1.0e4;
+  p->perturbations.sound_speed = JG_SOUND_SPEED_FLUCTUATING;
+  p->perturbations.rel_tol = 1e-8;
+  p->perturbations.abs_tol = 1e-10;
 
   p->output.n_redshifts = (int)(sizeof default_redshifts / sizeof default_redshifts[0]);
   memcpy(p->output.redshifts, default_redshifts, sizeof default_redshifts);
@@ -210,8 +247,8 @@ static jg_status check_range(const locator *loc, const param_spec *s, const char
   int above = s->hi_open ? !(v < s->hi) : !(v <= s->hi);
   if (below || above) {
     locate(loc, name, where, sizeof where);
-    return JG_FAIL(err, JG_ECONFIG, "%s%s must be %s (got %.10g)", where, name, s->doc.allowed,
-                   v);
+    return JG_FAIL(err, JG_ECONFIG, "%s%s must satisfy %s (got %.10g)", where, name,
+                   s->doc.allowed, v);
   }
   return JG_OK;
 }
@@ -228,6 +265,31 @@ static jg_status check_cross(const locator *loc, const jg_params *p, jg_error *e
                      "%s%s = %g lies above thermal.start_redshift = %g; raise "
                      "thermal.start_redshift or drop that redshift",
                      where, name, p->output.redshifts[i], z_start);
+    }
+  }
+  const jg_perturb_settings *pt = &p->perturbations;
+  if (pt->n_k_values == 0 && pt->k_max < pt->k_min) {
+    locate(loc, "perturbations.k_max", where, sizeof where);
+    return JG_FAIL(err, JG_ECONFIG,
+                   "%sperturbations.k_max = %g is below perturbations.k_min = %g (reversed "
+                   "wavenumber range)",
+                   where, pt->k_max, pt->k_min);
+  }
+  if (pt->n_k_values == 0 && pt->k_count == 1 && pt->k_max != pt->k_min) {
+    locate(loc, "perturbations.k_count", where, sizeof where);
+    return JG_FAIL(err, JG_ECONFIG,
+                   "%sperturbations.k_count = 1 needs k_min = k_max (got %g and %g)", where,
+                   pt->k_min, pt->k_max);
+  }
+  for (int i = 0; i < p->output.n_redshifts; i++) {
+    if (p->output.redshifts[i] >= pt->z_initial) {
+      char name[64];
+      snprintf(name, sizeof name, "output.redshifts[%d]", i);
+      locate(loc, name, where, sizeof where);
+      return JG_FAIL(err, JG_ECONFIG,
+                     "%s%s = %g is not below perturbations.z_initial = %g (reversed redshift "
+                     "range)",
+                     where, name, p->output.redshifts[i], pt->z_initial);
     }
   }
   if (p->output.history_z_min >= z_start) {
@@ -253,14 +315,23 @@ static jg_status validate(const locator *loc, const jg_params *p, jg_error *err)
       int v = *cint_at(p, s->offset);
       if (v < s->lo || v > s->hi) {
         locate(loc, s->doc.key, where, sizeof where);
-        st = JG_FAIL(err, JG_ECONFIG, "%s%s must be %s (got %d)", where, s->doc.key,
+        st = JG_FAIL(err, JG_ECONFIG, "%s%s must satisfy %s (got %d)", where, s->doc.key,
                      s->doc.allowed, v);
+      }
+      break;
+    }
+    case KIND_CHOICE: {
+      int v = *cint_at(p, s->offset);
+      if (v < s->lo || v > s->hi) {
+        locate(loc, s->doc.key, where, sizeof where);
+        st = JG_FAIL(err, JG_ECONFIG, "%s%s must be one of %s (got choice number %d)", where,
+                     s->doc.key, s->doc.allowed, v);
       }
       break;
     }
     case KIND_NUMBER_LIST: {
       int n = *cint_at(p, s->count_offset);
-      if (n < 1 || n > s->max_count) {
+      if (n < s->min_count || n > s->max_count) {
         locate(loc, s->doc.key, where, sizeof where);
         st = JG_FAIL(err, JG_ECONFIG, "%s%s must hold %s (got %d values)", where, s->doc.key,
                      s->doc.allowed, n);
@@ -343,17 +414,31 @@ static jg_status read_spec(const locator *loc, const param_spec *s, const config
     long long v = type == CONFIG_TYPE_INT ? config_setting_get_int(set)
                                           : config_setting_get_int64(set);
     if (v < (long long)s->lo || v > (long long)s->hi)
-      return JG_FAIL(err, JG_ECONFIG, "%s%s must be %s (got %lld)", where, s->doc.key,
+      return JG_FAIL(err, JG_ECONFIG, "%s%s must satisfy %s (got %lld)", where, s->doc.key,
                      s->doc.allowed, v);
     *(int *)((char *)p + s->offset) = (int)v;
     return JG_OK;
+  }
+  case KIND_CHOICE: {
+    if (type != CONFIG_TYPE_STRING)
+      return JG_FAIL(err, JG_ECONFIG, "%s%s must be a quoted word, one of %s (got %s)", where,
+                     s->doc.key, s->doc.allowed, type_phrase(type));
+    const char *word = config_setting_get_string(set);
+    for (int j = 0; s->choices[j]; j++) {
+      if (strcmp(word, s->choices[j]) == 0) {
+        *(int *)((char *)p + s->offset) = j;
+        return JG_OK;
+      }
+    }
+    return JG_FAIL(err, JG_ECONFIG, "%s%s must be one of %s (got \"%s\")", where, s->doc.key,
+                   s->doc.allowed, word);
   }
   case KIND_NUMBER_LIST: {
     if (type != CONFIG_TYPE_ARRAY && type != CONFIG_TYPE_LIST)
       return JG_FAIL(err, JG_ECONFIG, "%s%s must be a list of numbers such as [20.0, 10.0] (got %s)",
                      where, s->doc.key, type_phrase(type));
     int n = config_setting_length(set);
-    if (n < 1 || n > s->max_count)
+    if (n < (s->min_count > 0 ? s->min_count : 1) || n > s->max_count)
       return JG_FAIL(err, JG_ECONFIG, "%s%s must hold %s (got %d values)", where, s->doc.key,
                      s->doc.allowed, n);
     double *out = number_at(p, s);
@@ -520,9 +605,13 @@ static jg_status apply_override(config_t *cfg, const char *text, jg_error *err) 
   free(doc);
   const config_setting_t *src = ok ? config_lookup(&tmp, "value") : NULL;
   if (!src || (vlen == 0)) {
+    const char *why = ok ? "empty value" : config_error_text(&tmp);
+    jg_status st = JG_FAIL(err, JG_ECONFIG,
+                           "--set %s: cannot read the value (%s; libconfig syntax, e.g. 0.7, "
+                           "\"text\" or [1.0, 2.0] with all elements of one type)",
+                           text, why ? why : "syntax error");
     config_destroy(&tmp);
-    return JG_FAIL(err, JG_ECONFIG, "--set %s: cannot read the value (libconfig syntax, e.g. "
-                   "0.7, \"text\" or [1.0, 2.0])", text);
+    return st;
   }
 
   config_setting_t *parent = config_root_setting(cfg);
@@ -632,6 +721,9 @@ void jg_params_write_header(FILE *f, const jg_params *p) {
       break;
     case KIND_INTEGER:
       fprintf(f, "%d;\n", *cint_at(p, s->offset));
+      break;
+    case KIND_CHOICE:
+      fprintf(f, "\"%s\";\n", s->choices[*cint_at(p, s->offset)]);
       break;
     case KIND_NUMBER_LIST: {
       int n = *cint_at(p, s->count_offset);

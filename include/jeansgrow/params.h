@@ -22,6 +22,7 @@ extern "C" {
 #endif
 
 #define JG_MAX_REDSHIFTS 512 /* longest output.redshifts list */
+#define JG_MAX_WAVENUMBERS 4096 /* longest perturbations.k_values list / k_count */
 
 /* The cosmological model (group `cosmology`). */
 typedef struct jg_cosmology {
@@ -47,6 +48,26 @@ typedef struct jg_thermal_settings {
   int grid_points;           /* nodes of the stored history, uniform in ln a */
 } jg_thermal_settings;
 
+/* How the gas pressure responds to a density fluctuation. */
+typedef enum {
+  JG_SOUND_SPEED_FLUCTUATING = 0, /* delta_T evolved (Naoz & Barkana 2005): scale dependent */
+  JG_SOUND_SPEED_ISOTHERMAL = 1,  /* delta_T = 0: uniform, gamma = 1 */
+  JG_SOUND_SPEED_ADIABATIC = 2    /* delta_T = (2/3) delta_b: uniform, gamma = 5/3 */
+} jg_sound_speed_model;
+
+/* The linear perturbations (group `perturbations`). */
+typedef struct jg_perturb_settings {
+  double k_min;          /* 1/Mpc, comoving; first point of the log-spaced grid */
+  double k_max;          /* 1/Mpc, last point */
+  int k_count;           /* points of the grid */
+  double k_values[JG_MAX_WAVENUMBERS]; /* explicit list, 1/Mpc; used instead of the grid when n_k_values > 0 */
+  int n_k_values;
+  double z_initial;      /* start of the integration */
+  jg_sound_speed_model sound_speed;
+  double rel_tol;        /* relative tolerance of the stiff integration */
+  double abs_tol;        /* absolute tolerance (contrasts per unit initial CDM contrast) */
+} jg_perturb_settings;
+
 /* What the commands report (group `output`). */
 typedef struct jg_output_settings {
   double redshifts[JG_MAX_REDSHIFTS]; /* requested redshifts, in file order */
@@ -59,6 +80,7 @@ typedef struct jg_output_settings {
 typedef struct jg_params {
   jg_cosmology cosmology;
   jg_thermal_settings thermal;
+  jg_perturb_settings perturbations;
   jg_output_settings output;
 } jg_params;
 
@@ -89,7 +111,7 @@ void jg_params_write_header(FILE *f, const jg_params *p);
  * come from the same list. */
 typedef struct jg_param_doc {
   const char *key;        /* e.g. "cosmology.hubble_h" */
-  const char *type;       /* "number", "integer", "list of numbers", ... */
+  const char *type;       /* "number", "integer", "list of numbers", "one of ..." */
   const char *unit;       /* "" when dimensionless */
   const char *default_text;
   const char *allowed;    /* human-readable range */
