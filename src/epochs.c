@@ -57,10 +57,17 @@ static double temperature_ratio(const jg_thermal *th, double z) {
   return s.T_gas / s.T_rad;
 }
 
-static double minus_visibility(double z, void *p) { return -jg_thermal_visibility(p, z); }
+typedef struct history_ref {
+  const jg_thermal *th;
+} history_ref;
+
+static double minus_visibility(double z, void *p) {
+  return -jg_thermal_visibility(((const history_ref *)p)->th, z);
+}
 
 static jg_status visibility_peak(const jg_thermal *th, double guess, double *z, jg_error *err) {
-  gsl_function F = {minus_visibility, (void *)th};
+  history_ref ref = {th};
+  gsl_function F = {minus_visibility, &ref};
   double lo = 0.8 * guess, hi = 1.2 * guess;
   gsl_min_fminimizer *m = gsl_min_fminimizer_alloc(gsl_min_fminimizer_brent);
   if (!m) return JG_FAIL(err, JG_ENOMEM, "out of memory");
@@ -107,7 +114,12 @@ jg_status jg_epochs_compute(const jg_thermal *th, jg_epochs *e, jg_error *err) {
   return st;
 }
 
-int jg_epochs_count(void) { return 12; }
+int jg_epochs_count(void) {
+  jg_epochs none = {0};
+  int n = 0;
+  while (jg_epochs_entry(&none, n).name) n++;
+  return n;
+}
 
 jg_epoch_entry jg_epochs_entry(const jg_epochs *e, int i) {
   const jg_epoch_entry table[] = {

@@ -103,7 +103,7 @@ static const param_spec specs[] = {
            "1500 <= value <= 100000 and above every output redshift", 1500, 0, 1e5, 0,
            "redshift where CDM starts on the Meszaros growing mode, baryons at rest"),
     {{"perturbations.sound_speed", "one of \"fluctuating\", \"isothermal\", \"adiabatic\"", "",
-      "\"fluctuating\"", "fluctuating | isothermal | adiabatic",
+      "\"fluctuating\"", "fluctuating, isothermal or adiabatic",
       "gas pressure model: delta_T evolved (scale dependent), or uniform with gamma = 1 or 5/3"},
      KIND_CHOICE, P_OFF(perturbations.sound_speed), 0, 0, 0, 0, 0, 2, 0, 0, sound_speed_words},
     NUMBER("perturbations.rel_tol", perturbations.rel_tol, "", "1e-8", "1e-13 <= value <= 1e-3",

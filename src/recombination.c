@@ -123,6 +123,15 @@ int jg__saha_equilibrium(const jg_background *bg, double T_rad, double n_H, doub
 
 int jg__electrons_given_hydrogen(const jg_background *bg, double T_rad, double n_H, double x_p,
                                  double *x_e, double *dxe_dxp) {
+  /* Once helium has recombined its electrons are below double precision
+   * next to hydrogen's: skip the root search (most of the history). */
+  jg__helium_saha he0;
+  jg__helium_saha_at(bg, T_rad, n_H, x_p, &he0);
+  if (he0.electrons < 1e-16 * x_p) {
+    *x_e = x_p;
+    *dxe_dxp = 1.0;
+    return GSL_SUCCESS;
+  }
   electron_balance b = {bg, T_rad, n_H, -1.0, x_p};
   double hi = x_p + 2.0 * bg->helium_to_hydrogen;
   int status = solve_electrons(&b, x_p, hi, x_e);

@@ -173,9 +173,11 @@ static jg_status check_settings(const jg_thermal_settings *s, jg_error *err) {
   if (!(s->quasi_static_limit > 0 && s->quasi_static_limit < 1))
     return JG_FAIL(err, JG_EINVAL, "thermal.quasi_static_limit must lie in (0, 1) (got %g)",
                    s->quasi_static_limit);
-  if (!(s->rel_tol > 0 && s->rel_tol < 1) || !(s->abs_tol > 0 && s->abs_tol < 1))
-    return JG_FAIL(err, JG_EINVAL, "thermal tolerances must lie in (0, 1) (got %g, %g)",
-                   s->rel_tol, s->abs_tol);
+  /* One message per key, so that the user knows which of the two to change. */
+  if (!(s->rel_tol > 0 && s->rel_tol < 1))
+    return JG_FAIL(err, JG_EINVAL, "thermal.rel_tol must lie in (0, 1) (got %g)", s->rel_tol);
+  if (!(s->abs_tol > 0 && s->abs_tol < 1))
+    return JG_FAIL(err, JG_EINVAL, "thermal.abs_tol must lie in (0, 1) (got %g)", s->abs_tol);
   if (s->grid_points < 200)
     return JG_FAIL(err, JG_EINVAL, "thermal.grid_points must be at least 200 (got %d)",
                    s->grid_points);
@@ -416,9 +418,16 @@ static double dtau_dlna(const jg_thermal *th, double ln_a) {
   return n_e * JG_SIGMA_THOMSON * JG_C_LIGHT / jg_background_hubble(th->bg, a);
 }
 
-static double dtau_dlna_gsl(double ln_a, void *p) { return dtau_dlna(p, ln_a); }
+/* GSL passes a non-const void *; this wrapper keeps the history const. */
+typedef struct history_ref {
+  const jg_thermal *th;
+} history_ref;
+
+static double dtau_dlna_gsl(double ln_a, void *p) {
+  return dtau_dlna(((const history_ref *)p)->th, ln_a);
+}
 static double ddrag_dlna_gsl(double ln_a, void *p) {
-  const jg_thermal *th = p;
+  const jg_thermal *th = ((const history_ref *)p)->th;
   return dtau_dlna(th, ln_a) / (th->bg->R_coefficient * exp(ln_a));
 }
 
@@ -426,14 +435,15 @@ static double ddrag_dlna_gsl(double ln_a, void *p) {
 static double depth_beyond_start(const jg_thermal *th, double ln_a, gsl_spline *stored,
                                  double (*integrand)(double, void *)) {
   double base = gsl_spline_eval(stored, th->ln_a_start, NULL);
-  gsl_function F = {integrand, (void *)th};
+  history_ref ref = {th};
+  gsl_function F = {integrand, &ref};
   double extra = 0.0, abserr;
   size_t neval;
   if (gsl_integration_qng(&F, ln_a, th->ln_a_start, 0.0, 1e-8, &extra, &abserr, &neval) !=
       GSL_SUCCESS) {
     /* qng's fixed rules failed: fall back to the trapezoid of the end values,
      * exact enough for an equilibrium integrand that varies as a^-1.5. */
-    extra = 0.5 * (integrand(ln_a, (void *)th) + integrand(th->ln_a_start, (void *)th)) *
+    extra = 0.5 * (integrand(ln_a, &ref) + integrand(th->ln_a_start, &ref)) *
             (th->ln_a_start - ln_a);
   }
   return base + extra;
