@@ -15,6 +15,7 @@
 #include <ctype.h>
 #include <errno.h>
 #include <libconfig.h>
+#include <limits.h>
 #include <math.h>
 #include <stddef.h>
 #include <stdio.h>
@@ -95,8 +96,9 @@ static const param_spec specs[] = {
            "k_min <= value <= 1e5", 1, 0, 1e5, 0, "largest comoving wavenumber of the grid"),
     INTEGER("perturbations.k_count", perturbations.k_count, "128", "1 <= value <= 4096", 1,
             JG_MAX_WAVENUMBERS, "number of grid wavenumbers"),
-    {{"perturbations.k_values", "list of numbers", "1/Mpc", "(none: use the grid)",
-      "1 to 4096 values, each 1 <= k <= 1e5", "explicit wavenumbers, used instead of the grid"},
+    {{"perturbations.k_values", "list of numbers", "1/Mpc", "[]",
+      "0 to 4096 values, each 1 <= k <= 1e5",
+      "explicit wavenumbers, used instead of the grid (empty: use the grid)"},
      KIND_NUMBER_LIST, P_OFF(perturbations.k_values), P_OFF(perturbations.n_k_values), 0,
      JG_MAX_WAVENUMBERS, 0, 1, 1e5, 0, 0, NULL},
     NUMBER("perturbations.z_initial", perturbations.z_initial, "", "10000.0",
@@ -191,24 +193,24 @@ static size_t override_key_length(const char *text) {
   return eq ? (size_t)(eq - text) : strlen(text);
 }
 
-/* Does override `text` set `key` or a group that contains it? */
+/* Does override `text` set `key`, a group that contains it, or (when `key`
+ * is a group) something inside it? */
 static int override_covers(const char *text, const char *key) {
   size_t n = override_key_length(text);
   while (n > 0 && isspace((unsigned char)text[n - 1])) n--;
   while (n > 0 && isspace((unsigned char)*text)) text++, n--;
-  if (strncmp(text, key, n) != 0) return 0;
-  return key[n] == '\0' || key[n] == '.' || key[n] == '[';
+  size_t k = strcspn(key, "[");
+  size_t common = n < k ? n : k;
+  if (strncmp(text, key, common) != 0) return 0;
+  if (n == k) return 1;
+  return n < k ? key[n] == '.' : text[k] == '.';
 }
 
+/* Settings read from the file carry their line; those an override added or
+ * replaced carry line 0, so a line > 0 means the file is the culprit. */
 static void locate(const locator *loc, const char *key, char *buf, size_t size) {
   buf[0] = '\0';
   if (!loc) return;
-  for (int i = loc->n_overrides - 1; i >= 0; i--) {
-    if (override_covers(loc->overrides[i], key)) {
-      snprintf(buf, size, "--set %s: ", loc->overrides[i]);
-      return;
-    }
-  }
   if (loc->cfg) {
     char base[256];
     snprintf(base, sizeof base, "%s", key);
@@ -217,6 +219,12 @@ static void locate(const locator *loc, const char *key, char *buf, size_t size) 
     const config_setting_t *s = config_lookup(loc->cfg, base);
     if (s && config_setting_source_line(s) > 0) {
       snprintf(buf, size, "%s:%d: ", loc->path, (int)config_setting_source_line(s));
+      return;
+    }
+  }
+  for (int i = loc->n_overrides - 1; i >= 0; i--) {
+    if (override_covers(loc->overrides[i], key)) {
+      snprintf(buf, size, "--set %s: ", loc->overrides[i]);
       return;
     }
   }
@@ -236,6 +244,18 @@ static const int *cint_at(const jg_params *p, size_t offset) {
   return (const int *)((const char *)p + offset);
 }
 
+/* The allowed text of a list reads "COUNT, each RANGE" ("1 to 512 values,
+ * each 0 <= z <= ..."): a message about the length quotes COUNT, one about
+ * an element quotes RANGE, so neither carries the other's half. */
+static const char *list_element_range(const param_spec *s) {
+  const char *each = strstr(s->doc.allowed, ", each ");
+  return each ? each + strlen(", each ") : s->doc.allowed;
+}
+static int list_count_length(const param_spec *s) {
+  const char *each = strstr(s->doc.allowed, ", each ");
+  return each ? (int)(each - s->doc.allowed) : (int)strlen(s->doc.allowed);
+}
+
 static jg_status check_range(const locator *loc, const param_spec *s, const char *name, double v,
                              jg_error *err) {
   char where[512];
@@ -247,8 +267,8 @@ static jg_status check_range(const locator *loc, const param_spec *s, const char
   int above = s->hi_open ? !(v < s->hi) : !(v <= s->hi);
   if (below || above) {
     locate(loc, name, where, sizeof where);
-    return JG_FAIL(err, JG_ECONFIG, "%s%s must satisfy %s (got %.10g)", where, name,
-                   s->doc.allowed, v);
+    const char *allowed = s->kind == KIND_NUMBER_LIST ? list_element_range(s) : s->doc.allowed;
+    return JG_FAIL(err, JG_ECONFIG, "%s%s must satisfy %s (got %.10g)", where, name, allowed, v);
   }
   return JG_OK;
 }
@@ -266,6 +286,14 @@ static jg_status check_cross(const locator *loc, const jg_params *p, jg_error *e
                      "thermal.start_redshift or drop that redshift",
                      where, name, p->output.redshifts[i], z_start);
     }
+  }
+  const jg_cosmology *c = &p->cosmology;
+  if (c->de_w0 + c->de_wa >= 1.0 / 3.0) {
+    locate(loc, "cosmology.de_wa", where, sizeof where);
+    return JG_FAIL(err, JG_ECONFIG,
+                   "%scosmology.de_w0 + cosmology.de_wa must be below 1/3 (got %g): such dark "
+                   "energy would not fade before radiation at early times",
+                   where, c->de_w0 + c->de_wa);
   }
   const jg_perturb_settings *pt = &p->perturbations;
   if (pt->n_k_values == 0 && pt->k_max < pt->k_min) {
@@ -333,8 +361,8 @@ static jg_status validate(const locator *loc, const jg_params *p, jg_error *err)
       int n = *cint_at(p, s->count_offset);
       if (n < s->min_count || n > s->max_count) {
         locate(loc, s->doc.key, where, sizeof where);
-        st = JG_FAIL(err, JG_ECONFIG, "%s%s must hold %s (got %d values)", where, s->doc.key,
-                     s->doc.allowed, n);
+        st = JG_FAIL(err, JG_ECONFIG, "%s%s must hold %.*s (got %d values)", where, s->doc.key,
+                     list_count_length(s), s->doc.allowed, n);
         break;
       }
       const double *v = cnumber_at(p, s);
@@ -358,25 +386,44 @@ jg_status jg_params_validate(const jg_params *p, jg_error *err) {
 /* ------------------------------------------------------------------------ */
 /* Reading values out of libconfig, with the type errors a user can act on. */
 
-static const char *type_phrase(int type) {
-  switch (type) {
+static void format_exact(char *buf, size_t size, double v);
+
+/* What a setting holds, with its value, for "(got ...)": the user sees what
+ * libconfig made of the text ("the string \"0.7\"" tells them to drop the
+ * quotes, "the number 4000.0" to drop the decimal point). */
+static const char *describe_value(const config_setting_t *s, char *buf, size_t size) {
+  char num[64];
+  switch (config_setting_type(s)) {
   case CONFIG_TYPE_INT:
+    snprintf(buf, size, "the integer %d", config_setting_get_int(s));
+    break;
   case CONFIG_TYPE_INT64:
-    return "an integer";
+    snprintf(buf, size, "the integer %lld", (long long)config_setting_get_int64(s));
+    break;
   case CONFIG_TYPE_FLOAT:
-    return "a floating-point number";
+    format_exact(num, sizeof num, config_setting_get_float(s));
+    snprintf(buf, size, "the number %s", num);
+    break;
   case CONFIG_TYPE_STRING:
-    return "a string";
+    snprintf(buf, size, "the string \"%.40s%s\"", config_setting_get_string(s),
+             strlen(config_setting_get_string(s)) > 40 ? "..." : "");
+    break;
   case CONFIG_TYPE_BOOL:
-    return "a boolean";
+    snprintf(buf, size, "the boolean %s", config_setting_get_bool(s) ? "true" : "false");
+    break;
   case CONFIG_TYPE_ARRAY:
   case CONFIG_TYPE_LIST:
-    return "a list";
+    snprintf(buf, size, "a list of %d value%s", config_setting_length(s),
+             config_setting_length(s) == 1 ? "" : "s");
+    break;
   case CONFIG_TYPE_GROUP:
-    return "a group";
+    snprintf(buf, size, "a group");
+    break;
   default:
-    return "an unknown type";
+    snprintf(buf, size, "a setting of unknown type");
+    break;
   }
+  return buf;
 }
 
 static int is_numeric(const config_setting_t *s) {
@@ -397,20 +444,20 @@ static double numeric_value(const config_setting_t *s) {
 
 static jg_status read_spec(const locator *loc, const param_spec *s, const config_setting_t *set,
                            jg_params *p, jg_error *err) {
-  char where[512];
+  char where[512], got[128];
   locate(loc, s->doc.key, where, sizeof where);
   int type = config_setting_type(set);
   switch (s->kind) {
   case KIND_NUMBER:
     if (!is_numeric(set))
       return JG_FAIL(err, JG_ECONFIG, "%s%s must be a number (got %s)", where, s->doc.key,
-                     type_phrase(type));
+                     describe_value(set, got, sizeof got));
     *number_at(p, s) = numeric_value(set);
     return JG_OK;
   case KIND_INTEGER: {
     if (type != CONFIG_TYPE_INT && type != CONFIG_TYPE_INT64)
       return JG_FAIL(err, JG_ECONFIG, "%s%s must be an integer (got %s)", where, s->doc.key,
-                     type_phrase(type));
+                     describe_value(set, got, sizeof got));
     long long v = type == CONFIG_TYPE_INT ? config_setting_get_int(set)
                                           : config_setting_get_int64(set);
     if (v < (long long)s->lo || v > (long long)s->hi)
@@ -422,7 +469,7 @@ static jg_status read_spec(const locator *loc, const param_spec *s, const config
   case KIND_CHOICE: {
     if (type != CONFIG_TYPE_STRING)
       return JG_FAIL(err, JG_ECONFIG, "%s%s must be a quoted word, one of %s (got %s)", where,
-                     s->doc.key, s->doc.allowed, type_phrase(type));
+                     s->doc.key, s->doc.allowed, describe_value(set, got, sizeof got));
     const char *word = config_setting_get_string(set);
     for (int j = 0; s->choices[j]; j++) {
       if (strcmp(word, s->choices[j]) == 0) {
@@ -436,17 +483,20 @@ static jg_status read_spec(const locator *loc, const param_spec *s, const config
   case KIND_NUMBER_LIST: {
     if (type != CONFIG_TYPE_ARRAY && type != CONFIG_TYPE_LIST)
       return JG_FAIL(err, JG_ECONFIG, "%s%s must be a list of numbers such as [20.0, 10.0] (got %s)",
-                     where, s->doc.key, type_phrase(type));
+                     where, s->doc.key, describe_value(set, got, sizeof got));
     int n = config_setting_length(set);
-    if (n < (s->min_count > 0 ? s->min_count : 1) || n > s->max_count)
-      return JG_FAIL(err, JG_ECONFIG, "%s%s must hold %s (got %d values)", where, s->doc.key,
-                     s->doc.allowed, n);
+    /* min_count 0 allows the empty list, which is also how the header
+     * records such a list, so a header line reads back as it was written. */
+    if (n < s->min_count || n > s->max_count)
+      return JG_FAIL(err, JG_ECONFIG, "%s%s must hold %.*s (got %s)", where, s->doc.key,
+                     list_count_length(s), s->doc.allowed,
+                     n == 0 ? "an empty list" : describe_value(set, got, sizeof got));
     double *out = number_at(p, s);
     for (int j = 0; j < n; j++) {
       const config_setting_t *e = config_setting_get_elem(set, (unsigned)j);
       if (!is_numeric(e))
         return JG_FAIL(err, JG_ECONFIG, "%s%s[%d] must be a number (got %s)", where, s->doc.key,
-                       j, type_phrase(config_setting_type(e)));
+                       j, describe_value(e, got, sizeof got));
       out[j] = numeric_value(e);
     }
     *(int *)((char *)p + s->count_offset) = n;
@@ -480,20 +530,43 @@ static size_t edit_distance(const char *a, const char *b) {
   return row[lb];
 }
 
+static const char *last_component(const char *key) {
+  const char *dot = strrchr(key, '.');
+  return dot ? dot + 1 : key;
+}
+
+/* How far `typed` is from the known name `known`; a clear abbreviation
+ * ("curvature" for "curvature_omega") counts as one edit. */
+static size_t name_distance(const char *typed, const char *known) {
+  size_t d = edit_distance(typed, known);
+  size_t lt = strlen(typed), lk = strlen(known);
+  size_t shorter = lt < lk ? lt : lk;
+  if (shorter >= 4 && d > 1 && strncmp(typed, known, shorter) == 0) d = 1;
+  return d;
+}
+
+/* Close enough to suggest: a few typos, not a different word. */
+static int worth_suggesting(size_t d, const char *typed) {
+  size_t n = strlen(typed);
+  return d <= (n / 3 > 2 ? n / 3 : 2);
+}
+
+/* The known key nearest to `key`, or NULL if none is close. The group part
+ * and the last part are compared separately too, so that a key written
+ * without its group ("hubble_h") or in the wrong group
+ * ("thermal.hubble_h") finds its home. */
 static const char *nearest_key(const char *key) {
-  const char *best = specs[0].doc.key;
+  const char *best = NULL;
   size_t best_d = (size_t)-1;
+  const char *typed_last = last_component(key);
   for (int i = 0; i < N_SPECS; i++) {
-    size_t d = edit_distance(key, specs[i].doc.key);
-    /* A key written without its group ("hubble_h") should find its home. */
-    const char *dot = strchr(specs[i].doc.key, '.');
-    if (dot) {
-      size_t d2 = edit_distance(key, dot + 1);
-      if (d2 < d) d = d2;
-    }
+    const char *known_last = last_component(specs[i].doc.key);
+    size_t d = name_distance(key, specs[i].doc.key);
+    size_t d2 = name_distance(typed_last, known_last);
+    if (d2 < d) d = d2;
     if (d < best_d) best_d = d, best = specs[i].doc.key;
   }
-  return best;
+  return best && worth_suggesting(best_d, typed_last) ? best : NULL;
 }
 
 static const param_spec *find_spec(const char *key) {
@@ -511,8 +584,30 @@ static int is_known_group(const char *name) {
 static jg_status unknown_key(const locator *loc, const char *key, jg_error *err) {
   char where[512];
   locate(loc, key, where, sizeof where);
-  return JG_FAIL(err, JG_ECONFIG, "%sunknown key '%s' (did you mean '%s'?)", where, key,
-                 nearest_key(key));
+  const char *near = nearest_key(key);
+  if (near)
+    return JG_FAIL(err, JG_ECONFIG, "%sunknown key '%s' (did you mean '%s'?)", where, key, near);
+  return JG_FAIL(err, JG_ECONFIG,
+                 "%sunknown key '%s' (no known key is similar; jeansgrow keys lists them all)",
+                 where, key);
+}
+
+static jg_status unknown_group(const locator *loc, const char *name, jg_error *err) {
+  char where[512], groups[256] = "";
+  locate(loc, name, where, sizeof where);
+  const char *near = NULL;
+  size_t best_d = (size_t)-1;
+  for (int i = 0; i < N_GROUPS; i++) {
+    size_t d = name_distance(name, known_groups[i]);
+    if (d < best_d) best_d = d, near = known_groups[i];
+    snprintf(groups + strlen(groups), sizeof groups - strlen(groups), "%s%s", i ? ", " : "",
+             known_groups[i]);
+  }
+  if (near && worth_suggesting(best_d, name))
+    return JG_FAIL(err, JG_ECONFIG, "%sunknown group '%s' (did you mean '%s'? the groups are %s)",
+                   where, name, near, groups);
+  return JG_FAIL(err, JG_ECONFIG, "%sunknown group '%s' (the groups are %s)", where, name,
+                 groups);
 }
 
 static jg_status check_known_keys(const locator *loc, const config_setting_t *group,
@@ -525,12 +620,173 @@ static jg_status check_known_keys(const locator *loc, const config_setting_t *gr
     if (prefix[0]) snprintf(key, sizeof key, "%s.%s", prefix, name ? name : "?");
     else snprintf(key, sizeof key, "%s", name ? name : "?");
     if (find_spec(key)) continue; /* its type is checked when it is read */
-    if (!prefix[0] && config_setting_type(s) == CONFIG_TYPE_GROUP && is_known_group(key)) {
+    int is_group = config_setting_type(s) == CONFIG_TYPE_GROUP;
+    /* The scan definition belongs to `jeansgrow scan`, which reads and checks
+     * it (src/scan.c); a single run of the same file uses the base values. */
+    if (!prefix[0] && is_group && strcmp(key, "scan") == 0) continue;
+    if (!prefix[0] && is_known_group(key)) {
+      if (!is_group) {
+        char where[512], got[128];
+        locate(loc, key, where, sizeof where);
+        return JG_FAIL(err, JG_ECONFIG, "%s%s must be a group such as %s: { ... }; (got %s)",
+                       where, key, key, describe_value(s, got, sizeof got));
+      }
       jg_status st = check_known_keys(loc, s, key, err);
       if (st != JG_OK) return st;
       continue;
     }
+    /* A misspelt group would otherwise be reported by its first key. */
+    if (!prefix[0] && is_group) return unknown_group(loc, key, err);
     return unknown_key(loc, key, err);
+  }
+  return JG_OK;
+}
+
+/* ------------------------------------------------------------------------ */
+/* Number literals that libconfig 1.5 would misread without a word.          */
+/*
+ * libconfig 1.5 reads a decimal integer without an L suffix through a long
+ * and stores it in an int: `99999999999` becomes 1215752191 and
+ * `4294967496` becomes 200, a valid value, with no error. Hexadecimal
+ * integers above 0x7fffffff wrap the same way, `...L` integers beyond the
+ * 64-bit range are clamped, and `1e400` becomes inf. The parsed settings
+ * keep no trace of the text, so the text itself is scanned with libconfig's
+ * token rules (comments, strings, names, numbers) after a successful parse,
+ * and such a literal is rejected with the key it belongs to and the text as
+ * written.
+ */
+
+typedef struct literal_origin {
+  const char *path;     /* the parameter file, or NULL */
+  const char *override; /* the --set text, or NULL */
+} literal_origin;
+
+typedef struct literal_scan {
+  char group[256];     /* enclosing groups, dot-separated */
+  size_t outer[32];    /* length of `group` before each open '{' */
+  int depth;
+  char name[128];      /* last setting name: the key the next value belongs to */
+} literal_scan;
+
+static int is_name_start(int c) { return isalpha(c) || c == '*'; }
+static int is_name_char(int c) { return isalnum(c) || c == '*' || c == '_' || c == '-'; }
+
+static jg_status bad_literal(const literal_origin *origin, int line, const literal_scan *sc,
+                             const char *tok, size_t n, const char *what, const char *why,
+                             jg_error *err) {
+  char where[512], key[512];
+  if (origin->override) snprintf(where, sizeof where, "--set %s: ", origin->override);
+  else snprintf(where, sizeof where, "%s:%d: ", origin->path, line);
+  if (sc->group[0] && sc->name[0]) snprintf(key, sizeof key, "%s.%s", sc->group, sc->name);
+  else snprintf(key, sizeof key, "%s", sc->group[0] ? sc->group : sc->name);
+  return JG_FAIL(err, JG_ECONFIG, "%s%s must be %s (got %.*s, %s)", where, key, what,
+                 n > 60 ? 60 : (int)n, tok, why);
+}
+
+/* Check one number token (`n` characters at `tok`); libconfig has already
+ * accepted it, so its shape is valid. */
+static jg_status check_number(const char *tok, size_t n, const literal_origin *origin, int line,
+                              const literal_scan *sc, jg_error *err) {
+  char buf[128];
+  if (n >= sizeof buf) n = sizeof buf - 1;
+  memcpy(buf, tok, n);
+  buf[n] = '\0';
+  size_t m = n;
+  int wide = 0; /* an L or LL suffix: a 64-bit integer */
+  while (m > 0 && buf[m - 1] == 'L') buf[--m] = '\0', wide = 1;
+  const char *digits = buf + (buf[0] == '+' || buf[0] == '-');
+  int hex = digits[0] == '0' && (digits[1] == 'x' || digits[1] == 'X');
+  errno = 0;
+  if (!hex && strpbrk(buf, ".eE")) {
+    double v = strtod(buf, NULL);
+    if (errno == ERANGE && isinf(v))
+      return bad_literal(origin, line, sc, tok, n, "a finite number",
+                         "beyond the largest double, about 1.8e308", err);
+    return JG_OK;
+  }
+  if (hex) {
+    unsigned long long v = strtoull(digits + 2, NULL, 16);
+    unsigned long long limit = wide ? (unsigned long long)LLONG_MAX : (unsigned long long)INT_MAX;
+    if (errno == ERANGE || v > limit)
+      return bad_literal(origin, line, sc, tok, n,
+                         wide ? "an integer up to 0x7fffffffffffffffL" : "an integer up to 0x7fffffff",
+                         "which libconfig would silently wrap", err);
+    return JG_OK;
+  }
+  long long v = strtoll(buf, NULL, 10);
+  if (wide ? errno == ERANGE : (errno == ERANGE || v < INT_MIN || v > INT_MAX))
+    return bad_literal(origin, line, sc, tok, n,
+                       wide ? "an integer from -9223372036854775808 to 9223372036854775807"
+                            : "an integer from -2147483648 to 2147483647",
+                       wide ? "which libconfig would silently clamp"
+                            : "which libconfig would silently wrap; write larger numbers with a "
+                              "decimal point, e.g. 1e10",
+                       err);
+  return JG_OK;
+}
+
+/* Scan libconfig text for misread number literals. `outer_key` is the key a
+ * --set value is assigned to ("" for a whole file). */
+static jg_status check_literals(const char *text, const literal_origin *origin,
+                                const char *outer_key, jg_error *err) {
+  literal_scan sc;
+  memset(&sc, 0, sizeof sc);
+  snprintf(sc.group, sizeof sc.group, "%s", outer_key);
+  int line = 1;
+  const char *c = text;
+  while (*c) {
+    unsigned char ch = (unsigned char)*c;
+    if (ch == '\n') {
+      line++, c++;
+    } else if (ch == '#' || (ch == '/' && c[1] == '/')) {
+      while (*c && *c != '\n') c++;
+    } else if (ch == '/' && c[1] == '*') {
+      for (c += 2; *c && !(c[0] == '*' && c[1] == '/'); c++)
+        if (*c == '\n') line++;
+      if (*c) c += 2;
+    } else if (ch == '"') {
+      for (c++; *c && *c != '"'; c++) {
+        if (*c == '\\' && c[1]) c++;
+        if (*c == '\n') line++;
+      }
+      if (*c) c++;
+    } else if (is_name_start(ch)) {
+      const char *start = c;
+      while (is_name_char((unsigned char)*c)) c++;
+      const char *after = c;
+      while (*after == ' ' || *after == '\t' || *after == '\r' || *after == '\n') after++;
+      /* Only a name followed by '=' or ':' names a setting; true and false
+       * are names too. */
+      if (*after == '=' || *after == ':')
+        snprintf(sc.name, sizeof sc.name, "%.*s", (int)(c - start), start);
+    } else if (ch == '{') {
+      if (sc.depth < (int)(sizeof sc.outer / sizeof sc.outer[0])) {
+        size_t len = strlen(sc.group);
+        sc.outer[sc.depth++] = len;
+        if (sc.name[0])
+          snprintf(sc.group + len, sizeof sc.group - len, "%s%s", len ? "." : "", sc.name);
+      }
+      sc.name[0] = '\0';
+      c++;
+    } else if (ch == '}') {
+      if (sc.depth > 0) sc.group[sc.outer[--sc.depth]] = '\0';
+      sc.name[0] = '\0';
+      c++;
+    } else if (isdigit(ch) || (ch == '.' && isdigit((unsigned char)c[1])) ||
+               ((ch == '+' || ch == '-') &&
+                (isdigit((unsigned char)c[1]) ||
+                 (c[1] == '.' && isdigit((unsigned char)c[2]))))) {
+      const char *start = c++;
+      const char *d = start + (*start == '+' || *start == '-');
+      int hex = d[0] == '0' && (d[1] == 'x' || d[1] == 'X');
+      while (isalnum((unsigned char)*c) || *c == '.' ||
+             (!hex && (*c == '+' || *c == '-') && (c[-1] == 'e' || c[-1] == 'E')))
+        c++;
+      jg_status st = check_number(start, (size_t)(c - start), origin, line, &sc, err);
+      if (st != JG_OK) return st;
+    } else {
+      c++;
+    }
   }
   return JG_OK;
 }
@@ -596,16 +852,34 @@ static jg_status apply_override(config_t *cfg, const char *text, jg_error *err) 
   /* Parse the value with libconfig itself, so --set takes exactly the
    * syntax of the file (numbers, strings, [arrays]). */
   size_t vlen = strlen(eq + 1);
+  if (strspn(eq + 1, " \t\r\n") == vlen)
+    return JG_FAIL(err, JG_ECONFIG, "--set %s: empty value (write e.g. --set %s=0.7)", text, key);
   char *doc = malloc(vlen + 16);
   if (!doc) return JG_FAIL(err, JG_ENOMEM, "out of memory reading --set %s", text);
-  snprintf(doc, vlen + 16, "value = %s\n;", eq + 1);
+  /* No ';' of our own, so that a value written with one ("0.7;") reads too. */
+  snprintf(doc, vlen + 16, "value = %s\n", eq + 1);
   config_t tmp;
   config_init(&tmp);
   int ok = config_read_string(&tmp, doc);
   free(doc);
+  /* "0.7; hubble_h = 0.5" parses as two settings; the second would vanish. */
+  if (ok && config_setting_length(config_root_setting(&tmp)) != 1) {
+    config_destroy(&tmp);
+    return JG_FAIL(err, JG_ECONFIG,
+                   "--set %s: cannot read the value (text after it; give one value per --set)",
+                   text);
+  }
   const config_setting_t *src = ok ? config_lookup(&tmp, "value") : NULL;
-  if (!src || (vlen == 0)) {
-    const char *why = ok ? "empty value" : config_error_text(&tmp);
+  if (ok) {
+    literal_origin origin = {NULL, text};
+    jg_status lst = check_literals(eq + 1, &origin, key, err);
+    if (lst != JG_OK) {
+      config_destroy(&tmp);
+      return lst;
+    }
+  }
+  if (!src) {
+    const char *why = config_error_text(&tmp);
     jg_status st = JG_FAIL(err, JG_ECONFIG,
                            "--set %s: cannot read the value (%s; libconfig syntax, e.g. 0.7, "
                            "\"text\" or [1.0, 2.0] with all elements of one type)",
@@ -644,6 +918,14 @@ static jg_status apply_override(config_t *cfg, const char *text, jg_error *err) 
 
 /* ------------------------------------------------------------------------ */
 
+/* libconfig's own words for a parse error, with a hint where its words
+ * alone would leave a user guessing. */
+static const char *parse_error_hint(const char *text) {
+  if (text && strcmp(text, "mismatched element type in array") == 0)
+    return " (write every element alike: [1100.0, 10.0], not [1100.0, 10])";
+  return "";
+}
+
 static jg_status read_file(config_t *cfg, const char *path, jg_error *err) {
   struct stat sb;
   if (stat(path, &sb) != 0)
@@ -653,14 +935,54 @@ static jg_status read_file(config_t *cfg, const char *path, jg_error *err) {
   FILE *f = fopen(path, "r");
   if (!f)
     return JG_FAIL(err, JG_EIO, "%s: cannot read parameter file (%s)", path, strerror(errno));
-  int ok = config_read(cfg, f);
-  fclose(f);
-  if (!ok) {
-    int line = config_error_line(cfg);
-    const char *text = config_error_text(cfg);
-    return JG_FAIL(err, JG_ECONFIG, "%s:%d: %s", path, line, text ? text : "syntax error");
+  /* Read the whole text first: the literal check below needs it, and a zero
+   * byte (a binary file given by mistake, or /dev/zero) stops the read at
+   * once instead of reaching libconfig, which reports it as a syntax error. */
+  size_t cap = 4096, len = 0;
+  char *text = malloc(cap);
+  jg_status st = text ? JG_OK : JG_FAIL(err, JG_ENOMEM, "%s: out of memory reading it", path);
+  while (st == JG_OK) {
+    if (cap - len < 2) {
+      char *bigger = realloc(text, cap * 2);
+      if (!bigger) {
+        st = JG_FAIL(err, JG_ENOMEM, "%s: out of memory reading it", path);
+        break;
+      }
+      text = bigger, cap *= 2;
+    }
+    size_t got = fread(text + len, 1, cap - len - 1, f);
+    const char *zero = memchr(text + len, '\0', got);
+    if (zero) {
+      st = JG_FAIL(err, JG_ECONFIG, "%s: not a text parameter file (zero byte at offset %zu)",
+                   path, (size_t)(zero - text));
+      break;
+    }
+    len += got;
+    if (got == 0) {
+      if (ferror(f))
+        st = JG_FAIL(err, JG_EIO, "%s: cannot read parameter file (%s)", path, strerror(errno));
+      break;
+    }
   }
-  return JG_OK;
+  fclose(f);
+  if (st != JG_OK) {
+    free(text);
+    return st;
+  }
+  text[len] = '\0';
+  /* Editors on some systems start UTF-8 files with a byte-order mark, which
+   * libconfig 1.5 takes for a syntax error on line 1. */
+  const char *body = strncmp(text, "\xEF\xBB\xBF", 3) == 0 ? text + 3 : text;
+  if (!config_read_string(cfg, body)) {
+    const char *why = config_error_text(cfg);
+    st = JG_FAIL(err, JG_ECONFIG, "%s:%d: %s%s", path, config_error_line(cfg),
+                 why ? why : "syntax error", parse_error_hint(why));
+  } else {
+    literal_origin origin = {path, NULL};
+    st = check_literals(body, &origin, "", err);
+  }
+  free(text);
+  return st;
 }
 
 jg_status jg_params_load(const char *path, const char *const *overrides, int n_overrides,
@@ -737,5 +1059,40 @@ void jg_params_write_header(FILE *f, const jg_params *p) {
       break;
     }
     }
+  }
+}
+
+/* ------------------------------------------------------------------------ */
+/* Setting one number by key: what a parameter scan does at each grid point. */
+
+int jg_params_key_is_numeric(const char *key) {
+  const param_spec *s = key ? find_spec(key) : NULL;
+  return s && (s->kind == KIND_NUMBER || s->kind == KIND_INTEGER);
+}
+
+jg_status jg_params_set_number(jg_params *p, const char *key, double value, jg_error *err) {
+  if (!p || !key) return JG_FAIL(err, JG_EINVAL, "jg_params_set_number: NULL argument");
+  const param_spec *s = find_spec(key);
+  if (!s) {
+    const char *near = nearest_key(key);
+    if (near)
+      return JG_FAIL(err, JG_EINVAL, "unknown key '%s' (did you mean '%s'?)", key, near);
+    return JG_FAIL(err, JG_EINVAL,
+                   "unknown key '%s' (no known key is similar; jeansgrow keys lists them all)",
+                   key);
+  }
+  switch (s->kind) {
+  case KIND_NUMBER:
+    *number_at(p, s) = value;
+    return JG_OK;
+  case KIND_INTEGER:
+    /* Rounding would silently move the point; the range itself is left to
+     * jg_params_validate, like every other value. */
+    if (!(value == floor(value)) || value < INT_MIN || value > INT_MAX)
+      return JG_FAIL(err, JG_EINVAL, "%s takes whole numbers only (got %.17g)", key, value);
+    *(int *)((char *)p + s->offset) = (int)value;
+    return JG_OK;
+  default:
+    return JG_FAIL(err, JG_EINVAL, "%s is not a single number (it is %s)", key, s->doc.type);
   }
 }

@@ -32,12 +32,17 @@ typedef struct jg_background {
   double omega_k, omega_de;
   double baryon_fraction;   /* f_b = omega_b / omega_m */
   double n_H0;              /* hydrogen nuclei per m^3 today */
-  double helium_to_hydrogen;/* f_He = n_He / n_H */
+  double helium_to_hydrogen;/* f_He = n_He / n_H = Y m_H / ((1 - Y) m_He4), exact
+                               (not the shortcut Y / (4 (1 - Y)), 0.7 % lower) */
   double R_coefficient;     /* R(a) = 3 rho_b / (4 rho_gamma) = R_coefficient * a */
 } jg_background;
 
 /* Build the background. Fails (JG_EINVAL) if the parameters are invalid or
  * if H^2 <= 0 somewhere between a = 1e-10 and today (e.g. strong curvature). */
+/* Invalid means: a non-finite value; h, omega_b h^2, omega_c h^2 or T_cmb
+ * <= 0; Y_P outside [0, 1); N_eff < 0; or w0 + wa >= 1/3 (dark energy that
+ * would not fade before radiation at early times). The message names the
+ * key as `cosmology.<field>`; for H^2 <= 0 it gives the redshift. */
 jg_background *jg_background_new(const jg_cosmology *c, jg_error *err);
 void jg_background_free(jg_background *bg);
 
@@ -59,6 +64,9 @@ double jg_background_T_radiation(const jg_background *bg, double a);
 double jg_background_z_equality(const jg_background *bg);
 
 /* Integrals (GSL adaptive quadrature). Each returns JG_OK or JG_ENUMERIC. */
+/* Relative accuracy 1e-8. Arguments: 0 < a <= 1, or finite z >= 0; anything
+ * else (and a NULL pointer) gives JG_EINVAL. On failure the result is left
+ * untouched. */
 /* Cosmic time since the big bang at scale factor a, in seconds. */
 jg_status jg_background_cosmic_time(const jg_background *bg, double a, double *t, jg_error *err);
 /* Conformal time, c * integral dt/a, in Mpc. */
@@ -77,6 +85,9 @@ jg_status jg_background_sound_horizon(const jg_background *bg, double z, double 
 /* Scale-independent linear growth D(a) from the Heath (1977) integral,
  * D = (5 Omega_m / 2) E(a) int_0^a da' / (a' E(a'))^3, normalised so D -> a
  * early; radiation is left out of E here, as in the integral's derivation. */
+/* JG_EINVAL unless w0 = -1 and wa = 0 (the integral solves the growth
+ * equation for a cosmological constant only), or if H^2 without radiation
+ * is <= 0 before a. */
 jg_status jg_background_growth_heath(const jg_background *bg, double a, double *D,
                                      jg_error *err);
 
