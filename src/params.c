@@ -81,7 +81,7 @@ static const param_spec specs[] = {
     NUMBER("thermal.quasi_static_limit", thermal.quasi_static_limit, "", "0.001",
            "0 < value <= 0.1", 0, 1, 0.1, 0,
            "T_gas takes its quasi-static value while H / Gamma_C is below this"),
-    NUMBER("thermal.rel_tol", thermal.rel_tol, "", "1e-8", "1e-13 <= value <= 1e-3", 1e-13, 0,
+    NUMBER("thermal.rel_tol", thermal.rel_tol, "", "1e-10", "1e-13 <= value <= 1e-3", 1e-13, 0,
            1e-3, 0, "relative tolerance of the stiff integration"),
     NUMBER("thermal.abs_tol", thermal.abs_tol, "", "1e-12", "0 < value <= 1e-3", 0, 1, 1e-3, 0,
            "absolute tolerance of the stiff integration (x_p, and T_gas in K)"),
@@ -151,7 +151,7 @@ void jg_params_set_defaults(jg_params *p) {
   p->thermal.recombination_fudge = 1.14;
   p->thermal.saha_limit = 0.99;
   p->thermal.quasi_static_limit = 1e-3;
-  p->thermal.rel_tol = 1e-8;
+  p->thermal.rel_tol = 1e-10;
   p->thermal.abs_tol = 1e-12;
   p->thermal.grid_points = 4000;
 
