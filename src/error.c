@@ -44,5 +44,11 @@ jg_status jg_error_set(jg_error *err, jg_status status, const char *file, int li
   va_start(ap, fmt);
   vsnprintf(err->message, sizeof err->message, fmt, ap);
   va_end(ap);
+  /* The record promises one printable line, but messages quote user text (a
+   * string from a parameter file, a --set argument, a path) that may hold a
+   * newline or a terminal escape: those would split the line a program
+   * prints, or drive the user's terminal. */
+  for (char *c = err->message; *c; c++)
+    if ((unsigned char)*c < 0x20 || *c == 0x7f) *c = '?';
   return status;
 }

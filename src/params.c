@@ -687,7 +687,7 @@ static jg_status bad_literal(const literal_origin *origin, int line, const liter
  * accepted it, so its shape is valid. */
 static jg_status check_number(const char *tok, size_t n, const literal_origin *origin, int line,
                               const literal_scan *sc, jg_error *err) {
-  char buf[128];
+  char buf[512];
   if (n >= sizeof buf) n = sizeof buf - 1;
   memcpy(buf, tok, n);
   buf[n] = '\0';
@@ -1093,6 +1093,6 @@ jg_status jg_params_set_number(jg_params *p, const char *key, double value, jg_e
     *(int *)((char *)p + s->offset) = (int)value;
     return JG_OK;
   default:
-    return JG_FAIL(err, JG_EINVAL, "%s is not a single number (it is %s)", key, s->doc.type);
+    return JG_FAIL(err, JG_EINVAL, "%s is not a single number (its type: %s)", key, s->doc.type);
   }
 }

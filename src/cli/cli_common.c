@@ -4,22 +4,46 @@
 #include <stdio.h>
 #include <stdlib.h>
 #include <string.h>
+#include <sys/stat.h>
 #include <unistd.h>
 
 #include "cli.h"
 
-/* The temporary output file being written, for the signal handler. Program
- * state, not library state: the library keeps no globals. */
-static volatile sig_atomic_t have_temp_path = 0;
-static char temp_path[4096];
+/* The temporary output files being written (`run` writes several at once),
+ * for the signal handler. Program state, not library state: the library
+ * keeps no globals. */
+#define MAX_TEMP_FILES 8
+static volatile sig_atomic_t temp_in_use[MAX_TEMP_FILES];
+static char temp_paths[MAX_TEMP_FILES][4096];
 
 static void on_interrupt(int sig) {
-  if (have_temp_path) unlink(temp_path);
-  static const char msg[] = "jeansgrow: interrupted; no output file was written\n";
-  ssize_t ignored = write(STDERR_FILENO, msg, sizeof msg - 1);
+  static const char removed[] = "jeansgrow: interrupted; no output file was written\n";
+  static const char plain[] = "jeansgrow: interrupted\n";
+  ssize_t ignored;
+  int any = 0;
+  for (int i = 0; i < MAX_TEMP_FILES; i++)
+    if (temp_in_use[i]) unlink(temp_paths[i]), any = 1;
+  if (any) {
+    ignored = write(STDERR_FILENO, removed, sizeof removed - 1);
+  } else {
+    ignored = write(STDERR_FILENO, plain, sizeof plain - 1);
+  }
   (void)ignored;
   _exit(128 + sig);
 }
+
+/* SIGINT and SIGTERM are held back while the temporary file and the handler's
+ * record of it disagree: between mkstemp and the record, the default action
+ * would leave the hidden file behind; between the rename and clearing the
+ * record, the handler would claim no file was written. */
+static void hold_interrupts(sigset_t *saved) {
+  sigset_t block;
+  sigemptyset(&block);
+  sigaddset(&block, SIGINT);
+  sigaddset(&block, SIGTERM);
+  sigprocmask(SIG_BLOCK, &block, saved);
+}
+static void release_interrupts(const sigset_t *saved) { sigprocmask(SIG_SETMASK, saved, NULL); }
 
 static void install_interrupt_handlers(void) {
   struct sigaction sa;
@@ -73,10 +97,29 @@ int cli_parse_options(const cli_command *cmd, int argc, char **argv, cli_options
       fprintf(stderr, "jeansgrow %s: option '%s' needs a value\n", cmd->name, argv[optind - 1]);
       return EXIT_BAD_INPUT;
     default:
-      fprintf(stderr, "jeansgrow %s: unknown option '%s' (see jeansgrow %s --help)\n", cmd->name,
-              argv[optind - 1], cmd->name);
+      /* For an unknown short option optopt holds the letter; argv[optind - 1]
+       * would name the wrong word when it sits in a cluster ("-qz"). */
+      if (optopt)
+        fprintf(stderr, "jeansgrow %s: unknown option '-%c' (see jeansgrow %s --help)\n",
+                cmd->name, optopt, cmd->name);
+      else
+        fprintf(stderr, "jeansgrow %s: unknown option '%s' (see jeansgrow %s --help)\n",
+                cmd->name, argv[optind - 1], cmd->name);
       return EXIT_BAD_INPUT;
     }
+  }
+  /* Caught here, before any work: otherwise the run would end with a
+   * failed rename and a less helpful message. */
+  if (o->output_path && o->output_path[0] == '\0') {
+    fprintf(stderr, "jeansgrow %s: option '-o' needs a file name (got an empty one)\n",
+            cmd->name);
+    return EXIT_BAD_INPUT;
+  }
+  struct stat sb;
+  if (o->output_path && stat(o->output_path, &sb) == 0 && S_ISDIR(sb.st_mode)) {
+    fprintf(stderr, "jeansgrow %s: %s is a directory; -o needs a file name\n", cmd->name,
+            o->output_path);
+    return EXIT_BAD_INPUT;
   }
   if (optind >= argc) {
     fprintf(stderr, "jeansgrow %s: missing parameter file (usage: jeansgrow %s %s)\n", cmd->name,
@@ -116,38 +159,67 @@ int cli_load_params(const cli_options *o, jg_params *p) {
 int cli_open_output(const cli_options *o, jg_output **out) {
   jg_error err;
   jg_error_clear(&err);
+  sigset_t saved;
+  hold_interrupts(&saved);
   if (jg_output_open(o->output_path, out, &err) != JG_OK) {
+    release_interrupts(&saved);
     cli_report(&err);
     return EXIT_BAD_INPUT;
   }
   const char *tmp = jg_output_temp_path(*out);
-  if (tmp && strlen(tmp) < sizeof temp_path) {
-    strcpy(temp_path, tmp);
-    have_temp_path = 1;
+  for (int i = 0; tmp && i < MAX_TEMP_FILES; i++) {
+    if (!temp_in_use[i] && strlen(tmp) < sizeof temp_paths[i]) {
+      strcpy(temp_paths[i], tmp);
+      temp_in_use[i] = 1;
+      break;
+    }
   }
   install_interrupt_handlers();
+  release_interrupts(&saved);
   return -1;
+}
+
+/* Forget the handler's record of this output's temporary file. */
+static void forget_temp_file(const jg_output *out) {
+  const char *tmp = jg_output_temp_path(out);
+  for (int i = 0; tmp && i < MAX_TEMP_FILES; i++)
+    if (temp_in_use[i] && strcmp(temp_paths[i], tmp) == 0) temp_in_use[i] = 0;
 }
 
 int cli_commit_output(jg_output *out) {
   jg_error err;
   jg_error_clear(&err);
+  sigset_t saved;
+  hold_interrupts(&saved);
+  forget_temp_file(out);
   jg_status st = jg_output_commit(out, &err);
-  have_temp_path = 0;
+  release_interrupts(&saved);
   return st == JG_OK ? EXIT_OK : cli_report(&err);
 }
 
 void cli_discard_output(jg_output *out) {
+  sigset_t saved;
+  hold_interrupts(&saved);
+  forget_temp_file(out);
   jg_output_discard(out);
-  have_temp_path = 0;
+  release_interrupts(&saved);
 }
 
-int cli_build_history(const jg_params *p, jg_background **bg, jg_thermal **th) {
+int cli_build_history(const jg_params *p, const char *param_path, jg_background **bg,
+                      jg_thermal **th) {
   jg_error err;
   jg_error_clear(&err);
   *th = NULL;
   *bg = jg_background_new(&p->cosmology, &err);
-  if (!*bg) return cli_report(&err);
+  if (!*bg) {
+    /* A cosmology refused as a whole (e.g. no big bang) is bad input from
+     * that file: name it, as the loader does for single keys. */
+    if (err.status == JG_EINVAL) {
+      fprintf(stderr, "jeansgrow: %s: %s\n", param_path, err.message);
+      return EXIT_BAD_INPUT;
+    }
+    return cli_report(&err);
+  }
   *th = jg_thermal_new(*bg, &p->thermal, &err);
   if (!*th) {
     jg_background_free(*bg);

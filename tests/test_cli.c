@@ -1,0 +1,738 @@
+/*
+ * Command-line tests: the real program (JG_PROGRAM), run on real files.
+ *
+ * The bad-input catalogue in tests/bad/ (see its README.md) is walked in
+ * sorted order; every case must print its exact error line, exit with 2 and
+ * leave its output folder empty. The good runs check what the commands
+ * promise in their --help text and in the conventions: the table layout,
+ * exact requested redshifts, --set applied and recorded, atomic output.
+ */
+#include <criterion/criterion.h>
+#include <dirent.h>
+#include <errno.h>
+#include <fcntl.h>
+#include <math.h>
+#include <signal.h>
+#include <spawn.h>
+#include <stdio.h>
+#include <stdlib.h>
+#include <string.h>
+#include <sys/stat.h>
+#include <sys/wait.h>
+#include <time.h>
+#include <unistd.h>
+
+#include "jeansgrow/jeansgrow.h"
+
+extern char **environ;
+
+#define BAD_DIR JG_SOURCE_DIR "/tests/bad"
+#define REFERENCE JG_SOURCE_DIR "/params/reference.cfg"
+#define MAX_ARGS 64
+
+/* ---- running the program ------------------------------------------------- */
+
+typedef struct child {
+  pid_t pid;
+  char io_dir[64]; /* holds the captured stdout and stderr */
+} child;
+
+typedef struct run_result {
+  int status; /* as from waitpid */
+  char *out;
+  char *err;
+} run_result;
+
+static char *read_text(const char *path) {
+  FILE *f = fopen(path, "rb");
+  if (!f) return NULL;
+  size_t cap = 4096, len = 0;
+  char *buf = malloc(cap);
+  cr_assert_not_null(buf);
+  size_t got;
+  while ((got = fread(buf + len, 1, cap - len - 1, f)) > 0) {
+    len += got;
+    if (cap - len < 2) {
+      buf = realloc(buf, cap *= 2);
+      cr_assert_not_null(buf);
+    }
+  }
+  fclose(f);
+  buf[len] = '\0';
+  return buf;
+}
+
+static void write_text(const char *path, const char *text) {
+  FILE *f = fopen(path, "w");
+  cr_assert_not_null(f, "cannot write %s", path);
+  fputs(text, f);
+  cr_assert_eq(fclose(f), 0);
+}
+
+/* Start the program with `args` (NULL-terminated, without argv[0]); stdout
+ * and stderr go to files rather than pipes, so a chatty child cannot block. */
+static void child_start(child *c, const char *const *args) {
+  snprintf(c->io_dir, sizeof c->io_dir, "/tmp/jg_cli_io_XXXXXX");
+  cr_assert_not_null(mkdtemp(c->io_dir), "mkdtemp: %s", strerror(errno));
+  char out_path[128], err_path[128];
+  snprintf(out_path, sizeof out_path, "%s/stdout", c->io_dir);
+  snprintf(err_path, sizeof err_path, "%s/stderr", c->io_dir);
+
+  /* posix_spawn wants char *const argv[]: give it copies it may not write. */
+  char *argv[MAX_ARGS + 2];
+  int n = 0;
+  argv[n++] = strdup(JG_PROGRAM);
+  for (int i = 0; args[i]; i++) {
+    cr_assert_lt(n, MAX_ARGS + 1, "too many arguments");
+    argv[n++] = strdup(args[i]);
+  }
+  argv[n] = NULL;
+
+  posix_spawn_file_actions_t fa;
+  posix_spawn_file_actions_init(&fa);
+  posix_spawn_file_actions_addopen(&fa, 0, "/dev/null", O_RDONLY, 0);
+  posix_spawn_file_actions_addopen(&fa, 1, out_path, O_WRONLY | O_CREAT | O_TRUNC, 0600);
+  posix_spawn_file_actions_addopen(&fa, 2, err_path, O_WRONLY | O_CREAT | O_TRUNC, 0600);
+  int rc = posix_spawn(&c->pid, JG_PROGRAM, &fa, NULL, argv, environ);
+  posix_spawn_file_actions_destroy(&fa);
+  for (int i = 0; i < n; i++) free(argv[i]);
+  cr_assert_eq(rc, 0, "cannot start %s: %s", JG_PROGRAM, strerror(rc));
+}
+
+static void child_finish(child *c, run_result *r) {
+  pid_t w;
+  do w = waitpid(c->pid, &r->status, 0);
+  while (w < 0 && errno == EINTR);
+  cr_assert_eq(w, c->pid, "waitpid: %s", strerror(errno));
+  char path[128];
+  snprintf(path, sizeof path, "%s/stdout", c->io_dir);
+  r->out = read_text(path);
+  unlink(path);
+  snprintf(path, sizeof path, "%s/stderr", c->io_dir);
+  r->err = read_text(path);
+  unlink(path);
+  rmdir(c->io_dir);
+  cr_assert(r->out && r->err, "lost the captured output of the program");
+}
+
+static void run(const char *const *args, run_result *r) {
+  child c;
+  child_start(&c, args);
+  child_finish(&c, r);
+}
+
+static void run_free(run_result *r) {
+  free(r->out);
+  free(r->err);
+}
+
+static int exited_with(const run_result *r, int code) {
+  return WIFEXITED(r->status) && WEXITSTATUS(r->status) == code;
+}
+
+/* ---- folders ------------------------------------------------------------- */
+
+static void make_temp_dir(char *dir, size_t size) {
+  snprintf(dir, size, "/tmp/jg_cli_out_XXXXXX");
+  cr_assert_not_null(mkdtemp(dir), "mkdtemp: %s", strerror(errno));
+}
+
+/* The names in `dir` (hidden ones included), space-separated; returns how
+ * many there are. */
+static int list_dir(const char *dir, char *names, size_t size) {
+  names[0] = '\0';
+  DIR *d = opendir(dir);
+  cr_assert_not_null(d, "cannot open %s", dir);
+  int n = 0;
+  struct dirent *e;
+  while ((e = readdir(d)) != NULL) {
+    if (strcmp(e->d_name, ".") == 0 || strcmp(e->d_name, "..") == 0) continue;
+    size_t len = strlen(names);
+    snprintf(names + len, size - len, "%s%s", n ? " " : "", e->d_name);
+    n++;
+  }
+  closedir(d);
+  return n;
+}
+
+/* Remove `dir` and whatever a failed check left in it (files or one level of
+ * folders), so that one failing case does not litter /tmp. */
+static void remove_dir(const char *dir) {
+  DIR *d = opendir(dir);
+  if (!d) return;
+  struct dirent *e;
+  while ((e = readdir(d)) != NULL) {
+    if (strcmp(e->d_name, ".") == 0 || strcmp(e->d_name, "..") == 0) continue;
+    char path[4096];
+    snprintf(path, sizeof path, "%s/%s", dir, e->d_name);
+    if (unlink(path) != 0) remove_dir(path);
+  }
+  closedir(d);
+  rmdir(dir);
+}
+
+/* ---- the bad-input catalogue --------------------------------------------- */
+
+typedef struct placeholders {
+  const char *cfg, *dir, *outdir, *out;
+} placeholders;
+
+/* `text` with @CFG@, @DIR@, @OUTDIR@ and @OUT@ filled in (malloc'd). */
+static char *fill(const char *text, const placeholders *ph) {
+  const struct {
+    const char *token, *value;
+  } map[] = {{"@CFG@", ph->cfg}, {"@DIR@", ph->dir}, {"@OUTDIR@", ph->outdir}, {"@OUT@", ph->out}};
+  size_t cap = strlen(text) + 1;
+  for (const char *p = text; *p; p++)
+    if (*p == '@') cap += 4096;
+  char *res = malloc(cap);
+  cr_assert_not_null(res);
+  size_t len = 0;
+  for (const char *p = text; *p;) {
+    int done = 0;
+    for (size_t i = 0; i < sizeof map / sizeof map[0] && !done; i++) {
+      size_t tl = strlen(map[i].token);
+      if (strncmp(p, map[i].token, tl) == 0) {
+        len += (size_t)snprintf(res + len, cap - len, "%s", map[i].value);
+        p += tl;
+        done = 1;
+      }
+    }
+    if (!done) res[len++] = *p++;
+  }
+  res[len] = '\0';
+  return res;
+}
+
+static int has_suffix(const char *name, const char *suffix) {
+  size_t n = strlen(name), s = strlen(suffix);
+  return n > s && strcmp(name + n - s, suffix) == 0;
+}
+
+static int file_exists(const char *path) {
+  struct stat sb;
+  return stat(path, &sb) == 0;
+}
+
+/* Run one case; returns 1 if every check passed. Each failed check is
+ * reported under the case name and the walk goes on. */
+static int run_bad_case(const char *name) {
+  char base[1024], path[1200], outdir[64], out[128];
+  snprintf(base, sizeof base, "%s/%s", BAD_DIR, name);
+  make_temp_dir(outdir, sizeof outdir);
+  snprintf(out, sizeof out, "%s/out.txt", outdir);
+  snprintf(path, sizeof path, "%s.cfg", base);
+  char cfg[1200];
+  snprintf(cfg, sizeof cfg, "%s", path);
+  placeholders ph = {cfg, BAD_DIR, outdir, out};
+  int ok = 1;
+
+  snprintf(path, sizeof path, "%s.expect", base);
+  char *expect_raw = read_text(path);
+  cr_assert_not_null(expect_raw, "%s: cannot read %s", name, path);
+  char *newline = strchr(expect_raw, '\n');
+  if (!newline || newline[1] != '\0') {
+    cr_expect_fail("%s: %s.expect must hold exactly one line ending in a newline", name, name);
+    ok = 0;
+  }
+  char *expected = fill(expect_raw, &ph);
+
+  /* Arguments: one per line of NAME.args, or the default command. */
+  char *args_text = NULL;
+  const char *args[MAX_ARGS + 1];
+  char *filled[MAX_ARGS];
+  int n_args = 0;
+  snprintf(path, sizeof path, "%s.args", base);
+  if (file_exists(path)) {
+    args_text = read_text(path);
+    cr_assert_not_null(args_text, "%s: cannot read %s", name, path);
+    for (char *line = args_text; *line;) {
+      char *end = strchr(line, '\n');
+      if (end) *end = '\0';
+      cr_assert_lt(n_args, MAX_ARGS, "%s: too many arguments", name);
+      filled[n_args] = fill(line, &ph);
+      args[n_args] = filled[n_args];
+      n_args++;
+      if (!end) break;
+      line = end + 1;
+    }
+  } else {
+    const char *def[] = {"history", "-o", "@OUT@", "@CFG@"};
+    for (int i = 0; i < 4; i++) {
+      filled[n_args] = fill(def[i], &ph);
+      args[n_args] = filled[n_args];
+      n_args++;
+    }
+  }
+  args[n_args] = NULL;
+
+  run_result r;
+  run(args, &r);
+  if (strcmp(r.err, expected) != 0) {
+    cr_expect_fail("%s: stderr differs\n  got:      %s\n  expected: %s", name, r.err, expected);
+    ok = 0;
+  }
+  if (!exited_with(&r, 2)) {
+    cr_expect_fail("%s: exit status %d%s, expected 2", name,
+                   WIFEXITED(r.status) ? WEXITSTATUS(r.status) : WTERMSIG(r.status),
+                   WIFEXITED(r.status) ? "" : " (killed by signal)");
+    ok = 0;
+  }
+  if (r.out[0] != '\0') {
+    cr_expect_fail("%s: stdout should be empty, got: %.200s", name, r.out);
+    ok = 0;
+  }
+  char left[1024];
+  if (list_dir(outdir, left, sizeof left) != 0) {
+    cr_expect_fail("%s: the output folder should be empty, holds: %s", name, left);
+    ok = 0;
+  }
+
+  run_free(&r);
+  for (int i = 0; i < n_args; i++) free(filled[i]);
+  free(args_text);
+  free(expected);
+  free(expect_raw);
+  remove_dir(outdir);
+  return ok;
+}
+
+Test(bad_input, every_catalogued_case_prints_its_exact_message_exits_2_and_writes_nothing,
+     .timeout = 300) {
+  struct dirent **entries;
+  int n = scandir(BAD_DIR, &entries, NULL, alphasort);
+  cr_assert_geq(n, 0, "cannot list %s: %s", BAD_DIR, strerror(errno));
+  int cases = 0, failed = 0;
+  for (int i = 0; i < n; i++) {
+    const char *file = entries[i]->d_name;
+    char name[512];
+    if (has_suffix(file, ".expect")) {
+      snprintf(name, sizeof name, "%.*s", (int)(strlen(file) - strlen(".expect")), file);
+      cases++;
+      if (!run_bad_case(name)) failed++;
+    } else if (has_suffix(file, ".cfg") || has_suffix(file, ".args")) {
+      /* A bad file without its expected message would be skipped silently. */
+      size_t stem = strlen(file) - strlen(has_suffix(file, ".cfg") ? ".cfg" : ".args");
+      char expect_path[1024];
+      snprintf(expect_path, sizeof expect_path, "%s/%.*s.expect", BAD_DIR, (int)stem, file);
+      if (!file_exists(expect_path)) {
+        cr_expect_fail("tests/bad/%s has no .expect file", file);
+        failed++;
+      }
+    }
+    free(entries[i]);
+  }
+  free(entries);
+  cr_assert_gt(cases, 0, "no cases found in %s", BAD_DIR);
+  cr_expect_eq(failed, 0, "%d problem(s) in the catalogue of %d cases (listed above)", failed, cases);
+}
+
+/* ---- version and help ---------------------------------------------------- */
+
+Test(good_runs, version_option_prints_the_library_version) {
+  const char *spellings[] = {"--version", "-V"};
+  for (int i = 0; i < 2; i++) {
+    const char *args[] = {spellings[i], NULL};
+    run_result r;
+    run(args, &r);
+    cr_expect(exited_with(&r, 0), "%s: exit status", spellings[i]);
+    cr_expect_str_eq(r.out, "jeansgrow " JG_VERSION_STRING "\n", "%s", spellings[i]);
+    cr_expect_str_empty(r.err, "%s", spellings[i]);
+    run_free(&r);
+  }
+}
+
+/* The program help lists the commands ("  NAME  summary" under
+ * "Commands:"); each one's --help is checked, so a command added later is
+ * covered without touching this test. */
+Test(good_runs, program_help_and_every_command_help_exit_0_with_usage) {
+  const char *args[] = {"--help", NULL};
+  run_result r;
+  run(args, &r);
+  cr_assert(exited_with(&r, 0), "--help: exit status");
+  cr_expect_str_empty(r.err);
+  cr_assert(strncmp(r.out, "Usage: jeansgrow COMMAND", 24) == 0, "--help printed: %.200s", r.out);
+  const char *section = strstr(r.out, "\nCommands:\n");
+  cr_assert_not_null(section, "--help lists no commands");
+  int commands = 0;
+  for (const char *line = section + strlen("\nCommands:\n"); strncmp(line, "  ", 2) == 0;) {
+    char cmd[64];
+    cr_assert_eq(sscanf(line, " %63s", cmd), 1);
+    const char *cargs[] = {cmd, "--help", NULL};
+    run_result c;
+    run(cargs, &c);
+    char usage[128];
+    snprintf(usage, sizeof usage, "Usage: jeansgrow %s", cmd);
+    cr_expect(exited_with(&c, 0), "%s --help: exit status", cmd);
+    cr_expect(strncmp(c.out, usage, strlen(usage)) == 0, "%s --help printed: %.200s", cmd, c.out);
+    cr_expect_str_empty(c.err, "%s --help", cmd);
+    run_free(&c);
+    commands++;
+    const char *next = strchr(line, '\n');
+    if (!next) break;
+    line = next + 1;
+  }
+  cr_expect_geq(commands, 3, "expected at least history, epochs and keys");
+  run_free(&r);
+
+  const char *short_args[] = {"-h", NULL};
+  run(short_args, &r);
+  cr_expect(exited_with(&r, 0), "-h: exit status");
+  cr_expect(strncmp(r.out, "Usage: jeansgrow COMMAND", 24) == 0);
+  run_free(&r);
+}
+
+/* ---- tables -------------------------------------------------------------- */
+
+typedef struct table {
+  char *header;    /* all '#' lines */
+  char **columns;  /* from the last header line */
+  int n_columns;
+  double *cells;   /* row-major */
+  int n_rows;
+} table;
+
+static int column_index(const table *t, const char *name) {
+  for (int i = 0; i < t->n_columns; i++)
+    if (strcmp(t->columns[i], name) == 0) return i;
+  return -1;
+}
+
+static double cell(const table *t, int row, int col) { return t->cells[row * t->n_columns + col]; }
+
+/* Parse a table as numpy.loadtxt would: '#' lines are the header, the last
+ * one names the columns; every other line is tab-separated finite numbers,
+ * as many as there are columns. Each defect is reported. */
+static void parse_table(const char *text, table *t) {
+  memset(t, 0, sizeof *t);
+  size_t n = strlen(text);
+  t->header = calloc(n + 1, 1);
+  cr_assert_not_null(t->header);
+  char *copy = strdup(text);
+  cr_assert_not_null(copy);
+  char *last_header = NULL;
+  int cap_rows = 0;
+  for (char *line = copy; line && *line;) {
+    char *end = strchr(line, '\n');
+    cr_assert_not_null(end, "the table does not end with a newline");
+    *end = '\0';
+    if (line[0] == '#') {
+      cr_assert_eq(t->n_rows, 0, "a header line after the data: %s", line);
+      strcat(t->header, line);
+      strcat(t->header, "\n");
+      last_header = line;
+    } else {
+      if (!t->columns) {
+        cr_assert_not_null(last_header, "data before any header line");
+        cr_assert(strncmp(last_header, "# ", 2) == 0, "column line: %s", last_header);
+        char *save = NULL;
+        for (char *tok = strtok_r(last_header + 2, "\t", &save); tok;
+             tok = strtok_r(NULL, "\t", &save)) {
+          t->columns = realloc(t->columns, sizeof(char *) * (size_t)(t->n_columns + 1));
+          t->columns[t->n_columns++] = strdup(tok);
+        }
+      }
+      if (t->n_rows == cap_rows) {
+        cap_rows = cap_rows ? 2 * cap_rows : 256;
+        t->cells = realloc(t->cells, sizeof(double) * (size_t)cap_rows * (size_t)t->n_columns);
+        cr_assert_not_null(t->cells);
+      }
+      int col = 0;
+      char *p = line;
+      for (;;) {
+        char *stop;
+        double v = strtod(p, &stop);
+        cr_assert(stop != p && (*stop == '\t' || *stop == '\0'),
+                  "row %d, column %d is not a number: %.60s", t->n_rows + 1, col + 1, p);
+        cr_assert(isfinite(v), "row %d, column %d is not finite: %.60s", t->n_rows + 1, col + 1,
+                  p);
+        cr_assert_lt(col, t->n_columns, "row %d has more than %d columns", t->n_rows + 1,
+                     t->n_columns);
+        t->cells[t->n_rows * t->n_columns + col++] = v;
+        if (*stop == '\0') break;
+        p = stop + 1;
+      }
+      cr_assert_eq(col, t->n_columns, "row %d has %d columns, the header names %d",
+                   t->n_rows + 1, col, t->n_columns);
+      t->n_rows++;
+    }
+    line = end + 1;
+  }
+  free(copy);
+}
+
+static void table_free(table *t) {
+  for (int i = 0; i < t->n_columns; i++) free(t->columns[i]);
+  free(t->columns);
+  free(t->cells);
+  free(t->header);
+}
+
+/* Run `history` with `extra` arguments into a fresh folder and parse the
+ * table; also checks that the run was clean and left exactly one file. */
+static void run_history(const char *const *extra, table *t) {
+  char dir[64], out[128];
+  make_temp_dir(dir, sizeof dir);
+  snprintf(out, sizeof out, "%s/history.txt", dir);
+  const char *args[MAX_ARGS + 1];
+  int n = 0;
+  args[n++] = "history";
+  for (int i = 0; extra[i]; i++) args[n++] = extra[i];
+  args[n++] = "-o";
+  args[n++] = out;
+  args[n++] = REFERENCE;
+  args[n] = NULL;
+  run_result r;
+  run(args, &r);
+  cr_assert(exited_with(&r, 0), "history failed: %s", r.err);
+  cr_expect_str_empty(r.err);
+  cr_expect_str_empty(r.out, "with -o nothing goes to stdout");
+  char names[1024];
+  cr_expect_eq(list_dir(dir, names, sizeof names), 1, "the folder holds: %s", names);
+  char *text = read_text(out);
+  cr_assert_not_null(text);
+  parse_table(text, t);
+  free(text);
+  run_free(&r);
+  remove_dir(dir);
+}
+
+static int row_with_z(const table *t, double z) {
+  for (int i = 0; i < t->n_rows; i++)
+    if (cell(t, i, 0) == z) return i;
+  return -1;
+}
+
+Test(good_runs, history_table_has_its_columns_exact_requested_redshifts_and_clean_numbers) {
+  jg_params p;
+  jg_error err;
+  jg_error_clear(&err);
+  cr_assert_eq(jg_params_load(REFERENCE, NULL, 0, &p, &err), JG_OK, "%s", err.message);
+
+  const char *none[] = {NULL};
+  table t;
+  run_history(none, &t);
+  const char *wanted[] = {"z", "x_e", "T_gas[K]", "T_rad[K]", "tau", "visibility"};
+  for (size_t i = 0; i < sizeof wanted / sizeof wanted[0]; i++)
+    cr_expect_geq(column_index(&t, wanted[i]), 0, "no column %s", wanted[i]);
+  cr_assert_eq(column_index(&t, "z"), 0, "z must be the first column");
+  cr_expect(strstr(t.header, "# jeansgrow " JG_VERSION_STRING) != NULL,
+            "the header records the version");
+
+  cr_expect_geq(t.n_rows, p.output.history_rows);
+  for (int i = 1; i < t.n_rows; i++)
+    cr_expect_lt(cell(&t, i, 0), cell(&t, i - 1, 0), "z does not decrease at row %d", i + 1);
+  /* Exact equality: %.10e reads back to the same double for these values,
+   * and the help promises every requested redshift "exactly". */
+  for (int i = 0; i < p.output.n_redshifts; i++)
+    cr_expect_geq(row_with_z(&t, p.output.redshifts[i]), 0, "no row at z = %.17g",
+                  p.output.redshifts[i]);
+  cr_expect_eq(cell(&t, 0, 0), p.thermal.start_redshift, "first row at the start redshift");
+  cr_expect_eq(cell(&t, t.n_rows - 1, 0), p.output.history_z_min, "last row at history_z_min");
+  table_free(&t);
+}
+
+Test(good_runs, set_options_change_the_results_and_are_recorded_in_the_header) {
+  const char *only_z[] = {"--set", "output.redshifts=[300.0,30.0]", NULL};
+  const char *more_baryons[] = {"--set", "cosmology.baryon_density_h2=0.03", "--set",
+                                "output.redshifts=[300.0,30.0]", NULL};
+  table base, changed;
+  run_history(only_z, &base);
+  run_history(more_baryons, &changed);
+  cr_expect(strstr(changed.header, "# cosmology.baryon_density_h2 = 0.03;\n") != NULL,
+            "override not recorded:\n%s", changed.header);
+  cr_expect(strstr(changed.header, "# output.redshifts = [300.0, 30.0];\n") != NULL,
+            "array override not recorded:\n%s", changed.header);
+  cr_expect(strstr(base.header, "# cosmology.baryon_density_h2 = 0.02237;\n") != NULL);
+  int xe = column_index(&changed, "x_e");
+  cr_assert_geq(xe, 0);
+  int rb = row_with_z(&base, 300.0), rc = row_with_z(&changed, 300.0);
+  cr_assert(rb >= 0 && rc >= 0, "no row at z = 300");
+  cr_expect_geq(row_with_z(&changed, 30.0), 0, "no row at z = 30");
+  /* The override must reach the computation, not only the header. */
+  cr_expect_neq(cell(&base, rb, xe), cell(&changed, rc, xe),
+                "x_e at z = 300 is the same with Omega_b h^2 = 0.02237 and 0.03");
+  table_free(&base);
+  table_free(&changed);
+}
+
+typedef struct epoch_line {
+  char name[64], unit[32];
+  double value;
+} epoch_line;
+
+Test(good_runs, epochs_prints_name_value_unit_lines) {
+  const char *args[] = {"epochs", REFERENCE, NULL};
+  run_result r;
+  run(args, &r);
+  cr_assert(exited_with(&r, 0), "epochs failed: %s", r.err);
+  cr_expect_str_empty(r.err);
+  epoch_line lines[128];
+  int n = 0;
+  char *copy = strdup(r.out);
+  char *save = NULL;
+  for (char *line = strtok_r(copy, "\n", &save); line; line = strtok_r(NULL, "\n", &save)) {
+    if (line[0] == '#') continue;
+    cr_assert_lt(n, 128);
+    char *tab1 = strchr(line, '\t');
+    char *tab2 = tab1 ? strchr(tab1 + 1, '\t') : NULL;
+    cr_assert(tab1 && tab2 && !strchr(tab2 + 1, '\t'), "not name<TAB>value<TAB>unit: %s", line);
+    *tab1 = *tab2 = '\0';
+    snprintf(lines[n].name, sizeof lines[n].name, "%s", line);
+    snprintf(lines[n].unit, sizeof lines[n].unit, "%s", tab2 + 1);
+    char *stop;
+    lines[n].value = strtod(tab1 + 1, &stop);
+    cr_expect(stop != tab1 + 1 && *stop == '\0' && isfinite(lines[n].value),
+              "%s: value is not a finite number: %s", line, tab1 + 1);
+    cr_expect(lines[n].unit[0] != '\0', "%s: empty unit ('-' marks dimensionless)", line);
+    n++;
+  }
+  free(copy);
+  /* Units as the command documents them ('-' for dimensionless). */
+  const struct {
+    const char *name, *unit;
+  } wanted[] = {{"z_star", "-"},      {"z_drag", "-"}, {"r_star", "Mpc"},
+                {"r_drag", "Mpc"},    {"z_eq", "-"},   {"age", "Gyr"},
+                {"z_gas_decoupling", "-"}};
+  for (size_t w = 0; w < sizeof wanted / sizeof wanted[0]; w++) {
+    int found = -1;
+    for (int i = 0; i < n; i++)
+      if (strcmp(lines[i].name, wanted[w].name) == 0) found = i;
+    cr_expect_geq(found, 0, "epochs has no %s line", wanted[w].name);
+    if (found >= 0) {
+      cr_expect_str_eq(lines[found].unit, wanted[w].unit, "unit of %s", wanted[w].name);
+      cr_expect_gt(lines[found].value, 0.0, "%s", wanted[w].name);
+    }
+  }
+  run_free(&r);
+}
+
+Test(good_runs, integers_written_for_number_keys_are_accepted) {
+  char dir[64], cfg[128], out[128];
+  make_temp_dir(dir, sizeof dir);
+  snprintf(cfg, sizeof cfg, "%s/integers.cfg", dir);
+  snprintf(out, sizeof out, "%s/epochs.txt", dir);
+  /* hubble_h = 1 lies inside 0 < h <= 5; the others are ordinary values
+   * written without a decimal point. */
+  write_text(cfg, "cosmology: { hubble_h = 1; baryon_density_h2 = 0.02237; cdm_density_h2 = 0.12;\n"
+                  "             cmb_temperature_K = 3; };\n"
+                  "thermal: { start_redshift = 9000; };\n"
+                  "output: { redshifts = [1000, 100, 10]; history_z_min = 0; };\n");
+  const char *args[] = {"epochs", "-o", out, cfg, NULL};
+  run_result r;
+  run(args, &r);
+  cr_assert(exited_with(&r, 0), "epochs failed: %s", r.err);
+  char *text = read_text(out);
+  cr_assert_not_null(text);
+  const char *recorded[] = {"# cosmology.hubble_h = 1.0;\n", "# cosmology.cmb_temperature_K = 3.0;\n",
+                            "# thermal.start_redshift = 9000.0;\n",
+                            "# output.redshifts = [1000.0, 100.0, 10.0];\n",
+                            "# output.history_z_min = 0.0;\n"};
+  for (size_t i = 0; i < sizeof recorded / sizeof recorded[0]; i++)
+    cr_expect(strstr(text, recorded[i]) != NULL, "header lacks %s", recorded[i]);
+  free(text);
+  run_free(&r);
+  remove_dir(dir);
+}
+
+/* A failed run must not touch a table already at the output path: neither
+ * when the input is rejected up front nor when the run fails after the
+ * temporary file was opened (the closed, matter-poor model fails when the
+ * background is built). */
+Test(good_runs, failed_run_leaves_an_existing_output_file_untouched) {
+  const char *precious = "# a table from an earlier run\n1.0\t2.0\n";
+  const char *const failing[][12] = {
+      {"history", "--set", "cosmology.hubble_h=-1", NULL},
+      {"history", "--set", "cosmology.hubble_h=0.7", "--set", "cosmology.baryon_density_h2=0.001",
+       "--set", "cosmology.cdm_density_h2=0.001", "--set", "cosmology.curvature_omega=-0.9",
+       NULL},
+  };
+  for (size_t k = 0; k < sizeof failing / sizeof failing[0]; k++) {
+    char dir[64], out[128];
+    make_temp_dir(dir, sizeof dir);
+    snprintf(out, sizeof out, "%s/table.txt", dir);
+    write_text(out, precious);
+    const char *args[MAX_ARGS + 1];
+    int n = 0;
+    for (int i = 0; failing[k][i]; i++) args[n++] = failing[k][i];
+    args[n++] = "-o";
+    args[n++] = out;
+    args[n++] = REFERENCE;
+    args[n] = NULL;
+    run_result r;
+    run(args, &r);
+    cr_expect(exited_with(&r, 2), "case %zu: expected exit status 2; stderr: %s", k, r.err);
+    char *text = read_text(out);
+    cr_expect(text && strcmp(text, precious) == 0, "case %zu: the existing file changed", k);
+    char names[1024];
+    cr_expect_eq(list_dir(dir, names, sizeof names), 1, "case %zu: the folder holds: %s", k,
+                 names);
+    free(text);
+    run_free(&r);
+    remove_dir(dir);
+  }
+}
+
+/* Tables are for sharing: the file gets the usual permissions (0666 less
+ * the umask), not those of a private temporary file. */
+Test(good_runs, output_file_gets_the_usual_permissions) {
+  char dir[64], out[128];
+  make_temp_dir(dir, sizeof dir);
+  snprintf(out, sizeof out, "%s/epochs.txt", dir);
+  mode_t old = umask(022); /* inherited by the child */
+  const char *args[] = {"epochs", "-o", out, REFERENCE, NULL};
+  run_result r;
+  run(args, &r);
+  umask(old);
+  cr_assert(exited_with(&r, 0), "epochs failed: %s", r.err);
+  struct stat sb;
+  cr_assert_eq(stat(out, &sb), 0);
+  cr_expect_eq(sb.st_mode & 0777, 0644, "mode %o, expected 644 under umask 022",
+               (unsigned)(sb.st_mode & 0777));
+  run_free(&r);
+  remove_dir(dir);
+}
+
+/* SIGTERM while the table is being written: the program removes its
+ * temporary file and exits with 128 + 15. The signal is sent as soon as the
+ * hidden temporary file appears; the program holds signals back until it
+ * has recorded that file, so this is deterministic as long as the run
+ * (a million rows, seconds) outlasts the polling (about a millisecond). */
+Test(good_runs, sigterm_during_a_run_leaves_no_file, .timeout = 120) {
+  char dir[64], out[128];
+  make_temp_dir(dir, sizeof dir);
+  snprintf(out, sizeof out, "%s/history.txt", dir);
+  const char *args[] = {"history", "--set", "output.history_rows=1000000", "-o", out, REFERENCE,
+                        NULL};
+  child c;
+  child_start(&c, args);
+  int seen = 0;
+  const struct timespec pause = {0, 200000};
+  for (int i = 0; i < 100000 && !seen; i++) {
+    DIR *d = opendir(dir);
+    cr_assert_not_null(d);
+    struct dirent *e;
+    while ((e = readdir(d)) != NULL)
+      if (e->d_name[0] == '.' && strcmp(e->d_name, ".") != 0 && strcmp(e->d_name, "..") != 0)
+        seen = 1;
+    closedir(d);
+    if (!seen) {
+      int status;
+      if (waitpid(c.pid, &status, WNOHANG) == c.pid)
+        cr_assert_fail("the run ended (status %d) before its temporary file was seen", status);
+      nanosleep(&pause, NULL);
+    }
+  }
+  cr_assert(seen, "no temporary file appeared in %s", dir);
+  cr_assert_eq(kill(c.pid, SIGTERM), 0);
+  run_result r;
+  child_finish(&c, &r);
+  cr_expect(exited_with(&r, 128 + SIGTERM),
+            "expected exit status %d after SIGTERM (a finished run would give 0); status %d",
+            128 + SIGTERM, r.status);
+  cr_expect_str_eq(r.err, "jeansgrow: interrupted; no output file was written\n");
+  char names[1024];
+  cr_expect_eq(list_dir(dir, names, sizeof names), 0, "the folder holds: %s", names);
+  run_free(&r);
+  remove_dir(dir);
+}
