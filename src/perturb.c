@@ -1,0 +1,798 @@
+/*
+ * Linear CDM and gas perturbations per comoving wavenumber (see
+ * include/jeansgrow/perturb.h for the equations and conventions).
+ *
+ * Methods and sources:
+ *   - equations: physics.md section 5; gas-temperature fluctuation equation of
+ *     Naoz & Barkana (2005, MNRAS 362, 1047) without photon perturbations;
+ *   - initial conditions: growing mode of the Meszaros (1974, A&A 37, 225)
+ *     equation with non-clustering baryons, a Gauss hypergeometric function
+ *     (GSL gsl_sf_hyperg_2F1 after a Pfaff transformation);
+ *   - filtering scale: Gnedin & Hui (1998, MNRAS 296, 44) integral, written
+ *     as an ODE, and the k^2 coefficient of the solved perturbations
+ *     (forward sensitivity of the k = 0 solution with respect to k^2);
+ *   - integration: GSL msbdf (variable-order BDF) with the analytic Jacobian.
+ *     The systems are linear, y' = A(x) y, so dfdy = A(x). GSL's contract
+ *     also asks for dfdt = A'(x) y; it is a central difference in x here
+ *     because msbdf builds its Newton matrix from dfdy alone (GSL 2.7
+ *     msbdf.c) and the coefficients are splines, smooth in x.
+ *
+ * Speed: the real-history coefficients are needed at every right-hand-side
+ * call. They are tabulated once per model on a uniform grid in ln a (500
+ * nodes per e-fold) as natural cubic splines of ln p, ln d, ln r, e and g
+ * (GSL cspline, stored as per-interval polynomials so that an evaluation is
+ * one index computation, five Horner sums and three exponentials). The model is read-only afterwards; all mutable
+ * state (GSL drivers, the current k) lives in the per-thread workspace.
+ */
+#include "jeansgrow/perturb.h"
+
+#include <gsl/gsl_errno.h>
+#include <gsl/gsl_odeiv2.h>
+#include <gsl/gsl_sf_hyperg.h>
+#include <gsl/gsl_spline.h>
+#include <math.h>
+#include <stdlib.h>
+#include <string.h>
+
+#include "jeansgrow/background.h"
+#include "jeansgrow/constants.h"
+
+/* Nodes per e-fold of the coefficient tables. The cubic-spline error,
+ * ~ (5/384) h^4 max|f''''| with h = 2e-3, is below 1e-10 for the logarithms
+ * of the coefficients, which vary on scales Delta ln a >~ 0.05 (hydrogen
+ * recombination is the sharpest feature). */
+#define PT_NODES_PER_EFOLD 500
+/* Extra nodes beyond each end of the range, so that the finite difference
+ * for dfdt and the first trial steps stay on the table. */
+#define PT_MARGIN_NODES 8
+/* First trial step in ln a; msbdf adapts it at once. */
+#define PT_HSTART 1.0e-6
+/* Step for the central difference of the coefficients in ln a (dfdt). */
+#define PT_DFDT_STEP 1.0e-6
+/* Steps allowed per output interval before reporting a failure (a stuck
+ * integration should fail, not hang a scan). */
+#define PT_MAX_STEPS 2000000
+/* msbdf: on the real history it was 1.35 times faster than bsimp and 6
+ * times faster than rk4imp at the default tolerances (bench_perturb). */
+#define PT_STEPPER gsl_odeiv2_step_msbdf
+
+/* State layouts. */
+enum { M_C = 0, M_CP = 1, M_B = 2, M_BP = 3, M_T = 4 };
+
+/* ------------------------------------------------------------------------ */
+/* The real-history medium: coefficient tables.                              */
+
+typedef struct thermal_medium {
+  const jg_background *bg;
+  double x0, dx, inv_dx; /* node i at x0 + i dx */
+  int n;                 /* nodes */
+  double *poly;          /* per interval: N_Q quantities x 4 polynomial coefficients */
+} thermal_medium;
+
+enum { Q_PRESSURE = 0, Q_DRAG = 1, Q_RELAX = 2, Q_EXPANSION = 3, Q_GRAVITY = 4, N_Q = 5 };
+
+static int thermal_medium_eval(const void *ctx, double ln_a, jg_medium_coefficients *out) {
+  const thermal_medium *tm = ctx;
+  double t = (ln_a - tm->x0) * tm->inv_dx;
+  if (!(t > -1.0e6 && t < 1.0e9)) return 1; /* NaN or absurdly far off */
+  int i = (int)t;
+  if (i < 0) i = 0;
+  if (i > tm->n - 2) i = tm->n - 2;
+  double u = ln_a - (tm->x0 + i * tm->dx);
+  const double *c = tm->poly + (size_t)i * 4 * N_Q;
+  double lp = c[0] + u * (c[1] + u * (c[2] + u * c[3]));
+  double ld = c[4] + u * (c[5] + u * (c[6] + u * c[7]));
+  double lr = c[8] + u * (c[9] + u * (c[10] + u * c[11]));
+  out->dlnH_dlna = c[12] + u * (c[13] + u * (c[14] + u * c[15]));
+  out->gravity = c[16] + u * (c[17] + u * (c[18] + u * c[19]));
+  out->baryon_fraction = tm->bg->baryon_fraction;
+  out->pressure = exp(lp);
+  out->drag = exp(ld);
+  out->relaxation = exp(lr);
+  return 0;
+}
+
+static void thermal_medium_free(thermal_medium *tm) {
+  if (!tm) return;
+  free(tm->poly);
+  free(tm);
+}
+
+/* The three coefficients, from the thermal history at one node. */
+static void thermal_coefficients(const jg_thermal *th, double x, double q[N_Q]) {
+  const jg_background *bg = jg_thermal_background(th);
+  double a = exp(x);
+  jg_thermal_state s;
+  jg_thermal_state_at(th, 1.0 / a - 1.0, &s);
+  double H = jg_background_hubble(bg, a);
+  double aH_mpc = a * H * JG_MPC; /* comoving: (k/a) c_T / H with k in 1/Mpc */
+  double cT2 = JG_K_BOLTZMANN * s.T_gas / (s.mu * JG_M_HYDROGEN_ATOM);
+  double n_e = s.x_e * jg_background_n_hydrogen(bg, a);
+  double R = bg->R_coefficient * a;
+  q[Q_PRESSURE] = cT2 / (aH_mpc * aH_mpc);
+  q[Q_DRAG] = n_e * JG_SIGMA_THOMSON * JG_C_LIGHT / (R * H);
+  q[Q_RELAX] = s.compton_rate * (s.T_rad / s.T_gas) / H;
+  q[Q_EXPANSION] = jg_background_dlnH_dlna(bg, a);
+  q[Q_GRAVITY] = 1.5 * jg_background_omega_m_of_a(bg, a);
+}
+
+static thermal_medium *thermal_medium_new(const jg_thermal *th, double x_first, jg_error *err) {
+  thermal_medium *tm = calloc(1, sizeof *tm);
+  if (!tm) {
+    JG_FAIL(err, JG_ENOMEM, "perturbations: out of memory for the coefficient tables");
+    return NULL;
+  }
+  tm->bg = jg_thermal_background(th);
+  tm->dx = 1.0 / PT_NODES_PER_EFOLD;
+  tm->inv_dx = PT_NODES_PER_EFOLD;
+  tm->x0 = x_first - PT_MARGIN_NODES * tm->dx;
+  tm->n = (int)ceil(-tm->x0 * PT_NODES_PER_EFOLD) + PT_MARGIN_NODES + 1;
+  const int n = tm->n;
+  double *x = malloc(sizeof(double) * (size_t)n * (1 + N_Q));
+  tm->poly = malloc(sizeof(double) * (size_t)(n - 1) * 4 * N_Q);
+  gsl_spline *sp = gsl_spline_alloc(gsl_interp_cspline, (size_t)n);
+  jg_status st = JG_OK;
+  if (!x || !tm->poly || !sp)
+    st = JG_FAIL(err, JG_ENOMEM, "perturbations: out of memory for the coefficient tables");
+  if (st == JG_OK) {
+    double *lq = x + n; /* lq[q * n + i] */
+    for (int i = 0; i < n; i++) {
+      x[i] = tm->x0 + i * tm->dx;
+      double q[N_Q];
+      thermal_coefficients(th, x[i], q);
+      for (int k = 0; k < N_Q; k++) {
+        /* The rates p, d, r (power laws in a over decades) by their
+         * logarithms; e (negative) and g (between 0 and 3/2) as they are. */
+        const int logarithmic = k < Q_EXPANSION;
+        if (!isfinite(q[k]) || (logarithmic && !(q[k] > 0.0))) {
+          st = JG_FAIL(err, JG_ENUMERIC,
+                       "perturbations: coefficient %d of the medium is %g at z = %g (thermal "
+                       "history out of range)",
+                       k, q[k], exp(-x[i]) - 1.0);
+          break;
+        }
+        lq[k * n + i] = logarithmic ? log(q[k]) : q[k];
+      }
+      if (st != JG_OK) break;
+    }
+    for (int k = 0; st == JG_OK && k < N_Q; k++) {
+      const double *yk = lq + k * n;
+      if (gsl_spline_init(sp, x, yk, (size_t)n) != GSL_SUCCESS) {
+        st = JG_FAIL(err, JG_ENUMERIC, "perturbations: cannot build the coefficient splines");
+        break;
+      }
+      /* Per-interval polynomial of GSL's natural cubic spline, from the
+       * second derivatives at the nodes: y_i + b u + (M_i/2) u^2 +
+       * (M_{i+1} - M_i)/(6h) u^3, b = (y_{i+1} - y_i)/h - h (2 M_i + M_{i+1})/6. */
+      double M_prev = gsl_spline_eval_deriv2(sp, x[0], NULL);
+      for (int i = 0; i < n - 1; i++) {
+        double h = x[i + 1] - x[i];
+        double M_next = (i + 1 == n - 1) ? 0.0 : gsl_spline_eval_deriv2(sp, x[i + 1], NULL);
+        double *c = tm->poly + (size_t)i * 4 * N_Q + 4 * k;
+        c[0] = yk[i];
+        c[1] = (yk[i + 1] - yk[i]) / h - h * (2.0 * M_prev + M_next) / 6.0;
+        c[2] = 0.5 * M_prev;
+        c[3] = (M_next - M_prev) / (6.0 * h);
+        M_prev = M_next;
+      }
+    }
+  }
+  gsl_spline_free(sp);
+  free(x);
+  if (st != JG_OK) {
+    thermal_medium_free(tm);
+    return NULL;
+  }
+  return tm;
+}
+
+/* ------------------------------------------------------------------------ */
+/* Model.                                                                     */
+
+struct jg_perturb_model {
+  jg_medium medium;
+  thermal_medium *owned;   /* the real-history tables, when built from a history */
+  const jg_thermal *th;    /* NULL for a custom medium */
+  jg_perturb_settings settings;
+  jg_perturb_start start;
+  double x_init;           /* ln a at z_initial */
+  double growth_init;      /* D_+ at z_initial (see the header) */
+  double growth_rate_init; /* d ln D_+ / d ln a at z_initial */
+  double k_lo, k_hi;       /* accepted wavenumbers */
+  double k_ref2;           /* scale of the k^2-derivative and Gnedin-Hui components */
+  int fluctuating;         /* delta_T in the state */
+  double gamma;            /* uniform models: pressure on (gamma) delta_b */
+  int dim_mode, dim_limit;
+};
+
+/* Growing mode of y (1 + y) D'' + (1 + 3y/2) D' - (3/2) f_c D = 0 (the
+ * Meszaros equation with a smooth share f_b = 1 - f_c of the matter):
+ * D = 2F1(alpha, beta; 1; -y), alpha,beta = (1/2 +- s)/2, s = sqrt(1/4 + 6 f_c),
+ * regular at y = 0 (the other solution has a logarithm). For -y < -1 the
+ * series does not converge; the Pfaff transformation
+ * 2F1(beta, alpha; 1; -y) = (1 + y)^(-beta) 2F1(beta, 1 - alpha; 1; y/(1+y))
+ * has a convergent series (c - a - b = alpha - beta > 0) for every y >= 0.
+ * dD/dy = -alpha beta 2F1(alpha+1, beta+1; 2; -y), transformed the same way. */
+static int meszaros_growing_mode(double f_c, double y, double *D, double *dlnD_dlny) {
+  double s = sqrt(0.25 + 6.0 * f_c);
+  double alpha = 0.5 * (0.5 + s), beta = 0.5 * (0.5 - s);
+  double w = y / (1.0 + y);
+  gsl_sf_result r0, r1;
+  int st = gsl_sf_hyperg_2F1_e(beta, 1.0 - alpha, 1.0, w, &r0);
+  if (st == GSL_SUCCESS) st = gsl_sf_hyperg_2F1_e(beta + 1.0, 1.0 - alpha, 2.0, w, &r1);
+  if (st != GSL_SUCCESS) return st;
+  double d0 = pow(1.0 + y, -beta) * r0.val;
+  double d1 = -alpha * beta * pow(1.0 + y, -beta - 1.0) * r1.val;
+  *D = d0;
+  *dlnD_dlny = y * d1 / d0;
+  return GSL_SUCCESS;
+}
+
+/* Growing exponent of D ~ a^n when there is no radiation:
+ * n^2 + n/2 - 3 f_c / 2 = 0 in a matter-dominated (EdS) background. It is
+ * also the large-y limit of the Meszaros mode. */
+static double matter_growing_exponent(double f_c) { return 0.5 * (sqrt(0.25 + 6.0 * f_c) - 0.5); }
+
+static jg_status check_settings(const jg_perturb_settings *s, jg_error *err) {
+  if (!(s->rel_tol > 0.0 && s->rel_tol < 1.0))
+    return JG_FAIL(err, JG_EINVAL, "perturbations.rel_tol must lie in (0, 1) (got %g)",
+                   s->rel_tol);
+  if (!(s->abs_tol > 0.0 && s->abs_tol < 1.0))
+    return JG_FAIL(err, JG_EINVAL, "perturbations.abs_tol must lie in (0, 1) (got %g)",
+                   s->abs_tol);
+  if (!(s->z_initial > 0.0) || !isfinite(s->z_initial))
+    return JG_FAIL(err, JG_EINVAL, "perturbations.z_initial must be finite and > 0 (got %g)",
+                   s->z_initial);
+  if (s->sound_speed != JG_SOUND_SPEED_FLUCTUATING && s->sound_speed != JG_SOUND_SPEED_ISOTHERMAL &&
+      s->sound_speed != JG_SOUND_SPEED_ADIABATIC)
+    return JG_FAIL(err, JG_EINVAL, "perturbations.sound_speed: unknown model %d",
+                   (int)s->sound_speed);
+  return JG_OK;
+}
+
+/* Everything but the tables; shared by both constructors. */
+static jg_perturb_model *model_finish(jg_perturb_model *m, jg_error *err) {
+  const jg_medium *md = &m->medium;
+  m->x_init = -log1p(m->settings.z_initial);
+  if (m->x_init < md->ln_a_min || m->x_init > md->ln_a_max) {
+    JG_FAIL(err, JG_EINVAL,
+            "perturbations.z_initial = %g is outside the medium (ln a from %g to %g)",
+            m->settings.z_initial, md->ln_a_min, md->ln_a_max);
+    jg_perturb_model_free(m);
+    return NULL;
+  }
+  m->fluctuating = m->settings.sound_speed == JG_SOUND_SPEED_FLUCTUATING;
+  m->gamma = m->settings.sound_speed == JG_SOUND_SPEED_ADIABATIC ? 5.0 / 3.0 : 1.0;
+  m->dim_mode = m->fluctuating ? 5 : 4;
+  m->dim_limit = m->dim_mode + 6;
+
+  jg_medium_coefficients c;
+  if (md->eval(md->ctx, m->x_init, &c) != 0) {
+    JG_FAIL(err, JG_ENUMERIC, "perturbations: the medium cannot be evaluated at z_initial = %g",
+            m->settings.z_initial);
+    jg_perturb_model_free(m);
+    return NULL;
+  }
+  const double f_c = 1.0 - c.baryon_fraction;
+  if (md->a_equality > 0.0) {
+    double y = exp(m->x_init) / md->a_equality;
+    if (meszaros_growing_mode(f_c, y, &m->growth_init, &m->growth_rate_init) != GSL_SUCCESS ||
+        !isfinite(m->growth_init) || !isfinite(m->growth_rate_init)) {
+      JG_FAIL(err, JG_ENUMERIC,
+              "perturbations (initial conditions): the Meszaros growing mode failed at "
+              "z_initial = %g (y = a/a_eq = %g)",
+              m->settings.z_initial, y);
+      jg_perturb_model_free(m);
+      return NULL;
+    }
+  } else {
+    m->growth_rate_init = matter_growing_exponent(f_c);
+    m->growth_init = exp(m->growth_rate_init * m->x_init);
+  }
+  /* The k^2-derivative and Gnedin-Hui components are ~ delta / k_J^2: measured
+   * in units of the Jeans wavenumber at the start they are of the order of
+   * the contrasts, so one absolute tolerance serves every component. */
+  double kj2 = c.pressure > 0.0 ? c.gravity / c.pressure : 0.0;
+  m->k_ref2 = (kj2 > 0.0 && isfinite(kj2)) ? kj2 : 1.0;
+  return m;
+}
+
+jg_perturb_model *jg_perturb_model_new_medium(const jg_medium *medium,
+                                              const jg_perturb_settings *s,
+                                              const jg_perturb_start *start, jg_error *err) {
+  if (!medium || !medium->eval || !s) {
+    JG_FAIL(err, JG_EINVAL, "jg_perturb_model_new_medium: medium and settings must be given");
+    return NULL;
+  }
+  if (check_settings(s, err) != JG_OK) return NULL;
+  if (!(medium->k_min >= 0.0 && medium->k_max >= medium->k_min) ||
+      !(medium->ln_a_max > medium->ln_a_min) || !(medium->a_equality >= 0.0)) {
+    JG_FAIL(err, JG_EINVAL,
+            "jg_perturb_model_new_medium: inconsistent medium (k from %g to %g, ln a from %g "
+            "to %g, a_eq = %g)",
+            medium->k_min, medium->k_max, medium->ln_a_min, medium->ln_a_max,
+            medium->a_equality);
+    return NULL;
+  }
+  jg_perturb_model *m = calloc(1, sizeof *m);
+  if (!m) {
+    JG_FAIL(err, JG_ENOMEM, "perturbations: out of memory for the model");
+    return NULL;
+  }
+  m->medium = *medium;
+  m->settings = *s;
+  if (start) m->start = *start;
+  m->k_lo = medium->k_min;
+  m->k_hi = medium->k_max;
+  return model_finish(m, err);
+}
+
+jg_perturb_model *jg_perturb_model_new(const jg_thermal *th, const jg_perturb_settings *s,
+                                       const jg_perturb_start *start, jg_error *err) {
+  if (!th || !s) {
+    JG_FAIL(err, JG_EINVAL, "jg_perturb_model_new: thermal history and settings must be given");
+    return NULL;
+  }
+  if (check_settings(s, err) != JG_OK) return NULL;
+  const jg_background *bg = jg_thermal_background(th);
+  jg_perturb_model *m = calloc(1, sizeof *m);
+  if (!m) {
+    JG_FAIL(err, JG_ENOMEM, "perturbations: out of memory for the model");
+    return NULL;
+  }
+  m->settings = *s;
+  if (start) m->start = *start;
+  m->th = th;
+  const double x_init = -log1p(s->z_initial);
+  m->owned = thermal_medium_new(th, x_init, err);
+  if (!m->owned) {
+    free(m);
+    return NULL;
+  }
+  jg_medium *md = &m->medium;
+  md->eval = thermal_medium_eval;
+  md->ctx = m->owned;
+  md->a_equality = bg->omega_r / bg->omega_m;
+  md->ln_a_min = m->owned->x0;
+  md->ln_a_max = 0.0;
+  md->k_min = JG_PERTURB_K_MIN;
+  md->k_max = JG_PERTURB_K_MAX;
+  md->rho_m0 = bg->omega_m * bg->rho_crit0 * JG_MPC * JG_MPC * JG_MPC / JG_M_SUN;
+  /* Sub-horizon at the start: k >= factor * a H / c (comoving, 1/Mpc). */
+  double a_i = exp(x_init);
+  double k_horizon = a_i * jg_background_hubble(bg, a_i) * JG_MPC / JG_C_LIGHT;
+  m->k_lo = fmax(md->k_min, JG_PERTURB_HORIZON_FACTOR * k_horizon);
+  m->k_hi = md->k_max;
+  return model_finish(m, err);
+}
+
+void jg_perturb_model_free(jg_perturb_model *m) {
+  if (!m) return;
+  thermal_medium_free(m->owned);
+  free(m);
+}
+
+const jg_medium *jg_perturb_model_medium(const jg_perturb_model *m) { return &m->medium; }
+const jg_thermal *jg_perturb_model_thermal(const jg_perturb_model *m) { return m->th; }
+const jg_perturb_settings *jg_perturb_model_settings(const jg_perturb_model *m) {
+  return &m->settings;
+}
+double jg_perturb_model_initial_growth(const jg_perturb_model *m) { return m->growth_init; }
+void jg_perturb_model_k_range(const jg_perturb_model *m, double *k_min, double *k_max) {
+  if (k_min) *k_min = m->k_lo;
+  if (k_max) *k_max = m->k_hi;
+}
+
+jg_status jg_perturb_check_wavenumber(const jg_perturb_model *m, double k, jg_error *err) {
+  if (k == 0.0) return JG_OK;
+  if (!isfinite(k) || !(k > 0.0))
+    return JG_FAIL(err, JG_EINVAL, "perturbations: wavenumber k = %g must be finite and > 0", k);
+  if (k < m->k_lo) {
+    if (m->th && m->k_lo > m->medium.k_min)
+      return JG_FAIL(err, JG_EINVAL,
+                     "perturbations: k = %g /Mpc is not well inside the horizon at z_initial = "
+                     "%g: it must be >= %g /Mpc (%g x aH/c there)",
+                     k, m->settings.z_initial, m->k_lo, JG_PERTURB_HORIZON_FACTOR);
+    return JG_FAIL(err, JG_EINVAL,
+                   "perturbations: k = %g /Mpc is below the lower limit %g /Mpc of the "
+                   "equations (photon pressure and Silk damping are neglected)",
+                   k, m->k_lo);
+  }
+  if (k > m->k_hi)
+    return JG_FAIL(err, JG_EINVAL,
+                   "perturbations: k = %g /Mpc is above the upper limit %g /Mpc of the fluid "
+                   "description",
+                   k, m->k_hi);
+  return JG_OK;
+}
+
+int jg_perturb_dimension(const jg_perturb_model *m, jg_perturb_system which) {
+  return which == JG_PERTURB_SYSTEM_LIMIT ? m->dim_limit : m->dim_mode;
+}
+
+/* ------------------------------------------------------------------------ */
+/* Right-hand sides and Jacobians.                                           */
+
+/* One wavenumber: the equations of the header, term by term. */
+static void rhs_mode(const jg_perturb_model *m, const jg_medium_coefficients *c, double k2,
+                     const double *y, double *f) {
+  const double fb = c->baryon_fraction, fc = 1.0 - fb;
+  const double gravity = c->gravity * (fc * y[M_C] + fb * y[M_B]);
+  const double hubble_drag = 2.0 + c->dlnH_dlna;
+  f[M_C] = y[M_CP];
+  f[M_CP] = -hubble_drag * y[M_CP] + gravity;
+  f[M_B] = y[M_BP];
+  double pressure_source = m->fluctuating ? y[M_B] + y[M_T] : m->gamma * y[M_B];
+  f[M_BP] = -(hubble_drag + c->drag) * y[M_BP] + gravity - c->pressure * k2 * pressure_source;
+  if (m->fluctuating) f[M_T] = (2.0 / 3.0) * y[M_BP] - c->relaxation * y[M_T];
+}
+
+static void jac_mode(const jg_perturb_model *m, const jg_medium_coefficients *c, double k2,
+                     double *J, int ld, int off) {
+  /* Block of the mode equations at rows/columns off .. off + dim_mode - 1. */
+  const double fb = c->baryon_fraction, fc = 1.0 - fb;
+  const double hd = 2.0 + c->dlnH_dlna, pk2 = c->pressure * k2;
+#define JA(i, j) J[(size_t)(off + (i)) * ld + off + (j)]
+  JA(M_C, M_CP) = 1.0;
+  JA(M_CP, M_C) = c->gravity * fc;
+  JA(M_CP, M_CP) = -hd;
+  JA(M_CP, M_B) = c->gravity * fb;
+  JA(M_B, M_BP) = 1.0;
+  JA(M_BP, M_C) = c->gravity * fc;
+  JA(M_BP, M_B) = c->gravity * fb - pk2 * (m->fluctuating ? 1.0 : m->gamma);
+  JA(M_BP, M_BP) = -(hd + c->drag);
+  if (m->fluctuating) {
+    JA(M_BP, M_T) = -pk2;
+    JA(M_T, M_BP) = 2.0 / 3.0;
+    JA(M_T, M_T) = -c->relaxation;
+  }
+#undef JA
+}
+
+/* Limit system: [k = 0 mode | K^2 d/dk^2 of delta_c, delta_c', delta_b, delta_b'
+ * | K^2 J, K^2 J']. The k^2 derivative obeys the k = 0 equations plus the
+ * source -p (delta_b + delta_T) of the k = 0 solution; the temperature
+ * derivative is not needed at first order. */
+static void rhs_limit(const jg_perturb_model *m, const jg_medium_coefficients *c,
+                      const double *y, double *f) {
+  const int u = m->dim_mode, j = u + 4;
+  rhs_mode(m, c, 0.0, y, f);
+  const double fb = c->baryon_fraction, fc = 1.0 - fb;
+  const double hd = 2.0 + c->dlnH_dlna, pK2 = c->pressure * m->k_ref2;
+  const double gravity1 = c->gravity * (fc * y[u + 0] + fb * y[u + 2]);
+  const double pressure_source0 = m->fluctuating ? y[M_B] + y[M_T] : m->gamma * y[M_B];
+  f[u + 0] = y[u + 1];
+  f[u + 1] = -hd * y[u + 1] + gravity1;
+  f[u + 2] = y[u + 3];
+  f[u + 3] = -(hd + c->drag) * y[u + 3] + gravity1 - pK2 * pressure_source0;
+  /* Gnedin-Hui: J'' + (2 + e) J' = p D with D the total-matter contrast and
+   * the isothermal sound speed. */
+  const double D = fc * y[M_C] + fb * y[M_B];
+  f[j + 0] = y[j + 1];
+  f[j + 1] = -hd * y[j + 1] + pK2 * D;
+}
+
+static void jac_limit(const jg_perturb_model *m, const jg_medium_coefficients *c, double *J) {
+  const int n = m->dim_limit, u = m->dim_mode, j = u + 4;
+  memset(J, 0, sizeof(double) * (size_t)n * n);
+  jac_mode(m, c, 0.0, J, n, 0);
+  const double fb = c->baryon_fraction, fc = 1.0 - fb;
+  const double hd = 2.0 + c->dlnH_dlna, pK2 = c->pressure * m->k_ref2;
+#define JA(r, s) J[(size_t)(r) * n + (s)]
+  JA(u + 0, u + 1) = 1.0;
+  JA(u + 1, u + 0) = c->gravity * fc;
+  JA(u + 1, u + 1) = -hd;
+  JA(u + 1, u + 2) = c->gravity * fb;
+  JA(u + 2, u + 3) = 1.0;
+  JA(u + 3, u + 0) = c->gravity * fc;
+  JA(u + 3, u + 2) = c->gravity * fb;
+  JA(u + 3, u + 3) = -(hd + c->drag);
+  JA(u + 3, M_B) = -pK2 * (m->fluctuating ? 1.0 : m->gamma);
+  if (m->fluctuating) JA(u + 3, M_T) = -pK2;
+  JA(j + 0, j + 1) = 1.0;
+  JA(j + 1, j + 1) = -hd;
+  JA(j + 1, M_C) = pK2 * fc;
+  JA(j + 1, M_B) = pK2 * fb;
+#undef JA
+}
+
+/* ------------------------------------------------------------------------ */
+/* GSL glue.                                                                  */
+
+typedef struct sys_params {
+  const jg_perturb_model *m;
+  double k2;
+} sys_params;
+
+static int gsl_rhs_mode(double x, const double y[], double f[], void *params) {
+  const sys_params *sp = params;
+  jg_medium_coefficients c;
+  if (sp->m->medium.eval(sp->m->medium.ctx, x, &c) != 0) return GSL_EBADFUNC;
+  rhs_mode(sp->m, &c, sp->k2, y, f);
+  return GSL_SUCCESS;
+}
+
+static int gsl_rhs_limit(double x, const double y[], double f[], void *params) {
+  const sys_params *sp = params;
+  jg_medium_coefficients c;
+  if (sp->m->medium.eval(sp->m->medium.ctx, x, &c) != 0) return GSL_EBADFUNC;
+  rhs_limit(sp->m, &c, y, f);
+  return GSL_SUCCESS;
+}
+
+/* dfdt = (A(x+h) - A(x-h)) y / 2h via the right-hand side (see the file
+ * comment). */
+static int dfdt_central(int (*rhs)(double, const double *, double *, void *), double x,
+                        const double y[], double dfdt[], int n, void *params) {
+  double fp[16] = {0}, fm[16] = {0};
+  int st = rhs(x + PT_DFDT_STEP, y, fp, params);
+  if (st == GSL_SUCCESS) st = rhs(x - PT_DFDT_STEP, y, fm, params);
+  if (st != GSL_SUCCESS) return st;
+  for (int i = 0; i < n; i++) dfdt[i] = (fp[i] - fm[i]) / (2.0 * PT_DFDT_STEP);
+  return GSL_SUCCESS;
+}
+
+static int gsl_jac_mode(double x, const double y[], double *dfdy, double dfdt[], void *params) {
+  const sys_params *sp = params;
+  const int n = sp->m->dim_mode;
+  jg_medium_coefficients c;
+  if (sp->m->medium.eval(sp->m->medium.ctx, x, &c) != 0) return GSL_EBADFUNC;
+  memset(dfdy, 0, sizeof(double) * (size_t)n * n);
+  jac_mode(sp->m, &c, sp->k2, dfdy, n, 0);
+  return dfdt_central(gsl_rhs_mode, x, y, dfdt, n, params);
+}
+
+static int gsl_jac_limit(double x, const double y[], double *dfdy, double dfdt[], void *params) {
+  const sys_params *sp = params;
+  jg_medium_coefficients c;
+  if (sp->m->medium.eval(sp->m->medium.ctx, x, &c) != 0) return GSL_EBADFUNC;
+  jac_limit(sp->m, &c, dfdy);
+  return dfdt_central(gsl_rhs_limit, x, y, dfdt, sp->m->dim_limit, params);
+}
+
+/* ------------------------------------------------------------------------ */
+/* Workspace and solves.                                                      */
+
+struct jg_perturb_workspace {
+  const jg_perturb_model *m;
+  sys_params prm_mode, prm_limit;
+  gsl_odeiv2_system sys_mode, sys_limit;
+  gsl_odeiv2_driver *drv_mode, *drv_limit;
+  int order[JG_MAX_REDSHIFTS];
+};
+
+void jg_perturb_workspace_free(jg_perturb_workspace *w) {
+  if (!w) return;
+  if (w->drv_mode) gsl_odeiv2_driver_free(w->drv_mode);
+  if (w->drv_limit) gsl_odeiv2_driver_free(w->drv_limit);
+  free(w);
+}
+
+jg_perturb_workspace *jg_perturb_workspace_new(const jg_perturb_model *m, jg_error *err) {
+  if (!m) {
+    JG_FAIL(err, JG_EINVAL, "jg_perturb_workspace_new: no model given (NULL)");
+    return NULL;
+  }
+  jg_perturb_workspace *w = calloc(1, sizeof *w);
+  if (!w) {
+    JG_FAIL(err, JG_ENOMEM, "perturbations: out of memory for a workspace");
+    return NULL;
+  }
+  w->m = m;
+  w->prm_mode.m = w->prm_limit.m = m;
+  w->sys_mode = (gsl_odeiv2_system){gsl_rhs_mode, gsl_jac_mode, (size_t)m->dim_mode, &w->prm_mode};
+  w->sys_limit =
+      (gsl_odeiv2_system){gsl_rhs_limit, gsl_jac_limit, (size_t)m->dim_limit, &w->prm_limit};
+  const double ea = m->settings.abs_tol, er = m->settings.rel_tol;
+  w->drv_mode = gsl_odeiv2_driver_alloc_y_new(&w->sys_mode, PT_STEPPER, PT_HSTART, ea, er);
+  w->drv_limit =
+      gsl_odeiv2_driver_alloc_y_new(&w->sys_limit, PT_STEPPER, PT_HSTART, ea, er);
+  if (!w->drv_mode || !w->drv_limit) {
+    jg_perturb_workspace_free(w);
+    JG_FAIL(err, JG_ENOMEM, "perturbations: out of memory for the ODE drivers");
+    return NULL;
+  }
+  gsl_odeiv2_driver_set_nmax(w->drv_mode, PT_MAX_STEPS);
+  gsl_odeiv2_driver_set_nmax(w->drv_limit, PT_MAX_STEPS);
+  return w;
+}
+
+/* Check the requested redshifts and order them from the highest (first
+ * reached) down; stable insertion sort, n_z <= JG_MAX_REDSHIFTS. */
+static jg_status order_redshifts(const jg_perturb_model *m, jg_perturb_workspace *w,
+                                 const double *z, int n_z, jg_error *err) {
+  if (n_z < 1 || n_z > JG_MAX_REDSHIFTS || !z)
+    return JG_FAIL(err, JG_EINVAL, "perturbations: between 1 and %d redshifts must be given (got %d)",
+                   JG_MAX_REDSHIFTS, n_z);
+  for (int i = 0; i < n_z; i++) {
+    double zi = z[i];
+    if (!isfinite(zi) || !(zi > -1.0) || !(zi < m->settings.z_initial))
+      return JG_FAIL(err, JG_EINVAL,
+                     "perturbations: redshift z = %g must be finite and below z_initial = %g", zi,
+                     m->settings.z_initial);
+    if (-log1p(zi) > m->medium.ln_a_max)
+      return JG_FAIL(err, JG_EINVAL,
+                     "perturbations: redshift z = %g is beyond the end of the medium (z >= %g)",
+                     zi, exp(-m->medium.ln_a_max) - 1.0);
+    int j = i;
+    while (j > 0 && z[w->order[j - 1]] < zi) {
+      w->order[j] = w->order[j - 1];
+      j--;
+    }
+    w->order[j] = i;
+  }
+  return JG_OK;
+}
+
+static void initial_mode(const jg_perturb_model *m, double *y) {
+  y[M_C] = 1.0;
+  y[M_CP] = m->growth_rate_init;
+  y[M_B] = m->start.density_ratio;
+  y[M_BP] = m->start.velocity_ratio * m->growth_rate_init;
+  if (m->fluctuating) y[M_T] = m->start.temperature_ratio;
+}
+
+static double safe_ratio(double num, double den) { return den != 0.0 ? num / den : 0.0; }
+
+static void fill_point(const jg_perturb_model *m, double z, double k, double fb, const double *y,
+                       jg_perturb_point *p) {
+  const double fc = 1.0 - fb;
+  p->z = z;
+  p->k = k;
+  p->delta_c = y[M_C];
+  p->delta_b = y[M_B];
+  p->delta_m = fc * y[M_C] + fb * y[M_B];
+  p->delta_T = m->fluctuating ? y[M_T] : (m->gamma - 1.0) * y[M_B];
+  p->b_over_c = safe_ratio(y[M_B], y[M_C]);
+  p->growth_c = safe_ratio(y[M_CP], y[M_C]);
+  p->growth_b = safe_ratio(y[M_BP], y[M_B]);
+  p->growth_m = safe_ratio(fc * y[M_CP] + fb * y[M_BP], p->delta_m);
+}
+
+/* Drive one system through the ordered redshifts; `emit` stores a result. */
+typedef void (*emit_fn)(const jg_perturb_model *m, double z, double k, double fb,
+                        const double *y, void *out, int index);
+
+static jg_status drive(const jg_perturb_model *m, gsl_odeiv2_driver *d, double k, const char *stage,
+                       double *y, int dim, const double *z, int n_z, const int *order, emit_fn emit,
+                       void *out, jg_error *err) {
+  gsl_odeiv2_driver_reset_hstart(d, PT_HSTART);
+  double x = m->x_init;
+  for (int n = 0; n < n_z; n++) {
+    const int i = order[n];
+    const double x_target = -log1p(z[i]);
+    if (x_target > x) {
+      const double x_from = x;
+      int st = gsl_odeiv2_driver_apply(d, &x, x_target, y);
+      int finite = 1;
+      for (int c = 0; c < dim; c++) finite = finite && isfinite(y[c]);
+      if (st != GSL_SUCCESS || !finite)
+        return JG_FAIL(err, JG_ENUMERIC,
+                       "perturbations (%s, k = %g /Mpc): stiff integration failed between z = "
+                       "%.6g and z = %.6g (reached z = %.6g: %s)",
+                       stage, k, exp(-x_from) - 1.0, z[i], exp(-x) - 1.0,
+                       st != GSL_SUCCESS ? gsl_strerror(st) : "non-finite state");
+    }
+    jg_medium_coefficients c;
+    if (m->medium.eval(m->medium.ctx, x, &c) != 0)
+      return JG_FAIL(err, JG_ENUMERIC, "perturbations (%s, k = %g /Mpc): medium undefined at z = %g",
+                     stage, k, z[i]);
+    emit(m, z[i], k, c.baryon_fraction, y, out, i);
+  }
+  return JG_OK;
+}
+
+static void emit_mode(const jg_perturb_model *m, double z, double k, double fb, const double *y,
+                      void *out, int index) {
+  fill_point(m, z, k, fb, y, (jg_perturb_point *)out + index);
+}
+
+static void emit_limit(const jg_perturb_model *m, double z, double k, double fb, const double *y,
+                       void *out, int index) {
+  jg_perturb_limit *l = (jg_perturb_limit *)out + index;
+  const int u = m->dim_mode, j = u + 4;
+  fill_point(m, z, 0.0, fb, y, &l->k0);
+  l->dlnb_dk2 = safe_ratio(y[u + 2] / m->k_ref2, y[M_B]);
+  l->dlnc_dk2 = safe_ratio(y[u + 0] / m->k_ref2, y[M_C]);
+  l->gh_inverse_kf2 = safe_ratio(y[j + 0] / m->k_ref2, l->k0.delta_m);
+}
+
+jg_status jg_perturb_solve(const jg_perturb_model *m, jg_perturb_workspace *w, double k,
+                           const double *z, int n_z, jg_perturb_point *out, jg_error *err) {
+  if (!m || !w || !out || w->m != m)
+    return JG_FAIL(err, JG_EINVAL, "jg_perturb_solve: model, its own workspace and output needed");
+  jg_status st = jg_perturb_check_wavenumber(m, k, err);
+  if (st == JG_OK) st = order_redshifts(m, w, z, n_z, err);
+  if (st != JG_OK) return st;
+  w->prm_mode.k2 = k * k;
+  double y[5];
+  initial_mode(m, y);
+  return drive(m, w->drv_mode, k, "mode", y, m->dim_mode, z, n_z, w->order, emit_mode, out, err);
+}
+
+jg_status jg_perturb_solve_limit(const jg_perturb_model *m, jg_perturb_workspace *w,
+                                 const double *z, int n_z, jg_perturb_limit *out, jg_error *err) {
+  if (!m || !w || !out || w->m != m)
+    return JG_FAIL(err, JG_EINVAL,
+                   "jg_perturb_solve_limit: model, its own workspace and output needed");
+  jg_status st = order_redshifts(m, w, z, n_z, err);
+  if (st != JG_OK) return st;
+  double y[16] = {0};
+  initial_mode(m, y);
+  return drive(m, w->drv_limit, 0.0, "large-scale limit", y, m->dim_limit, z, n_z, w->order,
+               emit_limit, out, err);
+}
+
+jg_status jg_perturb_wavenumbers(const jg_perturb_settings *s, double *k, int *n_k,
+                                 jg_error *err) {
+  if (!s || !k || !n_k) return JG_FAIL(err, JG_EINVAL, "jg_perturb_wavenumbers: NULL argument");
+  if (s->n_k_values > 0) {
+    if (s->n_k_values > JG_MAX_WAVENUMBERS)
+      return JG_FAIL(err, JG_EINVAL, "perturbations.k_values: at most %d values (got %d)",
+                     JG_MAX_WAVENUMBERS, s->n_k_values);
+    for (int i = 0; i < s->n_k_values; i++) {
+      if (!(s->k_values[i] > 0.0) || !isfinite(s->k_values[i]))
+        return JG_FAIL(err, JG_EINVAL, "perturbations.k_values[%d] = %g must be finite and > 0",
+                       i, s->k_values[i]);
+      k[i] = s->k_values[i];
+    }
+    *n_k = s->n_k_values;
+    return JG_OK;
+  }
+  if (s->k_count < 1 || s->k_count > JG_MAX_WAVENUMBERS)
+    return JG_FAIL(err, JG_EINVAL, "perturbations.k_count must be 1 to %d (got %d)",
+                   JG_MAX_WAVENUMBERS, s->k_count);
+  if (!(s->k_min > 0.0) || !(s->k_max >= s->k_min) || !isfinite(s->k_max))
+    return JG_FAIL(err, JG_EINVAL,
+                   "perturbations: need 0 < k_min <= k_max (got k_min = %g, k_max = %g)",
+                   s->k_min, s->k_max);
+  const int n = s->k_count;
+  if (n == 1) {
+    k[0] = s->k_min;
+  } else {
+    const double step = log(s->k_max / s->k_min) / (n - 1);
+    for (int i = 0; i < n; i++) k[i] = s->k_min * exp(step * i);
+    k[n - 1] = s->k_max; /* exact end points */
+  }
+  *n_k = n;
+  return JG_OK;
+}
+
+/* ------------------------------------------------------------------------ */
+/* Diagnostics.                                                               */
+
+static jg_status diag_coefficients(const jg_perturb_model *m, double ln_a,
+                                   jg_medium_coefficients *c, jg_error *err) {
+  if (!m) return JG_FAIL(err, JG_EINVAL, "perturbations: no model given (NULL)");
+  if (m->medium.eval(m->medium.ctx, ln_a, c) != 0)
+    return JG_FAIL(err, JG_ENUMERIC, "perturbations: medium undefined at ln a = %g", ln_a);
+  return JG_OK;
+}
+
+jg_status jg_perturb_rhs(const jg_perturb_model *m, jg_perturb_system which, double k,
+                         double ln_a, const double *y, double *f, jg_error *err) {
+  jg_medium_coefficients c;
+  jg_status st = diag_coefficients(m, ln_a, &c, err);
+  if (st != JG_OK) return st;
+  if (which == JG_PERTURB_SYSTEM_LIMIT)
+    rhs_limit(m, &c, y, f);
+  else
+    rhs_mode(m, &c, k * k, y, f);
+  return JG_OK;
+}
+
+jg_status jg_perturb_jacobian(const jg_perturb_model *m, jg_perturb_system which, double k,
+                              double ln_a, const double *y, double *dfdy, jg_error *err) {
+  (void)y; /* linear systems: the Jacobian does not depend on the state */
+  jg_medium_coefficients c;
+  jg_status st = diag_coefficients(m, ln_a, &c, err);
+  if (st != JG_OK) return st;
+  if (which == JG_PERTURB_SYSTEM_LIMIT) {
+    jac_limit(m, &c, dfdy);
+  } else {
+    const int n = m->dim_mode;
+    memset(dfdy, 0, sizeof(double) * (size_t)n * n);
+    jac_mode(m, &c, k * k, dfdy, n, 0);
+  }
+  return JG_OK;
+}

@@ -1,0 +1,197 @@
+/*
+ * Jeans, filtering and half-suppression scales (see include/jeansgrow/scales.h).
+ *
+ * Sources: comoving Jeans wavenumber and the half-wavelength mass convention
+ * of Barkana & Loeb (2001, Phys. Rep. 349, 125); filtering scale of Gnedin &
+ * Hui (1998, MNRAS 296, 44), the integral being integrated alongside the
+ * large-scale solve in perturb.c; filtering mass convention of Gnedin (2000,
+ * ApJ 542, 535); growth factor of Heath (1977, MNRAS 179, 351) from
+ * background.c. The half-suppression root uses GSL's Brent solver.
+ */
+#include "jeansgrow/scales.h"
+
+#include <gsl/gsl_errno.h>
+#include <gsl/gsl_roots.h>
+#include <math.h>
+#include <string.h>
+
+#include "jeansgrow/background.h"
+#include "jeansgrow/constants.h"
+#include "jeansgrow/jeans.h"
+
+/* The half-suppression search starts at k_F/4, where the quadratic law
+ * 1 - k^2/k_F^2 still gives ~0.94 > 1/2, and steps up by this factor until
+ * the ratio falls below one half; the first crossing on that ladder is then
+ * refined. A factor 1.5 keeps the ladder finer than the width of the first
+ * fall of delta_b/delta_c (about a factor 3 in k from 0.9 to 0.1). */
+#define SC_LADDER 1.5
+#define SC_START_FRACTION 0.25
+/* Relative accuracy of k_1/2: a hundred times looser than the solver's
+ * default 1e-8 on the ratio divided by |d ln ratio / d ln k| ~ 1. */
+#define SC_ROOT_TOL 1.0e-7
+#define SC_ROOT_ITER 100
+
+double jg_scales_mass(const jg_perturb_model *m, double k, double f) {
+  const double rho = jg_perturb_model_medium(m)->rho_m0;
+  if (!(rho > 0.0) || !(k > 0.0)) return 0.0;
+  const double r = f * JG_PI / k;
+  return 4.0 * JG_PI / 3.0 * rho * r * r * r;
+}
+
+typedef struct half_ctx {
+  const jg_perturb_model *m;
+  jg_perturb_workspace *w;
+  double z, target;
+  jg_status status;
+  jg_error *err;
+} half_ctx;
+
+/* (delta_b/delta_c)(k) - target at k = exp(ln_k). */
+static double half_residual(double ln_k, void *params) {
+  half_ctx *c = params;
+  if (c->status != JG_OK) return GSL_NAN;
+  jg_perturb_point p;
+  c->status = jg_perturb_solve(c->m, c->w, exp(ln_k), &c->z, 1, &p, c->err);
+  if (c->status != JG_OK) return GSL_NAN;
+  return p.b_over_c - c->target;
+}
+
+jg_status jg_scales_half_suppression(const jg_perturb_model *m, jg_perturb_workspace *w, double z,
+                                     double ratio_large, double k_start, double *k_half,
+                                     int *found, jg_error *err) {
+  *found = 0;
+  *k_half = 0.0;
+  double k_lo, k_hi;
+  jg_perturb_model_k_range(m, &k_lo, &k_hi);
+  if (!(ratio_large > 0.0))
+    return JG_FAIL(err, JG_EINVAL,
+                   "half suppression at z = %g: the large-scale delta_b/delta_c is %g (must be > 0)",
+                   z, ratio_large);
+  half_ctx c = {m, w, z, 0.5 * ratio_large, JG_OK, err};
+  double ka = fmin(fmax(k_start, k_lo), k_hi);
+  double fa = half_residual(log(ka), &c);
+  /* Step down until the ratio is above one half (rarely needed). */
+  while (c.status == JG_OK && fa <= 0.0 && ka > k_lo) {
+    ka = fmax(ka / SC_LADDER, k_lo);
+    fa = half_residual(log(ka), &c);
+  }
+  if (c.status != JG_OK) return c.status;
+  if (fa <= 0.0) return JG_OK; /* already suppressed at the lowest accepted k */
+  double kb = ka, fb = fa;
+  while (fb > 0.0 && kb < k_hi) {
+    ka = kb;
+    fa = fb;
+    kb = fmin(kb * SC_LADDER, k_hi);
+    fb = half_residual(log(kb), &c);
+    if (c.status != JG_OK) return c.status;
+  }
+  if (fb > 0.0) return JG_OK; /* no crossing below the upper limit */
+  if (fb == 0.0) {
+    *k_half = kb;
+    *found = 1;
+    return JG_OK;
+  }
+  gsl_root_fsolver *s = gsl_root_fsolver_alloc(gsl_root_fsolver_brent);
+  if (!s) return JG_FAIL(err, JG_ENOMEM, "half suppression: out of memory for the root solver");
+  gsl_function F = {half_residual, &c};
+  int st = gsl_root_fsolver_set(s, &F, log(ka), log(kb));
+  int iter = 0;
+  while (st == GSL_SUCCESS && iter++ < SC_ROOT_ITER) {
+    st = gsl_root_fsolver_iterate(s);
+    if (c.status != JG_OK) break;
+    if (st != GSL_SUCCESS) break;
+    double lo = gsl_root_fsolver_x_lower(s), hi = gsl_root_fsolver_x_upper(s);
+    if (gsl_root_test_interval(lo, hi, SC_ROOT_TOL, 0.0) == GSL_SUCCESS) {
+      *k_half = exp(gsl_root_fsolver_root(s));
+      *found = 1;
+      break;
+    }
+  }
+  gsl_root_fsolver_free(s);
+  if (c.status != JG_OK) return c.status;
+  if (!*found)
+    return JG_FAIL(err, JG_ENUMERIC,
+                   "half suppression at z = %g: Brent's method did not converge between k = %g "
+                   "and %g /Mpc (%s)",
+                   z, ka, kb, st != GSL_SUCCESS ? gsl_strerror(st) : "too many iterations");
+  return JG_OK;
+}
+
+/* Jeans wavenumbers at redshift z: from the thermal state on the real
+ * history (jeans.c), else from the medium, k_J^2 = g / p (isothermal). */
+static jg_status jeans_at(const jg_perturb_model *m, double z, double *k_iso, double *k_adi,
+                          jg_error *err) {
+  const jg_thermal *th = jg_perturb_model_thermal(m);
+  if (th) {
+    jg_thermal_state s;
+    jg_thermal_state_at(th, z, &s);
+    const jg_background *bg = jg_thermal_background(th);
+    const double a = 1.0 / (1.0 + z);
+    *k_iso = jg_jeans_wavenumber(bg, a, jg_sound_speed_squared(s.T_gas, s.mu, 1.0));
+    *k_adi = jg_jeans_wavenumber(bg, a, jg_sound_speed_squared(s.T_gas, s.mu, 5.0 / 3.0));
+  } else {
+    const jg_medium *md = jg_perturb_model_medium(m);
+    jg_medium_coefficients c;
+    if (md->eval(md->ctx, -log1p(z), &c) != 0)
+      return JG_FAIL(err, JG_ENUMERIC, "scales: medium undefined at z = %g", z);
+    *k_iso = c.pressure > 0.0 ? sqrt(c.gravity / c.pressure) : HUGE_VAL;
+    *k_adi = *k_iso * sqrt(3.0 / 5.0);
+  }
+  return JG_OK;
+}
+
+static double k_from_inverse_square(double inv_k2) {
+  return inv_k2 > 0.0 ? 1.0 / sqrt(inv_k2) : HUGE_VAL;
+}
+
+jg_status jg_scales_compute(const jg_perturb_model *m, jg_perturb_workspace *w, const double *z,
+                            int n_z, jg_scales_point *out, jg_error *err) {
+  if (!m || !w || !z || !out || n_z < 1 || n_z > JG_MAX_REDSHIFTS)
+    return JG_FAIL(err, JG_EINVAL,
+                   "jg_scales_compute: model, workspace, 1 to %d redshifts and output needed",
+                   JG_MAX_REDSHIFTS);
+  jg_perturb_limit limit[JG_MAX_REDSHIFTS];
+  jg_status st = jg_perturb_solve_limit(m, w, z, n_z, limit, err);
+  if (st != JG_OK) return st;
+  const jg_thermal *th = jg_perturb_model_thermal(m);
+  for (int i = 0; i < n_z; i++) {
+    jg_scales_point *p = &out[i];
+    const jg_perturb_limit *l = &limit[i];
+    memset(p, 0, sizeof *p);
+    p->z = z[i];
+    st = jeans_at(m, z[i], &p->k_jeans_isothermal, &p->k_jeans_adiabatic, err);
+    if (st != JG_OK) return st;
+    p->m_jeans_isothermal = jg_scales_mass(m, p->k_jeans_isothermal, 1.0);
+    p->m_jeans_adiabatic = jg_scales_mass(m, p->k_jeans_adiabatic, 1.0);
+
+    p->k_filter_integral_isothermal = k_from_inverse_square(l->gh_inverse_kf2);
+    p->k_filter_integral_adiabatic = k_from_inverse_square(l->gh_inverse_kf2 * 5.0 / 3.0);
+    p->k_filter_solved = k_from_inverse_square(-l->dlnb_dk2);
+    p->k_filter_solved_cdm = k_from_inverse_square(l->dlnc_dk2 - l->dlnb_dk2);
+    p->m_filter_integral_isothermal = jg_scales_mass(m, p->k_filter_integral_isothermal, 2.0);
+    p->m_filter_integral_adiabatic = jg_scales_mass(m, p->k_filter_integral_adiabatic, 2.0);
+    p->m_filter_solved = jg_scales_mass(m, p->k_filter_solved, 2.0);
+    p->m_filter_integral_isothermal_half = jg_scales_mass(m, p->k_filter_integral_isothermal, 1.0);
+    p->m_filter_solved_half = jg_scales_mass(m, p->k_filter_solved, 1.0);
+
+    p->b_over_c_large = l->k0.b_over_c;
+    p->delta_m_large = l->k0.delta_m;
+    p->growth_rate_large = l->k0.growth_m;
+
+    double k_start = SC_START_FRACTION * p->k_filter_solved_cdm;
+    st = jg_scales_half_suppression(m, w, z[i], l->k0.b_over_c, k_start, &p->k_half,
+                                    &p->half_found, err);
+    if (st != JG_OK) return st;
+    p->m_half = p->half_found ? jg_scales_mass(m, p->k_half, 1.0) : 0.0;
+
+    if (th) {
+      const jg_background *bg = jg_thermal_background(th);
+      if (bg->cosmology.de_w0 == -1.0 && bg->cosmology.de_wa == 0.0) {
+        st = jg_background_growth_heath(bg, 1.0 / (1.0 + z[i]), &p->growth_heath, err);
+        if (st != JG_OK) return st;
+        p->has_heath = 1;
+      }
+    }
+  }
+  return JG_OK;
+}
