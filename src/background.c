@@ -25,6 +25,7 @@
 #include <gsl/gsl_errno.h>
 #include <gsl/gsl_integration.h>
 #include <gsl/gsl_min.h>
+#include <gsl/gsl_odeiv2.h>
 
 #include "jeansgrow/constants.h"
 
@@ -558,5 +559,57 @@ jg_status jg_background_growth_heath(const jg_background *bg, double a, double *
   if (st != JG_OK) return st;
   const double e_no_rad = sqrt(p_a / (a * a * a));
   *D = 2.5 * bg->omega_m * e_no_rad * v;
+  return JG_OK;
+}
+
+/* ------------------------------------------------------------------------ */
+/* Growth factor for any dark energy: the growth equation itself,            */
+/*   D'' + (2 + d ln E / d ln a) D' = (3/2) Omega_m a^-3 / E^2 D   (' = d/d ln a), */
+/* with E^2 = Omega_m a^-3 + Omega_k a^-2 + Omega_de f_de(a) (radiation left  */
+/* out as in the Heath integral, so that the two agree for a cosmological     */
+/* constant), started on D = a deep in matter domination.                    */
+
+static double growth_e2(const jg_background *bg, double a, double *de2_dlna) {
+  const jg_cosmology *c = &bg->cosmology;
+  double fde = pow(a, -3.0 * (1.0 + c->de_w0 + c->de_wa)) * exp(-3.0 * c->de_wa * (1.0 - a));
+  double m = bg->omega_m / (a * a * a), k = bg->omega_k / (a * a), d = bg->omega_de * fde;
+  *de2_dlna = -3.0 * m - 2.0 * k + d * (-3.0 * (1.0 + c->de_w0 + c->de_wa) + 3.0 * c->de_wa * a);
+  return m + k + d;
+}
+
+/* GSL passes a non-const void *; this wrapper keeps the background const. */
+typedef struct background_ref {
+  const jg_background *bg;
+} background_ref;
+
+static int growth_rhs(double x, const double y[], double f[], void *params) {
+  const jg_background *bg = ((const background_ref *)params)->bg;
+  double a = exp(x), de2;
+  double e2 = growth_e2(bg, a, &de2);
+  if (!(e2 > 0.0)) return GSL_EBADFUNC;
+  f[0] = y[1];
+  f[1] = -(2.0 + 0.5 * de2 / e2) * y[1] + 1.5 * bg->omega_m / (a * a * a) / e2 * y[0];
+  return GSL_SUCCESS;
+}
+
+jg_status jg_background_growth_factor(const jg_background *bg, double a, double *D, double *f,
+                                      jg_error *err) {
+  jg_status st = check_args_a(bg, a, D, "jg_background_growth_factor", err);
+  if (st != JG_OK) return st;
+  /* Start where dark energy and curvature are negligible next to matter. */
+  const double a_start = fmin(1e-5, 0.5 * a);
+  background_ref ref = {bg};
+  gsl_odeiv2_system sys = {growth_rhs, NULL, 2, &ref};
+  gsl_odeiv2_driver *d =
+      gsl_odeiv2_driver_alloc_y_new(&sys, gsl_odeiv2_step_rk8pd, 1e-3, 1e-14, 1e-11);
+  if (!d) return JG_FAIL(err, JG_ENOMEM, "out of memory for the growth equation");
+  double x = log(a_start), y[2] = {a_start, a_start};
+  int status = gsl_odeiv2_driver_apply(d, &x, log(a), y);
+  gsl_odeiv2_driver_free(d);
+  if (status != GSL_SUCCESS)
+    return JG_FAIL(err, JG_ENUMERIC, "growth factor: integration failed at z = %g (%s)",
+                   exp(-x) - 1.0, gsl_strerror(status));
+  *D = y[0];
+  if (f) *f = y[1] / y[0];
   return JG_OK;
 }

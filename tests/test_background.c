@@ -633,3 +633,65 @@ Test(bad_input, integrals_reject_out_of_range_arguments) {
   cr_expect(jg_background_cosmic_time(bg, 0.5, NULL, &err) == JG_EINVAL);
   jg_background_free(bg);
 }
+
+/* ---- growth factor from the growth equation ------------------------------ */
+
+TestSuite(growth_equation, .init = quiet_gsl);
+
+/* Einstein-de Sitter: D = a and f = 1 exactly (common practice, no source).
+ * 1e-8: the ODE tolerance (1e-11) over a few e-folds. */
+Test(growth_equation, einstein_de_sitter_is_a) {
+  jg_cosmology c = matter_lambda(1.0, 0.0);
+  jg_background *bg = build(&c);
+  for (size_t i = 0; i < sizeof eds_a / sizeof eds_a[0]; i++) {
+    double D = 0, f = 0;
+    jg_error err;
+    jg_error_clear(&err);
+    assert_ok(jg_background_growth_factor(bg, eds_a[i], &D, &f, &err), &err, "growth factor");
+    assert_rel(D, eds_a[i], 1e-8, "EdS D = a");
+    assert_rel(f, 1.0, 1e-8, "EdS f = 1");
+  }
+  jg_background_free(bg);
+}
+
+/* A cosmological constant: the equation must give the Heath (1977) integral,
+ * an independent closed form (1e-7: both quadratures are good to ~1e-9), and
+ * f(z = 0) = 0.527386 for Omega_m = 0.3153 flat (checks.md §12, derived from
+ * the Heath integral; 1e-5 as the table's digits allow). */
+Test(growth_equation, equals_heath_for_lambda) {
+  jg_cosmology c = matter_lambda(0.3153, 0.0);
+  jg_background *bg = build(&c);
+  const double a_values[] = {0.02, 0.1, 0.37, 0.8, 1.0};
+  for (size_t i = 0; i < sizeof a_values / sizeof a_values[0]; i++) {
+    double D = 0, f = 0, D_heath = 0;
+    jg_error err;
+    jg_error_clear(&err);
+    assert_ok(jg_background_growth_factor(bg, a_values[i], &D, &f, &err), &err, "growth");
+    assert_ok(jg_background_growth_heath(bg, a_values[i], &D_heath, &err), &err, "Heath");
+    assert_rel(D, D_heath, 1e-7, "growth equation vs Heath integral");
+    if (a_values[i] == 1.0) assert_rel(f, 0.527386, 1e-5, "f(z=0), Omega_m = 0.3153");
+  }
+  jg_background_free(bg);
+}
+
+/* Constant w != -1, where the Heath integral does not apply: flat wCDM has
+ * the closed form D(a) = a 2F1(-1/(3w), (w-1)/(2w); 1 - 5/(6w);
+ * -(Omega_de/Omega_m) a^(-3w)) (Silveira & Waga 1994, PRD 50, 4890; formula
+ * from memory, it reduces to the Lambda case at w = -1). Expected values
+ * evaluated with SciPy 1.10.1 (Debian python3-scipy, scipy.special.hyp2f1)
+ * for w = -0.8, Omega_m = 0.3: 1e-8 (ODE tolerance; they agree to 1e-11). */
+Test(growth_equation, constant_w_closed_form) {
+  jg_cosmology c = matter_lambda(0.3, 0.0);
+  c.de_w0 = -0.8;
+  jg_background *bg = build(&c);
+  const double a_values[] = {0.1, 0.5, 1.0};
+  const double D_scipy[] = {0.09978770304706634, 0.45800766552092825, 0.7296286020829227};
+  for (int i = 0; i < 3; i++) {
+    double D = 0;
+    jg_error err;
+    jg_error_clear(&err);
+    assert_ok(jg_background_growth_factor(bg, a_values[i], &D, NULL, &err), &err, "growth");
+    assert_rel(D, D_scipy[i], 1e-8, "wCDM growth vs hypergeometric closed form");
+  }
+  jg_background_free(bg);
+}

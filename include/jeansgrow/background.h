@@ -91,6 +91,14 @@ jg_status jg_background_sound_horizon(const jg_background *bg, double z, double 
 jg_status jg_background_growth_heath(const jg_background *bg, double a, double *D,
                                      jg_error *err);
 
+/* Scale-independent linear growth for any dark energy, from the growth
+ * equation D'' + (2 + dlnE/dlna) D' = (3/2) Omega_m a^-3 / E^2 D in ln a,
+ * with E as in the Heath integral (radiation left out), started on D = a in
+ * matter domination: equal to jg_background_growth_heath for w = -1. Also
+ * the growth rate f = dln D / dln a (f may be NULL). */
+jg_status jg_background_growth_factor(const jg_background *bg, double a, double *D, double *f,
+                                      jg_error *err);
+
 #ifdef __cplusplus
 }
 #endif

@@ -1,0 +1,43 @@
+/*
+ * Growth by wavenumber on a grid: the perturbation stage solved for every k
+ * of a list at every requested redshift, plus the large-scale (k -> 0)
+ * reference at each redshift, so that the pressure suppression
+ * (delta_b/delta_c) / (delta_b/delta_c)_{k->0} can be reported.
+ */
+#ifndef JEANSGROW_GROWTH_H
+#define JEANSGROW_GROWTH_H
+
+#include "jeansgrow/error.h"
+#include "jeansgrow/perturb.h"
+
+#ifdef __cplusplus
+extern "C" {
+#endif
+
+typedef struct jg_growth_grid {
+  int n_k, n_z;
+  double *k;                /* [n_k], 1/Mpc */
+  double *z;                /* [n_z], as requested */
+  jg_perturb_point *points; /* [ik * n_z + iz] */
+  jg_perturb_limit *limit;  /* [iz]: the k -> 0 reference */
+  int has_reference;        /* 1 when D_ref, f_ref are set (model on a real history) */
+  double *D_ref;            /* [iz]: scale-independent growth D(z), D -> a early */
+  double *f_ref;            /* [iz]: its rate d ln D / d ln a */
+} jg_growth_grid;
+
+/* Solve every k of k[0..n_k) at every z of z[0..n_z), and (on a real
+ * history) the scale-independent growth D(z) for reference
+ * (jg_background_growth_factor: matter + dark energy, no radiation). Fails with the
+ * solver's error (naming k and z); *out is NULL then. */
+jg_status jg_growth_grid_compute(const jg_perturb_model *m, jg_perturb_workspace *w,
+                                 const double *k, int n_k, const double *z, int n_z,
+                                 jg_growth_grid **out, jg_error *err);
+void jg_growth_grid_free(jg_growth_grid *g);
+
+/* The point for wavenumber index ik at redshift index iz. */
+const jg_perturb_point *jg_growth_grid_at(const jg_growth_grid *g, int ik, int iz);
+
+#ifdef __cplusplus
+}
+#endif
+#endif

@@ -1,0 +1,261 @@
+/*
+ * The tables jeansgrow writes (see include/jeansgrow/report.h). Column names
+ * are `name[unit]`; every table states its conventions in its header.
+ */
+#include "jeansgrow/report.h"
+
+#include <math.h>
+#include <stdlib.h>
+
+#include "jeansgrow/constants.h"
+#include "jeansgrow/table.h"
+#include "report_tables.h"
+
+/* ---- history ------------------------------------------------------------ */
+
+static const char *const history_columns[] = {
+    "z",        "x_e",      "x_HII", "x_HeII",            "x_HeIII",
+    "T_gas[K]", "T_rad[K]", "mu",    "compton_rate[1/s]", "H[km/s/Mpc]",
+    "tau",      "visibility", "tau_drag"};
+#define N_HISTORY_COLUMNS ((int)(sizeof history_columns / sizeof history_columns[0]))
+
+static const char *const history_conventions[] = {
+    "x_e = n_e / n_H: free electrons per hydrogen nucleus (helium electrons included)",
+    "x_HII, x_HeII, x_HeIII: ionised hydrogen and helium per hydrogen nucleus",
+    "mu: mean molecular weight in units of the hydrogen-atom mass",
+    "compton_rate: Gamma_C, the coefficient of (T_rad - T_gas) in dT_gas/dt",
+    "tau: Thomson optical depth from z = 0 back to z (no reionisation)",
+    "visibility: (dtau/dz) exp(-tau), per unit redshift",
+    "tau_drag: baryon drag depth, integrand of tau divided by R = 3 rho_b / (4 rho_gamma)",
+    NULL};
+
+static int descending(const void *a, const void *b) {
+  double x = *(const double *)a, y = *(const double *)b;
+  return (x < y) - (x > y);
+}
+
+/* Rows uniform in ln(1+z) from the start redshift to history_z_min, plus
+ * every requested redshift in that range, in decreasing z, no duplicates. */
+static double *history_redshifts(const jg_params *p, int *count) {
+  const int n_grid = p->output.history_rows;
+  const int n_max = n_grid + p->output.n_redshifts;
+  double *z = malloc(sizeof(double) * (size_t)n_max);
+  if (!z) return NULL;
+  const double lo = log1p(p->output.history_z_min), hi = log1p(p->thermal.start_redshift);
+  int n = 0;
+  for (int i = 0; i < n_grid; i++) z[n++] = expm1(hi + (lo - hi) * i / (n_grid - 1));
+  z[0] = p->thermal.start_redshift;
+  z[n_grid - 1] = p->output.history_z_min;
+  for (int i = 0; i < p->output.n_redshifts; i++) {
+    double zr = p->output.redshifts[i];
+    if (zr >= p->output.history_z_min && zr <= p->thermal.start_redshift) z[n++] = zr;
+  }
+  qsort(z, (size_t)n, sizeof *z, descending);
+  int m = 0;
+  for (int i = 0; i < n; i++)
+    if (m == 0 || z[i] != z[m - 1]) z[m++] = z[i];
+  *count = m;
+  return z;
+}
+
+jg_status jg_report_history(FILE *f, const jg_params *p, const jg_thermal *th, jg_error *err) {
+  const jg_background *bg = jg_thermal_background(th);
+  int n = 0;
+  double *z = history_redshifts(p, &n);
+  if (!z) return JG_FAIL(err, JG_ENOMEM, "out of memory for the history table");
+  jg_table_write_preamble(f, "ionisation and gas-temperature history", p, history_conventions);
+  jg_table_write_columns(f, history_columns, N_HISTORY_COLUMNS);
+  jg_status st = JG_OK;
+  for (int i = 0; st == JG_OK && i < n; i++) {
+    jg_thermal_state s;
+    jg_thermal_state_at(th, z[i], &s);
+    double a = 1.0 / (1.0 + z[i]);
+    double row[N_HISTORY_COLUMNS] = {z[i],
+                                     s.x_e,
+                                     s.x_p,
+                                     s.x_HeII,
+                                     s.x_HeIII,
+                                     s.T_gas,
+                                     s.T_rad,
+                                     s.mu,
+                                     s.compton_rate,
+                                     jg_background_hubble(bg, a) / JG_H100 * 100.0,
+                                     jg_thermal_optical_depth(th, z[i]),
+                                     jg_thermal_visibility(th, z[i]),
+                                     jg_thermal_drag_depth(th, z[i])};
+    st = jg_table_write_row(f, row, N_HISTORY_COLUMNS, history_columns, err);
+  }
+  free(z);
+  return st;
+}
+
+/* ---- epochs ------------------------------------------------------------- */
+
+jg_status jg_report_epochs(FILE *f, const jg_params *p, const jg_epochs *e, jg_error *err) {
+  const int n = jg_epochs_count();
+  for (int i = 0; i < n; i++)
+    if (!isfinite(jg_epochs_entry(e, i).value))
+      return JG_FAIL(err, JG_ENUMERIC, "epochs: %s is not finite", jg_epochs_entry(e, i).name);
+  jg_table_write_preamble(f, "derived epochs (name, value, unit; '-' = dimensionless)", p, NULL);
+  for (int i = 0; i < n; i++) {
+    jg_epoch_entry en = jg_epochs_entry(e, i);
+    fprintf(f, "# %s: %s\n", en.name, en.meaning);
+  }
+  fprintf(f, "# name\tvalue\tunit\n");
+  for (int i = 0; i < n; i++) {
+    jg_epoch_entry en = jg_epochs_entry(e, i);
+    fprintf(f, "%s\t%.10g\t%s\n", en.name, en.value, en.unit[0] ? en.unit : "-");
+  }
+  return JG_OK;
+}
+
+/* ---- scales ------------------------------------------------------------- */
+
+const char *const jg__report_scales_columns[] = {
+    "z",
+    "T_gas[K]",
+    "x_e",
+    "k_J[1/Mpc]",
+    "M_J[Msun]",
+    "k_F[1/Mpc]",
+    "M_F[Msun]",
+    "k_half[1/Mpc]",
+    "M_half[Msun]",
+    "half_found",
+    "k_J_adiabatic[1/Mpc]",
+    "M_J_adiabatic[Msun]",
+    "k_F_integral[1/Mpc]",
+    "M_F_integral[Msun]",
+    "k_F_integral_adiabatic[1/Mpc]",
+    "M_F_integral_adiabatic[Msun]",
+    "M_F_halfwave[Msun]",
+    "M_F_integral_halfwave[Msun]",
+    "k_F_b_over_c[1/Mpc]",
+    "b_over_c_large",
+    "delta_m_large",
+    "rate_m_large",
+};
+#define N_SCALES_COLUMNS JG__REPORT_SCALES_COLUMNS
+#define scales_columns jg__report_scales_columns
+#define scales_conventions jg__report_scales_conventions
+_Static_assert(sizeof jg__report_scales_columns / sizeof jg__report_scales_columns[0] ==
+                   JG__REPORT_SCALES_COLUMNS,
+               "JG__REPORT_SCALES_COLUMNS must match the column table");
+
+const char *const jg__report_scales_conventions[] = {
+    "k_J, M_J: isothermal Jeans scale, k_J = a sqrt(4 pi G rho_m) / c_s (comoving), "
+    "c_s^2 = k_B T_gas / (mu m_H); M_J = (4 pi/3) rho_m0 (pi/k_J)^3 (half-wavelength radius, "
+    "comoving mean matter density)",
+    "k_J_adiabatic, M_J_adiabatic: the same with c_s^2 = (5/3) k_B T_gas / (mu m_H)",
+    "k_F, M_F: filtering scale measured on the solved perturbations, "
+    "delta_b(k)/delta_b(k->0) = 1 - k^2/k_F^2 at small k (exact k^2 coefficient), with the "
+    "sound-speed model of perturbations.sound_speed; M_F = (4 pi/3) rho_m0 (2 pi/k_F)^3 "
+    "(full wavelength, Gnedin 2000); M_F_halfwave = (4 pi/3) rho_m0 (pi/k_F)^3 = M_F/8",
+    "k_F_integral, M_F_integral: Gnedin & Hui (1998) integral over the isothermal k_J history "
+    "from perturbations.z_initial (it counts pressure smoothing before the baryons are "
+    "released near z_drag, so it lies below k_F); _adiabatic: with gamma = 5/3",
+    "k_F_b_over_c: the same measurement on (delta_b/delta_c)(k) / (delta_b/delta_c)(k->0)",
+    "k_half, M_half: where delta_b/delta_c has fallen to half of its k -> 0 value; "
+    "M_half = (4 pi/3) rho_m0 (pi/k_half)^3; half_found = 0 when no crossing lies in the "
+    "accepted k range (k_half and M_half are then written as 0)",
+    "b_over_c_large, delta_m_large, rate_m_large: the k -> 0 limit: delta_b/delta_c, delta_m "
+    "per unit initial CDM contrast, and d ln delta_m / d ln a",
+    "units: k comoving 1/Mpc, masses M_sun, temperatures K",
+    NULL};
+
+int jg_report_scales_column_count(void) { return N_SCALES_COLUMNS; }
+
+const char *const *jg_report_scales_columns(void) { return jg__report_scales_columns; }
+
+const char *const *jg_report_scales_conventions(void) { return jg__report_scales_conventions; }
+
+const char *jg_report_scales_column_name(int i) {
+  return i >= 0 && i < N_SCALES_COLUMNS ? scales_columns[i] : NULL;
+}
+
+void jg_report_scales_row(const jg_thermal *th, const jg_scales_point *s, double *row) {
+  jg_thermal_state st;
+  jg_thermal_state_at(th, s->z, &st);
+  double values[N_SCALES_COLUMNS] = {s->z,
+                                     st.T_gas,
+                                     st.x_e,
+                                     s->k_jeans_isothermal,
+                                     s->m_jeans_isothermal,
+                                     s->k_filter_solved,
+                                     s->m_filter_solved,
+                                     s->half_found ? s->k_half : 0.0,
+                                     s->half_found ? s->m_half : 0.0,
+                                     s->half_found ? 1.0 : 0.0,
+                                     s->k_jeans_adiabatic,
+                                     s->m_jeans_adiabatic,
+                                     s->k_filter_integral_isothermal,
+                                     s->m_filter_integral_isothermal,
+                                     s->k_filter_integral_adiabatic,
+                                     s->m_filter_integral_adiabatic,
+                                     s->m_filter_solved_half,
+                                     s->m_filter_integral_isothermal_half,
+                                     s->k_filter_solved_cdm,
+                                     s->b_over_c_large,
+                                     s->delta_m_large,
+                                     s->growth_rate_large};
+  for (int i = 0; i < N_SCALES_COLUMNS; i++) row[i] = values[i];
+}
+
+jg_status jg_report_scales(FILE *f, const jg_params *p, const jg_thermal *th,
+                           const jg_scales_point *s, int n, jg_error *err) {
+  jg_table_write_preamble(f, "Jeans, filtering and half-suppression scales", p,
+                          scales_conventions);
+  jg_table_write_columns(f, scales_columns, N_SCALES_COLUMNS);
+  double row[N_SCALES_COLUMNS];
+  for (int i = 0; i < n; i++) {
+    jg_report_scales_row(th, &s[i], row);
+    jg_status st = jg_table_write_row(f, row, N_SCALES_COLUMNS, scales_columns, err);
+    if (st != JG_OK) return st;
+  }
+  return JG_OK;
+}
+
+/* ---- growth ------------------------------------------------------------- */
+
+static const char *const growth_columns[] = {
+    "z",      "k[1/Mpc]", "delta_c", "delta_b", "delta_m",     "delta_T",
+    "b_over_c", "b_over_m", "suppression", "rate_c", "rate_b", "rate_m", "D_ref", "rate_ref"};
+#define N_GROWTH_COLUMNS ((int)(sizeof growth_columns / sizeof growth_columns[0]))
+
+static const char *const growth_conventions[] = {
+    "delta_c, delta_b, delta_m, delta_T: CDM, baryon, total-matter and gas-temperature "
+    "contrasts per unit initial CDM contrast (delta_c = 1 at perturbations.z_initial on the "
+    "Meszaros growing mode; baryons start at rest and empty)",
+    "delta_m = (1 - f_b) delta_c + f_b delta_b; b_over_c = delta_b/delta_c; "
+    "b_over_m = delta_b/delta_m",
+    "suppression: b_over_c divided by its k -> 0 value at the same z (pressure alone)",
+    "rate_x: d ln delta_x / d ln a",
+    "D_ref, rate_ref: scale-independent growth D(z) of matter + dark energy without radiation "
+    "(Heath 1977 integral for w = -1; its differential equation otherwise), D -> a early, and "
+    "d ln D / d ln a, for reference (the same on every row of a redshift)",
+    "units: k comoving 1/Mpc",
+    NULL};
+
+jg_status jg_report_growth(FILE *f, const jg_params *p, const jg_growth_grid *g, jg_error *err) {
+  /* Without a real history there is no reference growth: its two columns
+   * are left out rather than filled. */
+  const int n_columns = g->has_reference ? N_GROWTH_COLUMNS : N_GROWTH_COLUMNS - 2;
+  jg_table_write_preamble(f, "linear growth by wavenumber", p, growth_conventions);
+  jg_table_write_columns(f, growth_columns, n_columns);
+  for (int iz = 0; iz < g->n_z; iz++) {
+    const double large = g->limit[iz].k0.b_over_c;
+    for (int ik = 0; ik < g->n_k; ik++) {
+      const jg_perturb_point *pt = jg_growth_grid_at(g, ik, iz);
+      double row[N_GROWTH_COLUMNS] = {pt->z,        pt->k,        pt->delta_c,
+                                      pt->delta_b,  pt->delta_m,  pt->delta_T,
+                                      pt->b_over_c, pt->delta_b / pt->delta_m,
+                                      pt->b_over_c / large,
+                                      pt->growth_c, pt->growth_b, pt->growth_m,
+                                      g->has_reference ? g->D_ref[iz] : 0.0,
+                                      g->has_reference ? g->f_ref[iz] : 0.0};
+      jg_status st = jg_table_write_row(f, row, n_columns, growth_columns, err);
+      if (st != JG_OK) return st;
+    }
+  }
+  return JG_OK;
+}
