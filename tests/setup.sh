@@ -6,7 +6,8 @@ set -eu
 cd "$(dirname "$0")/.."
 
 packages="build-essential cmake pkg-config libgsl-dev libconfig-dev libcriterion-dev
-  python3 python3-numpy python3-scipy python3-astropy gnuplot-nox"
+  python3 python3-numpy python3-scipy python3-astropy gnuplot-nox
+  libopenmpi-dev openmpi-bin"
 
 if [ "$(id -u)" -eq 0 ]; then as_root=""; else as_root="sudo"; fi
 missing=""

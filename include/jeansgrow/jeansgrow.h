@@ -4,8 +4,10 @@
  * the end of the dark ages. Umbrella header: include this one.
  *
  * Stages, data flowing one way:
- *   params -> background -> thermal (recombination, gas temperature) -> epochs
- * with jeans (Jeans scales) and table (output files) beside them.
+ *   params -> background -> thermal (recombination, gas temperature)
+ *          -> perturb (linear growth per k) -> scales, growth -> report
+ * with epochs (derived epochs), jeans (Jeans scales), table (output files)
+ * beside them, and scan (parameter grids) on top.
  */
 #ifndef JEANSGROW_JEANSGROW_H
 #define JEANSGROW_JEANSGROW_H
@@ -14,8 +16,13 @@
 #include "jeansgrow/constants.h"
 #include "jeansgrow/epochs.h"
 #include "jeansgrow/error.h"
+#include "jeansgrow/growth.h"
 #include "jeansgrow/jeans.h"
 #include "jeansgrow/params.h"
+#include "jeansgrow/perturb.h"
+#include "jeansgrow/report.h"
+#include "jeansgrow/scales.h"
+#include "jeansgrow/scan.h"
 #include "jeansgrow/table.h"
 #include "jeansgrow/thermal.h"
 #include "jeansgrow/version.h"

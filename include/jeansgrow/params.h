@@ -107,6 +107,16 @@ jg_status jg_params_validate(const jg_params *p, jg_error *err);
  * header block of every output table). */
 void jg_params_write_header(FILE *f, const jg_params *p);
 
+/* Is `key` a single number (type "number" or "integer")? 0 for unknown
+ * keys, lists and words. */
+int jg_params_key_is_numeric(const char *key);
+
+/* Set the number or integer `key` to `value`. JG_EINVAL for an unknown key
+ * (the nearest known key suggested), a key that is not a single number, or
+ * a value that is not whole for an integer key; `p` is then unchanged. The
+ * range is not checked here: call jg_params_validate afterwards. */
+jg_status jg_params_set_number(jg_params *p, const char *key, double value, jg_error *err);
+
 /* One documented key: the loader, `jeansgrow keys` and the README table all
  * come from the same list. */
 typedef struct jg_param_doc {

@@ -45,10 +45,38 @@ int cli_commit_output(jg_output *out);
 void cli_discard_output(jg_output *out);
 
 /* The background and thermal history for a parameter set, or an exit status. */
-int cli_build_history(const jg_params *p, jg_background **bg, jg_thermal **th);
+int cli_build_history(const jg_params *p, const char *param_path, jg_background **bg,
+                      jg_thermal **th);
+
+/* The perturbation model and one workspace for it, or an exit status. */
+int cli_build_perturbations(const jg_params *p, const jg_thermal *th, jg_perturb_model **model,
+                            jg_perturb_workspace **ws);
 
 int cmd_history(const cli_command *cmd, int argc, char **argv);
+int cmd_scales(const cli_command *cmd, int argc, char **argv);
+int cmd_growth(const cli_command *cmd, int argc, char **argv);
+int cmd_run(const cli_command *cmd, int argc, char **argv);
 int cmd_epochs(const cli_command *cmd, int argc, char **argv);
 int cmd_keys(const cli_command *cmd, int argc, char **argv);
+int cmd_scan(const cli_command *cmd, int argc, char **argv);
+int cmd_merge(const cli_command *cmd, int argc, char **argv);
+
+/* MPI for `jeansgrow scan` (src/cli/scan_mpi.c; the library knows no MPI).
+ * scan_mpi_launcher_rank: this process's rank as an MPI launcher announces
+ * it in the environment, or -1 when not started by one (works without MPI
+ * built in, so that such a build can refuse instead of running N copies). */
+int scan_mpi_launcher_rank(void);
+int scan_mpi_built_in(void);
+/* MPI_Init_thread (funneled); 0 on success. */
+int scan_mpi_begin(int *rank, int *size);
+/* 1 on every rank if `ok` is 1 on every rank. */
+int scan_mpi_all_ok(int ok);
+/* Rank 0's value of v, on every rank. */
+int scan_mpi_share(int v);
+/* Manager/worker scan over all ranks, each with `threads` computing
+ * threads; rank 0 (the manager) records into `c` and calls `listener`. */
+jg_status scan_mpi_run(const jg_scan *s, jg_scan_checkpoint *c, int threads,
+                       jg_scan_listener listener, void *context, jg_error *err);
+void scan_mpi_end(void);
 
 #endif

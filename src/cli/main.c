@@ -9,6 +9,11 @@
 #include "cli.h"
 
 static const cli_command commands[] = {
+    {"run", "The main job: history, epochs, scales and growth into one folder, with a summary",
+     "PARAMFILE [--set KEY=VALUE]... [-o DIR]",
+     "Writes DIR/history.txt, DIR/epochs.txt, DIR/scales.txt and DIR/growth.txt (DIR is\n"
+     "created if missing; default jeansgrow-out), each atomically, then prints a summary.",
+     1, cmd_run},
     {"history", "Ionisation and gas-temperature history from the start redshift to z = 0",
      "PARAMFILE [--set KEY=VALUE]... [-o FILE]",
      "Columns: z, x_e, x_HII, x_HeII, x_HeIII, T_gas[K], T_rad[K], mu, compton_rate[1/s],\n"
@@ -18,8 +23,30 @@ static const cli_command commands[] = {
     {"epochs", "Derived epochs: decoupling, drag, sound horizons, equality, age, gas decoupling",
      "PARAMFILE [--set KEY=VALUE]... [-o FILE]",
      "One line per value: name<TAB>value<TAB>unit ('-' for dimensionless).", 1, cmd_epochs},
+    {"scales", "Jeans, filtering and half-suppression scales at every output redshift",
+     "PARAMFILE [--set KEY=VALUE]... [-o FILE]",
+     "Headline columns: z, T_gas[K], x_e, k_J[1/Mpc], M_J[Msun] (isothermal Jeans),\n"
+     "k_F[1/Mpc], M_F[Msun] (filtering from the solved perturbations), k_half[1/Mpc],\n"
+     "M_half[Msun]; further conventions in further columns (see the README).",
+     1, cmd_scales},
+    {"growth", "Linear growth of CDM, baryons and total matter by wavenumber and redshift",
+     "PARAMFILE [--set KEY=VALUE]... [-o FILE]",
+     "One row per (z, k): z, k[1/Mpc], delta_c, delta_b, delta_m, delta_T, b_over_c,\n"
+     "b_over_m, suppression, rate_c, rate_b, rate_m (per unit initial CDM contrast).",
+     1, cmd_growth},
     {"keys", "List every parameter key with its unit, default and allowed range", "[--markdown]",
      NULL, 0, cmd_keys},
+    {"scan", "One table over a grid of parameter values, on threads, MPI ranks or job slices",
+     "PARAMFILE --vary KEY=FROM:TO:N[:log] [--vary ...] [--set KEY=VALUE]... [--threads N]\n"
+     "       [--part I/N] [--resume] [-o FILE]",
+     "One row per grid point and output redshift: the varied values, z, z_star, z_drag,\n"
+     "z_gas_decoupling, then T_gas[K], x_e, k_J[1/Mpc], M_J[Msun] at that redshift.\n"
+     "The grid may instead come from the scan.vary list of PARAMFILE. Under mpirun the\n"
+     "ranks share the points; the file is the same whatever the threads or ranks.",
+     1, cmd_scan},
+    {"merge", "Join the slice tables of a scan run with --part I/N into the whole table",
+     "OUT PART_FILE...", "The slices must come from one scan (same fingerprint), all of them.",
+     1, cmd_merge},
 };
 #define N_COMMANDS ((int)(sizeof commands / sizeof commands[0]))
 
@@ -37,7 +64,10 @@ int main(int argc, char **argv) {
    * status instead, so switch it off once, before any work. */
   gsl_set_error_handler_off();
   if (argc < 2) {
-    print_help();
+    /* A usage error: one line on stderr, as for every other bad input, so
+     * that a script sees it and stdout stays empty. */
+    fprintf(stderr, "jeansgrow: no command given (usage: jeansgrow COMMAND [options] PARAMFILE; "
+                    "see jeansgrow --help)\n");
     return EXIT_BAD_INPUT;
   }
   const char *name = argv[1];

@@ -1,0 +1,501 @@
+/*
+ * `jeansgrow scan`: one table over a grid of parameter sets, on all cores,
+ * on MPI ranks (under mpirun), or as slices of a job array; and
+ * `jeansgrow merge`, which joins such slices.
+ *
+ * Everything is checked before any work: the options, the parameter file,
+ * the grid, every grid point's model, the output place and the checkpoint.
+ * Finished points go to OUTPUT.checkpoint as they come; the table appears
+ * (atomically) only when the slice is complete, and the checkpoint is then
+ * removed. An interrupted run is finished with --resume.
+ */
+#include <errno.h>
+#include <fcntl.h>
+#include <getopt.h>
+#include <signal.h>
+#include <stdio.h>
+#include <stdlib.h>
+#include <string.h>
+#include <sys/stat.h>
+#include <time.h>
+#include <unistd.h>
+
+#include "cli.h"
+
+/* The evaluator behind the table's columns. A later stage (filtering
+ * scales, growth) plugs in here with an evaluator of its own. */
+static const jg_scan_evaluator *scan_evaluator(void) { return jg_scan_evaluator_scales(); }
+
+#define MAX_THREADS 4096
+
+typedef struct scan_options {
+  cli_options common; /* parameter file, --set, -o */
+  const char *vary[JG_SCAN_MAX_AXES + 1];
+  int n_vary;
+  int threads; /* 0: the default */
+  int part_index, part_count;
+  int resume;
+} scan_options;
+
+static double now_seconds(void) {
+  struct timespec ts;
+  clock_gettime(CLOCK_MONOTONIC, &ts);
+  return (double)ts.tv_sec + 1e-9 * (double)ts.tv_nsec;
+}
+
+static void print_scan_help(const cli_command *cmd) {
+  printf("Usage: jeansgrow %s %s\n\n%s.\n\n%s\n", cmd->name, cmd->usage, cmd->summary,
+         cmd->details ? cmd->details : "");
+  printf("\nOptions:\n"
+         "  --vary KEY=FROM:TO:N[:log]  vary a number key over N values, linear (default)\n"
+         "                         or log spacing; repeat for a grid (first --vary slowest)\n"
+         "  --vary KEY=[V1,V2,...]  vary a key over the listed values\n"
+         "                         (--vary replaces the scan.vary list of PARAMFILE)\n"
+         "  --set KEY=VALUE        override a base parameter (libconfig syntax; repeatable)\n"
+         "  --threads N            computing threads (default: all cores; 1 per MPI rank)\n"
+         "  --part I/N             compute slice I of N (1 <= I <= N) for a job array;\n"
+         "                         join the slice files with jeansgrow merge\n"
+         "  --resume               finish an interrupted run from OUTPUT.checkpoint\n"
+         "  -o, --output FILE      write the table to FILE (atomically) instead of stdout\n"
+         "  -h, --help             show this help\n");
+}
+
+static int parse_int(const char *text, long lo, long hi, long *out) {
+  char *end;
+  errno = 0;
+  long v = strtol(text, &end, 10);
+  if (errno || end == text || *end != '\0' || v < lo || v > hi) return 0;
+  *out = v;
+  return 1;
+}
+
+static int parse_scan_options(const cli_command *cmd, int argc, char **argv, scan_options *o) {
+  memset(o, 0, sizeof *o);
+  o->part_index = o->part_count = 1;
+  static const struct option long_opts[] = {{"vary", required_argument, NULL, 'v'},
+                                            {"set", required_argument, NULL, 's'},
+                                            {"threads", required_argument, NULL, 't'},
+                                            {"part", required_argument, NULL, 'p'},
+                                            {"resume", no_argument, NULL, 'r'},
+                                            {"output", required_argument, NULL, 'o'},
+                                            {"help", no_argument, NULL, 'h'},
+                                            {NULL, 0, NULL, 0}};
+  opterr = 0;
+  optind = 1;
+  int c;
+  long v;
+  while ((c = getopt_long(argc, argv, ":o:h", long_opts, NULL)) != -1) {
+    switch (c) {
+    case 'v':
+      if (o->n_vary >= JG_SCAN_MAX_AXES) {
+        fprintf(stderr, "jeansgrow scan: too many --vary options (at most %d)\n", JG_SCAN_MAX_AXES);
+        return EXIT_BAD_INPUT;
+      }
+      o->vary[o->n_vary++] = optarg;
+      break;
+    case 's':
+      if (o->common.n_overrides >= CLI_MAX_OVERRIDES) {
+        fprintf(stderr, "jeansgrow scan: too many --set options (at most %d)\n", CLI_MAX_OVERRIDES);
+        return EXIT_BAD_INPUT;
+      }
+      /* The grid is given with --vary; a --set of it would be ignored. */
+      if (strncmp(optarg, "scan.", 5) == 0 || strncmp(optarg, "scan=", 5) == 0) {
+        fprintf(stderr, "jeansgrow scan: --set %s: the scan grid is not a parameter; use --vary "
+                        "KEY=FROM:TO:N instead\n", optarg);
+        return EXIT_BAD_INPUT;
+      }
+      o->common.overrides[o->common.n_overrides++] = optarg;
+      break;
+    case 't':
+      if (!parse_int(optarg, 1, MAX_THREADS, &v)) {
+        fprintf(stderr, "jeansgrow scan: --threads must be a whole number from 1 to %d (got '%s')\n",
+                MAX_THREADS, optarg);
+        return EXIT_BAD_INPUT;
+      }
+      o->threads = (int)v;
+      break;
+    case 'p': {
+      const char *slash = strchr(optarg, '/');
+      long i = 0, n = 0;
+      char left[32];
+      int ok = slash && (size_t)(slash - optarg) < sizeof left;
+      if (ok) {
+        memcpy(left, optarg, (size_t)(slash - optarg));
+        left[slash - optarg] = '\0';
+        ok = parse_int(left, 1, 1000000000L, &i) && parse_int(slash + 1, 1, 1000000000L, &n) &&
+             i <= n;
+      }
+      if (!ok) {
+        fprintf(stderr, "jeansgrow scan: --part must be I/N with 1 <= I <= N, e.g. --part 2/8 "
+                        "(got '%s')\n", optarg);
+        return EXIT_BAD_INPUT;
+      }
+      o->part_index = (int)i;
+      o->part_count = (int)n;
+      break;
+    }
+    case 'r':
+      o->resume = 1;
+      break;
+    case 'o':
+      o->common.output_path = optarg;
+      break;
+    case 'h':
+      print_scan_help(cmd);
+      return EXIT_OK;
+    case ':':
+      fprintf(stderr, "jeansgrow scan: option '%s' needs a value\n", argv[optind - 1]);
+      return EXIT_BAD_INPUT;
+    default:
+      if (optopt)
+        fprintf(stderr, "jeansgrow scan: unknown option '-%c' (see jeansgrow scan --help)\n",
+                optopt);
+      else
+        fprintf(stderr, "jeansgrow scan: unknown option '%s' (see jeansgrow scan --help)\n",
+                argv[optind - 1]);
+      return EXIT_BAD_INPUT;
+    }
+  }
+  if (optind >= argc) {
+    fprintf(stderr, "jeansgrow scan: missing parameter file (usage: jeansgrow scan %s)\n",
+            cmd->usage);
+    return EXIT_BAD_INPUT;
+  }
+  if (optind + 1 < argc) {
+    fprintf(stderr, "jeansgrow scan: unexpected argument '%s' (one parameter file only)\n",
+            argv[optind + 1]);
+    return EXIT_BAD_INPUT;
+  }
+  o->common.param_path = argv[optind];
+  const char *out = o->common.output_path;
+  if (out && strcmp(out, "-") == 0) out = o->common.output_path = NULL;
+  if (out && out[0] == '\0') {
+    fprintf(stderr, "jeansgrow scan: option '-o' needs a file name (got an empty one)\n");
+    return EXIT_BAD_INPUT;
+  }
+  struct stat sb;
+  if (out && stat(out, &sb) == 0 && S_ISDIR(sb.st_mode)) {
+    fprintf(stderr, "jeansgrow scan: %s is a directory; -o needs a file name\n", out);
+    return EXIT_BAD_INPUT;
+  }
+  if (o->resume && !out) {
+    fprintf(stderr, "jeansgrow scan: --resume needs -o FILE (the run resumes from "
+                    "FILE.checkpoint)\n");
+    return EXIT_BAD_INPUT;
+  }
+  return -1;
+}
+
+/* ---- progress on a terminal -------------------------------------------- */
+
+typedef struct progress {
+  const jg_scan *scan;
+  int tty;
+  int drawn;          /* a bar is on the current line */
+  double t0, last_draw;
+  long long at_start; /* points already done when this run started (resumed) */
+} progress;
+
+static void format_duration(double s, char *buf, size_t size) {
+  long t = s > 0 && s < 1e9 ? (long)(s + 0.5) : 0;
+  if (t >= 3600) snprintf(buf, size, "%ld:%02ld:%02ld", t / 3600, t / 60 % 60, t % 60);
+  else snprintf(buf, size, "%ld:%02ld", t / 60, t % 60);
+}
+
+static void draw_bar(progress *pr, long long done, long long total) {
+  const int width = 28;
+  double now = now_seconds();
+  double rate = (double)(done - pr->at_start) / (now - pr->t0 > 1e-6 ? now - pr->t0 : 1e-6);
+  int fill = total > 0 ? (int)((double)width * (double)done / (double)total) : width;
+  char bar[64], left[32];
+  for (int i = 0; i < width; i++) bar[i] = i < fill ? '#' : '.';
+  bar[width] = '\0';
+  if (rate > 0 && done > pr->at_start) format_duration((double)(total - done) / rate, left, sizeof left);
+  else snprintf(left, sizeof left, "?");
+  fprintf(stderr, "\r[%s] %lld/%lld points  %.2f points/s  %s left\033[K", bar, done, total,
+          rate, left);
+  fflush(stderr);
+  pr->drawn = 1;
+  pr->last_draw = now;
+}
+
+static void on_point(void *context, const jg_scan_event *e) {
+  progress *pr = context;
+  if (e->status != JG_OK) {
+    char desc[1024];
+    jg_scan_describe_point(pr->scan, e->index, desc, sizeof desc);
+    if (pr->drawn) fputs("\r\033[K", stderr), pr->drawn = 0;
+    fprintf(stderr, "jeansgrow scan: point %lld of %lld (%s) failed: %s\n", e->index + 1,
+            jg_scan_total_points(pr->scan), desc, e->message);
+  }
+  /* A redraw costs a write to the terminal; ten a second is smooth enough. */
+  if (pr->tty && (now_seconds() - pr->last_draw >= 0.1 || e->done == e->total))
+    draw_bar(pr, e->done, e->total);
+}
+
+/* ---- interrupts -------------------------------------------------------- */
+
+/* Program state for the signal handler (the library keeps none). */
+static volatile sig_atomic_t scan_have_temp = 0;
+static char scan_temp_path[4096];
+static char scan_interrupt_message[4352];
+
+static void on_scan_interrupt(int sig) {
+  if (scan_have_temp) unlink(scan_temp_path);
+  ssize_t ignored = write(STDERR_FILENO, scan_interrupt_message, strlen(scan_interrupt_message));
+  (void)ignored;
+  _exit(128 + sig);
+}
+
+/* Replace the generic handler: its message would say nothing of the
+ * finished points kept in the checkpoint. */
+static void protect_scan_output(jg_output *out, const char *checkpoint_path) {
+  const char *tmp = out ? jg_output_temp_path(out) : NULL;
+  scan_have_temp = 0;
+  if (tmp && strlen(tmp) < sizeof scan_temp_path) {
+    strcpy(scan_temp_path, tmp);
+    scan_have_temp = 1;
+  }
+  if (checkpoint_path)
+    snprintf(scan_interrupt_message, sizeof scan_interrupt_message,
+             "\njeansgrow scan: interrupted; the finished points are kept in %s: run the same "
+             "command with --resume to finish\n", checkpoint_path);
+  else
+    snprintf(scan_interrupt_message, sizeof scan_interrupt_message,
+             "\njeansgrow scan: interrupted; no output was written\n");
+  struct sigaction sa;
+  memset(&sa, 0, sizeof sa);
+  sa.sa_handler = on_scan_interrupt;
+  sigemptyset(&sa.sa_mask);
+  sigaction(SIGINT, &sa, NULL);
+  sigaction(SIGTERM, &sa, NULL);
+}
+
+/* ---- the command ------------------------------------------------------- */
+
+typedef struct scan_setup {
+  scan_options opt;
+  jg_params params;
+  jg_scan_grid grid;
+  jg_scan *scan;
+  jg_output *out;
+  jg_scan_checkpoint *checkpoint;
+  char *checkpoint_path;
+} scan_setup;
+
+static void setup_release(scan_setup *su, int keep_checkpoint) {
+  jg_scan_checkpoint_close(su->checkpoint, !keep_checkpoint);
+  su->checkpoint = NULL;
+  if (su->out) cli_discard_output(su->out);
+  su->out = NULL;
+  scan_have_temp = 0;
+  jg_scan_free(su->scan);
+  su->scan = NULL;
+  jg_scan_grid_clear(&su->grid);
+  free(su->checkpoint_path);
+  su->checkpoint_path = NULL;
+}
+
+/* Everything before the first point: returns -1 to go on, else an exit
+ * status (the error printed). Only the writing rank opens files. */
+static int scan_prepare(const cli_command *cmd, int argc, char **argv, int writer,
+                        scan_setup *su) {
+  int rc = parse_scan_options(cmd, argc, argv, &su->opt);
+  if (rc >= 0) return rc;
+  if ((rc = cli_load_params(&su->opt.common, &su->params)) >= 0) return rc;
+  jg_error err;
+  jg_error_clear(&err);
+  jg_status st = JG_OK;
+  for (int i = 0; st == JG_OK && i < su->opt.n_vary; i++)
+    st = jg_scan_grid_parse(&su->grid, su->opt.vary[i], "--vary", &err);
+  if (st == JG_OK && su->opt.n_vary == 0)
+    st = jg_scan_grid_read_file(&su->grid, su->opt.common.param_path, &err);
+  if (st == JG_OK && su->grid.n_axes == 0)
+    st = JG_FAIL(&err, JG_EINVAL, "nothing to vary: give --vary KEY=FROM:TO:N (or a scan.vary "
+                 "list in %s)", su->opt.common.param_path);
+  if (st != JG_OK) {
+    cli_report(&err);
+    return st == JG_ENOMEM ? EXIT_RUN_FAILED : EXIT_BAD_INPUT;
+  }
+  /* The output place is tried now, before the grid check (which takes a
+   * while for large grids), but the table's temporary file is only opened
+   * at the end: a run killed while computing leaves the checkpoint and
+   * nothing else. */
+  if (writer) {
+    if ((rc = cli_open_output(&su->opt.common, &su->out)) >= 0) return rc;
+    cli_discard_output(su->out);
+    su->out = NULL;
+  }
+  st = jg_scan_new(&su->params, &su->grid, scan_evaluator(), su->opt.part_index,
+                   su->opt.part_count, &su->scan, &err);
+  if (st != JG_OK) {
+    cli_report(&err);
+    return st == JG_ENOMEM || st == JG_EIO ? EXIT_RUN_FAILED : EXIT_BAD_INPUT;
+  }
+  if (!writer) return -1;
+
+  const char *path = su->opt.common.output_path;
+  if (path) {
+    size_t n = strlen(path) + sizeof ".checkpoint";
+    su->checkpoint_path = malloc(n);
+    if (!su->checkpoint_path) {
+      JG_FAIL(&err, JG_ENOMEM, "out of memory");
+      return cli_report(&err);
+    }
+    snprintf(su->checkpoint_path, n, "%s.checkpoint", path);
+  }
+  protect_scan_output(NULL, su->checkpoint_path);
+  st = jg_scan_checkpoint_open(su->scan, su->checkpoint_path, su->opt.resume, &su->checkpoint,
+                               &err);
+  if (st != JG_OK) return cli_report(&err);
+  return -1;
+}
+
+/* Write the table from the checkpoint, commit it, drop the checkpoint. */
+static int scan_finish(scan_setup *su, double t0, int threads, int ranks) {
+  const jg_scan *s = su->scan;
+  jg_scan_checkpoint *c = su->checkpoint;
+  int rc = cli_open_output(&su->opt.common, &su->out);
+  if (rc >= 0) {
+    setup_release(su, 1);
+    return rc;
+  }
+  protect_scan_output(su->out, su->checkpoint_path);
+  jg_error err;
+  jg_error_clear(&err);
+  jg_status st = jg_scan_write_table(s, c, jg_output_stream(su->out), &err);
+  if (st != JG_OK) {
+    setup_release(su, 1);
+    return cli_report(&err);
+  }
+  jg_output *out = su->out;
+  su->out = NULL;
+  rc = cli_commit_output(out);
+  scan_have_temp = 0;
+  if (rc != EXIT_OK) {
+    setup_release(su, 1);
+    return rc;
+  }
+  long long failed = jg_scan_checkpoint_failed(c), resumed = jg_scan_checkpoint_resumed(c);
+  long long points = jg_scan_slice_points(s);
+  double dt = now_seconds() - t0;
+  double rate = dt > 0 ? (double)(points - resumed) / dt : 0.0;
+  char where[64];
+  if (ranks > 1) snprintf(where, sizeof where, "%d MPI ranks x %d thread%s", ranks, threads,
+                          threads == 1 ? "" : "s");
+  else snprintf(where, sizeof where, "%d thread%s", threads, threads == 1 ? "" : "s");
+  fprintf(stderr, "jeansgrow scan: %lld points x %d redshifts -> %s: %lld computed, %lld "
+          "resumed, %lld failed; %.1f s, %.2f points/s on %s\n", points, jg_scan_redshifts(s),
+          su->opt.common.output_path ? su->opt.common.output_path : "stdout", points - resumed,
+          resumed, failed, dt, rate, where);
+  setup_release(su, 0);
+  return failed > 0 ? EXIT_RUN_FAILED : EXIT_OK;
+}
+
+static int default_threads(int under_mpi) {
+  if (under_mpi) return 1; /* a rank per core is the launcher's business */
+  long n = sysconf(_SC_NPROCESSORS_ONLN);
+  return n < 1 ? 1 : n > MAX_THREADS ? MAX_THREADS : (int)n;
+}
+
+int cmd_scan(const cli_command *cmd, int argc, char **argv) {
+  const int launched = scan_mpi_launcher_rank() >= 0;
+  if (launched && !scan_mpi_built_in()) {
+    if (scan_mpi_launcher_rank() == 0)
+      fprintf(stderr, "jeansgrow scan: started by an MPI launcher, but this jeansgrow was built "
+                      "without MPI; run it without mpirun (it uses all cores with threads), or "
+                      "rebuild with MPI installed (-DJG_WITH_MPI=ON)\n");
+    return EXIT_BAD_INPUT;
+  }
+  int rank = 0, ranks = 1;
+  if (launched && scan_mpi_begin(&rank, &ranks) != 0) {
+    fprintf(stderr, "jeansgrow scan: MPI could not start\n");
+    return EXIT_RUN_FAILED;
+  }
+  /* The other ranks check the same inputs and would repeat every message. */
+  int saved_stderr = -1;
+  if (rank != 0) {
+    int null_fd = open("/dev/null", O_WRONLY);
+    saved_stderr = dup(STDERR_FILENO);
+    if (null_fd >= 0) dup2(null_fd, STDERR_FILENO), close(null_fd);
+  }
+  scan_setup su;
+  memset(&su, 0, sizeof su);
+  int rc = scan_prepare(cmd, argc, argv, rank == 0, &su);
+  if (saved_stderr >= 0) dup2(saved_stderr, STDERR_FILENO), close(saved_stderr);
+  if (launched) {
+    int all_ok = scan_mpi_all_ok(rc < 0);
+    if (!all_ok) {
+      if (rank == 0 && rc < 0)
+        fprintf(stderr, "jeansgrow scan: the set-up failed on another MPI rank (does every node "
+                        "see the same files?)\n");
+      rc = scan_mpi_share(rc < 0 ? EXIT_BAD_INPUT : rc);
+      setup_release(&su, rank == 0 && su.checkpoint && jg_scan_checkpoint_done(su.checkpoint) > 0);
+      scan_mpi_end();
+      return rc;
+    }
+  } else if (rc >= 0) {
+    setup_release(&su, su.checkpoint && jg_scan_checkpoint_done(su.checkpoint) > 0);
+    return rc;
+  }
+  const int threads = su.opt.threads > 0 ? su.opt.threads : default_threads(launched);
+  progress pr;
+  memset(&pr, 0, sizeof pr);
+  pr.scan = su.scan;
+  pr.tty = rank == 0 && isatty(STDERR_FILENO);
+  pr.t0 = now_seconds();
+  pr.at_start = su.checkpoint ? jg_scan_checkpoint_done(su.checkpoint) : 0;
+  jg_error err;
+  jg_error_clear(&err);
+  jg_status st = ranks > 1 ? scan_mpi_run(su.scan, su.checkpoint, threads, on_point, &pr, &err)
+                           : jg_scan_run(su.scan, su.checkpoint, threads, on_point, &pr, &err);
+  if (pr.drawn) fputc('\n', stderr);
+  if (rank == 0) {
+    if (st != JG_OK) {
+      rc = cli_report(&err);
+      setup_release(&su, 1);
+    } else {
+      rc = scan_finish(&su, pr.t0, threads, ranks);
+    }
+  } else {
+    setup_release(&su, 0);
+  }
+  if (launched) {
+    rc = scan_mpi_share(rc);
+    scan_mpi_end();
+  }
+  return rc;
+}
+
+/* ---- merge ------------------------------------------------------------- */
+
+int cmd_merge(const cli_command *cmd, int argc, char **argv) {
+  for (int i = 1; i < argc; i++) {
+    if (strcmp(argv[i], "-h") == 0 || strcmp(argv[i], "--help") == 0) {
+      printf("Usage: jeansgrow %s %s\n\n%s.\n\n%s\n\nOptions:\n  -h, --help  show this help\n",
+             cmd->name, cmd->usage, cmd->summary, cmd->details ? cmd->details : "");
+      return EXIT_OK;
+    }
+  }
+  if (argc < 3) {
+    fprintf(stderr, "jeansgrow merge: give the output and the slice files (usage: jeansgrow "
+                    "merge %s)\n", cmd->usage);
+    return EXIT_BAD_INPUT;
+  }
+  cli_options o;
+  memset(&o, 0, sizeof o);
+  o.output_path = strcmp(argv[1], "-") == 0 ? NULL : argv[1];
+  jg_output *out = NULL;
+  int rc = cli_open_output(&o, &out);
+  if (rc >= 0) return rc;
+  jg_error err;
+  jg_error_clear(&err);
+  jg_status st = jg_scan_merge((const char *const *)(argv + 2), argc - 2, jg_output_stream(out),
+                               &err);
+  if (st != JG_OK) {
+    cli_discard_output(out);
+    cli_report(&err);
+    return st == JG_EIO || st == JG_ENOMEM ? EXIT_RUN_FAILED : EXIT_BAD_INPUT;
+  }
+  return cli_commit_output(out);
+}

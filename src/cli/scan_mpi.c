@@ -1,0 +1,414 @@
+/*
+ * `jeansgrow scan` over MPI ranks: dynamic manager/worker balancing.
+ *
+ * Rank 0 is the manager: its main thread hands out grid-point indices on
+ * request and records the results in the checkpoint (the only file the
+ * scan writes while running), and its own computing threads take indices
+ * from the same counter, so that rank 0 computes as much as any worker
+ * instead of idling as a pure manager. Every other rank runs computing
+ * threads fed by its main thread, which alone talks to rank 0 (MPI is
+ * initialised MPI_THREAD_FUNNELED). A worker holds two indices per thread,
+ * one computing and one waiting, and sends each result with the request for
+ * its replacement, so that a thread never waits for the manager's answer;
+ * points cost milliseconds, so one message per point costs nothing.
+ *
+ * Results travel as raw doubles (MPI_BYTE within a homogeneous cluster) and
+ * the table is written from the checkpoint in grid order, so the file is
+ * byte-identical to a single-process run. A point that fails numerically
+ * travels as a failed result; only running out of memory stops the scan.
+ *
+ * The library knows nothing of MPI: this file uses only its public API.
+ */
+#include <stdlib.h>
+#include <string.h>
+
+#include "cli.h"
+
+/* Launchers announce the rank in the environment: Open MPI, the PMI of
+ * MPICH/Hydra and Slurm's srun (--mpi=pmi2), and PMIx (Open MPI 4, srun
+ * --mpi=pmix). SLURM_PROCID is left out on purpose: it is set in every
+ * batch script, MPI or not. */
+int scan_mpi_launcher_rank(void) {
+  static const char *const vars[] = {"OMPI_COMM_WORLD_RANK", "PMI_RANK", "PMIX_RANK", NULL};
+  for (int i = 0; vars[i]; i++) {
+    const char *v = getenv(vars[i]);
+    if (v && *v) return atoi(v);
+  }
+  return -1;
+}
+
+#ifndef JG_HAVE_MPI
+
+int scan_mpi_built_in(void) { return 0; }
+int scan_mpi_begin(int *rank, int *size) {
+  *rank = 0;
+  *size = 1;
+  return 1;
+}
+int scan_mpi_all_ok(int ok) { return ok; }
+int scan_mpi_share(int v) { return v; }
+jg_status scan_mpi_run(const jg_scan *s, jg_scan_checkpoint *c, int threads,
+                       jg_scan_listener listener, void *context, jg_error *err) {
+  return jg_scan_run(s, c, threads, listener, context, err);
+}
+void scan_mpi_end(void) {}
+
+#else
+
+#include <mpi.h>
+#include <pthread.h>
+#include <time.h>
+
+enum { TAG_REQUEST = 1, TAG_TASK = 2, TAG_BYE = 3 };
+
+/* How long the manager naps when no message is waiting. Workers hold a
+ * spare index, so the answer may take this long without idling them; and
+ * polling more often would take time from the manager's own computing
+ * threads, which share its core. */
+#define MANAGER_NAP_NS 1000000L
+/* Indices a worker holds per computing thread (one running, one waiting). */
+#define WORKER_DEPTH 2
+/* A worker's nap while its request is answered: well under the manager's. */
+#define WORKER_NAP_NS 100000L
+
+int scan_mpi_built_in(void) { return 1; }
+
+int scan_mpi_begin(int *rank, int *size) {
+  int provided = 0;
+  if (MPI_Init_thread(NULL, NULL, MPI_THREAD_FUNNELED, &provided) != MPI_SUCCESS) return 1;
+  if (provided < MPI_THREAD_FUNNELED) {
+    MPI_Finalize();
+    return 1;
+  }
+  MPI_Comm_rank(MPI_COMM_WORLD, rank);
+  MPI_Comm_size(MPI_COMM_WORLD, size);
+  return 0;
+}
+
+int scan_mpi_all_ok(int ok) {
+  int all = 0;
+  MPI_Allreduce(&ok, &all, 1, MPI_INT, MPI_MIN, MPI_COMM_WORLD);
+  return all;
+}
+
+int scan_mpi_share(int v) {
+  MPI_Bcast(&v, 1, MPI_INT, 0, MPI_COMM_WORLD);
+  return v;
+}
+
+void scan_mpi_end(void) { MPI_Finalize(); }
+
+/* One result as it travels: header, values, message. */
+typedef struct result_head {
+  long long index; /* -1: no result, only a request */
+  int status;
+  int message_length;
+} result_head;
+
+static size_t result_size(int n_values) {
+  return sizeof(result_head) + sizeof(double) * (size_t)n_values + JG_ERROR_MESSAGE_SIZE;
+}
+
+static void pack_result(char *buf, long long index, jg_status st, const double *values,
+                        int n_values, const char *message, int *bytes) {
+  result_head h = {index, (int)st, 0};
+  size_t off = sizeof h;
+  if (index >= 0 && st == JG_OK) {
+    memcpy(buf + off, values, sizeof(double) * (size_t)n_values);
+    off += sizeof(double) * (size_t)n_values;
+  } else if (index >= 0) {
+    size_t n = strnlen(message ? message : "", JG_ERROR_MESSAGE_SIZE - 1);
+    memcpy(buf + off, message, n);
+    buf[off + n] = '\0';
+    h.message_length = (int)n + 1;
+    off += n + 1;
+  }
+  memcpy(buf, &h, sizeof h);
+  *bytes = (int)off;
+}
+
+/* ---- the manager (rank 0) ---------------------------------------------- */
+
+typedef struct manager {
+  const jg_scan *s;
+  jg_scan_checkpoint *c;
+  jg_scan_listener listener;
+  void *context;
+  pthread_mutex_t lock;
+  long long next; /* lowest index not yet handed out */
+  int stop;
+  jg_status fatal;
+  jg_error fatal_err;
+} manager;
+
+static void manager_fail(manager *m, const jg_error *e) {
+  if (m->fatal == JG_OK) {
+    m->fatal = e->status != JG_OK ? e->status : JG_EIO;
+    m->fatal_err = *e;
+  }
+  m->stop = 1;
+}
+
+static long long manager_take(manager *m) {
+  pthread_mutex_lock(&m->lock);
+  const long long end = jg_scan_first_point(m->s) + jg_scan_slice_points(m->s);
+  while (m->next < end && jg_scan_checkpoint_has(m->c, m->next)) m->next++;
+  long long i = (!m->stop && m->next < end) ? m->next++ : -1;
+  pthread_mutex_unlock(&m->lock);
+  return i;
+}
+
+static void manager_record(manager *m, long long index, jg_status st, const double *values,
+                           const char *message, const jg_error *eval_err) {
+  pthread_mutex_lock(&m->lock);
+  if (st == JG_ENOMEM) {
+    manager_fail(m, eval_err);
+  } else {
+    jg_error werr;
+    jg_error_clear(&werr);
+    if (jg_scan_checkpoint_add(m->c, index, st, values, message, &werr) != JG_OK) {
+      manager_fail(m, &werr);
+    } else if (m->listener) {
+      jg_scan_event ev = {index, st, st == JG_OK ? "" : message,
+                          jg_scan_checkpoint_done(m->c), jg_scan_checkpoint_failed(m->c),
+                          jg_scan_slice_points(m->s)};
+      m->listener(m->context, &ev);
+    }
+  }
+  pthread_mutex_unlock(&m->lock);
+}
+
+static void *manager_worker(void *arg) {
+  manager *m = arg;
+  jg_error e;
+  jg_error_clear(&e);
+  void *ws = jg_scan_workspace_new(m->s, &e);
+  double *values = malloc(sizeof(double) * (size_t)jg_scan_values_per_point(m->s));
+  if (!ws || !values) {
+    if (!values) JG_FAIL(&e, JG_ENOMEM, "out of memory for a scan thread");
+    pthread_mutex_lock(&m->lock);
+    manager_fail(m, &e);
+    pthread_mutex_unlock(&m->lock);
+  }
+  long long i;
+  while (ws && values && (i = manager_take(m)) >= 0) {
+    jg_error_clear(&e);
+    jg_status st = jg_scan_evaluate(m->s, i, ws, values, &e);
+    manager_record(m, i, st, values, e.message, &e);
+  }
+  jg_scan_workspace_free(m->s, ws);
+  free(values);
+  return NULL;
+}
+
+static jg_status run_manager(const jg_scan *s, jg_scan_checkpoint *c, int threads, int ranks,
+                             jg_scan_listener listener, void *context, jg_error *err) {
+  manager m;
+  memset(&m, 0, sizeof m);
+  m.s = s;
+  m.c = c;
+  m.listener = listener;
+  m.context = context;
+  m.next = jg_scan_first_point(s);
+  m.fatal = JG_OK;
+  pthread_mutex_init(&m.lock, NULL);
+  const int n_values = jg_scan_values_per_point(s);
+  char *buf = malloc(result_size(n_values));
+  pthread_t *tid = malloc(sizeof *tid * (size_t)threads);
+  int started = 0;
+  if (buf && tid)
+    for (; started < threads; started++)
+      if (pthread_create(&tid[started], NULL, manager_worker, &m) != 0) break;
+  if (!buf || !tid) {
+    jg_error e;
+    JG_FAIL(&e, JG_ENOMEM, "out of memory for the MPI manager");
+    manager_fail(&m, &e);
+  }
+  /* Serve until every worker has said goodbye, which each does only after
+   * its last result was answered: no message is left unanswered. */
+  int byes = 0;
+  const struct timespec nap = {0, MANAGER_NAP_NS};
+  while (byes < ranks - 1) {
+    int flag = 0;
+    MPI_Status status;
+    MPI_Iprobe(MPI_ANY_SOURCE, MPI_ANY_TAG, MPI_COMM_WORLD, &flag, &status);
+    if (!flag) {
+      nanosleep(&nap, NULL);
+      continue;
+    }
+    int bytes = 0;
+    MPI_Get_count(&status, MPI_BYTE, &bytes);
+    if (!buf || bytes > (int)result_size(n_values)) MPI_Abort(MPI_COMM_WORLD, EXIT_RUN_FAILED);
+    MPI_Recv(buf, bytes, MPI_BYTE, status.MPI_SOURCE, status.MPI_TAG, MPI_COMM_WORLD,
+             MPI_STATUS_IGNORE);
+    if (status.MPI_TAG == TAG_BYE) {
+      byes++;
+      continue;
+    }
+    result_head h;
+    memcpy(&h, buf, sizeof h);
+    if (h.index >= 0) {
+      const char *text = h.message_length > 0 ? buf + sizeof h : "";
+      jg_error e;
+      jg_error_clear(&e);
+      if (h.status == JG_ENOMEM)
+        JG_FAIL(&e, JG_ENOMEM, "out of memory on MPI rank %d", status.MPI_SOURCE);
+      manager_record(&m, h.index, (jg_status)h.status, (const double *)(buf + sizeof h), text, &e);
+    }
+    long long next = manager_take(&m);
+    MPI_Send(&next, 1, MPI_LONG_LONG, status.MPI_SOURCE, TAG_TASK, MPI_COMM_WORLD);
+  }
+  for (int i = 0; i < started; i++) pthread_join(tid[i], NULL);
+  free(tid);
+  free(buf);
+  pthread_mutex_destroy(&m.lock);
+  if (m.fatal != JG_OK) {
+    if (err) *err = m.fatal_err;
+    return m.fatal;
+  }
+  /* Every point must be in: a worker that vanished would leave holes, and
+   * the table writer refuses those rather than write a partial table. */
+  return JG_OK;
+}
+
+/* ---- a worker (rank > 0) ----------------------------------------------- */
+
+typedef struct worker {
+  const jg_scan *s;
+  pthread_mutex_t lock;
+  pthread_cond_t have_task, have_result;
+  long long *tasks; /* stack of indices, capacity WORKER_DEPTH * threads */
+  int n_tasks;
+  char *results;    /* packed results, same capacity */
+  int *result_bytes;
+  int n_results;
+  int quit;
+} worker;
+
+static void *worker_thread(void *arg) {
+  worker *w = arg;
+  const int n_values = jg_scan_values_per_point(w->s);
+  jg_error e;
+  jg_error_clear(&e);
+  void *ws = jg_scan_workspace_new(w->s, &e);
+  double *values = malloc(sizeof(double) * (size_t)n_values);
+  if (!ws || !values) MPI_Abort(MPI_COMM_WORLD, EXIT_RUN_FAILED); /* set-up memory: hopeless */
+  for (;;) {
+    pthread_mutex_lock(&w->lock);
+    while (w->n_tasks == 0 && !w->quit) pthread_cond_wait(&w->have_task, &w->lock);
+    if (w->n_tasks == 0) {
+      pthread_mutex_unlock(&w->lock);
+      break;
+    }
+    long long i = w->tasks[--w->n_tasks];
+    pthread_mutex_unlock(&w->lock);
+    jg_error_clear(&e);
+    jg_status st = jg_scan_evaluate(w->s, i, ws, values, &e);
+    pthread_mutex_lock(&w->lock);
+    char *slot = w->results + (size_t)w->n_results * result_size(n_values);
+    pack_result(slot, i, st, values, n_values, e.message, &w->result_bytes[w->n_results]);
+    w->n_results++;
+    pthread_cond_signal(&w->have_result);
+    pthread_mutex_unlock(&w->lock);
+  }
+  jg_scan_workspace_free(w->s, ws);
+  free(values);
+  return NULL;
+}
+
+/* Send a request (with a result, or none) and take the reply: the next
+ * index to compute, or -1 when there is none left. The wait naps instead
+ * of blocking in MPI_Recv, which spins in common MPI libraries and would
+ * take the core from this rank's own computing thread. */
+static long long ask(const char *msg, int bytes) {
+  long long next = -1;
+  MPI_Request rq[2];
+  MPI_Isend(msg, bytes, MPI_BYTE, 0, TAG_REQUEST, MPI_COMM_WORLD, &rq[0]);
+  MPI_Irecv(&next, 1, MPI_LONG_LONG, 0, TAG_TASK, MPI_COMM_WORLD, &rq[1]);
+  const struct timespec nap = {0, WORKER_NAP_NS};
+  int done = 0;
+  for (;;) {
+    MPI_Testall(2, rq, &done, MPI_STATUSES_IGNORE);
+    if (done) break;
+    nanosleep(&nap, NULL);
+  }
+  return next;
+}
+
+static void run_worker(const jg_scan *s, int threads) {
+  worker w;
+  memset(&w, 0, sizeof w);
+  w.s = s;
+  const int depth = WORKER_DEPTH * threads;
+  const int n_values = jg_scan_values_per_point(s);
+  const size_t slot = result_size(n_values);
+  w.tasks = malloc(sizeof *w.tasks * (size_t)depth);
+  w.results = malloc(slot * (size_t)depth);
+  w.result_bytes = malloc(sizeof *w.result_bytes * (size_t)depth);
+  char *msg = malloc(slot);
+  pthread_t *tid = malloc(sizeof *tid * (size_t)threads);
+  if (!w.tasks || !w.results || !w.result_bytes || !msg || !tid)
+    MPI_Abort(MPI_COMM_WORLD, EXIT_RUN_FAILED);
+  pthread_mutex_init(&w.lock, NULL);
+  pthread_cond_init(&w.have_task, NULL);
+  pthread_cond_init(&w.have_result, NULL);
+  for (int i = 0; i < threads; i++)
+    if (pthread_create(&tid[i], NULL, worker_thread, &w) != 0) MPI_Abort(MPI_COMM_WORLD, EXIT_RUN_FAILED);
+
+  /* Every index held is in the queue, computing, or a result not yet sent;
+   * never more than `depth` of them, the capacity of each buffer. */
+  int outstanding = 0, bytes = 0;
+  pack_result(msg, -1, JG_OK, NULL, 0, NULL, &bytes);
+  for (int i = 0; i < depth; i++) {
+    long long next = ask(msg, bytes);
+    if (next < 0) break;
+    pthread_mutex_lock(&w.lock);
+    w.tasks[w.n_tasks++] = next;
+    pthread_cond_signal(&w.have_task);
+    pthread_mutex_unlock(&w.lock);
+    outstanding++;
+  }
+  while (outstanding > 0) {
+    pthread_mutex_lock(&w.lock);
+    while (w.n_results == 0) pthread_cond_wait(&w.have_result, &w.lock);
+    w.n_results--;
+    bytes = w.result_bytes[w.n_results];
+    memcpy(msg, w.results + (size_t)w.n_results * slot, (size_t)bytes);
+    pthread_mutex_unlock(&w.lock);
+    outstanding--;
+    long long next = ask(msg, bytes);
+    if (next >= 0) {
+      pthread_mutex_lock(&w.lock);
+      w.tasks[w.n_tasks++] = next;
+      pthread_cond_signal(&w.have_task);
+      pthread_mutex_unlock(&w.lock);
+      outstanding++;
+    }
+  }
+  pthread_mutex_lock(&w.lock);
+  w.quit = 1;
+  pthread_cond_broadcast(&w.have_task);
+  pthread_mutex_unlock(&w.lock);
+  for (int i = 0; i < threads; i++) pthread_join(tid[i], NULL);
+  MPI_Send(msg, 0, MPI_BYTE, 0, TAG_BYE, MPI_COMM_WORLD);
+  pthread_cond_destroy(&w.have_task);
+  pthread_cond_destroy(&w.have_result);
+  pthread_mutex_destroy(&w.lock);
+  free(w.tasks);
+  free(w.results);
+  free(w.result_bytes);
+  free(msg);
+  free(tid);
+}
+
+jg_status scan_mpi_run(const jg_scan *s, jg_scan_checkpoint *c, int threads,
+                       jg_scan_listener listener, void *context, jg_error *err) {
+  int rank = 0, ranks = 1;
+  MPI_Comm_rank(MPI_COMM_WORLD, &rank);
+  MPI_Comm_size(MPI_COMM_WORLD, &ranks);
+  if (rank == 0) return run_manager(s, c, threads, ranks, listener, context, err);
+  run_worker(s, threads);
+  return JG_OK;
+}
+
+#endif

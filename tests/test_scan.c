@@ -1,0 +1,992 @@
+/*
+ * Parameter scans: the grid (parsing, spacing, order, rejected definitions),
+ * the checkpoint (records, torn lines, resumption), the table (grid order,
+ * failed points, slices and their merge), and the program: threads, MPI
+ * ranks and an interrupted run all write the same bytes, bad grids are
+ * refused before any work, and scan values equal those of single runs.
+ *
+ * Library tests use a toy evaluator (cheap closed forms of the varied
+ * hubble_h) so that they exercise the scan machinery, not the physics; the
+ * program tests run the real evaluator on params/reference.cfg with a
+ * coarse history (thermal.grid_points = 1000) to stay quick.
+ */
+#include <criterion/criterion.h>
+#include <criterion/logging.h>
+#include <dirent.h>
+#include <errno.h>
+#include <fcntl.h>
+#include <gsl/gsl_errno.h>
+#include <math.h>
+#include <signal.h>
+#include <spawn.h>
+#include <stdio.h>
+#include <stdlib.h>
+#include <string.h>
+#include <sys/stat.h>
+#include <sys/wait.h>
+#include <time.h>
+#include <unistd.h>
+
+#include "jeansgrow/jeansgrow.h"
+
+extern char **environ;
+
+#define REFERENCE JG_SOURCE_DIR "/params/reference.cfg"
+#define COARSE "thermal.grid_points=1000"
+
+static void quiet_gsl(void) { gsl_set_error_handler_off(); }
+TestSuite(scan, .init = quiet_gsl);
+
+/* ---- helpers ------------------------------------------------------------- */
+
+static char *read_file(const char *path) {
+  FILE *f = fopen(path, "rb");
+  if (!f) return NULL;
+  size_t cap = 1 << 16, len = 0, got;
+  char *buf = malloc(cap);
+  cr_assert_not_null(buf);
+  while ((got = fread(buf + len, 1, cap - len - 1, f)) > 0) {
+    len += got;
+    if (cap - len < 2) {
+      buf = realloc(buf, cap *= 2);
+      cr_assert_not_null(buf);
+    }
+  }
+  fclose(f);
+  buf[len] = '\0';
+  return buf;
+}
+
+static void write_file(const char *path, const char *text) {
+  FILE *f = fopen(path, "w");
+  cr_assert_not_null(f, "cannot write %s", path);
+  fputs(text, f);
+  cr_assert_eq(fclose(f), 0);
+}
+
+static int exists(const char *path) {
+  struct stat sb;
+  return stat(path, &sb) == 0;
+}
+
+static void make_dir(char *dir, size_t size) {
+  snprintf(dir, size, "/tmp/jg_scan_test_XXXXXX");
+  cr_assert_not_null(mkdtemp(dir), "mkdtemp: %s", strerror(errno));
+}
+
+static int count_entries(const char *dir) {
+  DIR *d = opendir(dir);
+  cr_assert_not_null(d);
+  int n = 0;
+  struct dirent *e;
+  while ((e = readdir(d)) != NULL) n += strcmp(e->d_name, ".") && strcmp(e->d_name, "..");
+  closedir(d);
+  return n;
+}
+
+static void remove_dir(const char *dir) {
+  DIR *d = opendir(dir);
+  if (!d) return;
+  struct dirent *e;
+  while ((e = readdir(d)) != NULL) {
+    if (!strcmp(e->d_name, ".") || !strcmp(e->d_name, "..")) continue;
+    char path[4096];
+    snprintf(path, sizeof path, "%s/%s", dir, e->d_name);
+    unlink(path);
+  }
+  closedir(d);
+  rmdir(dir);
+}
+
+static void path_in(char *buf, size_t size, const char *dir, const char *name) {
+  snprintf(buf, size, "%s/%s", dir, name);
+}
+
+/* ---- the toy evaluator ---------------------------------------------------- */
+
+/* Closed forms of h = cosmology.hubble_h, with h / 3 so that the exact
+ * round trip of values that no short decimal holds is exercised. It fails
+ * numerically above h = 0.85 and returns a NaN below h = 0.55: both must
+ * become failed points. */
+static const char *const toy_point_columns[] = {"h_squared"};
+static const char *const toy_redshift_columns[] = {"h_times_1pz", "h_third[km]"};
+
+static jg_status toy_evaluate(const jg_params *p, double *point_values, double *redshift_values,
+                              void *workspace, jg_error *err) {
+  (void)workspace;
+  const double h = p->cosmology.hubble_h;
+  if (h > 0.85) return JG_FAIL(err, JG_ENUMERIC, "toy: no convergence at h = %g", h);
+  point_values[0] = h < 0.55 ? NAN : h * h;
+  for (int j = 0; j < p->output.n_redshifts; j++) {
+    redshift_values[2 * j] = h * (1.0 + p->output.redshifts[j]);
+    redshift_values[2 * j + 1] = h / 3.0;
+  }
+  return JG_OK;
+}
+
+static const jg_scan_evaluator toy = {"toy", 1, toy_point_columns, 2, toy_redshift_columns,
+                                      NULL, NULL, NULL, toy_evaluate};
+
+static void toy_params(jg_params *p) {
+  jg_params_set_defaults(p);
+  p->output.n_redshifts = 3;
+  p->output.redshifts[0] = 1000.0;
+  p->output.redshifts[1] = 100.0;
+  p->output.redshifts[2] = 10.0;
+}
+
+/* A scan of toy over hubble_h (first axis) and helium_mass_fraction. */
+static jg_scan *toy_scan(const char *hubble_axis, int part, int parts) {
+  jg_params p;
+  toy_params(&p);
+  jg_scan_grid g = {0};
+  jg_error err;
+  jg_error_clear(&err);
+  cr_assert_eq(jg_scan_grid_parse(&g, hubble_axis, "test", &err), JG_OK, "%s", err.message);
+  cr_assert_eq(jg_scan_grid_parse(&g, "cosmology.helium_mass_fraction=[0.24, 0.25]", "test", &err),
+               JG_OK, "%s", err.message);
+  jg_scan *s = NULL;
+  cr_assert_eq(jg_scan_new(&p, &g, &toy, part, parts, &s, &err), JG_OK, "%s", err.message);
+  jg_scan_grid_clear(&g);
+  return s;
+}
+
+/* The table of `s` as text, computed on `threads` threads from a fresh
+ * anonymous checkpoint. */
+static char *toy_table(const jg_scan *s, int threads) {
+  jg_error err;
+  jg_error_clear(&err);
+  jg_scan_checkpoint *c = NULL;
+  cr_assert_eq(jg_scan_checkpoint_open(s, NULL, 0, &c, &err), JG_OK, "%s", err.message);
+  cr_assert_eq(jg_scan_run(s, c, threads, NULL, NULL, &err), JG_OK, "%s", err.message);
+  char *text = NULL;
+  size_t size = 0;
+  FILE *f = open_memstream(&text, &size);
+  cr_assert_eq(jg_scan_write_table(s, c, f, &err), JG_OK, "%s", err.message);
+  fclose(f);
+  jg_scan_checkpoint_close(c, 1);
+  return text;
+}
+
+/* Does a data row (not a # line) contain `word`? */
+static int rows_contain(const char *text, const char *word) {
+  for (const char *line = text; *line;) {
+    const char *nl = strchr(line, '\n');
+    size_t len = nl ? (size_t)(nl - line) : strlen(line);
+    if (*line != '#') {
+      char *copy = strndup(line, len);
+      cr_assert_not_null(copy);
+      int hit = strstr(copy, word) != NULL;
+      free(copy);
+      if (hit) return 1;
+    }
+    if (!nl) break;
+    line = nl + 1;
+  }
+  return 0;
+}
+
+static int count_data_rows(const char *text) {
+  int n = 0;
+  for (const char *line = text; *line;) {
+    if (*line != '#') n++;
+    const char *nl = strchr(line, '\n');
+    if (!nl) break;
+    line = nl + 1;
+  }
+  return n;
+}
+
+/* ---- the grid ------------------------------------------------------------ */
+
+Test(scan, linear_and_log_axes_hit_their_ends_and_spacing) {
+  jg_scan_grid g = {0};
+  jg_error err;
+  jg_error_clear(&err);
+  cr_assert_eq(jg_scan_grid_parse(&g, "cosmology.hubble_h=0.6:0.8:5", NULL, &err), JG_OK, "%s",
+               err.message);
+  cr_assert_eq(jg_scan_grid_parse(&g, "cosmology.baryon_density_h2 = 0.001:0.1:3:log", NULL, &err),
+               JG_OK, "%s", err.message);
+  const jg_scan_axis *lin = &g.axes[0], *lg = &g.axes[1];
+  cr_assert_eq(lin->count, 5);
+  /* The ends are exactly the numbers typed; inner points within rounding. */
+  cr_assert_eq(lin->values[0], 0.6);
+  cr_assert_eq(lin->values[4], 0.8);
+  /* Inner values are the decimals a user would type (15 digits). */
+  const double typed[5] = {0.6, 0.65, 0.7, 0.75, 0.8};
+  for (int i = 0; i < 5; i++)
+    cr_assert_eq(lin->values[i], typed[i], "linear value %d is %.17g", i, lin->values[i]);
+  cr_assert_eq(lg->spacing, JG_SCAN_LOG);
+  cr_assert_eq(lg->values[0], 0.001);
+  cr_assert_eq(lg->values[2], 0.1);
+  cr_assert_eq(lg->values[1], 0.01, "log midpoint is the geometric mean, %.17g", lg->values[1]);
+  jg_scan_grid_clear(&g);
+  /* A linear value that is zero but for rounding is zero. */
+  cr_assert_eq(jg_scan_grid_parse(&g, "cosmology.curvature_omega=-0.1:0.2:4", NULL, &err), JG_OK);
+  cr_assert_eq(g.axes[0].values[1], 0.0, "got %.17g", g.axes[0].values[1]);
+  cr_assert_eq(g.axes[0].values[2], 0.1, "got %.17g", g.axes[0].values[2]);
+  cr_assert_eq(jg_scan_grid_parse(&g, "cosmology.hubble_h=0.6:0.8:5", NULL, &err), JG_OK);
+  cr_assert_eq(jg_scan_grid_parse(&g, "cosmology.baryon_density_h2=0.001:0.1:3:log", NULL, &err), JG_OK);
+  cr_assert_eq(jg_scan_grid_points(&g), 4 * 5 * 3);
+  jg_scan_grid_clear(&g);
+  cr_assert_eq(g.n_axes, 0);
+}
+
+Test(scan, explicit_list_keeps_its_order) {
+  jg_scan_grid g = {0};
+  jg_error err;
+  jg_error_clear(&err);
+  cr_assert_eq(jg_scan_grid_parse(&g, "cosmology.hubble_h=[0.8, 0.6,0.7]", NULL, &err), JG_OK,
+               "%s", err.message);
+  cr_assert_eq(g.axes[0].spacing, JG_SCAN_LIST);
+  cr_assert_eq(g.axes[0].count, 3);
+  cr_assert_eq(g.axes[0].values[0], 0.8);
+  cr_assert_eq(g.axes[0].values[1], 0.6);
+  cr_assert_eq(g.axes[0].values[2], 0.7);
+  jg_scan_grid_clear(&g);
+}
+
+Test(scan, points_run_with_the_first_axis_slowest) {
+  jg_scan_grid g = {0};
+  jg_error err;
+  jg_error_clear(&err);
+  cr_assert_eq(jg_scan_grid_parse(&g, "cosmology.hubble_h=[0.6, 0.7]", NULL, &err), JG_OK);
+  cr_assert_eq(jg_scan_grid_parse(&g, "cosmology.helium_mass_fraction=[0.23, 0.24, 0.25]", NULL,
+                                  &err), JG_OK);
+  const double expect[6][2] = {{0.6, 0.23}, {0.6, 0.24}, {0.6, 0.25},
+                               {0.7, 0.23}, {0.7, 0.24}, {0.7, 0.25}};
+  for (int i = 0; i < 6; i++) {
+    double v[2];
+    jg_scan_grid_values(&g, i, v);
+    cr_assert(v[0] == expect[i][0] && v[1] == expect[i][1], "point %d is (%g, %g)", i, v[0], v[1]);
+    jg_params p;
+    jg_params_set_defaults(&p);
+    cr_assert_eq(jg_scan_grid_apply(&g, i, &p, &err), JG_OK);
+    cr_assert(p.cosmology.hubble_h == expect[i][0] &&
+              p.cosmology.helium_mass_fraction == expect[i][1]);
+  }
+  jg_scan_grid_clear(&g);
+}
+
+/* Each bad definition is refused with JG_EINVAL, a message that says what
+ * is wrong, and the grid left as it was. */
+Test(scan, invalid_axis_definitions_are_refused_with_the_reason) {
+  static const struct {
+    const char *text, *reason;
+  } cases[] = {
+      {"cosmology.hubble_h=0.6:0.8:0", "the number of values N must be at least 1 (got 0)"},
+      {"cosmology.hubble_h=0.6:0.8:-2", "the number of values N must be at least 1 (got -2)"},
+      {"cosmology.hubble_h=0.8:0.6:3", "FROM = 0.8 is above TO = 0.6"},
+      {"cosmology.hubble_h=0.8:0.6:3:log", "FROM = 0.8 is above TO = 0.6"},
+      {"cosmology.curvature_omega=-0.1:0.1:3:log", "log spacing needs 0 < FROM <= TO (got FROM = -0.1)"},
+      {"cosmology.curvature_omega=0:0.1:3:log", "log spacing needs 0 < FROM <= TO (got FROM = 0)"},
+      {"cosmology.hubble_h=0.7:0.8:1", "N = 1 needs FROM = TO"},
+      {"cosmology.hubble_h=0.6:0.8:2.5", "N must be a whole number of values (got '2.5')"},
+      {"cosmology.hubble_h=0.6:inf:3", "FROM and TO must be finite numbers"},
+      {"cosmology.hubble_h=0.6:0.8:3:cubic", "the spacing must be 'log' or 'linear' (got 'cubic')"},
+      {"cosmology.hubble_h=0.6:0.8", "expected KEY=FROM:TO:N"},
+      {"cosmology.hubble_h", "expected KEY=FROM:TO:N"},
+      {"=0.6:0.8:3", "no key before '='"},
+      {"cosmology.hubble_h=[]", "the list of values is empty"},
+      {"cosmology.hubble_h=[0.6, seven]", "element 2 of the list is not a number ('seven')"},
+      {"cosmology.hubble_h=[0.6, 0.7", "a list is written [V1, V2, ...]"},
+      {"cosmology.hubble=0.6:0.8:3", "unknown key 'cosmology.hubble' (did you mean 'cosmology.hubble_h'?)"},
+      {"perturbations.sound_speed=0:1:2", "perturbations.sound_speed is not a single number"},
+      {"output.redshifts=10:20:2", "output.redshifts is not a single number"},
+      {"thermal.grid_points=1000:2000:4", "thermal.grid_points takes whole numbers only (got 1333.3333333333301) (value 2 of 4)"},
+      {"cosmology.helium_mass_fraction=0.2:0.3:3", "cosmology.helium_mass_fraction is varied twice"},
+  };
+  for (size_t i = 0; i < sizeof cases / sizeof cases[0]; i++) {
+    jg_scan_grid g = {0};
+    jg_error err;
+    jg_error_clear(&err);
+    cr_assert_eq(jg_scan_grid_parse(&g, "cosmology.helium_mass_fraction=[0.24]", NULL, &err), JG_OK);
+    jg_status st = jg_scan_grid_parse(&g, cases[i].text, "--vary", &err);
+    cr_expect_eq(st, JG_EINVAL, "'%s' was accepted", cases[i].text);
+    cr_expect(strstr(err.message, cases[i].reason) != NULL, "'%s': message '%s' lacks '%s'",
+              cases[i].text, err.message, cases[i].reason);
+    cr_expect(strncmp(err.message, "--vary ", 7) == 0, "'%s': message '%s' lacks its origin",
+              cases[i].text, err.message);
+    cr_expect_eq(g.n_axes, 1, "'%s' changed the grid", cases[i].text);
+    jg_scan_grid_clear(&g);
+  }
+}
+
+Test(scan, integer_keys_take_whole_grid_values) {
+  jg_scan_grid g = {0};
+  jg_error err;
+  jg_error_clear(&err);
+  cr_assert_eq(jg_scan_grid_parse(&g, "thermal.grid_points=1000:2000:3", NULL, &err), JG_OK, "%s",
+               err.message);
+  jg_params p;
+  jg_params_set_defaults(&p);
+  cr_assert_eq(jg_scan_grid_apply(&g, 1, &p, &err), JG_OK);
+  cr_assert_eq(p.thermal.grid_points, 1500);
+  jg_scan_grid_clear(&g);
+  cr_assert(jg_params_key_is_numeric("thermal.grid_points"));
+  cr_assert(jg_params_key_is_numeric("cosmology.hubble_h"));
+  cr_assert(!jg_params_key_is_numeric("perturbations.k_values"));
+  cr_assert(!jg_params_key_is_numeric("perturbations.sound_speed"));
+  cr_assert(!jg_params_key_is_numeric("cosmology.nonsense"));
+  cr_assert_eq(jg_params_set_number(&p, "thermal.grid_points", 2.5, &err), JG_EINVAL);
+  cr_assert_eq(p.thermal.grid_points, 1500, "a refused value must leave the key as it was");
+}
+
+Test(scan, scan_group_of_a_file_gives_the_command_line_grid) {
+  char dir[64], cfg[128];
+  make_dir(dir, sizeof dir);
+  path_in(cfg, sizeof cfg, dir, "scan.cfg");
+  write_file(cfg, "cosmology: { hubble_h = 0.7; baryon_density_h2 = 0.022; cdm_density_h2 = 0.12; };\n"
+                  "scan:\n{\n  vary = (\n"
+                  "    { key = \"cosmology.baryon_density_h2\"; from = 0.01; to = 0.04; count = 4;"
+                  " spacing = \"log\"; },\n"
+                  "    { key = \"cosmology.hubble_h\"; values = [0.6, 0.7]; },\n"
+                  "    \"thermal.recombination_fudge=1.0:1.2:3\"\n  );\n};\n");
+  jg_scan_grid from_file = {0}, from_text = {0};
+  jg_error err;
+  jg_error_clear(&err);
+  cr_assert_eq(jg_scan_grid_read_file(&from_file, cfg, &err), JG_OK, "%s", err.message);
+  cr_assert_eq(jg_scan_grid_parse(&from_text, "cosmology.baryon_density_h2=0.01:0.04:4:log", NULL, &err), JG_OK);
+  cr_assert_eq(jg_scan_grid_parse(&from_text, "cosmology.hubble_h=[0.6,0.7]", NULL, &err), JG_OK);
+  cr_assert_eq(jg_scan_grid_parse(&from_text, "thermal.recombination_fudge=1.0:1.2:3", NULL, &err), JG_OK);
+  cr_assert_eq(from_file.n_axes, 3);
+  for (int a = 0; a < 3; a++) {
+    cr_assert_str_eq(from_file.axes[a].key, from_text.axes[a].key);
+    cr_assert_eq(from_file.axes[a].count, from_text.axes[a].count);
+    cr_assert_eq(memcmp(from_file.axes[a].values, from_text.axes[a].values,
+                        sizeof(double) * (size_t)from_text.axes[a].count), 0);
+  }
+  /* The loader of single runs accepts the file and ignores the scan group. */
+  jg_params p;
+  cr_assert_eq(jg_params_load(cfg, NULL, 0, &p, &err), JG_OK, "%s", err.message);
+  cr_assert_eq(p.cosmology.hubble_h, 0.7);
+
+  /* A bad element names the file, its line and the element. */
+  write_file(cfg, "cosmology: { hubble_h = 0.7; baryon_density_h2 = 0.022; cdm_density_h2 = 0.12; };\n"
+                  "scan: {\n  vary = (\n    { key = \"cosmology.hubble_h\"; from = 0.6; to = 0.8;"
+                  " count = 0; }\n  );\n};\n");
+  jg_scan_grid bad = {0};
+  cr_assert_eq(jg_scan_grid_read_file(&bad, cfg, &err), JG_EINVAL);
+  char expect[256];
+  snprintf(expect, sizeof expect, "%s:4: scan.vary[0]: the number of values N must be at least 1 "
+           "(got 0)", cfg);
+  cr_assert_str_eq(err.message, expect);
+  cr_assert_eq(bad.n_axes, 0);
+  write_file(cfg, "scan: { vary = ( \"cosmology.hubble_h=0.6:0.8:3\" ); steps = 4; };\n");
+  cr_assert_eq(jg_scan_grid_read_file(&bad, cfg, &err), JG_ECONFIG);
+  cr_assert(strstr(err.message, "unknown key 'scan.steps'"), "%s", err.message);
+  jg_scan_grid_clear(&from_file);
+  jg_scan_grid_clear(&from_text);
+  remove_dir(dir);
+}
+
+Test(scan, a_grid_point_with_an_impossible_model_is_refused_up_front) {
+  jg_params p;
+  jg_params_set_defaults(&p);
+  jg_scan_grid g = {0};
+  jg_error err;
+  jg_error_clear(&err);
+  /* w0 = -3 with Omega_k = -0.9 makes H^2 negative at late times (the
+   * background check); h = 7 is outside the documented range (the params
+   * check). Both sit at the last grid point. */
+  cr_assert_eq(jg_scan_grid_parse(&g, "cosmology.de_w0=[-1.0, -3.0]", NULL, &err), JG_OK);
+  cr_assert_eq(jg_scan_grid_parse(&g, "cosmology.curvature_omega=[0.0, -0.9]", NULL, &err), JG_OK);
+  jg_scan *s = NULL;
+  cr_assert_eq(jg_scan_new(&p, &g, jg_scan_evaluator_thermal(), 1, 1, &s, &err), JG_EINVAL);
+  cr_assert_null(s);
+  cr_assert(strstr(err.message, "scan point 4 of 4 (cosmology.de_w0 = -3, "
+                                "cosmology.curvature_omega = -0.9) is not a valid model"),
+            "%s", err.message);
+  jg_scan_grid_clear(&g);
+  cr_assert_eq(jg_scan_grid_parse(&g, "cosmology.hubble_h=1:7:3", NULL, &err), JG_OK);
+  cr_assert_eq(jg_scan_new(&p, &g, jg_scan_evaluator_thermal(), 1, 1, &s, &err), JG_EINVAL);
+  cr_assert(strstr(err.message, "scan point 3 of 3 (cosmology.hubble_h = 7)"), "%s", err.message);
+  jg_scan_grid_clear(&g);
+}
+
+/* ---- tables and checkpoints (toy evaluator) ----------------------------- */
+
+Test(scan, table_is_the_same_for_one_and_four_threads) {
+  jg_scan *s = toy_scan("cosmology.hubble_h=0.6:0.8:9", 1, 1);
+  char *one = toy_table(s, 1), *four = toy_table(s, 4);
+  cr_assert_str_eq(one, four);
+  cr_assert_eq(count_data_rows(one), 9 * 2 * 3);
+  free(one);
+  free(four);
+  jg_scan_free(s);
+}
+
+Test(scan, table_rows_hold_varied_values_redshift_and_columns_in_order) {
+  jg_scan *s = toy_scan("cosmology.hubble_h=[0.6, 0.75]", 1, 1);
+  char *t = toy_table(s, 2);
+  cr_assert(strstr(t, "\n# cosmology.hubble_h\tcosmology.helium_mass_fraction\tz\th_squared\t"
+                      "h_times_1pz\th_third[km]\n"), "column line missing:\n%s", t);
+  /* Point 3 of 4 is (0.75, 0.24); its second row is z = 100. */
+  char expect[512];
+  snprintf(expect, sizeof expect, "\n%.10e\t%.10e\t%.10e\t%.10e\t%.10e\t%.10e\n", 0.75, 0.24,
+           100.0, 0.75 * 0.75, 0.75 * 101.0, 0.75 / 3.0);
+  const char *first_row = strstr(t, "\n6.0000000000e-01");
+  const char *row = strstr(t, expect);
+  cr_assert_not_null(row, "row missing:%s\nin\n%s", expect, t);
+  cr_assert(first_row && first_row < row, "rows out of grid order");
+  free(t);
+  jg_scan_free(s);
+}
+
+Test(scan, failed_points_are_listed_and_get_no_rows) {
+  /* 0.5 gives a NaN (below 0.55), 0.9 a numerical failure (above 0.85). */
+  jg_scan *s = toy_scan("cosmology.hubble_h=[0.5, 0.7, 0.9]", 1, 1);
+  char *t = toy_table(s, 2);
+  cr_assert(strstr(t, "\n# failed points: 4\n"), "%s", t);
+  cr_assert(strstr(t, "\n# failed point 1 of 6 (cosmology.hubble_h = 0.5, "
+                      "cosmology.helium_mass_fraction = 0.24): JG_ENUMERIC: h_squared is not "
+                      "finite (nan)\n"), "%s", t);
+  cr_assert(strstr(t, "\n# failed point 6 of 6 (cosmology.hubble_h = 0.9, "
+                      "cosmology.helium_mass_fraction = 0.25): JG_ENUMERIC: toy: no convergence "
+                      "at h = 0.9\n"), "%s", t);
+  cr_assert_eq(count_data_rows(t), 2 * 3, "only the two good points have rows");
+  cr_assert(!rows_contain(t, "nan"), "a NaN reached the table");
+  cr_assert(!rows_contain(t, "inf"), "an Inf reached the table");
+  free(t);
+  jg_scan_free(s);
+}
+
+Test(scan, resumed_checkpoint_with_a_torn_line_gives_the_same_table) {
+  char dir[64], ck[128];
+  make_dir(dir, sizeof dir);
+  path_in(ck, sizeof ck, dir, "t.checkpoint");
+  jg_scan *s = toy_scan("cosmology.hubble_h=0.6:0.8:6", 1, 1);
+  char *whole = toy_table(s, 1);
+
+  jg_error err;
+  jg_error_clear(&err);
+  jg_scan_checkpoint *c = NULL;
+  cr_assert_eq(jg_scan_checkpoint_open(s, ck, 0, &c, &err), JG_OK, "%s", err.message);
+  void *ws = jg_scan_workspace_new(s, &err);
+  double values[16];
+  cr_assert_leq(jg_scan_values_per_point(s), 16);
+  const long long order[] = {7, 2, 11, 0};
+  for (int i = 0; i < 4; i++) {
+    cr_assert_eq(jg_scan_evaluate(s, order[i], ws, values, &err), JG_OK);
+    cr_assert_eq(jg_scan_checkpoint_add(c, order[i], JG_OK, values, NULL, &err), JG_OK);
+  }
+  jg_scan_workspace_free(s, ws);
+  jg_scan_checkpoint_close(c, 0);
+  /* A kill in the middle of the last record: cut into its last line. */
+  struct stat sb;
+  cr_assert_eq(stat(ck, &sb), 0);
+  cr_assert_eq(truncate(ck, sb.st_size - 10), 0);
+
+  cr_assert_eq(jg_scan_checkpoint_open(s, ck, 1, &c, &err), JG_OK, "%s", err.message);
+  cr_assert_eq(jg_scan_checkpoint_resumed(c), 3, "the torn record must be dropped");
+  cr_assert(jg_scan_checkpoint_has(c, 7) && jg_scan_checkpoint_has(c, 2) &&
+            jg_scan_checkpoint_has(c, 11) && !jg_scan_checkpoint_has(c, 0));
+  cr_assert_eq(jg_scan_run(s, c, 2, NULL, NULL, &err), JG_OK, "%s", err.message);
+  char *text = NULL;
+  size_t size = 0;
+  FILE *f = open_memstream(&text, &size);
+  cr_assert_eq(jg_scan_write_table(s, c, f, &err), JG_OK, "%s", err.message);
+  fclose(f);
+  jg_scan_checkpoint_close(c, 1);
+  cr_assert_str_eq(text, whole);
+  cr_assert(!exists(ck), "the checkpoint must go after success");
+  free(text);
+  free(whole);
+  jg_scan_free(s);
+  remove_dir(dir);
+}
+
+Test(scan, checkpoint_of_another_scan_or_without_resume_is_refused) {
+  char dir[64], ck[128];
+  make_dir(dir, sizeof dir);
+  path_in(ck, sizeof ck, dir, "t.checkpoint");
+  jg_scan *a = toy_scan("cosmology.hubble_h=0.6:0.8:3", 1, 1);
+  jg_scan *b = toy_scan("cosmology.hubble_h=0.6:0.8:4", 1, 1);
+  jg_error err;
+  jg_error_clear(&err);
+  jg_scan_checkpoint *c = NULL;
+  cr_assert_eq(jg_scan_checkpoint_open(a, ck, 0, &c, &err), JG_OK, "%s", err.message);
+  jg_scan_checkpoint_close(c, 0);
+  char *before = read_file(ck);
+
+  cr_assert_eq(jg_scan_checkpoint_open(a, ck, 0, &c, &err), JG_EINVAL);
+  cr_assert(strstr(err.message, "exists: a run of this output was interrupted"), "%s", err.message);
+  cr_assert_eq(jg_scan_checkpoint_open(b, ck, 1, &c, &err), JG_EINVAL);
+  cr_assert(strstr(err.message, "belongs to a different scan or slice"), "%s", err.message);
+  char *after = read_file(ck);
+  cr_assert_str_eq(before, after, "a refused checkpoint must be left untouched");
+  free(before);
+  free(after);
+  jg_scan_free(a);
+  jg_scan_free(b);
+  remove_dir(dir);
+}
+
+Test(scan, slices_merge_into_the_whole_table) {
+  char dir[64];
+  make_dir(dir, sizeof dir);
+  jg_scan *whole_scan = toy_scan("cosmology.hubble_h=[0.5, 0.6, 0.7, 0.8, 0.9]", 1, 1);
+  char *whole = toy_table(whole_scan, 2);
+  jg_scan_free(whole_scan);
+  char paths[3][128];
+  const char *order[3];
+  for (int i = 0; i < 3; i++) {
+    jg_scan *s = toy_scan("cosmology.hubble_h=[0.5, 0.6, 0.7, 0.8, 0.9]", i + 1, 3);
+    char *t = toy_table(s, 1);
+    char name[32];
+    snprintf(name, sizeof name, "part%d.txt", i + 1);
+    path_in(paths[i], sizeof paths[i], dir, name);
+    write_file(paths[i], t);
+    free(t);
+    jg_scan_free(s);
+  }
+  order[0] = paths[2], order[1] = paths[0], order[2] = paths[1]; /* any order */
+  char *merged = NULL;
+  size_t size = 0;
+  FILE *f = open_memstream(&merged, &size);
+  jg_error err;
+  jg_error_clear(&err);
+  cr_assert_eq(jg_scan_merge(order, 3, f, &err), JG_OK, "%s", err.message);
+  fclose(f);
+  cr_assert_str_eq(merged, whole);
+  free(merged);
+
+  /* A missing slice, a slice given twice, or a slice of another scan. */
+  f = open_memstream(&merged, &size);
+  cr_assert_eq(jg_scan_merge(order, 2, f, &err), JG_EINVAL);
+  cr_assert(strstr(err.message, "a merge takes all 3 slices"), "%s", err.message);
+  const char *twice[3] = {paths[0], paths[1], paths[1]};
+  cr_assert_eq(jg_scan_merge(twice, 3, f, &err), JG_EINVAL);
+  cr_assert(strstr(err.message, "are both slice 2 of 3"), "%s", err.message);
+  jg_scan *other = toy_scan("cosmology.hubble_h=[0.5, 0.6, 0.7, 0.8, 0.95]", 3, 3);
+  char *t = toy_table(other, 1);
+  write_file(paths[2], t);
+  free(t);
+  jg_scan_free(other);
+  cr_assert_eq(jg_scan_merge(order, 3, f, &err), JG_EINVAL);
+  cr_assert(strstr(err.message, "belong to different scans"), "%s", err.message);
+  fclose(f);
+  free(merged);
+  free(whole);
+  remove_dir(dir);
+}
+
+/* ---- the program --------------------------------------------------------- */
+
+typedef struct outcome {
+  int status;
+  char *err; /* what it printed on stderr */
+} outcome;
+
+/* Start `argv0 args...` with stdout and stderr in files of `dir`. */
+static pid_t start(const char *dir, const char *const *args) {
+  char *argv[64];
+  int n = 0;
+  for (int i = 0; args[i]; i++) {
+    cr_assert_lt(n, 63);
+    argv[n++] = strdup(args[i]);
+  }
+  argv[n] = NULL;
+  char out[256], err[256];
+  path_in(out, sizeof out, dir, ".stdout");
+  path_in(err, sizeof err, dir, ".stderr");
+  posix_spawn_file_actions_t fa;
+  posix_spawn_file_actions_init(&fa);
+  posix_spawn_file_actions_addopen(&fa, 0, "/dev/null", O_RDONLY, 0);
+  posix_spawn_file_actions_addopen(&fa, 1, out, O_WRONLY | O_CREAT | O_TRUNC, 0600);
+  posix_spawn_file_actions_addopen(&fa, 2, err, O_WRONLY | O_CREAT | O_TRUNC, 0600);
+  pid_t pid;
+  int rc = posix_spawn(&pid, argv[0], &fa, NULL, argv, environ);
+  posix_spawn_file_actions_destroy(&fa);
+  for (int i = 0; i < n; i++) free(argv[i]);
+  cr_assert_eq(rc, 0, "cannot start %s: %s", args[0], strerror(rc));
+  return pid;
+}
+
+static outcome finish(const char *dir, pid_t pid) {
+  outcome o;
+  pid_t w;
+  do w = waitpid(pid, &o.status, 0);
+  while (w < 0 && errno == EINTR);
+  cr_assert_eq(w, pid);
+  char path[256];
+  path_in(path, sizeof path, dir, ".stderr");
+  o.err = read_file(path);
+  unlink(path);
+  path_in(path, sizeof path, dir, ".stdout");
+  unlink(path);
+  cr_assert_not_null(o.err);
+  return o;
+}
+
+static outcome run_program(const char *dir, const char *const *args) {
+  return finish(dir, start(dir, args));
+}
+
+static int exit_code(const outcome *o) {
+  return WIFEXITED(o->status) ? WEXITSTATUS(o->status) : -1;
+}
+
+static double seconds_now(void) {
+  struct timespec ts;
+  clock_gettime(CLOCK_MONOTONIC, &ts);
+  return (double)ts.tv_sec + 1e-9 * (double)ts.tv_nsec;
+}
+
+#define SCAN_ARGS(out)                                                                   \
+  JG_PROGRAM, "scan", REFERENCE, "--vary", "cosmology.baryon_density_h2=0.01:0.04:4:log", \
+      "--vary", "cosmology.hubble_h=[0.6,0.7]", "--set", COARSE, "--set",                  \
+      "output.redshifts=[1000.0, 200.0, 50.0, 10.0]", "-o", out
+
+Test(scan, program_writes_the_same_file_with_one_and_two_threads) {
+  char dir[64], f1[128], f2[128];
+  make_dir(dir, sizeof dir);
+  path_in(f1, sizeof f1, dir, "one.txt");
+  path_in(f2, sizeof f2, dir, "two.txt");
+  const char *a1[] = {SCAN_ARGS(f1), "--threads", "1", NULL};
+  const char *a2[] = {SCAN_ARGS(f2), "--threads", "2", NULL};
+  outcome o1 = run_program(dir, a1), o2 = run_program(dir, a2);
+  cr_assert_eq(exit_code(&o1), 0, "%s", o1.err);
+  cr_assert_eq(exit_code(&o2), 0, "%s", o2.err);
+  char *t1 = read_file(f1), *t2 = read_file(f2);
+  cr_assert(t1 && t2);
+  cr_assert_str_eq(t1, t2);
+  cr_assert_eq(count_data_rows(t1), 8 * 4);
+  char ck[160];
+  snprintf(ck, sizeof ck, "%s.checkpoint", f1);
+  cr_assert(!exists(ck), "the checkpoint must go after success");
+  cr_assert(strstr(o1.err, "8 points x 4 redshifts"), "summary line: %s", o1.err);
+  free(t1), free(t2), free(o1.err), free(o2.err);
+  remove_dir(dir);
+}
+
+Test(scan, program_on_two_mpi_ranks_writes_the_single_process_file) {
+#ifndef JG_TEST_MPIEXEC
+  cr_skip_test("jeansgrow was built without MPI (JG_WITH_MPI off or MPI not found)");
+#else
+  char dir[64], f1[128], f2[128];
+  make_dir(dir, sizeof dir);
+  path_in(f1, sizeof f1, dir, "serial.txt");
+  path_in(f2, sizeof f2, dir, "mpi.txt");
+  /* Open MPI refuses root without both variables, and 2 ranks may exceed
+   * the slots of a small CI machine (docs: c-practices.md 4.5). */
+  setenv("OMPI_ALLOW_RUN_AS_ROOT", "1", 1);
+  setenv("OMPI_ALLOW_RUN_AS_ROOT_CONFIRM", "1", 1);
+  setenv("OMPI_MCA_rmaps_base_oversubscribe", "1", 1);
+  const char *a1[] = {SCAN_ARGS(f1), "--threads", "1", NULL};
+  const char *a2[] = {JG_TEST_MPIEXEC, JG_TEST_MPI_NP_FLAG, "2", SCAN_ARGS(f2), NULL};
+  outcome o1 = run_program(dir, a1), o2 = run_program(dir, a2);
+  cr_assert_eq(exit_code(&o1), 0, "%s", o1.err);
+  cr_assert_eq(exit_code(&o2), 0, "mpirun: %s", o2.err);
+  cr_assert(strstr(o2.err, "2 MPI ranks"), "the run did not use two ranks: %s", o2.err);
+  char *t1 = read_file(f1), *t2 = read_file(f2);
+  cr_assert(t1 && t2);
+  cr_assert_str_eq(t1, t2);
+  free(t1), free(t2), free(o1.err), free(o2.err);
+  remove_dir(dir);
+#endif
+}
+
+/* A random fraction in [lo, hi) from the system's entropy: the kill should
+ * land anywhere in the run, differently each time; the value is logged so
+ * a failure can be replayed. */
+static double random_fraction(double lo, double hi) {
+  unsigned int r = 0;
+  FILE *f = fopen("/dev/urandom", "rb");
+  cr_assert_not_null(f);
+  cr_assert_eq(fread(&r, sizeof r, 1, f), 1);
+  fclose(f);
+  return lo + (hi - lo) * (double)r / 4294967296.0;
+}
+
+Test(scan, program_killed_at_a_random_moment_then_resumed_writes_the_same_file) {
+  char dir[64], ref[128], out[128], ck[160];
+  make_dir(dir, sizeof dir);
+  path_in(ref, sizeof ref, dir, "reference.txt");
+  path_in(out, sizeof out, dir, "resumed.txt");
+  snprintf(ck, sizeof ck, "%s.checkpoint", out);
+#define KILL_ARGS(o)                                                                       \
+  JG_PROGRAM, "scan", REFERENCE, "--vary", "cosmology.baryon_density_h2=0.015:0.035:16",    \
+      "--vary", "cosmology.cdm_density_h2=[0.11,0.12,0.13]", "--set",                      \
+      "output.redshifts=[1000.0, 200.0, 50.0, 10.0]", "--threads", "2", "-o", o
+  const char *a_ref[] = {KILL_ARGS(ref), NULL};
+  double t0 = seconds_now();
+  outcome o = run_program(dir, a_ref);
+  double duration = seconds_now() - t0;
+  cr_assert_eq(exit_code(&o), 0, "%s", o.err);
+  free(o.err);
+
+  /* The run's own duration sets the range of the delay: this is not a
+   * timing assertion, only aim. */
+  double delay = random_fraction(0.05, 0.95) * duration;
+  cr_log_info("killing after %.3f s of a %.3f s run", delay, duration);
+  const char *a_run[] = {KILL_ARGS(out), NULL};
+  pid_t pid = start(dir, a_run);
+  struct timespec ts = {(time_t)delay, (long)((delay - floor(delay)) * 1e9)};
+  nanosleep(&ts, NULL);
+  kill(pid, SIGKILL);
+  o = finish(dir, pid);
+  if (WIFSIGNALED(o.status))
+    cr_assert(!exists(out), "a killed run must leave no table");
+  free(o.err);
+
+  const char *a_resume[] = {KILL_ARGS(out), "--resume", NULL};
+  o = run_program(dir, a_resume);
+  cr_assert_eq(exit_code(&o), 0, "%s", o.err);
+  char *t_ref = read_file(ref), *t_out = read_file(out);
+  cr_assert(t_ref && t_out);
+  cr_assert_str_eq(t_out, t_ref);
+  cr_assert(!exists(ck), "the checkpoint must go after success");
+  free(t_ref), free(t_out), free(o.err);
+  remove_dir(dir);
+#undef KILL_ARGS
+}
+
+Test(scan, program_refuses_bad_grids_before_any_work) {
+  char dir[64], out[128];
+  make_dir(dir, sizeof dir);
+  path_in(out, sizeof out, dir, "never.txt");
+  static const struct {
+    const char *vary, *set, *message;
+  } cases[] = {
+      {"cosmology.hubble_h=0.6:0.8:0", NULL,
+       "jeansgrow: --vary cosmology.hubble_h=0.6:0.8:0: the number of values N must be at least "
+       "1 (got 0)\n"},
+      {"cosmology.baryon_density_h2=0.04:0.01:3:log", NULL,
+       "jeansgrow: --vary cosmology.baryon_density_h2=0.04:0.01:3:log: FROM = 0.04 is above TO = "
+       "0.01 (reversed range; give the values as a list [...] for a descending order)\n"},
+      {"cosmology.curvature_omega=0:0.1:3:log", NULL,
+       "jeansgrow: --vary cosmology.curvature_omega=0:0.1:3:log: log spacing needs 0 < FROM <= TO "
+       "(got FROM = 0)\n"},
+      {"cosmology.baryon_density=0.01:0.04:3", NULL,
+       "jeansgrow: --vary cosmology.baryon_density=0.01:0.04:3: unknown key "
+       "'cosmology.baryon_density' (did you mean 'cosmology.baryon_density_h2'?)\n"},
+      {"perturbations.sound_speed=0:2:3", NULL,
+       "jeansgrow: --vary perturbations.sound_speed=0:2:3: perturbations.sound_speed is not a "
+       "single number (its type: one of \"fluctuating\", \"isothermal\", \"adiabatic\"); only "
+       "number and integer keys can be varied (jeansgrow keys lists them)\n"},
+      {"output.redshifts=10:20:2", NULL,
+       "jeansgrow: --vary output.redshifts=10:20:2: output.redshifts is not a single number (its "
+       "type: list of numbers); only number and integer keys can be varied (jeansgrow keys lists "
+       "them)\n"},
+      /* Only the last point is impossible: refused all the same, before any. */
+      {"cosmology.de_w0=[-1.0,-3.0]", "cosmology.curvature_omega=-0.9",
+       "jeansgrow: scan point 2 of 2 (cosmology.de_w0 = -3) is not a valid model: cosmology: H^2 "
+       "<= 0"},
+      {"cosmology.hubble_h=0.5:7:3", NULL,
+       "jeansgrow: scan point 3 of 3 (cosmology.hubble_h = 7) is not a valid model: "
+       "cosmology.hubble_h must satisfy 0 < value <= 5 (got 7)\n"},
+  };
+  for (size_t i = 0; i < sizeof cases / sizeof cases[0]; i++) {
+    const char *args[16] = {JG_PROGRAM, "scan", REFERENCE, "--vary", cases[i].vary, "--set",
+                            COARSE, "-o", out};
+    int n = 9;
+    if (cases[i].set) args[n++] = "--set", args[n++] = cases[i].set;
+    args[n] = NULL;
+    outcome o = run_program(dir, args);
+    cr_expect_eq(exit_code(&o), 2, "case %zu: exit %d", i, exit_code(&o));
+    cr_expect(strncmp(o.err, cases[i].message, strlen(cases[i].message)) == 0,
+              "case %zu: got\n%s\nexpected\n%s", i, o.err, cases[i].message);
+    cr_expect_eq(count_entries(dir), 0, "case %zu left a file (output or checkpoint)", i);
+    free(o.err);
+  }
+  /* No varied key at all. */
+  const char *none[] = {JG_PROGRAM, "scan", REFERENCE, "-o", out, NULL};
+  outcome o = run_program(dir, none);
+  cr_expect_eq(exit_code(&o), 2);
+  cr_expect(strstr(o.err, "nothing to vary"), "%s", o.err);
+  cr_expect_eq(count_entries(dir), 0);
+  free(o.err);
+  remove_dir(dir);
+}
+
+/* z_star, z_drag, z_gas_decoupling, x_e and T_gas at z = 100 of every grid
+ * point equal what `jeansgrow epochs` prints for the same --set: the scan
+ * adds no physics of its own. Tolerance 1e-9 relative: epochs prints ten
+ * significant digits (%.10g) and the table eleven (%.10e), so each side
+ * rounds by up to 5e-10. */
+Test(scan, baryon_scan_reproduces_single_runs_point_by_point) {
+  char dir[64], out[128];
+  make_dir(dir, sizeof dir);
+  path_in(out, sizeof out, dir, "baryons.txt");
+  static const char *const values[] = {"0.018", "0.02237", "0.03"};
+  const char *args[] = {JG_PROGRAM, "scan", REFERENCE, "--vary",
+                        "cosmology.baryon_density_h2=[0.018, 0.02237, 0.03]", "--set", COARSE,
+                        "--set", "output.redshifts=[1000.0, 100.0]", "-o", out, NULL};
+  outcome o = run_program(dir, args);
+  cr_assert_eq(exit_code(&o), 0, "%s", o.err);
+  free(o.err);
+  char *table = read_file(out);
+  cr_assert_not_null(table);
+  for (int i = 0; i < 3; i++) {
+    /* The scan's row for z = 100 of point i. */
+    double row[8] = {0};
+    int found = 0;
+    for (const char *line = table; line && *line; line = strchr(line, '\n') ? strchr(line, '\n') + 1 : NULL) {
+      if (*line == '#') continue;
+      double v[9];
+      if (sscanf(line, "%lf %lf %lf %lf %lf %lf %lf %lf %lf", &v[0], &v[1], &v[2], &v[3], &v[4],
+                 &v[5], &v[6], &v[7], &v[8]) != 9)
+        continue;
+      if (v[0] == strtod(values[i], NULL) && v[1] == 100.0) {
+        memcpy(row, v + 1, sizeof row);
+        found = 1;
+      }
+    }
+    cr_assert(found, "no z = 100 row for baryon density %s", values[i]);
+    char set[64], ep[128];
+    snprintf(set, sizeof set, "cosmology.baryon_density_h2=%s", values[i]);
+    path_in(ep, sizeof ep, dir, "epochs.txt");
+    const char *e_args[] = {JG_PROGRAM, "epochs", REFERENCE, "--set", COARSE, "--set", set,
+                            "-o", ep, NULL};
+    o = run_program(dir, e_args);
+    cr_assert_eq(exit_code(&o), 0, "%s", o.err);
+    free(o.err);
+    char *epochs = read_file(ep);
+    static const struct {
+      const char *name;
+      int column; /* in row[]: z, z_star, z_drag, z_gas_decoupling, T_gas, x_e, k_J, M_J */
+    } pairs[] = {{"z_star", 1}, {"z_drag", 2}, {"z_gas_decoupling", 3}, {"T_gas_z100", 4},
+                 {"x_e_z100", 5}};
+    for (size_t k = 0; k < sizeof pairs / sizeof pairs[0]; k++) {
+      char key[64];
+      snprintf(key, sizeof key, "\n%s\t", pairs[k].name);
+      const char *at = strstr(epochs, key);
+      cr_assert_not_null(at, "epochs printed no %s", pairs[k].name);
+      double single = strtod(at + strlen(key), NULL);
+      double scanned = row[pairs[k].column];
+      cr_expect(fabs(scanned - single) <= 1e-9 * fabs(single),
+                "Omega_b h^2 = %s: %s scan %.12g, single run %.12g", values[i], pairs[k].name,
+                scanned, single);
+    }
+    free(epochs);
+    unlink(ep);
+  }
+  free(table);
+  remove_dir(dir);
+}
+
+Test(scan, program_reports_a_failed_point_and_keeps_the_others) {
+  char dir[64], out[128];
+  make_dir(dir, sizeof dir);
+  path_in(out, sizeof out, dir, "failing.txt");
+  /* Omega_b h^2 = 1e-5 leaves too few electrons for the optical depth to
+   * reach 1 after z = 8000: z_star has no solution (a property of the
+   * model, not of the numerics). */
+  const char *args[] = {JG_PROGRAM, "scan", REFERENCE, "--vary",
+                        "cosmology.baryon_density_h2=[0.00001, 0.0224]", "--set", COARSE, "--set",
+                        "output.redshifts=[100.0, 10.0]", "-o", out, NULL};
+  outcome o = run_program(dir, args);
+  cr_assert_eq(exit_code(&o), 1, "a failed point must make the exit status 1: %s", o.err);
+  cr_assert(strstr(o.err, "jeansgrow scan: point 1 of 2 (cosmology.baryon_density_h2 = 1e-05) "
+                          "failed: z_star: no crossing"), "%s", o.err);
+  cr_assert(strstr(o.err, "1 failed"), "summary: %s", o.err);
+  char *t = read_file(out);
+  cr_assert_not_null(t, "the table is written despite the failure");
+  cr_assert(strstr(t, "\n# failed points: 1\n# failed point 1 of 2 (cosmology.baryon_density_h2 = "
+                      "1e-05): JG_ENUMERIC: z_star: no crossing"), "%s", t);
+  cr_assert_eq(count_data_rows(t), 2);
+  cr_assert(!rows_contain(t, "nan"));
+  free(t), free(o.err);
+  remove_dir(dir);
+}
+
+Test(scan, program_slices_merge_into_the_whole_file) {
+  char dir[64], whole[128], merged[128], parts[3][128];
+  make_dir(dir, sizeof dir);
+  path_in(whole, sizeof whole, dir, "whole.txt");
+  path_in(merged, sizeof merged, dir, "merged.txt");
+  const char *a_whole[] = {SCAN_ARGS(whole), NULL};
+  outcome o = run_program(dir, a_whole);
+  cr_assert_eq(exit_code(&o), 0, "%s", o.err);
+  free(o.err);
+  for (int i = 0; i < 3; i++) {
+    char name[32], part[8];
+    snprintf(name, sizeof name, "part%d.txt", i + 1);
+    snprintf(part, sizeof part, "%d/3", i + 1);
+    path_in(parts[i], sizeof parts[i], dir, name);
+    const char *a_part[] = {SCAN_ARGS(parts[i]), "--part", part, NULL};
+    o = run_program(dir, a_part);
+    cr_assert_eq(exit_code(&o), 0, "%s", o.err);
+    free(o.err);
+  }
+  const char *a_merge[] = {JG_PROGRAM, "merge", merged, parts[1], parts[2], parts[0], NULL};
+  o = run_program(dir, a_merge);
+  cr_assert_eq(exit_code(&o), 0, "%s", o.err);
+  free(o.err);
+  char *tw = read_file(whole), *tm = read_file(merged);
+  cr_assert(tw && tm);
+  cr_assert_str_eq(tm, tw);
+  free(tw), free(tm);
+  const char *a_short[] = {JG_PROGRAM, "merge", merged, parts[0], parts[2], NULL};
+  o = run_program(dir, a_short);
+  cr_assert_eq(exit_code(&o), 2);
+  cr_assert(strstr(o.err, "a merge takes all 3 slices"), "%s", o.err);
+  free(o.err);
+  remove_dir(dir);
+}
+
+/* Every `jeansgrow scales` column of every grid point, as text, equals the
+ * scan's: both format the same doubles with %.10e, so the comparison is
+ * exact. The scan row is: varied value, z, z_star, z_drag, z_gas_decoupling,
+ * then the scales columns after their `z`. */
+static const char *skip_fields(const char *line, int n) {
+  for (int i = 0; i < n && line; i++) {
+    line = strchr(line, '\t');
+    if (line) line++;
+  }
+  return line;
+}
+
+Test(scan, baryon_scan_reproduces_scales_tables_point_by_point) {
+  char dir[64], out[128], single[128];
+  make_dir(dir, sizeof dir);
+  path_in(out, sizeof out, dir, "scan.txt");
+  path_in(single, sizeof single, dir, "scales.txt");
+  static const char *const values[] = {"0.018", "0.03"};
+  const char *args[] = {JG_PROGRAM, "scan", REFERENCE, "--vary",
+                        "cosmology.baryon_density_h2=[0.018, 0.03]", "--set", COARSE,
+                        "--set", "output.redshifts=[500.0, 20.0]", "-o", out, NULL};
+  outcome o = run_program(dir, args);
+  cr_assert_eq(exit_code(&o), 0, "%s", o.err);
+  free(o.err);
+  char *table = read_file(out);
+  cr_assert_not_null(table);
+  int compared = 0;
+  for (int i = 0; i < 2; i++) {
+    char set[64];
+    snprintf(set, sizeof set, "cosmology.baryon_density_h2=%s", values[i]);
+    const char *s_args[] = {JG_PROGRAM, "scales", REFERENCE, "--set", COARSE, "--set", set,
+                            "--set", "output.redshifts=[500.0, 20.0]", "-o", single, NULL};
+    o = run_program(dir, s_args);
+    cr_assert_eq(exit_code(&o), 0, "%s", o.err);
+    free(o.err);
+    char *scales = read_file(single);
+    cr_assert_not_null(scales);
+    for (const char *sl = scales; sl && *sl; sl = strchr(sl, '\n') ? strchr(sl, '\n') + 1 : NULL) {
+      if (*sl == '#' || *sl == '\n') continue;
+      double z = strtod(sl, NULL);
+      const char *s_rest = skip_fields(sl, 1);
+      size_t s_len = strcspn(s_rest, "\n");
+      int matched = 0;
+      for (const char *tl = table; tl && *tl; tl = strchr(tl, '\n') ? strchr(tl, '\n') + 1 : NULL) {
+        if (*tl == '#' || *tl == '\n') continue;
+        if (strtod(tl, NULL) != strtod(values[i], NULL)) continue;
+        if (strtod(skip_fields(tl, 1), NULL) != z) continue;
+        const char *t_rest = skip_fields(tl, 5);
+        size_t t_len = strcspn(t_rest, "\n");
+        cr_expect(t_len == s_len && strncmp(t_rest, s_rest, s_len) == 0,
+                  "Omega_b h^2 = %s, z = %g:\n scan   %.*s\n scales %.*s", values[i], z,
+                  (int)t_len, t_rest, (int)s_len, s_rest);
+        matched = 1;
+        compared++;
+      }
+      cr_expect(matched, "no scan row for Omega_b h^2 = %s, z = %g", values[i], z);
+    }
+    free(scales);
+    unlink(single);
+  }
+  cr_expect_eq(compared, 4, "compared %d rows, expected 4", compared);
+  free(table);
+  remove_dir(dir);
+}
