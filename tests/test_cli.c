@@ -736,3 +736,75 @@ Test(good_runs, sigterm_during_a_run_leaves_no_file, .timeout = 120) {
   run_free(&r);
   remove_dir(dir);
 }
+
+/* ---- the main job and the perturbation tables ----------------------------- */
+
+/* `run` writes its four tables into the folder, each a clean table with the
+ * headline columns of its command, and prints a summary naming them. */
+Test(good_runs, run_writes_four_tables_and_a_summary, .timeout = 120) {
+  char dir[64];
+  make_temp_dir(dir, sizeof dir);
+  char folder[128];
+  snprintf(folder, sizeof folder, "%s/results", dir); /* created by run */
+  const char *args[] = {"run", REFERENCE, "--set", "perturbations.k_count=24",
+                        "-o", folder, NULL};
+  run_result r;
+  run(args, &r);
+  cr_assert(exited_with(&r, 0), "run failed: %s", r.err);
+  cr_expect(strstr(r.out, "z_star = ") && strstr(r.out, "growth.txt"), "summary: %s", r.out);
+  static const struct {
+    const char *file;
+    const char *columns[9];
+    int rows;
+  } expected[] = {
+      {"scales.txt",
+       {"z", "T_gas[K]", "x_e", "k_J[1/Mpc]", "M_J[Msun]", "k_F[1/Mpc]", "M_F[Msun]",
+        "k_half[1/Mpc]", "M_half[Msun]"},
+       8},
+      {"growth.txt",
+       {"z", "k[1/Mpc]", "delta_c", "delta_b", "delta_m", "b_over_c", "rate_c", "rate_b", NULL},
+       8 * 24},
+      {"history.txt", {"z", "x_e", "T_gas[K]", "T_rad[K]", "tau", "visibility", NULL}, -1},
+  };
+  for (size_t i = 0; i < sizeof expected / sizeof expected[0]; i++) {
+    char path[192];
+    snprintf(path, sizeof path, "%s/%s", folder, expected[i].file);
+    char *text = read_text(path);
+    cr_assert_not_null(text, "run wrote no %s", expected[i].file);
+    table t;
+    parse_table(text, &t);
+    for (int c = 0; c < 9 && expected[i].columns[c]; c++)
+      cr_expect(column_index(&t, expected[i].columns[c]) >= 0, "%s has no column %s",
+                expected[i].file, expected[i].columns[c]);
+    if (expected[i].rows > 0)
+      cr_expect_eq(t.n_rows, expected[i].rows, "%s: %d rows", expected[i].file, t.n_rows);
+    table_free(&t);
+    free(text);
+  }
+  char path[192];
+  snprintf(path, sizeof path, "%s/epochs.txt", folder);
+  char *epochs = read_text(path);
+  cr_assert_not_null(epochs);
+  cr_expect(strstr(epochs, "\nz_star\t") != NULL, "epochs.txt has no z_star line");
+  free(epochs);
+  run_free(&r);
+  remove_dir(dir);
+}
+
+/* `run -o` takes a folder: an existing file there is refused before any work. */
+Test(good_runs, run_refuses_a_file_as_its_folder) {
+  char dir[64], file[128];
+  make_temp_dir(dir, sizeof dir);
+  snprintf(file, sizeof file, "%s/not_a_folder", dir);
+  write_text(file, "keep me\n");
+  const char *args[] = {"run", REFERENCE, "-o", file, NULL};
+  run_result r;
+  run(args, &r);
+  cr_expect(exited_with(&r, 2), "exit status");
+  cr_expect(strstr(r.err, "is not a folder") != NULL, "message: %s", r.err);
+  char *kept = read_text(file);
+  cr_expect(kept && strcmp(kept, "keep me\n") == 0, "the file was changed");
+  free(kept);
+  run_free(&r);
+  remove_dir(dir);
+}

@@ -9,12 +9,15 @@
 /* Exit statuses of the program. */
 enum { EXIT_OK = 0, EXIT_RUN_FAILED = 1, EXIT_BAD_INPUT = 2 };
 
+/* What -o names. */
+enum { OUTPUT_NONE = 0, OUTPUT_FILE = 1, OUTPUT_FOLDER = 2 };
+
 typedef struct cli_command {
   const char *name;
   const char *summary;
   const char *usage;   /* after "jeansgrow NAME " */
   const char *details; /* extra --help text, may be NULL */
-  int takes_output;    /* accepts -o */
+  int takes_output;    /* accepts -o: 1 a file, 2 a folder */
   int (*run)(const struct cli_command *cmd, int argc, char **argv);
 } cli_command;
 

@@ -59,8 +59,10 @@ static void print_command_help(const cli_command *cmd) {
   if (cmd->details) printf("\n%s\n", cmd->details);
   printf("\nOptions:\n"
          "  --set KEY=VALUE  override a parameter (libconfig syntax; repeatable)\n");
-  if (cmd->takes_output)
+  if (cmd->takes_output == OUTPUT_FILE)
     printf("  -o, --output FILE  write the table to FILE (atomically) instead of stdout\n");
+  else if (cmd->takes_output == OUTPUT_FOLDER)
+    printf("  -o, --output DIR   write the tables into folder DIR (created if missing)\n");
   printf("  -h, --help       show this help\n");
 }
 
@@ -111,12 +113,13 @@ int cli_parse_options(const cli_command *cmd, int argc, char **argv, cli_options
   /* Caught here, before any work: otherwise the run would end with a
    * failed rename and a less helpful message. */
   if (o->output_path && o->output_path[0] == '\0') {
-    fprintf(stderr, "jeansgrow %s: option '-o' needs a file name (got an empty one)\n",
-            cmd->name);
+    fprintf(stderr, "jeansgrow %s: option '-o' needs a %s name (got an empty one)\n", cmd->name,
+            cmd->takes_output == OUTPUT_FOLDER ? "folder" : "file");
     return EXIT_BAD_INPUT;
   }
   struct stat sb;
-  if (o->output_path && stat(o->output_path, &sb) == 0 && S_ISDIR(sb.st_mode)) {
+  if (cmd->takes_output == OUTPUT_FILE && o->output_path && stat(o->output_path, &sb) == 0 &&
+      S_ISDIR(sb.st_mode)) {
     fprintf(stderr, "jeansgrow %s: %s is a directory; -o needs a file name\n", cmd->name,
             o->output_path);
     return EXIT_BAD_INPUT;

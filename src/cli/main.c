@@ -13,7 +13,7 @@ static const cli_command commands[] = {
      "PARAMFILE [--set KEY=VALUE]... [-o DIR]",
      "Writes DIR/history.txt, DIR/epochs.txt, DIR/scales.txt and DIR/growth.txt (DIR is\n"
      "created if missing; default jeansgrow-out), each atomically, then prints a summary.",
-     1, cmd_run},
+     OUTPUT_FOLDER, cmd_run},
     {"history", "Ionisation and gas-temperature history from the start redshift to z = 0",
      "PARAMFILE [--set KEY=VALUE]... [-o FILE]",
      "Columns: z, x_e, x_HII, x_HeII, x_HeIII, T_gas[K], T_rad[K], mu, compton_rate[1/s],\n"

@@ -1,0 +1,22 @@
+# gnuplot script: Jeans, filtering and half-suppression masses against
+# redshift, from a `jeansgrow scales` table.
+#   jeansgrow scales params/reference.cfg -o scales.txt
+#   gnuplot -e "table='scales.txt'; out='scales.png'" plots/scales.gp
+# Columns (see the README): 1 z, 5 M_J[Msun], 7 M_F[Msun], 9 M_half[Msun],
+# 10 half_found, 14 M_F_integral[Msun].
+if (!exists("table")) table = 'scales.txt'
+if (!exists("out")) out = 'scales.png'
+set terminal pngcairo size 900,600 font ",11"
+set output out
+set datafile separator "\t"
+set logscale xy
+set xrange [*:*] reverse
+set xlabel "redshift z"
+set ylabel "mass [M_{sun}]"
+set format y "10^{%L}"
+set grid
+set key top left
+plot table using 1:5 with linespoints lw 2 title "Jeans mass (isothermal)", \
+     table using 1:7 with linespoints lw 2 title "filtering mass, solved (2{/Symbol p}/k_F)", \
+     table using 1:14 with linespoints dt 2 title "filtering mass, Gnedin-Hui integral", \
+     table using 1:($10 > 0 ? $9 : 1/0) with linespoints lw 2 title "half-suppression mass"
