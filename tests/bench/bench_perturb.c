@@ -5,15 +5,29 @@
  * grid (1 to 5000 /Mpc) from z_initial = 1e4 to z = 10 with 7 output
  * redshifts, as the median of repeated runs, and the peak memory.
  *
+ * Then the comparison with SciPy on the same work: 16 modes of that grid,
+ * the same 7 redshifts. Equal nominal tolerances are not equal accuracy
+ * (GSL's step control takes the largest error over the components, SciPy's
+ * BDF a root mean square, and the methods differ), so both solvers are run
+ * over a ladder of tolerances (abs_tol = rel_tol / 100, the default ratio)
+ * and their errors are measured against a tight reference: this solver at
+ * rel_tol 1e-12, abs_tol 1e-14, which the SciPy script cross-checks with
+ * SciPy's Radau at the same tolerance. The headline ratio compares the
+ * cheapest tolerance of each solver that reaches a common error target in
+ * delta_b/delta_c; the ratio at the default (equal nominal) tolerance is
+ * printed too. Costs on that ladder are the best of several runs of all 16
+ * modes (the least disturbed by other processes), per mode.
+ *
  * Usage: bench_perturb [DIR]
  *   Writes DIR/perturb_coefficients.txt (the medium coefficients on a grid
- *   of 500 nodes per e-fold: what the SciPy comparison interpolates) and
- *   DIR/perturb_reference.txt (this solver's delta_b/delta_c and delta_c for
- *   a subset of the grid). tests/bench/scipy_perturb.py DIR solves the same
- *   equations with scipy.integrate.solve_ivp (BDF, analytic Jacobian, same
- *   tolerances), prints its cost and the agreement, and writes
- *   DIR/perturb_scipy_timing.txt; run bench_perturb DIR again to print the
- *   speed ratio. Nothing here asserts a time.
+ *   of 500 nodes per e-fold: what the SciPy comparison interpolates),
+ *   DIR/perturb_reference.txt (the tight reference: delta_c and
+ *   delta_b/delta_c for the 16 modes) and DIR/perturb_c_ladder.txt (this
+ *   solver's error and cost per tolerance). tests/bench/scipy_perturb.py DIR
+ *   solves the same equations with scipy.integrate.solve_ivp (BDF, analytic
+ *   Jacobian) over the same ladder and writes DIR/perturb_scipy_ladder.txt;
+ *   run bench_perturb DIR again to print the comparison. Nothing here
+ *   asserts a time.
  */
 #include <gsl/gsl_errno.h>
 #include <math.h>
@@ -44,6 +58,141 @@ static double median(double *v, int n) {
 
 #define N_Z 7
 #define N_REF 16
+
+/* The tolerance ladder of the same-work comparison (rel_tol; abs_tol is
+ * rel_tol / 100 as in the defaults) and the reference tolerance. Also read
+ * by tests/bench/scipy_perturb.py from DIR/perturb_c_ladder.txt. */
+#define N_LADDER 11
+static const double ladder_rtol[N_LADDER] = {1e-4, 3e-5, 1e-5, 3e-6, 1e-6, 3e-7,
+                                             1e-7, 3e-8, 1e-8, 3e-9, 1e-9};
+#define ABS_PER_REL 1e-2
+#define REF_RTOL 1e-12
+/* Runs of the 16 modes per ladder tolerance; the best one is kept. */
+#define LADDER_REPEATS 7
+/* Common error targets in delta_b/delta_c; the first is the headline. */
+static const double targets[] = {1e-6, 1e-5, 1e-7};
+#define N_TARGETS 3
+
+typedef struct ladder_row {
+  double rtol, atol, err_ratio, err_dc, ms, evals;
+} ladder_row;
+
+/* A medium that counts its evaluations (right-hand sides, Jacobians,
+ * outputs) around the real one: the work measure comparable to SciPy's
+ * function-evaluation count. Used for an untimed pass only. */
+typedef struct counting_medium {
+  jg_medium inner;
+  long *calls;
+} counting_medium;
+
+static int counting_eval(const void *ctx, double ln_a, jg_medium_coefficients *out) {
+  const counting_medium *c = ctx;
+  (*c->calls)++;
+  return c->inner.eval(c->inner.ctx, ln_a, out);
+}
+
+/* The 16 benchmark modes: every (n_k - 1)/15-th of the grid, ends included. */
+static int solve_set(const jg_perturb_model *m, jg_perturb_workspace *w, const double *ks,
+                     const double *z, jg_perturb_point out[N_REF][N_Z], jg_error *err) {
+  for (int j = 0; j < N_REF; j++)
+    if (jg_perturb_solve(m, w, ks[j], z, N_Z, out[j], err) != JG_OK) return 1;
+  return 0;
+}
+
+/* Largest relative errors in delta_b/delta_c and delta_c against `ref`. */
+static void set_errors(jg_perturb_point a[N_REF][N_Z], jg_perturb_point ref[N_REF][N_Z],
+                       double *e_ratio, double *e_dc) {
+  *e_ratio = *e_dc = 0.0;
+  for (int j = 0; j < N_REF; j++)
+    for (int q = 0; q < N_Z; q++) {
+      *e_ratio = fmax(*e_ratio, fabs(a[j][q].b_over_c / ref[j][q].b_over_c - 1.0));
+      *e_dc = fmax(*e_dc, fabs(a[j][q].delta_c / ref[j][q].delta_c - 1.0));
+    }
+}
+
+/* Solve the 16 modes at one tolerance: errors against `ref` (if given), the
+ * best time of LADDER_REPEATS runs and the medium evaluations per mode. */
+static int run_tolerance(const jg_thermal *th, const jg_perturb_settings *base, double rtol,
+                         double atol, const double *ks, const double *z,
+                         jg_perturb_point out[N_REF][N_Z], jg_perturb_point ref[N_REF][N_Z],
+                         int repeats, ladder_row *row, jg_error *err) {
+  jg_perturb_settings s = *base;
+  s.rel_tol = rtol;
+  s.abs_tol = atol;
+  jg_perturb_model *m = jg_perturb_model_new(th, &s, NULL, err);
+  jg_perturb_workspace *w = m ? jg_perturb_workspace_new(m, err) : NULL;
+  int bad = !w;
+  double best = 0.0;
+  for (int r = 0; !bad && r < repeats; r++) {
+    double a = now();
+    bad = solve_set(m, w, ks, z, out, err);
+    double t = now() - a;
+    if (r == 0 || t < best) best = t;
+  }
+  /* The same model once more through the counting medium (same
+   * coefficients, same initial conditions: identical results). */
+  long calls = 0;
+  counting_medium cm = {{0}, &calls};
+  jg_medium counted = cm.inner;
+  if (!bad) {
+    cm.inner = *jg_perturb_model_medium(m);
+    counted = cm.inner;
+    counted.eval = counting_eval;
+    counted.ctx = &cm;
+  }
+  jg_perturb_model *mc = bad ? NULL : jg_perturb_model_new_medium(&counted, &s, NULL, err);
+  jg_perturb_workspace *wc = mc ? jg_perturb_workspace_new(mc, err) : NULL;
+  static jg_perturb_point tmp[N_REF][N_Z];
+  bad = bad || !wc || solve_set(mc, wc, ks, z, tmp, err);
+  row->rtol = rtol;
+  row->atol = atol;
+  row->ms = 1e3 * best / N_REF;
+  row->evals = (double)calls / N_REF;
+  row->err_ratio = row->err_dc = 0.0;
+  if (!bad && ref) set_errors(out, ref, &row->err_ratio, &row->err_dc);
+  jg_perturb_workspace_free(wc);
+  jg_perturb_model_free(mc);
+  jg_perturb_workspace_free(w);
+  jg_perturb_model_free(m);
+  return bad;
+}
+
+/* The cheapest row whose delta_b/delta_c error is at most `target`, or -1. */
+static int cheapest(const ladder_row *rows, int n, double target) {
+  int best = -1;
+  for (int i = 0; i < n; i++)
+    if (rows[i].err_ratio <= target && (best < 0 || rows[i].ms < rows[best].ms)) best = i;
+  return best;
+}
+
+/* DIR/perturb_scipy_ladder.txt: comment lines ("# radau ..." holds the
+ * cross-check of the reference), then rel_tol abs_tol err_ratio err_dc
+ * ms_per_mode nfev_per_mode per line. Returns the number of rows. */
+static int read_scipy_ladder(const char *path, ladder_row *rows, int max, char *info,
+                             size_t info_size, double radau[2]) {
+  FILE *f = fopen(path, "r");
+  if (!f) return 0;
+  char line[1024];
+  int n = 0;
+  info[0] = '\0';
+  radau[0] = radau[1] = -1.0;
+  while (fgets(line, sizeof line, f)) {
+    if (line[0] == '#') {
+      if (sscanf(line, "# radau %lf %lf", &radau[0], &radau[1]) == 2) continue;
+      if (strncmp(line, "# scipy ", 8) == 0) {
+        snprintf(info, info_size, "%s", line + 8);
+        info[strcspn(info, "\n")] = '\0';
+      }
+      continue;
+    }
+    ladder_row r;
+    if (n < max && sscanf(line, "%lf %lf %lf %lf %lf %lf", &r.rtol, &r.atol, &r.err_ratio,
+                          &r.err_dc, &r.ms, &r.evals) == 6)
+      rows[n++] = r;
+  }
+  fclose(f);
+  return n;
+}
 
 int main(int argc, char **argv) {
   gsl_set_error_handler_off();
@@ -139,7 +288,24 @@ int main(int argc, char **argv) {
             c.baryon_fraction, c.pressure, c.drag, c.relaxation);
   }
   fclose(f);
-  /* The initial CDM slope is not in the file: the script recomputes the
+
+  /* The same work: 16 modes, the tight reference, then the ladder. */
+  double ks[N_REF];
+  for (int j = 0; j < N_REF; j++) ks[j] = k[j * (n_k - 1) / (N_REF - 1)];
+  static jg_perturb_point ref[N_REF][N_Z], sol[N_REF][N_Z];
+  ladder_row ref_row, c_rows[N_LADDER];
+  if (run_tolerance(th, &p.perturbations, REF_RTOL, REF_RTOL * ABS_PER_REL, ks, z, ref, NULL, 1,
+                    &ref_row, &err)) {
+    fprintf(stderr, "bench_perturb (reference): %s\n", err.message);
+    return 1;
+  }
+  for (int t = 0; t < N_LADDER; t++)
+    if (run_tolerance(th, &p.perturbations, ladder_rtol[t], ladder_rtol[t] * ABS_PER_REL, ks, z,
+                      sol, ref, LADDER_REPEATS, &c_rows[t], &err)) {
+      fprintf(stderr, "bench_perturb (rel_tol %g): %s\n", ladder_rtol[t], err.message);
+      return 1;
+    }
+  /* The initial CDM slope is not in the files: the script recomputes the
    * Meszaros growing mode from a_equality and f_b with SciPy's hyp2f1, an
    * independent check of the initial conditions. */
   snprintf(path, sizeof path, "%s/perturb_reference.txt", dir);
@@ -148,25 +314,83 @@ int main(int argc, char **argv) {
     fprintf(stderr, "bench_perturb: cannot write %s\n", path);
     return 1;
   }
+  fprintf(f, "# reference: this solver at rel_tol %g abs_tol %g\n", REF_RTOL,
+          REF_RTOL * ABS_PER_REL);
   fprintf(f, "# k[1/Mpc]\tz\tdelta_c\tb_over_c\n");
-  for (int j = 0; j < N_REF; j++) {
-    int i = j * (n_k - 1) / (N_REF - 1);
+  for (int j = 0; j < N_REF; j++)
     for (int q = 0; q < N_Z; q++)
-      fprintf(f, "%.17g\t%.17g\t%.17g\t%.17g\n", k[i], z[q], out[i][q].delta_c, out[i][q].b_over_c);
-  }
+      fprintf(f, "%.17g\t%.17g\t%.17g\t%.17g\n", ks[j], z[q], ref[j][q].delta_c,
+              ref[j][q].b_over_c);
   fclose(f);
-  fprintf(stdout, "wrote %s/perturb_coefficients.txt and %s/perturb_reference.txt\n", dir, dir);
+  snprintf(path, sizeof path, "%s/perturb_c_ladder.txt", dir);
+  f = fopen(path, "w");
+  if (!f) {
+    fprintf(stderr, "bench_perturb: cannot write %s\n", path);
+    return 1;
+  }
+  fprintf(f, "# this solver (GSL msbdf) over the tolerance ladder, 16 modes x %d redshifts\n", N_Z);
+  fprintf(f, "# rel_tol\tabs_tol\terr_b_over_c\terr_delta_c\tms_per_mode\tevals_per_mode\n");
+  for (int t = 0; t < N_LADDER; t++)
+    fprintf(f, "%.3g\t%.3g\t%.6e\t%.6e\t%.6f\t%.1f\n", c_rows[t].rtol, c_rows[t].atol,
+            c_rows[t].err_ratio, c_rows[t].err_dc, c_rows[t].ms, c_rows[t].evals);
+  fclose(f);
+  printf("wrote %s/perturb_coefficients.txt, perturb_reference.txt, perturb_c_ladder.txt\n", dir);
 
-  snprintf(path, sizeof path, "%s/perturb_scipy_timing.txt", dir);
-  f = fopen(path, "r");
-  if (f) {
-    double scipy_per_mode = 0.0;
-    if (fscanf(f, "%lf", &scipy_per_mode) == 1 && scipy_per_mode > 0.0)
-      printf("SciPy solve_ivp (BDF) per mode %.1f ms: this solver is %.0f times faster per mode\n",
-             1e3 * scipy_per_mode, scipy_per_mode / (all / n_k));
-    fclose(f);
-  } else {
-    printf("(run tests/bench/scipy_perturb.py %s, then this program again, for the ratio)\n", dir);
+  /* The comparison table, with SciPy's ladder if the script has run. */
+  ladder_row s_rows[N_LADDER];
+  char info[1024];
+  double radau[2];
+  snprintf(path, sizeof path, "%s/perturb_scipy_ladder.txt", dir);
+  const int n_s = read_scipy_ladder(path, s_rows, N_LADDER, info, sizeof info, radau);
+  printf("\nsame work: %d modes, k = %g..%g /Mpc, %d redshifts 1000..10, abs_tol = rel_tol/100\n",
+         N_REF, ks[0], ks[N_REF - 1], N_Z);
+  printf("error: largest relative error over modes and redshifts against this solver at "
+         "rel_tol %g (%.2f ms/mode)\n", REF_RTOL, ref_row.ms);
+  if (n_s > 0 && radau[0] >= 0.0)
+    printf("reference cross-check, SciPy Radau at rel_tol %g: largest difference delta_b/delta_c "
+           "%.1e, delta_c %.1e\n", REF_RTOL, radau[0], radau[1]);
+  printf("cost: this solver best of %d runs%s, per mode\n", LADDER_REPEATS,
+         n_s > 0 ? ", SciPy as its line below says" : "");
+  printf("%-8s | %-41s | %s\n", "", "this solver (GSL msbdf)",
+         n_s > 0 ? "SciPy solve_ivp BDF" : "(SciPy: run tests/bench/scipy_perturb.py DIR)");
+  printf("%-8s | %9s %9s %9s %9s | %9s %9s %9s %9s\n", "rel_tol", "err b/c", "err d_c",
+         "ms/mode", "evals", "err b/c", "err d_c", "ms/mode", "f+J evals");
+  for (int t = 0; t < N_LADDER; t++) {
+    printf("%-8.0e | %9.2e %9.2e %9.3f %9.0f |", c_rows[t].rtol, c_rows[t].err_ratio,
+           c_rows[t].err_dc, c_rows[t].ms, c_rows[t].evals);
+    const ladder_row *sr = NULL;
+    for (int i = 0; i < n_s; i++)
+      if (fabs(s_rows[i].rtol / c_rows[t].rtol - 1.0) < 1e-6) sr = &s_rows[i];
+    if (sr)
+      printf(" %9.2e %9.2e %9.1f %9.0f", sr->err_ratio, sr->err_dc, sr->ms, sr->evals);
+    printf("\n");
+  }
+  if (n_s > 0) {
+    if (info[0]) printf("SciPy: %s\n", info);
+    /* Equal nominal tolerance: the defaults. */
+    for (int t = 0; t < N_LADDER; t++)
+      for (int i = 0; i < n_s; i++)
+        if (fabs(c_rows[t].rtol / p.perturbations.rel_tol - 1.0) < 1e-6 &&
+            fabs(s_rows[i].rtol / c_rows[t].rtol - 1.0) < 1e-6)
+          printf("equal nominal tolerance (rel_tol %g): SciPy %.1f ms/mode, this solver %.3f "
+                 "ms/mode: %.0f times faster (errors in delta_b/delta_c: %.1e here, %.1e "
+                 "SciPy)\n",
+                 c_rows[t].rtol, s_rows[i].ms, c_rows[t].ms, s_rows[i].ms / c_rows[t].ms,
+                 c_rows[t].err_ratio, s_rows[i].err_ratio);
+    for (int q = 0; q < N_TARGETS; q++) {
+      int ic = cheapest(c_rows, N_LADDER, targets[q]), is = cheapest(s_rows, n_s, targets[q]);
+      if (ic < 0 || is < 0) {
+        printf("matched accuracy, delta_b/delta_c error <= %g: %s reaches it on no rung of the "
+               "ladder\n", targets[q], ic < 0 ? "this solver" : "SciPy");
+        continue;
+      }
+      const double ratio = s_rows[is].ms / c_rows[ic].ms;
+      printf("%s, delta_b/delta_c error <= %g: SciPy %.1f ms/mode (rel_tol %g), this solver "
+             "%.3f ms/mode (rel_tol %g): %.0f times faster%s\n",
+             q == 0 ? "HEADLINE matched accuracy" : "matched accuracy", targets[q], s_rows[is].ms,
+             s_rows[is].rtol, c_rows[ic].ms, c_rows[ic].rtol, ratio,
+             q == 0 ? (ratio >= 100.0 ? " (target 100x met)" : " (below the 100x target)") : "");
+    }
   }
   jg_perturb_workspace_free(w);
   jg_perturb_model_free(m);
