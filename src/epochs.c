@@ -47,7 +47,8 @@ static jg_status find_crossing(const jg_thermal *th, z_function f, double level,
   *z = gsl_root_fsolver_root(s);
   gsl_root_fsolver_free(s);
   if (status != GSL_SUCCESS)
-    return JG_FAIL(err, JG_ENUMERIC, "%s: root search failed (%s)", what, gsl_strerror(status));
+    return JG_FAIL(err, JG_ENUMERIC, "%s: root search between z = %g and z = %g failed (%s)",
+                   what, lo, hi, gsl_strerror(status));
   return JG_OK;
 }
 
@@ -65,10 +66,31 @@ static double minus_visibility(double z, void *p) {
   return -jg_thermal_visibility(((const history_ref *)p)->th, z);
 }
 
-static jg_status visibility_peak(const jg_thermal *th, double guess, double *z, jg_error *err) {
+/* Samples of g(z), uniform in ln(1+z) between today and the start of the
+ * history, that bracket the visibility peak before Brent's method refines it. */
+#define VISIBILITY_SAMPLES 400
+
+/* The peak is bracketed by sampling, not by a window around z_star: where
+ * baryons are scarce, tau climbs slowly and reaches 1 well above the peak
+ * (omega_b h^2 = 0.001 with T_cmb = 5 K puts z_star ~20 % above it), and a
+ * bracket that does not enclose the minimum is refused by GSL. */
+static jg_status visibility_peak(const jg_thermal *th, double z_top, double *z, jg_error *err) {
   history_ref ref = {th};
   gsl_function F = {minus_visibility, &ref};
-  double lo = 0.8 * guess, hi = 1.2 * guess;
+  const double span = log1p(z_top);
+  int best = 0;
+  double best_g = -1.0;
+  for (int i = 0; i < VISIBILITY_SAMPLES; i++) {
+    double g = jg_thermal_visibility(th, expm1(span * i / (VISIBILITY_SAMPLES - 1)));
+    if (g > best_g) best_g = g, best = i;
+  }
+  if (best == 0 || best == VISIBILITY_SAMPLES - 1)
+    return JG_FAIL(err, JG_ENUMERIC,
+                   "visibility peak: the visibility has no maximum between z = 0 and z = %g",
+                   z_top);
+  double lo = expm1(span * (best - 1) / (VISIBILITY_SAMPLES - 1));
+  double hi = expm1(span * (best + 1) / (VISIBILITY_SAMPLES - 1));
+  double guess = expm1(span * best / (VISIBILITY_SAMPLES - 1));
   gsl_min_fminimizer *m = gsl_min_fminimizer_alloc(gsl_min_fminimizer_brent);
   if (!m) return JG_FAIL(err, JG_ENOMEM, "out of memory");
   int status = gsl_min_fminimizer_set(m, &F, guess, lo, hi);
@@ -82,7 +104,8 @@ static jg_status visibility_peak(const jg_thermal *th, double guess, double *z, 
   *z = gsl_min_fminimizer_x_minimum(m);
   gsl_min_fminimizer_free(m);
   if (status != GSL_SUCCESS)
-    return JG_FAIL(err, JG_ENUMERIC, "visibility peak: search failed (%s)", gsl_strerror(status));
+    return JG_FAIL(err, JG_ENUMERIC, "visibility peak: search between z = %g and z = %g failed (%s)",
+                   lo, hi, gsl_strerror(status));
   return JG_OK;
 }
 
@@ -92,7 +115,7 @@ jg_status jg_epochs_compute(const jg_thermal *th, jg_epochs *e, jg_error *err) {
   jg_status st = find_crossing(th, jg_thermal_optical_depth, 1.0, 1.0, z_top, "z_star", &e->z_star, err);
   if (st == JG_OK)
     st = find_crossing(th, jg_thermal_drag_depth, 1.0, 1.0, z_top, "z_drag", &e->z_drag, err);
-  if (st == JG_OK) st = visibility_peak(th, e->z_star, &e->z_visibility_peak, err);
+  if (st == JG_OK) st = visibility_peak(th, z_top, &e->z_visibility_peak, err);
   if (st == JG_OK) st = jg_background_sound_horizon(bg, e->z_star, &e->r_star, err);
   if (st == JG_OK) st = jg_background_sound_horizon(bg, e->z_drag, &e->r_drag, err);
   double d_m = 0.0;

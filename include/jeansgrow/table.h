@@ -24,7 +24,9 @@ typedef struct jg_output jg_output;
 
 /* Open an output place: a path (written atomically) or NULL / "-" for
  * stdout. Fails with JG_EIO, naming the path, if the folder cannot be
- * written; nothing is created in that case. */
+ * written or the path is a folder; nothing is created in that case. A
+ * symbolic link is followed (the link stays); a device, FIFO or socket
+ * (/dev/null, a named pipe) is written in place, not atomically. */
 jg_status jg_output_open(const char *path, jg_output **out, jg_error *err);
 /* The stream to write to. */
 FILE *jg_output_stream(jg_output *o);
