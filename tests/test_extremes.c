@@ -1,6 +1,6 @@
 /*
- * Extreme but valid cosmologies: background, thermal history and epochs
- * must finish, and everything they report must be finite and physically
+ * Extreme but valid cosmologies: background, thermal history, epochs and
+ * the perturbation stage (scales; modes at k = 1 and 1e5 /Mpc) must finish, and everything they report must be finite and physically
  * possible, across
  *
  *   Omega_b h^2  0.001 .. 0.1      Omega_c h^2  0.01 .. 0.5
@@ -35,6 +35,8 @@
 #include "jeansgrow/background.h"
 #include "jeansgrow/epochs.h"
 #include "jeansgrow/params.h"
+#include "jeansgrow/perturb.h"
+#include "jeansgrow/scales.h"
 #include "jeansgrow/thermal.h"
 
 static void quiet_gsl(void) { gsl_set_error_handler_off(); }
@@ -201,6 +203,49 @@ static void check_epochs(const jg_epochs *e, const jg_thermal *th, const char *c
   }
 }
 
+static const char *const perturbation_stages[] = {"perturbation", "k =", NULL};
+
+/* The perturbation stage on the same history, from the default z_initial
+ * (1e4) down to z = 10, for the scales at four redshifts and single modes at
+ * both ends of the accepted wavenumber range (1 and 1e5 /Mpc): every value
+ * finite, contrasts and wavenumbers positive, masses positive. */
+static void check_perturbations(const jg_params *p, const jg_thermal *th, const char *case_text) {
+  jg_error err;
+  jg_error_clear(&err);
+  jg_perturb_model *m = jg_perturb_model_new(th, &p->perturbations, NULL, &err);
+  if (!m) fail_with_message("perturbation model", case_text, &err, perturbation_stages);
+  jg_perturb_workspace *w = jg_perturb_workspace_new(m, &err);
+  cr_assert_not_null(w, "workspace: %s", err.message);
+  const double z[] = {1000.0, 100.0, 20.0, 10.0};
+  jg_scales_point s[4];
+  if (jg_scales_compute(m, w, z, 4, s, &err) != JG_OK)
+    fail_with_message("scales", case_text, &err, perturbation_stages);
+  for (int i = 0; i < 4; i++) {
+    const double v[] = {s[i].k_jeans_isothermal, s[i].m_jeans_isothermal, s[i].k_filter_solved,
+                        s[i].m_filter_solved, s[i].k_filter_integral_isothermal,
+                        s[i].b_over_c_large, s[i].delta_m_large};
+    for (size_t j = 0; j < sizeof v / sizeof v[0]; j++)
+      cr_expect(isfinite(v[j]) && v[j] > 0, "scale %zu at z = %g is %g (%s)", j, z[i], v[j],
+                case_text);
+    if (s[i].half_found)
+      cr_expect(isfinite(s[i].k_half) && s[i].k_half > 0 && s[i].m_half > 0,
+                "k_half at z = %g is %g (%s)", z[i], s[i].k_half, case_text);
+  }
+  const double ks[] = {1.0, 1e5};
+  for (int j = 0; j < 2; j++) {
+    jg_perturb_point pt[4];
+    if (jg_perturb_solve(m, w, ks[j], z, 4, pt, &err) != JG_OK)
+      fail_with_message("perturbations", case_text, &err, perturbation_stages);
+    for (int i = 0; i < 4; i++)
+      cr_expect(isfinite(pt[i].delta_c) && pt[i].delta_c > 0 && isfinite(pt[i].delta_b) &&
+                    isfinite(pt[i].delta_T) && isfinite(pt[i].growth_b),
+                "k = %g, z = %g: delta_c %g, delta_b %g (%s)", ks[j], z[i], pt[i].delta_c,
+                pt[i].delta_b, case_text);
+  }
+  jg_perturb_workspace_free(w);
+  jg_perturb_model_free(m);
+}
+
 static void run_case(const extreme_case *c) {
   char case_text[256];
   describe(c, case_text, sizeof case_text);
@@ -229,6 +274,7 @@ static void run_case(const extreme_case *c) {
     fail_with_message("epochs", case_text, &err, epoch_stages);
   check_history(bg, th, case_text);
   check_epochs(&e, th, case_text);
+  check_perturbations(&p, th, case_text);
   jg_thermal_free(th);
   jg_background_free(bg);
 }
