@@ -11,18 +11,10 @@
 
 #include "jeansgrow/jeans.h"
 #include "jeansgrow/scales.h"
+#include "support.h"
 
-static void quiet_gsl(void) { gsl_set_error_handler_off(); }
 TestSuite(scales, .init = quiet_gsl);
 
-/* Relative comparison (Criterion has none). */
-#define ASSERT_REL(actual, expected, rtol, fmt, ...)                                       \
-  do {                                                                                     \
-    double a_ = (actual), e_ = (expected);                                                 \
-    cr_assert(isfinite(a_) && fabs(a_ - e_) <= (rtol)*fabs(e_),                            \
-              "%s = %.12g, expected %.12g (rel. diff %.3g > %.3g): " fmt, #actual, a_, e_, \
-              fabs(a_ - e_) / fabs(e_), (double)(rtol), ##__VA_ARGS__);                    \
-  } while (0)
 
 /* ---- the Gnedin & Hui test medium ------------------------------------------- */
 
