@@ -10,7 +10,9 @@
  * initialised MPI_THREAD_FUNNELED). A worker holds two indices per thread,
  * one computing and one waiting, and sends each result with the request for
  * its replacement, so that a thread never waits for the manager's answer;
- * points cost milliseconds, so one message per point costs nothing.
+ * points cost milliseconds, so one message per point costs nothing. Near
+ * the end a worker gets no spare: an index queued behind a running point
+ * would keep the job going while other threads have nothing left to do.
  *
  * Results travel as raw doubles (MPI_BYTE within a homogeneous cluster) and
  * the table is written from the checkpoint in grid order, so the file is
@@ -61,15 +63,45 @@ void scan_mpi_end(void) {}
 
 enum { TAG_REQUEST = 1, TAG_TASK = 2, TAG_BYE = 3 };
 
-/* How long the manager naps when no message is waiting. Workers hold a
- * spare index, so the answer may take this long without idling them; and
- * polling more often would take time from the manager's own computing
- * threads, which share its core. */
-#define MANAGER_NAP_NS 1000000L
 /* Indices a worker holds per computing thread (one running, one waiting). */
 #define WORKER_DEPTH 2
-/* A worker's nap while its request is answered: well under the manager's. */
-#define WORKER_NAP_NS 100000L
+
+/* Waiting for a message. A blocking MPI call spins in common MPI libraries
+ * and would take the core from this rank's computing threads, so the
+ * manager and a worker's main thread test for messages and nap in between.
+ * Each wake-up also takes the core from a computing thread (a rank bound to
+ * one core, as launchers do by default, has no other), so naps grow while
+ * nothing comes: from NAP_MIN right after a message (another often
+ * follows: a worker's first requests, a burst from several ranks) by
+ * doubling to a ceiling of a fraction of the measured cost of a point. A
+ * worker holds a spare index per thread, so an answer may take a good part
+ * of a point without idling anyone; an eighth leaves a wide margin and, for
+ * points of tens of milliseconds, wakes the manager a few hundred times a
+ * second rather than a thousand. */
+#define NAP_MIN_NS 50000L
+#define NAP_CEILING_UNTIMED_NS 1000000L /* until a point's cost is known */
+#define NAP_CEILING_MAX_NS 20000000L
+#define NAP_POINT_FRACTION 8
+
+static double monotonic_now(void) {
+  struct timespec ts;
+  clock_gettime(CLOCK_MONOTONIC, &ts);
+  return (double)ts.tv_sec + 1e-9 * (double)ts.tv_nsec;
+}
+
+/* The nap ceiling from the time spent on `points` points so far. */
+static long nap_ceiling_ns(double seconds, long long points) {
+  if (points <= 0) return NAP_CEILING_UNTIMED_NS;
+  const double ns = 1e9 * seconds / (double)points / NAP_POINT_FRACTION;
+  return ns < NAP_MIN_NS ? NAP_MIN_NS : ns > NAP_CEILING_MAX_NS ? NAP_CEILING_MAX_NS : (long)ns;
+}
+
+/* Sleep *nap_ns, then double it up to the ceiling. */
+static void nap(long *nap_ns, long ceiling_ns) {
+  const struct timespec t = {0, *nap_ns};
+  nanosleep(&t, NULL);
+  *nap_ns = *nap_ns >= ceiling_ns / 2 ? ceiling_ns : 2 * *nap_ns;
+}
 
 int scan_mpi_built_in(void) { return 1; }
 
@@ -135,7 +167,10 @@ typedef struct manager {
   jg_scan_listener listener;
   void *context;
   pthread_mutex_t lock;
-  long long next; /* lowest index not yet handed out */
+  long long next;       /* lowest index not yet handed out */
+  long long unassigned; /* points neither recorded nor handed out */
+  double eval_seconds;  /* time the manager's own threads spent on points, */
+  long long evaluated;  /* and how many: the cost of a point, for the naps */
   int stop;
   jg_status fatal;
   jg_error fatal_err;
@@ -154,8 +189,23 @@ static long long manager_take(manager *m) {
   const long long end = jg_scan_first_point(m->s) + jg_scan_slice_points(m->s);
   while (m->next < end && jg_scan_checkpoint_has(m->c, m->next)) m->next++;
   long long i = (!m->stop && m->next < end) ? m->next++ : -1;
+  if (i >= 0) m->unassigned--;
   pthread_mutex_unlock(&m->lock);
   return i;
+}
+
+/* The next index for a worker that holds `held` indices on `threads`
+ * threads (every rank runs the same --threads), -1 if none for now. Once
+ * fewer points are left than there are computing threads in the job, a
+ * spare would wait behind a running point while some thread runs dry: the
+ * worker then gets only what keeps its own threads busy, and the rest go
+ * to whichever thread frees up first. It asks again with each result, so
+ * it leaves only when nothing is left. */
+static long long manager_take_for_worker(manager *m, int held, int threads, int ranks) {
+  pthread_mutex_lock(&m->lock);
+  const int endgame = m->unassigned < (long long)threads * ranks;
+  pthread_mutex_unlock(&m->lock);
+  return endgame && held >= threads ? -1 : manager_take(m);
 }
 
 static void manager_record(manager *m, long long index, jg_status st, const double *values,
@@ -193,7 +243,13 @@ static void *manager_worker(void *arg) {
   long long i;
   while (ws && values && (i = manager_take(m)) >= 0) {
     jg_error_clear(&e);
+    const double t0 = monotonic_now();
     jg_status st = jg_scan_evaluate(m->s, i, ws, values, &e);
+    const double dt = monotonic_now() - t0;
+    pthread_mutex_lock(&m->lock);
+    m->eval_seconds += dt;
+    m->evaluated++;
+    pthread_mutex_unlock(&m->lock);
     manager_record(m, i, st, values, e.message, &e);
   }
   jg_scan_workspace_free(m->s, ws);
@@ -210,16 +266,18 @@ static jg_status run_manager(const jg_scan *s, jg_scan_checkpoint *c, int thread
   m.listener = listener;
   m.context = context;
   m.next = jg_scan_first_point(s);
+  m.unassigned = jg_scan_slice_points(s) - jg_scan_checkpoint_done(c);
   m.fatal = JG_OK;
   pthread_mutex_init(&m.lock, NULL);
   const int n_values = jg_scan_values_per_point(s);
   char *buf = malloc(result_size(n_values));
   pthread_t *tid = malloc(sizeof *tid * (size_t)threads);
+  int *held = calloc((size_t)ranks, sizeof *held); /* indices each worker holds */
   int started = 0;
-  if (buf && tid)
+  if (buf && tid && held)
     for (; started < threads; started++)
       if (pthread_create(&tid[started], NULL, manager_worker, &m) != 0) break;
-  if (!buf || !tid) {
+  if (!buf || !tid || !held) {
     jg_error e;
     JG_FAIL(&e, JG_ENOMEM, "out of memory for the MPI manager");
     manager_fail(&m, &e);
@@ -227,18 +285,24 @@ static jg_status run_manager(const jg_scan *s, jg_scan_checkpoint *c, int thread
   /* Serve until every worker has said goodbye, which each does only after
    * its last result was answered: no message is left unanswered. */
   int byes = 0;
-  const struct timespec nap = {0, MANAGER_NAP_NS};
+  long nap_ns = NAP_MIN_NS;
   while (byes < ranks - 1) {
     int flag = 0;
     MPI_Status status;
     MPI_Iprobe(MPI_ANY_SOURCE, MPI_ANY_TAG, MPI_COMM_WORLD, &flag, &status);
     if (!flag) {
-      nanosleep(&nap, NULL);
+      pthread_mutex_lock(&m.lock);
+      const long ceiling = nap_ceiling_ns(m.eval_seconds, m.evaluated);
+      pthread_mutex_unlock(&m.lock);
+      nap(&nap_ns, ceiling);
       continue;
     }
+    nap_ns = NAP_MIN_NS;
     int bytes = 0;
     MPI_Get_count(&status, MPI_BYTE, &bytes);
-    if (!buf || bytes > (int)result_size(n_values)) MPI_Abort(MPI_COMM_WORLD, EXIT_RUN_FAILED);
+    if (!buf || !held || bytes > (int)result_size(n_values) || status.MPI_SOURCE < 1 ||
+        status.MPI_SOURCE >= ranks)
+      MPI_Abort(MPI_COMM_WORLD, EXIT_RUN_FAILED);
     MPI_Recv(buf, bytes, MPI_BYTE, status.MPI_SOURCE, status.MPI_TAG, MPI_COMM_WORLD,
              MPI_STATUS_IGNORE);
     if (status.MPI_TAG == TAG_BYE) {
@@ -248,6 +312,7 @@ static jg_status run_manager(const jg_scan *s, jg_scan_checkpoint *c, int thread
     result_head h;
     memcpy(&h, buf, sizeof h);
     if (h.index >= 0) {
+      held[status.MPI_SOURCE]--;
       const char *text = h.message_length > 0 ? buf + sizeof h : "";
       jg_error e;
       jg_error_clear(&e);
@@ -255,10 +320,12 @@ static jg_status run_manager(const jg_scan *s, jg_scan_checkpoint *c, int thread
         JG_FAIL(&e, JG_ENOMEM, "out of memory on MPI rank %d", status.MPI_SOURCE);
       manager_record(&m, h.index, (jg_status)h.status, (const double *)(buf + sizeof h), text, &e);
     }
-    long long next = manager_take(&m);
+    long long next = manager_take_for_worker(&m, held[status.MPI_SOURCE], threads, ranks);
+    if (next >= 0) held[status.MPI_SOURCE]++;
     MPI_Send(&next, 1, MPI_LONG_LONG, status.MPI_SOURCE, TAG_TASK, MPI_COMM_WORLD);
   }
   for (int i = 0; i < started; i++) pthread_join(tid[i], NULL);
+  free(held);
   free(tid);
   free(buf);
   pthread_mutex_destroy(&m.lock);
@@ -283,6 +350,8 @@ typedef struct worker {
   int *result_bytes;
   int n_results;
   int quit;
+  double eval_seconds; /* time spent on points, and how many: for the naps */
+  long long evaluated;
 } worker;
 
 static void *worker_thread(void *arg) {
@@ -303,8 +372,12 @@ static void *worker_thread(void *arg) {
     long long i = w->tasks[--w->n_tasks];
     pthread_mutex_unlock(&w->lock);
     jg_error_clear(&e);
+    const double t0 = monotonic_now();
     jg_status st = jg_scan_evaluate(w->s, i, ws, values, &e);
+    const double dt = monotonic_now() - t0;
     pthread_mutex_lock(&w->lock);
+    w->eval_seconds += dt;
+    w->evaluated++;
     char *slot = w->results + (size_t)w->n_results * result_size(n_values);
     pack_result(slot, i, st, values, n_values, e.message, &w->result_bytes[w->n_results]);
     w->n_results++;
@@ -317,20 +390,23 @@ static void *worker_thread(void *arg) {
 }
 
 /* Send a request (with a result, or none) and take the reply: the next
- * index to compute, or -1 when there is none left. The wait naps instead
- * of blocking in MPI_Recv, which spins in common MPI libraries and would
- * take the core from this rank's own computing thread. */
-static long long ask(const char *msg, int bytes) {
+ * index to compute, or -1 when there is none for now (none left, or none
+ * to queue near the end). The wait naps instead of blocking in MPI_Recv
+ * (see NAP_MIN_NS), with the ceiling from this rank's own points. */
+static long long ask(worker *w, const char *msg, int bytes) {
   long long next = -1;
   MPI_Request rq[2];
   MPI_Isend(msg, bytes, MPI_BYTE, 0, TAG_REQUEST, MPI_COMM_WORLD, &rq[0]);
   MPI_Irecv(&next, 1, MPI_LONG_LONG, 0, TAG_TASK, MPI_COMM_WORLD, &rq[1]);
-  const struct timespec nap = {0, WORKER_NAP_NS};
+  long nap_ns = NAP_MIN_NS;
   int done = 0;
   for (;;) {
     MPI_Testall(2, rq, &done, MPI_STATUSES_IGNORE);
     if (done) break;
-    nanosleep(&nap, NULL);
+    pthread_mutex_lock(&w->lock);
+    const long ceiling = nap_ceiling_ns(w->eval_seconds, w->evaluated);
+    pthread_mutex_unlock(&w->lock);
+    nap(&nap_ns, ceiling);
   }
   return next;
 }
@@ -360,7 +436,7 @@ static void run_worker(const jg_scan *s, int threads) {
   int outstanding = 0, bytes = 0;
   pack_result(msg, -1, JG_OK, NULL, 0, NULL, &bytes);
   for (int i = 0; i < depth; i++) {
-    long long next = ask(msg, bytes);
+    long long next = ask(&w, msg, bytes);
     if (next < 0) break;
     pthread_mutex_lock(&w.lock);
     w.tasks[w.n_tasks++] = next;
@@ -376,7 +452,7 @@ static void run_worker(const jg_scan *s, int threads) {
     memcpy(msg, w.results + (size_t)w.n_results * slot, (size_t)bytes);
     pthread_mutex_unlock(&w.lock);
     outstanding--;
-    long long next = ask(msg, bytes);
+    long long next = ask(&w, msg, bytes);
     if (next >= 0) {
       pthread_mutex_lock(&w.lock);
       w.tasks[w.n_tasks++] = next;

@@ -14,6 +14,13 @@
  *    coarse history (thermal.grid_points = 1000) to keep the run short:
  *    the scan's own memory does not depend on it.
  * Each run is checked to exit 0 and write its table; no time is asserted.
+ *
+ * The "others" column is the machine's CPU time not spent by the run (from
+ * /proc/stat, less the run's own rusage), in cores, averaged over the run:
+ * on a shared machine another job on one of 2 cores halves a 2-rank run
+ * while a 1-rank run goes on untouched, so a speed-up measured beside
+ * other work says little about the program. Bound MPI ranks feel it most:
+ * a rank cannot move away from a busy core.
  */
 #include <errno.h>
 #include <fcntl.h>
@@ -41,7 +48,24 @@ typedef struct measure {
   double seconds;     /* wall time of the program */
   double scan_rate;   /* points/s from its summary line: the computing phase alone */
   long max_rss_kib;
+  double others;      /* cores kept busy by other processes meanwhile; < 0: unknown */
 } measure;
+
+/* CPU seconds the whole machine has been busy (all cores; idle and I/O wait
+ * left out; steal counts, as the host took the time), or -1 without
+ * /proc/stat. */
+static double machine_busy_seconds(void) {
+  FILE *f = fopen("/proc/stat", "r");
+  if (!f) return -1.0;
+  unsigned long long v[8] = {0};
+  int n = fscanf(f, "cpu %llu %llu %llu %llu %llu %llu %llu %llu", &v[0], &v[1], &v[2], &v[3],
+                 &v[4], &v[5], &v[6], &v[7]);
+  fclose(f);
+  long hz = sysconf(_SC_CLK_TCK);
+  if (n != 8 || hz <= 0) return -1.0;
+  /* user nice system idle iowait irq softirq steal (guest time is in user) */
+  return (double)(v[0] + v[1] + v[2] + v[5] + v[6] + v[7]) / (double)hz;
+}
 
 static char stderr_path[160];
 
@@ -58,6 +82,7 @@ static int run(const char *const *list, measure *m) {
   posix_spawn_file_actions_addopen(&fa, 1, "/dev/null", O_WRONLY, 0);
   posix_spawn_file_actions_addopen(&fa, 2, stderr_path, O_WRONLY | O_CREAT | O_TRUNC, 0600);
   pid_t pid;
+  double busy0 = machine_busy_seconds();
   double t0 = now_seconds();
   int rc = posix_spawn(&pid, args[0], &fa, NULL, args, environ);
   posix_spawn_file_actions_destroy(&fa);
@@ -72,7 +97,15 @@ static int run(const char *const *list, measure *m) {
   do w = wait4(pid, &status, 0, &ru);
   while (w < 0 && errno == EINTR);
   m->seconds = now_seconds() - t0;
+  double busy1 = machine_busy_seconds();
   m->max_rss_kib = ru.ru_maxrss;
+  /* ru covers the program and the children it waited for (mpirun's ranks). */
+  double own = (double)ru.ru_utime.tv_sec + 1e-6 * (double)ru.ru_utime.tv_usec +
+               (double)ru.ru_stime.tv_sec + 1e-6 * (double)ru.ru_stime.tv_usec;
+  m->others = busy0 >= 0 && busy1 >= 0 && m->seconds > 0
+                  ? (busy1 - busy0 - own) / m->seconds : -1.0;
+  /* /proc/stat counts in ticks, rusage finer: a little below zero is zero. */
+  if (m->others < 0 && m->others > -0.1) m->others = 0.0;
   if (w != pid || !WIFEXITED(status) || WEXITSTATUS(status) != 0) {
     fprintf(stderr, "bench_scan: %s failed (status %d)\n", list[0], status);
     return 1;
@@ -143,6 +176,23 @@ static int best_scan(int repeats, const char *mpiexec, int ranks, int threads, i
   return 0;
 }
 
+static double most_others = 0.0; /* the busiest "others" printed */
+
+/* A row of the throughput table; the gains are against `base` (NULL: this
+ * row is the base). */
+static void print_row(const char *name, int points, const measure *m, const measure *base) {
+  char wall_gain[16] = "1", scan_gain[16] = "1", others[16] = "?";
+  if (base) {
+    snprintf(wall_gain, sizeof wall_gain, "%.2f", base->seconds / m->seconds);
+    snprintf(scan_gain, sizeof scan_gain, "%.2f", m->scan_rate / base->scan_rate);
+  }
+  if (m->others >= 0) snprintf(others, sizeof others, "%.2f", m->others);
+  if (m->others > most_others) most_others = m->others;
+  printf("%-14s %9.2f %9.2f %9.2f %10s %10s %7s\n", name, m->seconds, points / m->seconds,
+         m->scan_rate, wall_gain, scan_gain, others);
+  fflush(stdout);
+}
+
 int main(int argc, char **argv) {
   int points = argc > 1 ? atoi(argv[1]) : 40;
   int memory_max = argc > 2 ? atoi(argv[2]) : 10000;
@@ -167,28 +217,25 @@ int main(int argc, char **argv) {
   printf("jeansgrow scan throughput: %d cosmologies x 4 redshifts, default thermal settings, "
          "best of %d\n", points, repeats);
   printf("(wall: the whole program, launch included; scan: the computing phase, from the "
-         "program's summary)\n");
-  printf("%-14s %9s %9s %9s %10s %10s\n", "run", "wall [s]", "wall /s", "scan /s",
-         "wall gain", "scan gain");
+         "program's summary;\n others: cores kept busy by other processes during the run)\n");
+  printf("%-14s %9s %9s %9s %10s %10s %7s\n", "run", "wall [s]", "wall /s", "scan /s",
+         "wall gain", "scan gain", "others");
   measure t1, t2, m1, m2;
   bad |= best_scan(repeats, NULL, 1, 1, points, out, &t1);
-  printf("%-14s %9.2f %9.2f %9.2f %10s %10s\n", "1 thread", t1.seconds, points / t1.seconds,
-         t1.scan_rate, "1", "1");
+  print_row("1 thread", points, &t1, NULL);
   bad |= best_scan(repeats, NULL, 1, 2, points, out, &t2);
-  printf("%-14s %9.2f %9.2f %9.2f %10.2f %10.2f\n", "2 threads", t2.seconds,
-         points / t2.seconds, t2.scan_rate, t1.seconds / t2.seconds,
-         t2.scan_rate / t1.scan_rate);
+  print_row("2 threads", points, &t2, &t1);
   if (mpiexec) {
     bad |= best_scan(repeats, mpiexec, 1, 1, points, out, &m1);
-    printf("%-14s %9.2f %9.2f %9.2f %10s %10s\n", "mpirun -n 1", m1.seconds,
-           points / m1.seconds, m1.scan_rate, "1", "1");
+    print_row("mpirun -n 1", points, &m1, NULL);
     bad |= best_scan(repeats, mpiexec, 2, 1, points, out, &m2);
-    printf("%-14s %9.2f %9.2f %9.2f %10.2f %10.2f\n", "mpirun -n 2", m2.seconds,
-           points / m2.seconds, m2.scan_rate, m1.seconds / m2.seconds,
-           m2.scan_rate / m1.scan_rate);
+    print_row("mpirun -n 2", points, &m2, &m1);
   } else {
     printf("(built without MPI: no rank runs)\n");
   }
+  if (most_others > 0.1)
+    printf("(other processes kept up to %.2f cores busy during these runs: the speed-ups "
+           "understate the program's; measure on an idle machine)\n", most_others);
 
   printf("\npeak memory (ru_maxrss), 2 threads, thermal.grid_points = 1000, 4 redshifts\n");
   printf("%-10s %10s %12s\n", "points", "wall [s]", "max RSS [MB]");
