@@ -42,6 +42,9 @@ int cli_report(const jg_error *err);
 /* Open the output (atomic file or stdout) and protect it from interrupts:
  * on SIGINT/SIGTERM the temporary file is removed and the program exits. */
 int cli_open_output(const cli_options *o, jg_output **out);
+/* Remove the temporary output files and exit on SIGINT/SIGTERM from now on,
+ * printing `message` (a whole line; NULL for the generic one). */
+void cli_protect_interrupts(const char *message);
 /* Commit it; returns the exit status. */
 int cli_commit_output(jg_output *out);
 /* Throw it away (after a failure). */

@@ -16,6 +16,9 @@
 static volatile sig_atomic_t temp_in_use[MAX_TEMP_FILES];
 static char temp_paths[MAX_TEMP_FILES][4096];
 
+/* A command's own message for an interrupt (empty: the generic ones). */
+static char interrupt_message[4352];
+
 static void on_interrupt(int sig) {
   static const char removed[] = "jeansgrow: interrupted; no output file was written\n";
   static const char plain[] = "jeansgrow: interrupted\n";
@@ -23,7 +26,9 @@ static void on_interrupt(int sig) {
   int any = 0;
   for (int i = 0; i < MAX_TEMP_FILES; i++)
     if (temp_in_use[i]) unlink(temp_paths[i]), any = 1;
-  if (any) {
+  if (interrupt_message[0]) {
+    ignored = write(STDERR_FILENO, interrupt_message, strlen(interrupt_message));
+  } else if (any) {
     ignored = write(STDERR_FILENO, removed, sizeof removed - 1);
   } else {
     ignored = write(STDERR_FILENO, plain, sizeof plain - 1);
@@ -44,6 +49,16 @@ static void hold_interrupts(sigset_t *saved) {
   sigprocmask(SIG_BLOCK, &block, saved);
 }
 static void release_interrupts(const sigset_t *saved) { sigprocmask(SIG_SETMASK, saved, NULL); }
+
+static void install_interrupt_handlers(void);
+
+void cli_protect_interrupts(const char *message) {
+  sigset_t saved;
+  hold_interrupts(&saved);
+  snprintf(interrupt_message, sizeof interrupt_message, "%s", message ? message : "");
+  install_interrupt_handlers();
+  release_interrupts(&saved);
+}
 
 static void install_interrupt_handlers(void) {
   struct sigaction sa;

@@ -235,40 +235,17 @@ static void on_point(void *context, const jg_scan_event *e) {
 
 /* ---- interrupts -------------------------------------------------------- */
 
-/* Program state for the signal handler (the library keeps none). */
-static volatile sig_atomic_t scan_have_temp = 0;
-static char scan_temp_path[4096];
-static char scan_interrupt_message[4352];
-
-static void on_scan_interrupt(int sig) {
-  if (scan_have_temp) unlink(scan_temp_path);
-  ssize_t ignored = write(STDERR_FILENO, scan_interrupt_message, strlen(scan_interrupt_message));
-  (void)ignored;
-  _exit(128 + sig);
-}
-
-/* Replace the generic handler: its message would say nothing of the
- * finished points kept in the checkpoint. */
-static void protect_scan_output(jg_output *out, const char *checkpoint_path) {
-  const char *tmp = out ? jg_output_temp_path(out) : NULL;
-  scan_have_temp = 0;
-  if (tmp && strlen(tmp) < sizeof scan_temp_path) {
-    strcpy(scan_temp_path, tmp);
-    scan_have_temp = 1;
-  }
+/* The generic handler removes the table's temporary file; its message
+ * would say nothing of the finished points kept in the checkpoint. */
+static void protect_scan_output(const char *checkpoint_path) {
+  char message[4352];
   if (checkpoint_path)
-    snprintf(scan_interrupt_message, sizeof scan_interrupt_message,
+    snprintf(message, sizeof message,
              "\njeansgrow scan: interrupted; the finished points are kept in %s: run the same "
              "command with --resume to finish\n", checkpoint_path);
   else
-    snprintf(scan_interrupt_message, sizeof scan_interrupt_message,
-             "\njeansgrow scan: interrupted; no output was written\n");
-  struct sigaction sa;
-  memset(&sa, 0, sizeof sa);
-  sa.sa_handler = on_scan_interrupt;
-  sigemptyset(&sa.sa_mask);
-  sigaction(SIGINT, &sa, NULL);
-  sigaction(SIGTERM, &sa, NULL);
+    snprintf(message, sizeof message, "\njeansgrow scan: interrupted; no output was written\n");
+  cli_protect_interrupts(message);
 }
 
 /* ---- the command ------------------------------------------------------- */
@@ -288,7 +265,6 @@ static void setup_release(scan_setup *su, int keep_checkpoint) {
   su->checkpoint = NULL;
   if (su->out) cli_discard_output(su->out);
   su->out = NULL;
-  scan_have_temp = 0;
   jg_scan_free(su->scan);
   su->scan = NULL;
   jg_scan_grid_clear(&su->grid);
@@ -344,7 +320,7 @@ static int scan_prepare(const cli_command *cmd, int argc, char **argv, int write
     }
     snprintf(su->checkpoint_path, n, "%s.checkpoint", path);
   }
-  protect_scan_output(NULL, su->checkpoint_path);
+  protect_scan_output(su->checkpoint_path);
   st = jg_scan_checkpoint_open(su->scan, su->checkpoint_path, su->opt.resume, &su->checkpoint,
                                &err);
   if (st != JG_OK) return cli_report(&err);
@@ -360,7 +336,6 @@ static int scan_finish(scan_setup *su, double t0, int threads, int ranks) {
     setup_release(su, 1);
     return rc;
   }
-  protect_scan_output(su->out, su->checkpoint_path);
   jg_error err;
   jg_error_clear(&err);
   jg_status st = jg_scan_write_table(s, c, jg_output_stream(su->out), &err);
@@ -371,7 +346,6 @@ static int scan_finish(scan_setup *su, double t0, int threads, int ranks) {
   jg_output *out = su->out;
   su->out = NULL;
   rc = cli_commit_output(out);
-  scan_have_temp = 0;
   if (rc != EXIT_OK) {
     setup_release(su, 1);
     return rc;
