@@ -47,6 +47,7 @@ typedef struct param_spec {
   {{key, "integer", "", def, allowed, meaning}, KIND_INTEGER, P_OFF(field), 0, 0, 0, 0, lo, hi, 0, 0, NULL}
 
 static const char *const sound_speed_words[] = {"fluctuating", "isothermal", "adiabatic", NULL};
+static const char *const stepper_words[] = {"msbdf+rk8pd", "msbdf", NULL};
 
 static const param_spec specs[] = {
     REQUIRED_NUMBER("cosmology.hubble_h", cosmology.hubble_h, "", "0 < value <= 5", 0, 1, 5, 0,
@@ -108,6 +109,11 @@ static const param_spec specs[] = {
       "\"fluctuating\"", "fluctuating, isothermal or adiabatic",
       "gas pressure model: delta_T evolved (scale dependent), or uniform with gamma = 1 or 5/3"},
      KIND_CHOICE, P_OFF(perturbations.sound_speed), 0, 0, 0, 0, 0, 2, 0, 0, sound_speed_words},
+    {{"perturbations.stepper", "one of \"msbdf+rk8pd\", \"msbdf\"", "", "\"msbdf+rk8pd\"",
+      "msbdf+rk8pd or msbdf",
+      "GSL steppers: implicit msbdf while the drag and Compton rates exceed 50 H, explicit "
+      "rk8pd after; or msbdf throughout"},
+     KIND_CHOICE, P_OFF(perturbations.stepper), 0, 0, 0, 0, 0, 1, 0, 0, stepper_words},
     NUMBER("perturbations.rel_tol", perturbations.rel_tol, "", "1e-8", "1e-13 <= value <= 1e-3",
            1e-13, 0, 1e-3, 0, "relative tolerance of the perturbation integration"),
     NUMBER("perturbations.abs_tol", perturbations.abs_tol, "", "1e-10", "0 < value <= 1e-3", 0,
@@ -161,6 +167,7 @@ void jg_params_set_defaults(jg_params *p) {
   p->perturbations.n_k_values = 0;
   p->perturbations.z_initial = 1.0e4;
   p->perturbations.sound_speed = JG_SOUND_SPEED_FLUCTUATING;
+  p->perturbations.stepper = JG_PERTURB_STEPPER_MSBDF_RK8PD;
   p->perturbations.rel_tol = 1e-8;
   p->perturbations.abs_tol = 1e-10;
 

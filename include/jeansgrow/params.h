@@ -55,6 +55,15 @@ typedef enum {
   JG_SOUND_SPEED_ADIABATIC = 2    /* delta_T = (2/3) delta_b: uniform, gamma = 5/3 */
 } jg_sound_speed_model;
 
+/* How the perturbation equations are integrated. */
+typedef enum {
+  /* GSL msbdf (implicit, analytic Jacobian) while the drag and Compton rates
+   * make the system stiff, then GSL rk8pd (explicit, 8th order). */
+  JG_PERTURB_STEPPER_MSBDF_RK8PD = 0,
+  /* GSL msbdf from z_initial to the end. */
+  JG_PERTURB_STEPPER_MSBDF = 1
+} jg_perturb_stepper;
+
 /* The linear perturbations (group `perturbations`). */
 typedef struct jg_perturb_settings {
   double k_min;          /* 1/Mpc, comoving; first point of the log-spaced grid */
@@ -64,7 +73,8 @@ typedef struct jg_perturb_settings {
   int n_k_values;
   double z_initial;      /* start of the integration */
   jg_sound_speed_model sound_speed;
-  double rel_tol;        /* relative tolerance of the stiff integration */
+  jg_perturb_stepper stepper;
+  double rel_tol;        /* relative tolerance of the integration */
   double abs_tol;        /* absolute tolerance (contrasts per unit initial CDM contrast) */
 } jg_perturb_settings;
 

@@ -43,9 +43,10 @@
  *
  * Objects: a jg_perturb_model (coefficients precomputed once, read-only,
  * share it between threads) and a jg_perturb_workspace per thread (the GSL
- * drivers; allocate once, reuse for every k). Integration: GSL msbdf with
- * the analytic Jacobian; the requested redshifts are reached by driving the
- * integration to each of them in turn.
+ * drivers; allocate once, reuse for every k). Integration (jg_perturb_stepper):
+ * GSL msbdf with the analytic Jacobian while the drag and Compton rates make
+ * the system stiff, then by default GSL's explicit rk8pd; the requested
+ * redshifts are reached by driving the integration to each of them in turn.
  */
 #ifndef JEANSGROW_PERTURB_H
 #define JEANSGROW_PERTURB_H
@@ -147,6 +148,15 @@ jg_status jg_perturb_check_wavenumber(const jg_perturb_model *m, double k, jg_er
 /* One per thread; reusable for any k of this model. */
 jg_perturb_workspace *jg_perturb_workspace_new(const jg_perturb_model *m, jg_error *err);
 void jg_perturb_workspace_free(jg_perturb_workspace *w);
+
+/* Work done through this workspace since it was created: right-hand-side
+ * evaluations (including the two per Jacobian for its x-derivative) and
+ * Jacobian evaluations, over every solve. For benchmarks and diagnostics. */
+typedef struct jg_perturb_work {
+  long rhs_evals;
+  long jacobian_evals;
+} jg_perturb_work;
+jg_perturb_work jg_perturb_workspace_work(const jg_perturb_workspace *w);
 
 /* ---- results --------------------------------------------------------------- */
 

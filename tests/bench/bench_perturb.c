@@ -1,9 +1,10 @@
 /*
  * Benchmark of the perturbation solver on the reference cosmology (defaults
- * of jg_params_set_defaults: Planck 2018, fluctuating sound speed, rel_tol
- * 1e-8, abs_tol 1e-10): the cost of one k-mode and of the 128-mode default
- * grid (1 to 5000 /Mpc) from z_initial = 1e4 to z = 10 with 7 output
- * redshifts, as the median of repeated runs, and the peak memory.
+ * of jg_params_set_defaults: Planck 2018, fluctuating sound speed, GSL
+ * msbdf then rk8pd, rel_tol 1e-8, abs_tol 1e-10): the cost of one k-mode and
+ * of the 128-mode default grid (1 to 5000 /Mpc) from z_initial = 1e4 to
+ * z = 10 with 7 output redshifts, as the median of repeated runs, the same
+ * grid with msbdf throughout, and the peak memory.
  *
  * Then the comparison with SciPy on the same work: 16 modes of that grid,
  * the same 7 redshifts. Equal nominal tolerances are not equal accuracy
@@ -12,11 +13,13 @@
  * over a ladder of tolerances (abs_tol = rel_tol / 100, the default ratio)
  * and their errors are measured against a tight reference: this solver at
  * rel_tol 1e-12, abs_tol 1e-14, which the SciPy script cross-checks with
- * SciPy's Radau at the same tolerance. The headline ratio compares the
- * cheapest tolerance of each solver that reaches a common error target in
- * delta_b/delta_c; the ratio at the default (equal nominal) tolerance is
- * printed too. Costs on that ladder are the best of several runs of all 16
- * modes (the least disturbed by other processes), per mode.
+ * SciPy's Radau at the same tolerance. Two ratios are printed: at the
+ * same (default) tolerance, the comparison the perturbation issue asks for,
+ * and the stricter one at matched accuracy, between the cheapest tolerance
+ * of each solver that reaches a common error target in delta_b/delta_c.
+ * Costs on that ladder are the best of several runs of all 16 modes (the
+ * least disturbed by other processes), per mode; evaluations are
+ * right-hand sides plus Jacobians per mode, as SciPy's nfev + njev.
  *
  * Usage: bench_perturb [DIR]
  *   Writes DIR/perturb_coefficients.txt (the medium coefficients on a grid
@@ -58,6 +61,8 @@ static double median(double *v, int n) {
 
 #define N_Z 7
 #define N_REF 16
+/* The default stepper of jg_params_set_defaults, as the tables name it. */
+#define STEPPER_NAME "msbdf+rk8pd"
 
 /* The tolerance ladder of the same-work comparison (rel_tol; abs_tol is
  * rel_tol / 100 as in the defaults) and the reference tolerance. Also read
@@ -76,20 +81,6 @@ static const double targets[] = {1e-6, 1e-5, 1e-7};
 typedef struct ladder_row {
   double rtol, atol, err_ratio, err_dc, ms, evals;
 } ladder_row;
-
-/* A medium that counts its evaluations (right-hand sides, Jacobians,
- * outputs) around the real one: the work measure comparable to SciPy's
- * function-evaluation count. Used for an untimed pass only. */
-typedef struct counting_medium {
-  jg_medium inner;
-  long *calls;
-} counting_medium;
-
-static int counting_eval(const void *ctx, double ln_a, jg_medium_coefficients *out) {
-  const counting_medium *c = ctx;
-  (*c->calls)++;
-  return c->inner.eval(c->inner.ctx, ln_a, out);
-}
 
 /* The 16 benchmark modes: every (n_k - 1)/15-th of the grid, ends included. */
 static int solve_set(const jg_perturb_model *m, jg_perturb_workspace *w, const double *ks,
@@ -129,29 +120,20 @@ static int run_tolerance(const jg_thermal *th, const jg_perturb_settings *base, 
     double t = now() - a;
     if (r == 0 || t < best) best = t;
   }
-  /* The same model once more through the counting medium (same
-   * coefficients, same initial conditions: identical results). */
-  long calls = 0;
-  counting_medium cm = {{0}, &calls};
-  jg_medium counted = cm.inner;
-  if (!bad) {
-    cm.inner = *jg_perturb_model_medium(m);
-    counted = cm.inner;
-    counted.eval = counting_eval;
-    counted.ctx = &cm;
-  }
-  jg_perturb_model *mc = bad ? NULL : jg_perturb_model_new_medium(&counted, &s, NULL, err);
-  jg_perturb_workspace *wc = mc ? jg_perturb_workspace_new(mc, err) : NULL;
+  /* Evaluations per mode: the workspace counts them; one more untimed run
+   * of the same modes (identical results) measures them alone. */
   static jg_perturb_point tmp[N_REF][N_Z];
-  bad = bad || !wc || solve_set(mc, wc, ks, z, tmp, err);
+  jg_perturb_work before = jg_perturb_workspace_work(w);
+  bad = bad || solve_set(m, w, ks, z, tmp, err);
+  jg_perturb_work after = jg_perturb_workspace_work(w);
+  const long calls = after.rhs_evals - before.rhs_evals + after.jacobian_evals -
+                     before.jacobian_evals;
   row->rtol = rtol;
   row->atol = atol;
   row->ms = 1e3 * best / N_REF;
   row->evals = (double)calls / N_REF;
   row->err_ratio = row->err_dc = 0.0;
   if (!bad && ref) set_errors(out, ref, &row->err_ratio, &row->err_dc);
-  jg_perturb_workspace_free(wc);
-  jg_perturb_model_free(mc);
   jg_perturb_workspace_free(w);
   jg_perturb_model_free(m);
   return bad;
@@ -252,16 +234,41 @@ int main(int argc, char **argv) {
     tn[r] = now() - a;
   }
   double one = median(t1, R1), all = median(tn, RN), lim = median(tl, R1);
+  /* The same grid with msbdf throughout, for the gain of the stepper switch. */
+  double t_msbdf[RN];
+  {
+    jg_perturb_settings s = p.perturbations;
+    s.stepper = JG_PERTURB_STEPPER_MSBDF;
+    jg_perturb_model *mm = jg_perturb_model_new(th, &s, NULL, &err);
+    jg_perturb_workspace *wm = mm ? jg_perturb_workspace_new(mm, &err) : NULL;
+    for (int r = 0; wm && r < RN; r++) {
+      double a = now();
+      for (int i = 0; i < n_k; i++)
+        if (jg_perturb_solve(mm, wm, k[i], z, N_Z, out[i], &err) != JG_OK) break;
+      t_msbdf[r] = now() - a;
+    }
+    if (!wm || err.status != JG_OK) {
+      fprintf(stderr, "bench_perturb (msbdf throughout): %s\n", err.message);
+      return 1;
+    }
+    jg_perturb_workspace_free(wm);
+    jg_perturb_model_free(mm);
+  }
+  double all_msbdf = median(t_msbdf, RN);
   struct rusage ru;
   getrusage(RUSAGE_SELF, &ru);
-  printf("# perturbation solver, reference cosmology, %s sound speed, rel_tol %g, abs_tol %g\n",
+  printf("# perturbation solver, reference cosmology, %s sound speed, GSL %s, rel_tol %g, "
+         "abs_tol %g\n",
          p.perturbations.sound_speed == JG_SOUND_SPEED_FLUCTUATING ? "fluctuating" : "uniform",
-         p.perturbations.rel_tol, p.perturbations.abs_tol);
+         STEPPER_NAME, p.perturbations.rel_tol, p.perturbations.abs_tol);
   printf("model build (coefficient tables)     %10.3f ms\n", 1e3 * t_model);
   printf("one mode, k = 300 /Mpc, %d redshifts  %10.3f ms (median of %d)\n", N_Z, 1e3 * one, R1);
   printf("large-scale limit with k^2 terms     %10.3f ms (median of %d)\n", 1e3 * lim, R1);
   printf("%d modes, k = %g..%g /Mpc          %10.3f ms (median of %d), %.3f ms per mode\n", n_k,
          k[0], k[n_k - 1], 1e3 * all, RN, 1e3 * all / n_k);
+  printf("the same, msbdf throughout            %10.3f ms (median of %d), %.3f ms per mode: "
+         "the switch to rk8pd saves a factor %.2f\n",
+         1e3 * all_msbdf, RN, 1e3 * all_msbdf / n_k, all_msbdf / all);
   printf("peak resident memory                 %10.1f MB\n", ru.ru_maxrss / 1024.0);
 
   /* Files for the SciPy comparison. */
@@ -328,7 +335,8 @@ int main(int argc, char **argv) {
     fprintf(stderr, "bench_perturb: cannot write %s\n", path);
     return 1;
   }
-  fprintf(f, "# this solver (GSL msbdf) over the tolerance ladder, 16 modes x %d redshifts\n", N_Z);
+  fprintf(f, "# this solver (GSL %s) over the tolerance ladder, 16 modes x %d redshifts\n",
+          STEPPER_NAME, N_Z);
   fprintf(f, "# rel_tol\tabs_tol\terr_b_over_c\terr_delta_c\tms_per_mode\tevals_per_mode\n");
   for (int t = 0; t < N_LADDER; t++)
     fprintf(f, "%.3g\t%.3g\t%.6e\t%.6e\t%.6f\t%.1f\n", c_rows[t].rtol, c_rows[t].atol,
@@ -351,7 +359,7 @@ int main(int argc, char **argv) {
            "%.1e, delta_c %.1e\n", REF_RTOL, radau[0], radau[1]);
   printf("cost: this solver best of %d runs%s, per mode\n", LADDER_REPEATS,
          n_s > 0 ? ", SciPy as its line below says" : "");
-  printf("%-8s | %-41s | %s\n", "", "this solver (GSL msbdf)",
+  printf("%-8s | %-41s | %s\n", "", "this solver (GSL " STEPPER_NAME ")",
          n_s > 0 ? "SciPy solve_ivp BDF" : "(SciPy: run tests/bench/scipy_perturb.py DIR)");
   printf("%-8s | %9s %9s %9s %9s | %9s %9s %9s %9s\n", "rel_tol", "err b/c", "err d_c",
          "ms/mode", "evals", "err b/c", "err d_c", "ms/mode", "f+J evals");
@@ -372,10 +380,12 @@ int main(int argc, char **argv) {
       for (int i = 0; i < n_s; i++)
         if (fabs(c_rows[t].rtol / p.perturbations.rel_tol - 1.0) < 1e-6 &&
             fabs(s_rows[i].rtol / c_rows[t].rtol - 1.0) < 1e-6)
-          printf("equal nominal tolerance (rel_tol %g): SciPy %.1f ms/mode, this solver %.3f "
-                 "ms/mode: %.0f times faster (errors in delta_b/delta_c: %.1e here, %.1e "
-                 "SciPy)\n",
+          printf("same tolerance (the issue's benchmark; rel_tol %g, the default): SciPy %.1f "
+                 "ms/mode, this solver %.3f ms/mode: %.0f times faster%s (errors in "
+                 "delta_b/delta_c: %.1e here, %.1e SciPy)\n",
                  c_rows[t].rtol, s_rows[i].ms, c_rows[t].ms, s_rows[i].ms / c_rows[t].ms,
+                 s_rows[i].ms / c_rows[t].ms >= 100.0 ? " (target 100x met)"
+                                                      : " (below the 100x target)",
                  c_rows[t].err_ratio, s_rows[i].err_ratio);
     for (int q = 0; q < N_TARGETS; q++) {
       int ic = cheapest(c_rows, N_LADDER, targets[q]), is = cheapest(s_rows, n_s, targets[q]);
@@ -385,11 +395,9 @@ int main(int argc, char **argv) {
         continue;
       }
       const double ratio = s_rows[is].ms / c_rows[ic].ms;
-      printf("%s, delta_b/delta_c error <= %g: SciPy %.1f ms/mode (rel_tol %g), this solver "
-             "%.3f ms/mode (rel_tol %g): %.0f times faster%s\n",
-             q == 0 ? "HEADLINE matched accuracy" : "matched accuracy", targets[q], s_rows[is].ms,
-             s_rows[is].rtol, c_rows[ic].ms, c_rows[ic].rtol, ratio,
-             q == 0 ? (ratio >= 100.0 ? " (target 100x met)" : " (below the 100x target)") : "");
+      printf("matched accuracy (stricter), delta_b/delta_c error <= %g: SciPy %.1f ms/mode "
+             "(rel_tol %g), this solver %.3f ms/mode (rel_tol %g): %.0f times faster\n",
+             targets[q], s_rows[is].ms, s_rows[is].rtol, c_rows[ic].ms, c_rows[ic].rtol, ratio);
     }
   }
   jg_perturb_workspace_free(w);
