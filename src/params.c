@@ -23,7 +23,7 @@
 #include <string.h>
 #include <sys/stat.h>
 
-typedef enum { KIND_NUMBER, KIND_INTEGER, KIND_NUMBER_LIST, KIND_CHOICE } spec_kind;
+typedef enum { KIND_NUMBER, KIND_INTEGER, KIND_NUMBER_LIST, KIND_CHOICE, KIND_TEXT } spec_kind;
 
 typedef struct param_spec {
   jg_param_doc doc;
@@ -36,15 +36,16 @@ typedef struct param_spec {
   double lo, hi;       /* allowed range */
   int lo_open, hi_open;/* strict (>) or inclusive (>=) bounds */
   const char *const *choices; /* KIND_CHOICE: the allowed words, NULL-terminated; stored as int index */
+  size_t capacity;     /* KIND_TEXT: bytes of the char array, final zero included */
 } param_spec;
 
 #define P_OFF(field) offsetof(jg_params, field)
 #define NUMBER(key, field, unit, def, allowed, lo, lo_open, hi, hi_open, meaning) \
-  {{key, "number", unit, def, allowed, meaning}, KIND_NUMBER, P_OFF(field), 0, 0, 0, 0, lo, hi, lo_open, hi_open, NULL}
+  {{key, "number", unit, def, allowed, meaning}, KIND_NUMBER, P_OFF(field), 0, 0, 0, 0, lo, hi, lo_open, hi_open, NULL, 0}
 #define REQUIRED_NUMBER(key, field, unit, allowed, lo, lo_open, hi, hi_open, meaning) \
-  {{key, "number", unit, "required", allowed, meaning}, KIND_NUMBER, P_OFF(field), 0, 0, 0, 1, lo, hi, lo_open, hi_open, NULL}
+  {{key, "number", unit, "required", allowed, meaning}, KIND_NUMBER, P_OFF(field), 0, 0, 0, 1, lo, hi, lo_open, hi_open, NULL, 0}
 #define INTEGER(key, field, def, allowed, lo, hi, meaning) \
-  {{key, "integer", "", def, allowed, meaning}, KIND_INTEGER, P_OFF(field), 0, 0, 0, 0, lo, hi, 0, 0, NULL}
+  {{key, "integer", "", def, allowed, meaning}, KIND_INTEGER, P_OFF(field), 0, 0, 0, 0, lo, hi, 0, 0, NULL, 0}
 
 static const char *const sound_speed_words[] = {"fluctuating", "isothermal", "adiabatic", NULL};
 static const char *const stepper_words[] = {"msbdf+rk8pd", "msbdf", NULL};
@@ -101,19 +102,24 @@ static const param_spec specs[] = {
       "0 to 4096 values, each 1 <= k <= 1e5",
       "explicit wavenumbers, used instead of the grid (empty: use the grid)"},
      KIND_NUMBER_LIST, P_OFF(perturbations.k_values), P_OFF(perturbations.n_k_values), 0,
-     JG_MAX_WAVENUMBERS, 0, 1, 1e5, 0, 0, NULL},
+     JG_MAX_WAVENUMBERS, 0, 1, 1e5, 0, 0, NULL, 0},
     NUMBER("perturbations.z_initial", perturbations.z_initial, "", "10000.0",
            "1500 <= value <= 100000 and above every output redshift", 1500, 0, 1e5, 0,
            "redshift where CDM starts on the Meszaros growing mode, baryons at rest"),
     {{"perturbations.sound_speed", "one of \"fluctuating\", \"isothermal\", \"adiabatic\"", "",
       "\"fluctuating\"", "fluctuating, isothermal or adiabatic",
       "gas pressure model: delta_T evolved (scale dependent), or uniform with gamma = 1 or 5/3"},
-     KIND_CHOICE, P_OFF(perturbations.sound_speed), 0, 0, 0, 0, 0, 2, 0, 0, sound_speed_words},
+     KIND_CHOICE, P_OFF(perturbations.sound_speed), 0, 0, 0, 0, 0, 2, 0, 0, sound_speed_words, 0},
     {{"perturbations.stepper", "one of \"msbdf+rk8pd\", \"msbdf\"", "", "\"msbdf+rk8pd\"",
       "msbdf+rk8pd or msbdf",
       "GSL steppers: implicit msbdf while the drag and Compton rates exceed 50 H, explicit "
       "rk8pd after; or msbdf throughout"},
-     KIND_CHOICE, P_OFF(perturbations.stepper), 0, 0, 0, 0, 0, 1, 0, 0, stepper_words},
+     KIND_CHOICE, P_OFF(perturbations.stepper), 0, 0, 0, 0, 0, 1, 0, 0, stepper_words, 0},
+    {{"perturbations.initial_table", "quoted file name", "", "\"\"",
+      "empty, or a readable table (see the README); at most 1023 bytes",
+      "baryon start per wavenumber at z_initial, read from this file (relative names from the "
+      "current folder); empty: baryons empty and at rest"},
+     KIND_TEXT, P_OFF(perturbations.initial_table), 0, 0, 0, 0, 0, 0, 0, 0, NULL, JG_MAX_PATH},
     NUMBER("perturbations.rel_tol", perturbations.rel_tol, "", "1e-8", "1e-13 <= value <= 1e-3",
            1e-13, 0, 1e-3, 0, "relative tolerance of the perturbation integration"),
     NUMBER("perturbations.abs_tol", perturbations.abs_tol, "", "1e-10", "0 < value <= 1e-3", 0,
@@ -124,7 +130,7 @@ static const param_spec specs[] = {
       "1 to 512 values, each 0 <= z <= thermal.start_redshift", "redshifts reported by every "
       "table (added exactly to the history table)"},
      KIND_NUMBER_LIST, P_OFF(output.redshifts), P_OFF(output.n_redshifts), 1, JG_MAX_REDSHIFTS, 0,
-     0, 1e5, 0, 0, NULL},
+     0, 1e5, 0, 0, NULL, 0},
     INTEGER("output.history_rows", output.history_rows, "1000", "10 <= value <= 1000000", 10,
             1000000, "rows of the history table, uniform in ln(1+z)"),
     NUMBER("output.history_z_min", output.history_z_min, "", "0.0",
@@ -168,6 +174,7 @@ void jg_params_set_defaults(jg_params *p) {
   p->perturbations.z_initial = 1.0e4;
   p->perturbations.sound_speed = JG_SOUND_SPEED_FLUCTUATING;
   p->perturbations.stepper = JG_PERTURB_STEPPER_MSBDF_RK8PD;
+  p->perturbations.initial_table[0] = '\0';
   p->perturbations.rel_tol = 1e-8;
   p->perturbations.abs_tol = 1e-10;
 
@@ -364,6 +371,15 @@ static jg_status validate(const locator *loc, const jg_params *p, jg_error *err)
       }
       break;
     }
+    case KIND_TEXT: {
+      const char *text = (const char *)p + s->offset;
+      if (!memchr(text, '\0', s->capacity)) {
+        locate(loc, s->doc.key, where, sizeof where);
+        st = JG_FAIL(err, JG_ECONFIG, "%s%s is not terminated within %zu bytes", where,
+                     s->doc.key, s->capacity);
+      }
+      break;
+    }
     case KIND_NUMBER_LIST: {
       int n = *cint_at(p, s->count_offset);
       if (n < s->min_count || n > s->max_count) {
@@ -486,6 +502,23 @@ static jg_status read_spec(const locator *loc, const param_spec *s, const config
     }
     return JG_FAIL(err, JG_ECONFIG, "%s%s must be one of %s (got \"%s\")", where, s->doc.key,
                    s->doc.allowed, word);
+  }
+  case KIND_TEXT: {
+    if (type != CONFIG_TYPE_STRING)
+      return JG_FAIL(err, JG_ECONFIG, "%s%s must be quoted text such as \"file.txt\" (got %s)",
+                     where, s->doc.key, describe_value(set, got, sizeof got));
+    const char *text = config_setting_get_string(set);
+    size_t n = strlen(text);
+    if (n >= s->capacity)
+      return JG_FAIL(err, JG_ECONFIG, "%s%s is too long (%zu bytes; at most %zu)", where,
+                     s->doc.key, n, s->capacity - 1);
+    /* Written back into table headers as one line of libconfig text. */
+    for (size_t j = 0; j < n; j++)
+      if ((unsigned char)text[j] < 0x20 || text[j] == 0x7f)
+        return JG_FAIL(err, JG_ECONFIG, "%s%s holds a control character (byte %zu)", where,
+                       s->doc.key, j + 1);
+    memcpy((char *)p + s->offset, text, n + 1);
+    return JG_OK;
   }
   case KIND_NUMBER_LIST: {
     if (type != CONFIG_TYPE_ARRAY && type != CONFIG_TYPE_LIST)
@@ -1054,6 +1087,16 @@ void jg_params_write_header(FILE *f, const jg_params *p) {
     case KIND_CHOICE:
       fprintf(f, "\"%s\";\n", s->choices[*cint_at(p, s->offset)]);
       break;
+    case KIND_TEXT: {
+      /* libconfig's escapes, so that the line reads back as it was. */
+      fputc('"', f);
+      for (const char *c = (const char *)p + s->offset; *c; c++) {
+        if (*c == '"' || *c == '\\') fputc('\\', f);
+        fputc(*c, f);
+      }
+      fputs("\";\n", f);
+      break;
+    }
     case KIND_NUMBER_LIST: {
       int n = *cint_at(p, s->count_offset);
       const double *v = cnumber_at(p, s);

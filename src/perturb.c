@@ -213,7 +213,9 @@ struct jg_perturb_model {
   thermal_medium *owned;   /* the real-history tables, when built from a history */
   const jg_thermal *th;    /* NULL for a custom medium */
   jg_perturb_settings settings;
-  jg_perturb_start start;
+  jg_perturb_start start;   /* uniform start, or the table's first row (the k -> 0 start) */
+  jg_perturb_start_table *start_table; /* owned; NULL: the uniform start for every k */
+  int start_given;          /* a start was passed to the constructor */
   double x_init;           /* ln a at z_initial */
   double growth_init;      /* D_+ at z_initial (see the header) */
   double growth_rate_init; /* d ln D_+ / d ln a at z_initial */
@@ -291,6 +293,60 @@ static double explicit_start(const jg_perturb_model *m) {
   return start;
 }
 
+/* perturbations.initial_table, read and checked against the sound-speed
+ * model; NULL with err filled on failure. */
+static jg_perturb_start_table *read_start_table(const jg_perturb_settings *s, jg_error *err) {
+  const char *path = s->initial_table;
+  jg_perturb_start_table *t = jg_perturb_start_table_read(path, err);
+  if (!t) {
+    /* Name the key: the file's own message does not say where it came from. */
+    char why[JG_ERROR_MESSAGE_SIZE];
+    snprintf(why, sizeof why, "%s", err->message);
+    JG_FAIL(err, err->status, "perturbations.initial_table: %s", why);
+    return NULL;
+  }
+  if (s->sound_speed != JG_SOUND_SPEED_FLUCTUATING && jg_perturb_start_table_has_temperature(t)) {
+    JG_FAIL(err, JG_ECONFIG,
+            "perturbations.initial_table: %s has a delta_T/delta_c column, but "
+            "perturbations.sound_speed = \"%s\" fixes delta_T (drop the column or use "
+            "\"fluctuating\")",
+            path, s->sound_speed == JG_SOUND_SPEED_ADIABATIC ? "adiabatic" : "isothermal");
+    jg_perturb_start_table_free(t);
+    return NULL;
+  }
+  return t;
+}
+
+jg_status jg_perturb_check_start_table(const jg_perturb_settings *s, jg_error *err) {
+  if (!s) return JG_FAIL(err, JG_EINVAL, "jg_perturb_check_start_table: NULL settings");
+  if (!s->initial_table[0]) return JG_OK;
+  jg_perturb_start_table *t = read_start_table(s, err);
+  if (!t) return err->status;
+  jg_perturb_start_table_free(t);
+  return JG_OK;
+}
+
+/* Attach perturbations.initial_table to the model and take the k -> 0 start
+ * from its first row. */
+static jg_status attach_start_table(jg_perturb_model *m, jg_error *err) {
+  const char *path = m->settings.initial_table;
+  if (m->start_given)
+    return JG_FAIL(err, JG_EINVAL,
+                   "perturbations: give either a uniform start or perturbations.initial_table "
+                   "(%s), not both",
+                   path);
+  m->start_table = read_start_table(&m->settings, err);
+  if (!m->start_table) return err->status;
+  double t_lo, t_hi;
+  jg_perturb_start_table_range(m->start_table, &t_lo, &t_hi);
+  if (t_hi < m->k_lo || t_lo > m->k_hi)
+    return JG_FAIL(err, JG_ECONFIG,
+                   "perturbations.initial_table: %s covers k from %g to %g /Mpc, none of the "
+                   "accepted %g to %g /Mpc",
+                   path, t_lo, t_hi, m->k_lo, m->k_hi);
+  return jg_perturb_start_table_at(m->start_table, t_lo, &m->start, err);
+}
+
 /* Everything but the tables; shared by both constructors. */
 static jg_perturb_model *model_finish(jg_perturb_model *m, jg_error *err) {
   const jg_medium *md = &m->medium;
@@ -336,6 +392,10 @@ static jg_perturb_model *model_finish(jg_perturb_model *m, jg_error *err) {
   double kj2 = c.pressure > 0.0 ? c.gravity / c.pressure : 0.0;
   m->k_ref2 = (kj2 > 0.0 && isfinite(kj2)) ? kj2 : 1.0;
   m->x_explicit = explicit_start(m);
+  if (m->settings.initial_table[0] && attach_start_table(m, err) != JG_OK) {
+    jg_perturb_model_free(m);
+    return NULL;
+  }
   return m;
 }
 
@@ -364,6 +424,7 @@ jg_perturb_model *jg_perturb_model_new_medium(const jg_medium *medium,
   m->medium = *medium;
   m->settings = *s;
   if (start) m->start = *start;
+  m->start_given = start != NULL;
   m->k_lo = medium->k_min;
   m->k_hi = medium->k_max;
   return model_finish(m, err);
@@ -384,6 +445,7 @@ jg_perturb_model *jg_perturb_model_new(const jg_thermal *th, const jg_perturb_se
   }
   m->settings = *s;
   if (start) m->start = *start;
+  m->start_given = start != NULL;
   m->th = th;
   const double x_init = -log1p(s->z_initial);
   m->owned = thermal_medium_new(th, x_init, err);
@@ -410,6 +472,7 @@ jg_perturb_model *jg_perturb_model_new(const jg_thermal *th, const jg_perturb_se
 
 void jg_perturb_model_free(jg_perturb_model *m) {
   if (!m) return;
+  jg_perturb_start_table_free(m->start_table);
   thermal_medium_free(m->owned);
   free(m);
 }
@@ -423,6 +486,12 @@ double jg_perturb_model_initial_growth(const jg_perturb_model *m) { return m->gr
 void jg_perturb_model_k_range(const jg_perturb_model *m, double *k_min, double *k_max) {
   if (k_min) *k_min = m->k_lo;
   if (k_max) *k_max = m->k_hi;
+  if (m->start_table) {
+    double t_lo, t_hi;
+    jg_perturb_start_table_range(m->start_table, &t_lo, &t_hi);
+    if (k_min) *k_min = fmax(m->k_lo, t_lo);
+    if (k_max) *k_max = fmin(m->k_hi, t_hi);
+  }
 }
 
 jg_status jg_perturb_check_wavenumber(const jg_perturb_model *m, double k, jg_error *err) {
@@ -445,6 +514,10 @@ jg_status jg_perturb_check_wavenumber(const jg_perturb_model *m, double k, jg_er
                    "perturbations: k = %g /Mpc is above the upper limit %g /Mpc of the fluid "
                    "description",
                    k, m->k_hi);
+  if (m->start_table) {
+    jg_perturb_start unused;
+    return jg_perturb_start_table_at(m->start_table, k, &unused, err);
+  }
   return JG_OK;
 }
 
@@ -701,12 +774,12 @@ static jg_status order_redshifts(const jg_perturb_model *m, jg_perturb_workspace
   return JG_OK;
 }
 
-static void initial_mode(const jg_perturb_model *m, double *y) {
+static void initial_mode(const jg_perturb_model *m, const jg_perturb_start *start, double *y) {
   y[M_C] = 1.0;
   y[M_CP] = m->growth_rate_init;
-  y[M_B] = m->start.density_ratio;
-  y[M_BP] = m->start.velocity_ratio * m->growth_rate_init;
-  if (m->fluctuating) y[M_T] = m->start.temperature_ratio;
+  y[M_B] = start->density_ratio;
+  y[M_BP] = start->velocity_ratio * m->growth_rate_init;
+  if (m->fluctuating) y[M_T] = start->temperature_ratio;
 }
 
 static double safe_ratio(double num, double den) { return den != 0.0 ? num / den : 0.0; }
@@ -799,8 +872,13 @@ jg_status jg_perturb_solve(const jg_perturb_model *m, jg_perturb_workspace *w, d
   if (st == JG_OK) st = order_redshifts(m, w, z, n_z, err);
   if (st != JG_OK) return st;
   w->prm_mode.k2 = k * k;
+  jg_perturb_start start = m->start;
+  if (m->start_table && k > 0.0) {
+    st = jg_perturb_start_table_at(m->start_table, k, &start, err);
+    if (st != JG_OK) return st;
+  }
   double y[5];
-  initial_mode(m, y);
+  initial_mode(m, &start, y);
   return drive(m, w->drv_mode, k, "mode", y, m->dim_mode, z, n_z, w->order, emit_mode, out, err);
 }
 
@@ -812,7 +890,7 @@ jg_status jg_perturb_solve_limit(const jg_perturb_model *m, jg_perturb_workspace
   jg_status st = order_redshifts(m, w, z, n_z, err);
   if (st != JG_OK) return st;
   double y[16] = {0};
-  initial_mode(m, y);
+  initial_mode(m, &m->start, y);
   return drive(m, w->drv_limit, 0.0, "large-scale limit", y, m->dim_limit, z, n_z, w->order,
                emit_limit, out, err);
 }

@@ -788,6 +788,9 @@ void jg_scan_describe_point(const jg_scan *s, long long index, char *buf, size_t
  * failure this prevents. Consecutive points often share their cosmology
  * (when only later axes vary), so the background is built once per change. */
 static jg_status validate_points(const jg_scan *s, jg_error *err) {
+  /* The table is the same file at every point (a scan varies numbers only). */
+  jg_status table_st = jg_perturb_check_start_table(&s->base.perturbations, err);
+  if (table_st != JG_OK) return table_st;
   jg_params *p = malloc(sizeof *p);
   jg_cosmology *last = malloc(sizeof *last);
   if (!p || !last) {

@@ -282,7 +282,9 @@ Test(params, header_lines_read_back_as_the_same_parameters) {
                            "thermal.rel_tol=3e-9",
                            "thermal.grid_points=5000",
                            "output.redshifts=[900.0, 0.1, 12.5]",
-                           "output.history_z_min=0.5"};
+                           "output.history_z_min=0.5",
+                           /* a file name with a quote, a backslash and a space */
+                           "perturbations.initial_table=\"run \\\"7\\\"\\\\a.txt\""};
   load_ok(REFERENCE, changes, (int)(sizeof changes / sizeof changes[0]), &expected);
   char *header = header_of(&expected);
 
@@ -303,6 +305,7 @@ Test(params, header_lines_read_back_as_the_same_parameters) {
   load_ok(temp_file("minimal.cfg", minimal_text), overrides, n, &loaded);
   char *again = header_of(&loaded);
   cr_expect_str_eq(again, header);
+  cr_expect_str_eq(loaded.perturbations.initial_table, "run \"7\"\\a.txt");
   free(again);
   free(copy);
   free(header);

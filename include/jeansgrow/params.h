@@ -23,6 +23,7 @@ extern "C" {
 
 #define JG_MAX_REDSHIFTS 512 /* longest output.redshifts list */
 #define JG_MAX_WAVENUMBERS 4096 /* longest perturbations.k_values list / k_count */
+#define JG_MAX_PATH 1024 /* longest file name a parameter may hold, with its final zero */
 
 /* The cosmological model (group `cosmology`). */
 typedef struct jg_cosmology {
@@ -76,6 +77,9 @@ typedef struct jg_perturb_settings {
   jg_perturb_stepper stepper;
   double rel_tol;        /* relative tolerance of the integration */
   double abs_tol;        /* absolute tolerance (contrasts per unit initial CDM contrast) */
+  /* Baryon start per wavenumber from a table (see jg_perturb_start_table in
+   * perturb.h); empty: the uniform start (baryons empty and at rest). */
+  char initial_table[JG_MAX_PATH];
 } jg_perturb_settings;
 
 /* What the commands report (group `output`). */

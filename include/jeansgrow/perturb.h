@@ -109,6 +109,34 @@ typedef struct jg_perturb_start {
   double temperature_ratio; /* delta_T / delta_c (fluctuating model only) */
 } jg_perturb_start;
 
+/* ---- initial conditions from a table ------------------------------------ */
+
+/* The baryon start per wavenumber at z_initial, for runs that continue a
+ * Boltzmann code's solution (perturbations.initial_table). A text file;
+ * lines starting with '#' and blank lines are skipped; every other line
+ * holds, separated by blanks,
+ *   k [1/Mpc]   delta_b/delta_c   velocity ratio   [delta_T/delta_c]
+ * with k strictly increasing (at least two rows) and the same number of
+ * values on every row. The velocity ratio is
+ * (d delta_b/d ln a) / (d delta_c/d ln a), which on sub-horizon scales is
+ * the ratio theta_b/theta_c of the velocity divergences. Without the fourth
+ * column delta_T starts at 0. Values between rows are interpolated in ln k
+ * (GSL Steffen, or linear for two rows); wavenumbers outside the table are
+ * refused. The CDM keeps its Meszaros growing mode (delta_c = 1), and the
+ * k -> 0 reference starts from the first row. */
+typedef struct jg_perturb_start_table jg_perturb_start_table;
+jg_perturb_start_table *jg_perturb_start_table_read(const char *path, jg_error *err);
+void jg_perturb_start_table_free(jg_perturb_start_table *t);
+const char *jg_perturb_start_table_path(const jg_perturb_start_table *t);
+void jg_perturb_start_table_range(const jg_perturb_start_table *t, double *k_min, double *k_max);
+int jg_perturb_start_table_has_temperature(const jg_perturb_start_table *t);
+/* The start at k (thread-safe). */
+jg_status jg_perturb_start_table_at(const jg_perturb_start_table *t, double k,
+                                    jg_perturb_start *out, jg_error *err);
+/* Read and check settings->initial_table (if any) as a model would, without
+ * building one: for callers that must refuse a bad table before any work. */
+jg_status jg_perturb_check_start_table(const jg_perturb_settings *s, jg_error *err);
+
 /* ---- model and workspace -------------------------------------------------- */
 
 typedef struct jg_perturb_model jg_perturb_model;
