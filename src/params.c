@@ -49,6 +49,7 @@ typedef struct param_spec {
 
 static const char *const sound_speed_words[] = {"fluctuating", "isothermal", "adiabatic", NULL};
 static const char *const stepper_words[] = {"msbdf+rk8pd", "msbdf", NULL};
+static const char *const units_words[] = {"Mpc", "Mpc/h", NULL};
 
 static const param_spec specs[] = {
     REQUIRED_NUMBER("cosmology.hubble_h", cosmology.hubble_h, "", "0 < value <= 5", 0, 1, 5, 0,
@@ -92,15 +93,18 @@ static const param_spec specs[] = {
 
     NUMBER("perturbations.k_min", perturbations.k_min, "1/Mpc", "1.0", "1 <= value <= 1e5", 1,
            0, 1e5, 0,
-           "smallest comoving wavenumber of the log-spaced grid (photon pressure and Silk "
-           "damping are neglected, which needs k >= 1/Mpc)"),
+           "smallest comoving wavenumber of the log-spaced grid, in 1/Mpc whatever "
+           "output.units says (photon pressure and Silk damping are neglected, which needs "
+           "k >= 1/Mpc)"),
     NUMBER("perturbations.k_max", perturbations.k_max, "1/Mpc", "5000.0",
-           "k_min <= value <= 1e5", 1, 0, 1e5, 0, "largest comoving wavenumber of the grid"),
+           "k_min <= value <= 1e5", 1, 0, 1e5, 0,
+           "largest comoving wavenumber of the grid, in 1/Mpc whatever output.units says"),
     INTEGER("perturbations.k_count", perturbations.k_count, "128", "1 <= value <= 4096", 1,
             JG_MAX_WAVENUMBERS, "number of grid wavenumbers"),
     {{"perturbations.k_values", "list of numbers", "1/Mpc", "[]",
       "0 to 4096 values, each 1 <= k <= 1e5",
-      "explicit wavenumbers, used instead of the grid (empty: use the grid)"},
+      "explicit wavenumbers, used instead of the grid (empty: use the grid), in 1/Mpc "
+      "whatever output.units says"},
      KIND_NUMBER_LIST, P_OFF(perturbations.k_values), P_OFF(perturbations.n_k_values), 0,
      JG_MAX_WAVENUMBERS, 0, 1, 1e5, 0, 0, NULL, 0},
     NUMBER("perturbations.z_initial", perturbations.z_initial, "", "10000.0",
@@ -136,6 +140,10 @@ static const param_spec specs[] = {
     NUMBER("output.history_z_min", output.history_z_min, "", "0.0",
            "0 <= value < thermal.start_redshift", 0, 0, 1e5, 1,
            "last (lowest) redshift of the history table"),
+    {{"output.units", "one of \"Mpc\", \"Mpc/h\"", "", "\"Mpc\"", "Mpc or Mpc/h",
+      "units of what is written: k in 1/Mpc, masses in Msun, comoving lengths in Mpc; or "
+      "h/Mpc, Msun/h and Mpc/h with h = cosmology.hubble_h (inputs stay in 1/Mpc)"},
+     KIND_CHOICE, P_OFF(output.units), 0, 0, 0, 0, 0, 1, 0, 0, units_words, 0},
 };
 
 #define N_SPECS ((int)(sizeof specs / sizeof specs[0]))
@@ -182,6 +190,7 @@ void jg_params_set_defaults(jg_params *p) {
   memcpy(p->output.redshifts, default_redshifts, sizeof default_redshifts);
   p->output.history_rows = 1000;
   p->output.history_z_min = 0.0;
+  p->output.units = JG_UNITS_MPC;
 }
 
 const jg_param_doc *jg_param_doc_at(int i) {

@@ -1,15 +1,84 @@
 /*
  * The tables jeansgrow writes (see include/jeansgrow/report.h). Column names
  * are `name[unit]`; every table states its conventions in its header.
+ *
+ * The stages hand over wavenumbers in 1/Mpc, comoving lengths in Mpc and
+ * masses in M_sun; output.units = "Mpc/h" is applied here and nowhere else,
+ * at the moment a value is written.
  */
 #include "jeansgrow/report.h"
 
 #include <math.h>
 #include <stdlib.h>
+#include <string.h>
 
 #include "jeansgrow/constants.h"
 #include "jeansgrow/table.h"
 #include "report_tables.h"
+
+/* ---- units --------------------------------------------------------------- */
+
+/* What a column measures decides how output.units converts it. */
+typedef enum { Q_NONE, Q_KELVIN, Q_WAVENUMBER, Q_MASS, Q_LENGTH } quantity;
+
+/* The unit names, in the library's units (Mpc) and in h units (Mpc/h). The
+ * column lists below build their names from the same words. */
+#define U_MPC_WAVENUMBER "1/Mpc"
+#define U_MPC_MASS "Msun"
+#define U_MPC_LENGTH "Mpc"
+#define U_MPC_H_WAVENUMBER "h/Mpc"
+#define U_MPC_H_MASS "Msun/h"
+#define U_MPC_H_LENGTH "Mpc/h"
+
+static const struct {
+  const char *mpc, *mpc_h;
+  quantity q;
+} unit_names[] = {{U_MPC_WAVENUMBER, U_MPC_H_WAVENUMBER, Q_WAVENUMBER},
+                  {U_MPC_MASS, U_MPC_H_MASS, Q_MASS},
+                  {U_MPC_LENGTH, U_MPC_H_LENGTH, Q_LENGTH}};
+
+/* The factor that takes a value from the library's unit to the output's:
+ * k[h/Mpc] = k[1/Mpc] / h, M[Msun/h] = M[Msun] h, L[Mpc/h] = L[Mpc] h. */
+static double unit_factor(quantity q, jg_output_units units, double h) {
+  if (units != JG_UNITS_MPC_H) return 1.0;
+  switch (q) {
+  case Q_WAVENUMBER:
+    return 1.0 / h;
+  case Q_MASS:
+  case Q_LENGTH:
+    return h;
+  default:
+    return 1.0;
+  }
+}
+
+const char *jg_report_unit(const char *unit, jg_output_units units, double hubble_h,
+                           double *factor) {
+  for (size_t i = 0; i < sizeof unit_names / sizeof unit_names[0]; i++) {
+    if (strcmp(unit, unit_names[i].mpc) != 0) continue;
+    if (factor) *factor = unit_factor(unit_names[i].q, units, hubble_h);
+    return units == JG_UNITS_MPC_H ? unit_names[i].mpc_h : unit_names[i].mpc;
+  }
+  if (factor) *factor = 1.0;
+  return unit;
+}
+
+/* Index of the column and convention tables: a value outside the enum (a
+ * hand-filled struct that skipped jg_params_validate) reads as the default. */
+static jg_output_units table_units(jg_output_units units) {
+  return units == JG_UNITS_MPC_H ? JG_UNITS_MPC_H : JG_UNITS_MPC;
+}
+
+/* A column list is written once as COLUMNS(X), X(stem, QUANTITY) per
+ * column; these turn it into the names in either unit system and into the
+ * quantity of each column, so names and conversions cannot drift apart. */
+#define SUFFIX_NONE(u) ""
+#define SUFFIX_KELVIN(u) "[K]"
+#define SUFFIX_WAVENUMBER(u) "[" U_##u##_WAVENUMBER "]"
+#define SUFFIX_MASS(u) "[" U_##u##_MASS "]"
+#define NAME_IN_MPC(stem, q) stem SUFFIX_##q(MPC),
+#define NAME_IN_MPC_H(stem, q) stem SUFFIX_##q(MPC_H),
+#define QUANTITY_OF(stem, q) Q_##q,
 
 /* ---- history ------------------------------------------------------------ */
 
@@ -91,12 +160,20 @@ jg_status jg_report_history(FILE *f, const jg_params *p, const jg_thermal *th, j
 
 /* ---- epochs ------------------------------------------------------------- */
 
+static const char *const epochs_conventions_mpc_h[] = {
+    "units: comoving lengths in Mpc/h (Mpc times h), wavenumbers in h/Mpc (1/Mpc divided by "
+    "h), h = cosmology.hubble_h",
+    NULL};
+
 jg_status jg_report_epochs(FILE *f, const jg_params *p, const jg_epochs *e, jg_error *err) {
+  const jg_output_units units = p->output.units;
+  const double h = p->cosmology.hubble_h;
   const int n = jg_epochs_count();
   for (int i = 0; i < n; i++)
     if (!isfinite(jg_epochs_entry(e, i).value))
       return JG_FAIL(err, JG_ENUMERIC, "epochs: %s is not finite", jg_epochs_entry(e, i).name);
-  jg_table_write_preamble(f, "derived epochs (name, value, unit; '-' = dimensionless)", p, NULL);
+  jg_table_write_preamble(f, "derived epochs (name, value, unit; '-' = dimensionless)", p,
+                          units == JG_UNITS_MPC_H ? epochs_conventions_mpc_h : NULL);
   for (int i = 0; i < n; i++) {
     jg_epoch_entry en = jg_epochs_entry(e, i);
     fprintf(f, "# %s: %s\n", en.name, en.meaning);
@@ -104,78 +181,99 @@ jg_status jg_report_epochs(FILE *f, const jg_params *p, const jg_epochs *e, jg_e
   fprintf(f, "# name\tvalue\tunit\n");
   for (int i = 0; i < n; i++) {
     jg_epoch_entry en = jg_epochs_entry(e, i);
-    fprintf(f, "%s\t%.10g\t%s\n", en.name, en.value, en.unit[0] ? en.unit : "-");
+    double factor;
+    const char *unit = jg_report_unit(en.unit, units, h, &factor);
+    fprintf(f, "%s\t%.10g\t%s\n", en.name, en.value * factor, unit[0] ? unit : "-");
   }
   return JG_OK;
 }
 
 /* ---- scales ------------------------------------------------------------- */
 
-const char *const jg__report_scales_columns[] = {
-    "z",
-    "T_gas[K]",
-    "x_e",
-    "k_J[1/Mpc]",
-    "M_J[Msun]",
-    "k_F[1/Mpc]",
-    "M_F[Msun]",
-    "k_half[1/Mpc]",
-    "M_half[Msun]",
-    "half_found",
-    "k_J_adiabatic[1/Mpc]",
-    "M_J_adiabatic[Msun]",
-    "k_F_integral[1/Mpc]",
-    "M_F_integral[Msun]",
-    "k_F_integral_adiabatic[1/Mpc]",
-    "M_F_integral_adiabatic[Msun]",
-    "M_F_halfwave[Msun]",
-    "M_F_integral_halfwave[Msun]",
-    "k_F_b_over_c[1/Mpc]",
-    "b_over_c_large",
-    "delta_m_large",
-    "rate_m_large",
-};
-#define N_SCALES_COLUMNS JG__REPORT_SCALES_COLUMNS
-#define scales_columns jg__report_scales_columns
-#define scales_conventions jg__report_scales_conventions
-_Static_assert(sizeof jg__report_scales_columns / sizeof jg__report_scales_columns[0] ==
-                   JG__REPORT_SCALES_COLUMNS,
-               "JG__REPORT_SCALES_COLUMNS must match the column table");
+#define SCALES_COLUMNS(X)                                                                  \
+  X("z", NONE)                                                                             \
+  X("T_gas", KELVIN)                                                                       \
+  X("x_e", NONE)                                                                           \
+  X("k_J", WAVENUMBER)                                                                     \
+  X("M_J", MASS)                                                                           \
+  X("k_F", WAVENUMBER)                                                                     \
+  X("M_F", MASS)                                                                           \
+  X("k_half", WAVENUMBER)                                                                  \
+  X("M_half", MASS)                                                                        \
+  X("half_found", NONE)                                                                    \
+  X("k_J_adiabatic", WAVENUMBER)                                                           \
+  X("M_J_adiabatic", MASS)                                                                 \
+  X("k_F_integral", WAVENUMBER)                                                            \
+  X("M_F_integral", MASS)                                                                  \
+  X("k_F_integral_adiabatic", WAVENUMBER)                                                  \
+  X("M_F_integral_adiabatic", MASS)                                                        \
+  X("M_F_halfwave", MASS)                                                                  \
+  X("M_F_integral_halfwave", MASS)                                                         \
+  X("k_F_b_over_c", WAVENUMBER)                                                            \
+  X("b_over_c_large", NONE)                                                                \
+  X("delta_m_large", NONE)                                                                 \
+  X("rate_m_large", NONE)
 
-const char *const jg__report_scales_conventions[] = {
-    "k_J, M_J: isothermal Jeans scale, k_J = a sqrt(4 pi G rho_m) / c_s (comoving), "
-    "c_s^2 = k_B T_gas / (mu m_H); M_J = (4 pi/3) rho_m0 (pi/k_J)^3 (half-wavelength radius, "
-    "comoving mean matter density)",
-    "k_J_adiabatic, M_J_adiabatic: the same with c_s^2 = (5/3) k_B T_gas / (mu m_H)",
-    "k_F, M_F: filtering scale measured on the solved perturbations, "
-    "delta_b(k)/delta_b(k->0) = 1 - k^2/k_F^2 at small k (exact k^2 coefficient), with the "
-    "sound-speed model of perturbations.sound_speed; M_F = (4 pi/3) rho_m0 (2 pi/k_F)^3 "
-    "(full wavelength, Gnedin 2000); M_F_halfwave = (4 pi/3) rho_m0 (pi/k_F)^3 = M_F/8",
-    "k_F_integral, M_F_integral: Gnedin & Hui (1998) integral over the isothermal k_J history "
-    "from perturbations.z_initial (it counts pressure smoothing before the baryons are "
-    "released near z_drag, so it lies below k_F); _adiabatic: with gamma = 5/3",
-    "k_F_b_over_c: the same measurement on (delta_b/delta_c)(k) / (delta_b/delta_c)(k->0)",
-    "k_half, M_half: where delta_b/delta_c has fallen to half of its k -> 0 value; "
-    "M_half = (4 pi/3) rho_m0 (pi/k_half)^3; half_found = 0 when no crossing lies in the "
-    "accepted k range (k_half and M_half are then written as 0)",
-    "b_over_c_large, delta_m_large, rate_m_large: the k -> 0 limit: delta_b/delta_c, delta_m "
-    "per unit initial CDM contrast, and d ln delta_m / d ln a",
-    "units: k comoving 1/Mpc, masses M_sun, temperatures K",
-    NULL};
+const char *const jg__report_scales_columns[][JG__REPORT_SCALES_COLUMNS] = {
+    [JG_UNITS_MPC] = {SCALES_COLUMNS(NAME_IN_MPC)},
+    [JG_UNITS_MPC_H] = {SCALES_COLUMNS(NAME_IN_MPC_H)}};
+static const quantity scales_quantities[] = {SCALES_COLUMNS(QUANTITY_OF)};
+#define N_SCALES_COLUMNS JG__REPORT_SCALES_COLUMNS
+_Static_assert(sizeof scales_quantities / sizeof scales_quantities[0] ==
+                   JG__REPORT_SCALES_COLUMNS,
+               "JG__REPORT_SCALES_COLUMNS must match the column list");
+
+/* The lines both unit systems share; each table adds its own units line. */
+#define SCALES_CONVENTIONS                                                                   \
+  "k_J, M_J: isothermal Jeans scale, k_J = a sqrt(4 pi G rho_m) / c_s (comoving), "          \
+  "c_s^2 = k_B T_gas / (mu m_H); M_J = (4 pi/3) rho_m0 (pi/k_J)^3 (half-wavelength radius, " \
+  "comoving mean matter density)",                                                           \
+      "k_J_adiabatic, M_J_adiabatic: the same with c_s^2 = (5/3) k_B T_gas / (mu m_H)",      \
+      "k_F, M_F: filtering scale measured on the solved perturbations, "                     \
+      "delta_b(k)/delta_b(k->0) = 1 - k^2/k_F^2 at small k (exact k^2 coefficient), with "   \
+      "the sound-speed model of perturbations.sound_speed; M_F = (4 pi/3) rho_m0 "           \
+      "(2 pi/k_F)^3 (full wavelength, Gnedin 2000); M_F_halfwave = (4 pi/3) rho_m0 "         \
+      "(pi/k_F)^3 = M_F/8",                                                                  \
+      "k_F_integral, M_F_integral: Gnedin & Hui (1998) integral over the isothermal k_J "    \
+      "history from perturbations.z_initial (it counts pressure smoothing before the "       \
+      "baryons are released near z_drag, so it lies below k_F); _adiabatic: with gamma = "   \
+      "5/3",                                                                                 \
+      "k_F_b_over_c: the same measurement on (delta_b/delta_c)(k) / "                        \
+      "(delta_b/delta_c)(k->0)",                                                             \
+      "k_half, M_half: where delta_b/delta_c has fallen to half of its k -> 0 value; "       \
+      "M_half = (4 pi/3) rho_m0 (pi/k_half)^3; half_found = 0 when no crossing lies in the " \
+      "accepted k range (k_half and M_half are then written as 0)",                          \
+      "b_over_c_large, delta_m_large, rate_m_large: the k -> 0 limit: delta_b/delta_c, "     \
+      "delta_m per unit initial CDM contrast, and d ln delta_m / d ln a"
+
+const char *const jg__report_scales_conventions[][JG__REPORT_SCALES_CONVENTIONS] = {
+    [JG_UNITS_MPC] = {SCALES_CONVENTIONS, "units: k comoving 1/Mpc, masses M_sun, temperatures K",
+                      NULL},
+    [JG_UNITS_MPC_H] = {SCALES_CONVENTIONS,
+                        "units: k comoving h/Mpc (1/Mpc divided by h), masses M_sun/h (M_sun "
+                        "times h), temperatures K; h = cosmology.hubble_h",
+                        NULL}};
 
 int jg_report_scales_column_count(void) { return N_SCALES_COLUMNS; }
 
-const char *const *jg_report_scales_columns(void) { return jg__report_scales_columns; }
-
-const char *const *jg_report_scales_conventions(void) { return jg__report_scales_conventions; }
-
-const char *jg_report_scales_column_name(int i) {
-  return i >= 0 && i < N_SCALES_COLUMNS ? scales_columns[i] : NULL;
+const char *const *jg_report_scales_columns(jg_output_units units) {
+  return jg__report_scales_columns[table_units(units)];
 }
 
-void jg_report_scales_row(const jg_thermal *th, const jg_scales_point *s, double *row) {
+const char *const *jg_report_scales_conventions(jg_output_units units) {
+  return jg__report_scales_conventions[table_units(units)];
+}
+
+const char *jg_report_scales_column_name(jg_output_units units, int i) {
+  return i >= 0 && i < N_SCALES_COLUMNS ? jg_report_scales_columns(units)[i] : NULL;
+}
+
+void jg_report_scales_row(const jg_thermal *th, const jg_scales_point *s, jg_output_units units,
+                          double *row) {
   jg_thermal_state st;
   jg_thermal_state_at(th, s->z, &st);
+  /* The h of the cosmology these scales belong to (in a scan, the point's). */
+  const double h = jg_thermal_background(th)->cosmology.hubble_h;
   double values[N_SCALES_COLUMNS] = {s->z,
                                      st.T_gas,
                                      st.x_e,
@@ -198,18 +296,21 @@ void jg_report_scales_row(const jg_thermal *th, const jg_scales_point *s, double
                                      s->b_over_c_large,
                                      s->delta_m_large,
                                      s->growth_rate_large};
-  for (int i = 0; i < N_SCALES_COLUMNS; i++) row[i] = values[i];
+  for (int i = 0; i < N_SCALES_COLUMNS; i++)
+    row[i] = values[i] * unit_factor(scales_quantities[i], units, h);
 }
 
 jg_status jg_report_scales(FILE *f, const jg_params *p, const jg_thermal *th,
                            const jg_scales_point *s, int n, jg_error *err) {
+  const jg_output_units units = p->output.units;
+  const char *const *columns = jg_report_scales_columns(units);
   jg_table_write_preamble(f, "Jeans, filtering and half-suppression scales", p,
-                          scales_conventions);
-  jg_table_write_columns(f, scales_columns, N_SCALES_COLUMNS);
+                          jg_report_scales_conventions(units));
+  jg_table_write_columns(f, columns, N_SCALES_COLUMNS);
   double row[N_SCALES_COLUMNS];
   for (int i = 0; i < n; i++) {
-    jg_report_scales_row(th, &s[i], row);
-    jg_status st = jg_table_write_row(f, row, N_SCALES_COLUMNS, scales_columns, err);
+    jg_report_scales_row(th, &s[i], units, row);
+    jg_status st = jg_table_write_row(f, row, N_SCALES_COLUMNS, columns, err);
     if (st != JG_OK) return st;
   }
   return JG_OK;
@@ -217,31 +318,55 @@ jg_status jg_report_scales(FILE *f, const jg_params *p, const jg_thermal *th,
 
 /* ---- growth ------------------------------------------------------------- */
 
-static const char *const growth_columns[] = {
-    "z",      "k[1/Mpc]", "delta_c", "delta_b", "delta_m",     "delta_T",
-    "b_over_c", "b_over_m", "suppression", "rate_c", "rate_b", "rate_m", "D_ref", "rate_ref"};
-#define N_GROWTH_COLUMNS ((int)(sizeof growth_columns / sizeof growth_columns[0]))
+#define GROWTH_COLUMNS(X)                                                                 \
+  X("z", NONE)                                                                            \
+  X("k", WAVENUMBER)                                                                      \
+  X("delta_c", NONE)                                                                      \
+  X("delta_b", NONE)                                                                      \
+  X("delta_m", NONE)                                                                      \
+  X("delta_T", NONE)                                                                      \
+  X("b_over_c", NONE)                                                                     \
+  X("b_over_m", NONE)                                                                     \
+  X("suppression", NONE)                                                                  \
+  X("rate_c", NONE)                                                                       \
+  X("rate_b", NONE)                                                                       \
+  X("rate_m", NONE)                                                                       \
+  X("D_ref", NONE)                                                                        \
+  X("rate_ref", NONE)
 
-static const char *const growth_conventions[] = {
-    "delta_c, delta_b, delta_m, delta_T: CDM, baryon, total-matter and gas-temperature "
-    "contrasts per unit initial CDM contrast (delta_c = 1 at perturbations.z_initial on the "
-    "Meszaros growing mode; baryons start at rest and empty)",
-    "delta_m = (1 - f_b) delta_c + f_b delta_b; b_over_c = delta_b/delta_c; "
-    "b_over_m = delta_b/delta_m",
-    "suppression: b_over_c divided by its k -> 0 value at the same z (pressure alone)",
-    "rate_x: d ln delta_x / d ln a",
-    "D_ref, rate_ref: scale-independent growth D(z) of matter + dark energy without radiation "
-    "(Heath 1977 integral for w = -1; its differential equation otherwise), D -> a early, and "
-    "d ln D / d ln a, for reference (the same on every row of a redshift)",
-    "units: k comoving 1/Mpc",
-    NULL};
+static const quantity growth_quantities[] = {GROWTH_COLUMNS(QUANTITY_OF)};
+#define N_GROWTH_COLUMNS ((int)(sizeof growth_quantities / sizeof growth_quantities[0]))
+static const char *const growth_columns[][N_GROWTH_COLUMNS] = {
+    [JG_UNITS_MPC] = {GROWTH_COLUMNS(NAME_IN_MPC)},
+    [JG_UNITS_MPC_H] = {GROWTH_COLUMNS(NAME_IN_MPC_H)}};
+
+#define GROWTH_CONVENTIONS                                                                    \
+  "delta_c, delta_b, delta_m, delta_T: CDM, baryon, total-matter and gas-temperature "        \
+  "contrasts per unit initial CDM contrast (delta_c = 1 at perturbations.z_initial on the "   \
+  "Meszaros growing mode; baryons start at rest and empty)",                                  \
+      "delta_m = (1 - f_b) delta_c + f_b delta_b; b_over_c = delta_b/delta_c; "               \
+      "b_over_m = delta_b/delta_m",                                                           \
+      "suppression: b_over_c divided by its k -> 0 value at the same z (pressure alone)",     \
+      "rate_x: d ln delta_x / d ln a",                                                        \
+      "D_ref, rate_ref: scale-independent growth D(z) of matter + dark energy without "       \
+      "radiation (Heath 1977 integral for w = -1; its differential equation otherwise), "     \
+      "D -> a early, and d ln D / d ln a, for reference (the same on every row of a redshift)"
+
+static const char *const growth_conventions[][7] = {
+    [JG_UNITS_MPC] = {GROWTH_CONVENTIONS, "units: k comoving 1/Mpc", NULL},
+    [JG_UNITS_MPC_H] = {GROWTH_CONVENTIONS,
+                        "units: k comoving h/Mpc (1/Mpc divided by h); h = cosmology.hubble_h",
+                        NULL}};
 
 jg_status jg_report_growth(FILE *f, const jg_params *p, const jg_growth_grid *g, jg_error *err) {
+  const jg_output_units units = table_units(p->output.units);
+  const double h = p->cosmology.hubble_h;
+  const char *const *columns = growth_columns[units];
   /* Without a real history there is no reference growth: its two columns
    * are left out rather than filled. */
   const int n_columns = g->has_reference ? N_GROWTH_COLUMNS : N_GROWTH_COLUMNS - 2;
-  jg_table_write_preamble(f, "linear growth by wavenumber", p, growth_conventions);
-  jg_table_write_columns(f, growth_columns, n_columns);
+  jg_table_write_preamble(f, "linear growth by wavenumber", p, growth_conventions[units]);
+  jg_table_write_columns(f, columns, n_columns);
   for (int iz = 0; iz < g->n_z; iz++) {
     const double large = g->limit[iz].k0.b_over_c;
     for (int ik = 0; ik < g->n_k; ik++) {
@@ -253,7 +378,8 @@ jg_status jg_report_growth(FILE *f, const jg_params *p, const jg_growth_grid *g,
                                       pt->growth_c, pt->growth_b, pt->growth_m,
                                       g->has_reference ? g->D_ref[iz] : 0.0,
                                       g->has_reference ? g->f_ref[iz] : 0.0};
-      jg_status st = jg_table_write_row(f, row, n_columns, growth_columns, err);
+      for (int i = 0; i < n_columns; i++) row[i] *= unit_factor(growth_quantities[i], units, h);
+      jg_status st = jg_table_write_row(f, row, n_columns, columns, err);
       if (st != JG_OK) return st;
     }
   }

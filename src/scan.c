@@ -591,9 +591,10 @@ const jg_scan_evaluator *jg_scan_evaluator_thermal(void) { return &thermal_evalu
 /* The `scales` table's columns without its leading `z` (the scan writes z). */
 #define SCALES_REDSHIFT_COLUMNS (JG__REPORT_SCALES_COLUMNS - 1)
 
-static jg_status scales_evaluate(const jg_params *p, double *point_values,
-                                 double *redshift_values, void *workspace, jg_error *err) {
-  (void)workspace;
+/* The evaluator carries its units itself rather than reading
+ * p->output.units, so that its values always match its column names. */
+static jg_status scales_evaluate(const jg_params *p, jg_output_units units, double *point_values,
+                                 double *redshift_values, jg_error *err) {
   const int n_z = p->output.n_redshifts;
   jg_scales_point *s = malloc(sizeof *s * (size_t)n_z);
   if (!s) return JG_FAIL(err, JG_ENOMEM, "out of memory for the scales of a scan point");
@@ -612,7 +613,7 @@ static jg_status scales_evaluate(const jg_params *p, double *point_values,
   if (st == JG_OK) st = jg_scales_compute(m, w, p->output.redshifts, n_z, s, err);
   double row[SCALES_REDSHIFT_COLUMNS + 1];
   for (int j = 0; st == JG_OK && j < n_z; j++) {
-    jg_report_scales_row(th, &s[j], row);
+    jg_report_scales_row(th, &s[j], units, row);
     memcpy(redshift_values + (size_t)j * SCALES_REDSHIFT_COLUMNS, row + 1,
            sizeof(double) * SCALES_REDSHIFT_COLUMNS);
   }
@@ -624,18 +625,36 @@ static jg_status scales_evaluate(const jg_params *p, double *point_values,
   return st;
 }
 
-static const jg_scan_evaluator scales_evaluator_def = {
-    "scales (epochs; Jeans, filtering and half-suppression scales as jeansgrow scales)",
-    JG_SCAN_THERMAL_POINT_COLUMNS,
-    thermal_point_columns,
-    SCALES_REDSHIFT_COLUMNS,
-    jg__report_scales_columns + 1, /* the report module owns the names */
-    jg__report_scales_conventions,
-    NULL,
-    NULL,
-    scales_evaluate};
+static jg_status scales_evaluate_mpc(const jg_params *p, double *point_values,
+                                     double *redshift_values, void *workspace, jg_error *err) {
+  (void)workspace;
+  return scales_evaluate(p, JG_UNITS_MPC, point_values, redshift_values, err);
+}
 
-const jg_scan_evaluator *jg_scan_evaluator_scales(void) { return &scales_evaluator_def; }
+static jg_status scales_evaluate_mpc_h(const jg_params *p, double *point_values,
+                                       double *redshift_values, void *workspace, jg_error *err) {
+  (void)workspace;
+  return scales_evaluate(p, JG_UNITS_MPC_H, point_values, redshift_values, err);
+}
+
+/* The report module owns the names and conventions. */
+static const jg_scan_evaluator scales_evaluators[] = {
+    [JG_UNITS_MPC] = {"scales (epochs; Jeans, filtering and half-suppression scales as jeansgrow "
+                      "scales)",
+                      JG_SCAN_THERMAL_POINT_COLUMNS, thermal_point_columns,
+                      SCALES_REDSHIFT_COLUMNS, jg__report_scales_columns[JG_UNITS_MPC] + 1,
+                      jg__report_scales_conventions[JG_UNITS_MPC], NULL, NULL,
+                      scales_evaluate_mpc},
+    [JG_UNITS_MPC_H] = {"scales (epochs; Jeans, filtering and half-suppression scales as "
+                        "jeansgrow scales), in h units",
+                        JG_SCAN_THERMAL_POINT_COLUMNS, thermal_point_columns,
+                        SCALES_REDSHIFT_COLUMNS, jg__report_scales_columns[JG_UNITS_MPC_H] + 1,
+                        jg__report_scales_conventions[JG_UNITS_MPC_H], NULL, NULL,
+                        scales_evaluate_mpc_h}};
+
+const jg_scan_evaluator *jg_scan_evaluator_scales(jg_output_units units) {
+  return &scales_evaluators[units == JG_UNITS_MPC_H ? JG_UNITS_MPC_H : JG_UNITS_MPC];
+}
 
 /* ------------------------------------------------------------------------ */
 /* The scan.                                                                 */

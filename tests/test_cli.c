@@ -23,6 +23,7 @@
 #include <unistd.h>
 
 #include "jeansgrow/jeansgrow.h"
+#include "tables.h"
 
 extern char **environ;
 
@@ -382,92 +383,6 @@ Test(good_runs, program_help_and_every_command_help_exit_0_with_usage) {
   run_free(&r);
 }
 
-/* ---- tables -------------------------------------------------------------- */
-
-typedef struct table {
-  char *header;    /* all '#' lines */
-  char **columns;  /* from the last header line */
-  int n_columns;
-  double *cells;   /* row-major */
-  int n_rows;
-} table;
-
-static int column_index(const table *t, const char *name) {
-  for (int i = 0; i < t->n_columns; i++)
-    if (strcmp(t->columns[i], name) == 0) return i;
-  return -1;
-}
-
-static double cell(const table *t, int row, int col) { return t->cells[row * t->n_columns + col]; }
-
-/* Parse a table as numpy.loadtxt would: '#' lines are the header, the last
- * one names the columns; every other line is tab-separated finite numbers,
- * as many as there are columns. Each defect is reported. */
-static void parse_table(const char *text, table *t) {
-  memset(t, 0, sizeof *t);
-  size_t n = strlen(text);
-  t->header = calloc(n + 1, 1);
-  cr_assert_not_null(t->header);
-  char *copy = strdup(text);
-  cr_assert_not_null(copy);
-  char *last_header = NULL;
-  int cap_rows = 0;
-  for (char *line = copy; line && *line;) {
-    char *end = strchr(line, '\n');
-    cr_assert_not_null(end, "the table does not end with a newline");
-    *end = '\0';
-    if (line[0] == '#') {
-      cr_assert_eq(t->n_rows, 0, "a header line after the data: %s", line);
-      strcat(t->header, line);
-      strcat(t->header, "\n");
-      last_header = line;
-    } else {
-      if (!t->columns) {
-        cr_assert_not_null(last_header, "data before any header line");
-        cr_assert(strncmp(last_header, "# ", 2) == 0, "column line: %s", last_header);
-        char *save = NULL;
-        for (char *tok = strtok_r(last_header + 2, "\t", &save); tok;
-             tok = strtok_r(NULL, "\t", &save)) {
-          t->columns = realloc(t->columns, sizeof(char *) * (size_t)(t->n_columns + 1));
-          t->columns[t->n_columns++] = strdup(tok);
-        }
-      }
-      if (t->n_rows == cap_rows) {
-        cap_rows = cap_rows ? 2 * cap_rows : 256;
-        t->cells = realloc(t->cells, sizeof(double) * (size_t)cap_rows * (size_t)t->n_columns);
-        cr_assert_not_null(t->cells);
-      }
-      int col = 0;
-      char *p = line;
-      for (;;) {
-        char *stop;
-        double v = strtod(p, &stop);
-        cr_assert(stop != p && (*stop == '\t' || *stop == '\0'),
-                  "row %d, column %d is not a number: %.60s", t->n_rows + 1, col + 1, p);
-        cr_assert(isfinite(v), "row %d, column %d is not finite: %.60s", t->n_rows + 1, col + 1,
-                  p);
-        cr_assert_lt(col, t->n_columns, "row %d has more than %d columns", t->n_rows + 1,
-                     t->n_columns);
-        t->cells[t->n_rows * t->n_columns + col++] = v;
-        if (*stop == '\0') break;
-        p = stop + 1;
-      }
-      cr_assert_eq(col, t->n_columns, "row %d has %d columns, the header names %d",
-                   t->n_rows + 1, col, t->n_columns);
-      t->n_rows++;
-    }
-    line = end + 1;
-  }
-  free(copy);
-}
-
-static void table_free(table *t) {
-  for (int i = 0; i < t->n_columns; i++) free(t->columns[i]);
-  free(t->columns);
-  free(t->cells);
-  free(t->header);
-}
-
 /* Run `history` with `extra` arguments into a fresh folder and parse the
  * table; also checks that the run was clean and left exactly one file. */
 static void run_history(const char *const *extra, table *t) {
@@ -561,15 +476,11 @@ typedef struct epoch_line {
   double value;
 } epoch_line;
 
-Test(good_runs, epochs_prints_name_value_unit_lines) {
-  const char *args[] = {"epochs", REFERENCE, NULL};
-  run_result r;
-  run(args, &r);
-  cr_assert(exited_with(&r, 0), "epochs failed: %s", r.err);
-  cr_expect_str_empty(r.err);
-  epoch_line lines[128];
+/* Read the `name<TAB>value<TAB>unit` lines of an epochs output into lines[]
+ * (at most 128), checking their form; returns how many. */
+static int parse_epochs(const char *text, epoch_line *lines) {
   int n = 0;
-  char *copy = strdup(r.out);
+  char *copy = strdup(text);
   char *save = NULL;
   for (char *line = strtok_r(copy, "\n", &save); line; line = strtok_r(NULL, "\n", &save)) {
     if (line[0] == '#') continue;
@@ -588,6 +499,17 @@ Test(good_runs, epochs_prints_name_value_unit_lines) {
     n++;
   }
   free(copy);
+  return n;
+}
+
+Test(good_runs, epochs_prints_name_value_unit_lines) {
+  const char *args[] = {"epochs", REFERENCE, NULL};
+  run_result r;
+  run(args, &r);
+  cr_assert(exited_with(&r, 0), "epochs failed: %s", r.err);
+  cr_expect_str_empty(r.err);
+  epoch_line lines[128];
+  int n = parse_epochs(r.out, lines);
   /* Units as the command documents them ('-' for dimensionless). */
   const struct {
     const char *name, *unit;
@@ -805,6 +727,137 @@ Test(good_runs, run_refuses_a_file_as_its_folder) {
   char *kept = read_text(file);
   cr_expect(kept && strcmp(kept, "keep me\n") == 0, "the file was changed");
   free(kept);
+  run_free(&r);
+  remove_dir(dir);
+}
+
+/* ---- output.units = "Mpc/h" ----------------------------------------------- */
+
+#define IN_H_UNITS "output.units=\"Mpc/h\""
+
+/* h of the reference parameter file, which the conversions use. */
+static double reference_h(void) {
+  jg_params p;
+  jg_error err;
+  jg_error_clear(&err);
+  cr_assert_eq(jg_params_load(REFERENCE, NULL, 0, &p, &err), JG_OK, "%s", err.message);
+  return p.cosmology.hubble_h;
+}
+
+/* Run `command REFERENCE [--set output.units="Mpc/h"]` to stdout and parse
+ * the table. */
+static void run_table(const char *command, int in_h_units, table *t) {
+  const char *args[] = {command, REFERENCE, in_h_units ? "--set" : NULL, IN_H_UNITS, NULL};
+  run_result r;
+  run(args, &r);
+  cr_assert(exited_with(&r, 0), "%s failed: %s", command, r.err);
+  cr_expect_str_empty(r.err);
+  parse_table(r.out, t);
+  run_free(&r);
+}
+
+/* The reference `scales` and `growth` tables with output.units = "Mpc/h"
+ * are the default ones converted with h = cosmology.hubble_h (tables.h
+ * states the definition), the columns renamed (k_J[h/Mpc], M_J[Msun/h],
+ * k[h/Mpc], ...), and the conventions line states the units. Tolerance
+ * 1e-10 relative: each side is printed with 11 significant digits (%.10e),
+ * so each is rounded by at most 5e-11 relative. */
+Test(good_runs, scales_and_growth_in_h_units_are_the_default_tables_converted, .timeout = 120) {
+  const double h = reference_h();
+  static const char *const commands[] = {"scales", "growth"};
+  for (size_t i = 0; i < sizeof commands / sizeof commands[0]; i++) {
+    table in_mpc, in_h;
+    run_table(commands[i], 0, &in_mpc);
+    run_table(commands[i], 1, &in_h);
+    assert_h_units_table(&in_mpc, &in_h, h, -1, 1e-10, commands[i]);
+    cr_expect(strstr(in_mpc.header, "\n# units: k comoving 1/Mpc"), "%s: default units line",
+              commands[i]);
+    cr_expect(strstr(in_h.header, "\n# units: k comoving h/Mpc"), "%s: h units line:\n%s",
+              commands[i], in_h.header);
+    table_free(&in_mpc);
+    table_free(&in_h);
+  }
+}
+
+/* The reference epochs with output.units = "Mpc/h": the sound horizons in
+ * Mpc/h and k_eq in h/Mpc, converted from the default ones (definition in
+ * tables.h), every other line unchanged. Tolerance 1e-9 relative: epochs
+ * prints 10 significant digits (%.10g), each side rounded by at most 5e-10. */
+Test(good_runs, epochs_in_h_units_are_the_default_epochs_converted) {
+  const double h = reference_h();
+  const char *a_mpc[] = {"epochs", REFERENCE, NULL};
+  const char *a_h[] = {"epochs", REFERENCE, "--set", IN_H_UNITS, NULL};
+  run_result r_mpc, r_h;
+  run(a_mpc, &r_mpc);
+  run(a_h, &r_h);
+  cr_assert(exited_with(&r_mpc, 0) && exited_with(&r_h, 0), "epochs failed: %s%s", r_mpc.err,
+            r_h.err);
+  cr_expect(strstr(r_h.out, "\n# units: comoving lengths in Mpc/h"), "no units line:\n%s",
+            r_h.out);
+  epoch_line in_mpc[128], in_h[128];
+  int n = parse_epochs(r_mpc.out, in_mpc);
+  cr_assert_eq(parse_epochs(r_h.out, in_h), n, "different numbers of epochs");
+  int converted = 0;
+  for (int i = 0; i < n; i++) {
+    cr_expect_str_eq(in_h[i].name, in_mpc[i].name, "line %d", i + 1);
+    const char *h_unit;
+    int power = h_units_unit(in_mpc[i].unit, &h_unit);
+    cr_expect_str_eq(in_h[i].unit, h_unit, "unit of %s", in_mpc[i].name);
+    double expected = in_mpc[i].value * pow(h, power);
+    if (power == 0)
+      cr_expect(in_h[i].value == expected, "%s changed: %.12g, was %.12g", in_mpc[i].name,
+                in_h[i].value, expected);
+    else
+      cr_expect(fabs(in_h[i].value - expected) <= 1e-9 * fabs(expected),
+                "%s[%s] = %.12g, expected %.12g", in_h[i].name, h_unit, in_h[i].value, expected);
+    converted += power != 0;
+  }
+  cr_expect_eq(converted, 3, "r_star, r_drag and k_eq convert; %d lines did", converted);
+  run_free(&r_mpc);
+  run_free(&r_h);
+}
+
+/* `run` with output.units = "Mpc/h": the tables carry the h-unit columns,
+ * and the summary speaks the same units as the tables it summarises (its
+ * r_drag is the epochs table's, to its two decimals). */
+Test(good_runs, run_in_h_units_writes_and_summarises_in_h_units, .timeout = 120) {
+  char dir[64];
+  make_temp_dir(dir, sizeof dir);
+  const char *args[] = {"run", REFERENCE, "--set", "perturbations.k_count=8", "--set",
+                        IN_H_UNITS, "-o", dir, NULL};
+  run_result r;
+  run(args, &r);
+  cr_assert(exited_with(&r, 0), "run failed: %s", r.err);
+  static const char *const names[] = {"k_J[h/Mpc]", "M_J[Msun/h]", "k_F[h/Mpc]", "M_F[Msun/h]",
+                                      "k_half[h/Mpc]", "M_half[Msun/h]"};
+  for (size_t i = 0; i < sizeof names / sizeof names[0]; i++)
+    cr_expect(strstr(r.out, names[i]), "the summary has no %s:\n%s", names[i], r.out);
+  cr_expect(!strstr(r.out, "1/Mpc") && !strstr(r.out, "Msun]"), "default units:\n%s", r.out);
+  char path[128];
+  snprintf(path, sizeof path, "%s/epochs.txt", dir);
+  char *text = read_text(path);
+  cr_assert_not_null(text);
+  const char *at = strstr(text, "\nr_drag\t");
+  cr_assert_not_null(at);
+  char expected[64];
+  snprintf(expected, sizeof expected, "sound horizon r_drag = %.2f Mpc/h\n",
+           strtod(at + strlen("\nr_drag\t"), NULL));
+  cr_expect(strstr(r.out, expected), "the summary lacks \"%s\":\n%s", expected, r.out);
+  free(text);
+  static const struct {
+    const char *file, *column;
+  } tables[] = {{"scales.txt", "M_F[Msun/h]"}, {"growth.txt", "k[h/Mpc]"}};
+  for (size_t i = 0; i < sizeof tables / sizeof tables[0]; i++) {
+    snprintf(path, sizeof path, "%s/%s", dir, tables[i].file);
+    text = read_text(path);
+    cr_assert_not_null(text);
+    table t;
+    parse_table(text, &t);
+    cr_expect_geq(column_index(&t, tables[i].column), 0, "%s has no %s", tables[i].file,
+                  tables[i].column);
+    table_free(&t);
+    free(text);
+  }
   run_free(&r);
   remove_dir(dir);
 }

@@ -151,6 +151,24 @@ Test(params, override_of_a_whole_group_replaces_it) {
   cr_expect_eq(loaded.thermal.recombination_fudge, expected.thermal.recombination_fudge);
 }
 
+/* The two words of output.units, from the file or from --set, give the two
+ * unit systems; the default is 1/Mpc and M_sun. */
+Test(params, output_units_words_select_the_unit_system) {
+  load_ok(temp_file("minimal.cfg", minimal_text), NULL, 0, &loaded);
+  cr_expect_eq(loaded.output.units, JG_UNITS_MPC);
+  const char *set_h[] = {"output.units=\"Mpc/h\""};
+  load_ok(REFERENCE, set_h, 1, &loaded);
+  cr_expect_eq(loaded.output.units, JG_UNITS_MPC_H);
+  cr_expect_eq(loaded.perturbations.k_min, 1.0, "inputs are not converted");
+  load_ok(temp_file("minimal.cfg", "cosmology: { hubble_h = 0.6736; baryon_density_h2 = 0.02237; "
+                                   "cdm_density_h2 = 0.12; };\noutput: { units = \"Mpc/h\"; };\n"),
+          NULL, 0, &loaded);
+  cr_expect_eq(loaded.output.units, JG_UNITS_MPC_H);
+  const char *set_mpc[] = {"output.units=\"Mpc\""};
+  load_ok(REFERENCE, set_mpc, 1, &loaded);
+  cr_expect_eq(loaded.output.units, JG_UNITS_MPC);
+}
+
 Test(params, byte_order_mark_at_the_start_is_ignored) {
   char text[sizeof minimal_text + 3] = "\xEF\xBB\xBF";
   strcat(text, minimal_text);
@@ -173,6 +191,7 @@ Test(params, failing_load_leaves_the_output_untouched_and_says_why) {
       {BAD_DIR "/missing_file.cfg", NULL, JG_EIO, "missing_file.cfg"},
       {REFERENCE, "cosmology.cdm_density_h2=-1", JG_ECONFIG, "cosmology.cdm_density_h2"},
       {REFERENCE, "cosmology.sigma_8=0.8", JG_ECONFIG, "unknown key"},
+      {BAD_DIR "/output_units_unknown_word.cfg", NULL, JG_ECONFIG, "output.units must be one of"},
   };
   for (size_t i = 0; i < sizeof cases / sizeof cases[0]; i++) {
     memset(&loaded, 0xA5, sizeof loaded);
@@ -226,6 +245,18 @@ Test(params, validate_rejects_nan_and_infinity_anywhere) {
                 err.message);
     }
   }
+}
+
+/* A hand-filled struct with a unit system outside the enum is refused,
+ * not read as one of the two. */
+Test(params, validate_rejects_an_unknown_unit_system) {
+  jg_params_set_defaults(&expected);
+  expected.output.units = (jg_output_units)2;
+  jg_error err;
+  jg_error_clear(&err);
+  cr_expect_eq(jg_params_validate(&expected, &err), JG_ECONFIG);
+  cr_expect(strstr(err.message, "output.units must be one of Mpc or Mpc/h (got choice number 2)"),
+            "message: %s", err.message);
 }
 
 /* ---- documentation, loader and header agree ------------------------------ */
@@ -283,6 +314,7 @@ Test(params, header_lines_read_back_as_the_same_parameters) {
                            "thermal.grid_points=5000",
                            "output.redshifts=[900.0, 0.1, 12.5]",
                            "output.history_z_min=0.5",
+                           "output.units=\"Mpc/h\"",
                            /* a file name with a quote, a backslash and a space */
                            "perturbations.initial_table=\"run \\\"7\\\"\\\\a.txt\""};
   load_ok(REFERENCE, changes, (int)(sizeof changes / sizeof changes[0]), &expected);

@@ -10,8 +10,10 @@
 #include <string.h>
 
 #include "jeansgrow/jeans.h"
+#include "jeansgrow/report.h"
 #include "jeansgrow/scales.h"
 #include "support.h"
+#include "tables.h"
 
 TestSuite(scales, .init = quiet_gsl);
 
@@ -283,5 +285,45 @@ Test(scales, half_suppression_wavenumber) {
     cr_assert_eq(jg_background_growth_heath(r.bg, 1.0 / (1.0 + z[i]), &D, &err), JG_OK);
     ASSERT_REL(sc[i].growth_heath, D, 1e-14, "z = %g", z[i]);
   }
+  real_close(&r);
+}
+
+/* ---- the scales table in h units ----------------------------------------------- */
+
+/* A row of the scales table with output.units = "Mpc/h" is the default row
+ * converted with the h of the history's cosmology, and each column name
+ * carries its unit (the definition of h units is in tables.h). The
+ * conversion is one multiplication or division: 1e-15 relative; columns
+ * without a length or mass unit are the same doubles. */
+Test(scales, report_row_in_h_units_is_the_default_row_converted) {
+  real_case r;
+  real_open(&r, JG_SOUND_SPEED_FLUCTUATING);
+  const double h = r.p.cosmology.hubble_h;
+  const double z[] = {200.0, 20.0};
+  jg_scales_point sc[2];
+  jg_error err;
+  cr_assert_eq(jg_scales_compute(r.m, r.w, z, 2, sc, &err), JG_OK, "%s", err.message);
+  const int n = jg_report_scales_column_count();
+  double in_mpc[64], in_h[64];
+  cr_assert_leq(n, 64);
+  int converted = 0;
+  for (int j = 0; j < 2; j++) {
+    jg_report_scales_row(r.th, &sc[j], JG_UNITS_MPC, in_mpc);
+    jg_report_scales_row(r.th, &sc[j], JG_UNITS_MPC_H, in_h);
+    for (int i = 0; i < n; i++) {
+      char h_name[128];
+      int power = h_units_column(jg_report_scales_column_name(JG_UNITS_MPC, i), h_name,
+                                 sizeof h_name);
+      cr_expect_str_eq(jg_report_scales_column_name(JG_UNITS_MPC_H, i), h_name);
+      if (power == 0)
+        cr_expect(in_h[i] == in_mpc[i], "%s, z = %g", h_name, z[j]);
+      else
+        ASSERT_REL(in_h[i], in_mpc[i] * pow(h, power), 1e-15, "%s, z = %g", h_name, z[j]);
+      converted += power != 0 && j == 0;
+    }
+  }
+  /* The README's scales columns: 7 wavenumbers and 8 masses. */
+  cr_expect_eq(converted, 15, "%d columns converted", converted);
+  cr_expect_null(jg_report_scales_column_name(JG_UNITS_MPC_H, n));
   real_close(&r);
 }

@@ -28,6 +28,7 @@
 #include <unistd.h>
 
 #include "jeansgrow/jeansgrow.h"
+#include "tables.h"
 
 extern char **environ;
 
@@ -822,13 +823,13 @@ Test(scan, baryon_scan_reproduces_single_runs_point_by_point) {
   outcome o = run_program(dir, args);
   cr_assert_eq(exit_code(&o), 0, "%s", o.err);
   free(o.err);
-  char *table = read_file(out);
-  cr_assert_not_null(table);
+  char *scan_text = read_file(out);
+  cr_assert_not_null(scan_text);
   for (int i = 0; i < 3; i++) {
     /* The scan's row for z = 100 of point i. */
     double row[8] = {0};
     int found = 0;
-    for (const char *line = table; line && *line; line = strchr(line, '\n') ? strchr(line, '\n') + 1 : NULL) {
+    for (const char *line = scan_text; line && *line; line = strchr(line, '\n') ? strchr(line, '\n') + 1 : NULL) {
       if (*line == '#') continue;
       double v[9];
       if (sscanf(line, "%lf %lf %lf %lf %lf %lf %lf %lf %lf", &v[0], &v[1], &v[2], &v[3], &v[4],
@@ -868,7 +869,7 @@ Test(scan, baryon_scan_reproduces_single_runs_point_by_point) {
     free(epochs);
     unlink(ep);
   }
-  free(table);
+  free(scan_text);
   remove_dir(dir);
 }
 
@@ -956,8 +957,8 @@ Test(scan, baryon_scan_reproduces_scales_tables_point_by_point) {
   outcome o = run_program(dir, args);
   cr_assert_eq(exit_code(&o), 0, "%s", o.err);
   free(o.err);
-  char *table = read_file(out);
-  cr_assert_not_null(table);
+  char *scan_text = read_file(out);
+  cr_assert_not_null(scan_text);
   int compared = 0;
   for (int i = 0; i < 2; i++) {
     char set[64];
@@ -975,7 +976,7 @@ Test(scan, baryon_scan_reproduces_scales_tables_point_by_point) {
       const char *s_rest = skip_fields(sl, 1);
       size_t s_len = strcspn(s_rest, "\n");
       int matched = 0;
-      for (const char *tl = table; tl && *tl; tl = strchr(tl, '\n') ? strchr(tl, '\n') + 1 : NULL) {
+      for (const char *tl = scan_text; tl && *tl; tl = strchr(tl, '\n') ? strchr(tl, '\n') + 1 : NULL) {
         if (*tl == '#' || *tl == '\n') continue;
         if (strtod(tl, NULL) != strtod(values[i], NULL)) continue;
         if (strtod(skip_fields(tl, 1), NULL) != z) continue;
@@ -993,6 +994,41 @@ Test(scan, baryon_scan_reproduces_scales_tables_point_by_point) {
     unlink(single);
   }
   cr_expect_eq(compared, 4, "compared %d rows, expected 4", compared);
-  free(table);
+  free(scan_text);
+  remove_dir(dir);
+}
+
+/* A scan with output.units = "Mpc/h" is the default scan converted, each
+ * grid point with its own h (h itself is varied here): the same rows, the
+ * scales columns renamed and converted (the definition is in tables.h),
+ * every other column identical. 1e-10 relative: both tables print 11
+ * significant digits (%.10e), each rounded by at most 5e-11 relative. */
+Test(scan, scan_in_h_units_is_the_default_scan_converted_point_by_point) {
+  char dir[64], f_mpc[128], f_h[128];
+  make_dir(dir, sizeof dir);
+  path_in(f_mpc, sizeof f_mpc, dir, "mpc.txt");
+  path_in(f_h, sizeof f_h, dir, "h.txt");
+#define UNITS_SCAN_ARGS(out)                                                                  \
+  JG_PROGRAM, "scan", REFERENCE, "--vary", "cosmology.hubble_h=[0.6, 0.75]", "--set", COARSE, \
+      "--set", "output.redshifts=[500.0, 20.0]", "-o", out
+  const char *a_mpc[] = {UNITS_SCAN_ARGS(f_mpc), NULL};
+  const char *a_h[] = {UNITS_SCAN_ARGS(f_h), "--set", "output.units=\"Mpc/h\"", NULL};
+#undef UNITS_SCAN_ARGS
+  outcome o_mpc = run_program(dir, a_mpc), o_h = run_program(dir, a_h);
+  cr_assert_eq(exit_code(&o_mpc), 0, "%s", o_mpc.err);
+  cr_assert_eq(exit_code(&o_h), 0, "%s", o_h.err);
+  char *text_mpc = read_file(f_mpc), *text_h = read_file(f_h);
+  cr_assert(text_mpc && text_h);
+  table in_mpc, in_h;
+  parse_table(text_mpc, &in_mpc);
+  parse_table(text_h, &in_h);
+  int h_column = column_index(&in_mpc, "cosmology.hubble_h");
+  cr_assert_eq(h_column, 0, "the varied key comes first");
+  cr_assert_eq(in_mpc.n_rows, 4);
+  assert_h_units_table(&in_mpc, &in_h, 0.0, h_column, 1e-10, "scan");
+  cr_expect(strstr(in_h.header, "\n# units: k comoving h/Mpc"), "no h units line");
+  table_free(&in_mpc);
+  table_free(&in_h);
+  free(text_mpc), free(text_h), free(o_mpc.err), free(o_h.err);
   remove_dir(dir);
 }

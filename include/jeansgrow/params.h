@@ -82,6 +82,15 @@ typedef struct jg_perturb_settings {
   char initial_table[JG_MAX_PATH];
 } jg_perturb_settings;
 
+/* The units of wavenumbers, masses and comoving lengths in what the
+ * commands write (output.units). Inputs (perturbations.k_min, k_max,
+ * k_values) are in 1/Mpc whatever this says, and so is the library itself:
+ * only the reports convert, with h = cosmology.hubble_h. */
+typedef enum {
+  JG_UNITS_MPC = 0,  /* k in 1/Mpc, masses in M_sun, lengths in Mpc */
+  JG_UNITS_MPC_H = 1 /* k in h/Mpc = (1/Mpc)/h, masses in M_sun/h = M_sun h, lengths in Mpc/h = Mpc h */
+} jg_output_units;
+
 /* What the commands report (group `output`). */
 typedef struct jg_output_settings {
   double redshifts[JG_MAX_REDSHIFTS]; /* requested redshifts, in file order */
@@ -89,6 +98,7 @@ typedef struct jg_output_settings {
   int history_rows;    /* rows of the dense `history` table (plus the requested z) */
   double history_z_max;/* first redshift of the history table (<= thermal.start_redshift) */
   double history_z_min;/* last redshift of the history table */
+  jg_output_units units;
 } jg_output_settings;
 
 typedef struct jg_params {

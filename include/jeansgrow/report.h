@@ -3,6 +3,12 @@
  * program gets exactly what the command line writes. Each writes the header
  * (version, conventions, effective parameters, column names) and the rows;
  * none writes NaN or infinity (JG_ENUMERIC instead, naming the column).
+ *
+ * The stages hand over wavenumbers in 1/Mpc, masses in M_sun and comoving
+ * lengths in Mpc. The reports write them in the units of p->output.units:
+ * unchanged, or (JG_UNITS_MPC_H) k[h/Mpc] = k[1/Mpc] / h,
+ * M[Msun/h] = M[Msun] h and L[Mpc/h] = L[Mpc] h with h =
+ * cosmology.hubble_h, the unit in each column name following suit.
  */
 #ifndef JEANSGROW_REPORT_H
 #define JEANSGROW_REPORT_H
@@ -19,6 +25,14 @@
 extern "C" {
 #endif
 
+/* The unit name a quantity the library holds in `unit` is written in, and
+ * (when factor is not NULL) the factor that converts a value to it: "1/Mpc",
+ * "Mpc" and "Msun" become "h/Mpc", "Mpc/h" and "Msun/h" under
+ * JG_UNITS_MPC_H; every other unit (and every unit under JG_UNITS_MPC) is
+ * returned as it is, with factor 1. */
+const char *jg_report_unit(const char *unit, jg_output_units units, double hubble_h,
+                           double *factor);
+
 /* The ionisation and gas-temperature history: output.history_rows rows
  * uniform in ln(1+z) from thermal.start_redshift to output.history_z_min,
  * plus every output.redshifts value in that range, in decreasing z. */
@@ -32,15 +46,17 @@ jg_status jg_report_epochs(FILE *f, const jg_params *p, const jg_epochs *e, jg_e
 jg_status jg_report_scales(FILE *f, const jg_params *p, const jg_thermal *th,
                            const jg_scales_point *s, int n, jg_error *err);
 
-/* The columns of the scales table, and one row of it (row must hold
- * jg_report_scales_column_count() values). Scans reuse these. */
+/* The columns of the scales table in `units`, and one row of it (row must
+ * hold jg_report_scales_column_count() values, converted to `units` with the
+ * h of th's cosmology). Scans reuse these. */
 int jg_report_scales_column_count(void);
-const char *jg_report_scales_column_name(int i);
+const char *jg_report_scales_column_name(jg_output_units units, int i);
 /* All of them as one array (the first is "z"), and the header lines that
  * state their conventions (NULL-terminated). */
-const char *const *jg_report_scales_columns(void);
-const char *const *jg_report_scales_conventions(void);
-void jg_report_scales_row(const jg_thermal *th, const jg_scales_point *s, double *row);
+const char *const *jg_report_scales_columns(jg_output_units units);
+const char *const *jg_report_scales_conventions(jg_output_units units);
+void jg_report_scales_row(const jg_thermal *th, const jg_scales_point *s, jg_output_units units,
+                          double *row);
 
 /* Growth by wavenumber: one row per (z, k), redshifts in the requested
  * order, wavenumbers increasing. */

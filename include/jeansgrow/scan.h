@@ -171,9 +171,11 @@ const jg_scan_evaluator *jg_scan_evaluator_thermal(void);
  * The evaluator of `jeansgrow scan`: per point z_star, z_drag,
  * z_gas_decoupling; per redshift every column of the `jeansgrow scales`
  * table after its `z`, with the same names and conventions (k_J, M_J, k_F,
- * M_F, k_half, M_half, ...), computed the same way (jg_scales_compute).
+ * M_F, k_half, M_half, ...), computed the same way (jg_scales_compute), in
+ * `units` (pass the base parameters' output.units; each point is converted
+ * with its own cosmology.hubble_h, which a scan may vary).
  */
-const jg_scan_evaluator *jg_scan_evaluator_scales(void);
+const jg_scan_evaluator *jg_scan_evaluator_scales(jg_output_units units);
 
 #define JG_SCAN_THERMAL_POINT_COLUMNS 3
 #define JG_SCAN_THERMAL_REDSHIFT_COLUMNS 4

@@ -80,23 +80,38 @@ static jg_status write_table(int which, FILE *f, const jg_params *p, const jg_th
 static void print_summary(const char *param_path, const char *dir, const jg_params *p,
                           const jg_thermal *th, const run_results *r) {
   const jg_epochs *e = &r->epochs;
+  /* The summary speaks the units of the tables it summarises. */
+  const jg_output_units units = p->output.units;
+  const double h = p->cosmology.hubble_h;
+  double k_factor, m_factor, l_factor;
+  const char *k_unit = jg_report_unit("1/Mpc", units, h, &k_factor);
+  const char *m_unit = jg_report_unit("Msun", units, h, &m_factor);
+  const char *l_unit = jg_report_unit("Mpc", units, h, &l_factor);
   printf("jeansgrow run: %s -> %s/\n", param_path, dir);
   printf("  photon decoupling z_star = %.2f, end of drag z_drag = %.2f, "
-         "sound horizon r_drag = %.2f Mpc\n",
-         e->z_star, e->z_drag, e->r_drag);
+         "sound horizon r_drag = %.2f %s\n",
+         e->z_star, e->z_drag, e->r_drag * l_factor, l_unit);
   printf("  gas decouples from the CMB (T_gas = 0.9 T_rad) at z = %.1f; x_e(z=100) = %.3g; "
          "age %.3f Gyr\n",
          e->z_gas_decoupling, e->x_e_z100, e->age_Gyr);
-  printf("  %8s %10s %11s %10s %11s %10s %11s %10s\n", "z", "T_gas[K]", "k_J[1/Mpc]",
-         "M_J[Msun]", "k_F[1/Mpc]", "M_F[Msun]", "k_half", "M_half");
+  char k_J[32], M_J[32], k_F[32], M_F[32], k_half[32], M_half[32];
+  snprintf(k_J, sizeof k_J, "k_J[%s]", k_unit);
+  snprintf(M_J, sizeof M_J, "M_J[%s]", m_unit);
+  snprintf(k_F, sizeof k_F, "k_F[%s]", k_unit);
+  snprintf(M_F, sizeof M_F, "M_F[%s]", m_unit);
+  snprintf(k_half, sizeof k_half, "k_half[%s]", k_unit);
+  snprintf(M_half, sizeof M_half, "M_half[%s]", m_unit);
+  printf("  %8s %10s %11s %11s %11s %11s %13s %14s\n", "z", "T_gas[K]", k_J, M_J, k_F, M_F,
+         k_half, M_half);
   for (int i = 0; i < p->output.n_redshifts; i++) {
     const jg_scales_point *s = &r->scales[i];
     jg_thermal_state ts;
     jg_thermal_state_at(th, s->z, &ts);
-    printf("  %8.1f %10.4g %11.4g %10.3e %11.4g %10.3e", s->z, ts.T_gas,
-           s->k_jeans_isothermal, s->m_jeans_isothermal, s->k_filter_solved, s->m_filter_solved);
-    if (s->half_found) printf(" %11.4g %10.3e\n", s->k_half, s->m_half);
-    else printf(" %11s %10s\n", "none", "-");
+    printf("  %8.1f %10.4g %11.4g %11.3e %11.4g %11.3e", s->z, ts.T_gas,
+           s->k_jeans_isothermal * k_factor, s->m_jeans_isothermal * m_factor,
+           s->k_filter_solved * k_factor, s->m_filter_solved * m_factor);
+    if (s->half_found) printf(" %13.4g %14.3e\n", s->k_half * k_factor, s->m_half * m_factor);
+    else printf(" %13s %14s\n", "none", "-");
   }
   printf("  (isothermal Jeans mass; filtering mass (4 pi/3) rho_m (2 pi/k_F)^3 from the solved "
          "perturbations; sound speed: %s)\n",

@@ -22,9 +22,11 @@
 
 #include "cli.h"
 
-/* The evaluator behind the table's columns. A later stage (filtering
- * scales, growth) plugs in here with an evaluator of its own. */
-static const jg_scan_evaluator *scan_evaluator(void) { return jg_scan_evaluator_scales(); }
+/* The evaluator behind the table's columns, in the units the parameters
+ * ask for. A later stage (growth) plugs in here with an evaluator of its own. */
+static const jg_scan_evaluator *scan_evaluator(const jg_params *p) {
+  return jg_scan_evaluator_scales(p->output.units);
+}
 
 #define MAX_THREADS 4096
 
@@ -302,7 +304,7 @@ static int scan_prepare(const cli_command *cmd, int argc, char **argv, int write
     cli_discard_output(su->out);
     su->out = NULL;
   }
-  st = jg_scan_new(&su->params, &su->grid, scan_evaluator(), su->opt.part_index,
+  st = jg_scan_new(&su->params, &su->grid, scan_evaluator(&su->params), su->opt.part_index,
                    su->opt.part_count, &su->scan, &err);
   if (st != JG_OK) {
     cli_report(&err);

@@ -22,17 +22,21 @@ static const cli_command commands[] = {
      1, cmd_history},
     {"epochs", "Derived epochs: decoupling, drag, sound horizons, equality, age, gas decoupling",
      "PARAMFILE [--set KEY=VALUE]... [-o FILE]",
-     "One line per value: name<TAB>value<TAB>unit ('-' for dimensionless).", 1, cmd_epochs},
+     "One line per value: name<TAB>value<TAB>unit ('-' for dimensionless). Sound horizons\n"
+     "in Mpc and k_eq in 1/Mpc, or Mpc/h and h/Mpc with output.units = \"Mpc/h\".",
+     1, cmd_epochs},
     {"scales", "Jeans, filtering and half-suppression scales at every output redshift",
      "PARAMFILE [--set KEY=VALUE]... [-o FILE]",
      "Headline columns: z, T_gas[K], x_e, k_J[1/Mpc], M_J[Msun] (isothermal Jeans),\n"
      "k_F[1/Mpc], M_F[Msun] (filtering from the solved perturbations), k_half[1/Mpc],\n"
-     "M_half[Msun]; further conventions in further columns (see the README).",
+     "M_half[Msun]; further conventions in further columns (see the README).\n"
+     "With output.units = \"Mpc/h\": wavenumbers in h/Mpc, masses in Msun/h.",
      1, cmd_scales},
     {"growth", "Linear growth of CDM, baryons and total matter by wavenumber and redshift",
      "PARAMFILE [--set KEY=VALUE]... [-o FILE]",
      "One row per (z, k): z, k[1/Mpc], delta_c, delta_b, delta_m, delta_T, b_over_c,\n"
-     "b_over_m, suppression, rate_c, rate_b, rate_m (per unit initial CDM contrast).",
+     "b_over_m, suppression, rate_c, rate_b, rate_m (per unit initial CDM contrast).\n"
+     "With output.units = \"Mpc/h\": k[h/Mpc]. The k grid is set in 1/Mpc in any case.",
      1, cmd_growth},
     {"keys", "List every parameter key with its unit, default and allowed range", "[--markdown]",
      NULL, 0, cmd_keys},
@@ -41,7 +45,8 @@ static const cli_command commands[] = {
      "       [--part I/N] [--resume] [-o FILE]",
      "One row per grid point and output redshift: the varied values, z, z_star, z_drag,\n"
      "z_gas_decoupling, then every column of `jeansgrow scales` at that redshift\n"
-     "(T_gas[K], x_e, k_J[1/Mpc], M_J[Msun], k_F[1/Mpc], M_F[Msun], k_half[1/Mpc], ...).\n"
+     "(T_gas[K], x_e, k_J[1/Mpc], M_J[Msun], k_F[1/Mpc], M_F[Msun], k_half[1/Mpc], ...;\n"
+     "h/Mpc and Msun/h with output.units = \"Mpc/h\", each point with its own h).\n"
      "The grid may instead come from the scan.vary list of PARAMFILE. Under mpirun the\n"
      "ranks share the points; the file is the same whatever the threads or ranks.",
      1, cmd_scan},
