@@ -927,6 +927,16 @@ static jg_status apply_override(config_t *cfg, const char *text, jg_error *err) 
       return lst;
     }
   }
+  const param_spec *spec = find_spec(key);
+  if (!src && spec && (spec->kind == KIND_CHOICE || spec->kind == KIND_TEXT) &&
+      eq[1] != '"') {
+    /* The usual cause: the shell ate the quotes of --set key="word". */
+    config_destroy(&tmp);
+    return JG_FAIL(err, JG_ECONFIG,
+                   "--set %s: %s takes quoted text; write --set '%s=\"%s\"' (quotes inside "
+                   "single quotes, so that the shell keeps them)",
+                   text, key, key, eq + 1);
+  }
   if (!src) {
     const char *why = config_error_text(&tmp);
     jg_status st = JG_FAIL(err, JG_ECONFIG,
