@@ -70,8 +70,8 @@ static int parse_row(const char *path, int line_no, char *line, double v[COLS_MA
       return -1;
     }
     if (!isfinite(x) || errno == ERANGE) {
-      JG_FAIL(err, JG_ECONFIG, "%s:%d: value %d ('%.40s') is not a finite number", path,
-              line_no, n + 1, tok);
+      JG_FAIL(err, JG_ECONFIG, "%s:%d: value %d ('%.40s') is %s", path, line_no, n + 1, tok,
+              isfinite(x) ? "beyond the range of double precision" : "not a finite number");
       return -1;
     }
     v[n++] = x;
