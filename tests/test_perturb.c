@@ -17,6 +17,7 @@
 #include <unistd.h>
 
 #include "jeansgrow/perturb.h"
+#include "real_case.h"
 #include "support.h"
 
 TestSuite(perturb, .init = quiet_gsl);
@@ -80,35 +81,15 @@ static jg_perturb_settings tight_settings(double z_initial, jg_sound_speed_model
 
 /* ---- real history -------------------------------------------------------- */
 
-typedef struct real_case {
-  jg_params p;
-  jg_background *bg;
-  jg_thermal *th;
-  jg_perturb_model *m;
-  jg_perturb_workspace *w;
-} real_case;
-
+/* The reference cosmology with other perturbation settings (NULL: none). */
 static void real_open(real_case *r, const jg_perturb_settings *override) {
-  jg_error err;
-  jg_error_clear(&err);
-  jg_params_set_defaults(&r->p);
-  if (override) r->p.perturbations = *override;
-  r->bg = jg_background_new(&r->p.cosmology, &err);
-  cr_assert_not_null(r->bg, "%s", err.message);
-  r->th = jg_thermal_new(r->bg, &r->p.thermal, &err);
-  cr_assert_not_null(r->th, "%s", err.message);
-  r->m = jg_perturb_model_new(r->th, &r->p.perturbations, NULL, &err);
-  cr_assert_not_null(r->m, "%s", err.message);
-  r->w = jg_perturb_workspace_new(r->m, &err);
-  cr_assert_not_null(r->w, "%s", err.message);
+  jg_params p;
+  jg_params_set_defaults(&p);
+  if (override) p.perturbations = *override;
+  real_case_open(r, &p);
 }
 
-static void real_close(real_case *r) {
-  jg_perturb_workspace_free(r->w);
-  jg_perturb_model_free(r->m);
-  jg_thermal_free(r->th);
-  jg_background_free(r->bg);
-}
+static void real_close(real_case *r) { real_case_close(r); }
 
 static void solve_ok(const jg_perturb_model *m, jg_perturb_workspace *w, double k, const double *z,
                      int n, jg_perturb_point *out) {
@@ -476,34 +457,25 @@ Test(perturb, accurate_across_cosmologies) {
       jg_params_set_defaults(&d);
       d.cosmology.baryon_density_h2 = omega_b[i];
       d.cosmology.cdm_density_h2 = omega_c[j];
-      jg_error err;
-      jg_error_clear(&err);
-      jg_background *bg = jg_background_new(&d.cosmology, &err);
-      cr_assert_not_null(bg, "%s", err.message);
-      jg_thermal *th = jg_thermal_new(bg, &d.thermal, &err);
-      cr_assert_not_null(th, "%s", err.message);
+      real_case r;
+      real_case_open(&r, &d);
       jg_perturb_settings tight = d.perturbations;
       tight.rel_tol = 1e-12;
       tight.abs_tol = 1e-14;
-      jg_perturb_model *m = jg_perturb_model_new(th, &d.perturbations, NULL, &err);
-      jg_perturb_model *mt = m ? jg_perturb_model_new(th, &tight, NULL, &err) : NULL;
-      jg_perturb_workspace *w = mt ? jg_perturb_workspace_new(m, &err) : NULL;
-      jg_perturb_workspace *wt = w ? jg_perturb_workspace_new(mt, &err) : NULL;
-      cr_assert_not_null(wt, "%s", err.message);
+      jg_perturb_model *mt;
+      jg_perturb_workspace *wt;
+      real_case_model(&r, &tight, NULL, &mt, &wt);
       for (int q = 0; q < 3; q++) {
         jg_perturb_point a[4], b[4];
-        solve_ok(m, w, ks[q], z, 4, a);
+        solve_ok(r.m, r.w, ks[q], z, 4, a);
         solve_ok(mt, wt, ks[q], z, 4, b);
         for (int n = 0; n < 4; n++)
           ASSERT_REL(a[n].b_over_c, b[n].b_over_c, z[n] > 500.0 ? 2e-6 : 1e-6,
                      "omega_b %g omega_c %g k = %g z = %g", omega_b[i], omega_c[j], ks[q], z[n]);
       }
       jg_perturb_workspace_free(wt);
-      jg_perturb_workspace_free(w);
       jg_perturb_model_free(mt);
-      jg_perturb_model_free(m);
-      jg_thermal_free(th);
-      jg_background_free(bg);
+      real_case_close(&r);
     }
 }
 
@@ -764,16 +736,6 @@ Test(perturb, threads_share_one_model) {
 
 /* ---- initial conditions from a table ------------------------------------ */
 
-/* The reference parameters (defaults) and their history. */
-static void reference_history(jg_params *d, jg_background **bg, jg_thermal **th) {
-  jg_error err;
-  jg_error_clear(&err);
-  jg_params_set_defaults(d);
-  *bg = jg_background_new(&d->cosmology, &err);
-  *th = *bg ? jg_thermal_new(*bg, &d->thermal, &err) : NULL;
-  cr_assert_not_null(*th, "%s", err.message);
-}
-
 /* A table file in a fresh temporary folder; `text` is its whole content. */
 static void write_table(char *path, size_t size, const char *text) {
   char dir[] = "/tmp/jg_start_table_XXXXXX";
@@ -843,44 +805,41 @@ Test(start_table, reads_and_interpolates_linear_data_exactly) {
 Test(start_table, constant_table_is_the_uniform_start) {
   char path[JG_MAX_PATH];
   write_table(path, sizeof path, "1 0.25 0.5 0.01\n1e3 0.25 0.5 0.01\n1e5 0.25 0.5 0.01\n");
+  real_case t; /* the table */
   jg_params d;
-  jg_background *bg;
-  jg_thermal *th;
-  reference_history(&d, &bg, &th);
-  jg_error err;
-  jg_error_clear(&err);
+  jg_params_set_defaults(&d);
+  snprintf(d.perturbations.initial_table, sizeof d.perturbations.initial_table, "%s", path);
+  real_case_open(&t, &d);
   const jg_perturb_start uniform = {0.25, 0.5, 0.01};
-  jg_perturb_model *mu = jg_perturb_model_new(th, &d.perturbations, &uniform, &err);
   jg_perturb_settings s = d.perturbations;
-  snprintf(s.initial_table, sizeof s.initial_table, "%s", path);
-  jg_perturb_model *mt = mu ? jg_perturb_model_new(th, &s, NULL, &err) : NULL;
-  jg_perturb_workspace *wu = mt ? jg_perturb_workspace_new(mu, &err) : NULL;
-  jg_perturb_workspace *wt = wu ? jg_perturb_workspace_new(mt, &err) : NULL;
-  cr_assert_not_null(wt, "%s", err.message);
+  s.initial_table[0] = '\0';
+  jg_perturb_model *mu;
+  jg_perturb_workspace *wu;
+  real_case_model(&t, &s, &uniform, &mu, &wu);
   const double z[] = {1000.0, 100.0, 10.0};
   const double ks[] = {1.0, 300.0, 5000.0};
   for (int j = 0; j < 3; j++) {
     jg_perturb_point a[3], b[3];
     solve_ok(mu, wu, ks[j], z, 3, a);
-    solve_ok(mt, wt, ks[j], z, 3, b);
+    solve_ok(t.m, t.w, ks[j], z, 3, b);
     for (int i = 0; i < 3; i++) {
       cr_assert_eq(a[i].delta_b, b[i].delta_b, "k = %g z = %g", ks[j], z[i]);
       cr_assert_eq(a[i].delta_T, b[i].delta_T, "k = %g z = %g", ks[j], z[i]);
     }
   }
   jg_perturb_limit la[3], lb[3];
+  jg_error err;
+  jg_error_clear(&err);
   cr_assert_eq(jg_perturb_solve_limit(mu, wu, z, 3, la, &err), JG_OK, "%s", err.message);
-  cr_assert_eq(jg_perturb_solve_limit(mt, wt, z, 3, lb, &err), JG_OK, "%s", err.message);
+  cr_assert_eq(jg_perturb_solve_limit(t.m, t.w, z, 3, lb, &err), JG_OK, "%s", err.message);
   for (int i = 0; i < 3; i++) cr_assert_eq(la[i].dlnb_dk2, lb[i].dlnb_dk2, "z = %g", z[i]);
   /* Both a start and a table: refused. */
-  cr_assert_null(jg_perturb_model_new(th, &s, &uniform, &err), "start and table both given");
+  cr_assert_null(jg_perturb_model_new(t.th, &d.perturbations, &uniform, &err),
+                 "start and table both given");
   cr_assert(strstr(err.message, "not both"), "%s", err.message);
-  jg_perturb_workspace_free(wt);
   jg_perturb_workspace_free(wu);
-  jg_perturb_model_free(mt);
   jg_perturb_model_free(mu);
-  jg_thermal_free(th);
-  jg_background_free(bg);
+  real_case_close(&t);
   remove_table(path);
 }
 
@@ -894,15 +853,8 @@ Test(start_table, constant_table_is_the_uniform_start) {
  * at most 4e-7 apart for k = 1 to 1e4 at z = 1000 to 20, the size of the
  * integration error at the default tolerances, which is what 1e-6 asks. */
 Test(start_table, restart_from_own_solution) {
-  jg_params d;
-  jg_background *bg;
-  jg_thermal *th;
-  reference_history(&d, &bg, &th);
-  jg_error err;
-  jg_error_clear(&err);
-  jg_perturb_model *m = jg_perturb_model_new(th, &d.perturbations, NULL, &err);
-  jg_perturb_workspace *w = m ? jg_perturb_workspace_new(m, &err) : NULL;
-  cr_assert_not_null(w, "%s", err.message);
+  real_case c; /* continuous, from z = 1e4 */
+  real_case_open(&c, NULL);
   enum { NK = 9 };
   const double ks[NK] = {1.0, 3.0, 10.0, 30.0, 100.0, 300.0, 1000.0, 3000.0, 10000.0};
   const double z_restart = 3000.0;
@@ -910,7 +862,7 @@ Test(start_table, restart_from_own_solution) {
   jg_perturb_point cont[NK][5];
   char text[4096] = "# k  b/c  velocity  delta_T/delta_c at z = 3000\n";
   for (int j = 0; j < NK; j++) {
-    solve_ok(m, w, ks[j], z, 5, cont[j]);
+    solve_ok(c.m, c.w, ks[j], z, 5, cont[j]);
     const jg_perturb_point *p = &cont[j][0];
     char row[256];
     snprintf(row, sizeof row, "%.17g %.17g %.17g %.17g\n", ks[j], p->b_over_c,
@@ -919,12 +871,12 @@ Test(start_table, restart_from_own_solution) {
   }
   char path[JG_MAX_PATH];
   write_table(path, sizeof path, text);
-  jg_perturb_settings s = d.perturbations;
+  jg_perturb_settings s = c.p.perturbations;
   s.z_initial = z_restart;
   snprintf(s.initial_table, sizeof s.initial_table, "%s", path);
-  jg_perturb_model *mr = jg_perturb_model_new(th, &s, NULL, &err);
-  jg_perturb_workspace *wr = mr ? jg_perturb_workspace_new(mr, &err) : NULL;
-  cr_assert_not_null(wr, "%s", err.message);
+  jg_perturb_model *mr;
+  jg_perturb_workspace *wr;
+  real_case_model(&c, &s, NULL, &mr, &wr);
   for (int j = 0; j < NK; j++) {
     jg_perturb_point r[4];
     solve_ok(mr, wr, ks[j], z + 1, 4, r);
@@ -933,9 +885,6 @@ Test(start_table, restart_from_own_solution) {
   }
   jg_perturb_workspace_free(wr);
   jg_perturb_model_free(mr);
-  jg_perturb_workspace_free(w);
-  jg_perturb_model_free(m);
-  jg_thermal_free(th);
-  jg_background_free(bg);
+  real_case_close(&c);
   remove_table(path);
 }

@@ -12,6 +12,7 @@
 #include "jeansgrow/jeans.h"
 #include "jeansgrow/report.h"
 #include "jeansgrow/scales.h"
+#include "real_case.h"
 #include "support.h"
 #include "tables.h"
 
@@ -156,34 +157,15 @@ Test(scales, gnedin_hui_two_phase_history) {
 
 /* ---- real history ------------------------------------------------------------ */
 
-typedef struct real_case {
-  jg_params p;
-  jg_background *bg;
-  jg_thermal *th;
-  jg_perturb_model *m;
-  jg_perturb_workspace *w;
-} real_case;
-
+/* The reference cosmology with sound-speed model ss. */
 static void real_open(real_case *r, jg_sound_speed_model ss) {
-  jg_error err;
-  jg_params_set_defaults(&r->p);
-  r->p.perturbations.sound_speed = ss;
-  r->bg = jg_background_new(&r->p.cosmology, &err);
-  cr_assert_not_null(r->bg, "%s", err.message);
-  r->th = jg_thermal_new(r->bg, &r->p.thermal, &err);
-  cr_assert_not_null(r->th, "%s", err.message);
-  r->m = jg_perturb_model_new(r->th, &r->p.perturbations, NULL, &err);
-  cr_assert_not_null(r->m, "%s", err.message);
-  r->w = jg_perturb_workspace_new(r->m, &err);
-  cr_assert_not_null(r->w, "%s", err.message);
+  jg_params p;
+  jg_params_set_defaults(&p);
+  p.perturbations.sound_speed = ss;
+  real_case_open(r, &p);
 }
 
-static void real_close(real_case *r) {
-  jg_perturb_workspace_free(r->w);
-  jg_perturb_model_free(r->m);
-  jg_thermal_free(r->th);
-  jg_background_free(r->bg);
-}
+static void real_close(real_case *r) { real_case_close(r); }
 
 /* Barkana & Loeb (2001, Phys. Rep. 349, 125, section 3.1): while the gas is
  * locked to the CMB, M_J ~ 1.35e5 (Omega_m h^2/0.13)^(-1/2) M_sun, isothermal,
