@@ -1,5 +1,5 @@
 /*
- * The background (src/background.c): analytic limits, check values of
+ * The background (src/history/background.c): analytic limits, check values of
  * checks.md, and bad input.
  *
  * CMake (tests/CMakeLists.txt), with the helper there, which links

@@ -1,5 +1,5 @@
 /*
- * Derived epochs (src/epochs.c) of the Planck 2018 cosmology against the
+ * Derived epochs (src/history/epochs.c) of the Planck 2018 cosmology against the
  * published values.
  *
  * Source of every reference value unless stated otherwise: Planck

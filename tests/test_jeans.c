@@ -1,5 +1,5 @@
 /*
- * Jeans scales (src/jeans.c): the classic Jeans length, the sound speed and
+ * Jeans scales (src/history/jeans.c): the classic Jeans length, the sound speed and
  * the comoving Jeans wavenumber and mass against worked numbers.
  */
 #include <math.h>

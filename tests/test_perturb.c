@@ -1,5 +1,5 @@
 /*
- * Tests of the linear perturbation solver (src/perturb.c).
+ * Tests of the linear perturbation solver (src/perturbations/perturb.c).
  *
  * Analytic cases run the same solver on test-only media (Einstein-de Sitter,
  * radiation + matter) defined below; the real-history checks use the

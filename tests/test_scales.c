@@ -1,5 +1,5 @@
 /*
- * Tests of the Jeans, filtering and half-suppression scales (src/scales.c),
+ * Tests of the Jeans, filtering and half-suppression scales (src/results/scales.c),
  * on test-only Einstein-de Sitter media with a given Jeans history (where
  * the Gnedin & Hui 1998 relation holds exactly) and on the real history of
  * the reference cosmology. Each external check names its source.

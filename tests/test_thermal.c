@@ -1,6 +1,6 @@
 /*
- * The ionisation and gas-temperature history (src/thermal.c,
- * src/recombination.c, src/gas_temperature.c): equilibrium limits written
+ * The ionisation and gas-temperature history (src/history/thermal.c,
+ * src/history/recombination.c, src/history/gas_temperature.c): equilibrium limits written
  * out independently here, the known shape of the gas temperature, the
  * atomic-physics check values of checks.md, analytic derivatives against
  * finite differences, convergence, the normalisation of the visibility and
@@ -19,8 +19,8 @@
 #include <gsl/gsl_errno.h>
 #include <gsl/gsl_integration.h>
 
-#include "../src/gas_temperature.h"
-#include "../src/recombination.h"
+#include "../src/history/gas_temperature.h"
+#include "../src/history/recombination.h"
 #include "jeansgrow/background.h"
 #include "jeansgrow/constants.h"
 #include "jeansgrow/epochs.h"

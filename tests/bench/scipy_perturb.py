@@ -1,5 +1,5 @@
 #!/usr/bin/python3
-"""SciPy solution of the same perturbation equations as src/perturb.c, for
+"""SciPy solution of the same perturbation equations as src/perturbations/perturb.c, for
 the same-work comparison of tests/bench/bench_perturb.c.
 
 Reads DIR/perturb_coefficients.txt (the C medium coefficients on a grid of

@@ -671,7 +671,7 @@ static jg_status check_known_keys(const locator *loc, const config_setting_t *gr
     if (find_spec(key)) continue; /* its type is checked when it is read */
     int is_group = config_setting_type(s) == CONFIG_TYPE_GROUP;
     /* The scan definition belongs to `jeansgrow scan`, which reads and checks
-     * it (src/scan.c); a single run of the same file uses the base values. */
+     * it (src/scan/scan.c); a single run of the same file uses the base values. */
     if (!prefix[0] && is_group && strcmp(key, "scan") == 0) continue;
     if (!prefix[0] && is_known_group(key)) {
       if (!is_group) {

@@ -37,7 +37,7 @@
 #include "jeansgrow/perturb.h"
 #include "jeansgrow/report.h"
 #include "jeansgrow/scales.h"
-#include "report_tables.h"
+#include "../results/report_tables.h"
 
 /* A checkpoint is synced to the disk at least this often (seconds): often
  * enough that a crashed node loses at most this much work, rarely enough
