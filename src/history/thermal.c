@@ -21,6 +21,7 @@
 #include <gsl/gsl_errno.h>
 #include <gsl/gsl_integration.h>
 #include <gsl/gsl_odeiv2.h>
+#include <gsl/gsl_roots.h>
 #include <gsl/gsl_spline.h>
 #include <math.h>
 #include <stdlib.h>
@@ -184,19 +185,6 @@ static jg_status check_settings(const jg_thermal_settings *s, jg_error *err) {
   return JG_OK;
 }
 
-/* Integrate one ODE phase from x to x_next; name the stage on failure. */
-static jg_status advance(gsl_odeiv2_driver *d, double *x, double x_next, double *y,
-                         const char *stage, jg_error *err) {
-  double x_from = *x;
-  int st = gsl_odeiv2_driver_apply(d, x, x_next, y);
-  if (st != GSL_SUCCESS)
-    return JG_FAIL(err, JG_ENUMERIC,
-                   "thermal history (%s): stiff integration failed between z = %.3f and "
-                   "z = %.3f (%s)",
-                   stage, z_of_ln_a(x_from), z_of_ln_a(x_next), gsl_strerror(st));
-  return JG_OK;
-}
-
 static jg_status build_spline(gsl_spline **out, const double *x, const double *y, int n,
                               jg_error *err) {
   *out = gsl_spline_alloc(gsl_interp_cspline, (size_t)n);
@@ -237,6 +225,250 @@ static jg_status integrate_depths(jg_thermal *th, const double *x_e, jg_error *e
   return st;
 }
 
+/* ------------------------------------------------------------------------ */
+/* The driver. msbdf takes its own steps from the hand-over to today; the
+ * stored nodes in between are filled from the cubic Hermite interpolant of
+ * each accepted step (values and d/d ln a at both ends). So the grid does
+ * not limit the steps, and the phases switch where their criteria cross,
+ * not at the next node. */
+
+/* First trial step in ln a after a (re)start; msbdf adapts it at once. */
+static const double HISTORY_FIRST_STEP = 1e-4;
+/* Longest step in ln a. The Hermite interpolant's error is ~ h^4 y''''/384:
+ * for x_p, which varies on ln a scales of ~0.3 around recombination, a step
+ * of 0.05 keeps it near 1e-8 relative (measured against a history with every
+ * step capped at 1e-3); longer steps only came late, where x_p is flat. */
+static const double HISTORY_MAX_STEP = 0.05;
+
+/* One accepted step: both ends, for the interpolant. */
+typedef struct step_span {
+  double x0, x1;
+  double y0[2], y1[2], f0[2], f1[2];
+} step_span;
+
+static double hermite_at(const step_span *s, int k, double x) {
+  const double h = s->x1 - s->x0, t = (x - s->x0) / h, t2 = t * t, t3 = t2 * t;
+  return (2.0 * t3 - 3.0 * t2 + 1.0) * s->y0[k] + (t3 - 2.0 * t2 + t) * h * s->f0[k] +
+         (3.0 * t2 - 2.0 * t3) * s->y1[k] + (t3 - t2) * h * s->f1[k];
+}
+
+typedef struct history_run {
+  const jg_thermal *th;
+  const jg_thermal_settings *settings;
+  history_system sys;
+  double *x_e, *x_p, *T_gas; /* node values */
+  int next;                  /* first node not yet filled */
+} history_run;
+
+/* Where g changes sign in [lo, hi], to 1e-12 in ln a (Brent). */
+static int locate_crossing(gsl_function *g, double lo, double hi, double *root) {
+  gsl_root_fsolver *s = gsl_root_fsolver_alloc(gsl_root_fsolver_brent);
+  if (!s) return GSL_ENOMEM;
+  int status = gsl_root_fsolver_set(s, g, lo, hi);
+  for (int iter = 0; status == GSL_SUCCESS && iter < 100; iter++) {
+    status = gsl_root_fsolver_iterate(s);
+    if (status != GSL_SUCCESS) break;
+    status = gsl_root_test_interval(gsl_root_fsolver_x_lower(s), gsl_root_fsolver_x_upper(s),
+                                    1e-12, 0.0);
+    if (status != GSL_CONTINUE) break;
+    status = GSL_SUCCESS;
+  }
+  *root = gsl_root_fsolver_root(s);
+  gsl_root_fsolver_free(s);
+  return status;
+}
+
+/* ---- phase 1: Saha equilibrium on the nodes ---- */
+
+typedef struct saha_crossing {
+  const jg_background *bg;
+  double limit;
+} saha_crossing;
+
+static double saha_hydrogen_at(const jg_background *bg, double x, double *x_e) {
+  double a = exp(x), x_p = NAN;
+  if (jg__saha_equilibrium(bg, jg_background_T_radiation(bg, a), jg_background_n_hydrogen(bg, a),
+                           x_e, &x_p) != GSL_SUCCESS)
+    return NAN;
+  return x_p;
+}
+
+static double saha_excess(double x, void *p) {
+  const saha_crossing *c = p;
+  double x_e;
+  return saha_hydrogen_at(c->bg, x, &x_e) - c->limit;
+}
+
+/* Fill the nodes while the Saha x_p exceeds thermal.saha_limit; return the
+ * ln a where it reaches the limit (the first node if it starts below). */
+static jg_status saha_nodes(history_run *r, double *x_handover, jg_error *err) {
+  const jg_thermal *th = r->th;
+  const jg_background *bg = th->bg;
+  for (int i = 0; i < th->n; i++) {
+    const double xi = th->ln_a[i];
+    double x_e;
+    double x_p = saha_hydrogen_at(bg, xi, &x_e);
+    if (!isfinite(x_p))
+      return JG_FAIL(err, JG_ENUMERIC,
+                     "thermal history (Saha equilibrium): no solution at z = %.3f", z_of_ln_a(xi));
+    if (x_p <= r->settings->saha_limit && i > 0) {
+      saha_crossing c = {bg, r->settings->saha_limit};
+      gsl_function g = {saha_excess, &c};
+      if (locate_crossing(&g, th->ln_a[i - 1], xi, x_handover) != GSL_SUCCESS)
+        return JG_FAIL(err, JG_ENUMERIC,
+                       "thermal history (Saha equilibrium): cannot locate x_p = %g between "
+                       "z = %.3f and z = %.3f",
+                       r->settings->saha_limit, z_of_ln_a(th->ln_a[i - 1]), z_of_ln_a(xi));
+      return JG_OK;
+    }
+    const double a = exp(xi), T_rad = jg_background_T_radiation(bg, a);
+    const double H = jg_background_hubble(bg, a), compton = jg__compton_rate(bg, T_rad, x_e);
+    if (!(H / compton < r->settings->quasi_static_limit)) /* never for sane input */
+      return JG_FAIL(err, JG_ENUMERIC,
+                     "thermal history: Compton coupling weak (H/Gamma_C = %g) while hydrogen is "
+                     "still in Saha equilibrium at z = %.1f",
+                     H / compton, z_of_ln_a(xi));
+    r->x_e[i] = x_e;
+    r->x_p[i] = x_p;
+    r->T_gas[i] = jg__gas_temperature_quasi_static(T_rad, H, compton);
+    r->next = i + 1;
+    if (x_p <= r->settings->saha_limit) { /* below the limit from the start */
+      *x_handover = xi;
+      return JG_OK;
+    }
+  }
+  *x_handover = 0.0; /* Saha to the end: nothing left to integrate */
+  return JG_OK;
+}
+
+/* ---- phases 2 and 3: the stepper's own steps ---- */
+
+static jg_status unusable_state(double x, double x_p, jg_error *err) {
+  return JG_FAIL(err, JG_ENUMERIC, "thermal history: interpolated x_p = %g unusable at z = %.3f",
+                 x_p, z_of_ln_a(x));
+}
+
+/* Fill the nodes up to x_until from the interpolant; dimension 1: T_gas
+ * quasi-static (phase 2), 2: interpolated (phase 3). */
+static jg_status fill_nodes(history_run *r, const step_span *s, size_t dimension, double x_until,
+                            jg_error *err) {
+  const jg_thermal *th = r->th;
+  for (; r->next < th->n && th->ln_a[r->next] <= x_until; r->next++) {
+    const int i = r->next;
+    const double xi = th->ln_a[i], x_p = hermite_at(s, 0, xi);
+    local_state ls;
+    if (local_state_at(&r->sys, xi, x_p, &ls) != GSL_SUCCESS) return unusable_state(xi, x_p, err);
+    r->x_p[i] = x_p;
+    r->x_e[i] = ls.x_e;
+    r->T_gas[i] = dimension == 2 ? hermite_at(s, 1, xi)
+                                 : jg__gas_temperature_quasi_static(ls.T_rad, ls.H, ls.compton);
+  }
+  return JG_OK;
+}
+
+/* H / Gamma_C minus thermal.quasi_static_limit at hydrogen fraction x_p:
+ * positive once T_gas must be integrated. */
+static double weak_coupling_excess(const history_run *r, double x, double x_p) {
+  local_state ls;
+  if (local_state_at(&r->sys, x, x_p, &ls) != GSL_SUCCESS) return NAN;
+  return ls.H / ls.compton - r->settings->quasi_static_limit;
+}
+
+typedef struct coupling_crossing {
+  const history_run *r;
+  const step_span *s;
+} coupling_crossing;
+
+static double weak_coupling_in_step(double x, void *p) {
+  const coupling_crossing *c = p;
+  return weak_coupling_excess(c->r, x, hermite_at(c->s, 0, x));
+}
+
+/* Integrate one phase from (*x, y) to today, filling the nodes it passes.
+ * Phase 2 (dimension 1) stops where the Compton coupling becomes weak and
+ * leaves *x, y[0] there and *weak = 1. */
+static jg_status run_phase(history_run *r, gsl_odeiv2_driver *d, const char *stage, double *x,
+                           double y[2], int *weak, jg_error *err) {
+  const gsl_odeiv2_system *sys = d->sys;
+  const size_t dim = sys->dimension;
+  step_span s;
+  *weak = 0;
+  s.x0 = *x;
+  memcpy(s.y0, y, dim * sizeof *y);
+  if (sys->function(s.x0, s.y0, s.f0, sys->params) != GSL_SUCCESS)
+    return unusable_state(s.x0, y[0], err);
+  gsl_odeiv2_driver_reset_hstart(d, HISTORY_FIRST_STEP);
+  while (*x < 0.0) {
+    if (d->h > HISTORY_MAX_STEP) d->h = HISTORY_MAX_STEP;
+    const double x_from = *x, h_tried = d->h;
+    int st = gsl_odeiv2_evolve_apply(d->e, d->c, d->s, sys, x, 0.0, &d->h, y);
+    if (st != GSL_SUCCESS)
+      return JG_FAIL(err, JG_ENUMERIC,
+                     "thermal history (%s): stiff integration failed between z = %.3f and "
+                     "z = %.3f (%s)",
+                     stage, z_of_ln_a(x_from), z_of_ln_a(fmin(x_from + h_tried, 0.0)),
+                     gsl_strerror(st));
+    s.x1 = *x;
+    memcpy(s.y1, y, dim * sizeof *y);
+    if (sys->function(s.x1, s.y1, s.f1, sys->params) != GSL_SUCCESS)
+      return unusable_state(s.x1, y[0], err);
+    double x_fill = s.x1;
+    if (dim == 1 && weak_coupling_excess(r, s.x1, s.y1[0]) >= 0.0) {
+      coupling_crossing c = {r, &s};
+      gsl_function g = {weak_coupling_in_step, &c};
+      if (locate_crossing(&g, s.x0, s.x1, &x_fill) != GSL_SUCCESS)
+        return JG_FAIL(err, JG_ENUMERIC,
+                       "thermal history (%s): cannot locate H/Gamma_C = %g between z = %.3f and "
+                       "z = %.3f",
+                       stage, r->settings->quasi_static_limit, z_of_ln_a(s.x0), z_of_ln_a(s.x1));
+      *weak = 1;
+    }
+    jg_status fs = fill_nodes(r, &s, dim, x_fill, err);
+    if (fs != JG_OK) return fs;
+    if (*weak) {
+      *x = x_fill;
+      y[0] = hermite_at(&s, 0, x_fill);
+      return JG_OK;
+    }
+    s.x0 = s.x1;
+    memcpy(s.y0, s.y1, sizeof s.y0);
+    memcpy(s.f0, s.f1, sizeof s.f0);
+  }
+  return JG_OK;
+}
+
+/* The three phases over all nodes. */
+static jg_status integrate_history(history_run *r, jg_error *err) {
+  double x;
+  jg_status st = saha_nodes(r, &x, err);
+  if (st != JG_OK || r->next >= r->th->n) return st;
+  gsl_odeiv2_system ode_h = {rhs_hydrogen, jac_hydrogen, 1, &r->sys};
+  gsl_odeiv2_system ode_ht = {rhs_hydrogen_temperature, jac_hydrogen_temperature, 2, &r->sys};
+  const jg_thermal_settings *set = r->settings;
+  gsl_odeiv2_driver *drv_h = gsl_odeiv2_driver_alloc_y_new(
+      &ode_h, gsl_odeiv2_step_msbdf, HISTORY_FIRST_STEP, set->abs_tol, set->rel_tol);
+  gsl_odeiv2_driver *drv_ht = gsl_odeiv2_driver_alloc_y_new(
+      &ode_ht, gsl_odeiv2_step_msbdf, HISTORY_FIRST_STEP, set->abs_tol, set->rel_tol);
+  if (!drv_h || !drv_ht) st = JG_FAIL(err, JG_ENOMEM, "out of memory for the ODE drivers");
+
+  double x_e_start;
+  double y[2] = {saha_hydrogen_at(r->th->bg, x, &x_e_start), 0.0};
+  int weak = st == JG_OK && weak_coupling_excess(r, x, y[0]) >= 0.0;
+  if (st == JG_OK && !weak) st = run_phase(r, drv_h, "hydrogen recombination", &x, y, &weak, err);
+  if (st == JG_OK && weak) {
+    local_state ls;
+    if (local_state_at(&r->sys, x, y[0], &ls) != GSL_SUCCESS) {
+      st = unusable_state(x, y[0], err);
+    } else {
+      y[1] = jg__gas_temperature_quasi_static(ls.T_rad, ls.H, ls.compton);
+      st = run_phase(r, drv_ht, "hydrogen and gas temperature", &x, y, &weak, err);
+    }
+  }
+  gsl_odeiv2_driver_free(drv_h);
+  gsl_odeiv2_driver_free(drv_ht);
+  return st;
+}
+
 jg_thermal *jg_thermal_new(const jg_background *bg, const jg_thermal_settings *settings,
                            jg_error *err) {
   if (!bg || !settings) {
@@ -266,73 +498,8 @@ jg_thermal *jg_thermal_new(const jg_background *bg, const jg_thermal_settings *s
   for (int i = 0; i < n; i++) th->ln_a[i] = th->ln_a_start * (1.0 - (double)i / (n - 1));
   th->ln_a[n - 1] = 0.0;
 
-  history_system sys = {bg, settings->recombination_fudge, 0.0};
-  gsl_odeiv2_system ode_h = {rhs_hydrogen, jac_hydrogen, 1, &sys};
-  gsl_odeiv2_system ode_ht = {rhs_hydrogen_temperature, jac_hydrogen_temperature, 2, &sys};
-  const double h0 = 1e-4;
-  gsl_odeiv2_driver *drv_h = gsl_odeiv2_driver_alloc_y_new(
-      &ode_h, gsl_odeiv2_step_msbdf, h0, settings->abs_tol, settings->rel_tol);
-  gsl_odeiv2_driver *drv_ht = gsl_odeiv2_driver_alloc_y_new(
-      &ode_ht, gsl_odeiv2_step_msbdf, h0, settings->abs_tol, settings->rel_tol);
-  jg_status st = (drv_h && drv_ht) ? JG_OK
-                                   : JG_FAIL(err, JG_ENOMEM, "out of memory for the ODE drivers");
-
-  int phase = 1;
-  double y[2] = {0, 0};
-  double x = th->ln_a[0];
-  for (int i = 0; st == JG_OK && i < n; i++) {
-    const double xi = th->ln_a[i], a = exp(xi), z = z_of_ln_a(xi);
-    const double T_rad = jg_background_T_radiation(bg, a);
-    const double n_H = jg_background_n_hydrogen(bg, a);
-    const double H = jg_background_hubble(bg, a);
-    if (phase == 1) {
-      if (jg__saha_equilibrium(bg, T_rad, n_H, &x_e[i], &x_p[i]) != GSL_SUCCESS) {
-        st = JG_FAIL(err, JG_ENUMERIC, "thermal history (Saha equilibrium): no solution at z = %.3f", z);
-        break;
-      }
-      if (x_p[i] <= settings->saha_limit && i > 0) {
-        /* Hand over at the previous node, where Saha still held. */
-        phase = 2;
-        x = th->ln_a[i - 1];
-        y[0] = x_p[i - 1];
-        gsl_odeiv2_driver_reset(drv_h);
-      }
-    }
-    if (phase == 2) {
-      st = advance(drv_h, &x, xi, y, "hydrogen recombination", err);
-      if (st != JG_OK) break;
-      double dummy;
-      x_p[i] = y[0];
-      jg__electrons_given_hydrogen(bg, T_rad, n_H, x_p[i], &x_e[i], &dummy);
-    }
-    double compton = jg__compton_rate(bg, T_rad, x_e[i]);
-    if (phase < 3 && H / compton < settings->quasi_static_limit) {
-      T_gas[i] = jg__gas_temperature_quasi_static(T_rad, H, compton);
-      continue;
-    }
-    if (phase < 3) {
-      if (phase == 1) { /* Compton coupling lost before hydrogen left Saha: never for sane input */
-        st = JG_FAIL(err, JG_ENUMERIC,
-                     "thermal history: Compton coupling weak (H/Gamma_C = %g) while hydrogen is "
-                     "still in Saha equilibrium at z = %.1f",
-                     H / compton, z);
-        break;
-      }
-      phase = 3;
-      x = xi;
-      y[0] = x_p[i];
-      y[1] = jg__gas_temperature_quasi_static(T_rad, H, compton);
-      gsl_odeiv2_driver_reset(drv_ht);
-    }
-    st = advance(drv_ht, &x, xi, y, "hydrogen and gas temperature", err);
-    if (st != JG_OK) break;
-    x_p[i] = y[0];
-    T_gas[i] = y[1];
-    double dummy;
-    jg__electrons_given_hydrogen(bg, T_rad, n_H, x_p[i], &x_e[i], &dummy);
-  }
-  gsl_odeiv2_driver_free(drv_h);
-  gsl_odeiv2_driver_free(drv_ht);
+  history_run run = {th, settings, {bg, settings->recombination_fudge, 0.0}, x_e, x_p, T_gas, 0};
+  jg_status st = integrate_history(&run, err);
 
   if (st == JG_OK) {
     double *tmp = malloc(sizeof(double) * (size_t)n);
