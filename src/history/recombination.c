@@ -14,6 +14,7 @@
 #include <gsl/gsl_errno.h>
 #include <gsl/gsl_roots.h>
 #include <math.h>
+#include <stdbool.h>
 
 #include "jeansgrow/constants.h"
 
@@ -53,14 +54,23 @@ double jg__electron_quantum_density(double T) {
 
 /* Saha ratios for helium per unit electron fraction:
  * n_HeII/n_HeI = A1 / x_e with statistical weights 2 * 2 / 1 = 4,
- * n_HeIII/n_HeII = A2 / x_e with weights 2 * 1 / 2 = 1. */
-void jg__helium_saha_at(const jg_background *bg, double T_rad, double n_H, double x_e,
-                        jg__helium_saha *out) {
-  const double f_He = bg->helium_to_hydrogen;
+ * n_HeIII/n_HeII = A2 / x_e with weights 2 * 1 / 2 = 1.
+ * They depend on T_rad and n_H only, so the searches for x_e below compute
+ * them (two exponentials) once and then iterate on arithmetic alone. */
+typedef struct helium_ratios {
+  double f_He, A1, A2;
+} helium_ratios;
+
+static helium_ratios helium_ratios_at(const jg_background *bg, double T_rad, double n_H) {
   const double s = jg__electron_quantum_density(T_rad) / n_H;
   const double kT = JG_K_BOLTZMANN * T_rad;
-  const double A1 = 4.0 * s * exp(-JG_E_ION_HELIUM_I / kT);
-  const double A2 = s * exp(-JG_E_ION_HELIUM_II / kT);
+  helium_ratios r = {bg->helium_to_hydrogen, 4.0 * s * exp(-JG_E_ION_HELIUM_I / kT),
+                     s * exp(-JG_E_ION_HELIUM_II / kT)};
+  return r;
+}
+
+static void helium_given_electrons(const helium_ratios *r, double x_e, jg__helium_saha *out) {
+  const double f_He = r->f_He, A1 = r->A1, A2 = r->A2;
   /* In u = 1/x_e: r1 = A1 u, r1 r2 = A1 A2 u^2. */
   const double u = 1.0 / x_e;
   const double p1 = A1 * u, p2 = A1 * A2 * u * u;
@@ -82,24 +92,28 @@ void jg__helium_saha_at(const jg_background *bg, double T_rad, double n_H, doubl
   out->d_electrons_dxe = isfinite(dq_du) ? -f_He * dq_du * u * u : 0.0;
 }
 
+void jg__helium_saha_at(const jg_background *bg, double T_rad, double n_H, double x_e,
+                        jg__helium_saha *out) {
+  helium_ratios r = helium_ratios_at(bg, T_rad, n_H);
+  helium_given_electrons(&r, x_e, out);
+}
+
 /* Hydrogen Saha: x_p x_e / (1 - x_p) = s e^(-E_ion/kT) (weights 2 * 1 / 2 = 1). */
 static double hydrogen_saha_fraction(double saha_h, double x_e) {
   return saha_h / (x_e + saha_h);
 }
 
 typedef struct electron_balance {
-  const jg_background *bg;
-  double T_rad, n_H, saha_h; /* saha_h < 0: hydrogen fixed at x_p_fixed */
-  double x_p_fixed;
+  helium_ratios helium;
+  double saha_h; /* hydrogen's Saha ratio */
 } electron_balance;
 
 /* Electrons supplied minus electrons assumed: decreasing in x_e. */
 static double electron_excess(double x_e, void *params) {
   const electron_balance *b = params;
   jg__helium_saha he;
-  jg__helium_saha_at(b->bg, b->T_rad, b->n_H, x_e, &he);
-  double x_p = b->saha_h >= 0 ? hydrogen_saha_fraction(b->saha_h, x_e) : b->x_p_fixed;
-  return x_p + he.electrons - x_e;
+  helium_given_electrons(&b->helium, x_e, &he);
+  return hydrogen_saha_fraction(b->saha_h, x_e) + he.electrons - x_e;
 }
 
 static int solve_electrons(electron_balance *b, double lo, double hi, double *x_e) {
@@ -126,7 +140,7 @@ static int solve_electrons(electron_balance *b, double lo, double hi, double *x_
 
 int jg__saha_equilibrium(const jg_background *bg, double T_rad, double n_H, double *x_e,
                          double *x_p) {
-  electron_balance b = {bg, T_rad, n_H, 0.0, 0.0};
+  electron_balance b = {helium_ratios_at(bg, T_rad, n_H), 0.0};
   b.saha_h = jg__electron_quantum_density(T_rad) / n_H *
              exp(-JG_E_ION_HYDROGEN / (JG_K_BOLTZMANN * T_rad));
   double hi = 1.0 + 2.0 * bg->helium_to_hydrogen;
@@ -138,19 +152,36 @@ int jg__saha_equilibrium(const jg_background *bg, double T_rad, double n_H, doub
 int jg__electrons_given_hydrogen(const jg_background *bg, double T_rad, double n_H, double x_p,
                                  double *x_e, double *dxe_dxp) {
   /* Once helium has recombined its electrons are below double precision
-   * next to hydrogen's: skip the root search (most of the history). */
-  jg__helium_saha he0;
-  jg__helium_saha_at(bg, T_rad, n_H, x_p, &he0);
-  if (he0.electrons < 1e-16 * x_p) {
+   * next to hydrogen's: skip the search (most of the history). */
+  const helium_ratios r = helium_ratios_at(bg, T_rad, n_H);
+  jg__helium_saha he;
+  helium_given_electrons(&r, x_p, &he);
+  if (he.electrons < 1e-16 * x_p) {
     *x_e = x_p;
     *dxe_dxp = 1.0;
     return GSL_SUCCESS;
   }
-  electron_balance b = {bg, T_rad, n_H, -1.0, x_p};
-  double hi = x_p + 2.0 * bg->helium_to_hydrogen;
-  int status = solve_electrons(&b, x_p, hi, x_e);
-  jg__helium_saha he;
-  jg__helium_saha_at(bg, T_rad, n_H, *x_e, &he);
+  /* Newton on g(x_e) = x_p + h(x_e) - x_e, which falls with slope
+   * h' - 1 <= -1, kept inside the bracket [x_p, x_p + h(x_p)] (h falls as
+   * x_e grows) by bisection when a step would leave it. */
+  double lo = x_p, hi = x_p + he.electrons, x = hi;
+  int status = GSL_EMAXITER;
+  for (int iter = 0; iter < 100; iter++) {
+    helium_given_electrons(&r, x, &he);
+    const double g = x_p + he.electrons - x;
+    if (g > 0) lo = x;
+    else hi = x;
+    double next = x - g / (he.d_electrons_dxe - 1.0);
+    if (!(next > lo && next < hi)) next = 0.5 * (lo + hi);
+    const bool converged = fabs(next - x) <= 1e-15 * x || hi - lo <= 1e-15 * x;
+    x = next;
+    if (converged) {
+      status = GSL_SUCCESS;
+      break;
+    }
+  }
+  helium_given_electrons(&r, x, &he);
+  *x_e = x;
   /* x_e = x_p + h(x_e)  =>  dx_e/dx_p = 1 / (1 - h'(x_e)); h' <= 0. */
   *dxe_dxp = 1.0 / (1.0 - he.d_electrons_dxe);
   return status;
