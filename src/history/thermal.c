@@ -24,6 +24,7 @@
 #include <gsl/gsl_roots.h>
 #include <gsl/gsl_spline.h>
 #include <math.h>
+#include <stdbool.h>
 #include <stdlib.h>
 #include <string.h>
 
@@ -226,18 +227,19 @@ static jg_status integrate_depths(jg_thermal *th, const double *x_e, jg_error *e
 }
 
 /* ------------------------------------------------------------------------ */
-/* The driver. msbdf takes its own steps from the hand-over to today; the
- * stored nodes in between are filled from the cubic Hermite interpolant of
- * each accepted step (values and d/d ln a at both ends). So the grid does
- * not limit the steps, and the phases switch where their criteria cross,
- * not at the next node. */
+/* The driver. msbdf takes its own steps from the hand-over to today and
+ * every accepted step is kept (both ends, values and d/d ln a): a cubic
+ * Hermite interpolant over each step is the dense output from which the
+ * stored nodes are filled afterwards. So the grid does not limit the steps,
+ * the phases switch where their criteria cross (not at a node), and the
+ * grid can be refined where the history has a kink. */
 
 /* First trial step in ln a after a (re)start; msbdf adapts it at once. */
 static const double HISTORY_FIRST_STEP = 1e-4;
-/* Longest step in ln a. The Hermite interpolant's error is ~ h^4 y''''/384:
- * for x_p, which varies on ln a scales of ~0.3 around recombination, a step
- * of 0.05 keeps it near 1e-8 relative (measured against a history with every
- * step capped at 1e-3); longer steps only came late, where x_p is flat. */
+/* Longest step in ln a, so that the interpolant (error ~ h^4 y''''/384 with
+ * x_p varying on ln a scales of ~0.3) stays below 1e-7 relative even at the
+ * loosest thermal.rel_tol. At the default tolerances the steps never reach
+ * it (measured: about 950 steps, none longer than 0.05). */
 static const double HISTORY_MAX_STEP = 0.05;
 
 /* One accepted step: both ends, for the interpolant. */
@@ -253,12 +255,26 @@ static double hermite_at(const step_span *s, int k, double x) {
 }
 
 typedef struct history_run {
-  const jg_thermal *th;
+  const jg_background *bg;
   const jg_thermal_settings *settings;
   history_system sys;
-  double *x_e, *x_p, *T_gas; /* node values */
-  int next;                  /* first node not yet filled */
+  double x_handover; /* Saha -> Peebles (x_p = thermal.saha_limit) */
+  double x_weak;     /* quasi-static -> integrated T_gas (H/Gamma_C = thermal.quasi_static_limit) */
+  step_span *spans;  /* phase 2 spans, then phase 3 spans from first_integrated_T */
+  size_t n_spans, capacity, first_integrated_T;
 } history_run;
+
+static jg_status keep_span(history_run *r, const step_span *s, jg_error *err) {
+  if (r->n_spans == r->capacity) {
+    size_t capacity = r->capacity ? 2 * r->capacity : 1024;
+    step_span *grown = realloc(r->spans, capacity * sizeof *grown);
+    if (!grown) return JG_FAIL(err, JG_ENOMEM, "out of memory for the thermal history steps");
+    r->spans = grown;
+    r->capacity = capacity;
+  }
+  r->spans[r->n_spans++] = *s;
+  return JG_OK;
+}
 
 /* Where g changes sign in [lo, hi], to 1e-12 in ln a (Brent). */
 static int locate_crossing(gsl_function *g, double lo, double hi, double *root) {
@@ -278,12 +294,7 @@ static int locate_crossing(gsl_function *g, double lo, double hi, double *root) 
   return status;
 }
 
-/* ---- phase 1: Saha equilibrium on the nodes ---- */
-
-typedef struct saha_crossing {
-  const jg_background *bg;
-  double limit;
-} saha_crossing;
+/* ---- phase 1: Saha equilibrium, evaluated directly ---- */
 
 static double saha_hydrogen_at(const jg_background *bg, double x, double *x_e) {
   double a = exp(x), x_p = NAN;
@@ -294,76 +305,9 @@ static double saha_hydrogen_at(const jg_background *bg, double x, double *x_e) {
 }
 
 static double saha_excess(double x, void *p) {
-  const saha_crossing *c = p;
+  const history_run *r = p;
   double x_e;
-  return saha_hydrogen_at(c->bg, x, &x_e) - c->limit;
-}
-
-/* Fill the nodes while the Saha x_p exceeds thermal.saha_limit; return the
- * ln a where it reaches the limit (the first node if it starts below). */
-static jg_status saha_nodes(history_run *r, double *x_handover, jg_error *err) {
-  const jg_thermal *th = r->th;
-  const jg_background *bg = th->bg;
-  for (int i = 0; i < th->n; i++) {
-    const double xi = th->ln_a[i];
-    double x_e;
-    double x_p = saha_hydrogen_at(bg, xi, &x_e);
-    if (!isfinite(x_p))
-      return JG_FAIL(err, JG_ENUMERIC,
-                     "thermal history (Saha equilibrium): no solution at z = %.3f", z_of_ln_a(xi));
-    if (x_p <= r->settings->saha_limit && i > 0) {
-      saha_crossing c = {bg, r->settings->saha_limit};
-      gsl_function g = {saha_excess, &c};
-      if (locate_crossing(&g, th->ln_a[i - 1], xi, x_handover) != GSL_SUCCESS)
-        return JG_FAIL(err, JG_ENUMERIC,
-                       "thermal history (Saha equilibrium): cannot locate x_p = %g between "
-                       "z = %.3f and z = %.3f",
-                       r->settings->saha_limit, z_of_ln_a(th->ln_a[i - 1]), z_of_ln_a(xi));
-      return JG_OK;
-    }
-    const double a = exp(xi), T_rad = jg_background_T_radiation(bg, a);
-    const double H = jg_background_hubble(bg, a), compton = jg__compton_rate(bg, T_rad, x_e);
-    if (!(H / compton < r->settings->quasi_static_limit)) /* never for sane input */
-      return JG_FAIL(err, JG_ENUMERIC,
-                     "thermal history: Compton coupling weak (H/Gamma_C = %g) while hydrogen is "
-                     "still in Saha equilibrium at z = %.1f",
-                     H / compton, z_of_ln_a(xi));
-    r->x_e[i] = x_e;
-    r->x_p[i] = x_p;
-    r->T_gas[i] = jg__gas_temperature_quasi_static(T_rad, H, compton);
-    r->next = i + 1;
-    if (x_p <= r->settings->saha_limit) { /* below the limit from the start */
-      *x_handover = xi;
-      return JG_OK;
-    }
-  }
-  *x_handover = 0.0; /* Saha to the end: nothing left to integrate */
-  return JG_OK;
-}
-
-/* ---- phases 2 and 3: the stepper's own steps ---- */
-
-static jg_status unusable_state(double x, double x_p, jg_error *err) {
-  return JG_FAIL(err, JG_ENUMERIC, "thermal history: interpolated x_p = %g unusable at z = %.3f",
-                 x_p, z_of_ln_a(x));
-}
-
-/* Fill the nodes up to x_until from the interpolant; dimension 1: T_gas
- * quasi-static (phase 2), 2: interpolated (phase 3). */
-static jg_status fill_nodes(history_run *r, const step_span *s, size_t dimension, double x_until,
-                            jg_error *err) {
-  const jg_thermal *th = r->th;
-  for (; r->next < th->n && th->ln_a[r->next] <= x_until; r->next++) {
-    const int i = r->next;
-    const double xi = th->ln_a[i], x_p = hermite_at(s, 0, xi);
-    local_state ls;
-    if (local_state_at(&r->sys, xi, x_p, &ls) != GSL_SUCCESS) return unusable_state(xi, x_p, err);
-    r->x_p[i] = x_p;
-    r->x_e[i] = ls.x_e;
-    r->T_gas[i] = dimension == 2 ? hermite_at(s, 1, xi)
-                                 : jg__gas_temperature_quasi_static(ls.T_rad, ls.H, ls.compton);
-  }
-  return JG_OK;
+  return saha_hydrogen_at(r->bg, x, &x_e) - r->settings->saha_limit;
 }
 
 /* H / Gamma_C minus thermal.quasi_static_limit at hydrogen fraction x_p:
@@ -372,6 +316,40 @@ static double weak_coupling_excess(const history_run *r, double x, double x_p) {
   local_state ls;
   if (local_state_at(&r->sys, x, x_p, &ls) != GSL_SUCCESS) return NAN;
   return ls.H / ls.compton - r->settings->quasi_static_limit;
+}
+
+/* Where the Saha x_p falls to thermal.saha_limit (the start if it already
+ * has; today if it never does). The Saha x_p falls monotonically with time. */
+static jg_status locate_handover(history_run *r, double x_start, jg_error *err) {
+  const double at_start = saha_excess(x_start, r), today = saha_excess(0.0, r);
+  if (!isfinite(at_start) || !isfinite(today))
+    return JG_FAIL(err, JG_ENUMERIC, "thermal history (Saha equilibrium): no solution at z = %.3f",
+                   z_of_ln_a(isfinite(at_start) ? 0.0 : x_start));
+  if (at_start <= 0.0 || today > 0.0) {
+    r->x_handover = at_start <= 0.0 ? x_start : 0.0;
+  } else {
+    gsl_function g = {saha_excess, r};
+    if (locate_crossing(&g, x_start, 0.0, &r->x_handover) != GSL_SUCCESS)
+      return JG_FAIL(err, JG_ENUMERIC,
+                     "thermal history (Saha equilibrium): cannot locate x_p = %g below z = %.3f",
+                     r->settings->saha_limit, z_of_ln_a(x_start));
+  }
+  /* H/Gamma_C only grows with time: checking the end of the Saha phase
+   * checks all of it. */
+  double x_e, x_p = saha_hydrogen_at(r->bg, r->x_handover, &x_e);
+  if (weak_coupling_excess(r, r->x_handover, x_p) >= 0.0) /* never for sane input */
+    return JG_FAIL(err, JG_ENUMERIC,
+                   "thermal history: Compton coupling weak (H/Gamma_C > %g) while hydrogen is "
+                   "still in Saha equilibrium at z = %.1f",
+                   r->settings->quasi_static_limit, z_of_ln_a(r->x_handover));
+  return JG_OK;
+}
+
+/* ---- phases 2 and 3: the stepper's own steps ---- */
+
+static jg_status unusable_state(double x, double x_p, jg_error *err) {
+  return JG_FAIL(err, JG_ENUMERIC, "thermal history: x_p = %g unusable at z = %.3f", x_p,
+                 z_of_ln_a(x));
 }
 
 typedef struct coupling_crossing {
@@ -384,15 +362,14 @@ static double weak_coupling_in_step(double x, void *p) {
   return weak_coupling_excess(c->r, x, hermite_at(c->s, 0, x));
 }
 
-/* Integrate one phase from (*x, y) to today, filling the nodes it passes.
- * Phase 2 (dimension 1) stops where the Compton coupling becomes weak and
- * leaves *x, y[0] there and *weak = 1. */
+/* Integrate one phase from (*x, y) to today, keeping every step. Phase 2
+ * (dimension 1) stops where the Compton coupling becomes weak and leaves
+ * *x and y[0] there. */
 static jg_status run_phase(history_run *r, gsl_odeiv2_driver *d, const char *stage, double *x,
-                           double y[2], int *weak, jg_error *err) {
+                           double y[2], jg_error *err) {
   const gsl_odeiv2_system *sys = d->sys;
   const size_t dim = sys->dimension;
   step_span s;
-  *weak = 0;
   s.x0 = *x;
   memcpy(s.y0, y, dim * sizeof *y);
   if (sys->function(s.x0, s.y0, s.f0, sys->params) != GSL_SUCCESS)
@@ -412,22 +389,18 @@ static jg_status run_phase(history_run *r, gsl_odeiv2_driver *d, const char *sta
     memcpy(s.y1, y, dim * sizeof *y);
     if (sys->function(s.x1, s.y1, s.f1, sys->params) != GSL_SUCCESS)
       return unusable_state(s.x1, y[0], err);
-    double x_fill = s.x1;
+    jg_status ks = keep_span(r, &s, err);
+    if (ks != JG_OK) return ks;
     if (dim == 1 && weak_coupling_excess(r, s.x1, s.y1[0]) >= 0.0) {
       coupling_crossing c = {r, &s};
       gsl_function g = {weak_coupling_in_step, &c};
-      if (locate_crossing(&g, s.x0, s.x1, &x_fill) != GSL_SUCCESS)
+      if (locate_crossing(&g, s.x0, s.x1, &r->x_weak) != GSL_SUCCESS)
         return JG_FAIL(err, JG_ENUMERIC,
                        "thermal history (%s): cannot locate H/Gamma_C = %g between z = %.3f and "
                        "z = %.3f",
                        stage, r->settings->quasi_static_limit, z_of_ln_a(s.x0), z_of_ln_a(s.x1));
-      *weak = 1;
-    }
-    jg_status fs = fill_nodes(r, &s, dim, x_fill, err);
-    if (fs != JG_OK) return fs;
-    if (*weak) {
-      *x = x_fill;
-      y[0] = hermite_at(&s, 0, x_fill);
+      *x = r->x_weak;
+      y[0] = hermite_at(&s, 0, r->x_weak);
       return JG_OK;
     }
     s.x0 = s.x1;
@@ -437,11 +410,11 @@ static jg_status run_phase(history_run *r, gsl_odeiv2_driver *d, const char *sta
   return JG_OK;
 }
 
-/* The three phases over all nodes. */
-static jg_status integrate_history(history_run *r, jg_error *err) {
-  double x;
-  jg_status st = saha_nodes(r, &x, err);
-  if (st != JG_OK || r->next >= r->th->n) return st;
+/* The three phases from x_start to today; the steps are kept in r. */
+static jg_status integrate_history(history_run *r, double x_start, jg_error *err) {
+  r->x_weak = 0.0;
+  jg_status st = locate_handover(r, x_start, err);
+  if (st != JG_OK || r->x_handover >= 0.0) return st;
   gsl_odeiv2_system ode_h = {rhs_hydrogen, jac_hydrogen, 1, &r->sys};
   gsl_odeiv2_system ode_ht = {rhs_hydrogen_temperature, jac_hydrogen_temperature, 2, &r->sys};
   const jg_thermal_settings *set = r->settings;
@@ -451,22 +424,109 @@ static jg_status integrate_history(history_run *r, jg_error *err) {
       &ode_ht, gsl_odeiv2_step_msbdf, HISTORY_FIRST_STEP, set->abs_tol, set->rel_tol);
   if (!drv_h || !drv_ht) st = JG_FAIL(err, JG_ENOMEM, "out of memory for the ODE drivers");
 
-  double x_e_start;
-  double y[2] = {saha_hydrogen_at(r->th->bg, x, &x_e_start), 0.0};
-  int weak = st == JG_OK && weak_coupling_excess(r, x, y[0]) >= 0.0;
-  if (st == JG_OK && !weak) st = run_phase(r, drv_h, "hydrogen recombination", &x, y, &weak, err);
-  if (st == JG_OK && weak) {
+  double x = r->x_handover, x_e;
+  double y[2] = {saha_hydrogen_at(r->bg, x, &x_e), 0.0};
+  if (st == JG_OK) st = run_phase(r, drv_h, "hydrogen recombination", &x, y, err);
+  r->first_integrated_T = r->n_spans;
+  if (st == JG_OK && x < 0.0) {
     local_state ls;
     if (local_state_at(&r->sys, x, y[0], &ls) != GSL_SUCCESS) {
       st = unusable_state(x, y[0], err);
     } else {
       y[1] = jg__gas_temperature_quasi_static(ls.T_rad, ls.H, ls.compton);
-      st = run_phase(r, drv_ht, "hydrogen and gas temperature", &x, y, &weak, err);
+      st = run_phase(r, drv_ht, "hydrogen and gas temperature", &x, y, err);
     }
   }
   gsl_odeiv2_driver_free(drv_h);
   gsl_odeiv2_driver_free(drv_ht);
   return st;
+}
+
+/* ---- the stored grid ---- */
+
+/* A cubic spline through a kink (the two phase switches) or next to a
+ * natural end condition (the two ends) errs by ~ (slope jump or h^2 y'') x
+ * the node spacing, and that error decays only by a factor ~0.27 per node
+ * away from it. So besides thermal.grid_points nodes uniform in ln a the
+ * grid gets GRADED_NODES nodes on each side of those four places, spaced
+ * geometrically by GRADED_RATIO from h / GRADED_RATIO^GRADED_NODES up to
+ * h / GRADED_RATIO (h the uniform spacing): the error then scales with the
+ * finest spacing and still dies away (ratio^2 x 0.27 < 1 per node). */
+enum { GRADED_NODES = 16 };
+static const double GRADED_RATIO = 1.5;
+
+static int compare_doubles(const void *a, const void *b) {
+  double x = *(const double *)a, y = *(const double *)b;
+  return (x > y) - (x < y);
+}
+
+static jg_status build_grid(jg_thermal *th, const history_run *r, int uniform, jg_error *err) {
+  const double start = th->ln_a_start, h = -start / (uniform - 1);
+  const double places[] = {start, r->x_handover, r->x_weak, 0.0};
+  const int n_places = (int)(sizeof places / sizeof places[0]);
+  const int capacity = uniform + n_places * (2 * GRADED_NODES + 1);
+  th->ln_a = malloc(sizeof(double) * (size_t)capacity);
+  if (!th->ln_a) return JG_FAIL(err, JG_ENOMEM, "out of memory for the thermal history");
+  int n = 0;
+  for (int i = 0; i < uniform; i++) th->ln_a[n++] = start * (1.0 - (double)i / (uniform - 1));
+  th->ln_a[uniform - 1] = 0.0;
+  for (int p = 0; p < n_places; p++) {
+    const double at = places[p];
+    if (p == 1 || p == 2) {
+      if (!(at > start && at < 0.0)) continue; /* no such switch inside the grid */
+      th->ln_a[n++] = at;
+    }
+    double offset = h;
+    for (int k = 0; k < GRADED_NODES; k++) {
+      offset /= GRADED_RATIO;
+      if (at - offset > start) th->ln_a[n++] = at - offset;
+      if (at + offset < 0.0) th->ln_a[n++] = at + offset;
+    }
+  }
+  qsort(th->ln_a, (size_t)n, sizeof *th->ln_a, compare_doubles);
+  /* Drop nodes that (nearly) repeat one: the spline needs strictly
+   * increasing abscissae. */
+  double finest = h;
+  for (int k = 0; k < GRADED_NODES; k++) finest /= GRADED_RATIO;
+  const double too_close = 1e-6 * finest;
+  int kept = 1;
+  for (int i = 1; i < n; i++)
+    if (th->ln_a[i] - th->ln_a[kept - 1] > too_close) th->ln_a[kept++] = th->ln_a[i];
+  th->ln_a[kept - 1] = 0.0;
+  th->n = kept;
+  return JG_OK;
+}
+
+/* Node values: Saha up to the hand-over, then the kept steps. */
+static jg_status fill_nodes(const history_run *r, const jg_thermal *th, double *x_e, double *x_p,
+                            double *T_gas, jg_error *err) {
+  size_t j = 0;
+  for (int i = 0; i < th->n; i++) {
+    const double x = th->ln_a[i];
+    local_state ls;
+    if (x <= r->x_handover) {
+      x_p[i] = saha_hydrogen_at(r->bg, x, &x_e[i]);
+      if (!isfinite(x_p[i]))
+        return JG_FAIL(err, JG_ENUMERIC,
+                       "thermal history (Saha equilibrium): no solution at z = %.3f", z_of_ln_a(x));
+      const double a = exp(x), T_rad = jg_background_T_radiation(r->bg, a);
+      const double H = jg_background_hubble(r->bg, a);
+      T_gas[i] = jg__gas_temperature_quasi_static(T_rad, H, jg__compton_rate(r->bg, T_rad, x_e[i]));
+      continue;
+    }
+    const bool integrated_T = r->x_weak < 0.0 && x > r->x_weak;
+    const size_t end = integrated_T ? r->n_spans : r->first_integrated_T;
+    if (integrated_T && j < r->first_integrated_T) j = r->first_integrated_T;
+    while (j + 1 < end && r->spans[j].x1 < x) j++;
+    const step_span *s = &r->spans[j];
+    x_p[i] = hermite_at(s, 0, x);
+    if (local_state_at(&r->sys, x, x_p[i], &ls) != GSL_SUCCESS)
+      return unusable_state(x, x_p[i], err);
+    x_e[i] = ls.x_e;
+    T_gas[i] = integrated_T ? hermite_at(s, 1, x)
+                            : jg__gas_temperature_quasi_static(ls.T_rad, ls.H, ls.compton);
+  }
+  return JG_OK;
 }
 
 jg_thermal *jg_thermal_new(const jg_background *bg, const jg_thermal_settings *settings,
@@ -483,23 +543,17 @@ jg_thermal *jg_thermal_new(const jg_background *bg, const jg_thermal_settings *s
   }
   th->bg = bg;
   th->settings = *settings;
-  th->n = settings->grid_points;
   th->ln_a_start = -log1p(settings->start_redshift);
-  const int n = th->n;
-  th->ln_a = malloc(sizeof(double) * (size_t)n);
-  double *work = malloc(sizeof(double) * (size_t)n * 3);
-  if (!th->ln_a || !work) {
-    free(work);
-    jg_thermal_free(th);
-    JG_FAIL(err, JG_ENOMEM, "out of memory for the thermal history");
-    return NULL;
-  }
-  double *x_e = work, *x_p = work + n, *T_gas = work + 2 * n;
-  for (int i = 0; i < n; i++) th->ln_a[i] = th->ln_a_start * (1.0 - (double)i / (n - 1));
-  th->ln_a[n - 1] = 0.0;
-
-  history_run run = {th, settings, {bg, settings->recombination_fudge, 0.0}, x_e, x_p, T_gas, 0};
-  jg_status st = integrate_history(&run, err);
+  history_run run = {bg, settings, {bg, settings->recombination_fudge, 0.0}, 0.0, 0.0, NULL, 0, 0, 0};
+  jg_status st = integrate_history(&run, th->ln_a_start, err);
+  if (st == JG_OK) st = build_grid(th, &run, settings->grid_points, err);
+  const int n = st == JG_OK ? th->n : 0;
+  double *work = NULL;
+  if (st == JG_OK && !(work = malloc(sizeof(double) * (size_t)n * 3)))
+    st = JG_FAIL(err, JG_ENOMEM, "out of memory for the thermal history");
+  double *x_e = work, *x_p = work ? work + n : NULL, *T_gas = work ? work + 2 * n : NULL;
+  if (st == JG_OK) st = fill_nodes(&run, th, x_e, x_p, T_gas, err);
+  free(run.spans);
 
   if (st == JG_OK) {
     double *tmp = malloc(sizeof(double) * (size_t)n);
