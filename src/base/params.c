@@ -90,7 +90,7 @@ static const param_spec specs[] = {
            "absolute tolerance of the stiff integration (x_p, and T_gas in K)"),
     INTEGER("thermal.grid_points", thermal.grid_points, "1500", "200 <= value <= 1000000", 200,
             1000000,
-            "nodes of the stored history uniform in ln a (about 100 more are graded around the "
+            "nodes of the stored history uniform in ln a (about 160 more are graded around the "
             "phase switches and the ends)"),
 
     NUMBER("perturbations.k_min", perturbations.k_min, "1/Mpc", "1.0", "1 <= value <= 1e5", 1,

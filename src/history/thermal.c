@@ -446,14 +446,15 @@ static jg_status integrate_history(history_run *r, double x_start, jg_error *err
 
 /* A cubic spline through a kink (the two phase switches) or next to a
  * natural end condition (the two ends) errs by ~ (slope jump or h^2 y'') x
- * the node spacing, and that error decays only by a factor ~0.27 per node
- * away from it. So besides thermal.grid_points nodes uniform in ln a the
- * grid gets GRADED_NODES nodes on each side of those four places, spaced
- * geometrically by GRADED_RATIO from h / GRADED_RATIO^GRADED_NODES up to
- * h / GRADED_RATIO (h the uniform spacing): the error then scales with the
- * finest spacing and still dies away (ratio^2 x 0.27 < 1 per node). */
-enum { GRADED_NODES = 16 };
-static const double GRADED_RATIO = 1.5;
+ * the node spacing h, and that error decays only by a factor ~0.27 per node
+ * away from it; right after the hand-over x_p also relaxes from Saha onto
+ * the Peebles track within ~0.01 in ln a. So besides thermal.grid_points
+ * nodes uniform in ln a the grid gets graded nodes on each side of those
+ * four places, at distances GRADED_FINEST x GRADED_RATIO^k up to
+ * GRADED_WIDTH: the local spacing is a third of the distance, the error
+ * scales with the finest spacing and still dies away (ratio^2 x 0.27 < 1
+ * per node), whatever the uniform spacing. */
+static const double GRADED_FINEST = 1e-6, GRADED_RATIO = 1.5, GRADED_WIDTH = 0.05;
 
 static int compare_doubles(const void *a, const void *b) {
   double x = *(const double *)a, y = *(const double *)b;
@@ -461,10 +462,13 @@ static int compare_doubles(const void *a, const void *b) {
 }
 
 static jg_status build_grid(jg_thermal *th, const history_run *r, int uniform, jg_error *err) {
-  const double start = th->ln_a_start, h = -start / (uniform - 1);
+  const double start = th->ln_a_start;
   const double places[] = {start, r->x_handover, r->x_weak, 0.0};
   const int n_places = (int)(sizeof places / sizeof places[0]);
-  const int capacity = uniform + n_places * (2 * GRADED_NODES + 1);
+  int graded_per_side = 0;
+  for (double offset = GRADED_FINEST; offset < GRADED_WIDTH; offset *= GRADED_RATIO)
+    graded_per_side++;
+  const int capacity = uniform + n_places * (2 * graded_per_side + 1);
   th->ln_a = malloc(sizeof(double) * (size_t)capacity);
   if (!th->ln_a) return JG_FAIL(err, JG_ENOMEM, "out of memory for the thermal history");
   int n = 0;
@@ -476,9 +480,7 @@ static jg_status build_grid(jg_thermal *th, const history_run *r, int uniform, j
       if (!(at > start && at < 0.0)) continue; /* no such switch inside the grid */
       th->ln_a[n++] = at;
     }
-    double offset = h;
-    for (int k = 0; k < GRADED_NODES; k++) {
-      offset /= GRADED_RATIO;
+    for (double offset = GRADED_FINEST; offset < GRADED_WIDTH; offset *= GRADED_RATIO) {
       if (at - offset > start) th->ln_a[n++] = at - offset;
       if (at + offset < 0.0) th->ln_a[n++] = at + offset;
     }
@@ -486,9 +488,7 @@ static jg_status build_grid(jg_thermal *th, const history_run *r, int uniform, j
   qsort(th->ln_a, (size_t)n, sizeof *th->ln_a, compare_doubles);
   /* Drop nodes that (nearly) repeat one: the spline needs strictly
    * increasing abscissae. */
-  double finest = h;
-  for (int k = 0; k < GRADED_NODES; k++) finest /= GRADED_RATIO;
-  const double too_close = 1e-6 * finest;
+  const double too_close = 1e-3 * GRADED_FINEST;
   int kept = 1;
   for (int i = 1; i < n; i++)
     if (th->ln_a[i] - th->ln_a[kept - 1] > too_close) th->ln_a[kept++] = th->ln_a[i];
