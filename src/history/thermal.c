@@ -485,13 +485,23 @@ static jg_status build_grid(jg_thermal *th, const history_run *r, int uniform, j
       if (at + offset < 0.0) th->ln_a[n++] = at + offset;
     }
   }
-  qsort(th->ln_a, (size_t)n, sizeof *th->ln_a, compare_doubles);
-  /* Drop nodes that (nearly) repeat one: the spline needs strictly
-   * increasing abscissae. */
+  /* The uniform nodes are in order already: sort the few graded ones and
+   * merge, dropping nodes that (nearly) repeat one (the spline needs strictly
+   * increasing abscissae). */
+  double *merged = malloc(sizeof(double) * (size_t)n);
+  if (!merged) return JG_FAIL(err, JG_ENOMEM, "out of memory for the thermal history");
+  double *graded = th->ln_a + uniform;
+  qsort(graded, (size_t)(n - uniform), sizeof *graded, compare_doubles);
   const double too_close = 1e-3 * GRADED_FINEST;
-  int kept = 1;
-  for (int i = 1; i < n; i++)
-    if (th->ln_a[i] - th->ln_a[kept - 1] > too_close) th->ln_a[kept++] = th->ln_a[i];
+  int kept = 0;
+  for (int i = 0, j = 0; i < uniform || j < n - uniform;) {
+    const double next = j >= n - uniform || (i < uniform && th->ln_a[i] <= graded[j])
+                            ? th->ln_a[i++]
+                            : graded[j++];
+    if (kept == 0 || next - merged[kept - 1] > too_close) merged[kept++] = next;
+  }
+  free(th->ln_a);
+  th->ln_a = merged;
   th->ln_a[kept - 1] = 0.0;
   th->n = kept;
   return JG_OK;
