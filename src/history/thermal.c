@@ -1,17 +1,22 @@
 /*
  * The ionisation and gas-temperature history: drives the atomic physics of
  * recombination.c and the Compton balance of gas_temperature.c from
- * thermal.start_redshift to z = 0, and stores the result on a grid uniform
- * in ln a (cubic splines of ln x_e, ln x_p and ln T_gas).
+ * thermal.start_redshift to z = 0, and stores the result on a grid in ln a
+ * (cubic splines of ln x_e, ln x_p and ln T_gas).
  *
- * Three phases, switched at grid nodes:
+ * Three phases, switched where their criteria cross (located by Brent's
+ * method, not at a grid node):
  *   1. hydrogen and helium in Saha equilibrium, T_gas quasi-static
  *      (while the Saha x_p exceeds thermal.saha_limit);
  *   2. x_p from the Peebles equation (msbdf, analytic Jacobian), helium in
  *      Saha equilibrium, T_gas quasi-static (while H/Gamma_C is below
  *      thermal.quasi_static_limit);
  *   3. x_p and T_gas integrated together (msbdf, analytic Jacobian).
- * The stored x_e always includes the helium electrons.
+ * The stepper takes its own steps (about 950 at the defaults); every step is
+ * kept and the grid is filled afterwards from their cubic Hermite
+ * interpolants. The grid is thermal.grid_points nodes uniform in ln a plus
+ * nodes graded towards the two switches and the two ends. The stored x_e
+ * always includes the helium electrons.
  *
  * Optical depth and drag depth are integrated from the splines
  * (gsl_spline_eval_integ), from today backwards; there is no reionisation.
