@@ -675,6 +675,15 @@ static key_numbers key_numbers_of(const jg_params *p) {
   return k;
 }
 
+/* Both thermal tolerances divided by the same factor (abs_tol too, so that
+ * it does not take over from rel_tol for x_p ~ 3e-4). */
+static jg_params tolerances_divided(const jg_params *p, double factor) {
+  jg_params tight = *p;
+  tight.thermal.rel_tol /= factor;
+  tight.thermal.abs_tol /= factor;
+  return tight;
+}
+
 /* physics.md §7: defaults reach 1e-6 relative. Tightening thermal.rel_tol
  * by 100 (abs_tol too, so that it does not take over for x_p ~ 3e-4) and
  * doubling thermal.grid_points must each move z_star and x_e(z = 100) by
@@ -686,9 +695,7 @@ Test(convergence, tolerance_and_grid) {
   jg_params_set_defaults(&p);
   key_numbers base = key_numbers_of(&p);
 
-  jg_params tight = p;
-  tight.thermal.rel_tol /= 100.0;
-  tight.thermal.abs_tol /= 100.0;
+  jg_params tight = tolerances_divided(&p, 100.0);
   key_numbers t = key_numbers_of(&tight);
   assert_rel(t.z_star, base.z_star, 1e-6, "z_star, rel_tol / 100");
   assert_rel(t.x_e100, base.x_e100, 1e-6, "x_e(100), rel_tol / 100");
@@ -741,10 +748,8 @@ Test(convergence, default_history_against_a_dense_tight_one) {
   jg_params p;
   jg_params_set_defaults(&p);
   history base = build_history(&p);
-  jg_params dense = p;
+  jg_params dense = tolerances_divided(&p, 1000.0);
   dense.thermal.grid_points = 30000;
-  dense.thermal.rel_tol /= 1000.0;
-  dense.thermal.abs_tol /= 1000.0;
   history ref = build_history(&dense);
   history_gap g = gap_between(&base, &ref);
   cr_assert(g.x_e <= 1e-6, "x_e differs by %.3g", g.x_e);
