@@ -415,7 +415,8 @@ Test(rates, peebles_rate_written_out) {
     const double n_H = jg_background_n_hydrogen(h.bg, a_f), H = jg_background_hubble(h.bg, a_f);
     const double F = h.p.thermal.recombination_fudge, kT = JG_K_BOLTZMANN * s.T_rad;
     const double t_gas = s.T_gas / 1.0e4, t_rad = s.T_rad / 1.0e4;
-    const double alpha = F * 1.0e-19 * 4.309 * pow(t_gas, -0.6166) / (1.0 + 0.6703 * pow(t_gas, 0.53));
+    const double alpha =
+        F * 1.0e-19 * 4.309 * pow(t_gas, -0.6166) / (1.0 + 0.6703 * pow(t_gas, 0.53));
     const double alpha_rad =
         F * 1.0e-19 * 4.309 * pow(t_rad, -0.6166) / (1.0 + 0.6703 * pow(t_rad, 0.53));
     const double quantum =

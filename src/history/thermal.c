@@ -559,7 +559,8 @@ jg_thermal *jg_thermal_new(const jg_background *bg, const jg_thermal_settings *s
   th->bg = bg;
   th->settings = *settings;
   th->ln_a_start = -log1p(settings->start_redshift);
-  history_run run = {bg, settings, {bg, settings->recombination_fudge, 0.0}, 0.0, 0.0, NULL, 0, 0, 0};
+  history_run run = {bg, settings, {bg, settings->recombination_fudge, 0.0}, 0.0, 0.0,
+                     NULL, 0, 0, 0};
   jg_status st = integrate_history(&run, th->ln_a_start, err);
   if (st == JG_OK) st = build_grid(th, &run, settings->grid_points, err);
   const int n = st == JG_OK ? th->n : 0;
