@@ -342,11 +342,12 @@ static jg_status locate_handover(history_run *r, double x_start, jg_error *err) 
   /* H/Gamma_C only grows with time: checking the end of the Saha phase
    * checks all of it. */
   double x_e, x_p = saha_hydrogen_at(r->bg, r->x_handover, &x_e);
-  if (weak_coupling_excess(r, r->x_handover, x_p) >= 0.0) /* never for sane input */
+  const double excess = weak_coupling_excess(r, r->x_handover, x_p);
+  if (excess >= 0.0) /* never for sane input */
     return JG_FAIL(err, JG_ENUMERIC,
-                   "thermal history: Compton coupling weak (H/Gamma_C > %g) while hydrogen is "
+                   "thermal history: Compton coupling weak (H/Gamma_C = %g) while hydrogen is "
                    "still in Saha equilibrium at z = %.1f",
-                   r->settings->quasi_static_limit, z_of_ln_a(r->x_handover));
+                   excess + r->settings->quasi_static_limit, z_of_ln_a(r->x_handover));
   return JG_OK;
 }
 
