@@ -241,6 +241,46 @@ Test(equilibrium, recombination_lags_saha_below_handover) {
   free_history(&h);
 }
 
+/* The hand-over to the Peebles equation falls where the Saha x_p reaches
+ * thermal.saha_limit = 0.99, wherever the nodes lie: found here by bisection
+ * on the joint Saha solution written out above (z_h ~ 1573), the history
+ * must still be Saha just before it (z_h + 0.05, the neutral fraction 1 - x_p
+ * = 0.01 to 1e-5, as at z = 1800) and lag behind Saha just after it
+ * (z_h - 2). With 500, 1500 and 5000 uniform nodes alike. A driver that
+ * switched at the node before the crossing (up to 3.5 in z earlier at 1500
+ * nodes) would already be on the Peebles track at z_h + 0.05. */
+Test(equilibrium, hand_over_where_saha_reaches_the_limit) {
+  jg_params p;
+  jg_params_set_defaults(&p);
+  double lo = 1400.0, hi = 1800.0; /* x_p(lo) < 0.99 < x_p(hi) */
+  for (int i = 0; i < 60; i++) {
+    const double mid = 0.5 * (lo + hi);
+    saha_point s = saha_point_at(&p, mid);
+    if (1.0 - hydrogen_neutral_saha(&s, joint_saha_electrons(&s)) > p.thermal.saha_limit)
+      hi = mid;
+    else
+      lo = mid;
+  }
+  const double z_h = 0.5 * (lo + hi);
+  const int grids[] = {500, 1500, 5000};
+  for (size_t g = 0; g < sizeof grids / sizeof grids[0]; g++) {
+    p.thermal.grid_points = grids[g];
+    history h = build_history(&p);
+    saha_point before = saha_point_at(&p, z_h + 0.05);
+    char what[96];
+    snprintf(what, sizeof what, "1 - x_p at z_h + 0.05 = %.2f vs Saha, %d nodes", z_h + 0.05,
+             grids[g]);
+    assert_rel(1.0 - state_at(&h, z_h + 0.05).x_p,
+               hydrogen_neutral_saha(&before, joint_saha_electrons(&before)), 1e-5, what);
+    saha_point after = saha_point_at(&p, z_h - 2.0);
+    const double x_p_saha = 1.0 - hydrogen_neutral_saha(&after, joint_saha_electrons(&after));
+    cr_assert(state_at(&h, z_h - 2.0).x_p > x_p_saha,
+              "%d nodes: x_p(z_h - 2) = %.9g does not lag behind Saha (%.9g)", grids[g],
+              state_at(&h, z_h - 2.0).x_p, x_p_saha);
+    free_history(&h);
+  }
+}
+
 /* ---- the gas temperature ---------------------------------------------------- */
 
 TestSuite(gas_temperature, .init = quiet_gsl);
