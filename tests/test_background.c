@@ -25,18 +25,10 @@
 
 #include "jeansgrow/background.h"
 #include "jeansgrow/constants.h"
-
-static void quiet_gsl(void) { gsl_set_error_handler_off(); }
+#include "support.h"
 
 /* Criterion has no relative comparison; NaN fails because every comparison
  * with NaN is false. */
-static void assert_rel(double actual, double expected, double rtol, const char *what) {
-  double diff = fabs(actual - expected);
-  cr_assert(diff <= rtol * fabs(expected),
-            "%s: got %.17g, expected %.17g (relative difference %.3g, tolerance %.3g)", what,
-            actual, expected, expected != 0.0 ? diff / fabs(expected) : diff, rtol);
-}
-
 static void assert_ok(jg_status st, const jg_error *err, const char *what) {
   cr_assert(st == JG_OK, "%s failed: %s: %s", what, jg_status_name(st), err->message);
 }

@@ -18,16 +18,10 @@
 #include <criterion/new/assert.h>
 
 #include "jeansgrow/constants.h"
+#include "support.h"
 
 /* Criterion has no relative comparison; NaN fails because every comparison
  * with NaN is false. */
-static void assert_rel(double actual, double expected, double rtol, const char *what) {
-  double diff = fabs(actual - expected);
-  cr_assert(diff <= rtol * fabs(expected),
-            "%s: got %.17g, expected %.17g (relative difference %.3g, tolerance %.3g)", what,
-            actual, expected, expected != 0.0 ? diff / fabs(expected) : diff, rtol);
-}
-
 /* ---- exact SI values and CODATA 2018 entries ---------------------------- */
 
 Test(constants, si_exact_values_are_pinned) {

@@ -12,18 +12,10 @@
 #include "jeansgrow/constants.h"
 #include "jeansgrow/jeans.h"
 #include "jeansgrow/params.h"
-
-static void quiet_gsl(void) { gsl_set_error_handler_off(); }
+#include "support.h"
 
 /* Criterion has no relative comparison. Written so that NaN fails: every
  * comparison with NaN is false. */
-static void assert_rel(double actual, double expected, double rtol, const char *what) {
-  double diff = fabs(actual - expected);
-  cr_assert(diff <= rtol * fabs(expected),
-            "%s: got %.10g, expected %.10g (relative difference %.3g, tolerance %.3g)", what,
-            actual, expected, expected != 0.0 ? diff / fabs(expected) : diff, rtol);
-}
-
 /* ---- the classic Jeans length ------------------------------------------------ */
 
 TestSuite(classic_jeans, .init = quiet_gsl);

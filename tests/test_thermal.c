@@ -26,18 +26,10 @@
 #include "jeansgrow/epochs.h"
 #include "jeansgrow/params.h"
 #include "jeansgrow/thermal.h"
-
-static void quiet_gsl(void) { gsl_set_error_handler_off(); }
+#include "support.h"
 
 /* Criterion has no relative comparison. Written so that NaN fails: every
  * comparison with NaN is false. */
-static void assert_rel(double actual, double expected, double rtol, const char *what) {
-  double diff = fabs(actual - expected);
-  cr_assert(diff <= rtol * fabs(expected),
-            "%s: got %.12g, expected %.12g (relative difference %.3g, tolerance %.3g)", what,
-            actual, expected, expected != 0.0 ? diff / fabs(expected) : diff, rtol);
-}
-
 /* ---- building histories ---------------------------------------------------- */
 
 typedef struct history {

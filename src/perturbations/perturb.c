@@ -43,6 +43,7 @@
 
 #include "jeansgrow/background.h"
 #include "jeansgrow/constants.h"
+#include "../base/alloc.h" /* last: test builds route allocations through it */
 
 /* Nodes per e-fold of the coefficient tables. The cubic-spline error,
  * ~ (5/384) h^4 max|f''''| with h = 2e-3, is below 1e-10 for the logarithms
