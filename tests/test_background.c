@@ -27,8 +27,6 @@
 #include "jeansgrow/constants.h"
 #include "support.h"
 
-/* Criterion has no relative comparison; NaN fails because every comparison
- * with NaN is false. */
 static void assert_ok(jg_status st, const jg_error *err, const char *what) {
   cr_assert(st == JG_OK, "%s failed: %s: %s", what, jg_status_name(st), err->message);
 }

@@ -30,8 +30,6 @@
 #include "jeansgrow/thermal.h"
 #include "support.h"
 
-/* Criterion has no relative comparison. Written so that NaN fails: every
- * comparison with NaN is false. */
 /* The epochs of the default (Planck 2018) cosmology with the default
  * thermal settings. */
 static jg_epochs planck_epochs(void) {

@@ -28,8 +28,6 @@
 #include "jeansgrow/thermal.h"
 #include "support.h"
 
-/* Criterion has no relative comparison. Written so that NaN fails: every
- * comparison with NaN is false. */
 /* ---- building histories ---------------------------------------------------- */
 
 typedef struct history {
