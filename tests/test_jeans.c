@@ -49,7 +49,7 @@ TestSuite(sound_speed, .init = quiet_gsl);
 
 /* c_s = sqrt(gamma k T / (mu m_H)) at z_star = 1089.92 (Planck 2018, A&A
  * 641, A6, Table 2) with gamma = 5/3, mu = 1.22 and T = 2.7255 (1 + z_star) K
- * is about 5.8 km/s, ~1.93e-5 c (checks.md §5, derived here; consistent with
+ * is about 5.8 km/s, ~1.93e-5 c (src/PHYSICS.md §10.5, derived; consistent with
  * "~2e-5 c" in the abstract of Tseliakhovich & Hirata 2010, PRD 82, 083520).
  * 2 %: the reference has two digits. */
 Test(sound_speed, adiabatic_at_decoupling) {
@@ -90,21 +90,20 @@ static double bl01_jeans_mass(const jg_background *bg, double z, double gamma) {
 }
 
 /* The check values M_J = 1.3623e5 M_sun (gamma = 1, isothermal) and
- * 2.9313e5 M_sun (gamma = 5/3) are derived here (checks.md §5 and §12) from
+ * 2.9313e5 M_sun (gamma = 5/3) are derived (src/PHYSICS.md §10.5) from
  * the definitions of Barkana & Loeb (2001, §3.1), lambda_J = sqrt(pi c_s^2 /
  * (G rho_m)), M_J = (4 pi / 3) rho_m (lambda_J / 2)^3, with
  * c_s^2 = gamma k T / (mu m_p); BL01 quote 1.35e5 (Omega_m h^2 / 0.13)^-1/2
  * (value from memory). While T ~ (1 + z) and rho_m ~ (1 + z)^3 the mass is
  * the same at every z, checked at z = 100, 300 and 1000.
  *
- * Our sound speed uses the hydrogen-atom mass m_H (physics.md §1: mu in
+ * Our sound speed uses the hydrogen-atom mass m_H (src/PHYSICS.md §2: mu in
  * units of m_H), not m_p: M_J ~ c_s^3 is then lower by
  * (m_p / m_H)^{3/2} = 0.999184, i.e. 8.2e-4. Two assertions:
- *   - against the published-convention number, 1e-3 (the brief's): that is
- *     the 8.2e-4 convention offset plus the reference's five digits;
- *   - against the number converted to our convention, 1e-4 (checks.md §12's
- *     tolerance), which is the real test of the wavenumber and mass formulas:
- *     using rho_b instead of rho_m would give 3.3e5, lambda_J instead of
+ *   - against the published-convention number, 1e-3: the 8.2e-4
+ *     convention offset plus the reference's five digits;
+ *   - against the number converted to our convention, 1e-4 (five digits),
+ *     the real test of the wavenumber and mass formulas: using rho_b instead of rho_m would give 3.3e5, lambda_J instead of
  *     lambda_J / 2 a factor 8. */
 static void check_bl01(double gamma, double reference) {
   jg_background *bg = bl01_background();
