@@ -12,7 +12,6 @@
 #include "recombination.h"
 
 #include <gsl/gsl_errno.h>
-#include <gsl/gsl_roots.h>
 #include <math.h>
 
 #include "jeansgrow/constants.h"
