@@ -5,6 +5,7 @@
  * 1 and one "jeansgrow: ..." line per failure that names the shortage, no
  * crash, no sanitizer report (tests/sanitize.sh: leaks included), no partial
  * output. Small configurations keep the walk to seconds. */
+#include <dirent.h>
 #include <errno.h>
 #include <stdio.h>
 #include <stdlib.h>
@@ -70,6 +71,23 @@ static void assert_clean_failure(const attempt *a, long n, const char *job) {
   }
 }
 
+/* No hidden (temporary) file in `folder` or in its subfolders. */
+static void assert_no_temporary(const char *folder, long n, const char *job) {
+  DIR *d = opendir(folder);
+  if (!d) return;
+  struct dirent *e;
+  while ((e = readdir(d)) != NULL) {
+    if (strcmp(e->d_name, ".") == 0 || strcmp(e->d_name, "..") == 0) continue;
+    cr_assert(e->d_name[0] != '.', "%s, allocation %ld refused: left %s/%s behind", job, n,
+              folder, e->d_name);
+    char path[1024];
+    snprintf(path, sizeof path, "%s/%s", folder, e->d_name);
+    struct stat sb;
+    if (stat(path, &sb) == 0 && S_ISDIR(sb.st_mode)) assert_no_temporary(path, n, job);
+  }
+  closedir(d);
+}
+
 /* Count the job's allocations, then refuse each in turn. `output` is the
  * file or folder the job writes, which a failed run must not leave behind. */
 static void walk(const char *dir, const char *const *args, const char *output, const char *job) {
@@ -86,6 +104,7 @@ static void walk(const char *dir, const char *const *args, const char *output, c
     cr_assert_eq(system(command), 0);
     one_attempt(dir, args, n, &a);
     assert_clean_failure(&a, n, job);
+    assert_no_temporary(dir, n, job);
     cr_assert_geq(a.allocations, n, "%s: failed at allocation %ld before reaching the refused %ld",
                   job, a.allocations, n);
   }
