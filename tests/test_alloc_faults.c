@@ -3,8 +3,10 @@
  * first run counts the allocations of the job; then every one of them is
  * refused in turn, N = 1, 2, ..., and each run must end cleanly: exit status
  * 1 and one "jeansgrow: ..." line per failure that names the shortage, no
- * crash, no sanitizer report (tests/sanitize.sh: leaks included), no partial
- * output. Small configurations keep the walk to seconds. */
+ * crash, no sanitizer report (tests/sanitize.sh: leaks included), and no
+ * temporary file left behind (tables are written beside their target as
+ * hidden files, then renamed). Small configurations keep the walk to
+ * seconds. */
 #include <dirent.h>
 #include <errno.h>
 #include <stdio.h>
