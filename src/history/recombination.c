@@ -12,11 +12,11 @@
 #include "recombination.h"
 
 #include <gsl/gsl_errno.h>
-#include <gsl/gsl_roots.h>
 #include <math.h>
 #include <stdbool.h>
 
 #include "jeansgrow/constants.h"
+#include "../base/alloc.h" /* last: test builds route allocations through it */
 
 /* Pequignot, Petitjean & Boisson (1991) case-B fit, as used by SSS 1999 eq. 3:
  * alpha_B = F 1e-19 a t^b / (1 + c t^d) m^3 s^-1, t = T / 1e4 K. */
@@ -116,26 +116,47 @@ static double electron_excess(double x_e, void *params) {
   return hydrogen_saha_fraction(b->saha_h, x_e) + he.electrons - x_e;
 }
 
-static int solve_electrons(electron_balance *b, double lo, double hi, double *x_e) {
-  gsl_function F = {electron_excess, b};
-  double flo = electron_excess(lo, b), fhi = electron_excess(hi, b);
-  if (flo <= 0) { *x_e = lo; return GSL_SUCCESS; }
-  if (fhi >= 0) { *x_e = hi; return GSL_SUCCESS; }
-  gsl_root_fsolver *s = gsl_root_fsolver_alloc(gsl_root_fsolver_brent);
-  if (!s) return GSL_ENOMEM;
-  int status = gsl_root_fsolver_set(s, &F, lo, hi);
-  for (int iter = 0; status == GSL_SUCCESS && iter < 200; iter++) {
-    status = gsl_root_fsolver_iterate(s);
-    if (status != GSL_SUCCESS) break;
-    double a = gsl_root_fsolver_x_lower(s), c = gsl_root_fsolver_x_upper(s);
-    status = gsl_root_test_interval(a, c, 0.0, 1e-14);
-    if (status == GSL_SUCCESS) break;
-    if (status != GSL_CONTINUE) break;
-    status = GSL_SUCCESS;
+/* The Illinois variant of regula falsi: no allocation, because the thermal
+ * queries above the stored grid, which cannot report a failure, solve the
+ * electron balance too. */
+int jg__bracketed_root(double (*f)(double, void *), void *params, double lo, double hi,
+                       double tol, double *root) {
+  double flo = f(lo, params), fhi = f(hi, params);
+  if (!(flo * fhi <= 0)) return GSL_EINVAL; /* no sign change, or NaN */
+  if (flo == 0 || fhi == 0) {
+    *root = flo == 0 ? lo : hi;
+    return GSL_SUCCESS;
   }
-  *x_e = gsl_root_fsolver_root(s);
-  gsl_root_fsolver_free(s);
-  return status;
+  const bool rising = flo < 0;
+  int kept = 0; /* which end the last step kept: -1 low, +1 high */
+  for (int iter = 0; iter < 200; iter++) {
+    double x = (lo * fhi - hi * flo) / (fhi - flo);
+    if (!(x > lo && x < hi)) x = 0.5 * (lo + hi);
+    double fx = f(x, params);
+    if (fx == 0 || hi - lo < tol) {
+      *root = x;
+      return GSL_SUCCESS;
+    }
+    if (!isfinite(fx)) return GSL_EBADFUNC;
+    if ((fx < 0) == rising) {
+      lo = x, flo = fx;
+      if (kept == 1) fhi *= 0.5; /* the high end is stuck: pull the secant towards it */
+      kept = 1;
+    } else {
+      hi = x, fhi = fx;
+      if (kept == -1) flo *= 0.5;
+      kept = -1;
+    }
+  }
+  *root = 0.5 * (lo + hi);
+  return GSL_EMAXITER;
+}
+
+/* x_e to 1e-14, or the end of [lo, hi] the balance does not reach. */
+static int solve_electrons(electron_balance *b, double lo, double hi, double *x_e) {
+  if (electron_excess(lo, b) <= 0) { *x_e = lo; return GSL_SUCCESS; }
+  if (electron_excess(hi, b) >= 0) { *x_e = hi; return GSL_SUCCESS; }
+  return jg__bracketed_root(electron_excess, b, lo, hi, 1e-14, x_e);
 }
 
 int jg__saha_equilibrium(const jg_background *bg, double T_rad, double n_H, double *x_e,

@@ -4,8 +4,8 @@
  * thermal.start_redshift to z = 0, and stores the result on a grid in ln a
  * (cubic splines of ln x_e, ln x_p and ln T_gas).
  *
- * Three phases, switched where their criteria cross (located by Brent's
- * method, not at a grid node):
+ * Three phases, switched where their criteria cross (located by regula
+ * falsi, not at a grid node):
  *   1. hydrogen and helium in Saha equilibrium, T_gas quasi-static
  *      (while the Saha x_p exceeds thermal.saha_limit);
  *   2. x_p from the Peebles equation (msbdf, analytic Jacobian), helium in
@@ -26,7 +26,6 @@
 #include <gsl/gsl_errno.h>
 #include <gsl/gsl_integration.h>
 #include <gsl/gsl_odeiv2.h>
-#include <gsl/gsl_roots.h>
 #include <gsl/gsl_spline.h>
 #include <math.h>
 #include <stdbool.h>
@@ -36,6 +35,7 @@
 #include "gas_temperature.h"
 #include "jeansgrow/constants.h"
 #include "recombination.h"
+#include "../base/alloc.h" /* last: test builds route allocations through it */
 
 struct jg_thermal {
   const jg_background *bg;
@@ -246,6 +246,8 @@ static const double HISTORY_FIRST_STEP = 1e-4;
  * thermal.rel_tol; at the default tolerances no step reaches it (measured:
  * about 950 steps, the same with the cap at 0.2 or 1). */
 static const double HISTORY_MAX_STEP = 0.05;
+/* The phase switches are located to this in ln a. */
+static const double CROSSING_TOL = 1e-12;
 
 /* One accepted step: both ends, for the interpolant. */
 typedef struct step_span {
@@ -279,24 +281,6 @@ static jg_status keep_span(history_run *r, const step_span *s, jg_error *err) {
   }
   r->spans[r->n_spans++] = *s;
   return JG_OK;
-}
-
-/* Where g changes sign in [lo, hi], to 1e-12 in ln a (Brent). */
-static int locate_crossing(gsl_function *g, double lo, double hi, double *root) {
-  gsl_root_fsolver *s = gsl_root_fsolver_alloc(gsl_root_fsolver_brent);
-  if (!s) return GSL_ENOMEM;
-  int status = gsl_root_fsolver_set(s, g, lo, hi);
-  for (int iter = 0; status == GSL_SUCCESS && iter < 100; iter++) {
-    status = gsl_root_fsolver_iterate(s);
-    if (status != GSL_SUCCESS) break;
-    status = gsl_root_test_interval(gsl_root_fsolver_x_lower(s), gsl_root_fsolver_x_upper(s),
-                                    1e-12, 0.0);
-    if (status != GSL_CONTINUE) break;
-    status = GSL_SUCCESS;
-  }
-  *root = gsl_root_fsolver_root(s);
-  gsl_root_fsolver_free(s);
-  return status;
 }
 
 /* ---- phase 1: Saha equilibrium, evaluated directly ---- */
@@ -333,8 +317,8 @@ static jg_status locate_handover(history_run *r, double x_start, jg_error *err) 
   if (at_start <= 0.0 || today > 0.0) {
     r->x_handover = at_start <= 0.0 ? x_start : 0.0;
   } else {
-    gsl_function g = {saha_excess, r};
-    if (locate_crossing(&g, x_start, 0.0, &r->x_handover) != GSL_SUCCESS)
+    if (jg__bracketed_root(saha_excess, r, x_start, 0.0, CROSSING_TOL, &r->x_handover) !=
+        GSL_SUCCESS)
       return JG_FAIL(err, JG_ENUMERIC,
                      "thermal history (Saha equilibrium): cannot locate x_p = %g below z = %.3f",
                      r->settings->saha_limit, z_of_ln_a(x_start));
@@ -399,8 +383,8 @@ static jg_status run_phase(history_run *r, gsl_odeiv2_driver *d, const char *sta
     if (ks != JG_OK) return ks;
     if (dim == 1 && weak_coupling_excess(r, s.x1, s.y1[0]) >= 0.0) {
       coupling_crossing c = {r, &s};
-      gsl_function g = {weak_coupling_in_step, &c};
-      if (locate_crossing(&g, s.x0, s.x1, &r->x_weak) != GSL_SUCCESS)
+      if (jg__bracketed_root(weak_coupling_in_step, &c, s.x0, s.x1, CROSSING_TOL, &r->x_weak) !=
+          GSL_SUCCESS)
         return JG_FAIL(err, JG_ENUMERIC,
                        "thermal history (%s): cannot locate H/Gamma_C = %g between z = %.3f and "
                        "z = %.3f",
@@ -443,8 +427,8 @@ static jg_status integrate_history(history_run *r, double x_start, jg_error *err
       st = run_phase(r, drv_ht, "hydrogen and gas temperature", &x, y, err);
     }
   }
-  gsl_odeiv2_driver_free(drv_h);
-  gsl_odeiv2_driver_free(drv_ht);
+  if (drv_h) gsl_odeiv2_driver_free(drv_h); /* GSL's free does not take NULL */
+  if (drv_ht) gsl_odeiv2_driver_free(drv_ht);
   return st;
 }
 
