@@ -31,7 +31,7 @@ static void make_temp_dir(void) {
 
 static void remove_temp_dir(void) {
   char path[128];
-  const char *files[] = {"minimal.cfg", "bom.cfg", NULL};
+  const char *files[] = {"minimal.cfg", "bom.cfg", "comments.cfg", "unclosed.cfg", NULL};
   for (int i = 0; files[i]; i++) {
     snprintf(path, sizeof path, "%s/%s", temp_dir, files[i]);
     unlink(path);
@@ -174,6 +174,45 @@ Test(params, byte_order_mark_at_the_start_is_ignored) {
   strcat(text, minimal_text);
   load_ok(temp_file("bom.cfg", text), NULL, 0, &loaded);
   cr_expect_eq(loaded.cosmology.hubble_h, 0.6736);
+}
+
+/* libconfig 1.5 ends a block comment that is never closed at the end of the
+ * file without a word, so the settings after it silently took their
+ * defaults. Closed comments, and comment marks inside strings and line
+ * comments, must still read as before. */
+Test(params, block_comments_read_and_an_unclosed_one_names_its_line) {
+  static const char closed[] =
+      "/* first line\n   second line, with a stray /* inside */\n"
+      "cosmology: { hubble_h = 0.7; # not a comment start: /*\n"
+      "  baryon_density_h2 = 0.02237; // nor this: /*\n"
+      "  cdm_density_h2 = 0.1200; };\n"
+      "perturbations: { initial_table = \"/*.txt\"; };\n";
+  load_ok(temp_file("comments.cfg", closed), NULL, 0, &loaded);
+  cr_expect_eq(loaded.cosmology.hubble_h, 0.7);
+  cr_expect_str_eq(loaded.perturbations.initial_table, "/*.txt");
+
+  static const char unclosed[] =
+      "cosmology: { hubble_h = 0.7; baryon_density_h2 = 0.02237; cdm_density_h2 = 0.12; };\n"
+      "# a line\n"
+      "/* closed */ /* the note that never ends\n"
+      "thermal: { start_redshift = 9000.0; };\n";
+  const char *path = temp_file("unclosed.cfg", unclosed);
+  jg_error err;
+  jg_error_clear(&err);
+  cr_assert_eq(jg_params_load(path, NULL, 0, &loaded, &err), JG_ECONFIG, "accepted: %s",
+               err.message);
+  char expected_message[256];
+  snprintf(expected_message, sizeof expected_message,
+           "%s:3: comment '/*' opened here is never closed by '*/' (everything after it would "
+           "be ignored)",
+           path);
+  cr_expect_str_eq(err.message, expected_message);
+
+  const char *set[] = {"cosmology.hubble_h=0.7 /* was 0.6736"};
+  jg_error_clear(&err);
+  cr_expect_eq(jg_params_load(REFERENCE, set, 1, &loaded, &err), JG_ECONFIG);
+  cr_expect_str_eq(err.message, "--set cosmology.hubble_h=0.7 /* was 0.6736: comment '/*' is "
+                                "never closed by '*/' (everything after it would be ignored)");
 }
 
 /* ---- the failure contract ------------------------------------------------ */

@@ -104,6 +104,10 @@ typedef struct jg__literal_origin {
 jg_status jg__check_literals(const char *text, const jg__literal_origin *origin,
                              const char *outer_key, jg_error *err);
 
+/* A block comment opened and never closed, which libconfig 1.5 accepts,
+ * ignoring the rest of the text. */
+jg_status jg__check_comments(const char *text, const jg__literal_origin *origin, jg_error *err);
+
 /* Apply one --set "key=value" to the parsed file. */
 jg_status jg__apply_override(config_t *cfg, const char *text, jg_error *err);
 

@@ -87,6 +87,60 @@ static jg_status check_number(const char *tok, size_t n, const jg__literal_origi
   return JG_OK;
 }
 
+/* If `*c` starts a comment or a string, move past it (counting its lines
+ * in *line) and return 1, or -1 for a block comment that is never closed
+ * (it then ends at the end of the text); else 0. */
+static int skip_comment_or_string(const char **c, int *line) {
+  const char *s = *c;
+  if (*s == '#' || (s[0] == '/' && s[1] == '/')) {
+    while (*s && *s != '\n') s++;
+  } else if (s[0] == '/' && s[1] == '*') {
+    for (s += 2; *s && !(s[0] == '*' && s[1] == '/'); s++)
+      if (*s == '\n') (*line)++;
+    *c = *s ? s + 2 : s;
+    return *s ? 1 : -1;
+  } else if (*s == '"') {
+    for (s++; *s && *s != '"'; s++) {
+      if (*s == '\\' && s[1]) s++;
+      if (*s == '\n') (*line)++;
+    }
+    if (*s) s++;
+  } else {
+    return 0;
+  }
+  *c = s;
+  return 1;
+}
+
+/*
+ * libconfig 1.5's scanner ends a block comment at the end of the text when
+ * its closing mark is missing, and reports nothing: an opening mark without
+ * its close between two groups silently drops every setting after it, and the defaults run
+ * instead. Checked before libconfig parses the text, because where the
+ * comment sits inside a group libconfig reports only a syntax error on the
+ * last line, far from the cause.
+ */
+jg_status jg__check_comments(const char *text, const jg__literal_origin *origin, jg_error *err) {
+  int line = 1;
+  for (const char *c = text; *c;) {
+    int opened = line;
+    int skipped = skip_comment_or_string(&c, &line);
+    if (skipped < 0) {
+      if (origin->override)
+        return JG_FAIL(err, JG_ECONFIG,
+                       "--set %s: comment '/*' is never closed by '*/' (everything after it "
+                       "would be ignored)", origin->override);
+      return JG_FAIL(err, JG_ECONFIG,
+                     "%s:%d: comment '/*' opened here is never closed by '*/' (everything "
+                     "after it would be ignored)", origin->path, opened);
+    } else if (!skipped) {
+      if (*c == '\n') line++;
+      c++;
+    }
+  }
+  return JG_OK;
+}
+
 /* Scan libconfig text for misread number literals. `outer_key` is the key a
  * --set value is assigned to ("" for a whole file). */
 jg_status jg__check_literals(const char *text, const jg__literal_origin *origin,
@@ -100,18 +154,8 @@ jg_status jg__check_literals(const char *text, const jg__literal_origin *origin,
     unsigned char ch = (unsigned char)*c;
     if (ch == '\n') {
       line++, c++;
-    } else if (ch == '#' || (ch == '/' && c[1] == '/')) {
-      while (*c && *c != '\n') c++;
-    } else if (ch == '/' && c[1] == '*') {
-      for (c += 2; *c && !(c[0] == '*' && c[1] == '/'); c++)
-        if (*c == '\n') line++;
-      if (*c) c += 2;
-    } else if (ch == '"') {
-      for (c++; *c && *c != '"'; c++) {
-        if (*c == '\\' && c[1]) c++;
-        if (*c == '\n') line++;
-      }
-      if (*c) c++;
+    } else if (skip_comment_or_string(&c, &line) != 0) {
+      continue;
     } else if (is_name_start(ch)) {
       const char *start = c;
       while (is_name_char((unsigned char)*c)) c++;

@@ -214,12 +214,13 @@ jg_status jg__read_file(config_t *cfg, const char *path, jg_error *err) {
   /* Editors on some systems start UTF-8 files with a byte-order mark, which
    * libconfig 1.5 takes for a syntax error on line 1. */
   const char *body = strncmp(text, "\xEF\xBB\xBF", 3) == 0 ? text + 3 : text;
-  if (!config_read_string(cfg, body)) {
+  jg__literal_origin origin = {path, NULL};
+  st = jg__check_comments(body, &origin, err);
+  if (st == JG_OK && !config_read_string(cfg, body)) {
     const char *why = config_error_text(cfg);
     st = JG_FAIL(err, JG_ECONFIG, "%s:%d: %s%s", path, config_error_line(cfg),
                  why ? why : "syntax error", parse_error_hint(why));
-  } else {
-    jg__literal_origin origin = {path, NULL};
+  } else if (st == JG_OK) {
     st = jg__check_literals(body, &origin, "", err);
   }
   free(text);

@@ -122,6 +122,12 @@ jg_status jg__apply_override(config_t *cfg, const char *text, jg_error *err) {
   if (!doc) return JG_FAIL(err, JG_ENOMEM, "out of memory reading --set %s", text);
   /* No ';' of our own, so that a value written with one ("0.7;") reads too. */
   snprintf(doc, vlen + 16, "value = %s\n", eq + 1);
+  jg__literal_origin origin = {NULL, text};
+  jg_status cst = jg__check_comments(doc, &origin, err);
+  if (cst != JG_OK) {
+    free(doc);
+    return cst;
+  }
   config_t tmp;
   config_init(&tmp);
   int ok = config_read_string(&tmp, doc);
@@ -135,7 +141,6 @@ jg_status jg__apply_override(config_t *cfg, const char *text, jg_error *err) {
   }
   const config_setting_t *src = ok ? config_lookup(&tmp, "value") : NULL;
   if (ok) {
-    jg__literal_origin origin = {NULL, text};
     jg_status lst = jg__check_literals(eq + 1, &origin, key, err);
     if (lst != JG_OK) {
       config_destroy(&tmp);
