@@ -314,6 +314,46 @@ Test(params, documented_keys_are_unique_and_in_a_group) {
   cr_expect_null(jg_param_doc_at(-1));
 }
 
+/* Each combined rule that `jeansgrow keys` lists is enforced, by a message
+ * that names its keys, and names only documented keys; a rule added to the
+ * table without a case here fails the count at the end. The violations
+ * follow the table's order. */
+Test(params, every_listed_combined_rule_is_enforced_naming_its_keys) {
+  enum { N_RULES = 6 };
+  for (int i = 0; i < N_RULES; i++) {
+    const jg_param_rule *r = jg_param_rule_at(i);
+    cr_assert_not_null(r, "rule %d is missing", i);
+    jg_params_set_defaults(&loaded);
+    jg_perturb_settings *pt = &loaded.perturbations;
+    switch (i) {
+    case 0: loaded.output.redshifts[0] = loaded.thermal.start_redshift + 1.0; break;
+    case 1: loaded.cosmology.de_w0 = -0.2, loaded.cosmology.de_wa = 0.6; break;
+    case 2: pt->k_min = 10.0, pt->k_max = 5.0; break;
+    case 3: pt->k_count = 1, pt->k_min = 10.0, pt->k_max = 20.0; break;
+    case 4: loaded.output.redshifts[0] = pt->z_initial = 6000.0; break;
+    case 5: loaded.output.history_z_min = loaded.thermal.start_redshift; break;
+    }
+    jg_error err;
+    jg_error_clear(&err);
+    cr_expect_eq(jg_params_validate(&loaded, &err), JG_ECONFIG, "rule '%s' not enforced",
+                 r->rule);
+    char keys[256];
+    snprintf(keys, sizeof keys, "%s", r->keys);
+    char *save = NULL;
+    for (char *key = strtok_r(keys, ", ", &save); key; key = strtok_r(NULL, ", ", &save)) {
+      int documented = 0;
+      const jg_param_doc *d;
+      for (int j = 0; (d = jg_param_doc_at(j)) != NULL; j++) documented |= !strcmp(d->key, key);
+      cr_expect(documented, "rule '%s' names %s, which is not a key", r->rule, key);
+      const char *last = strrchr(key, '.') + 1;
+      cr_expect_not_null(strstr(err.message, last), "rule '%s': message '%s' does not name %s",
+                         r->rule, err.message, last);
+    }
+  }
+  cr_expect_null(jg_param_rule_at(N_RULES), "a rule without a case in this test");
+  cr_expect_null(jg_param_rule_at(-1));
+}
+
 /* Every key, set through an override to the text its documentation gives as
  * the default, must load, and must give exactly the default parameter set:
  * so the docs name real keys, in syntax the loader reads, with the values

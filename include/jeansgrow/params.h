@@ -155,6 +155,17 @@ typedef struct jg_param_doc {
 /* The i-th documented key, or NULL past the end. */
 const jg_param_doc *jg_param_doc_at(int i);
 
+/* A rule that ties several keys together (beyond each key's own range). */
+typedef struct jg_param_rule {
+  const char *keys;   /* the keys involved, comma-separated */
+  const char *rule;   /* e.g. "de_w0 + de_wa < 1/3" */
+  const char *reason; /* why the rule holds */
+} jg_param_rule;
+
+/* The i-th combined rule, or NULL past the end. jg_params_validate checks
+ * every one of them. */
+const jg_param_rule *jg_param_rule_at(int i);
+
 #ifdef __cplusplus
 }
 #endif

@@ -39,61 +39,88 @@ static jg_status check_range(const jg__locator *loc, const jg__param_spec *s, co
   return JG_OK;
 }
 
-static jg_status check_cross(const jg__locator *loc, const jg_params *p, jg_error *err) {
-  char where[512];
-  const double z_start = p->thermal.start_redshift;
+/* ---- combined rules (listed in jg__param_rules) ---- */
+
+/* The first output redshift at or above `limit` (above only when
+ * `equal_allowed`), or -1. */
+static int first_redshift_not_below(const jg_params *p, double limit, int equal_allowed) {
   for (int i = 0; i < p->output.n_redshifts; i++) {
-    if (p->output.redshifts[i] > z_start) {
-      char name[64];
-      snprintf(name, sizeof name, "output.redshifts[%d]", i);
-      jg__locate(loc, name, where, sizeof where);
-      return JG_FAIL(err, JG_ECONFIG,
-                     "%s%s = %g lies above thermal.start_redshift = %g; raise "
-                     "thermal.start_redshift or drop that redshift",
-                     where, name, p->output.redshifts[i], z_start);
-    }
+    double z = p->output.redshifts[i];
+    if (equal_allowed ? z > limit : z >= limit) return i;
   }
+  return -1;
+}
+
+jg_status jg__rule_redshifts_in_history(const jg__locator *loc, const jg_params *p,
+                                        jg_error *err) {
+  int i = first_redshift_not_below(p, p->thermal.start_redshift, 1);
+  if (i < 0) return JG_OK;
+  char where[512], name[64];
+  snprintf(name, sizeof name, "output.redshifts[%d]", i);
+  jg__locate(loc, name, where, sizeof where);
+  return JG_FAIL(err, JG_ECONFIG,
+                 "%s%s = %g lies above thermal.start_redshift = %g; raise "
+                 "thermal.start_redshift or drop that redshift",
+                 where, name, p->output.redshifts[i], p->thermal.start_redshift);
+}
+
+jg_status jg__rule_dark_energy_fades(const jg__locator *loc, const jg_params *p,
+                                     jg_error *err) {
   const jg_cosmology *c = &p->cosmology;
-  if (c->de_w0 + c->de_wa >= 1.0 / 3.0) {
-    jg__locate(loc, "cosmology.de_wa", where, sizeof where);
-    return JG_FAIL(err, JG_ECONFIG,
-                   "%scosmology.de_w0 + cosmology.de_wa must be below 1/3 (got %g): such dark "
-                   "energy would not fade before radiation at early times",
-                   where, c->de_w0 + c->de_wa);
-  }
+  if (c->de_w0 + c->de_wa < 1.0 / 3.0) return JG_OK;
+  char where[512];
+  jg__locate(loc, "cosmology.de_wa", where, sizeof where);
+  return JG_FAIL(err, JG_ECONFIG,
+                 "%scosmology.de_w0 + cosmology.de_wa must be below 1/3 (got %g): such dark "
+                 "energy would not fade before radiation at early times",
+                 where, c->de_w0 + c->de_wa);
+}
+
+jg_status jg__rule_wavenumbers_ordered(const jg__locator *loc, const jg_params *p,
+                                       jg_error *err) {
   const jg_perturb_settings *pt = &p->perturbations;
-  if (pt->n_k_values == 0 && pt->k_max < pt->k_min) {
-    jg__locate(loc, "perturbations.k_max", where, sizeof where);
-    return JG_FAIL(err, JG_ECONFIG,
-                   "%sperturbations.k_max = %g is below perturbations.k_min = %g (reversed "
-                   "wavenumber range)",
-                   where, pt->k_max, pt->k_min);
-  }
-  if (pt->n_k_values == 0 && pt->k_count == 1 && pt->k_max != pt->k_min) {
-    jg__locate(loc, "perturbations.k_count", where, sizeof where);
-    return JG_FAIL(err, JG_ECONFIG,
-                   "%sperturbations.k_count = 1 needs k_min = k_max (got %g and %g)", where,
-                   pt->k_min, pt->k_max);
-  }
-  for (int i = 0; i < p->output.n_redshifts; i++) {
-    if (p->output.redshifts[i] >= pt->z_initial) {
-      char name[64];
-      snprintf(name, sizeof name, "output.redshifts[%d]", i);
-      jg__locate(loc, name, where, sizeof where);
-      return JG_FAIL(err, JG_ECONFIG,
-                     "%s%s = %g is not below perturbations.z_initial = %g (reversed redshift "
-                     "range)",
-                     where, name, p->output.redshifts[i], pt->z_initial);
-    }
-  }
-  if (p->output.history_z_min >= z_start) {
-    jg__locate(loc, "output.history_z_min", where, sizeof where);
-    return JG_FAIL(err, JG_ECONFIG,
-                   "%soutput.history_z_min = %g must lie below thermal.start_redshift = %g "
-                   "(reversed redshift range)",
-                   where, p->output.history_z_min, z_start);
-  }
-  return JG_OK;
+  if (pt->n_k_values > 0 || !(pt->k_max < pt->k_min)) return JG_OK;
+  char where[512];
+  jg__locate(loc, "perturbations.k_max", where, sizeof where);
+  return JG_FAIL(err, JG_ECONFIG,
+                 "%sperturbations.k_max = %g is below perturbations.k_min = %g (reversed "
+                 "wavenumber range)",
+                 where, pt->k_max, pt->k_min);
+}
+
+jg_status jg__rule_single_wavenumber(const jg__locator *loc, const jg_params *p,
+                                     jg_error *err) {
+  const jg_perturb_settings *pt = &p->perturbations;
+  if (pt->n_k_values > 0 || pt->k_count != 1 || pt->k_max == pt->k_min) return JG_OK;
+  char where[512];
+  jg__locate(loc, "perturbations.k_count", where, sizeof where);
+  return JG_FAIL(err, JG_ECONFIG,
+                 "%sperturbations.k_count = 1 needs k_min = k_max (got %g and %g)", where,
+                 pt->k_min, pt->k_max);
+}
+
+jg_status jg__rule_redshifts_after_start(const jg__locator *loc, const jg_params *p,
+                                         jg_error *err) {
+  int i = first_redshift_not_below(p, p->perturbations.z_initial, 0);
+  if (i < 0) return JG_OK;
+  char where[512], name[64];
+  snprintf(name, sizeof name, "output.redshifts[%d]", i);
+  jg__locate(loc, name, where, sizeof where);
+  return JG_FAIL(err, JG_ECONFIG,
+                 "%s%s = %g is not below perturbations.z_initial = %g (reversed redshift "
+                 "range)",
+                 where, name, p->output.redshifts[i], p->perturbations.z_initial);
+}
+
+jg_status jg__rule_history_range_ordered(const jg__locator *loc, const jg_params *p,
+                                         jg_error *err) {
+  if (p->output.history_z_min < p->thermal.start_redshift) return JG_OK;
+  char where[512];
+  jg__locate(loc, "output.history_z_min", where, sizeof where);
+  return JG_FAIL(err, JG_ECONFIG,
+                 "%soutput.history_z_min = %g must lie below thermal.start_redshift = %g "
+                 "(reversed redshift range)",
+                 where, p->output.history_z_min, p->thermal.start_redshift);
 }
 
 jg_status jg__validate(const jg__locator *loc, const jg_params *p, jg_error *err) {
@@ -151,7 +178,11 @@ jg_status jg__validate(const jg__locator *loc, const jg_params *p, jg_error *err
     }
     if (st != JG_OK) return st;
   }
-  return check_cross(loc, p, err);
+  for (int i = 0; i < jg__n_param_rules; i++) {
+    jg_status st = jg__param_rules[i].check(loc, p, err);
+    if (st != JG_OK) return st;
+  }
+  return JG_OK;
 }
 
 jg_status jg_params_validate(const jg_params *p, jg_error *err) {

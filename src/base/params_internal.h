@@ -66,6 +66,27 @@ typedef struct jg__locator {
  * empty text when `loc` is NULL (a struct filled by hand). */
 void jg__locate(const jg__locator *loc, const char *key, char *buf, size_t size);
 
+/* A rule on several keys at once: listed by `jeansgrow keys`, checked by
+ * jg__validate (and, when all its keys lie in one group, by that group's
+ * public check, which the stages call). */
+typedef jg_status (*jg__rule_check)(const jg__locator *loc, const jg_params *p,
+                                    jg_error *err);
+typedef struct jg__param_rule {
+  jg_param_rule doc;
+  const char *group; /* the one group all its keys lie in, or NULL */
+  jg__rule_check check;
+} jg__param_rule;
+
+extern const jg__param_rule jg__param_rules[];
+extern const int jg__n_param_rules;
+
+jg_status jg__rule_redshifts_in_history(const jg__locator *loc, const jg_params *p, jg_error *err);
+jg_status jg__rule_dark_energy_fades(const jg__locator *loc, const jg_params *p, jg_error *err);
+jg_status jg__rule_wavenumbers_ordered(const jg__locator *loc, const jg_params *p, jg_error *err);
+jg_status jg__rule_single_wavenumber(const jg__locator *loc, const jg_params *p, jg_error *err);
+jg_status jg__rule_redshifts_after_start(const jg__locator *loc, const jg_params *p, jg_error *err);
+jg_status jg__rule_history_range_ordered(const jg__locator *loc, const jg_params *p, jg_error *err);
+
 static inline double *jg__number_at(jg_params *p, const jg__param_spec *s) {
   return (double *)((char *)p + s->offset);
 }

@@ -124,6 +124,35 @@ const jg__param_spec jg__param_specs[] = {
 
 const int jg__n_param_specs = (int)(sizeof jg__param_specs / sizeof jg__param_specs[0]);
 
+/* In the order the loader checks them. */
+const jg__param_rule jg__param_rules[] = {
+    {{"output.redshifts, thermal.start_redshift", "every output redshift <= thermal.start_redshift",
+      "the thermal history starts there"},
+     NULL, jg__rule_redshifts_in_history},
+    {{"cosmology.de_w0, cosmology.de_wa", "de_w0 + de_wa < 1/3",
+      "dark energy must fade before radiation at early times (w -> w0 + wa as a -> 0)"},
+     "cosmology", jg__rule_dark_energy_fades},
+    {{"perturbations.k_min, perturbations.k_max", "k_min <= k_max, unless k_values is given",
+      "the grid runs from k_min up to k_max"},
+     "perturbations", jg__rule_wavenumbers_ordered},
+    {{"perturbations.k_count, perturbations.k_min, perturbations.k_max",
+      "k_count = 1 needs k_min = k_max, unless k_values is given",
+      "a grid of one point has no spacing to place k_max"},
+     "perturbations", jg__rule_single_wavenumber},
+    {{"output.redshifts, perturbations.z_initial", "every output redshift < perturbations.z_initial",
+      "the perturbations start there"},
+     NULL, jg__rule_redshifts_after_start},
+    {{"output.history_z_min, thermal.start_redshift", "history_z_min < thermal.start_redshift",
+      "the history table runs down from the start of the thermal history"},
+     NULL, jg__rule_history_range_ordered},
+};
+const int jg__n_param_rules = (int)(sizeof jg__param_rules / sizeof jg__param_rules[0]);
+
+const jg_param_rule *jg_param_rule_at(int i) {
+  if (i < 0 || i >= jg__n_param_rules) return NULL;
+  return &jg__param_rules[i].doc;
+}
+
 const char *const jg__param_groups[] = {"cosmology", "thermal", "perturbations", "output"};
 const int jg__n_param_groups = (int)(sizeof jg__param_groups / sizeof jg__param_groups[0]);
 

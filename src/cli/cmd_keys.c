@@ -1,4 +1,5 @@
-/* `jeansgrow keys`: every parameter key with its type, unit, default, range and meaning. */
+/* `jeansgrow keys`: every parameter key with its type, unit, default, range and meaning,
+ * then the rules that tie several keys together. */
 #include <getopt.h>
 #include <stdio.h>
 #include <string.h>
@@ -32,6 +33,13 @@ int cmd_keys(const cli_command *cmd, int argc, char **argv) {
     else
       printf("%s\t%s\t%s\t%s\t%s\t%s\n", d->key, d->type, d->unit[0] ? d->unit : "-",
              d->default_text, d->allowed, d->meaning);
+  }
+  if (markdown) printf("\n| combined rule | keys | why |\n|---|---|---|\n");
+  else printf("\n# combined rule\tkeys\twhy\n");
+  const jg_param_rule *r;
+  for (int i = 0; (r = jg_param_rule_at(i)) != NULL; i++) {
+    if (markdown) printf("| %s | `%s` | %s |\n", r->rule, r->keys, r->reason);
+    else printf("%s\t%s\t%s\n", r->rule, r->keys, r->reason);
   }
   return EXIT_OK;
 }
