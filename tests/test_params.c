@@ -31,7 +31,7 @@ static void make_temp_dir(void) {
 
 static void remove_temp_dir(void) {
   char path[128];
-  const char *files[] = {"minimal.cfg", "bom.cfg", "comments.cfg", "unclosed.cfg", NULL};
+  const char *files[] = {"minimal.cfg", "bom.cfg", "comments.cfg", "unclosed.cfg", "scan.cfg", NULL};
   for (int i = 0; files[i]; i++) {
     snprintf(path, sizeof path, "%s/%s", temp_dir, files[i]);
     unlink(path);
@@ -213,6 +213,115 @@ Test(params, block_comments_read_and_an_unclosed_one_names_its_line) {
   cr_expect_eq(jg_params_load(REFERENCE, set, 1, &loaded, &err), JG_ECONFIG);
   cr_expect_str_eq(err.message, "--set cosmology.hubble_h=0.7 /* was 0.6736: comment '/*' is "
                                 "never closed by '*/' (everything after it would be ignored)");
+}
+
+/* ---- the scan group ------------------------------------------------------- */
+
+typedef struct seen_axes {
+  int n;
+  char text[4][64], key[4][64];
+  double from[4], to[4], values[4][4];
+  long count[4];
+  int log_spacing[4], n_values[4];
+  char where[4][256];
+} seen_axes;
+
+static jg_status record_axis(void *user, const jg_param_axis *a, jg_error *err) {
+  (void)err;
+  seen_axes *s = user;
+  cr_assert_lt(s->n, 4);
+  int i = s->n++;
+  snprintf(s->text[i], sizeof s->text[i], "%s", a->text ? a->text : "");
+  snprintf(s->key[i], sizeof s->key[i], "%s", a->key ? a->key : "");
+  snprintf(s->where[i], sizeof s->where[i], "%s", a->where);
+  s->from[i] = a->from, s->to[i] = a->to, s->count[i] = a->count;
+  s->log_spacing[i] = a->log_spacing;
+  s->n_values[i] = a->values ? a->n_values : -1;
+  for (int j = 0; j < a->n_values && j < 4; j++) s->values[i][j] = a->values[j];
+  return JG_OK;
+}
+
+/* The scan group is read against its own key table: each element form
+ * arrives as written, and a misspelt key anywhere in it is refused by
+ * jg_params_load (every command) with the message the scan reader gives. */
+Test(params, scan_group_is_read_against_its_key_table) {
+  char text[1024];
+  snprintf(text, sizeof text,
+           "%sscan:\n{\n  vary = (\n"
+           "    { key = \"cosmology.hubble_h\"; from = 0.6; to = 0.8; count = 3; spacing = \"log\"; },\n"
+           "    { key = \"thermal.grid_points\"; values = [1000, 2000]; },\n"
+           "    \"cosmology.cdm_density_h2=0.10:0.14:3\"\n  );\n};\n",
+           minimal_text);
+  const char *path = temp_file("scan.cfg", text);
+  static seen_axes seen;
+  memset(&seen, 0, sizeof seen);
+  jg_error err;
+  jg_error_clear(&err);
+  cr_assert_eq(jg_params_read_scan(path, record_axis, &seen, &err), JG_OK, "%s", err.message);
+  cr_assert_eq(seen.n, 3);
+  cr_expect_str_eq(seen.key[0], "cosmology.hubble_h");
+  cr_expect(seen.from[0] == 0.6 && seen.to[0] == 0.8 && seen.count[0] == 3 && seen.log_spacing[0]);
+  cr_expect_eq(seen.n_values[0], -1, "a range has no values list");
+  cr_expect_str_eq(seen.key[1], "thermal.grid_points");
+  cr_expect(seen.n_values[1] == 2 && seen.values[1][0] == 1000.0 && seen.values[1][1] == 2000.0);
+  cr_expect_str_eq(seen.text[2], "cosmology.cdm_density_h2=0.10:0.14:3");
+  char where[256];
+  snprintf(where, sizeof where, "%s:6: scan.vary[1]", path);
+  cr_expect_str_eq(seen.where[1], where);
+  load_ok(path, NULL, 0, &loaded);
+
+  const struct {
+    const char *group, *message;
+  } bad[] = {
+      {"vary = ( { key = \"cosmology.hubble_h\"; form = 0.6; to = 0.8; count = 3; } );",
+       "unknown key 'scan.vary[0].form' (did you mean 'scan.vary[0].from'?)"},
+      {"vray = ( \"cosmology.hubble_h=0.6:0.8:3\" );",
+       "unknown key 'scan.vray' (did you mean 'scan.vary'?)"},
+      {"vary = ( { key = \"cosmology.hubble_h\"; from = 0.6; to = 0.8; count = 3.0; } );",
+       "scan.vary[0].count must be an integer (got the number 3.0)"},
+      {"vary = ( { key = \"cosmology.hubble_h\"; values = [0.6]; spacing = \"lin\"; } );",
+       "scan.vary[0].spacing must be one of linear or log (got \"lin\")"},
+      {"vary = ( { from = 0.6; to = 0.8; count = 3; } );",
+       "scan.vary[0]: needs key = \"group.name\"; (a quoted parameter key)"},
+      {"vary = ( { key = \"cosmology.hubble_h\"; values = [0.6]; count = 3; } );",
+       "scan.vary[0]: give either values or from, to, count (and spacing), not both"},
+      {"vary = ();", "scan.vary is empty (nothing to vary)"},
+  };
+  for (size_t i = 0; i < sizeof bad / sizeof bad[0]; i++) {
+    snprintf(text, sizeof text, "%sscan: {\n  %s\n};\n", minimal_text, bad[i].group);
+    path = temp_file("scan.cfg", text);
+    char expected_message[512];
+    snprintf(expected_message, sizeof expected_message, "%s:3: %s", path, bad[i].message);
+    jg_error_clear(&err);
+    cr_expect_eq(jg_params_load(path, NULL, 0, &loaded, &err), JG_ECONFIG, "%s accepted",
+                 bad[i].group);
+    cr_expect_str_eq(err.message, expected_message);
+    jg_error_clear(&err);
+    memset(&seen, 0, sizeof seen);
+    cr_expect_eq(jg_params_read_scan(path, record_axis, &seen, &err), JG_ECONFIG);
+    cr_expect_str_eq(err.message, expected_message);
+  }
+
+  /* --set cannot reach the group: a known key is refused, an unknown one
+   * is an unknown key like any other. */
+  const char *set_vary[] = {"scan.vary=[\"cosmology.hubble_h=0.6:0.8:3\"]"};
+  jg_error_clear(&err);
+  cr_expect_eq(jg_params_load(REFERENCE, set_vary, 1, &loaded, &err), JG_ECONFIG);
+  cr_expect(strstr(err.message, "the scan group is read from the parameter file only"), "%s",
+            err.message);
+  const char *set_other[] = {"scan.anything=1"};
+  jg_error_clear(&err);
+  cr_expect_eq(jg_params_load(REFERENCE, set_other, 1, &loaded, &err), JG_ECONFIG);
+  cr_expect_str_eq(err.message, "--set scan.anything=1: unknown key 'scan.anything' (no known key "
+                                "is similar; jeansgrow keys lists them all)");
+
+  /* The documented scan keys are the ones the reader knows. */
+  cr_expect_str_eq(jg_param_scan_doc_at(0)->key, "scan.vary");
+  const jg_param_doc *d;
+  int n = 0;
+  for (int i = 1; (d = jg_param_scan_doc_at(i)) != NULL; i++, n++)
+    cr_expect(strncmp(d->key, "scan.vary[].", 12) == 0, "%s", d->key);
+  cr_expect_eq(n, 6, "key, from, to, count, spacing, values");
 }
 
 /* ---- the failure contract ------------------------------------------------ */

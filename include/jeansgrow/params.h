@@ -155,6 +155,43 @@ typedef struct jg_param_doc {
 /* The i-th documented key, or NULL past the end. */
 const jg_param_doc *jg_param_doc_at(int i);
 
+/*
+ * The grid of `jeansgrow scan` in a parameter file, read against its own key
+ * table (jg_param_scan_doc_at) with the same type checks and messages as
+ * the other keys:
+ *
+ *   scan: { vary = ( { key = "cosmology.hubble_h"; from = 0.6; to = 0.8; count = 3; },
+ *                    { key = "thermal.recombination_fudge"; values = [1.0, 1.14]; },
+ *                    "cosmology.cdm_density_h2=0.10:0.14:3" ); };
+ *
+ * One axis as written; the scan module turns it into a grid axis and checks
+ * it as a grid (see scan.h).
+ */
+typedef struct jg_param_axis {
+  const char *where;    /* "FILE:LINE: scan.vary[I]", to start messages */
+  const char *text;     /* an element written as text "KEY=FROM:TO:N[:log]", else NULL */
+  const char *key;      /* a group element: the varied key */
+  const double *values; /* its `values` list (n_values long), or NULL for a range */
+  int n_values;
+  double from, to;      /* a range: from, to, count values, log spacing or not */
+  long count;
+  int log_spacing;
+} jg_param_axis;
+
+/* Called once per element of scan.vary, in file order; the pointers in
+ * `axis` live until it returns. A non-OK status stops the reading. */
+typedef jg_status (*jg_param_axis_fn)(void *user, const jg_param_axis *axis, jg_error *err);
+
+/* Read the `scan` group of parameter file `path` and hand each axis to
+ * `add`. A file without a scan group calls nothing and succeeds. Errors name
+ * the file, the line and the key (JG_ECONFIG; JG_EIO when the file cannot be
+ * read); jg_params_load makes the same checks, so a typo in the group is
+ * caught by every command. */
+jg_status jg_params_read_scan(const char *path, jg_param_axis_fn add, void *user, jg_error *err);
+
+/* The i-th documented key of the scan group, or NULL past the end. */
+const jg_param_doc *jg_param_scan_doc_at(int i);
+
 /* A rule that ties several keys together (beyond each key's own range). */
 typedef struct jg_param_rule {
   const char *keys;   /* the keys involved, comma-separated */

@@ -50,6 +50,24 @@ extern const int jg__n_param_specs;
 extern const char *const jg__param_groups[]; /* the groups of jg_params, in table order */
 extern const int jg__n_param_groups;
 
+/* One element of scan.vary, as the scan key table reads it. */
+#define JG__VARY_KEY_SIZE 64
+#define JG__VARY_MAX_VALUES 100000
+typedef struct jg__vary_fields {
+  char key[JG__VARY_KEY_SIZE];
+  double from, to;
+  int count;
+  int spacing; /* index into the words of scan.vary[].spacing */
+  int n_values;
+  double values[JG__VARY_MAX_VALUES];
+} jg__vary_fields;
+
+/* The scan group's keys: scan.vary itself (documented only: its elements
+ * are read one by one), then the members of an element. */
+extern const jg_param_doc jg__scan_vary_doc;
+extern const jg__param_spec jg__vary_specs[];
+extern const int jg__n_vary_specs;
+
 /* The spec of `key`, or NULL. */
 const jg__param_spec *jg__find_spec(const char *key);
 
@@ -106,8 +124,18 @@ jg_status jg__validate(const jg__locator *loc, const jg_params *p, jg_error *err
 /* What a setting holds, with its value, for "(got ...)". */
 const char *jg__describe_value(const config_setting_t *s, char *buf, size_t size);
 
-/* The known key nearest to `key`, or NULL if none is close. */
+/* The key of `table` (n entries) nearest to `key`, or NULL if none is
+ * close; jg__nearest_key searches the key table. */
+const char *jg__nearest_in(const char *key, const jg__param_spec *table, int n);
 const char *jg__nearest_key(const char *key);
+/* "WHEREunknown key 'KEY' (did you mean 'NEAR'?)", or without a NEAR. */
+jg_status jg__unknown_key(const char *where, const char *key, const char *near, jg_error *err);
+
+/* Read one setting as spec `s` says into `base` + s->offset (`base` is a
+ * jg_params, or the struct a smaller table describes). `where` starts the
+ * message, `name` is the key as the user wrote it. */
+jg_status jg__read_setting(const char *where, const char *name, const jg__param_spec *s,
+                           const config_setting_t *set, void *base, jg_error *err);
 
 /* Every setting under `group` is a known key or group; `prefix` is the
  * group's dotted name ("" for the root). */
@@ -134,5 +162,13 @@ jg_status jg__apply_override(config_t *cfg, const char *text, jg_error *err);
 
 /* Read a parameter file's text into `cfg`, with every check of the text. */
 jg_status jg__read_file(config_t *cfg, const char *path, jg_error *err);
+
+/* Read the `scan` setting of file `path` against the scan key table and
+ * hand each axis of scan.vary to `add` (NULL: only check). */
+jg_status jg__read_scan_group(const char *path, const config_setting_t *scan,
+                              jg_param_axis_fn add, void *user, jg_error *err);
+/* The answer to --set of a key in the scan group (`text` the whole
+ * override, `key` its key): always an error. */
+jg_status jg__scan_override_refused(const char *text, const char *key, jg_error *err);
 
 #endif

@@ -10,6 +10,8 @@
  */
 #include "jeansgrow/params.h"
 
+#include <limits.h>
+#include <math.h>
 #include <stddef.h>
 #include <string.h>
 
@@ -123,6 +125,47 @@ const jg__param_spec jg__param_specs[] = {
 };
 
 const int jg__n_param_specs = (int)(sizeof jg__param_specs / sizeof jg__param_specs[0]);
+
+/* The scan group (read by params_scan.c). Values and counts are checked as a
+ * grid by the scan module (scan.h), which knows the varied key's range. */
+const jg_param_doc jg__scan_vary_doc = {
+    "scan.vary", "list of axes", "", "none",
+    "groups { key; from; to; count; spacing } or { key; values }, or texts "
+    "\"KEY=FROM:TO:N[:log]\" or \"KEY=[V1, V2]\"",
+    "the grid of jeansgrow scan, one axis per varied key, the first varying slowest "
+    "(--vary on the command line replaces it)"};
+
+#define V_OFF(field) offsetof(jg__vary_fields, field)
+static const char *const spacing_words[] = {"linear", "log", NULL};
+
+const jg__param_spec jg__vary_specs[] = {
+    {{"scan.vary[].key", "quoted key", "", "required", "a number or integer key",
+      "the key this axis varies"},
+     JG__KIND_TEXT, V_OFF(key), 0, 0, 0, 1, 0, 0, 0, 0, NULL, JG__VARY_KEY_SIZE},
+    {{"scan.vary[].from", "number", "of the key", "-", "a value the key takes",
+      "first value of a range (with to and count)"},
+     JG__KIND_NUMBER, V_OFF(from), 0, 0, 0, 0, -HUGE_VAL, HUGE_VAL, 0, 0, NULL, 0},
+    {{"scan.vary[].to", "number", "of the key", "-", "a value the key takes, >= from",
+      "last value of a range"},
+     JG__KIND_NUMBER, V_OFF(to), 0, 0, 0, 0, -HUGE_VAL, HUGE_VAL, 0, 0, NULL, 0},
+    {{"scan.vary[].count", "integer", "", "-",
+      "1 <= value (the whole grid at most 100000000 points)", "number of values of a range"},
+     JG__KIND_INTEGER, V_OFF(count), 0, 0, 0, 0, INT_MIN, INT_MAX, 0, 0, NULL, 0},
+    {{"scan.vary[].spacing", "one of \"linear\", \"log\"", "", "\"linear\"", "linear or log",
+      "values of a range uniform in the value, or in its logarithm (0 < from)"},
+     JG__KIND_CHOICE, V_OFF(spacing), 0, 0, 0, 0, 0, 1, 0, 0, spacing_words, 0},
+    {{"scan.vary[].values", "list of numbers", "of the key", "-",
+      "1 to 100000 values the key takes", "explicit values, in order, instead of a range"},
+     JG__KIND_NUMBER_LIST, V_OFF(values), V_OFF(n_values), 1, JG__VARY_MAX_VALUES, 0, -HUGE_VAL,
+     HUGE_VAL, 0, 0, NULL, 0},
+};
+const int jg__n_vary_specs = (int)(sizeof jg__vary_specs / sizeof jg__vary_specs[0]);
+
+const jg_param_doc *jg_param_scan_doc_at(int i) {
+  if (i == 0) return &jg__scan_vary_doc;
+  if (i < 1 || i > jg__n_vary_specs) return NULL;
+  return &jg__vary_specs[i - 1].doc;
+}
 
 /* In the order the loader checks them. */
 const jg__param_rule jg__param_rules[] = {

@@ -75,81 +75,81 @@ static double numeric_value(const config_setting_t *s) {
   }
 }
 
-static jg_status read_spec(const jg__locator *loc, const jg__param_spec *s, const config_setting_t *set,
-                           jg_params *p, jg_error *err) {
-  char where[512], got[128];
-  jg__locate(loc, s->doc.key, where, sizeof where);
+jg_status jg__read_setting(const char *where, const char *name, const jg__param_spec *s,
+                           const config_setting_t *set, void *base, jg_error *err) {
+  char got[128];
+  char *at = (char *)base + s->offset;
   int type = config_setting_type(set);
   switch (s->kind) {
   case JG__KIND_NUMBER:
     if (!is_numeric(set))
-      return JG_FAIL(err, JG_ECONFIG, "%s%s must be a number (got %s)", where, s->doc.key,
+      return JG_FAIL(err, JG_ECONFIG, "%s%s must be a number (got %s)", where, name,
                      jg__describe_value(set, got, sizeof got));
-    *jg__number_at(p, s) = numeric_value(set);
+    *(double *)at = numeric_value(set);
     return JG_OK;
   case JG__KIND_INTEGER: {
     if (type != CONFIG_TYPE_INT && type != CONFIG_TYPE_INT64)
-      return JG_FAIL(err, JG_ECONFIG, "%s%s must be an integer (got %s)", where, s->doc.key,
+      return JG_FAIL(err, JG_ECONFIG, "%s%s must be an integer (got %s)", where, name,
                      jg__describe_value(set, got, sizeof got));
     long long v = type == CONFIG_TYPE_INT ? config_setting_get_int(set)
                                           : config_setting_get_int64(set);
     if (v < (long long)s->lo || v > (long long)s->hi)
-      return JG_FAIL(err, JG_ECONFIG, "%s%s must satisfy %s (got %lld)", where, s->doc.key,
+      return JG_FAIL(err, JG_ECONFIG, "%s%s must satisfy %s (got %lld)", where, name,
                      s->doc.allowed, v);
-    *(int *)((char *)p + s->offset) = (int)v;
+    *(int *)at = (int)v;
     return JG_OK;
   }
   case JG__KIND_CHOICE: {
     if (type != CONFIG_TYPE_STRING)
       return JG_FAIL(err, JG_ECONFIG, "%s%s must be a quoted word, one of %s (got %s)", where,
-                     s->doc.key, s->doc.allowed, jg__describe_value(set, got, sizeof got));
+                     name, s->doc.allowed, jg__describe_value(set, got, sizeof got));
     const char *word = config_setting_get_string(set);
     for (int j = 0; s->choices[j]; j++) {
       if (strcmp(word, s->choices[j]) == 0) {
-        *(int *)((char *)p + s->offset) = j;
+        *(int *)at = j;
         return JG_OK;
       }
     }
-    return JG_FAIL(err, JG_ECONFIG, "%s%s must be one of %s (got \"%s\")", where, s->doc.key,
+    return JG_FAIL(err, JG_ECONFIG, "%s%s must be one of %s (got \"%s\")", where, name,
                    s->doc.allowed, word);
   }
   case JG__KIND_TEXT: {
     if (type != CONFIG_TYPE_STRING)
       return JG_FAIL(err, JG_ECONFIG, "%s%s must be quoted text such as \"file.txt\" (got %s)",
-                     where, s->doc.key, jg__describe_value(set, got, sizeof got));
+                     where, name, jg__describe_value(set, got, sizeof got));
     const char *text = config_setting_get_string(set);
     size_t n = strlen(text);
     if (n >= s->capacity)
       return JG_FAIL(err, JG_ECONFIG, "%s%s is too long (%zu bytes; at most %zu)", where,
-                     s->doc.key, n, s->capacity - 1);
+                     name, n, s->capacity - 1);
     /* Written back into table headers as one line of libconfig text. */
     for (size_t j = 0; j < n; j++)
       if ((unsigned char)text[j] < 0x20 || text[j] == 0x7f)
         return JG_FAIL(err, JG_ECONFIG, "%s%s holds a control character (byte %zu)", where,
-                       s->doc.key, j + 1);
-    memcpy((char *)p + s->offset, text, n + 1);
+                       name, j + 1);
+    memcpy(at, text, n + 1);
     return JG_OK;
   }
   case JG__KIND_NUMBER_LIST: {
     if (type != CONFIG_TYPE_ARRAY && type != CONFIG_TYPE_LIST)
       return JG_FAIL(err, JG_ECONFIG, "%s%s must be a list of numbers such as [20.0, 10.0] (got %s)",
-                     where, s->doc.key, jg__describe_value(set, got, sizeof got));
+                     where, name, jg__describe_value(set, got, sizeof got));
     int n = config_setting_length(set);
     /* min_count 0 allows the empty list, which is also how the header
      * records such a list, so a header line reads back as it was written. */
     if (n < s->min_count || n > s->max_count)
-      return JG_FAIL(err, JG_ECONFIG, "%s%s must hold %.*s (got %s)", where, s->doc.key,
+      return JG_FAIL(err, JG_ECONFIG, "%s%s must hold %.*s (got %s)", where, name,
                      jg__list_count_length(s), s->doc.allowed,
                      n == 0 ? "an empty list" : jg__describe_value(set, got, sizeof got));
-    double *out = jg__number_at(p, s);
+    double *out = (double *)at;
     for (int j = 0; j < n; j++) {
       const config_setting_t *e = config_setting_get_elem(set, (unsigned)j);
       if (!is_numeric(e))
-        return JG_FAIL(err, JG_ECONFIG, "%s%s[%d] must be a number (got %s)", where, s->doc.key,
+        return JG_FAIL(err, JG_ECONFIG, "%s%s[%d] must be a number (got %s)", where, name,
                        j, jg__describe_value(e, got, sizeof got));
       out[j] = numeric_value(e);
     }
-    *(int *)((char *)p + s->count_offset) = n;
+    *(int *)((char *)base + s->count_offset) = n;
     return JG_OK;
   }
   }
@@ -253,7 +253,9 @@ jg_status jg_params_load(const char *path, const char *const *overrides, int n_o
                      s->doc.meaning);
       continue;
     }
-    st = read_spec(&loc, s, set, &p, err);
+    char where[512];
+    jg__locate(&loc, s->doc.key, where, sizeof where);
+    st = jg__read_setting(where, s->doc.key, s, set, &p, err);
   }
   if (st == JG_OK) st = jg__validate(&loc, &p, err);
   config_destroy(&cfg);

@@ -112,6 +112,8 @@ jg_status jg__apply_override(config_t *cfg, const char *text, jg_error *err) {
                    kstart);
   memcpy(key, kstart, klen);
   key[klen] = '\0';
+  if (strcmp(key, "scan") == 0 || strncmp(key, "scan.", 5) == 0)
+    return jg__scan_override_refused(text, key, err);
 
   /* Parse the value with libconfig itself, so --set takes exactly the
    * syntax of the file (numbers, strings, [arrays]). */

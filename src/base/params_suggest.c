@@ -50,22 +50,26 @@ static int worth_suggesting(size_t d, const char *typed) {
   return d <= (n / 3 > 2 ? n / 3 : 2);
 }
 
-/* The known key nearest to `key`, or NULL if none is close. The group part
- * and the last part are compared separately too, so that a key written
- * without its group ("hubble_h") or in the wrong group
- * ("thermal.hubble_h") finds its home. */
-const char *jg__nearest_key(const char *key) {
+/* The key of `table` nearest to `key`, or NULL if none is close. The group
+ * part and the last part are compared separately too, so that a key written
+ * without its group ("hubble_h") or in the wrong group ("thermal.hubble_h")
+ * finds its home. */
+const char *jg__nearest_in(const char *key, const jg__param_spec *table, int n) {
   const char *best = NULL;
   size_t best_d = (size_t)-1;
   const char *typed_last = last_component(key);
-  for (int i = 0; i < jg__n_param_specs; i++) {
-    const char *known_last = last_component(jg__param_specs[i].doc.key);
-    size_t d = name_distance(key, jg__param_specs[i].doc.key);
+  for (int i = 0; i < n; i++) {
+    const char *known_last = last_component(table[i].doc.key);
+    size_t d = name_distance(key, table[i].doc.key);
     size_t d2 = name_distance(typed_last, known_last);
     if (d2 < d) d = d2;
-    if (d < best_d) best_d = d, best = jg__param_specs[i].doc.key;
+    if (d < best_d) best_d = d, best = table[i].doc.key;
   }
   return best && worth_suggesting(best_d, typed_last) ? best : NULL;
+}
+
+const char *jg__nearest_key(const char *key) {
+  return jg__nearest_in(key, jg__param_specs, jg__n_param_specs);
 }
 
 static int is_known_group(const char *name) {
@@ -74,10 +78,7 @@ static int is_known_group(const char *name) {
   return 0;
 }
 
-static jg_status unknown_key(const jg__locator *loc, const char *key, jg_error *err) {
-  char where[512];
-  jg__locate(loc, key, where, sizeof where);
-  const char *near = jg__nearest_key(key);
+jg_status jg__unknown_key(const char *where, const char *key, const char *near, jg_error *err) {
   if (near)
     return JG_FAIL(err, JG_ECONFIG, "%sunknown key '%s' (did you mean '%s'?)", where, key, near);
   return JG_FAIL(err, JG_ECONFIG,
@@ -85,16 +86,24 @@ static jg_status unknown_key(const jg__locator *loc, const char *key, jg_error *
                  where, key);
 }
 
+static jg_status unknown_key(const jg__locator *loc, const char *key, jg_error *err) {
+  char where[512];
+  jg__locate(loc, key, where, sizeof where);
+  return jg__unknown_key(where, key, jg__nearest_key(key), err);
+}
+
 static jg_status unknown_group(const jg__locator *loc, const char *name, jg_error *err) {
   char where[512], groups[256] = "";
   jg__locate(loc, name, where, sizeof where);
   const char *near = NULL;
   size_t best_d = (size_t)-1;
-  for (int i = 0; i < jg__n_param_groups; i++) {
-    size_t d = name_distance(name, jg__param_groups[i]);
-    if (d < best_d) best_d = d, near = jg__param_groups[i];
+  /* The groups of jg_params, then the scan group. */
+  for (int i = 0; i <= jg__n_param_groups; i++) {
+    const char *group = i < jg__n_param_groups ? jg__param_groups[i] : "scan";
+    size_t d = name_distance(name, group);
+    if (d < best_d) best_d = d, near = group;
     snprintf(groups + strlen(groups), sizeof groups - strlen(groups), "%s%s", i ? ", " : "",
-             jg__param_groups[i]);
+             group);
   }
   if (near && worth_suggesting(best_d, name))
     return JG_FAIL(err, JG_ECONFIG, "%sunknown group '%s' (did you mean '%s'? the groups are %s)",
@@ -114,9 +123,14 @@ jg_status jg__check_known_keys(const jg__locator *loc, const config_setting_t *g
     else snprintf(key, sizeof key, "%s", name ? name : "?");
     if (jg__find_spec(key)) continue; /* its type is checked when it is read */
     int is_group = config_setting_type(s) == CONFIG_TYPE_GROUP;
-    /* The scan definition belongs to `jeansgrow scan`, which reads and checks
-     * it (src/scan/scan.c); a single run of the same file uses the base values. */
-    if (!prefix[0] && is_group && strcmp(key, "scan") == 0) continue;
+    /* The grid of `jeansgrow scan`: checked here against its own table, so
+     * that a typo in it is caught by any command; a single run of the same
+     * file uses the base values. */
+    if (!prefix[0] && strcmp(key, "scan") == 0) {
+      jg_status st = jg__read_scan_group(loc->path, s, NULL, NULL, err);
+      if (st != JG_OK) return st;
+      continue;
+    }
     if (!prefix[0] && is_known_group(key)) {
       if (!is_group) {
         char where[512], got[128];
