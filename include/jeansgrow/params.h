@@ -24,6 +24,11 @@ extern "C" {
 #define JG_MAX_REDSHIFTS 512 /* longest output.redshifts list */
 #define JG_MAX_WAVENUMBERS 4096 /* longest perturbations.k_values list / k_count */
 #define JG_MAX_PATH 1024 /* longest file name a parameter may hold, with its final zero */
+/* Wavenumbers (1/Mpc, comoving) the fluid equations hold for (why: perturb.h):
+ * the key table's range of perturbations.k_min, k_max and k_values, and the
+ * perturbation module's JG_PERTURB_K_MIN and JG_PERTURB_K_MAX. */
+#define JG_PARAMS_K_LOWEST 1.0
+#define JG_PARAMS_K_HIGHEST 1.0e5
 
 /* The cosmological model (group `cosmology`). */
 typedef struct jg_cosmology {
@@ -126,6 +131,36 @@ jg_status jg_params_load(const char *path, const char *const *overrides, int n_o
 /* Check a filled struct (ranges, finiteness, consistency). The loader calls
  * this; programs that fill the struct by hand should call it too. */
 jg_status jg_params_validate(const jg_params *p, jg_error *err);
+
+/*
+ * The same limits for a stage that defends its own inputs (library callers
+ * bypass the loader): each takes its ranges and combined rules from the one
+ * key table, and fails with JG_EINVAL and the loader's message ("KEY must
+ * satisfy ALLOWED (got VALUE)"). jg_background_new and jg_thermal_new call
+ * the first two, jg_perturb_wavenumbers the third; the perturbation model
+ * checks its other keys one by one with jg_params_check_value. The
+ * table grants a stage a wider domain than a file for a few keys, each with
+ * its reason (cosmology.curvature_omega: any finite value, the background
+ * checks H^2 itself; the thermal tolerances: 0 < value < 1).
+ */
+jg_status jg_params_check_cosmology(const jg_cosmology *c, jg_error *err);
+jg_status jg_params_check_thermal(const jg_thermal_settings *s, jg_error *err);
+/* The wavenumber keys of the perturbation settings (k_min, k_max, k_count,
+ * k_values) and the rules between them. */
+jg_status jg_params_check_wavenumbers(const jg_perturb_settings *s, jg_error *err);
+/* One value of a number, integer or word key (a word as its index), or one
+ * element of a list ("perturbations.k_values[3]"). */
+jg_status jg_params_check_value(const char *key, double value, jg_error *err);
+
+/* The allowed range of a number, integer or word key (of a list: of each
+ * element; of a word: its index), as the key table holds it: the file's, or
+ * with `for_stage` the one the stages check. */
+typedef struct jg_param_range {
+  double lo, hi;
+  int lo_open, hi_open; /* 1: the bound itself is excluded */
+} jg_param_range;
+/* 1 and `range` filled for such a key, else 0. */
+int jg_params_key_range(const char *key, int for_stage, jg_param_range *range);
 
 /* Write every key with its effective value as `# key = value;` lines (the
  * header block of every output table). */

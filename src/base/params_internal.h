@@ -68,6 +68,20 @@ extern const jg_param_doc jg__scan_vary_doc;
 extern const jg__param_spec jg__vary_specs[];
 extern const int jg__n_vary_specs;
 
+/* A key a stage (a library module) accepts more widely than a parameter
+ * file does, and why: the wider domain is what the stage's own check uses.
+ * Every other key's stage check is its file range. */
+typedef struct jg__stage_domain {
+  const char *key;
+  double lo, hi;
+  int lo_open, hi_open;
+  const char *allowed; /* human-readable, for messages */
+  const char *reason;
+} jg__stage_domain;
+
+extern const jg__stage_domain jg__stage_domains[];
+extern const int jg__n_stage_domains;
+
 /* The spec of `key`, or NULL. */
 const jg__param_spec *jg__find_spec(const char *key);
 

@@ -69,13 +69,13 @@ const jg__param_spec jg__param_specs[] = {
     INTEGER("thermal.grid_points", thermal.grid_points, "4000", "200 <= value <= 1000000", 200,
             1000000, "nodes of the stored history, uniform in ln a"),
 
-    NUMBER("perturbations.k_min", perturbations.k_min, "1/Mpc", "1.0", "1 <= value <= 1e5", 1,
-           0, 1e5, 0,
+    NUMBER("perturbations.k_min", perturbations.k_min, "1/Mpc", "1.0", "1 <= value <= 1e5",
+           JG_PARAMS_K_LOWEST, 0, JG_PARAMS_K_HIGHEST, 0,
            "smallest comoving wavenumber of the log-spaced grid, in 1/Mpc whatever "
            "output.units says (photon pressure and Silk damping are neglected, which needs "
            "k >= 1/Mpc)"),
     NUMBER("perturbations.k_max", perturbations.k_max, "1/Mpc", "5000.0",
-           "k_min <= value <= 1e5", 1, 0, 1e5, 0,
+           "k_min <= value <= 1e5", JG_PARAMS_K_LOWEST, 0, JG_PARAMS_K_HIGHEST, 0,
            "largest comoving wavenumber of the grid, in 1/Mpc whatever output.units says"),
     INTEGER("perturbations.k_count", perturbations.k_count, "128", "1 <= value <= 4096", 1,
             JG_MAX_WAVENUMBERS, "number of grid wavenumbers"),
@@ -84,7 +84,7 @@ const jg__param_spec jg__param_specs[] = {
       "explicit wavenumbers, used instead of the grid (empty: use the grid), in 1/Mpc "
       "whatever output.units says"},
      JG__KIND_NUMBER_LIST, P_OFF(perturbations.k_values), P_OFF(perturbations.n_k_values), 0,
-     JG_MAX_WAVENUMBERS, 0, 1, 1e5, 0, 0, NULL, 0},
+     JG_MAX_WAVENUMBERS, 0, JG_PARAMS_K_LOWEST, JG_PARAMS_K_HIGHEST, 0, 0, NULL, 0},
     NUMBER("perturbations.z_initial", perturbations.z_initial, "", "10000.0",
            "1500 <= value <= 100000 and above every output redshift", 1500, 0, 1e5, 0,
            "redshift where CDM starts on the Meszaros growing mode, baryons at rest"),
@@ -166,6 +166,17 @@ const jg_param_doc *jg_param_scan_doc_at(int i) {
   if (i < 1 || i > jg__n_vary_specs) return NULL;
   return &jg__vary_specs[i - 1].doc;
 }
+
+const jg__stage_domain jg__stage_domains[] = {
+    {"cosmology.curvature_omega", -HUGE_VAL, HUGE_VAL, 1, 1, "a finite number",
+     "the background itself refuses any model whose H^2 turns negative, and is tested on "
+     "strongly closed ones (Omega_k = -1.5, -5) where that check, not the file range, must act"},
+    {"thermal.rel_tol", 0.0, 1.0, 1, 1, "0 < value < 1",
+     "tolerances beyond the file range are legal for a program: the test of a genuine "
+     "solver failure asks 1e-300"},
+    {"thermal.abs_tol", 0.0, 1.0, 1, 1, "0 < value < 1", "as thermal.rel_tol"},
+};
+const int jg__n_stage_domains = (int)(sizeof jg__stage_domains / sizeof jg__stage_domains[0]);
 
 /* In the order the loader checks them. */
 const jg__param_rule jg__param_rules[] = {
