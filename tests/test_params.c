@@ -530,3 +530,175 @@ Test(params, header_lines_read_back_as_the_same_parameters) {
   free(copy);
   free(header);
 }
+
+/* ---- one source for every range ------------------------------------------ */
+
+/* The numeric bounds written in a key's allowed text ("0 < value <= 5",
+ * "..., each 1 <= k <= 1e5") must be the ones the table enforces; a bound
+ * written as another key ("k_min <= value") is a combined rule instead. */
+static void expect_text_matches_range(const jg_param_doc *d, const jg_param_range *r) {
+  const char *text = strstr(d->allowed, ", each ");
+  text = text ? text + strlen(", each ") : d->allowed;
+  char left[64], op1[4], name[64], op2[4], right[64];
+  if (sscanf(text, "%63s %3s %63s %3s %63[^ ,]", left, op1, name, op2, right) != 5) {
+    cr_expect(strstr(d->type, "one of") != NULL, "%s: allowed text '%s' not of the form A < x < B",
+              d->key, d->allowed);
+    return;
+  }
+  char *end;
+  double lo = strtod(left, &end);
+  if (*end == '\0') {
+    cr_expect_eq(lo, r->lo, "%s: text says %s, table %g", d->key, left, r->lo);
+    cr_expect_eq(r->lo_open, strcmp(op1, "<") == 0, "%s: text says '%s'", d->key, op1);
+  }
+  double hi = strtod(right, &end);
+  if (*end == '\0') {
+    cr_expect_eq(hi, r->hi, "%s: text says %s, table %g", d->key, right, r->hi);
+    cr_expect_eq(r->hi_open, strcmp(op2, "<") == 0, "%s: text says '%s'", d->key, op2);
+  }
+}
+
+/* Values just outside and just inside a range's bounds (whole numbers for
+ * integer and word keys). */
+static int probes(const jg_param_range *r, int whole, double *outside, double *inside) {
+  int n = 0;
+  if (isfinite(r->lo)) {
+    outside[n] = r->lo_open ? r->lo : whole ? r->lo - 1 : nextafter(r->lo, -INFINITY);
+    inside[n++] = r->lo_open ? (whole ? r->lo + 1 : nextafter(r->lo, INFINITY)) : r->lo;
+  }
+  if (isfinite(r->hi)) {
+    outside[n] = r->hi_open ? r->hi : whole ? r->hi + 1 : nextafter(r->hi, INFINITY);
+    inside[n++] = r->hi_open ? (whole ? r->hi - 1 : nextafter(r->hi, -INFINITY)) : r->hi;
+  }
+  return n;
+}
+
+static int medium_never_used(const void *ctx, double ln_a, jg_medium_coefficients *out) {
+  (void)ctx, (void)ln_a, (void)out;
+  return 1;
+}
+
+/* The stage that defends `key` builds with `value` put in; NULL when it
+ * would build (the stage's message otherwise, in `err`). Only values
+ * outside the range are given, so every stage fails at its first check,
+ * before any work. */
+static const char *stage_refusal(const char *key, double value, jg_error *err) {
+  jg_params_set_defaults(&loaded);
+  jg_error_clear(err);
+  int whole = strcmp(key, "perturbations.sound_speed") == 0 ||
+              strcmp(key, "perturbations.stepper") == 0;
+  if (whole) {
+    if (strcmp(key, "perturbations.stepper") == 0) loaded.perturbations.stepper = (int)value;
+    else loaded.perturbations.sound_speed = (int)value;
+  } else if (strcmp(key, "perturbations.k_values") == 0) {
+    loaded.perturbations.n_k_values = 1;
+    loaded.perturbations.k_values[0] = value;
+  } else {
+    cr_assert_eq(jg_params_set_number(&loaded, key, value, err), JG_OK, "%s", err->message);
+  }
+  if (strncmp(key, "cosmology.", 10) == 0) {
+    jg_background *bg = jg_background_new(&loaded.cosmology, err);
+    jg_background_free(bg);
+    return bg ? NULL : err->message;
+  }
+  if (strncmp(key, "thermal.", 8) == 0) {
+    jg_params defaults;
+    jg_params_set_defaults(&defaults);
+    jg_background *bg = jg_background_new(&defaults.cosmology, err);
+    cr_assert_not_null(bg, "%s", err->message);
+    jg_thermal *th = jg_thermal_new(bg, &loaded.thermal, err);
+    cr_assert_null(th, "%s = %.17g: the thermal history was built", key, value);
+    jg_background_free(bg);
+    return err->message;
+  }
+  if (strncmp(key, "perturbations.k_", 16) == 0) {
+    static double k[JG_MAX_WAVENUMBERS];
+    int n = 0;
+    return jg_perturb_wavenumbers(&loaded.perturbations, k, &n, err) == JG_OK ? NULL
+                                                                             : err->message;
+  }
+  jg_medium medium = {medium_never_used, NULL, 0.0, -10.0, 0.0, 0.0, 1e30, 1.0};
+  jg_perturb_model *m = jg_perturb_model_new_medium(&medium, &loaded.perturbations, NULL, err);
+  cr_assert_null(m, "%s = %.17g: the model was built", key, value);
+  return err->message;
+}
+
+/* Every range and combined rule lives in the key table, and the stages that
+ * defend their own inputs (a program can bypass the loader) use it: for
+ * every key, a value just outside its range is refused by the loader and
+ * by the stage that reads it, with the same words, and a value just inside
+ * passes both checks. The written range agrees with the enforced one. */
+Test(params, every_range_is_the_one_the_stages_check) {
+  /* Keys no stage reads as a range of its own: the output choices are the
+   * program's; z_initial is bounded by the medium a model is built on (an
+   * analytic test medium may start anywhere); the table name is a file. */
+  static const char *const loader_only[] = {
+      "perturbations.z_initial", "perturbations.initial_table", "output.redshifts",
+      "output.history_rows",     "output.history_z_min",        "output.units", NULL};
+  const jg_param_doc *d;
+  int stage_keys = 0;
+  for (int i = 0; (d = jg_param_doc_at(i)) != NULL; i++) {
+    int only_loader = 0;
+    for (int j = 0; loader_only[j]; j++) only_loader |= strcmp(loader_only[j], d->key) == 0;
+    jg_param_range file, stage;
+    int has_range = jg_params_key_range(d->key, 0, &file);
+    int is_list = strncmp(d->type, "list", 4) == 0;
+    if (is_list) {
+      char element[128];
+      snprintf(element, sizeof element, "%s[0]", d->key);
+      has_range = jg_params_key_range(element, 0, &file) && jg_params_key_range(element, 1, &stage);
+    } else if (has_range) {
+      cr_assert(jg_params_key_range(d->key, 1, &stage));
+    }
+    if (!has_range) {
+      cr_expect(only_loader, "%s has no range and is not listed as loader-only", d->key);
+      continue;
+    }
+    expect_text_matches_range(d, &file);
+    int whole = strcmp(d->type, "integer") == 0 || strncmp(d->type, "one of", 6) == 0;
+    double outside[2], inside[2];
+    int n = probes(&file, whole, outside, inside);
+    /* The loader's range, through a whole parameter set. */
+    for (int j = 0; j < n && !is_list && !strncmp(d->type, "one of", 6) == 0; j++) {
+      jg_error err;
+      char expected_start[160];
+      snprintf(expected_start, sizeof expected_start, "%s must satisfy ", d->key);
+      jg_params_set_defaults(&loaded);
+      jg_error_clear(&err);
+      cr_assert_eq(jg_params_set_number(&loaded, d->key, outside[j], &err), JG_OK);
+      cr_expect_eq(jg_params_validate(&loaded, &err), JG_ECONFIG, "%s = %.17g accepted", d->key,
+                   outside[j]);
+      cr_expect(strncmp(err.message, expected_start, strlen(expected_start)) == 0, "%s", err.message);
+      jg_params_set_defaults(&loaded);
+      jg_error_clear(&err);
+      cr_assert_eq(jg_params_set_number(&loaded, d->key, inside[j], &err), JG_OK);
+      jg_params_validate(&loaded, &err); /* a combined rule may object, the range may not */
+      cr_expect(strncmp(err.message, expected_start, strlen(expected_start)) != 0,
+                "%s = %.17g refused: %s", d->key, inside[j], err.message);
+    }
+    if (only_loader) continue;
+    /* The stage's range: the file's unless the table grants it a wider one. */
+    stage_keys++;
+    n = probes(&stage, whole, outside, inside);
+    for (int j = 0; j < n; j++) {
+      char name[128];
+      snprintf(name, sizeof name, is_list ? "%s[0]" : "%s", d->key);
+      jg_error table_err, stage_err;
+      jg_error_clear(&table_err);
+      cr_expect_eq(jg_params_check_value(name, outside[j], &table_err), JG_EINVAL);
+      const char *refusal = stage_refusal(d->key, outside[j], &stage_err);
+      cr_expect_not_null(refusal, "%s = %.17g: the stage accepts it", d->key, outside[j]);
+      if (refusal) {
+        cr_expect_eq(stage_err.status, JG_EINVAL, "%s: %s", d->key, refusal);
+        cr_expect_str_eq(refusal, table_err.message);
+      }
+      jg_error_clear(&table_err);
+      cr_expect_eq(jg_params_check_value(name, inside[j], &table_err), JG_OK, "%s = %.17g: %s",
+                   d->key, inside[j], table_err.message);
+    }
+    /* A wider stage domain holds the file's range. */
+    cr_expect(stage.lo <= file.lo && stage.hi >= file.hi, "%s: the stage refuses file values",
+              d->key);
+  }
+  cr_expect_geq(stage_keys, 20, "the stages defend fewer keys than expected");
+}

@@ -263,8 +263,8 @@ static jg_status check_settings(const jg_perturb_settings *s, jg_error *err) {
     double value;
   } keys[] = {{"perturbations.rel_tol", s->rel_tol},
               {"perturbations.abs_tol", s->abs_tol},
-              {"perturbations.sound_speed", (double)s->sound_speed},
-              {"perturbations.stepper", (double)s->stepper}};
+              {"perturbations.sound_speed", (double)(int)s->sound_speed},
+              {"perturbations.stepper", (double)(int)s->stepper}};
   for (size_t i = 0; i < sizeof keys / sizeof keys[0]; i++) {
     jg_status st = jg_params_check_value(keys[i].key, keys[i].value, err);
     if (st != JG_OK) return st;
