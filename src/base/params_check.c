@@ -5,6 +5,7 @@
 #include "jeansgrow/params.h"
 
 #include <math.h>
+#include <stddef.h>
 #include <stdio.h>
 #include <string.h>
 
@@ -61,27 +62,29 @@ static jg_status check_range(const jg__locator *loc, const jg__param_spec *s, co
 
 /* ---- combined rules (listed in jg__param_rules) ---- */
 
-/* The first output redshift at or above `limit` (above only when
- * `equal_allowed`), or -1. */
-static int first_redshift_not_below(const jg_params *p, double limit, int equal_allowed) {
+/* Every output redshift below `limit` (or equal to it, if `equal_allowed`),
+ * else a message naming the first one that is not: "NAME = Z RELATION
+ * LIMIT_KEY = LIMIT ADVICE". */
+static jg_status redshifts_below(const jg__locator *loc, const jg_params *p, double limit,
+                                 int equal_allowed, const char *relation, const char *limit_key,
+                                 const char *advice, jg_error *err) {
   for (int i = 0; i < p->output.n_redshifts; i++) {
     double z = p->output.redshifts[i];
-    if (equal_allowed ? z > limit : z >= limit) return i;
+    if (equal_allowed ? z <= limit : z < limit) continue;
+    char where[512], name[64];
+    snprintf(name, sizeof name, "output.redshifts[%d]", i);
+    jg__locate(loc, name, where, sizeof where);
+    return JG_FAIL(err, JG_ECONFIG, "%s%s = %g %s %s = %g%s", where, name, z, relation, limit_key,
+                   limit, advice);
   }
-  return -1;
+  return JG_OK;
 }
 
 jg_status jg__rule_redshifts_in_history(const jg__locator *loc, const jg_params *p,
                                         jg_error *err) {
-  int i = first_redshift_not_below(p, p->thermal.start_redshift, 1);
-  if (i < 0) return JG_OK;
-  char where[512], name[64];
-  snprintf(name, sizeof name, "output.redshifts[%d]", i);
-  jg__locate(loc, name, where, sizeof where);
-  return JG_FAIL(err, JG_ECONFIG,
-                 "%s%s = %g lies above thermal.start_redshift = %g; raise "
-                 "thermal.start_redshift or drop that redshift",
-                 where, name, p->output.redshifts[i], p->thermal.start_redshift);
+  return redshifts_below(loc, p, p->thermal.start_redshift, 1, "lies above",
+                         "thermal.start_redshift",
+                         "; raise thermal.start_redshift or drop that redshift", err);
 }
 
 jg_status jg__rule_dark_energy_fades(const jg__locator *loc, const jg_params *p,
@@ -121,15 +124,8 @@ jg_status jg__rule_single_wavenumber(const jg__locator *loc, const jg_params *p,
 
 jg_status jg__rule_redshifts_after_start(const jg__locator *loc, const jg_params *p,
                                          jg_error *err) {
-  int i = first_redshift_not_below(p, p->perturbations.z_initial, 0);
-  if (i < 0) return JG_OK;
-  char where[512], name[64];
-  snprintf(name, sizeof name, "output.redshifts[%d]", i);
-  jg__locate(loc, name, where, sizeof where);
-  return JG_FAIL(err, JG_ECONFIG,
-                 "%s%s = %g is not below perturbations.z_initial = %g (reversed redshift "
-                 "range)",
-                 where, name, p->output.redshifts[i], p->perturbations.z_initial);
+  return redshifts_below(loc, p, p->perturbations.z_initial, 0, "is not below",
+                         "perturbations.z_initial", " (reversed redshift range)", err);
 }
 
 jg_status jg__rule_history_range_ordered(const jg__locator *loc, const jg_params *p,
@@ -231,30 +227,30 @@ static jg_status as_invalid_input(jg_status st, jg_error *err) {
   return JG_EINVAL;
 }
 
-jg_status jg_params_check_cosmology(const jg_cosmology *c, jg_error *err) {
-  if (!c) return JG_FAIL(err, JG_EINVAL, "cosmology: none given (NULL)");
+/* Check one part of a jg_params (at `offset`, `size` bytes) as a stage
+ * holds it: the keys starting with `key_prefix`, the rules of `rule_group`. */
+static jg_status check_part(const void *part, size_t offset, size_t size, const char *key_prefix,
+                            const char *rule_group, jg_error *err) {
+  if (!part) return JG_FAIL(err, JG_EINVAL, "%s: no settings given (NULL)", rule_group);
   jg_params p;
   jg_params_set_defaults(&p);
-  p.cosmology = *c;
-  return as_invalid_input(check_keys_and_rules(NULL, &p, "cosmology.", "cosmology", 1, err), err);
+  memcpy((char *)&p + offset, part, size);
+  return as_invalid_input(check_keys_and_rules(NULL, &p, key_prefix, rule_group, 1, err), err);
+}
+
+jg_status jg_params_check_cosmology(const jg_cosmology *c, jg_error *err) {
+  return check_part(c, offsetof(jg_params, cosmology), sizeof *c, "cosmology.", "cosmology",
+                    err);
 }
 
 jg_status jg_params_check_thermal(const jg_thermal_settings *s, jg_error *err) {
-  if (!s) return JG_FAIL(err, JG_EINVAL, "thermal: no settings given (NULL)");
-  jg_params p;
-  jg_params_set_defaults(&p);
-  p.thermal = *s;
-  return as_invalid_input(check_keys_and_rules(NULL, &p, "thermal.", "thermal", 1, err), err);
+  return check_part(s, offsetof(jg_params, thermal), sizeof *s, "thermal.", "thermal", err);
 }
 
+/* k_min, k_max, k_count, k_values, and the rules between them. */
 jg_status jg_params_check_wavenumbers(const jg_perturb_settings *s, jg_error *err) {
-  if (!s) return JG_FAIL(err, JG_EINVAL, "perturbations: no settings given (NULL)");
-  jg_params p;
-  jg_params_set_defaults(&p);
-  p.perturbations = *s;
-  /* k_min, k_max, k_count, k_values, and the rules between them */
-  return as_invalid_input(
-      check_keys_and_rules(NULL, &p, "perturbations.k_", "perturbations", 1, err), err);
+  return check_part(s, offsetof(jg_params, perturbations), sizeof *s, "perturbations.k_",
+                    "perturbations", err);
 }
 
 /* The spec of `key`, or of the list `key` names an element of ("k_values[3]"). */
