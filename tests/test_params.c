@@ -31,7 +31,8 @@ static void make_temp_dir(void) {
 
 static void remove_temp_dir(void) {
   char path[128];
-  const char *files[] = {"minimal.cfg", "bom.cfg", "comments.cfg", "unclosed.cfg", "scan.cfg", NULL};
+  const char *files[] = {"minimal.cfg", "bom.cfg",  "comments.cfg",
+                         "unclosed.cfg", "scan.cfg", NULL};
   for (int i = 0; files[i]; i++) {
     snprintf(path, sizeof path, "%s/%s", temp_dir, files[i]);
     unlink(path);
@@ -248,7 +249,8 @@ Test(params, scan_group_is_read_against_its_key_table) {
   char text[1024];
   snprintf(text, sizeof text,
            "%sscan:\n{\n  vary = (\n"
-           "    { key = \"cosmology.hubble_h\"; from = 0.6; to = 0.8; count = 3; spacing = \"log\"; },\n"
+           "    { key = \"cosmology.hubble_h\"; from = 0.6; to = 0.8; count = 3;\n"
+           "      spacing = \"log\"; },\n"
            "    { key = \"thermal.grid_points\"; values = [1000, 2000]; },\n"
            "    \"cosmology.cdm_density_h2=0.10:0.14:3\"\n  );\n};\n",
            minimal_text);
@@ -266,7 +268,7 @@ Test(params, scan_group_is_read_against_its_key_table) {
   cr_expect(seen.n_values[1] == 2 && seen.values[1][0] == 1000.0 && seen.values[1][1] == 2000.0);
   cr_expect_str_eq(seen.text[2], "cosmology.cdm_density_h2=0.10:0.14:3");
   char where[256];
-  snprintf(where, sizeof where, "%s:6: scan.vary[1]", path);
+  snprintf(where, sizeof where, "%s:7: scan.vary[1]", path);
   cr_expect_str_eq(seen.where[1], where);
   load_ok(path, NULL, 0, &loaded);
 
@@ -655,11 +657,12 @@ Test(params, every_range_is_the_one_the_stages_check) {
       continue;
     }
     expect_text_matches_range(d, &file);
-    int whole = strcmp(d->type, "integer") == 0 || strncmp(d->type, "one of", 6) == 0;
+    int is_word = strncmp(d->type, "one of", 6) == 0;
+    int whole = is_word || strcmp(d->type, "integer") == 0;
     double outside[2], inside[2];
     int n = probes(&file, whole, outside, inside);
     /* The loader's range, through a whole parameter set. */
-    for (int j = 0; j < n && !is_list && !strncmp(d->type, "one of", 6) == 0; j++) {
+    for (int j = 0; j < n && !is_list && !is_word; j++) {
       jg_error err;
       char expected_start[160];
       snprintf(expected_start, sizeof expected_start, "%s must satisfy ", d->key);
@@ -668,7 +671,8 @@ Test(params, every_range_is_the_one_the_stages_check) {
       cr_assert_eq(jg_params_set_number(&loaded, d->key, outside[j], &err), JG_OK);
       cr_expect_eq(jg_params_validate(&loaded, &err), JG_ECONFIG, "%s = %.17g accepted", d->key,
                    outside[j]);
-      cr_expect(strncmp(err.message, expected_start, strlen(expected_start)) == 0, "%s", err.message);
+      cr_expect(strncmp(err.message, expected_start, strlen(expected_start)) == 0, "%s",
+                err.message);
       jg_params_set_defaults(&loaded);
       jg_error_clear(&err);
       cr_assert_eq(jg_params_set_number(&loaded, d->key, inside[j], &err), JG_OK);

@@ -41,7 +41,8 @@ typedef struct jg__param_spec {
   int required;
   double lo, hi;       /* allowed range */
   int lo_open, hi_open;/* strict (>) or inclusive (>=) bounds */
-  const char *const *choices; /* JG__KIND_CHOICE: the allowed words, NULL-terminated; stored as int index */
+  const char *const *choices; /* JG__KIND_CHOICE: the allowed words, NULL-terminated;
+                                 stored as the int index of the word */
   size_t capacity;     /* JG__KIND_TEXT: bytes of the char array, final zero included */
 } jg__param_spec;
 

@@ -180,7 +180,8 @@ const int jg__n_stage_domains = (int)(sizeof jg__stage_domains / sizeof jg__stag
 
 /* In the order the loader checks them. */
 const jg__param_rule jg__param_rules[] = {
-    {{"output.redshifts, thermal.start_redshift", "every output redshift <= thermal.start_redshift",
+    {{"output.redshifts, thermal.start_redshift",
+      "every output redshift <= thermal.start_redshift",
       "the thermal history starts there"},
      NULL, jg__rule_redshifts_in_history},
     {{"cosmology.de_w0, cosmology.de_wa", "de_w0 + de_wa < 1/3",
@@ -193,7 +194,8 @@ const jg__param_rule jg__param_rules[] = {
       "k_count = 1 needs k_min = k_max, unless k_values is given",
       "a grid of one point has no spacing to place k_max"},
      "perturbations", jg__rule_single_wavenumber},
-    {{"output.redshifts, perturbations.z_initial", "every output redshift < perturbations.z_initial",
+    {{"output.redshifts, perturbations.z_initial",
+      "every output redshift < perturbations.z_initial",
       "the perturbations start there"},
      NULL, jg__rule_redshifts_after_start},
     {{"output.history_z_min, thermal.start_redshift", "history_z_min < thermal.start_redshift",

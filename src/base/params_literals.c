@@ -120,7 +120,8 @@ static int skip_comment_or_string(const char **c, int *line) {
  * comment sits inside a group libconfig reports only a syntax error on the
  * last line, far from the cause.
  */
-jg_status jg__check_comments(const char *text, const jg__literal_origin *origin, jg_error *err) {
+jg_status jg__check_comments(const char *text, const jg__literal_origin *origin,
+                             jg_error *err) {
   int line = 1;
   for (const char *c = text; *c;) {
     int opened = line;
@@ -144,7 +145,7 @@ jg_status jg__check_comments(const char *text, const jg__literal_origin *origin,
 /* Scan libconfig text for misread number literals. `outer_key` is the key a
  * --set value is assigned to ("" for a whole file). */
 jg_status jg__check_literals(const char *text, const jg__literal_origin *origin,
-                                const char *outer_key, jg_error *err) {
+                             const char *outer_key, jg_error *err) {
   literal_scan sc;
   memset(&sc, 0, sizeof sc);
   snprintf(sc.group, sizeof sc.group, "%s", outer_key);

@@ -113,7 +113,7 @@ static jg_status unknown_group(const jg__locator *loc, const char *name, jg_erro
 }
 
 jg_status jg__check_known_keys(const jg__locator *loc, const config_setting_t *group,
-                                  const char *prefix, jg_error *err) {
+                               const char *prefix, jg_error *err) {
   int n = config_setting_length(group);
   for (int i = 0; i < n; i++) {
     const config_setting_t *s = config_setting_get_elem(group, (unsigned)i);
