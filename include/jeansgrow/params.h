@@ -123,7 +123,10 @@ void jg_params_set_defaults(jg_params *p);
  * (value in libconfig syntax, arrays included), then check every value.
  * On failure `out` is left untouched and `err` names the file and line (or
  * the override), the key, the value found and what is allowed.
- * Unknown keys are errors, with the nearest known key suggested.
+ * Unknown keys are errors, with the nearest known key suggested. The `scan`
+ * group is checked against its own table (see jg_params_read_scan) and
+ * ignored otherwise; an override cannot set it. A block comment that is
+ * never closed is an error naming its line.
  */
 jg_status jg_params_load(const char *path, const char *const *overrides, int n_overrides,
                          jg_params *out, jg_error *err);
