@@ -13,6 +13,7 @@
 #include <sys/stat.h>
 
 #include "params_internal.h"
+#include "alloc.h" /* last: test builds route allocations through it */
 
 #define MAX_OVERRIDES 256
 

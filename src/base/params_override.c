@@ -10,6 +10,7 @@
 #include <string.h>
 
 #include "params_internal.h"
+#include "alloc.h" /* last: test builds route allocations through it */
 
 /* Length of the key part of an override "key=value" (up to '='). */
 static size_t override_key_length(const char *text) {

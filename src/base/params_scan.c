@@ -14,6 +14,7 @@
 #include <string.h>
 
 #include "params_internal.h"
+#include "alloc.h" /* last: test builds route allocations through it */
 
 static int setting_line(const config_setting_t *s, const config_setting_t *fallback) {
   int line = s ? (int)config_setting_source_line(s) : 0;

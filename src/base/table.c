@@ -11,6 +11,7 @@
 #include <unistd.h>
 
 #include "jeansgrow/version.h"
+#include "alloc.h" /* last: test builds route allocations through it */
 
 struct jg_output {
   FILE *stream;
