@@ -231,6 +231,46 @@ Test(equilibrium, recombination_lags_saha_below_handover) {
   free_history(&h);
 }
 
+/* The hand-over to the Peebles equation falls where the Saha x_p reaches
+ * thermal.saha_limit = 0.99, wherever the nodes lie: found here by bisection
+ * on the joint Saha solution written out above (z_h ~ 1573), the history
+ * must still be Saha just before it (z_h + 0.05, the neutral fraction 1 - x_p
+ * = 0.01 to 1e-5, as at z = 1800) and lag behind Saha just after it
+ * (z_h - 2). With 500, 1500 and 5000 uniform nodes alike. A driver that
+ * switched at the node before the crossing (up to 3.5 in z earlier at 1500
+ * nodes) would already be on the Peebles track at z_h + 0.05. */
+Test(equilibrium, hand_over_where_saha_reaches_the_limit) {
+  jg_params p;
+  jg_params_set_defaults(&p);
+  double lo = 1400.0, hi = 1800.0; /* x_p(lo) < 0.99 < x_p(hi) */
+  for (int i = 0; i < 60; i++) {
+    const double mid = 0.5 * (lo + hi);
+    saha_point s = saha_point_at(&p, mid);
+    if (1.0 - hydrogen_neutral_saha(&s, joint_saha_electrons(&s)) > p.thermal.saha_limit)
+      hi = mid;
+    else
+      lo = mid;
+  }
+  const double z_h = 0.5 * (lo + hi);
+  const int grids[] = {500, 1500, 5000};
+  for (size_t g = 0; g < sizeof grids / sizeof grids[0]; g++) {
+    p.thermal.grid_points = grids[g];
+    history h = build_history(&p);
+    saha_point before = saha_point_at(&p, z_h + 0.05);
+    char what[96];
+    snprintf(what, sizeof what, "1 - x_p at z_h + 0.05 = %.2f vs Saha, %d nodes", z_h + 0.05,
+             grids[g]);
+    assert_rel(1.0 - state_at(&h, z_h + 0.05).x_p,
+               hydrogen_neutral_saha(&before, joint_saha_electrons(&before)), 1e-5, what);
+    saha_point after = saha_point_at(&p, z_h - 2.0);
+    const double x_p_saha = 1.0 - hydrogen_neutral_saha(&after, joint_saha_electrons(&after));
+    cr_assert(state_at(&h, z_h - 2.0).x_p > x_p_saha,
+              "%d nodes: x_p(z_h - 2) = %.9g does not lag behind Saha (%.9g)", grids[g],
+              state_at(&h, z_h - 2.0).x_p, x_p_saha);
+    free_history(&h);
+  }
+}
+
 /* ---- the gas temperature ---------------------------------------------------- */
 
 TestSuite(gas_temperature, .init = quiet_gsl);
@@ -357,6 +397,74 @@ Test(rates, case_b_coefficient_values) {
 Test(rates, case_b_fit_vs_ferland_table) {
   double ratio = jg__case_b_coefficient(1.0e4, 1.0) / 2.588e-19;
   assert_rel(ratio, 0.9968, 1e-3, "alpha_B fit / Ferland 1992 table at 1e4 K");
+}
+
+/* The case-B fit and its slope as the fit is written (Pequignot, Petitjean
+ * & Boisson 1991, as used by Seager, Sasselov & Scott 1999 eq. 3:
+ * alpha_B = F 1e-19 a t^b / (1 + c t^d) m^3/s, t = T / 1e4 K, a = 4.309,
+ * b = -0.6166, c = 0.6703, d = 0.5300), with pow(), against the library,
+ * which takes t^b and t^d as exponentials of one shared logarithm. From 1 K
+ * to 1e5 K (beyond what the history visits at both ends), F = 1.14.
+ * 1e-13: the two forms differ by rounding only (a few units of the last
+ * place times |b ln t| <= 8). */
+Test(rates, case_b_fit_and_slope_written_out) {
+  const double a = 4.309, b = -0.6166, c = 0.6703, d = 0.5300, fudge = 1.14;
+  for (int i = 0; i <= 50; i++) {
+    const double T = pow(10.0, 5.0 * i / 50.0), t = T / 1.0e4;
+    const double alpha = fudge * 1.0e-19 * a * pow(t, b) / (1.0 + c * pow(t, d));
+    /* d alpha/dT from the quotient rule on the written-out fit. */
+    const double slope = fudge * 1.0e-19 * a / 1.0e4 *
+                         (b * pow(t, b - 1.0) * (1.0 + c * pow(t, d)) -
+                          pow(t, b) * c * d * pow(t, d - 1.0)) /
+                         pow(1.0 + c * pow(t, d), 2.0);
+    char what[64];
+    snprintf(what, sizeof what, "alpha_B(%g K)", T);
+    assert_rel(jg__case_b_coefficient(T, fudge), alpha, 1e-13, what);
+    snprintf(what, sizeof what, "d alpha_B/dT at %g K", T);
+    assert_rel(jg__case_b_coefficient_dT(T, fudge), slope, 1e-12, what);
+  }
+}
+
+/* The Peebles rate as Seager, Sasselov & Scott (1999, ApJ 523, L1, eqs. 1-3)
+ * write it, with pow() and a separate exponential for each Boltzmann factor:
+ *   dx_p/dt = -C [alpha_B(T_gas) n_H x_e x_p - beta_B (1 - x_p) e^(-E_21/kT_rad)],
+ *   beta_B = alpha_B(T_rad) (2 pi m_e k T_rad / h^2)^(3/2) e^(-E_ion/4kT_rad),
+ *   C = (1 + K Lambda n_H (1 - x_p)) / (1 + K (Lambda + beta_B) n_H (1 - x_p)),
+ *   K = lambda_alpha^3 / (8 pi H), E_21 = 3 E_ion / 4,
+ * against the library, which shares one logarithm per temperature and takes
+ * e^(-E_ion/kT) as the fourth power of e^(-E_ion/4kT). States of the history
+ * from z = 1500 (near equilibrium: the two terms nearly cancel) to z = 10
+ * (the Boltzmann factors underflow to zero). 1e-11: rounding, amplified by
+ * that cancellation at z = 1500 by at most ~100. */
+Test(rates, peebles_rate_written_out) {
+  history h = planck_history();
+  const double zs[] = {1500.0, 1200.0, 1000.0, 600.0, 200.0, 50.0, 10.0};
+  for (size_t i = 0; i < sizeof zs / sizeof zs[0]; i++) {
+    const double a_f = 1.0 / (1.0 + zs[i]);
+    jg_thermal_state s = state_at(&h, zs[i]);
+    const double n_H = jg_background_n_hydrogen(h.bg, a_f), H = jg_background_hubble(h.bg, a_f);
+    const double F = h.p.thermal.recombination_fudge, kT = JG_K_BOLTZMANN * s.T_rad;
+    const double t_gas = s.T_gas / 1.0e4, t_rad = s.T_rad / 1.0e4;
+    const double alpha =
+        F * 1.0e-19 * 4.309 * pow(t_gas, -0.6166) / (1.0 + 0.6703 * pow(t_gas, 0.53));
+    const double alpha_rad =
+        F * 1.0e-19 * 4.309 * pow(t_rad, -0.6166) / (1.0 + 0.6703 * pow(t_rad, 0.53));
+    const double quantum =
+        pow(2.0 * JG_PI * JG_M_ELECTRON * kT / (JG_H_PLANCK * JG_H_PLANCK), 1.5);
+    const double beta = alpha_rad * quantum * exp(-0.25 * JG_E_ION_HYDROGEN / kT);
+    const double K = pow(JG_LAMBDA_LYMAN_ALPHA, 3.0) / (8.0 * JG_PI * H);
+    const double C = (1.0 + K * JG_RATE_2S1S * n_H * (1.0 - s.x_p)) /
+                     (1.0 + K * (JG_RATE_2S1S + beta) * n_H * (1.0 - s.x_p));
+    const double expected =
+        -C * (alpha * n_H * s.x_e * s.x_p -
+              beta * (1.0 - s.x_p) * exp(-0.75 * JG_E_ION_HYDROGEN / kT));
+    jg__peebles_rate r;
+    jg__peebles_rate_at(s.x_p, s.x_e, 1.0, s.T_gas, s.T_rad, n_H, H, F, &r);
+    char what[64];
+    snprintf(what, sizeof what, "dx_p/dt at z = %g", zs[i]);
+    assert_rel(r.dxp_dt, expected, 1e-11, what);
+  }
+  free_history(&h);
 }
 
 /* ---- analytic derivatives against finite differences -------------------------- */
@@ -548,6 +656,36 @@ Test(jacobians, electrons_given_hydrogen_derivative) {
   free_history(&h);
 }
 
+/* With hydrogen fixed at x_p and helium in Saha equilibrium, the electron
+ * fraction the library finds (a safeguarded Newton iteration) must balance:
+ * x_e = x_p + f_He (n_HeII + 2 n_HeIII) / n_He, with the helium fractions of
+ * the Saha equation written out above at n_e = x_e n_H. Where helium is
+ * partly ionised (z = 2000 to 6000, x_p from 0.5 to 1) and where it has
+ * recombined (z = 1500). 1e-14 relative: the iteration's stopping rule is
+ * 1e-15 (common practice, no source). */
+Test(equilibrium, electrons_given_hydrogen_balance) {
+  jg_params p;
+  jg_params_set_defaults(&p);
+  jg_error err;
+  jg_background *bg = jg_background_new(&p.cosmology, &err);
+  cr_assert(bg != NULL, "jg_background_new failed: %s", err.message);
+  const double zs[] = {1500.0, 2000.0, 2500.0, 3000.0, 4000.0, 6000.0};
+  const double x_ps[] = {0.5, 0.9, 0.999, 1.0};
+  for (size_t i = 0; i < sizeof zs / sizeof zs[0]; i++) {
+    saha_point s = saha_point_at(&p, zs[i]);
+    for (size_t j = 0; j < sizeof x_ps / sizeof x_ps[0]; j++) {
+      double x_e, dxe;
+      int st = jg__electrons_given_hydrogen(bg, s.T, s.n_H, x_ps[j], &x_e, &dxe);
+      cr_assert(st == GSL_SUCCESS, "z = %g, x_p = %g: status %d", zs[i], x_ps[j], st);
+      helium_fractions he = helium_saha(&s, x_e * s.n_H);
+      char what[64];
+      snprintf(what, sizeof what, "x_e at z = %g, x_p = %g", zs[i], x_ps[j]);
+      assert_rel(x_e, x_ps[j] + s.f_He * (he.single + 2.0 * he.doubly), 1e-14, what);
+    }
+  }
+  jg_background_free(bg);
+}
+
 /* ---- convergence -------------------------------------------------------------- */
 
 TestSuite(convergence, .init = quiet_gsl);
@@ -568,22 +706,27 @@ static key_numbers key_numbers_of(const jg_params *p) {
   return k;
 }
 
+/* Both thermal tolerances divided by the same factor (abs_tol too, so that
+ * it does not take over from rel_tol for x_p ~ 3e-4). */
+static jg_params tolerances_divided(const jg_params *p, double factor) {
+  jg_params tight = *p;
+  tight.thermal.rel_tol /= factor;
+  tight.thermal.abs_tol /= factor;
+  return tight;
+}
+
 /* src/PHYSICS.md §9: the defaults reach 1e-6 relative. Tightening thermal.rel_tol
  * by 100 (abs_tol too, so that it does not take over for x_p ~ 3e-4) and
  * doubling thermal.grid_points must each move z_star and x_e(z = 100) by
- * less than 1e-6 relative. Measured: z_star moves by 2e-8 (tolerances) and
- * 7e-8 (grid), x_e(100) by 2.8e-7 and 2.5e-7; the latter is the stiff
- * integrator's global error at rel_tol = 1e-8, which scatters by up to
- * ~1.5e-6 from one grid size to another (e.g. 3000 points), so this test has
- * a margin of about 4 at the defaults and no more. */
+ * less than 1e-6 relative. Measured: z_star moves by 5e-11 (tolerances) and
+ * 3e-9 (grid), x_e(100) by 1.2e-7 (the integrator's global error at the
+ * default rel_tol) and 5e-13 (the grid no longer changes the steps). */
 Test(convergence, tolerance_and_grid) {
   jg_params p;
   jg_params_set_defaults(&p);
   key_numbers base = key_numbers_of(&p);
 
-  jg_params tight = p;
-  tight.thermal.rel_tol /= 100.0;
-  tight.thermal.abs_tol /= 100.0;
+  jg_params tight = tolerances_divided(&p, 100.0);
   key_numbers t = key_numbers_of(&tight);
   assert_rel(t.z_star, base.z_star, 1e-6, "z_star, rel_tol / 100");
   assert_rel(t.x_e100, base.x_e100, 1e-6, "x_e(100), rel_tol / 100");
@@ -593,6 +736,85 @@ Test(convergence, tolerance_and_grid) {
   key_numbers f = key_numbers_of(&fine);
   assert_rel(f.z_star, base.z_star, 1e-6, "z_star, grid_points x 2");
   assert_rel(f.x_e100, base.x_e100, 1e-6, "x_e(100), grid_points x 2");
+}
+
+/* The largest relative difference between two histories over a set of
+ * redshifts, for x_e, x_p, T_gas and the optical depth. */
+typedef struct history_gap {
+  double x_e, x_p, T_gas, tau;
+} history_gap;
+
+static void widen_gap(history_gap *g, const history *a, const history *b, double z) {
+  jg_thermal_state s = state_at(a, z), t = state_at(b, z);
+  g->x_e = fmax(g->x_e, fabs(s.x_e / t.x_e - 1.0));
+  g->x_p = fmax(g->x_p, fabs(s.x_p / t.x_p - 1.0));
+  g->T_gas = fmax(g->T_gas, fabs(s.T_gas / t.T_gas - 1.0));
+  double tau_a = jg_thermal_optical_depth(a->th, z), tau_b = jg_thermal_optical_depth(b->th, z);
+  if (tau_b > 0.0) g->tau = fmax(g->tau, fabs(tau_a / tau_b - 1.0));
+}
+
+/* Every redshift the checks below look at: 2000 uniform in ln(1 + z) from
+ * 0 to 7990, and 4000 each across the two phase switches (the Saha
+ * hand-over near z = 1575, the start of the integrated T_gas near z = 790),
+ * where a cubic spline through the kink would err most. */
+static history_gap gap_between(const history *a, const history *b) {
+  history_gap g = {0, 0, 0, 0};
+  for (int i = 0; i < 2000; i++) widen_gap(&g, a, b, expm1(log(7991.0) * i / 1999.0));
+  for (int i = 0; i < 4000; i++) {
+    widen_gap(&g, a, b, 1400.0 + 400.0 * i / 3999.0);
+    widen_gap(&g, a, b, 600.0 + 400.0 * i / 3999.0);
+  }
+  return g;
+}
+
+/* src/PHYSICS.md §9: the defaults reach 1e-6 relative. The default history against
+ * one with 20 times the nodes (thermal.grid_points 30000) integrated at
+ * 1000 times tighter tolerances: x_e, x_p, T_gas and the optical depth agree
+ * to 1e-6 everywhere, the phase switches included. Measured: x_e and x_p
+ * 1.4e-7, T_gas 8e-8, tau 1.5e-7, mostly the integrator's own error at
+ * rel_tol 1e-10; the interpolation on the default grid adds at most 5e-8
+ * (the old grid of 4000 uniform nodes left 2e-5 in x_e just after the
+ * hand-over and 2e-6 in T_gas at the switch). */
+Test(convergence, default_history_against_a_dense_tight_one) {
+  jg_params p;
+  jg_params_set_defaults(&p);
+  history base = build_history(&p);
+  jg_params dense = tolerances_divided(&p, 1000.0);
+  dense.thermal.grid_points = 30000;
+  history ref = build_history(&dense);
+  history_gap g = gap_between(&base, &ref);
+  cr_assert(g.x_e <= 1e-6, "x_e differs by %.3g", g.x_e);
+  cr_assert(g.x_p <= 1e-6, "x_p differs by %.3g", g.x_p);
+  cr_assert(g.T_gas <= 1e-6, "T_gas differs by %.3g", g.T_gas);
+  cr_assert(g.tau <= 1e-6, "the optical depth differs by %.3g", g.tau);
+  free_history(&ref);
+  free_history(&base);
+}
+
+/* The stepper takes its own steps and the grid is filled from them
+ * afterwards, so the grid no longer changes the integration: histories with
+ * 500 and 6000 uniform nodes (tolerances unchanged) differ only by the
+ * interpolation between nodes. At z = 100 and 20, where the history is
+ * smooth, that is below 1e-9 (measured: 1.2e-10 for x_e(100)); the old
+ * driver, which stopped at every node, moved x_e(100) by 2.5e-7 when the
+ * grid doubled. */
+Test(convergence, grid_leaves_the_integration_alone) {
+  jg_params p;
+  jg_params_set_defaults(&p);
+  p.thermal.grid_points = 500;
+  history coarse = build_history(&p);
+  p.thermal.grid_points = 6000;
+  history fine = build_history(&p);
+  const double zs[] = {100.0, 20.0};
+  for (size_t i = 0; i < sizeof zs / sizeof zs[0]; i++) {
+    char what[64];
+    snprintf(what, sizeof what, "x_e(%g), 500 vs 6000 nodes", zs[i]);
+    assert_rel(state_at(&coarse, zs[i]).x_e, state_at(&fine, zs[i]).x_e, 1e-9, what);
+    snprintf(what, sizeof what, "T_gas(%g), 500 vs 6000 nodes", zs[i]);
+    assert_rel(state_at(&coarse, zs[i]).T_gas, state_at(&fine, zs[i]).T_gas, 1e-9, what);
+  }
+  free_history(&fine);
+  free_history(&coarse);
 }
 
 /* ---- optical depth and visibility ---------------------------------------------- */

@@ -51,7 +51,7 @@ typedef struct jg_thermal_settings {
   double quasi_static_limit; /* T_gas quasi-static while H / Gamma_C is below this */
   double rel_tol;            /* relative tolerance of the stiff integration */
   double abs_tol;            /* absolute tolerance (x_p and T_gas in K) */
-  int grid_points;           /* nodes of the stored history, uniform in ln a */
+  int grid_points;           /* stored-history nodes uniform in ln a (plus graded ones) */
 } jg_thermal_settings;
 
 /* How the gas pressure responds to a density fluctuation. */

@@ -11,7 +11,9 @@
  * with the quasi-static solution T_rad (1 - H/Gamma_C) while H/Gamma_C is below
  * thermal.quasi_static_limit. All stiff pieces use GSL's msbdf stepper with an
  * analytic Jacobian (recombination.c, gas_temperature.c); thermal.c drives
- * them and stores the history on a grid uniform in ln a, with cubic splines.
+ * them with the stepper's own steps and stores the history on a grid in ln a
+ * (uniform, graded towards the phase switches and the ends), with cubic
+ * splines.
  *
  * Above thermal.start_redshift the history is Saha equilibrium and the
  * quasi-static temperature, evaluated directly. No reionisation.

@@ -66,8 +66,10 @@ const jg__param_spec jg__param_specs[] = {
            1e-3, 0, "relative tolerance of the stiff integration"),
     NUMBER("thermal.abs_tol", thermal.abs_tol, "", "1e-12", "0 < value <= 1e-3", 0, 1, 1e-3, 0,
            "absolute tolerance of the stiff integration (x_p, and T_gas in K)"),
-    INTEGER("thermal.grid_points", thermal.grid_points, "4000", "200 <= value <= 1000000", 200,
-            1000000, "nodes of the stored history, uniform in ln a"),
+    INTEGER("thermal.grid_points", thermal.grid_points, "1500", "200 <= value <= 1000000", 200,
+            1000000,
+            "nodes of the stored history uniform in ln a (about 160 more are graded around the "
+            "phase switches and the ends)"),
 
     NUMBER("perturbations.k_min", perturbations.k_min, "1/Mpc", "1.0", "1 <= value <= 1e5",
            JG_PARAMS_K_LOWEST, 0, JG_PARAMS_K_HIGHEST, 0,
@@ -234,7 +236,7 @@ void jg_params_set_defaults(jg_params *p) {
   p->thermal.quasi_static_limit = 1e-3;
   p->thermal.rel_tol = 1e-10;
   p->thermal.abs_tol = 1e-12;
-  p->thermal.grid_points = 4000;
+  p->thermal.grid_points = 1500;
 
   p->perturbations.k_min = 1.0;
   p->perturbations.k_max = 5000.0;

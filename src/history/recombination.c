@@ -13,6 +13,7 @@
 
 #include <gsl/gsl_errno.h>
 #include <math.h>
+#include <stdbool.h>
 
 #include "jeansgrow/constants.h"
 #include "../base/alloc.h" /* last: test builds route allocations through it */
@@ -21,15 +22,29 @@
  * alpha_B = F 1e-19 a t^b / (1 + c t^d) m^3 s^-1, t = T / 1e4 K. */
 static const double PPB_A = 4.309, PPB_B = -0.6166, PPB_C = 0.6703, PPB_D = 0.5300;
 
+/* The fit from ln t alone: t^b and t^d as exp(b ln t) and exp(d ln t), two
+ * exponentials sharing one logarithm instead of two pow() calls (pow was the
+ * largest single cost of the history). *c_td receives c t^d, which the
+ * temperature derivative needs. */
+static double case_b_of_log(double ln_t, double fudge, double *c_td) {
+  *c_td = PPB_C * exp(PPB_D * ln_t);
+  return fudge * 1.0e-19 * PPB_A * exp(PPB_B * ln_t) / (1.0 + *c_td);
+}
+
+/* d alpha_B / dT from alpha_B and c t^d: d ln alpha / d ln T = b - d c t^d / (1 + c t^d). */
+static double case_b_slope(double alpha, double c_td, double T) {
+  return alpha / T * (PPB_B - PPB_D * c_td / (1.0 + c_td));
+}
+
 double jg__case_b_coefficient(double T, double fudge) {
-  double t = T / 1.0e4;
-  return fudge * 1.0e-19 * PPB_A * pow(t, PPB_B) / (1.0 + PPB_C * pow(t, PPB_D));
+  double c_td;
+  return case_b_of_log(log(T / 1.0e4), fudge, &c_td);
 }
 
 double jg__case_b_coefficient_dT(double T, double fudge) {
-  double t = T / 1.0e4;
-  double ctd = PPB_C * pow(t, PPB_D);
-  return jg__case_b_coefficient(T, fudge) / T * (PPB_B - PPB_D * ctd / (1.0 + ctd));
+  double c_td;
+  double alpha = case_b_of_log(log(T / 1.0e4), fudge, &c_td);
+  return case_b_slope(alpha, c_td, T);
 }
 
 double jg__electron_quantum_density(double T) {
@@ -39,14 +54,23 @@ double jg__electron_quantum_density(double T) {
 
 /* Saha ratios for helium per unit electron fraction:
  * n_HeII/n_HeI = A1 / x_e with statistical weights 2 * 2 / 1 = 4,
- * n_HeIII/n_HeII = A2 / x_e with weights 2 * 1 / 2 = 1. */
-void jg__helium_saha_at(const jg_background *bg, double T_rad, double n_H, double x_e,
-                        jg__helium_saha *out) {
-  const double f_He = bg->helium_to_hydrogen;
+ * n_HeIII/n_HeII = A2 / x_e with weights 2 * 1 / 2 = 1.
+ * They depend on T_rad and n_H only, so the searches for x_e below compute
+ * them (two exponentials) once and then iterate on arithmetic alone. */
+typedef struct helium_ratios {
+  double f_He, A1, A2;
+} helium_ratios;
+
+static helium_ratios helium_ratios_at(const jg_background *bg, double T_rad, double n_H) {
   const double s = jg__electron_quantum_density(T_rad) / n_H;
   const double kT = JG_K_BOLTZMANN * T_rad;
-  const double A1 = 4.0 * s * exp(-JG_E_ION_HELIUM_I / kT);
-  const double A2 = s * exp(-JG_E_ION_HELIUM_II / kT);
+  helium_ratios r = {bg->helium_to_hydrogen, 4.0 * s * exp(-JG_E_ION_HELIUM_I / kT),
+                     s * exp(-JG_E_ION_HELIUM_II / kT)};
+  return r;
+}
+
+static void helium_given_electrons(const helium_ratios *r, double x_e, jg__helium_saha *out) {
+  const double f_He = r->f_He, A1 = r->A1, A2 = r->A2;
   /* In u = 1/x_e: r1 = A1 u, r1 r2 = A1 A2 u^2. */
   const double u = 1.0 / x_e;
   const double p1 = A1 * u, p2 = A1 * A2 * u * u;
@@ -68,56 +92,76 @@ void jg__helium_saha_at(const jg_background *bg, double T_rad, double n_H, doubl
   out->d_electrons_dxe = isfinite(dq_du) ? -f_He * dq_du * u * u : 0.0;
 }
 
+void jg__helium_saha_at(const jg_background *bg, double T_rad, double n_H, double x_e,
+                        jg__helium_saha *out) {
+  helium_ratios r = helium_ratios_at(bg, T_rad, n_H);
+  helium_given_electrons(&r, x_e, out);
+}
+
 /* Hydrogen Saha: x_p x_e / (1 - x_p) = s e^(-E_ion/kT) (weights 2 * 1 / 2 = 1). */
 static double hydrogen_saha_fraction(double saha_h, double x_e) {
   return saha_h / (x_e + saha_h);
 }
 
 typedef struct electron_balance {
-  const jg_background *bg;
-  double T_rad, n_H, saha_h; /* saha_h < 0: hydrogen fixed at x_p_fixed */
-  double x_p_fixed;
+  helium_ratios helium;
+  double saha_h; /* hydrogen's Saha ratio */
 } electron_balance;
 
 /* Electrons supplied minus electrons assumed: decreasing in x_e. */
 static double electron_excess(double x_e, void *params) {
   const electron_balance *b = params;
   jg__helium_saha he;
-  jg__helium_saha_at(b->bg, b->T_rad, b->n_H, x_e, &he);
-  double x_p = b->saha_h >= 0 ? hydrogen_saha_fraction(b->saha_h, x_e) : b->x_p_fixed;
-  return x_p + he.electrons - x_e;
+  helium_given_electrons(&b->helium, x_e, &he);
+  return hydrogen_saha_fraction(b->saha_h, x_e) + he.electrons - x_e;
 }
 
 /* The Illinois variant of regula falsi: no allocation, because the thermal
- * queries above the stored grid, which cannot report a failure, solve this
- * too. Stops once the bracket is narrower than 1e-14 in x_e. */
-static int solve_electrons(electron_balance *b, double lo, double hi, double *x_e) {
-  double flo = electron_excess(lo, b), fhi = electron_excess(hi, b);
-  if (flo <= 0) { *x_e = lo; return GSL_SUCCESS; }
-  if (fhi >= 0) { *x_e = hi; return GSL_SUCCESS; }
+ * queries above the stored grid, which cannot report a failure, solve the
+ * electron balance too. */
+int jg__bracketed_root(double (*f)(double, void *), void *params, double lo, double hi,
+                       double tol, double *root) {
+  double flo = f(lo, params), fhi = f(hi, params);
+  if (!(flo * fhi <= 0)) return GSL_EINVAL; /* no sign change, or NaN */
+  if (flo == 0 || fhi == 0) {
+    *root = flo == 0 ? lo : hi;
+    return GSL_SUCCESS;
+  }
+  const bool rising = flo < 0;
   int kept = 0; /* which end the last step kept: -1 low, +1 high */
   for (int iter = 0; iter < 200; iter++) {
     double x = (lo * fhi - hi * flo) / (fhi - flo);
     if (!(x > lo && x < hi)) x = 0.5 * (lo + hi);
-    double f = electron_excess(x, b);
-    if (f == 0 || hi - lo < 1e-14) { *x_e = x; return GSL_SUCCESS; }
-    if (f > 0) {
-      lo = x, flo = f;
+    double fx = f(x, params);
+    if (fx == 0 || hi - lo < tol) {
+      *root = x;
+      return GSL_SUCCESS;
+    }
+    if (!isfinite(fx)) return GSL_EBADFUNC;
+    if ((fx < 0) == rising) {
+      lo = x, flo = fx;
       if (kept == 1) fhi *= 0.5; /* the high end is stuck: pull the secant towards it */
       kept = 1;
     } else {
-      hi = x, fhi = f;
+      hi = x, fhi = fx;
       if (kept == -1) flo *= 0.5;
       kept = -1;
     }
   }
-  *x_e = 0.5 * (lo + hi);
+  *root = 0.5 * (lo + hi);
   return GSL_EMAXITER;
+}
+
+/* x_e to 1e-14, or the end of [lo, hi] the balance does not reach. */
+static int solve_electrons(electron_balance *b, double lo, double hi, double *x_e) {
+  if (electron_excess(lo, b) <= 0) { *x_e = lo; return GSL_SUCCESS; }
+  if (electron_excess(hi, b) >= 0) { *x_e = hi; return GSL_SUCCESS; }
+  return jg__bracketed_root(electron_excess, b, lo, hi, 1e-14, x_e);
 }
 
 int jg__saha_equilibrium(const jg_background *bg, double T_rad, double n_H, double *x_e,
                          double *x_p) {
-  electron_balance b = {bg, T_rad, n_H, 0.0, 0.0};
+  electron_balance b = {helium_ratios_at(bg, T_rad, n_H), 0.0};
   b.saha_h = jg__electron_quantum_density(T_rad) / n_H *
              exp(-JG_E_ION_HYDROGEN / (JG_K_BOLTZMANN * T_rad));
   double hi = 1.0 + 2.0 * bg->helium_to_hydrogen;
@@ -129,19 +173,36 @@ int jg__saha_equilibrium(const jg_background *bg, double T_rad, double n_H, doub
 int jg__electrons_given_hydrogen(const jg_background *bg, double T_rad, double n_H, double x_p,
                                  double *x_e, double *dxe_dxp) {
   /* Once helium has recombined its electrons are below double precision
-   * next to hydrogen's: skip the root search (most of the history). */
-  jg__helium_saha he0;
-  jg__helium_saha_at(bg, T_rad, n_H, x_p, &he0);
-  if (he0.electrons < 1e-16 * x_p) {
+   * next to hydrogen's: skip the search (most of the history). */
+  const helium_ratios r = helium_ratios_at(bg, T_rad, n_H);
+  jg__helium_saha he;
+  helium_given_electrons(&r, x_p, &he);
+  if (he.electrons < 1e-16 * x_p) {
     *x_e = x_p;
     *dxe_dxp = 1.0;
     return GSL_SUCCESS;
   }
-  electron_balance b = {bg, T_rad, n_H, -1.0, x_p};
-  double hi = x_p + 2.0 * bg->helium_to_hydrogen;
-  int status = solve_electrons(&b, x_p, hi, x_e);
-  jg__helium_saha he;
-  jg__helium_saha_at(bg, T_rad, n_H, *x_e, &he);
+  /* Newton on g(x_e) = x_p + h(x_e) - x_e, which falls with slope
+   * h' - 1 <= -1, kept inside the bracket [x_p, x_p + h(x_p)] (h falls as
+   * x_e grows) by bisection when a step would leave it. */
+  double lo = x_p, hi = x_p + he.electrons, x = hi;
+  int status = GSL_EMAXITER;
+  for (int iter = 0; iter < 100; iter++) {
+    helium_given_electrons(&r, x, &he);
+    const double g = x_p + he.electrons - x;
+    if (g > 0) lo = x;
+    else hi = x;
+    double next = x - g / (he.d_electrons_dxe - 1.0);
+    if (!(next > lo && next < hi)) next = 0.5 * (lo + hi);
+    const bool converged = fabs(next - x) <= 1e-15 * x || hi - lo <= 1e-15 * x;
+    x = next;
+    if (converged) {
+      status = GSL_SUCCESS;
+      break;
+    }
+  }
+  helium_given_electrons(&r, x, &he);
+  *x_e = x;
   /* x_e = x_p + h(x_e)  =>  dx_e/dx_p = 1 / (1 - h'(x_e)); h' <= 0. */
   *dxe_dxp = 1.0 / (1.0 - he.d_electrons_dxe);
   return status;
@@ -150,13 +211,17 @@ int jg__electrons_given_hydrogen(const jg_background *bg, double T_rad, double n
 void jg__peebles_rate_at(double x_p, double x_e, double dxe_dxp, double T_gas, double T_rad,
                          double n_H, double hubble, double fudge, jg__peebles_rate *out) {
   const double kT = JG_K_BOLTZMANN * T_rad;
-  const double alpha = jg__case_b_coefficient(T_gas, fudge);
-  const double alpha_rad = jg__case_b_coefficient(T_rad, fudge);
+  double c_td_gas, c_td_rad;
+  const double alpha = case_b_of_log(log(T_gas / 1.0e4), fudge, &c_td_gas);
+  const double alpha_rad = case_b_of_log(log(T_rad / 1.0e4), fudge, &c_td_rad);
   const double quantum = jg__electron_quantum_density(T_rad);
-  const double beta = alpha_rad * quantum * exp(-0.25 * JG_E_ION_HYDROGEN / kT);
-  /* beta exp(-E_21/kT) written as one exponential so that it underflows
-   * cleanly to zero at low temperature instead of multiplying 0 by inf. */
-  const double beta_boltz = alpha_rad * quantum * exp(-JG_E_ION_HYDROGEN / kT);
+  /* exp(-E_ion/kT) as the fourth power of exp(-E_ion/4kT): one exponential
+   * for both; it still underflows cleanly to zero at low temperature, so
+   * beta exp(-E_21/kT) never multiplies 0 by inf. */
+  const double boltzmann_n2 = exp(-0.25 * JG_E_ION_HYDROGEN / kT);
+  const double boltzmann_n2_sq = boltzmann_n2 * boltzmann_n2;
+  const double beta = alpha_rad * quantum * boltzmann_n2;
+  const double beta_boltz = alpha_rad * quantum * (boltzmann_n2_sq * boltzmann_n2_sq);
   const double lambda3 = JG_LAMBDA_LYMAN_ALPHA * JG_LAMBDA_LYMAN_ALPHA * JG_LAMBDA_LYMAN_ALPHA;
   const double K = lambda3 / (8.0 * JG_PI * hubble);
   const double u = K * n_H * (1.0 - x_p);
@@ -168,5 +233,5 @@ void jg__peebles_rate_at(double x_p, double x_e, double dxe_dxp, double T_gas, d
   const double dC_dxp = beta * K * n_H / (denom * denom);
   const double dB_dxp = alpha * n_H * (x_e + x_p * dxe_dxp) + beta_boltz;
   out->d_dxp = -dC_dxp * B - C * dB_dxp;
-  out->d_dTgas = -C * jg__case_b_coefficient_dT(T_gas, fudge) * n_H * x_e * x_p;
+  out->d_dTgas = -C * case_b_slope(alpha, c_td_gas, T_gas) * n_H * x_e * x_p;
 }

@@ -25,6 +25,12 @@ typedef struct jg__helium_saha {
 void jg__helium_saha_at(const jg_background *bg, double T_rad, double n_H, double x_e,
                         jg__helium_saha *out);
 
+/* The root of f in [lo, hi], where f changes sign, to a bracket narrower
+ * than tol (Illinois regula falsi; allocates nothing). GSL_EINVAL without a
+ * sign change, GSL_EBADFUNC if f is not finite inside. */
+int jg__bracketed_root(double (*f)(double, void *), void *params, double lo, double hi,
+                       double tol, double *root);
+
 /* Joint Saha equilibrium of hydrogen and helium: x_e and x_p at T_rad, n_H. */
 int jg__saha_equilibrium(const jg_background *bg, double T_rad, double n_H, double *x_e,
                          double *x_p);

@@ -1,17 +1,22 @@
 /*
  * The ionisation and gas-temperature history: drives the atomic physics of
  * recombination.c and the Compton balance of gas_temperature.c from
- * thermal.start_redshift to z = 0, and stores the result on a grid uniform
- * in ln a (cubic splines of ln x_e, ln x_p and ln T_gas).
+ * thermal.start_redshift to z = 0, and stores the result on a grid in ln a
+ * (cubic splines of ln x_e, ln x_p and ln T_gas).
  *
- * Three phases, switched at grid nodes:
+ * Three phases, switched where their criteria cross (located by regula
+ * falsi, not at a grid node):
  *   1. hydrogen and helium in Saha equilibrium, T_gas quasi-static
  *      (while the Saha x_p exceeds thermal.saha_limit);
  *   2. x_p from the Peebles equation (msbdf, analytic Jacobian), helium in
  *      Saha equilibrium, T_gas quasi-static (while H/Gamma_C is below
  *      thermal.quasi_static_limit);
  *   3. x_p and T_gas integrated together (msbdf, analytic Jacobian).
- * The stored x_e always includes the helium electrons.
+ * The stepper takes its own steps (about 950 at the defaults); every step is
+ * kept and the grid is filled afterwards from their cubic Hermite
+ * interpolants. The grid is thermal.grid_points nodes uniform in ln a plus
+ * nodes graded towards the two switches and the two ends. The stored x_e
+ * always includes the helium electrons.
  *
  * Optical depth and drag depth are integrated from the splines
  * (gsl_spline_eval_integ), from today backwards; there is no reionisation.
@@ -23,6 +28,7 @@
 #include <gsl/gsl_odeiv2.h>
 #include <gsl/gsl_spline.h>
 #include <math.h>
+#include <stdbool.h>
 #include <stdlib.h>
 #include <string.h>
 
@@ -168,19 +174,6 @@ static jg_status check_settings(const jg_thermal_settings *s, jg_error *err) {
   return jg_params_check_thermal(s, err);
 }
 
-/* Integrate one ODE phase from x to x_next; name the stage on failure. */
-static jg_status advance(gsl_odeiv2_driver *d, double *x, double x_next, double *y,
-                         const char *stage, jg_error *err) {
-  double x_from = *x;
-  int st = gsl_odeiv2_driver_apply(d, x, x_next, y);
-  if (st != GSL_SUCCESS)
-    return JG_FAIL(err, JG_ENUMERIC,
-                   "thermal history (%s): stiff integration failed between z = %.3f and "
-                   "z = %.3f (%s)",
-                   stage, z_of_ln_a(x_from), z_of_ln_a(x_next), gsl_strerror(st));
-  return JG_OK;
-}
-
 static jg_status build_spline(gsl_spline **out, const double *x, const double *y, int n,
                               jg_error *err) {
   *out = gsl_spline_alloc(gsl_interp_cspline, (size_t)n);
@@ -221,6 +214,304 @@ static jg_status integrate_depths(jg_thermal *th, const double *x_e, jg_error *e
   return st;
 }
 
+/* ------------------------------------------------------------------------ */
+/* The driver. msbdf takes its own steps from the hand-over to today and
+ * every accepted step is kept (both ends, values and d/d ln a): a cubic
+ * Hermite interpolant over each step is the dense output from which the
+ * stored nodes are filled afterwards. So the grid does not limit the steps,
+ * the phases switch where their criteria cross (not at a node), and the
+ * grid can be refined where the history has a kink. */
+
+/* First trial step in ln a after a (re)start; msbdf adapts it at once. */
+static const double HISTORY_FIRST_STEP = 1e-4;
+/* Longest step in ln a. It bounds the interpolant's error (~ h^4 y''''/384,
+ * about 2e-6 for x_p varying on ln a scales of 0.3) at loose
+ * thermal.rel_tol; at the default tolerances no step reaches it (measured:
+ * about 950 steps, the same with the cap at 0.2 or 1). */
+static const double HISTORY_MAX_STEP = 0.05;
+/* The phase switches are located to this in ln a. */
+static const double CROSSING_TOL = 1e-12;
+
+/* One accepted step: both ends, for the interpolant. */
+typedef struct step_span {
+  double x0, x1;
+  double y0[2], y1[2], f0[2], f1[2];
+} step_span;
+
+static double hermite_at(const step_span *s, int k, double x) {
+  const double h = s->x1 - s->x0, t = (x - s->x0) / h, t2 = t * t, t3 = t2 * t;
+  return (2.0 * t3 - 3.0 * t2 + 1.0) * s->y0[k] + (t3 - 2.0 * t2 + t) * h * s->f0[k] +
+         (3.0 * t2 - 2.0 * t3) * s->y1[k] + (t3 - t2) * h * s->f1[k];
+}
+
+typedef struct history_run {
+  const jg_background *bg;
+  const jg_thermal_settings *settings;
+  history_system sys;
+  double x_handover; /* Saha -> Peebles (x_p = thermal.saha_limit) */
+  double x_weak;     /* quasi-static -> integrated T_gas (H/Gamma_C = thermal.quasi_static_limit) */
+  step_span *spans;  /* phase 2 spans, then phase 3 spans from first_integrated_T */
+  size_t n_spans, capacity, first_integrated_T;
+} history_run;
+
+static jg_status keep_span(history_run *r, const step_span *s, jg_error *err) {
+  if (r->n_spans == r->capacity) {
+    size_t capacity = r->capacity ? 2 * r->capacity : 1024;
+    step_span *grown = realloc(r->spans, capacity * sizeof *grown);
+    if (!grown) return JG_FAIL(err, JG_ENOMEM, "out of memory for the thermal history steps");
+    r->spans = grown;
+    r->capacity = capacity;
+  }
+  r->spans[r->n_spans++] = *s;
+  return JG_OK;
+}
+
+/* ---- phase 1: Saha equilibrium, evaluated directly ---- */
+
+static double saha_hydrogen_at(const jg_background *bg, double x, double *x_e) {
+  double a = exp(x), x_p = NAN;
+  if (jg__saha_equilibrium(bg, jg_background_T_radiation(bg, a), jg_background_n_hydrogen(bg, a),
+                           x_e, &x_p) != GSL_SUCCESS)
+    return NAN;
+  return x_p;
+}
+
+static double saha_excess(double x, void *p) {
+  const history_run *r = p;
+  double x_e;
+  return saha_hydrogen_at(r->bg, x, &x_e) - r->settings->saha_limit;
+}
+
+/* H / Gamma_C minus thermal.quasi_static_limit at hydrogen fraction x_p:
+ * positive once T_gas must be integrated. */
+static double weak_coupling_excess(const history_run *r, double x, double x_p) {
+  local_state ls;
+  if (local_state_at(&r->sys, x, x_p, &ls) != GSL_SUCCESS) return NAN;
+  return ls.H / ls.compton - r->settings->quasi_static_limit;
+}
+
+/* Where the Saha x_p falls to thermal.saha_limit (the start if it already
+ * has; today if it never does). The Saha x_p falls monotonically with time. */
+static jg_status locate_handover(history_run *r, double x_start, jg_error *err) {
+  const double at_start = saha_excess(x_start, r), today = saha_excess(0.0, r);
+  if (!isfinite(at_start) || !isfinite(today))
+    return JG_FAIL(err, JG_ENUMERIC, "thermal history (Saha equilibrium): no solution at z = %.3f",
+                   z_of_ln_a(isfinite(at_start) ? 0.0 : x_start));
+  if (at_start <= 0.0 || today > 0.0) {
+    r->x_handover = at_start <= 0.0 ? x_start : 0.0;
+  } else {
+    if (jg__bracketed_root(saha_excess, r, x_start, 0.0, CROSSING_TOL, &r->x_handover) !=
+        GSL_SUCCESS)
+      return JG_FAIL(err, JG_ENUMERIC,
+                     "thermal history (Saha equilibrium): cannot locate x_p = %g below z = %.3f",
+                     r->settings->saha_limit, z_of_ln_a(x_start));
+  }
+  /* H/Gamma_C only grows with time: checking the end of the Saha phase
+   * checks all of it. */
+  double x_e, x_p = saha_hydrogen_at(r->bg, r->x_handover, &x_e);
+  const double excess = weak_coupling_excess(r, r->x_handover, x_p);
+  if (excess >= 0.0) /* never for sane input */
+    return JG_FAIL(err, JG_ENUMERIC,
+                   "thermal history: Compton coupling weak (H/Gamma_C = %g) while hydrogen is "
+                   "still in Saha equilibrium at z = %.1f",
+                   excess + r->settings->quasi_static_limit, z_of_ln_a(r->x_handover));
+  return JG_OK;
+}
+
+/* ---- phases 2 and 3: the stepper's own steps ---- */
+
+static jg_status unusable_state(double x, double x_p, jg_error *err) {
+  return JG_FAIL(err, JG_ENUMERIC, "thermal history: x_p = %g unusable at z = %.3f", x_p,
+                 z_of_ln_a(x));
+}
+
+typedef struct coupling_crossing {
+  const history_run *r;
+  const step_span *s;
+} coupling_crossing;
+
+static double weak_coupling_in_step(double x, void *p) {
+  const coupling_crossing *c = p;
+  return weak_coupling_excess(c->r, x, hermite_at(c->s, 0, x));
+}
+
+/* Integrate one phase from (*x, y) to today, keeping every step. Phase 2
+ * (dimension 1) stops where the Compton coupling becomes weak and leaves
+ * *x and y[0] there. */
+static jg_status run_phase(history_run *r, gsl_odeiv2_driver *d, const char *stage, double *x,
+                           double y[2], jg_error *err) {
+  const gsl_odeiv2_system *sys = d->sys;
+  const size_t dim = sys->dimension;
+  step_span s;
+  s.x0 = *x;
+  memcpy(s.y0, y, dim * sizeof *y);
+  if (sys->function(s.x0, s.y0, s.f0, sys->params) != GSL_SUCCESS)
+    return unusable_state(s.x0, y[0], err);
+  gsl_odeiv2_driver_reset_hstart(d, HISTORY_FIRST_STEP);
+  while (*x < 0.0) {
+    if (d->h > HISTORY_MAX_STEP) d->h = HISTORY_MAX_STEP;
+    const double x_from = *x, h_tried = d->h;
+    int st = gsl_odeiv2_evolve_apply(d->e, d->c, d->s, sys, x, 0.0, &d->h, y);
+    if (st != GSL_SUCCESS)
+      return JG_FAIL(err, JG_ENUMERIC,
+                     "thermal history (%s): stiff integration failed between z = %.3f and "
+                     "z = %.3f (%s)",
+                     stage, z_of_ln_a(x_from), z_of_ln_a(fmin(x_from + h_tried, 0.0)),
+                     gsl_strerror(st));
+    s.x1 = *x;
+    memcpy(s.y1, y, dim * sizeof *y);
+    if (sys->function(s.x1, s.y1, s.f1, sys->params) != GSL_SUCCESS)
+      return unusable_state(s.x1, y[0], err);
+    jg_status ks = keep_span(r, &s, err);
+    if (ks != JG_OK) return ks;
+    if (dim == 1 && weak_coupling_excess(r, s.x1, s.y1[0]) >= 0.0) {
+      coupling_crossing c = {r, &s};
+      if (jg__bracketed_root(weak_coupling_in_step, &c, s.x0, s.x1, CROSSING_TOL, &r->x_weak) !=
+          GSL_SUCCESS)
+        return JG_FAIL(err, JG_ENUMERIC,
+                       "thermal history (%s): cannot locate H/Gamma_C = %g between z = %.3f and "
+                       "z = %.3f",
+                       stage, r->settings->quasi_static_limit, z_of_ln_a(s.x0), z_of_ln_a(s.x1));
+      *x = r->x_weak;
+      y[0] = hermite_at(&s, 0, r->x_weak);
+      return JG_OK;
+    }
+    s.x0 = s.x1;
+    memcpy(s.y0, s.y1, sizeof s.y0);
+    memcpy(s.f0, s.f1, sizeof s.f0);
+  }
+  return JG_OK;
+}
+
+/* The three phases from x_start to today; the steps are kept in r. */
+static jg_status integrate_history(history_run *r, double x_start, jg_error *err) {
+  r->x_weak = 0.0;
+  jg_status st = locate_handover(r, x_start, err);
+  if (st != JG_OK || r->x_handover >= 0.0) return st;
+  gsl_odeiv2_system ode_h = {rhs_hydrogen, jac_hydrogen, 1, &r->sys};
+  gsl_odeiv2_system ode_ht = {rhs_hydrogen_temperature, jac_hydrogen_temperature, 2, &r->sys};
+  const jg_thermal_settings *set = r->settings;
+  gsl_odeiv2_driver *drv_h = gsl_odeiv2_driver_alloc_y_new(
+      &ode_h, gsl_odeiv2_step_msbdf, HISTORY_FIRST_STEP, set->abs_tol, set->rel_tol);
+  gsl_odeiv2_driver *drv_ht = gsl_odeiv2_driver_alloc_y_new(
+      &ode_ht, gsl_odeiv2_step_msbdf, HISTORY_FIRST_STEP, set->abs_tol, set->rel_tol);
+  if (!drv_h || !drv_ht) st = JG_FAIL(err, JG_ENOMEM, "out of memory for the ODE drivers");
+
+  double x = r->x_handover, x_e;
+  double y[2] = {saha_hydrogen_at(r->bg, x, &x_e), 0.0};
+  if (st == JG_OK) st = run_phase(r, drv_h, "hydrogen recombination", &x, y, err);
+  r->first_integrated_T = r->n_spans;
+  if (st == JG_OK && x < 0.0) {
+    local_state ls;
+    if (local_state_at(&r->sys, x, y[0], &ls) != GSL_SUCCESS) {
+      st = unusable_state(x, y[0], err);
+    } else {
+      y[1] = jg__gas_temperature_quasi_static(ls.T_rad, ls.H, ls.compton);
+      st = run_phase(r, drv_ht, "hydrogen and gas temperature", &x, y, err);
+    }
+  }
+  if (drv_h) gsl_odeiv2_driver_free(drv_h); /* GSL's free does not take NULL */
+  if (drv_ht) gsl_odeiv2_driver_free(drv_ht);
+  return st;
+}
+
+/* ---- the stored grid ---- */
+
+/* A cubic spline through a kink (the two phase switches) or next to a
+ * natural end condition (the two ends) errs by ~ (slope jump or h^2 y'') x
+ * the node spacing h, and that error decays only by a factor ~0.27 per node
+ * away from it; right after the hand-over x_p also relaxes from Saha onto
+ * the Peebles track within ~0.01 in ln a. So besides thermal.grid_points
+ * nodes uniform in ln a the grid gets graded nodes on each side of those
+ * four places, at distances GRADED_FINEST x GRADED_RATIO^k up to
+ * GRADED_WIDTH: the local spacing is a third of the distance, the error
+ * scales with the finest spacing and still dies away (ratio^2 x 0.27 < 1
+ * per node), whatever the uniform spacing. */
+static const double GRADED_FINEST = 1e-6, GRADED_RATIO = 1.5, GRADED_WIDTH = 0.05;
+
+static int compare_doubles(const void *a, const void *b) {
+  double x = *(const double *)a, y = *(const double *)b;
+  return (x > y) - (x < y);
+}
+
+static jg_status build_grid(jg_thermal *th, const history_run *r, int uniform, jg_error *err) {
+  const double start = th->ln_a_start;
+  const double places[] = {start, r->x_handover, r->x_weak, 0.0};
+  const int n_places = (int)(sizeof places / sizeof places[0]);
+  int graded_per_side = 0;
+  for (double offset = GRADED_FINEST; offset < GRADED_WIDTH; offset *= GRADED_RATIO)
+    graded_per_side++;
+  const int capacity = uniform + n_places * (2 * graded_per_side + 1);
+  th->ln_a = malloc(sizeof(double) * (size_t)capacity);
+  if (!th->ln_a) return JG_FAIL(err, JG_ENOMEM, "out of memory for the thermal history");
+  int n = 0;
+  for (int i = 0; i < uniform; i++) th->ln_a[n++] = start * (1.0 - (double)i / (uniform - 1));
+  th->ln_a[uniform - 1] = 0.0;
+  for (int p = 0; p < n_places; p++) {
+    const double at = places[p];
+    if (p == 1 || p == 2) {
+      if (!(at > start && at < 0.0)) continue; /* no such switch inside the grid */
+      th->ln_a[n++] = at;
+    }
+    for (double offset = GRADED_FINEST; offset < GRADED_WIDTH; offset *= GRADED_RATIO) {
+      if (at - offset > start) th->ln_a[n++] = at - offset;
+      if (at + offset < 0.0) th->ln_a[n++] = at + offset;
+    }
+  }
+  /* The uniform nodes are in order already: sort the few graded ones and
+   * merge, dropping nodes that (nearly) repeat one (the spline needs strictly
+   * increasing abscissae). */
+  double *merged = malloc(sizeof(double) * (size_t)n);
+  if (!merged) return JG_FAIL(err, JG_ENOMEM, "out of memory for the thermal history");
+  double *graded = th->ln_a + uniform;
+  qsort(graded, (size_t)(n - uniform), sizeof *graded, compare_doubles);
+  const double too_close = 1e-3 * GRADED_FINEST;
+  int kept = 0;
+  for (int i = 0, j = 0; i < uniform || j < n - uniform;) {
+    const double next = j >= n - uniform || (i < uniform && th->ln_a[i] <= graded[j])
+                            ? th->ln_a[i++]
+                            : graded[j++];
+    if (kept == 0 || next - merged[kept - 1] > too_close) merged[kept++] = next;
+  }
+  free(th->ln_a);
+  th->ln_a = merged;
+  th->ln_a[kept - 1] = 0.0;
+  th->n = kept;
+  return JG_OK;
+}
+
+/* Node values: Saha up to the hand-over, then the kept steps. */
+static jg_status fill_nodes(const history_run *r, const jg_thermal *th, double *x_e, double *x_p,
+                            double *T_gas, jg_error *err) {
+  size_t j = 0;
+  for (int i = 0; i < th->n; i++) {
+    const double x = th->ln_a[i];
+    local_state ls;
+    if (x <= r->x_handover) {
+      x_p[i] = saha_hydrogen_at(r->bg, x, &x_e[i]);
+      if (!isfinite(x_p[i]))
+        return JG_FAIL(err, JG_ENUMERIC,
+                       "thermal history (Saha equilibrium): no solution at z = %.3f", z_of_ln_a(x));
+      const double a = exp(x), T_rad = jg_background_T_radiation(r->bg, a);
+      const double H = jg_background_hubble(r->bg, a);
+      T_gas[i] = jg__gas_temperature_quasi_static(T_rad, H, jg__compton_rate(r->bg, T_rad, x_e[i]));
+      continue;
+    }
+    const bool integrated_T = r->x_weak < 0.0 && x > r->x_weak;
+    const size_t end = integrated_T ? r->n_spans : r->first_integrated_T;
+    if (integrated_T && j < r->first_integrated_T) j = r->first_integrated_T;
+    while (j + 1 < end && r->spans[j].x1 < x) j++;
+    const step_span *s = &r->spans[j];
+    x_p[i] = hermite_at(s, 0, x);
+    if (local_state_at(&r->sys, x, x_p[i], &ls) != GSL_SUCCESS)
+      return unusable_state(x, x_p[i], err);
+    x_e[i] = ls.x_e;
+    T_gas[i] = integrated_T ? hermite_at(s, 1, x)
+                            : jg__gas_temperature_quasi_static(ls.T_rad, ls.H, ls.compton);
+  }
+  return JG_OK;
+}
+
 jg_thermal *jg_thermal_new(const jg_background *bg, const jg_thermal_settings *settings,
                            jg_error *err) {
   if (!bg || !settings) {
@@ -235,88 +526,18 @@ jg_thermal *jg_thermal_new(const jg_background *bg, const jg_thermal_settings *s
   }
   th->bg = bg;
   th->settings = *settings;
-  th->n = settings->grid_points;
   th->ln_a_start = -log1p(settings->start_redshift);
-  const int n = th->n;
-  th->ln_a = malloc(sizeof(double) * (size_t)n);
-  double *work = malloc(sizeof(double) * (size_t)n * 3);
-  if (!th->ln_a || !work) {
-    free(work);
-    jg_thermal_free(th);
-    JG_FAIL(err, JG_ENOMEM, "out of memory for the thermal history");
-    return NULL;
-  }
-  double *x_e = work, *x_p = work + n, *T_gas = work + 2 * n;
-  for (int i = 0; i < n; i++) th->ln_a[i] = th->ln_a_start * (1.0 - (double)i / (n - 1));
-  th->ln_a[n - 1] = 0.0;
-
-  history_system sys = {bg, settings->recombination_fudge, 0.0};
-  gsl_odeiv2_system ode_h = {rhs_hydrogen, jac_hydrogen, 1, &sys};
-  gsl_odeiv2_system ode_ht = {rhs_hydrogen_temperature, jac_hydrogen_temperature, 2, &sys};
-  const double h0 = 1e-4;
-  gsl_odeiv2_driver *drv_h = gsl_odeiv2_driver_alloc_y_new(
-      &ode_h, gsl_odeiv2_step_msbdf, h0, settings->abs_tol, settings->rel_tol);
-  gsl_odeiv2_driver *drv_ht = gsl_odeiv2_driver_alloc_y_new(
-      &ode_ht, gsl_odeiv2_step_msbdf, h0, settings->abs_tol, settings->rel_tol);
-  jg_status st = (drv_h && drv_ht) ? JG_OK
-                                   : JG_FAIL(err, JG_ENOMEM, "out of memory for the ODE drivers");
-
-  int phase = 1;
-  double y[2] = {0, 0};
-  double x = th->ln_a[0];
-  for (int i = 0; st == JG_OK && i < n; i++) {
-    const double xi = th->ln_a[i], a = exp(xi), z = z_of_ln_a(xi);
-    const double T_rad = jg_background_T_radiation(bg, a);
-    const double n_H = jg_background_n_hydrogen(bg, a);
-    const double H = jg_background_hubble(bg, a);
-    if (phase == 1) {
-      if (jg__saha_equilibrium(bg, T_rad, n_H, &x_e[i], &x_p[i]) != GSL_SUCCESS) {
-        st = JG_FAIL(err, JG_ENUMERIC, "thermal history (Saha equilibrium): no solution at z = %.3f", z);
-        break;
-      }
-      if (x_p[i] <= settings->saha_limit && i > 0) {
-        /* Hand over at the previous node, where Saha still held. */
-        phase = 2;
-        x = th->ln_a[i - 1];
-        y[0] = x_p[i - 1];
-        gsl_odeiv2_driver_reset(drv_h);
-      }
-    }
-    if (phase == 2) {
-      st = advance(drv_h, &x, xi, y, "hydrogen recombination", err);
-      if (st != JG_OK) break;
-      double dummy;
-      x_p[i] = y[0];
-      jg__electrons_given_hydrogen(bg, T_rad, n_H, x_p[i], &x_e[i], &dummy);
-    }
-    double compton = jg__compton_rate(bg, T_rad, x_e[i]);
-    if (phase < 3 && H / compton < settings->quasi_static_limit) {
-      T_gas[i] = jg__gas_temperature_quasi_static(T_rad, H, compton);
-      continue;
-    }
-    if (phase < 3) {
-      if (phase == 1) { /* Compton coupling lost before hydrogen left Saha: never for sane input */
-        st = JG_FAIL(err, JG_ENUMERIC,
-                     "thermal history: Compton coupling weak (H/Gamma_C = %g) while hydrogen is "
-                     "still in Saha equilibrium at z = %.1f",
-                     H / compton, z);
-        break;
-      }
-      phase = 3;
-      x = xi;
-      y[0] = x_p[i];
-      y[1] = jg__gas_temperature_quasi_static(T_rad, H, compton);
-      gsl_odeiv2_driver_reset(drv_ht);
-    }
-    st = advance(drv_ht, &x, xi, y, "hydrogen and gas temperature", err);
-    if (st != JG_OK) break;
-    x_p[i] = y[0];
-    T_gas[i] = y[1];
-    double dummy;
-    jg__electrons_given_hydrogen(bg, T_rad, n_H, x_p[i], &x_e[i], &dummy);
-  }
-  if (drv_h) gsl_odeiv2_driver_free(drv_h); /* GSL's free does not take NULL */
-  if (drv_ht) gsl_odeiv2_driver_free(drv_ht);
+  history_run run = {bg, settings, {bg, settings->recombination_fudge, 0.0}, 0.0, 0.0,
+                     NULL, 0, 0, 0};
+  jg_status st = integrate_history(&run, th->ln_a_start, err);
+  if (st == JG_OK) st = build_grid(th, &run, settings->grid_points, err);
+  const int n = st == JG_OK ? th->n : 0;
+  double *work = NULL;
+  if (st == JG_OK && !(work = malloc(sizeof(double) * (size_t)n * 3)))
+    st = JG_FAIL(err, JG_ENOMEM, "out of memory for the thermal history");
+  double *x_e = work, *x_p = work ? work + n : NULL, *T_gas = work ? work + 2 * n : NULL;
+  if (st == JG_OK) st = fill_nodes(&run, th, x_e, x_p, T_gas, err);
+  free(run.spans);
 
   if (st == JG_OK) {
     double *tmp = malloc(sizeof(double) * (size_t)n);
