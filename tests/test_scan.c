@@ -933,6 +933,82 @@ Test(scan, program_slices_merge_into_the_whole_file) {
   remove_dir(dir);
 }
 
+/* A merge refuses, with exit 2, the file and the line, every slice that is
+ * not exactly what a scan writes, and writes nothing then. */
+static void expect_merge_refused(const char *dir, const char *const *args, const char *message) {
+  outcome o = run_program(dir, args);
+  cr_expect_eq(exit_code(&o), 2, "merge %s: exit %d: %s", args[3], exit_code(&o), o.err);
+  cr_expect(strstr(o.err, message), "merge %s: expected '%s' in: %s", args[3], message, o.err);
+  free(o.err);
+}
+
+Test(scan, program_merge_refuses_torn_nan_missing_endless_and_overwriting_slices) {
+  char dir[64], merged[128], parts[2][128], bad[128];
+  make_dir(dir, sizeof dir);
+  path_in(merged, sizeof merged, dir, "merged.txt");
+  path_in(bad, sizeof bad, dir, "bad.txt");
+  for (int i = 0; i < 2; i++) {
+    char name[32], part[8];
+    snprintf(name, sizeof name, "part%d.txt", i + 1);
+    snprintf(part, sizeof part, "%d/2", i + 1);
+    path_in(parts[i], sizeof parts[i], dir, name);
+    const char *a_part[] = {SCAN_ARGS(parts[i]), "--part", part, NULL};
+    outcome o = run_program(dir, a_part);
+    cr_assert_eq(exit_code(&o), 0, "%s", o.err);
+    free(o.err);
+  }
+  char *second = read_file(parts[1]);
+  cr_assert_not_null(second);
+  size_t len = strlen(second);
+  char *last_row = second + len - 1;
+  while (last_row > second && last_row[-1] != '\n') last_row--;
+  long line = 0;
+  for (const char *t = second; t < last_row; t++) line += *t == '\n';
+  char where[160];
+  snprintf(where, sizeof where, "%s:%ld: ", bad, line + 1);
+  const char *a_bad[] = {JG_PROGRAM, "merge", merged, bad, parts[0], NULL};
+
+  /* Cut in the middle of the last row (a kill or a full disk). */
+  second[len - 7] = '\0';
+  write_file(bad, second);
+  second[len - 7] = '0';
+  char message[256];
+  snprintf(message, sizeof message, "%sthe last row is cut short", where);
+  expect_merge_refused(dir, a_bad, message);
+
+  /* A value edited to nan (and to inf): no NaN ever reaches a table. */
+  const char *const non_finite[] = {"nan", "-inf"};
+  for (int k = 0; k < 2; k++) {
+    char *edited = malloc(len + 8);
+    cr_assert_not_null(edited);
+    snprintf(edited, len + 8, "%.*s%s%s", (int)(last_row - second), second, non_finite[k],
+             strchr(last_row, '\t'));
+    write_file(bad, edited);
+    free(edited);
+    snprintf(message, sizeof message, "%scolumn 1 holds '%s', not a finite number", where,
+             non_finite[k]);
+    expect_merge_refused(dir, a_bad, message);
+  }
+
+  /* A missing slice is bad input like any missing input (exit 2). */
+  remove(bad);
+  expect_merge_refused(dir, a_bad, "bad.txt: cannot read the slice (No such file or directory)");
+
+  /* An endless device would be read forever: only regular files are slices. */
+  const char *a_zero[] = {JG_PROGRAM, "merge", merged, "/dev/zero", parts[0], NULL};
+  expect_merge_refused(dir, a_zero, "/dev/zero: not a slice of a jeansgrow scan (it is a device");
+  cr_assert(!exists(merged));
+
+  /* The output may not be one of the slices: it would be lost. */
+  const char *a_onto[] = {JG_PROGRAM, "merge", parts[1], parts[0], parts[1], NULL};
+  expect_merge_refused(dir, a_onto, "is the slice");
+  char *after = read_file(parts[1]);
+  cr_assert_str_eq(after, second, "the slice named as output was changed");
+  free(after);
+  free(second);
+  remove_dir(dir);
+}
+
 /* Every `jeansgrow scales` column of every grid point, as text, equals the
  * scan's: both format the same doubles with %.10e, so the comparison is
  * exact. The scan row is: varied value, z, z_star, z_drag, z_gas_decoupling,

@@ -445,6 +445,24 @@ int cmd_scan(const cli_command *cmd, int argc, char **argv) {
 
 /* ---- merge ------------------------------------------------------------- */
 
+/* The merged table replaces its output only at the end, but by then the
+ * slice it names would be gone for good: an output that is one of the
+ * slices (the same file, under any name or link) is refused before
+ * anything is written. Returns -1 to go on, else the exit status. */
+static int refuse_output_among_slices(const char *output, char *const *slices, int n) {
+  struct stat out_sb, slice_sb;
+  if (!output || stat(output, &out_sb) != 0) return -1;
+  for (int i = 0; i < n; i++) {
+    if (stat(slices[i], &slice_sb) == 0 && slice_sb.st_dev == out_sb.st_dev &&
+        slice_sb.st_ino == out_sb.st_ino) {
+      fprintf(stderr, "jeansgrow merge: the output %s is the slice %s; write the merged table "
+                      "to a new file\n", output, slices[i]);
+      return EXIT_BAD_INPUT;
+    }
+  }
+  return -1;
+}
+
 int cmd_merge(const cli_command *cmd, int argc, char **argv) {
   for (int i = 1; i < argc; i++) {
     if (strcmp(argv[i], "-h") == 0 || strcmp(argv[i], "--help") == 0) {
@@ -453,6 +471,7 @@ int cmd_merge(const cli_command *cmd, int argc, char **argv) {
       return EXIT_OK;
     }
   }
+  int rc;
   if (argc < 3) {
     fprintf(stderr, "jeansgrow merge: give the output and the slice files (usage: jeansgrow "
                     "merge %s)\n", cmd->usage);
@@ -461,9 +480,9 @@ int cmd_merge(const cli_command *cmd, int argc, char **argv) {
   cli_options o;
   memset(&o, 0, sizeof o);
   o.output_path = strcmp(argv[1], "-") == 0 ? NULL : argv[1];
+  if ((rc = refuse_output_among_slices(o.output_path, argv + 2, argc - 2)) >= 0) return rc;
   jg_output *out = NULL;
-  int rc = cli_open_output(&o, &out);
-  if (rc >= 0) return rc;
+  if ((rc = cli_open_output(&o, &out)) >= 0) return rc;
   jg_error err;
   jg_error_clear(&err);
   jg_status st = jg_scan_merge((const char *const *)(argv + 2), argc - 2, jg_output_stream(out),

@@ -1509,12 +1509,70 @@ static int push_line(char ***v, int *n, const char *line) {
   return 1;
 }
 
+/* Open a slice for reading. Only a regular file can be a slice: a device
+ * such as /dev/zero would be read forever, and a named pipe would block at
+ * the open (hence O_NONBLOCK, cleared once the file is known to be regular).
+ * A slice that cannot be opened is bad input, like any missing input. */
+static jg_status open_part(part_file *p, const char *path, jg_error *err) {
+  int fd = open(path, O_RDONLY | O_NONBLOCK | O_CLOEXEC | O_NOCTTY);
+  if (fd < 0)
+    return JG_FAIL(err, errno == ENOMEM ? JG_ENOMEM : JG_EINVAL, "%s: cannot read the slice (%s)",
+                   path, strerror(errno));
+  struct stat sb;
+  if (fstat(fd, &sb) != 0) {
+    int e = errno;
+    close(fd);
+    return JG_FAIL(err, JG_EIO, "%s: cannot read the slice (%s)", path, strerror(e));
+  }
+  if (!S_ISREG(sb.st_mode)) {
+    close(fd);
+    return JG_FAIL(err, JG_EINVAL, "%s: not a slice of a jeansgrow scan (it is %s, not a "
+                   "regular file)", path,
+                   S_ISDIR(sb.st_mode) ? "a folder" : "a device, pipe or socket");
+  }
+  int flags = fcntl(fd, F_GETFL);
+  if (flags < 0 || fcntl(fd, F_SETFL, flags & ~O_NONBLOCK) != 0 || !(p->f = fdopen(fd, "r"))) {
+    int e = errno;
+    close(fd);
+    return JG_FAIL(err, JG_EIO, "%s: cannot read the slice (%s)", path, strerror(e));
+  }
+  return JG_OK;
+}
+
+/* A data row of a slice must be what jg_table_write_row writes: `columns`
+ * finite numbers separated by tabs, ending in a newline. A row cut by a
+ * kill or a full disk, or a value edited to nan, would otherwise pass into
+ * the merged table. */
+static jg_status check_part_row(const part_file *p, const char *line, ssize_t n, int columns,
+                                long long line_number, jg_error *err) {
+  if (n <= 0 || line[n - 1] != '\n')
+    return JG_FAIL(err, JG_EINVAL, "%s:%lld: the last row is cut short (no end of line); the "
+                   "slice is incomplete: compute it again", p->path, line_number);
+  const char *s = line;
+  for (int c = 0; c < columns; c++) {
+    char *end;
+    double v = strtod(s, &end);
+    const char sep = c + 1 < columns ? '\t' : '\n';
+    if (end == s || *end != sep || isspace((unsigned char)*s))
+      return JG_FAIL(err, JG_EINVAL, "%s:%lld: column %d is not a number followed by %s; a "
+                     "row holds %d tab-separated numbers: the slice is damaged or was edited",
+                     p->path, line_number, c + 1, c + 1 < columns ? "a tab" : "the end of line",
+                     columns);
+    if (!isfinite(v))
+      return JG_FAIL(err, JG_EINVAL, "%s:%lld: column %d holds '%.*s', not a finite number; "
+                     "no NaN or Inf may enter a table: the slice was edited", p->path,
+                     line_number, c + 1, (int)(end - s), s);
+    s = end + 1;
+  }
+  return JG_OK;
+}
+
 static jg_status read_part(part_file *p, const char *path, jg_error *err) {
   memset(p, 0, sizeof *p);
   p->path = path;
   p->index = -1;
-  p->f = fopen(path, "r");
-  if (!p->f) return JG_FAIL(err, JG_EIO, "%s: cannot read (%s)", path, strerror(errno));
+  jg_status opened = open_part(p, path, err);
+  if (opened != JG_OK) return opened;
   char *line = NULL;
   size_t cap = 0;
   ssize_t n;
@@ -1523,8 +1581,10 @@ static jg_status read_part(part_file *p, const char *path, jg_error *err) {
   off_t body = 0;
   jg_status st = JG_OK;
   char *pending = NULL; /* the previous header line: the last one is the column line */
+  long long header_lines = 0;
   while ((n = getline(&line, &cap, p->f)) > 0) {
     if (line[0] != '#') break;
+    header_lines++;
     body = ftello(p->f);
     if (line[n - 1] == '\n') line[n - 1] = '\0';
     if (pending) {
@@ -1563,15 +1623,20 @@ static jg_status read_part(part_file *p, const char *path, jg_error *err) {
   if (st == JG_OK) {
     p->columns = pending;
     pending = NULL;
-    if (n > 0) {
-      p->data_lines = 1;
-      while (getline(&line, &cap, p->f) > 0) p->data_lines++;
-    }
+  }
+  const int is_slice = p->fingerprint[0] && p->index >= 0 && expected_failures >= 0 && p->columns;
+  if (st == JG_OK && is_slice && n > 0) {
+    int columns = 1;
+    for (const char *t = p->columns; *t; t++) columns += *t == '\t';
+    long long line_number = header_lines + 1;
+    st = check_part_row(p, line, n, columns, line_number, err);
+    for (p->data_lines = 1; st == JG_OK && (n = getline(&line, &cap, p->f)) > 0; p->data_lines++)
+      st = check_part_row(p, line, n, columns, ++line_number, err);
   }
   free(line);
   free(pending);
   if (st != JG_OK) return st;
-  if (!p->fingerprint[0] || p->index < 0 || expected_failures < 0 || !p->columns)
+  if (!is_slice)
     return JG_FAIL(err, JG_EINVAL, "%s: not a slice of a jeansgrow scan (no fingerprint, part "
                    "or failure lines; write slices with jeansgrow scan --part I/N)", path);
   if (p->n_failures != expected_failures)
