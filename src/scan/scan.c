@@ -1465,7 +1465,11 @@ jg_status jg_scan_write_table(const jg_scan *s, jg_scan_checkpoint *c, FILE *f, 
     }
   }
   pthread_mutex_unlock(&c->lock);
-  if (st == JG_OK && ferror(f)) st = JG_FAIL(err, JG_EIO, "cannot write the scan table (%s)", strerror(errno));
+  /* Reading records back resets errno, so a write that failed before is
+   * known only by the error flag: ask the stream again for the reason. */
+  errno = 0;
+  if (st == JG_OK && (fflush(f) != 0 || ferror(f)))
+    st = JG_FAIL(err, JG_EIO, "cannot write the scan table (%s)", strerror(errno ? errno : EIO));
   for (int i = 0; i < n_lines; i++) free(lines[i]);
   free(lines);
   free(values);
