@@ -10,6 +10,7 @@
  * program tests run the real evaluator on params/reference.cfg with a
  * coarse history (thermal.grid_points = 1000) to stay quick.
  */
+#define _GNU_SOURCE /* F_OFD_SETLK, to stand in for a running scan's lock */
 #include <criterion/criterion.h>
 #include <criterion/logging.h>
 #include <dirent.h>
@@ -572,6 +573,98 @@ Test(scan, slices_merge_into_the_whole_table) {
   remove_dir(dir);
 }
 
+/* The lock tells a running scan from an interrupted one: while one
+ * checkpoint is open, a second open of the same file (another run, with or
+ * without --resume) is refused as such, and the file is left as it is. */
+Test(scan, checkpoint_in_use_is_refused_as_locked_not_as_interrupted) {
+  char dir[64], ck[128];
+  make_dir(dir, sizeof dir);
+  path_in(ck, sizeof ck, dir, "t.checkpoint");
+  jg_scan *s = toy_scan("cosmology.hubble_h=0.6:0.8:3", 1, 1);
+  jg_error err;
+  jg_error_clear(&err);
+  jg_scan_checkpoint *running = NULL, *second = NULL;
+  cr_assert_eq(jg_scan_checkpoint_open(s, ck, 0, &running, &err), JG_OK, "%s", err.message);
+  char *before = read_file(ck);
+  for (int resume = 0; resume <= 1; resume++) {
+    cr_assert_eq(jg_scan_checkpoint_open(s, ck, resume, &second, &err), JG_EINVAL);
+    cr_assert(strstr(err.message, "is locked by another jeansgrow scan that is still writing"),
+              "resume %d: %s", resume, err.message);
+    cr_assert(!strstr(err.message, "interrupted"), "%s", err.message);
+  }
+  char *after = read_file(ck);
+  cr_assert_str_eq(before, after);
+  jg_scan_checkpoint_close(running, 0);
+  /* Released with the run: now it is an interrupted run's checkpoint. */
+  cr_assert_eq(jg_scan_checkpoint_open(s, ck, 0, &second, &err), JG_EINVAL);
+  cr_assert(strstr(err.message, "a run of this output was interrupted"), "%s", err.message);
+  cr_assert_eq(jg_scan_checkpoint_open(s, ck, 1, &second, &err), JG_OK, "%s", err.message);
+  jg_scan_checkpoint_close(second, 1);
+  free(before), free(after);
+  jg_scan_free(s);
+  remove_dir(dir);
+}
+
+/* --resume never overwrites a file it cannot trust: a foreign file, a
+ * damaged header, or damage before the last line (a kill tears only the
+ * last line) is refused with the line, and the file stays as it was. Only
+ * a header cut by a kill before it was complete starts afresh. */
+Test(scan, damaged_or_foreign_checkpoint_is_refused_under_resume) {
+  char dir[64], ck[128];
+  make_dir(dir, sizeof dir);
+  path_in(ck, sizeof ck, dir, "t.checkpoint");
+  jg_scan *s = toy_scan("cosmology.hubble_h=0.6:0.8:3", 1, 1);
+  jg_error err;
+  jg_error_clear(&err);
+  jg_scan_checkpoint *c = NULL;
+  cr_assert_eq(jg_scan_checkpoint_open(s, ck, 0, &c, &err), JG_OK, "%s", err.message);
+  void *ws = jg_scan_workspace_new(s, &err);
+  double values[16];
+  for (long long i = 0; i < 3; i++) {
+    cr_assert_eq(jg_scan_evaluate(s, i, ws, values, &err), JG_OK);
+    cr_assert_eq(jg_scan_checkpoint_add(c, i, JG_OK, values, NULL, &err), JG_OK);
+  }
+  jg_scan_workspace_free(s, ws);
+  jg_scan_checkpoint_close(c, 0);
+  char *good = read_file(ck);
+  char *second_line = strchr(good, '\n') + 1;
+  char *third_line = strchr(second_line, '\n') + 1;
+
+  typedef struct { const char *what, *expect; char *text; } damage;
+  damage cases[4];
+  cases[0] = (damage){"a foreign file", ":1: not a jeansgrow scan checkpoint", strdup("my notes\n")};
+  cases[1] = (damage){"a damaged header", ":1: not a jeansgrow scan checkpoint", strdup(good)};
+  cases[1].text[3] = 'X';
+  cases[2] = (damage){"a damaged middle record", ":2: the record's checksum does not match",
+                      strdup(good)};
+  cases[2].text[second_line - good + 4] ^= 1;
+  cases[3] = (damage){"a record given twice", ":5: a record of a point outside this slice, "
+                      "recorded twice", NULL};
+  size_t head = (size_t)(third_line - good);
+  cases[3].text = malloc(strlen(good) + head + 1);
+  sprintf(cases[3].text, "%s%.*s", good, (int)(head - (second_line - good)), second_line);
+  for (int k = 0; k < 4; k++) {
+    write_file(ck, cases[k].text);
+    cr_assert_eq(jg_scan_checkpoint_open(s, ck, 1, &c, &err), JG_EINVAL, "%s was accepted",
+                 cases[k].what);
+    cr_assert(strstr(err.message, ck) && strstr(err.message, cases[k].expect), "%s: %s",
+              cases[k].what, err.message);
+    char *after = read_file(ck);
+    cr_assert_str_eq(after, cases[k].text, "%s was changed", cases[k].what);
+    free(after);
+    free(cases[k].text);
+  }
+  /* A header torn by a kill: nothing was recorded, the run starts afresh. */
+  good[20] = '\0';
+  write_file(ck, good);
+  cr_assert_eq(jg_scan_checkpoint_open(s, ck, 1, &c, &err), JG_OK, "%s", err.message);
+  cr_assert_eq(jg_scan_checkpoint_resumed(c), 0);
+  jg_scan_checkpoint_close(c, 1);
+  free(good);
+  jg_scan_free(s);
+  remove_dir(dir);
+}
+
 /* ---- the program --------------------------------------------------------- */
 
 typedef struct outcome {
@@ -895,6 +988,37 @@ Test(scan, program_reports_a_failed_point_and_keeps_the_others) {
   cr_assert_eq(count_data_rows(t), 2);
   cr_assert(!rows_contain(t, "nan"));
   free(t), free(o.err);
+  remove_dir(dir);
+}
+
+/* A second run on an output another run is writing (a plain run, or a
+ * --resume) refuses with exit 2 and says that the other run holds it, not
+ * that it "was interrupted"; the running one is stood in for by this test
+ * holding the lock on OUTPUT.checkpoint. */
+Test(scan, program_second_run_on_a_busy_output_says_another_run_holds_it) {
+  char dir[64], out[128], ck[160];
+  make_dir(dir, sizeof dir);
+  path_in(out, sizeof out, dir, "busy.txt");
+  snprintf(ck, sizeof ck, "%s.checkpoint", out);
+  write_file(ck, "");
+  int fd = open(ck, O_RDWR);
+  struct flock fl = {.l_type = F_WRLCK, .l_whence = SEEK_SET};
+  cr_assert(fd >= 0 && fcntl(fd, F_OFD_SETLK, &fl) == 0, "lock: %s", strerror(errno));
+  const char *plain[] = {SCAN_ARGS(out), NULL};
+  const char *resume[] = {SCAN_ARGS(out), "--resume", NULL};
+  const char *const *runs[] = {plain, resume};
+  for (int k = 0; k < 2; k++) {
+    outcome o = run_program(dir, runs[k]);
+    cr_expect_eq(exit_code(&o), 2, "run %d: exit %d: %s", k, exit_code(&o), o.err);
+    cr_expect(strstr(o.err, "is locked by another jeansgrow scan that is still writing this "
+                            "output") && !strstr(o.err, "interrupted"), "run %d: %s", k, o.err);
+    free(o.err);
+  }
+  close(fd);
+  cr_assert(!exists(out), "a refused run wrote the table");
+  char *left = read_file(ck);
+  cr_assert_str_eq(left, "", "a refused run changed the other run's checkpoint");
+  free(left);
   remove_dir(dir);
 }
 

@@ -38,6 +38,7 @@
 #include "jeansgrow/report.h"
 #include "jeansgrow/scales.h"
 #include "../results/report_tables.h"
+#include "../base/file_lock.h"
 
 /* A checkpoint is synced to the disk at least this often (seconds): often
  * enough that a crashed node loses at most this much work, rarely enough
@@ -1057,33 +1058,62 @@ static ssize_t read_line_at(jg_scan_checkpoint *c, long long offset) {
   return getline(&c->buf, &c->buf_size, c->f);
 }
 
+/* Is the file's start no more than a torn first write of `header`'s line
+ * (a run killed before its header was on the disk)? Only then may an
+ * existing checkpoint be started afresh; anything else in it (another
+ * program's file, a damaged header) is refused rather than overwritten. */
+static int only_a_torn_header(FILE *f, const char *header) {
+  char line[600];
+  uint64_t h = fnv1a(FNV_OFFSET, header, strlen(header));
+  int want = snprintf(line, sizeof line, "%s *%016" PRIx64 "\n", header, h);
+  char got[sizeof line];
+  if (want <= 0 || fseeko(f, 0, SEEK_SET) != 0) return 0;
+  size_t n = fread(got, 1, (size_t)want, f);
+  return n < (size_t)want && memcmp(got, line, n) == 0;
+}
+
 static jg_status load_existing(jg_scan_checkpoint *c, int *fresh, jg_error *err) {
   const jg_scan *s = c->s;
   char want[512];
   header_text(s, want, sizeof want);
   *fresh = 0;
-  ssize_t n = read_line_at(c, 0);
-  if (n <= 0 || !line_intact(c->buf, (size_t)n)) {
+  if (only_a_torn_header(c->f, want)) {
     /* Killed before its first line was complete: nothing was recorded. */
     *fresh = 1;
     return JG_OK;
   }
+  ssize_t n = read_line_at(c, 0);
+  if (n <= 0 || !line_intact(c->buf, (size_t)n) || strncmp(c->buf, CHECKPOINT_MAGIC " ", strlen(CHECKPOINT_MAGIC) + 1) != 0)
+    return JG_FAIL(err, JG_EINVAL, "%s:1: not a jeansgrow scan checkpoint, or its first line is "
+                   "damaged; it is left as it is: remove it (or name another output) to start "
+                   "this scan afresh", c->path);
   if (strcmp(c->buf, want) != 0)
     return JG_FAIL(err, JG_EINVAL, "%s belongs to a different scan or slice (its first line: "
                    "'%.300s'; this scan: fingerprint %s part %d/%d); finish that scan, or "
                    "remove the file to start this one afresh", c->path, c->buf, s->fingerprint,
                    s->part_index, s->part_count);
-  long long pos = n;
+  long long pos = n, line_number = 1;
   for (;;) {
     n = getline(&c->buf, &c->buf_size, c->f);
     if (n <= 0) break;
+    line_number++;
     record r;
-    /* A torn or damaged line ends what can be trusted; later lines (there
-     * are none after a kill) would be recomputed anyway. */
-    if (!line_intact(c->buf, (size_t)n) || !parse_record(c, c->buf, &r, NULL)) break;
-    long long k = r.index - s->first;
-    if (c->offset[k] >= 0) break;
-    c->offset[k] = pos;
+    const int intact = line_intact(c->buf, (size_t)n);
+    if (!intact || !parse_record(c, c->buf, &r, NULL) || c->offset[r.index - s->first] >= 0) {
+      /* A kill tears only the last line, which is cut off below and
+       * recomputed. A bad line with more after it is damage from outside:
+       * cutting there would silently throw away the points after it. */
+      const char *why = !intact ? "the record's checksum does not match"
+                        : (c->buf[0] == 'P' || c->buf[0] == 'F') && c->buf[1] == ' '
+                            ? "a record of a point outside this slice, recorded twice, or with "
+                              "an unreadable value"
+                            : "not a record of a scan point";
+      const int last = getline(&c->buf, &c->buf_size, c->f) <= 0;
+      if (last && !intact) break;
+      return JG_FAIL(err, JG_EINVAL, "%s:%lld: %s; the checkpoint is damaged and is left as it "
+                     "is: remove it to start the scan afresh", c->path, line_number, why);
+    }
+    c->offset[r.index - s->first] = pos;
     c->done++;
     c->failed += r.failed;
     pos += n;
@@ -1094,6 +1124,45 @@ static jg_status load_existing(jg_scan_checkpoint *c, int *fresh, jg_error *err)
     return JG_FAIL(err, JG_EIO, "%s: cannot cut the damaged end of the checkpoint (%s)",
                    c->path, strerror(errno));
   return JG_OK;
+}
+
+/* Open (creating it if missing) the checkpoint file at `path` and take its
+ * lock. The lock is what tells a running scan from an interrupted one: a
+ * run holds it until it ends, however it ends, so a second run of the same
+ * output (a plain one, or --resume) refuses instead of writing into the
+ * same file. *created says whether this call made the file. */
+static jg_status open_locked(const char *path, int *fd_out, int *created, jg_error *err) {
+  for (int attempt = 0; attempt < 8; attempt++) {
+    int fd = open(path, O_RDWR | O_CREAT | O_EXCL | O_CLOEXEC, 0644);
+    *created = fd >= 0;
+    if (fd < 0 && errno == EEXIST) fd = open(path, O_RDWR | O_CLOEXEC | O_NOCTTY);
+    if (fd < 0)
+      return JG_FAIL(err, JG_EIO, "%s: cannot %s the scan checkpoint (%s)", path,
+                     errno == ENOENT ? "create" : "open", strerror(errno));
+    int held = jg__file_try_lock(fd);
+    if (held == 1) {
+      close(fd);
+      return JG_FAIL(err, JG_EINVAL, "%s is locked by another jeansgrow scan that is still "
+                     "writing this output; wait for it to finish (or stop it, then --resume)",
+                     path);
+    }
+    if (held < 0 && errno != EINVAL && errno != ENOLCK) {
+      int e = errno;
+      close(fd);
+      return JG_FAIL(err, JG_EIO, "%s: cannot lock the scan checkpoint (%s)", path, strerror(e));
+    }
+    /* The run that held the lock may have finished and removed the file
+     * between our open and our lock: then start over on the path. */
+    struct stat by_fd, by_path;
+    if (fstat(fd, &by_fd) == 0 && stat(path, &by_path) == 0 && by_fd.st_dev == by_path.st_dev &&
+        by_fd.st_ino == by_path.st_ino) {
+      *fd_out = fd;
+      return JG_OK;
+    }
+    close(fd);
+  }
+  return JG_FAIL(err, JG_EIO, "%s: the scan checkpoint keeps being replaced by another run",
+                 path);
 }
 
 jg_status jg_scan_checkpoint_open(const jg_scan *s, const char *path, int resume,
@@ -1114,26 +1183,20 @@ jg_status jg_scan_checkpoint_open(const jg_scan *s, const char *path, int resume
   for (long long i = 0; i < s->count; i++) c->offset[i] = -1;
 
   jg_status st = JG_OK;
-  int fresh = 1;
+  int fresh = 1, created = 0;
   if (!path) {
     c->f = tmpfile();
     if (!c->f) st = JG_FAIL(err, JG_EIO, "cannot create a temporary scan checkpoint (%s)",
                             strerror(errno));
   } else {
-    int fd = open(path, O_RDWR | O_CREAT | O_EXCL, 0644);
-    if (fd < 0 && errno == EEXIST) {
-      if (!resume)
-        st = JG_FAIL(err, JG_EINVAL, "%s exists: a run of this output was interrupted; resume it "
-                     "(jeansgrow scan --resume) or remove the file", path);
-      else if ((fd = open(path, O_RDWR)) < 0)
-        st = JG_FAIL(err, JG_EIO, "%s: cannot open the scan checkpoint (%s)", path,
-                     strerror(errno));
-      else
-        fresh = 0;
-    } else if (fd < 0) {
-      st = JG_FAIL(err, JG_EIO, "%s: cannot create the scan checkpoint (%s)", path,
-                   strerror(errno));
+    int fd = -1;
+    st = open_locked(path, &fd, &created, err);
+    if (st == JG_OK && !created && !resume) {
+      close(fd);
+      st = JG_FAIL(err, JG_EINVAL, "%s exists: a run of this output was interrupted; resume it "
+                   "(jeansgrow scan --resume) or remove the file", path);
     }
+    fresh = created;
     if (st == JG_OK && !(c->f = fdopen(fd, "r+"))) {
       close(fd);
       st = JG_FAIL(err, JG_EIO, "%s: cannot open the scan checkpoint (%s)", path, strerror(errno));
@@ -1153,7 +1216,7 @@ jg_status jg_scan_checkpoint_open(const jg_scan *s, const char *path, int resume
   }
   if (st != JG_OK) {
     /* Remove only a file this call created; never an existing checkpoint. */
-    jg_scan_checkpoint_close(c, fresh && c->f && path && c->end == 0);
+    jg_scan_checkpoint_close(c, created && c->f);
     return st;
   }
   c->last_sync = monotonic_seconds();
@@ -1213,12 +1276,14 @@ const char *jg_scan_checkpoint_path(const jg_scan_checkpoint *c) { return c->pat
 
 void jg_scan_checkpoint_close(jg_scan_checkpoint *c, int remove_file) {
   if (!c) return;
+  /* Removed while still locked: a run that waits for the lock must not
+   * find the finished checkpoint still there the moment it is released. */
+  if (remove_file && c->path) unlink(c->path);
   if (c->f) {
     fflush(c->f);
     if (!remove_file) fsync(fileno(c->f));
     fclose(c->f);
   }
-  if (remove_file && c->path) unlink(c->path);
   pthread_mutex_destroy(&c->lock);
   free(c->path);
   free(c->offset);
