@@ -65,7 +65,9 @@ typedef enum {
 
 #define JG_SCAN_MAX_AXES 8
 #define JG_SCAN_KEY_SIZE 64
-/* Largest grid: the checkpoint index holds 8 bytes per point. */
+/* Largest grid. Nothing is held per grid point before it is computed: the
+ * values are computed from the point's index, and the checkpoint's index
+ * of finished points takes 8 bytes per point as points finish. */
 #define JG_SCAN_MAX_POINTS 100000000LL
 
 typedef struct jg_scan_axis {
@@ -73,8 +75,13 @@ typedef struct jg_scan_axis {
   jg_scan_spacing spacing;
   double from, to;            /* the range as given (LINEAR, LOG) */
   int count;                  /* number of values */
-  double *values;             /* the values, owned by the grid */
+  double *values;             /* JG_SCAN_LIST: the values, owned by the grid; NULL for a
+                                 range, whose values are computed from their index (a grid
+                                 of 10^8 points holds no list): use jg_scan_axis_value */
 } jg_scan_axis;
+
+/* Value i (0 <= i < count) of an axis, whatever its spacing. */
+double jg_scan_axis_value(const jg_scan_axis *ax, long long i);
 
 /* Read the fields; change them only through the functions below. Start from
  * a zeroed struct (`jg_scan_grid g = {0};`), release with jg_scan_grid_clear. */

@@ -92,15 +92,44 @@ long long jg_scan_grid_points(const jg_scan_grid *g) {
   return n;
 }
 
+/* The value i of a range (not its ends, which are FROM and TO exactly):
+ * rounded to 15 significant digits, and a linear value lost in the rounding
+ * noise of the range set to zero: 0.6:0.7:3 then holds 0.65, not
+ * 0.6499999999999999, and `--set key=0.65` repeats the point exactly. */
+static double range_value(const jg_scan_axis *ax, long long i) {
+  const double t = (double)i / (double)(ax->count - 1);
+  const double from = ax->from, to = ax->to;
+  double x = ax->spacing == JG_SCAN_LOG ? exp(log(from) + (log(to) - log(from)) * t)
+                                        : from + (to - from) * t;
+  if (ax->spacing == JG_SCAN_LINEAR && fabs(x) < 1e-12 * fmax(fabs(from), fabs(to))) x = 0.0;
+  char text[32];
+  snprintf(text, sizeof text, "%.15g", x);
+  return strtod(text, NULL);
+}
+
+double jg_scan_axis_value(const jg_scan_axis *ax, long long i) {
+  if (ax->values) return ax->values[i];
+  if (i <= 0) return ax->from;
+  if (i >= ax->count - 1) return ax->to;
+  return range_value(ax, i);
+}
+
+static int key_is_integer(const char *key) {
+  const jg_param_doc *d = doc_of(key);
+  return d && strcmp(d->type, "integer") == 0;
+}
+
 /* The checks every axis passes, whatever its spacing: a numeric key, not yet
  * varied, room for one more axis, a grid of bounded size, and values the key
- * can take (whole numbers for integer keys). */
-static jg_status check_axis(const jg_scan_grid *g, const char *key, const double *values,
-                            long count, const char *pre, jg_error *err) {
+ * can take (whole numbers for integer keys). A range is monotonic, so its
+ * ends bound it; its inner values are only checked for being whole, which
+ * keeps a range of 10^8 values cheap to check. */
+static jg_status check_axis(const jg_scan_grid *g, const jg_scan_axis *ax, const char *pre,
+                            jg_error *err) {
+  const char *key = ax->key;
   if (g->n_axes >= JG_SCAN_MAX_AXES)
     return JG_FAIL(err, JG_EINVAL, "%stoo many varied keys (at most %d)", pre, JG_SCAN_MAX_AXES);
-  if (strlen(key) >= JG_SCAN_KEY_SIZE || key[0] == '\0')
-    return JG_FAIL(err, JG_EINVAL, "%s'%s' is not a parameter key", pre, key);
+  if (key[0] == '\0') return JG_FAIL(err, JG_EINVAL, "%s'%s' is not a parameter key", pre, key);
   jg_params *scratch = malloc(sizeof *scratch);
   if (!scratch) return JG_FAIL(err, JG_ENOMEM, "%sout of memory", pre);
   jg_params_set_defaults(scratch);
@@ -115,9 +144,16 @@ static jg_status check_axis(const jg_scan_grid *g, const char *key, const double
     else
       st = JG_FAIL(err, JG_EINVAL, "%s%s", pre, why.message);
   }
-  for (long i = 0; st == JG_OK && i < count; i++)
-    if (jg_params_set_number(scratch, key, values[i], &why) != JG_OK)
+  const long count = ax->count;
+  const int integer = key_is_integer(key);
+  for (long i = 0; st == JG_OK && i < count; i++) {
+    const int inner = ax->spacing != JG_SCAN_LIST && i > 0 && i < count - 1;
+    if (inner && !integer) continue;
+    const double v = jg_scan_axis_value(ax, i);
+    if (inner && v == floor(v)) continue;
+    if (jg_params_set_number(scratch, key, v, &why) != JG_OK)
       st = JG_FAIL(err, JG_EINVAL, "%s%s (value %ld of %ld)", pre, why.message, i + 1, count);
+  }
   free(scratch);
   if (st != JG_OK) return st;
   for (int a = 0; a < g->n_axes; a++)
@@ -131,16 +167,29 @@ static jg_status check_axis(const jg_scan_grid *g, const char *key, const double
   return JG_OK;
 }
 
+/* Check the axis and, if it passes, append it (taking `values`, which is
+ * NULL for a range). */
 static jg_status push_axis(jg_scan_grid *g, const char *key, jg_scan_spacing spacing,
-                           double from, double to, double *values, long count) {
-  jg_scan_axis *ax = &g->axes[g->n_axes++];
-  memset(ax, 0, sizeof *ax);
-  snprintf(ax->key, sizeof ax->key, "%s", key);
-  ax->spacing = spacing;
-  ax->from = from;
-  ax->to = to;
-  ax->count = (int)count;
-  ax->values = values;
+                           double from, double to, double *values, long count, const char *pre,
+                           jg_error *err) {
+  jg_scan_axis ax;
+  memset(&ax, 0, sizeof ax);
+  if (strlen(key) >= JG_SCAN_KEY_SIZE) {
+    free(values);
+    return JG_FAIL(err, JG_EINVAL, "%s'%s' is not a parameter key", pre, key);
+  }
+  snprintf(ax.key, sizeof ax.key, "%s", key);
+  ax.spacing = spacing;
+  ax.from = from;
+  ax.to = to;
+  ax.count = (int)count;
+  ax.values = values;
+  jg_status st = check_axis(g, &ax, pre, err);
+  if (st != JG_OK) {
+    free(values);
+    return st;
+  }
+  g->axes[g->n_axes++] = ax;
   return JG_OK;
 }
 
@@ -170,31 +219,9 @@ jg_status jg_scan_grid_add_range(jg_scan_grid *g, const char *key, double from, 
   if (count == 1 && from != to)
     return JG_FAIL(err, JG_EINVAL, "%sN = 1 needs FROM = TO (got %.10g and %.10g)", pre, from,
                    to);
-  double *v = malloc(sizeof(double) * (size_t)count);
-  if (!v) return JG_FAIL(err, JG_ENOMEM, "%sout of memory for %ld values", pre, count);
-  /* Inner values are rounded to 15 significant digits, and a linear value
-   * lost in the rounding noise of the range to zero: 0.6:0.7:3 then holds
-   * 0.65, not 0.6499999999999999, and `--set key=0.65` repeats the point
-   * exactly. */
-  const double noise = 1e-12 * fmax(fabs(from), fabs(to));
-  for (long i = 0; i < count; i++) {
-    double t = count > 1 ? (double)i / (double)(count - 1) : 0.0;
-    double x = spacing == JG_SCAN_LOG ? exp(log(from) + (log(to) - log(from)) * t)
-                                      : from + (to - from) * t;
-    if (spacing == JG_SCAN_LINEAR && fabs(x) < noise) x = 0.0;
-    char text[32];
-    snprintf(text, sizeof text, "%.15g", x);
-    v[i] = strtod(text, NULL);
-  }
-  /* The ends are the values the user typed, not their rounded images. */
-  v[0] = from;
-  v[count - 1] = to;
-  jg_status st = check_axis(g, key, v, count, pre, err);
-  if (st != JG_OK) {
-    free(v);
-    return st;
-  }
-  return push_axis(g, key, spacing, from, to, v, count);
+  /* The values are computed from their index when needed (range_value):
+   * a grid of 10^8 points holds no list of them. */
+  return push_axis(g, key, spacing, from, to, NULL, count, pre, err);
 }
 
 jg_status jg_scan_grid_add_list(jg_scan_grid *g, const char *key, const double *values,
@@ -214,12 +241,7 @@ jg_status jg_scan_grid_add_list(jg_scan_grid *g, const char *key, const double *
   double *v = malloc(sizeof(double) * (size_t)count);
   if (!v) return JG_FAIL(err, JG_ENOMEM, "%sout of memory for %ld values", pre, count);
   memcpy(v, values, sizeof(double) * (size_t)count);
-  jg_status st = check_axis(g, key, v, count, pre, err);
-  if (st != JG_OK) {
-    free(v);
-    return st;
-  }
-  return push_axis(g, key, JG_SCAN_LIST, v[0], v[count - 1], v, count);
+  return push_axis(g, key, JG_SCAN_LIST, v[0], v[count - 1], v, count, pre, err);
 }
 
 static const char *skip_space(const char *s) {
@@ -345,7 +367,7 @@ jg_status jg_scan_grid_parse(jg_scan_grid *g, const char *text, const char *orig
 void jg_scan_grid_values(const jg_scan_grid *g, long long index, double *values) {
   for (int a = g->n_axes - 1; a >= 0; a--) {
     const jg_scan_axis *ax = &g->axes[a];
-    values[a] = ax->values[index % ax->count];
+    values[a] = jg_scan_axis_value(ax, index % ax->count);
     index /= ax->count;
   }
 }
@@ -697,12 +719,12 @@ static jg_status copy_grid(jg_scan_grid *dst, const jg_scan_grid *src, jg_error 
   memset(dst, 0, sizeof *dst);
   for (int a = 0; a < src->n_axes; a++) {
     const jg_scan_axis *ax = &src->axes[a];
-    double *v = malloc(sizeof(double) * (size_t)ax->count);
-    if (!v) {
+    double *v = NULL;
+    if (ax->values && !(v = malloc(sizeof(double) * (size_t)ax->count))) {
       jg_scan_grid_clear(dst);
       return JG_FAIL(err, JG_ENOMEM, "out of memory copying the scan grid");
     }
-    memcpy(v, ax->values, sizeof(double) * (size_t)ax->count);
+    if (v) memcpy(v, ax->values, sizeof(double) * (size_t)ax->count);
     dst->axes[a] = *ax;
     dst->axes[a].values = v;
     dst->n_axes = a + 1;
@@ -754,7 +776,7 @@ static void write_axis(FILE *f, const jg_scan_axis *ax) {
   if (ax->spacing == JG_SCAN_LIST) {
     fputc('[', f);
     for (int i = 0; i < ax->count; i++) {
-      format_exact(a, sizeof a, ax->values[i]);
+      format_exact(a, sizeof a, jg_scan_axis_value(ax, i));
       fprintf(f, "%s%s", i ? ", " : "", a);
     }
     fputc(']', f);
@@ -773,18 +795,32 @@ static jg_status compute_fingerprint(jg_scan *s, jg_error *err) {
   fprintf(f, "jeansgrow scan 1\nversion %s\nevaluator %s\n", JG_VERSION_STRING, s->ev->name);
   for (int i = 0; i < s->n_columns; i++) fprintf(f, "column %s\n", s->columns[i]);
   jg_params_write_header(f, &s->base);
-  for (int a = 0; a < s->grid.n_axes; a++) {
-    const jg_scan_axis *ax = &s->grid.axes[a];
-    fprintf(f, "axis %s %d %d", ax->key, (int)ax->spacing, ax->count);
-    for (int i = 0; i < ax->count; i++) fprintf(f, " %a", ax->values[i]);
-    fputc('\n', f);
-  }
   if (fclose(f) != 0 || !text) {
     free(text);
     return JG_FAIL(err, JG_ENOMEM, "out of memory");
   }
   uint64_t h = fnv1a(FNV_OFFSET, text, size);
   free(text);
+  /* A range is identified by its exact ends, count and spacing (the
+   * program version, hashed above, fixes how its values follow), a list by
+   * its exact values, hashed as they are formatted: a grid of 10^8 values
+   * is neither held as text nor formatted value by value. FNV-1a runs over
+   * the pieces as over their concatenation. */
+  char piece[JG_SCAN_KEY_SIZE + 96];
+  for (int a = 0; a < s->grid.n_axes; a++) {
+    const jg_scan_axis *ax = &s->grid.axes[a];
+    int n = snprintf(piece, sizeof piece, "axis %s %d %d", ax->key, (int)ax->spacing, ax->count);
+    h = fnv1a(h, piece, (size_t)n);
+    if (!ax->values) {
+      n = snprintf(piece, sizeof piece, " from %a to %a", ax->from, ax->to);
+      h = fnv1a(h, piece, (size_t)n);
+    }
+    for (long long i = 0; ax->values && i < ax->count; i++) {
+      n = snprintf(piece, sizeof piece, " %a", ax->values[i]);
+      h = fnv1a(h, piece, (size_t)n);
+    }
+    h = fnv1a(h, "\n", 1);
+  }
   snprintf(s->fingerprint, sizeof s->fingerprint, "%016" PRIx64, h);
   return JG_OK;
 }
@@ -803,10 +839,59 @@ void jg_scan_describe_point(const jg_scan *s, long long index, char *buf, size_t
   }
 }
 
+/* Grids up to this size are checked point by point before any work; a
+ * larger one at its corners and this many points spread over it. A point's
+ * background costs 40-150 microseconds: a few seconds for the whole. */
+#define SCAN_CHECKED_POINTS 20000LL
+
+/* Point `index` as a model: its parameters and its background. `last`
+ * remembers the last cosmology built, which consecutive points often share
+ * (when only later axes vary). */
+static jg_status check_point(const jg_scan *s, long long index, jg_params *p, jg_cosmology *last,
+                             int *have_last, jg_error *why) {
+  jg_error_clear(why);
+  *p = s->base;
+  jg_status st = jg_scan_grid_apply(&s->grid, index, p, why);
+  if (st == JG_OK) st = jg_params_validate(p, why);
+  if (st != JG_OK || (*have_last && memcmp(last, &p->cosmology, sizeof *last) == 0)) return st;
+  jg_background *bg = jg_background_new(&p->cosmology, why);
+  if (!bg) return why->status != JG_OK ? why->status : JG_EINVAL;
+  *last = p->cosmology;
+  *have_last = 1;
+  jg_background_free(bg);
+  return JG_OK;
+}
+
+/* The k-th of the points checked before any work, k < points_checked(s):
+ * every point of a grid up to SCAN_CHECKED_POINTS; in a larger grid, its
+ * 2^axes corners, then SCAN_CHECKED_POINTS points spread evenly over it. */
+static long long points_checked(const jg_scan *s) {
+  return s->total <= SCAN_CHECKED_POINTS ? s->total
+                                         : (1LL << s->grid.n_axes) + SCAN_CHECKED_POINTS;
+}
+
+static long long checked_point(const jg_scan *s, long long k) {
+  if (s->total <= SCAN_CHECKED_POINTS) return k;
+  const long long corners = 1LL << s->grid.n_axes;
+  if (k >= corners) {
+    k -= corners;
+    return (long long)((double)k / (double)(SCAN_CHECKED_POINTS - 1) * (double)(s->total - 1));
+  }
+  long long index = 0;
+  for (int a = 0; a < s->grid.n_axes; a++) {
+    const int end = (int)(k >> a & 1) ? s->grid.axes[a].count - 1 : 0;
+    index = index * s->grid.axes[a].count + end;
+  }
+  return index;
+}
+
 /* Every grid point must make a valid parameter set and background before
  * any work starts: a bad corner found after hours of computing is the
- * failure this prevents. Consecutive points often share their cosmology
- * (when only later axes vary), so the background is built once per change. */
+ * failure this prevents. A grid too large to check in seconds is checked
+ * at its corners and at SCAN_CHECKED_POINTS points spread over it; any
+ * other bad point is found when its turn comes (jg_scan_evaluate checks it
+ * again) and is listed as failed with the reason, without stopping the
+ * others. */
 static jg_status validate_points(const jg_scan *s, jg_error *err) {
   /* The table is the same file at every point (a scan varies numbers only). */
   jg_status table_st = jg_perturb_check_start_table(&s->base.perturbations, err);
@@ -821,21 +906,10 @@ static jg_status validate_points(const jg_scan *s, jg_error *err) {
   int have_last = 0;
   jg_status st = JG_OK;
   jg_error why;
-  for (long long i = 0; st == JG_OK && i < s->total; i++) {
-    jg_error_clear(&why);
-    *p = s->base;
-    jg_status pst = jg_scan_grid_apply(&s->grid, i, p, &why);
-    if (pst == JG_OK) pst = jg_params_validate(p, &why);
-    if (pst == JG_OK && !(have_last && memcmp(last, &p->cosmology, sizeof *last) == 0)) {
-      jg_background *bg = jg_background_new(&p->cosmology, &why);
-      if (bg) {
-        *last = p->cosmology;
-        have_last = 1;
-        jg_background_free(bg);
-      } else {
-        pst = why.status != JG_OK ? why.status : JG_EINVAL;
-      }
-    }
+  const long long n = points_checked(s);
+  for (long long k = 0; st == JG_OK && k < n; k++) {
+    const long long i = checked_point(s, k);
+    jg_status pst = check_point(s, i, p, last, &have_last, &why);
     if (pst == JG_ENOMEM) {
       st = JG_FAIL(err, JG_ENOMEM, "out of memory checking the scan grid");
     } else if (pst != JG_OK) {
@@ -946,6 +1020,9 @@ jg_status jg_scan_evaluate(const jg_scan *s, long long index, void *workspace, d
                    s->total - 1);
   w->p = s->base;
   jg_status st = jg_scan_grid_apply(&s->grid, index, &w->p, err);
+  /* Points of a large grid not checked by validate_points are checked
+   * here, at the cost of a parameter check next to a whole evaluation. */
+  if (st == JG_OK) st = jg_params_validate(&w->p, err);
   if (st != JG_OK) return st;
   const jg_scan_evaluator *ev = s->ev;
   st = ev->evaluate(&w->p, values, values + ev->n_point_columns, w->user, err);
@@ -972,7 +1049,11 @@ struct jg_scan_checkpoint {
   const jg_scan *s;
   char *path;            /* NULL: anonymous */
   FILE *f;
-  long long *offset;     /* per point of the slice: where its record starts, -1 if none */
+  /* Per point of the slice: 1 + where its record starts, 0 if none. Zero
+   * means "none" so that the index comes from calloc untouched: the system
+   * gives its pages memory only as points finish, and a grid of 10^8
+   * points starts at once. */
+  long long *offset;
   long long end;         /* where the next record goes */
   long long done, failed, resumed;
   char *buf;             /* one record's text, under the lock */
@@ -1099,7 +1180,7 @@ static jg_status load_existing(jg_scan_checkpoint *c, int *fresh, jg_error *err)
     line_number++;
     record r;
     const int intact = line_intact(c->buf, (size_t)n);
-    if (!intact || !parse_record(c, c->buf, &r, NULL) || c->offset[r.index - s->first] >= 0) {
+    if (!intact || !parse_record(c, c->buf, &r, NULL) || c->offset[r.index - s->first] > 0) {
       /* A kill tears only the last line, which is cut off below and
        * recomputed. A bad line with more after it is damage from outside:
        * cutting there would silently throw away the points after it. */
@@ -1113,7 +1194,7 @@ static jg_status load_existing(jg_scan_checkpoint *c, int *fresh, jg_error *err)
       return JG_FAIL(err, JG_EINVAL, "%s:%lld: %s; the checkpoint is damaged and is left as it "
                      "is: remove it to start the scan afresh", c->path, line_number, why);
     }
-    c->offset[r.index - s->first] = pos;
+    c->offset[r.index - s->first] = pos + 1;
     c->done++;
     c->failed += r.failed;
     pos += n;
@@ -1172,7 +1253,7 @@ jg_status jg_scan_checkpoint_open(const jg_scan *s, const char *path, int resume
   if (!c) return JG_FAIL(err, JG_ENOMEM, "out of memory");
   c->s = s;
   pthread_mutex_init(&c->lock, NULL);
-  c->offset = malloc(sizeof(long long) * (size_t)s->count);
+  c->offset = calloc((size_t)s->count, sizeof(long long));
   c->buf_size = 64 + (size_t)s->n_values * 32 + JG_ERROR_MESSAGE_SIZE;
   c->buf = malloc(c->buf_size);
   if (path) c->path = dup_string(path);
@@ -1180,7 +1261,6 @@ jg_status jg_scan_checkpoint_open(const jg_scan *s, const char *path, int resume
     jg_scan_checkpoint_close(c, 0);
     return JG_FAIL(err, JG_ENOMEM, "out of memory for the scan checkpoint");
   }
-  for (long long i = 0; i < s->count; i++) c->offset[i] = -1;
 
   jg_status st = JG_OK;
   int fresh = 1, created = 0;
@@ -1232,7 +1312,7 @@ jg_status jg_scan_checkpoint_add(jg_scan_checkpoint *c, long long index, jg_stat
   pthread_mutex_lock(&c->lock);
   jg_status st = JG_OK;
   long long k = index - s->first;
-  if (c->offset[k] >= 0) {
+  if (c->offset[k] > 0) {
     st = JG_FAIL(err, JG_EINVAL, "scan point %lld is recorded twice", index);
   } else if (status == JG_OK) {
     size_t used = (size_t)snprintf(c->buf, c->buf_size, "P %lld", index);
@@ -1250,7 +1330,7 @@ jg_status jg_scan_checkpoint_add(jg_scan_checkpoint *c, long long index, jg_stat
   long long where = -1;
   if (st == JG_OK) st = append_line(c, c->buf, &where, err);
   if (st == JG_OK) {
-    c->offset[k] = where;
+    c->offset[k] = where + 1;
     c->done++;
     c->failed += status != JG_OK;
     double now = monotonic_seconds();
@@ -1267,7 +1347,7 @@ jg_status jg_scan_checkpoint_add(jg_scan_checkpoint *c, long long index, jg_stat
 
 int jg_scan_checkpoint_has(const jg_scan_checkpoint *c, long long index) {
   long long k = index - c->s->first;
-  return k >= 0 && k < c->s->count && c->offset[k] >= 0;
+  return k >= 0 && k < c->s->count && c->offset[k] > 0;
 }
 long long jg_scan_checkpoint_done(const jg_scan_checkpoint *c) { return c->done; }
 long long jg_scan_checkpoint_failed(const jg_scan_checkpoint *c) { return c->failed; }
@@ -1294,7 +1374,7 @@ void jg_scan_checkpoint_close(jg_scan_checkpoint *c, int remove_file) {
 /* Read back the record of point `index` (which must be recorded). */
 static jg_status fetch_record(jg_scan_checkpoint *c, long long index, record *r, double *values,
                               jg_error *err) {
-  ssize_t n = read_line_at(c, c->offset[index - c->s->first]);
+  ssize_t n = read_line_at(c, c->offset[index - c->s->first] - 1);
   if (n <= 0 || !line_intact(c->buf, (size_t)n) || !parse_record(c, c->buf, r, values) ||
       r->index != index)
     return JG_FAIL(err, JG_EIO, "%s: the record of scan point %lld no longer reads back; the "
