@@ -827,6 +827,93 @@ Test(scan, program_on_two_mpi_ranks_writes_the_single_process_file) {
 #endif
 }
 
+#ifdef JG_TEST_MPIEXEC
+/* Lines in a file (0 if missing). */
+static int count_lines(const char *path) {
+  char *t = read_file(path);
+  int n = 0;
+  for (const char *c = t; c && *c; c++) n += *c == '\n';
+  free(t);
+  return n;
+}
+
+/* The pid of the process whose command line mentions `word` and whose
+ * environment says it is MPI rank `rank`, or 0. */
+static pid_t find_rank(const char *word, int rank) {
+  char want[64];
+  snprintf(want, sizeof want, "OMPI_COMM_WORLD_RANK=%d", rank);
+  DIR *d = opendir("/proc");
+  cr_assert_not_null(d);
+  pid_t found = 0;
+  struct dirent *e;
+  while (!found && (e = readdir(d)) != NULL) {
+    char path[300], buf[8192];
+    if (e->d_name[0] < '1' || e->d_name[0] > '9') continue;
+    int hit[2] = {0, 0};
+    const char *files[2] = {"cmdline", "environ"}, *needles[2] = {word, want};
+    for (int k = 0; k < 2; k++) {
+      snprintf(path, sizeof path, "/proc/%s/%s", e->d_name, files[k]);
+      FILE *f = fopen(path, "rb");
+      if (!f) break;
+      size_t n = fread(buf, 1, sizeof buf - 1, f);
+      fclose(f);
+      for (size_t i = 0; i < n; i += strlen(buf + i) + 1) {
+        buf[n] = '\0';
+        if (strcmp(buf + i, needles[k]) == 0) hit[k] = 1;
+      }
+    }
+    if (hit[0] && hit[1]) found = (pid_t)atoi(e->d_name);
+  }
+  closedir(d);
+  return found;
+}
+#endif
+
+/* A rank that stops answering (here: SIGSTOP) must not hang the job: after
+ * --rank-timeout seconds of silence rank 0 ends it with exit 1, naming the
+ * rank, and the checkpoint resumes to the table of a single run. */
+Test(scan, program_silent_mpi_rank_ends_the_job_with_a_resumable_checkpoint, .timeout = 120) {
+#ifndef JG_TEST_MPIEXEC
+  cr_skip_test("jeansgrow was built without MPI (JG_WITH_MPI off or MPI not found)");
+#else
+  char dir[64], out[128], ck[160];
+  make_dir(dir, sizeof dir);
+  path_in(out, sizeof out, dir, "silent.txt");
+  snprintf(ck, sizeof ck, "%s.checkpoint", out);
+  setenv("OMPI_ALLOW_RUN_AS_ROOT", "1", 1);
+  setenv("OMPI_ALLOW_RUN_AS_ROOT_CONFIRM", "1", 1);
+  setenv("OMPI_MCA_rmaps_base_oversubscribe", "1", 1);
+#define SILENT_ARGS(o)                                                                       \
+  JG_PROGRAM, "scan", REFERENCE, "--vary", "cosmology.hubble_h=0.6:0.8:100", "--set", COARSE, \
+      "--set", "output.redshifts=[10.0]", "--threads", "1", "-o", o
+  const char *a_mpi[] = {JG_TEST_MPIEXEC, JG_TEST_MPI_NP_FLAG, "2", SILENT_ARGS(out),
+                         "--rank-timeout", "2", NULL};
+  pid_t job = start(dir, a_mpi);
+  const double t0 = seconds_now();
+  while (count_lines(ck) < 3 && seconds_now() - t0 < 60) usleep(20000);
+  pid_t rank1 = find_rank(out, 1);
+  cr_assert(rank1 > 0, "rank 1 not found");
+  cr_assert_eq(kill(rank1, SIGSTOP), 0);
+  outcome o = finish(dir, job);
+  kill(rank1, SIGKILL); /* if the launcher left it behind */
+  cr_assert_eq(exit_code(&o), 1, "exit %d: %s", exit_code(&o), o.err);
+  cr_assert(strstr(o.err, "MPI rank 1 has sent nothing for 2 s") &&
+            strstr(o.err, "run the same command with --resume"), "%s", o.err);
+  cr_assert(exists(ck) && !exists(out));
+  free(o.err);
+  /* Resumed (byte-identity of resumed tables is checked above). */
+  const char *a_resume[] = {SILENT_ARGS(out), "--resume", NULL};
+  outcome r = run_program(dir, a_resume);
+  cr_assert_eq(exit_code(&r), 0, "%s", r.err);
+  cr_assert(strstr(r.err, " resumed, 0 failed"), "%s", r.err);
+  char *tr = read_file(out);
+  cr_assert_not_null(tr);
+  cr_assert_eq(count_data_rows(tr), 100);
+  free(tr), free(r.err);
+  remove_dir(dir);
+#endif
+}
+
 /* A random fraction in [lo, hi) from the system's entropy: the kill should
  * land anywhere in the run, differently each time; the value is logged so
  * a failure can be replayed. */

@@ -31,6 +31,12 @@ static const jg_scan_evaluator *scan_evaluator(const jg_params *p) {
 
 #define MAX_THREADS 4096
 
+/* How long a silent MPI rank is waited for, by default (seconds): long
+ * enough for a node's hiccup, short next to the hours a stuck job would
+ * otherwise hold its allocation. */
+#define DEFAULT_RANK_TIMEOUT 300.0
+#define MAX_RANK_TIMEOUT 604800.0
+
 typedef struct scan_options {
   cli_options common; /* parameter file, --set, -o */
   const char *vary[JG_SCAN_MAX_AXES + 1];
@@ -38,6 +44,7 @@ typedef struct scan_options {
   int threads; /* 0: the default */
   int part_index, part_count;
   int resume;
+  double rank_timeout; /* seconds; 0: wait for ever */
 } scan_options;
 
 static double now_seconds(void) {
@@ -59,8 +66,11 @@ static void print_scan_help(const cli_command *cmd) {
          "  --part I/N             compute slice I of N (1 <= I <= N) for a job array;\n"
          "                         join the slice files with jeansgrow merge\n"
          "  --resume               finish an interrupted run from OUTPUT.checkpoint\n"
+         "  --rank-timeout SECONDS under MPI, end the job (keeping OUTPUT.checkpoint for\n"
+         "                         --resume) when a rank has sent nothing for SECONDS\n"
+         "                         (default %.0f; 0 waits for ever)\n"
          "  -o, --output FILE      write the table to FILE (atomically) instead of stdout\n"
-         "  -h, --help             show this help\n");
+         "  -h, --help             show this help\n", DEFAULT_RANK_TIMEOUT);
 }
 
 static int parse_int(const char *text, long lo, long hi, long *out) {
@@ -75,11 +85,13 @@ static int parse_int(const char *text, long lo, long hi, long *out) {
 static int parse_scan_options(const cli_command *cmd, int argc, char **argv, scan_options *o) {
   memset(o, 0, sizeof *o);
   o->part_index = o->part_count = 1;
+  o->rank_timeout = DEFAULT_RANK_TIMEOUT;
   static const struct option long_opts[] = {{"vary", required_argument, NULL, 'v'},
                                             {"set", required_argument, NULL, 's'},
                                             {"threads", required_argument, NULL, 't'},
                                             {"part", required_argument, NULL, 'p'},
                                             {"resume", no_argument, NULL, 'r'},
+                                            {"rank-timeout", required_argument, NULL, 'T'},
                                             {"output", required_argument, NULL, 'o'},
                                             {"help", no_argument, NULL, 'h'},
                                             {NULL, 0, NULL, 0}};
@@ -140,6 +152,18 @@ static int parse_scan_options(const cli_command *cmd, int argc, char **argv, sca
     case 'r':
       o->resume = 1;
       break;
+    case 'T': {
+      char *end;
+      errno = 0;
+      double t = strtod(optarg, &end);
+      if (errno || end == optarg || *end != '\0' || !(t >= 0 && t <= MAX_RANK_TIMEOUT)) {
+        fprintf(stderr, "jeansgrow scan: --rank-timeout must be a number of seconds from 0 (wait "
+                        "for ever) to %.0f (got '%s')\n", MAX_RANK_TIMEOUT, optarg);
+        return EXIT_BAD_INPUT;
+      }
+      o->rank_timeout = t;
+      break;
+    }
     case 'o':
       o->common.output_path = optarg;
       break;
@@ -459,13 +483,16 @@ int cmd_scan(const cli_command *cmd, int argc, char **argv) {
   pr.at_start = su.checkpoint ? jg_scan_checkpoint_done(su.checkpoint) : 0;
   jg_error err;
   jg_error_clear(&err);
-  jg_status st = ranks > 1 ? scan_mpi_run(su.scan, su.checkpoint, threads, on_point, &pr, &err)
+  jg_status st = ranks > 1 ? scan_mpi_run(su.scan, su.checkpoint, threads, su.opt.rank_timeout,
+                                          on_point, &pr, &err)
                            : jg_scan_run(su.scan, su.checkpoint, threads, on_point, &pr, &err);
   if (pr.drawn) fputc('\n', stderr);
   if (rank == 0) {
     if (st != JG_OK) {
       rc = cli_report(&err);
       setup_release(&su, 1);
+      /* A silent rank would hold up the collective finish below for ever. */
+      if (st == JG_EINTERRUPT && ranks > 1) scan_mpi_abort(rc);
     } else {
       rc = scan_finish(&su, pr.t0, threads, ranks);
     }
