@@ -435,18 +435,27 @@ Test(special_outputs, a_named_pipe_receives_the_table) {
   cr_assert(still, "the named pipe was replaced");
 }
 
+/* Make `link_path` a symbolic link to `target` and run `epochs -o` on it;
+ * returns the exit status and says whether the link is still a link. */
+static int epochs_through_link(const char *link_path, const char *target, char *err,
+                               size_t err_size, int *still_link) {
+  cr_assert(symlink(target, link_path) == 0, "symlink: %s", strerror(errno));
+  const char *argv[] = {"", "epochs", REFERENCE, "-o", link_path, NULL};
+  int rc = run_program(argv, NULL, 0, err, err_size);
+  struct stat sb;
+  *still_link = lstat(link_path, &sb) == 0 && S_ISLNK(sb.st_mode);
+  return rc;
+}
+
 Test(special_outputs, a_symbolic_link_is_followed_and_kept) {
   char dir[4096], link_path[4200], file_path[4200];
   make_temp_folder(dir, sizeof dir);
   snprintf(link_path, sizeof link_path, "%s/link.txt", dir);
   snprintf(file_path, sizeof file_path, "%s/table.txt", dir);
   write_text(file_path, "previous complete table\n");
-  cr_assert(symlink("table.txt", link_path) == 0, "symlink: %s", strerror(errno));
-  const char *argv[] = {"", "epochs", REFERENCE, "-o", link_path, NULL};
   char err[4096];
-  int rc = run_program(argv, NULL, 0, err, sizeof err);
-  struct stat sb;
-  int still_link = lstat(link_path, &sb) == 0 && S_ISLNK(sb.st_mode);
+  int still_link = 0;
+  int rc = epochs_through_link(link_path, "table.txt", err, sizeof err, &still_link);
   char *text = read_text(file_path);
   remove_folder(dir);
   cr_assert(rc == 0, "exit status %d, expected 0; stderr: %s", rc, err);
@@ -496,12 +505,9 @@ Test(special_outputs, a_dangling_symbolic_link_is_refused_and_kept) {
   char dir[4096], link_path[4200], names[4096];
   make_temp_folder(dir, sizeof dir);
   snprintf(link_path, sizeof link_path, "%s/link.txt", dir);
-  cr_assert(symlink("missing/table.txt", link_path) == 0, "symlink: %s", strerror(errno));
-  const char *argv[] = {"", "epochs", REFERENCE, "-o", link_path, NULL};
   char err[4096];
-  int rc = run_program(argv, NULL, 0, err, sizeof err);
-  struct stat sb;
-  int still_link = lstat(link_path, &sb) == 0 && S_ISLNK(sb.st_mode);
+  int still_link = 0;
+  int rc = epochs_through_link(link_path, "missing/table.txt", err, sizeof err, &still_link);
   int n = list_folder(dir, names, sizeof names);
   remove_folder(dir);
   cr_assert(rc == 2, "exit status %d, expected 2; stderr: %s", rc, err);

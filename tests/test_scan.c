@@ -171,6 +171,32 @@ static char *toy_table(const jg_scan *s, int threads) {
   return text;
 }
 
+/* A toy scan over `hubble_axis` and a fresh folder `dir` for its
+ * checkpoint `ck` (dir/t.checkpoint). */
+static jg_scan *toy_scan_in_folder(char *dir, size_t dir_size, char *ck, size_t ck_size,
+                                   const char *hubble_axis) {
+  make_dir(dir, dir_size);
+  path_in(ck, ck_size, dir, "t.checkpoint");
+  return toy_scan(hubble_axis, 1, 1);
+}
+
+/* Evaluate points `indices` of `s` and record them in `c`, in that order. */
+static void record_points(const jg_scan *s, jg_scan_checkpoint *c, const long long *indices,
+                          int n) {
+  jg_error err;
+  jg_error_clear(&err);
+  void *ws = jg_scan_workspace_new(s, &err);
+  cr_assert_not_null(ws, "%s", err.message);
+  double values[16];
+  cr_assert_leq(jg_scan_values_per_point(s), 16);
+  for (int i = 0; i < n; i++) {
+    cr_assert_eq(jg_scan_evaluate(s, indices[i], ws, values, &err), JG_OK, "%s", err.message);
+    cr_assert_eq(jg_scan_checkpoint_add(c, indices[i], JG_OK, values, NULL, &err), JG_OK, "%s",
+                 err.message);
+  }
+  jg_scan_workspace_free(s, ws);
+}
+
 /* Does a data row (not a # line) contain `word`? */
 static int rows_contain(const char *text, const char *word) {
   for (const char *line = text; *line;) {
@@ -460,24 +486,15 @@ Test(scan, failed_points_are_listed_and_get_no_rows) {
 
 Test(scan, resumed_checkpoint_with_a_torn_line_gives_the_same_table) {
   char dir[64], ck[128];
-  make_dir(dir, sizeof dir);
-  path_in(ck, sizeof ck, dir, "t.checkpoint");
-  jg_scan *s = toy_scan("cosmology.hubble_h=0.6:0.8:6", 1, 1);
+  jg_scan *s = toy_scan_in_folder(dir, sizeof dir, ck, sizeof ck, "cosmology.hubble_h=0.6:0.8:6");
   char *whole = toy_table(s, 1);
 
   jg_error err;
   jg_error_clear(&err);
   jg_scan_checkpoint *c = NULL;
   cr_assert_eq(jg_scan_checkpoint_open(s, ck, 0, &c, &err), JG_OK, "%s", err.message);
-  void *ws = jg_scan_workspace_new(s, &err);
-  double values[16];
-  cr_assert_leq(jg_scan_values_per_point(s), 16);
   const long long order[] = {7, 2, 11, 0};
-  for (int i = 0; i < 4; i++) {
-    cr_assert_eq(jg_scan_evaluate(s, order[i], ws, values, &err), JG_OK);
-    cr_assert_eq(jg_scan_checkpoint_add(c, order[i], JG_OK, values, NULL, &err), JG_OK);
-  }
-  jg_scan_workspace_free(s, ws);
+  record_points(s, c, order, 4);
   jg_scan_checkpoint_close(c, 0);
   /* A kill in the middle of the last record: cut into its last line. */
   struct stat sb;
@@ -604,16 +621,10 @@ Test(scan, largest_grid_starts_without_holding_its_points) {
   jg_error_clear(&err);
   jg_scan_checkpoint *c = NULL;
   cr_assert_eq(jg_scan_checkpoint_open(s, NULL, 0, &c, &err), JG_OK, "%s", err.message);
-  void *ws = jg_scan_workspace_new(s, &err);
-  double values[16];
   const long long some[] = {30000000, 20000000, 50000001}; /* h in 0.55-0.85 */
-  for (int i = 0; i < 3; i++) {
-    cr_assert_eq(jg_scan_evaluate(s, some[i], ws, values, &err), JG_OK, "%s", err.message);
-    cr_assert_eq(jg_scan_checkpoint_add(c, some[i], JG_OK, values, NULL, &err), JG_OK);
-  }
+  record_points(s, c, some, 3);
   cr_assert(jg_scan_checkpoint_has(c, 20000000) && !jg_scan_checkpoint_has(c, 20000001));
   const long grown = max_resident_kib() - before;
-  jg_scan_workspace_free(s, ws);
   jg_scan_checkpoint_close(c, 1);
   jg_scan_free(s);
   cr_assert_lt(grown, 64 * 1024, "setting up 10^8 points took %ld KiB", grown);
@@ -624,9 +635,7 @@ Test(scan, largest_grid_starts_without_holding_its_points) {
  * without --resume) is refused as such, and the file is left as it is. */
 Test(scan, checkpoint_in_use_is_refused_as_locked_not_as_interrupted) {
   char dir[64], ck[128];
-  make_dir(dir, sizeof dir);
-  path_in(ck, sizeof ck, dir, "t.checkpoint");
-  jg_scan *s = toy_scan("cosmology.hubble_h=0.6:0.8:3", 1, 1);
+  jg_scan *s = toy_scan_in_folder(dir, sizeof dir, ck, sizeof ck, "cosmology.hubble_h=0.6:0.8:3");
   jg_error err;
   jg_error_clear(&err);
   jg_scan_checkpoint *running = NULL, *second = NULL;
@@ -657,20 +666,13 @@ Test(scan, checkpoint_in_use_is_refused_as_locked_not_as_interrupted) {
  * a header cut by a kill before it was complete starts afresh. */
 Test(scan, damaged_or_foreign_checkpoint_is_refused_under_resume) {
   char dir[64], ck[128];
-  make_dir(dir, sizeof dir);
-  path_in(ck, sizeof ck, dir, "t.checkpoint");
-  jg_scan *s = toy_scan("cosmology.hubble_h=0.6:0.8:3", 1, 1);
+  jg_scan *s = toy_scan_in_folder(dir, sizeof dir, ck, sizeof ck, "cosmology.hubble_h=0.6:0.8:3");
   jg_error err;
   jg_error_clear(&err);
   jg_scan_checkpoint *c = NULL;
   cr_assert_eq(jg_scan_checkpoint_open(s, ck, 0, &c, &err), JG_OK, "%s", err.message);
-  void *ws = jg_scan_workspace_new(s, &err);
-  double values[16];
-  for (long long i = 0; i < 3; i++) {
-    cr_assert_eq(jg_scan_evaluate(s, i, ws, values, &err), JG_OK);
-    cr_assert_eq(jg_scan_checkpoint_add(c, i, JG_OK, values, NULL, &err), JG_OK);
-  }
-  jg_scan_workspace_free(s, ws);
+  const long long first_three[] = {0, 1, 2};
+  record_points(s, c, first_three, 3);
   jg_scan_checkpoint_close(c, 0);
   char *good = read_file(ck);
   char *second_line = strchr(good, '\n') + 1;
@@ -800,19 +802,26 @@ Test(scan, program_writes_the_same_file_with_one_and_two_threads) {
   remove_dir(dir);
 }
 
+#ifdef JG_TEST_MPIEXEC
+/* A fresh folder for a test on two MPI ranks. Open MPI refuses root
+ * without both variables, and 2 ranks may exceed the slots of a small CI
+ * machine (docs: c-practices.md 4.5). */
+static void mpi_test_folder(char *dir, size_t size) {
+  make_dir(dir, size);
+  setenv("OMPI_ALLOW_RUN_AS_ROOT", "1", 1);
+  setenv("OMPI_ALLOW_RUN_AS_ROOT_CONFIRM", "1", 1);
+  setenv("OMPI_MCA_rmaps_base_oversubscribe", "1", 1);
+}
+#endif
+
 Test(scan, program_on_two_mpi_ranks_writes_the_single_process_file) {
 #ifndef JG_TEST_MPIEXEC
   cr_skip_test("jeansgrow was built without MPI (JG_WITH_MPI off or MPI not found)");
 #else
   char dir[64], f1[128], f2[128];
-  make_dir(dir, sizeof dir);
+  mpi_test_folder(dir, sizeof dir);
   path_in(f1, sizeof f1, dir, "serial.txt");
   path_in(f2, sizeof f2, dir, "mpi.txt");
-  /* Open MPI refuses root without both variables, and 2 ranks may exceed
-   * the slots of a small CI machine (docs: c-practices.md 4.5). */
-  setenv("OMPI_ALLOW_RUN_AS_ROOT", "1", 1);
-  setenv("OMPI_ALLOW_RUN_AS_ROOT_CONFIRM", "1", 1);
-  setenv("OMPI_MCA_rmaps_base_oversubscribe", "1", 1);
   const char *a1[] = {SCAN_ARGS(f1), "--threads", "1", NULL};
   const char *a2[] = {JG_TEST_MPIEXEC, JG_TEST_MPI_NP_FLAG, "2", SCAN_ARGS(f2), NULL};
   outcome o1 = run_program(dir, a1), o2 = run_program(dir, a2);
@@ -877,12 +886,9 @@ Test(scan, program_silent_mpi_rank_ends_the_job_with_a_resumable_checkpoint, .ti
   cr_skip_test("jeansgrow was built without MPI (JG_WITH_MPI off or MPI not found)");
 #else
   char dir[64], out[128], ck[160];
-  make_dir(dir, sizeof dir);
+  mpi_test_folder(dir, sizeof dir);
   path_in(out, sizeof out, dir, "silent.txt");
   snprintf(ck, sizeof ck, "%s.checkpoint", out);
-  setenv("OMPI_ALLOW_RUN_AS_ROOT", "1", 1);
-  setenv("OMPI_ALLOW_RUN_AS_ROOT_CONFIRM", "1", 1);
-  setenv("OMPI_MCA_rmaps_base_oversubscribe", "1", 1);
 #define SILENT_ARGS(o)                                                                       \
   JG_PROGRAM, "scan", REFERENCE, "--vary", "cosmology.hubble_h=0.6:0.8:100", "--set", COARSE, \
       "--set", "output.redshifts=[10.0]", "--threads", "1", "-o", o
