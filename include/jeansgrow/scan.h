@@ -249,6 +249,12 @@ typedef struct jg_scan_checkpoint jg_scan_checkpoint;
  */
 jg_status jg_scan_checkpoint_open(const jg_scan *s, const char *path, int resume,
                                   jg_scan_checkpoint **out, jg_error *err);
+/* Where the program keeps the checkpoint of the table `output`:
+ * OUTPUT.checkpoint, or, for a name so long that the suffix would pass the
+ * longest name the system allows (255 bytes), the name cut short with a
+ * hash of the whole path: CUT~HHHHHHHHHHHHHHHH.checkpoint. Free the result;
+ * NULL when out of memory. */
+char *jg_scan_checkpoint_path_for(const char *output);
 /* Record a finished point (status JG_OK: `values` holds
  * jg_scan_values_per_point values) or a failed one (`message` says why).
  * Thread-safe. Each record is flushed to the system at once, and synced to

@@ -12,7 +12,6 @@
 #include <errno.h>
 #include <fcntl.h>
 #include <getopt.h>
-#include <limits.h>
 #include <signal.h>
 #include <stdio.h>
 #include <stdlib.h>
@@ -308,29 +307,6 @@ static int output_is_special(const char *path) {
   return stat(path, &sb) == 0 && !S_ISREG(sb.st_mode) && !S_ISDIR(sb.st_mode);
 }
 
-/* OUTPUT.checkpoint; for a name so long that the suffix would pass the
- * longest name the system allows, the name is cut and a hash of the whole
- * path keeps apart outputs that share the cut part:
- * CUT~HHHHHHHHHHHHHHHH.checkpoint. Every message names the file. */
-static char *checkpoint_path_of(const char *output) {
-  static const char suffix[] = ".checkpoint";
-  const char *slash = strrchr(output, '/');
-  const size_t dir_len = slash ? (size_t)(slash - output) + 1 : 0;
-  const size_t name_len = strlen(output + dir_len);
-  const size_t size = dir_len + name_len + sizeof suffix + 32;
-  char *path = malloc(size);
-  if (!path) return NULL;
-  if (name_len + sizeof suffix - 1 <= NAME_MAX) {
-    snprintf(path, size, "%s%s", output, suffix);
-    return path;
-  }
-  unsigned long long h = 0xcbf29ce484222325ULL; /* FNV-1a 64 */
-  for (const char *c = output; *c; c++) h = (h ^ (unsigned char)*c) * 0x100000001b3ULL;
-  const size_t cut = NAME_MAX - (sizeof suffix - 1) - 17;
-  snprintf(path, size, "%.*s~%016llx%s", (int)(dir_len + cut), output, h, suffix);
-  return path;
-}
-
 /* Everything before the first point: returns -1 to go on, else an exit
  * status (the error printed). Only the writing rank opens files. */
 static int scan_prepare(const cli_command *cmd, int argc, char **argv, int writer,
@@ -378,7 +354,7 @@ static int scan_prepare(const cli_command *cmd, int argc, char **argv, int write
     }
     path = NULL; /* the points are kept in an anonymous checkpoint */
   }
-  if (path && !(su->checkpoint_path = checkpoint_path_of(path))) {
+  if (path && !(su->checkpoint_path = jg_scan_checkpoint_path_for(path))) {
     JG_FAIL(&err, JG_ENOMEM, "out of memory");
     return cli_report(&err);
   }

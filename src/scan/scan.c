@@ -20,6 +20,7 @@
 #include <fcntl.h>
 #include <inttypes.h>
 #include <libconfig.h>
+#include <limits.h>
 #include <math.h>
 #include <pthread.h>
 #include <stdint.h>
@@ -1302,6 +1303,25 @@ jg_status jg_scan_checkpoint_open(const jg_scan *s, const char *path, int resume
   c->last_sync = monotonic_seconds();
   *out = c;
   return JG_OK;
+}
+
+char *jg_scan_checkpoint_path_for(const char *output) {
+  static const char suffix[] = ".checkpoint";
+  const char *slash = strrchr(output, '/');
+  const size_t dir_len = slash ? (size_t)(slash - output) + 1 : 0;
+  const size_t name_len = strlen(output + dir_len);
+  const size_t size = dir_len + name_len + sizeof suffix + 32;
+  char *path = malloc(size);
+  if (!path) return NULL;
+  if (name_len + sizeof suffix - 1 <= NAME_MAX) {
+    snprintf(path, size, "%s%s", output, suffix);
+    return path;
+  }
+  /* The hash keeps apart outputs whose names share the cut part. */
+  const uint64_t h = fnv1a(FNV_OFFSET, output, strlen(output));
+  const size_t cut = NAME_MAX - (sizeof suffix - 1) - 17;
+  snprintf(path, size, "%.*s~%016" PRIx64 "%s", (int)(dir_len + cut), output, h, suffix);
+  return path;
 }
 
 jg_status jg_scan_checkpoint_add(jg_scan_checkpoint *c, long long index, jg_status status,
