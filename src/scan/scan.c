@@ -26,6 +26,7 @@
 #include <stdint.h>
 #include <stdlib.h>
 #include <string.h>
+#include <sys/mman.h>
 #include <sys/stat.h>
 #include <time.h>
 #include <unistd.h>
@@ -1051,10 +1052,11 @@ struct jg_scan_checkpoint {
   char *path;            /* NULL: anonymous */
   FILE *f;
   /* Per point of the slice: 1 + where its record starts, 0 if none. Zero
-   * means "none" so that the index comes from calloc untouched: the system
-   * gives its pages memory only as points finish, and a grid of 10^8
-   * points starts at once. */
+   * means "none" so that the index is a fresh anonymous mapping, never
+   * written before use: the system gives its pages memory only as points
+   * finish, and a grid of 10^8 points starts at once (see index_new). */
   long long *offset;
+  size_t offset_bytes;
   long long end;         /* where the next record goes */
   long long done, failed, resumed;
   char *buf;             /* one record's text, under the lock */
@@ -1062,6 +1064,16 @@ struct jg_scan_checkpoint {
   double last_sync;
   pthread_mutex_t lock;
 };
+
+/* A zeroed array of n offsets, mapped directly rather than taken from the
+ * allocator, which may write into large blocks (an allocator that
+ * checks memory, for one, marks the whole block at once). NULL when out of
+ * memory. */
+static long long *index_new(size_t n, size_t *bytes) {
+  *bytes = (n > 0 ? n : 1) * sizeof(long long);
+  void *p = mmap(NULL, *bytes, PROT_READ | PROT_WRITE, MAP_PRIVATE | MAP_ANONYMOUS, -1, 0);
+  return p == MAP_FAILED ? NULL : p;
+}
 
 /* Append "content *HASH\n" at the end of the file. */
 static jg_status append_line(jg_scan_checkpoint *c, const char *content, long long *where,
@@ -1254,7 +1266,7 @@ jg_status jg_scan_checkpoint_open(const jg_scan *s, const char *path, int resume
   if (!c) return JG_FAIL(err, JG_ENOMEM, "out of memory");
   c->s = s;
   pthread_mutex_init(&c->lock, NULL);
-  c->offset = calloc((size_t)s->count, sizeof(long long));
+  c->offset = index_new((size_t)s->count, &c->offset_bytes);
   c->buf_size = 64 + (size_t)s->n_values * 32 + JG_ERROR_MESSAGE_SIZE;
   c->buf = malloc(c->buf_size);
   if (path) c->path = dup_string(path);
@@ -1386,7 +1398,7 @@ void jg_scan_checkpoint_close(jg_scan_checkpoint *c, int remove_file) {
   }
   pthread_mutex_destroy(&c->lock);
   free(c->path);
-  free(c->offset);
+  if (c->offset) munmap(c->offset, c->offset_bytes);
   free(c->buf);
   free(c);
 }
