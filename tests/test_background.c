@@ -1,6 +1,6 @@
 /*
  * The background (src/history/background.c): analytic limits, check values of
- * checks.md, and bad input.
+ * src/PHYSICS.md §10, and bad input.
  *
  * CMake (tests/CMakeLists.txt), with the helper there, which links
  * jeansgrow_static and PkgConfig::CRITERION:
@@ -25,24 +25,14 @@
 
 #include "jeansgrow/background.h"
 #include "jeansgrow/constants.h"
-
-static void quiet_gsl(void) { gsl_set_error_handler_off(); }
-
-/* Criterion has no relative comparison; NaN fails because every comparison
- * with NaN is false. */
-static void assert_rel(double actual, double expected, double rtol, const char *what) {
-  double diff = fabs(actual - expected);
-  cr_assert(diff <= rtol * fabs(expected),
-            "%s: got %.17g, expected %.17g (relative difference %.3g, tolerance %.3g)", what,
-            actual, expected, expected != 0.0 ? diff / fabs(expected) : diff, rtol);
-}
+#include "support.h"
 
 static void assert_ok(jg_status st, const jg_error *err, const char *what) {
   cr_assert(st == JG_OK, "%s failed: %s: %s", what, jg_status_name(st), err->message);
 }
 
 /* Planck 2018, TT,TE,EE+lowE+lensing (Planck Collaboration 2020, A&A 641,
- * A6, Table 2; checks.md §1): the inputs of the z_eq check value. */
+ * A6, Table 2; src/PHYSICS.md §10.1): the inputs of the z_eq check value. */
 static jg_cosmology planck2018(void) {
   jg_cosmology c = {
       .hubble_h = 0.6736,
@@ -93,7 +83,7 @@ TestSuite(einstein_de_sitter, .init = quiet_gsl);
 
 /* Omega_m = 1: H = H0 a^-3/2, t = 2/(3 H0) a^3/2, eta = 2 (c/H0) sqrt(a),
  * chi(z) = 2 (c/H0) (1 - 1/sqrt(1+z)), D = a. Textbook closed forms
- * (common practice, no source). Tolerance 1e-6 (the brief's): the residual
+ * (common practice, no source). Tolerance 1e-6: the residual
  * Omega_r ~ 1e-18 is far below it, the quadrature error near 1e-9. */
 static const double eds_a[] = {1.0e-3, 0.0137, 0.31, 0.77, 1.0};
 
@@ -152,7 +142,7 @@ Test(einstein_de_sitter, comoving_distance) {
 }
 
 Test(einstein_de_sitter, heath_growth_is_a) {
-  /* checks.md §9 and §12: EdS gives D = a exactly. */
+  /* src/PHYSICS.md §10.4: EdS gives D = a exactly. */
   jg_cosmology c = matter_lambda(1.0, 0.0);
   jg_background *bg = build(&c);
   jg_error err;
@@ -292,10 +282,10 @@ Test(radiation_matter, thin_equality_layer_open_universe) {
 TestSuite(planck2018, .init = quiet_gsl);
 
 Test(planck2018, matter_radiation_equality) {
-  /* 1 + z_eq = (omega_b + omega_c) / omega_r = 3402.97: checks.md §12,
+  /* 1 + z_eq = (omega_b + omega_c) / omega_r = 3402.97: src/PHYSICS.md §10.1,
    * derived from Planck 2018 inputs with CODATA constants (not the paper's
    * 3402 +- 26, which counts its massive neutrino differently). Printed to
-   * 6 figures (half a unit 1.5e-6); checks.md suggests 1e-4, 1e-5 suffices. */
+   * 6 figures (half a unit 1.5e-6): 1e-5. */
   jg_cosmology c = planck2018();
   jg_background *bg = build(&c);
   assert_rel(1.0 + jg_background_z_equality(bg), 3402.97, 1e-5, "1 + z_eq");
@@ -306,20 +296,20 @@ Test(planck2018, radiation_and_hydrogen_densities) {
   jg_cosmology c = planck2018();
   jg_background *bg = build(&c);
   double h2 = c.hubble_h * c.hubble_h;
-  /* checks.md §11 (derived from CODATA/IAU): omega_gamma h^2 = 2.472975e-5
+  /* src/PHYSICS.md §10.2 (derived from CODATA/IAU): omega_gamma h^2 = 2.472975e-5
    * and omega_r h^2 = 4.183703e-5 for N_eff = 3.046 (7 figures, 1e-6). */
   assert_rel(bg->omega_gamma * h2, 2.472975e-5, 1e-6, "omega_gamma h^2");
   assert_rel(bg->omega_r * h2, 4.183703e-5, 1e-6, "omega_r h^2");
-  /* checks.md §11 (derived): n_H today = 0.18946 m^-3 for Y_P = 0.2454
+  /* src/PHYSICS.md §10.2 (derived): n_H today = 0.18946 m^-3 for Y_P = 0.2454
    * (5 figures: half a unit is 2.6e-5). */
   assert_rel(bg->n_H0, 0.18946, 3e-5, "n_H0 [m^-3]");
   assert_rel(jg_background_n_hydrogen(bg, 1.0 / 1101.0), 0.18946 * pow(1101.0, 3), 3e-5,
              "n_H(z = 1100)");
-  /* checks.md §11 (derived): f_He = n_He/n_H = 0.0819 (3 figures, half a unit
+  /* src/PHYSICS.md §10.2 (derived): f_He = n_He/n_H = 0.0819 (3 figures, half a unit
    * 6e-4). The shortcut Y/(4(1-Y)) = 0.0813 would fail. */
   assert_rel(bg->helium_to_hydrogen, 0.0819, 6e-4, "f_He");
   /* R = 3 rho_b / (4 rho_gamma) ~ a: R_c = 3 omega_b / (4 omega_gamma h^2)
-   * with the checks.md value of omega_gamma h^2 above. */
+   * with the value of omega_gamma h^2 above. */
   assert_rel(bg->R_coefficient, 3.0 * 0.02237 / (4.0 * 2.472975e-5), 1e-6, "R coefficient");
   /* T_rad = T0 (1 + z). */
   assert_rel(jg_background_T_radiation(bg, 1.0 / 1101.0), 2.7255 * 1101.0, 1e-15, "T(z = 1100)");
@@ -331,7 +321,7 @@ Test(planck2018, closure_and_densities) {
   jg_background *bg = build(&c);
   /* E(1) = 1 by closure (rounding only). */
   assert_rel(jg_background_E(bg, 1.0), 1.0, 1e-14, "E(a = 1)");
-  /* rho_crit0 = 1.878342e-26 h^2 kg m^-3 (checks.md §11, derived; 1e-6). */
+  /* rho_crit0 = 1.878342e-26 h^2 kg m^-3 (src/PHYSICS.md §10.2, derived; 1e-6). */
   assert_rel(bg->rho_crit0, 1.878342e-26 * 0.6736 * 0.6736, 1e-6, "rho_crit0");
   assert_rel(jg_background_rho_matter(bg, 0.5), bg->omega_m * bg->rho_crit0 * 8.0, 1e-15,
              "rho_m(a = 0.5)");
@@ -342,8 +332,8 @@ Test(planck2018, closure_and_densities) {
 }
 
 Test(planck2018, age_and_sound_horizon_vs_published) {
-  /* Planck 2018 TT,TE,EE+lowE+lensing (A&A 641, A6, Table 2; checks.md §1,
-   * V2): age 13.797 +- 0.023 Gyr, r_* = 144.43 +- 0.26 Mpc at
+  /* Planck 2018 TT,TE,EE+lowE+lensing (A&A 641, A6, Table 2; src/PHYSICS.md
+   * §10.1): age 13.797 +- 0.023 Gyr, r_* = 144.43 +- 0.26 Mpc at
    * z_* = 1089.92. The paper has one 0.06 eV neutrino, this library only
    * massless ones; each check treats that neutrino as it behaves when the
    * quantity is accumulated:
@@ -353,10 +343,10 @@ Test(planck2018, age_and_sound_horizon_vs_published) {
    *   Measured 6e-5; tolerance 1e-3, inside Planck's +-1.8e-3, and
    *   tight enough that a wrong neutrino factor or a missing (1 + R) fails.
    * - age: accumulated mostly at z < 10, where it is matter: its density
-   *   omega_nu h^2 = 0.06 eV / 93.14 eV = 0.00064 (checks.md §1, M) is added
+   *   omega_nu h^2 = 0.06 eV / 93.14 eV = 0.00064 (src/PHYSICS.md §10.1) is added
    *   to the CDM (still counted massless in the radiation too, a 1e-6
    *   effect on the age). Measured 3e-5; tolerance 5e-4, a third of
-   *   Planck's +-1.7e-3 (checks.md suggests 1.5e-3). Without the neutrino
+   *   Planck's +-1.7e-3. Without the neutrino
    *   mass the age comes out 1.2e-3 high, so the tolerance tells the two
    *   apart. */
   jg_cosmology c = planck2018();
@@ -374,11 +364,11 @@ Test(planck2018, age_and_sound_horizon_vs_published) {
   jg_background_free(bg);
 }
 
-/* ---- Heath growth, Omega_m = 0.3153 and 0.3 flat (checks.md §12) -------- */
+/* ---- Heath growth, Omega_m = 0.3153 and 0.3 flat (src/PHYSICS.md §10.4) - */
 
 TestSuite(heath_growth, .init = quiet_gsl);
 
-/* checks.md §12 values (derived there by quadrature of the Heath integral,
+/* src/PHYSICS.md §10.4 values (derived by quadrature of the Heath integral,
  * matter + Lambda, no radiation: hence radiation made negligible here).
  * Printed to 6 decimals: half a unit is 5e-7 absolute, i.e. 2e-5 relative
  * for D(50)/D(0) = 0.024883. The comparison is therefore absolute, 1e-6 (two
@@ -417,8 +407,8 @@ static double ln_growth(double ln_a, void *params) {
 }
 
 Test(heath_growth, present_growth_factor_and_rate) {
-  /* checks.md §12: g0 = 0.778981 and f(z = 0) = 0.512796 for Omega_m = 0.3;
-   * f = 0.527386 for Omega_m = 0.3153 (derived there; 6 figures). The rate is
+  /* src/PHYSICS.md §10.4: g0 = 0.778981 and f(z = 0) = 0.512796 for Omega_m = 0.3;
+   * f = 0.527386 for Omega_m = 0.3153 (derived by quadrature; 6 figures). The rate is
    * a one-sided numerical derivative (a <= 1 is all the API accepts); the
    * 1e-9 quadrature noise in D limits it to ~1e-7 (GSL's estimate, required
    * below 5e-7), so f is compared at 1e-6 absolute: half a unit of the 6th
@@ -656,7 +646,7 @@ Test(growth_equation, einstein_de_sitter_is_a) {
 
 /* A cosmological constant: the equation must give the Heath (1977) integral,
  * an independent closed form (1e-7: both quadratures are good to ~1e-9), and
- * f(z = 0) = 0.527386 for Omega_m = 0.3153 flat (checks.md §12, derived from
+ * f(z = 0) = 0.527386 for Omega_m = 0.3153 flat (src/PHYSICS.md §10.4, derived from
  * the Heath integral; 1e-5 as the table's digits allow). */
 Test(growth_equation, equals_heath_for_lambda) {
   jg_cosmology c = matter_lambda(0.3153, 0.0);

@@ -13,7 +13,6 @@
 #include <fcntl.h>
 #include <math.h>
 #include <signal.h>
-#include <spawn.h>
 #include <stdio.h>
 #include <stdlib.h>
 #include <string.h>
@@ -23,9 +22,8 @@
 #include <unistd.h>
 
 #include "jeansgrow/jeansgrow.h"
+#include "support.h"
 #include "tables.h"
-
-extern char **environ;
 
 #define BAD_DIR JG_SOURCE_DIR "/tests/bad"
 #define REFERENCE JG_SOURCE_DIR "/params/reference.cfg"
@@ -44,25 +42,6 @@ typedef struct run_result {
   char *err;
 } run_result;
 
-static char *read_text(const char *path) {
-  FILE *f = fopen(path, "rb");
-  if (!f) return NULL;
-  size_t cap = 4096, len = 0;
-  char *buf = malloc(cap);
-  cr_assert_not_null(buf);
-  size_t got;
-  while ((got = fread(buf + len, 1, cap - len - 1, f)) > 0) {
-    len += got;
-    if (cap - len < 2) {
-      buf = realloc(buf, cap *= 2);
-      cr_assert_not_null(buf);
-    }
-  }
-  fclose(f);
-  buf[len] = '\0';
-  return buf;
-}
-
 static void write_text(const char *path, const char *text) {
   FILE *f = fopen(path, "w");
   cr_assert_not_null(f, "cannot write %s", path);
@@ -70,41 +49,19 @@ static void write_text(const char *path, const char *text) {
   cr_assert_eq(fclose(f), 0);
 }
 
-/* Start the program with `args` (NULL-terminated, without argv[0]); stdout
- * and stderr go to files rather than pipes, so a chatty child cannot block. */
-static void child_start(child *c, const char *const *args) {
+/* Start the program with `args` (NULL-terminated, without argv[0]); its
+ * stdout and stderr are captured in files of a fresh folder. */
+static void child_start_program(child *c, const char *const *args) {
   snprintf(c->io_dir, sizeof c->io_dir, "/tmp/jg_cli_io_XXXXXX");
   cr_assert_not_null(mkdtemp(c->io_dir), "mkdtemp: %s", strerror(errno));
   char out_path[128], err_path[128];
   snprintf(out_path, sizeof out_path, "%s/stdout", c->io_dir);
   snprintf(err_path, sizeof err_path, "%s/stderr", c->io_dir);
-
-  /* posix_spawn wants char *const argv[]: give it copies it may not write. */
-  char *argv[MAX_ARGS + 2];
-  int n = 0;
-  argv[n++] = strdup(JG_PROGRAM);
-  for (int i = 0; args[i]; i++) {
-    cr_assert_lt(n, MAX_ARGS + 1, "too many arguments");
-    argv[n++] = strdup(args[i]);
-  }
-  argv[n] = NULL;
-
-  posix_spawn_file_actions_t fa;
-  posix_spawn_file_actions_init(&fa);
-  posix_spawn_file_actions_addopen(&fa, 0, "/dev/null", O_RDONLY, 0);
-  posix_spawn_file_actions_addopen(&fa, 1, out_path, O_WRONLY | O_CREAT | O_TRUNC, 0600);
-  posix_spawn_file_actions_addopen(&fa, 2, err_path, O_WRONLY | O_CREAT | O_TRUNC, 0600);
-  int rc = posix_spawn(&c->pid, JG_PROGRAM, &fa, NULL, argv, environ);
-  posix_spawn_file_actions_destroy(&fa);
-  for (int i = 0; i < n; i++) free(argv[i]);
-  cr_assert_eq(rc, 0, "cannot start %s: %s", JG_PROGRAM, strerror(rc));
+  c->pid = child_start(JG_PROGRAM, args, out_path, err_path, 0);
 }
 
 static void child_finish(child *c, run_result *r) {
-  pid_t w;
-  do w = waitpid(c->pid, &r->status, 0);
-  while (w < 0 && errno == EINTR);
-  cr_assert_eq(w, c->pid, "waitpid: %s", strerror(errno));
+  r->status = child_wait(c->pid);
   char path[128];
   snprintf(path, sizeof path, "%s/stdout", c->io_dir);
   r->out = read_text(path);
@@ -118,7 +75,7 @@ static void child_finish(child *c, run_result *r) {
 
 static void run(const char *const *args, run_result *r) {
   child c;
-  child_start(&c, args);
+  child_start_program(&c, args);
   child_finish(&c, r);
 }
 
@@ -627,7 +584,7 @@ Test(good_runs, sigterm_during_a_run_leaves_no_file, .timeout = 120) {
   const char *args[] = {"history", "--set", "output.history_rows=1000000", "-o", out, REFERENCE,
                         NULL};
   child c;
-  child_start(&c, args);
+  child_start_program(&c, args);
   int seen = 0;
   const struct timespec pause = {0, 200000};
   for (int i = 0; i < 100000 && !seen; i++) {

@@ -4,7 +4,7 @@
  *
  * Source of every reference value unless stated otherwise: Planck
  * Collaboration 2020, A&A 641, A6 ("Planck 2018 results VI"), Table 2,
- * column TT,TE,EE+lowE+lensing (checks.md §1). The cosmology is built with
+ * column TT,TE,EE+lowE+lensing (src/PHYSICS.md §10.1). The cosmology is built with
  * jg_params_set_defaults(), which holds that column's omega_b, omega_c, h,
  * T_cmb = 2.7255 K, Y_P = 0.2454 and N_eff = 3.046.
  *
@@ -12,8 +12,8 @@
  * is an effective three-level atom with a fudge factor and our helium is in
  * Saha equilibrium, whereas the published fit used a multi-level
  * recombination treatment; that moves the decoupling redshifts by a few
- * 0.1 % at most (checks.md §1 quotes ~0.4 % drifts for the crudest
- * H-only + Saha-He case). Planck's baseline also has one 0.06 eV massive
+ * 0.1 % at most (drifts of ~0.4 % are reported for the crudest
+ * H-only + Saha-He treatment; value from memory). Planck's baseline also has one 0.06 eV massive
  * neutrino, which we treat as massless radiation: this changes the matter
  * density today by omega_nu = 0.00064 (0.45 % of omega_m) and so the age and,
  * slightly, the sound horizons.
@@ -28,17 +28,7 @@
 #include "jeansgrow/epochs.h"
 #include "jeansgrow/params.h"
 #include "jeansgrow/thermal.h"
-
-static void quiet_gsl(void) { gsl_set_error_handler_off(); }
-
-/* Criterion has no relative comparison. Written so that NaN fails: every
- * comparison with NaN is false. */
-static void assert_rel(double actual, double expected, double rtol, const char *what) {
-  double diff = fabs(actual - expected);
-  cr_assert(diff <= rtol * fabs(expected),
-            "%s: got %.10g, expected %.10g (relative difference %.3g, tolerance %.3g)", what,
-            actual, expected, expected != 0.0 ? diff / fabs(expected) : diff, rtol);
-}
+#include "support.h"
 
 /* The epochs of the default (Planck 2018) cosmology with the default
  * thermal settings. */
@@ -91,7 +81,7 @@ Test(planck2018_epochs, sound_horizon_at_drag) {
 }
 
 /* 1 + z_eq = (omega_b + omega_c) / omega_r with omega_r from T_cmb and
- * N_eff: z_eq = 3401.97 (checks.md §12, derived here from the Table 2
+ * N_eff: z_eq = 3401.97 (src/PHYSICS.md §10.1, derived from the Table 2
  * inputs with CODATA 2018 constants; Planck's own 3402 +- 26 agrees). Pure
  * algebra on the inputs, so 1e-4 covers only the rounding of the derived
  * value to six digits. */
@@ -100,7 +90,7 @@ Test(planck2018_epochs, matter_radiation_equality) {
   assert_rel(e.z_eq, 3401.97, 1e-4, "z_eq");
 }
 
-/* k_eq = a_eq H(a_eq) / c = 0.0103832 /Mpc (checks.md §12, derived here from
+/* k_eq = a_eq H(a_eq) / c = 0.0103832 /Mpc (src/PHYSICS.md §10.1, derived from
  * the same inputs; Planck 2018 Table 2 gives 0.010384 +- 0.000081). 1e-4:
  * the rounding of the derived value. */
 Test(planck2018_epochs, equality_wavenumber) {

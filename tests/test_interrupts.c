@@ -24,7 +24,6 @@
 #include <dirent.h>
 #include <errno.h>
 #include <fcntl.h>
-#include <grp.h>
 #include <signal.h>
 #include <stdio.h>
 #include <stdlib.h>
@@ -38,10 +37,9 @@
 
 #include <criterion/criterion.h>
 
+#include "support.h"
+
 #define REFERENCE JG_SOURCE_DIR "/params/reference.cfg"
-#define NOBODY_ID 65534
-/* Exit status of a child that could not start the program at all. */
-#define EXEC_FAILED 127
 
 /* ---- files and folders ------------------------------------------------------ */
 
@@ -56,25 +54,6 @@ static void write_text(const char *path, const char *text) {
   cr_assert(f != NULL, "cannot create %s: %s", path, strerror(errno));
   fputs(text, f);
   cr_assert(fclose(f) == 0, "cannot write %s", path);
-}
-
-static char *read_text(const char *path) {
-  FILE *f = fopen(path, "r");
-  if (!f) return NULL;
-  size_t cap = 1 << 16, n = 0;
-  char *buf = malloc(cap);
-  cr_assert(buf != NULL);
-  size_t got;
-  while ((got = fread(buf + n, 1, cap - n - 1, f)) > 0) {
-    n += got;
-    if (n + 1 == cap) {
-      buf = realloc(buf, cap *= 2);
-      cr_assert(buf != NULL);
-    }
-  }
-  buf[n] = '\0';
-  fclose(f);
-  return buf;
 }
 
 /* The entries of a folder, '.' and '..' left out, as one line for messages. */
@@ -134,35 +113,7 @@ static void remove_folder(const char *dir) {
  * child gives up root first. Does not wait. */
 static pid_t start_program(const char *const *argv, const char *out_path, const char *err_path,
                            int as_nobody) {
-  pid_t pid = fork();
-  cr_assert(pid >= 0, "fork: %s", strerror(errno));
-  if (pid > 0) return pid;
-  /* The child: a clean signal state, as from a shell prompt. */
-  sigset_t none;
-  sigemptyset(&none);
-  sigprocmask(SIG_SETMASK, &none, NULL);
-  signal(SIGINT, SIG_DFL);
-  signal(SIGTERM, SIG_DFL);
-  int in = open("/dev/null", O_RDONLY);
-  int out = open(out_path ? out_path : "/dev/null", O_WRONLY | O_CREAT | O_TRUNC, 0644);
-  int err = open(err_path, O_WRONLY | O_CREAT | O_TRUNC, 0644);
-  if (in < 0 || out < 0 || err < 0) _exit(EXEC_FAILED);
-  dup2(in, 0), dup2(out, 1), dup2(err, 2);
-  if (as_nobody && (setgroups(0, NULL) != 0 || setgid(NOBODY_ID) != 0 || setuid(NOBODY_ID) != 0))
-    _exit(EXEC_FAILED);
-  char *args[64];
-  int n = 0;
-  args[n++] = strdup(JG_PROGRAM); /* execv wants non-const strings */
-  for (int i = 1; argv[i] && n < 63; i++) args[n++] = strdup(argv[i]);
-  args[n] = NULL;
-  execv(JG_PROGRAM, args);
-  _exit(EXEC_FAILED);
-}
-
-static int wait_program(pid_t pid) {
-  int status;
-  while (waitpid(pid, &status, 0) < 0) cr_assert(errno == EINTR, "waitpid: %s", strerror(errno));
-  return status;
+  return child_start(JG_PROGRAM, argv + 1, out_path, err_path, as_nobody);
 }
 
 /* Run to the end; returns the exit status (or 1000 + signal) and fills
@@ -173,7 +124,7 @@ static int run_program(const char *const *argv, const char *out_path, int as_nob
   int fd = mkstemp(err_path);
   cr_assert(fd >= 0, "mkstemp: %s", strerror(errno));
   close(fd);
-  int status = wait_program(start_program(argv, out_path, err_path, as_nobody));
+  int status = child_wait(start_program(argv, out_path, err_path, as_nobody));
   char *text = read_text(err_path);
   unlink(err_path);
   snprintf(err_text, err_size, "%s", text ? text : "");
@@ -245,7 +196,7 @@ Test(unwritable_output, read_only_folder_is_refused_before_any_work) {
   int n = list_folder(dir, names, sizeof names);
   chmod(dir, 0700);
   remove_folder(dir);
-  if (rc == EXEC_FAILED && as_nobody)
+  if (rc == CHILD_EXEC_FAILED && as_nobody)
     cr_skip_test("running as root, and user nobody cannot run %s (%s): permission bits cannot "
                  "be tested here",
                  JG_PROGRAM, err);
@@ -424,7 +375,7 @@ Test(special_outputs, a_named_pipe_receives_the_table) {
   }
   if (!reader_done) {
     kill(reader, SIGKILL);
-    reader_status = wait_program(reader);
+    reader_status = child_wait(reader);
   }
   struct stat sb;
   int still = lstat(path, &sb) == 0 && S_ISFIFO(sb.st_mode);
@@ -613,7 +564,7 @@ static void interrupt_history(int sig, interrupt_phase phase) {
   }
   if (!finished) {
     cr_assert(kill(pid, sig) == 0, "kill: %s", strerror(errno));
-    status = wait_program(pid);
+    status = child_wait(pid);
   }
   char *err = read_text(err_path);
   unlink(err_path);

@@ -104,7 +104,7 @@ static void solve_ok(const jg_perturb_model *m, jg_perturb_workspace *w, double 
 /* Barkana & Loeb (2001, Phys. Rep. 349, 125, section 2): in EdS, baryons with
  * negligible self-gravity and pressure that start empty (delta_b = 0) but
  * moving with the dark matter (d delta_b/da = d delta_c/da) at a_i follow
- * delta_b/delta_c = 1 - a_i/a (exact solution; checks.md section 9, D).
+ * delta_b/delta_c = 1 - a_i/a (exact solution, derived in src/PHYSICS.md §10.4).
  * Tolerance 1e-6: the integration runs at rel_tol 1e-11. */
 Test(perturb, eds_catch_up_moving_with_dark_matter) {
   eds_medium e = {0.0, 0.0, 0.0};
@@ -133,8 +133,8 @@ Test(perturb, eds_catch_up_moving_with_dark_matter) {
 
 /* Same medium, baryons released at rest (delta_b = d delta_b/da = 0 at a_i):
  * the exact solution of the same equation is
- * delta_b/delta_c = 1 - 3 a_i/a + 2 (a_i/a)^(3/2) (checks.md section 9, D;
- * quoted in physics.md section 6). Run with the fluctuating model: with no
+ * delta_b/delta_c = 1 - 3 a_i/a + 2 (a_i/a)^(3/2) (derived in src/PHYSICS.md
+ * §10.4). Run with the fluctuating model: with no
  * pressure delta_T must not matter. */
 Test(perturb, eds_catch_up_from_rest) {
   eds_medium e = {0.0, 0.0, 3.0};
@@ -156,7 +156,7 @@ Test(perturb, eds_catch_up_from_rest) {
   jg_perturb_model_free(m);
 }
 
-/* Meszaros (1974, A&A 37, 225; checks.md section 10): sub-horizon CDM in a
+/* Meszaros (1974, A&A 37, 225; src/PHYSICS.md §7.3): sub-horizon CDM in a
  * radiation + matter background with smooth other components grows as
  * 1 + 3y/2, y = a/a_eq, when all the matter clusters (f_b = 0 here). Starting
  * on that mode at y = 0.01 the solver must stay on it (1e-7: a decaying-mode
@@ -251,7 +251,7 @@ Test(perturb, sound_speed_model_limits) {
  * moves D(z)/D(0) by ~ (2/3) z/(1 + z_eq) <= 4e-4 for z <= 2; the baryon
  * decaying mode left by the release at z ~ 1000 has decayed by
  * (1100/3)^(-5/2) ~ 4e-7. Low redshifts keep the radiation term small;
- * tolerance 1e-3 (brief). */
+ * tolerance 1e-3, above those expected differences. */
 Test(perturb, large_scale_growth_follows_heath) {
   real_case r;
   real_open(&r, NULL);
@@ -268,7 +268,7 @@ Test(perturb, large_scale_growth_follows_heath) {
 }
 
 /* Far below the filtering scale (k = 1, 2, 3 /Mpc against k_F ~ 500 /Mpc)
- * delta_b/delta_c at z = 20 must equal its k -> 0 value to 1e-3 (brief), and
+ * delta_b/delta_c at z = 20 must equal its k -> 0 value to 1e-3 (the k^2 law puts it ~(3/500)^2 ~ 4e-5 away), and
  * the small departure must be the k^2 law of the limit solve,
  * (k^2 coefficient) to 1 % (the k^4 term is (k/k_F)^2 ~ 4e-5 of it). */
 Test(perturb, large_scales_are_scale_independent) {
@@ -322,7 +322,7 @@ Test(perturb, small_scales_oscillate_below_dark_matter) {
 }
 
 /* Halving both tolerances must move delta_b/delta_c by less than 1e-6
- * relative (physics.md section 7: defaults reach 1e-6 on growth ratios). */
+ * relative (src/PHYSICS.md §9: defaults reach 1e-6 on growth ratios). */
 Test(perturb, converged_at_default_tolerances) {
   real_case r, h;
   real_open(&r, NULL);
@@ -346,7 +346,7 @@ Test(perturb, converged_at_default_tolerances) {
 /* Not only converged but accurate: the defaults against the same solver at
  * rel_tol 1e-12, abs_tol 1e-14 (which agrees with SciPy's Radau at tight
  * tolerance, tests/bench/scipy_perturb.py), 1e-6 relative in the growth
- * ratio delta_b/delta_c (the accuracy physics.md section 7 asks of the
+ * ratio delta_b/delta_c (the accuracy src/PHYSICS.md §9 states for the
  * defaults), from the largest scales to k = 1e5 and with outputs close
  * together (a short last step before an output). The contrasts themselves
  * are good to about 1e-6 (1.2e-6 at k = 1e5, z = 1000). */
@@ -480,11 +480,12 @@ Test(perturb, accurate_across_cosmologies) {
 }
 
 /* Moving z_initial from 1e4 to 2e4 or 8e3 must change delta_b/delta_c at
- * z <= 1000 by less than 1e-3 (physics.md section 5), and the CDM contrast
+ * z <= 1000 by less than 1e-3 (src/PHYSICS.md §7.3), and the CDM contrast
  * per unit growing-mode amplitude (delta_c D_+(z_initial)) too: the growing
  * mode is normalised so that late growth does not depend on the start.
  * Starting at 3000 must instead shift delta_b/delta_c at z = 1000 by
- * ~0.7 % (physics.md; value from the project's notes, checked to 0.3-1.2 %). */
+ * ~0.7 % (src/PHYSICS.md §7.3: our own estimate, no outside source;
+ * checked to 0.3-1.2 %). */
 Test(perturb, insensitive_to_initial_redshift) {
   const double zi[] = {1e4, 2e4, 8e3, 3e3};
   const double z[] = {1000.0, 500.0, 100.0, 20.0};

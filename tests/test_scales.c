@@ -78,10 +78,10 @@ static double richardson_inverse_kf2(const jg_perturb_model *m, jg_perturb_works
 }
 
 /* Gnedin & Hui (1998, MNRAS 296, 44), EdS form of their integral
- * (checks.md section 6): a comoving k_J fixed in time gives k_F = k_J
+ * (src/PHYSICS.md §10.4): a comoving k_J fixed in time gives k_F = k_J
  * asymptotically. Started at a_i, the same integral gives exactly
- * 1/k_F^2 = (1 - 3s + 2 s^(3/2)) / k_J^2, s = a_i/a (derived here, D). The
- * solved perturbations must give k_F = k_J to 1 % (brief) by Richardson on
+ * 1/k_F^2 = (1 - 3s + 2 s^(3/2)) / k_J^2, s = a_i/a (derived there). The
+ * solved perturbations must give k_F = k_J to 1 % (the finite start moves k_F by 1.5e-4 at most here) by Richardson on
  * full solves at k_F/20 and k_F/10, and the exact finite-start value to 1e-6
  * from the k^2 coefficient of the limit solve; the integral integrated
  * alongside must match it too. */
@@ -108,8 +108,8 @@ Test(scales, gnedin_hui_constant_jeans_wavenumber) {
   jg_perturb_model_free(m);
 }
 
-/* The two-phase history of checks.md section 6 (closed form derived there
- * from the Gnedin & Hui EdS integral, D): k_J constant until a_t, then
+/* The two-phase history of src/PHYSICS.md §10.4 (closed form derived there
+ * from the Gnedin & Hui EdS integral): k_J constant until a_t, then
  * k_J^2 ~ a. k_F/k_J(a) = 0.72398, 0.43969, 0.38120, 0.29860 and
  * M_F/M_J = (k_J/k_F)^3 = 2.6353, 11.7645, 18.0525, 37.5603 (same radius
  * convention for both) at x = a_t/a = 0.5, 0.1, 0.05, 0.01. Started at
@@ -117,7 +117,7 @@ Test(scales, gnedin_hui_constant_jeans_wavenumber) {
  * 3 (s - 2/3 s^1.5)/k_J0^2 with s = a_i/a <= 5e-7, moves k_F by <= 1e-6
  * (it is also added to the exact comparison below; a start at 1e-4 a_t
  * would move k_F by 8e-5 at x = 0.5). Richardson on full solves: 1 %
- * (brief); the limit solve: 5e-5 (the quoted values have 5 digits). */
+ * as above; the limit solve: 5e-5 (the quoted values have 5 digits). */
 Test(scales, gnedin_hui_two_phase_history) {
   gh_medium g = {10.0, 1e-2};
   jg_medium md;
@@ -170,13 +170,13 @@ static void real_close(real_case *r) { real_case_close(r); }
 /* Barkana & Loeb (2001, Phys. Rep. 349, 125, section 3.1): while the gas is
  * locked to the CMB, M_J ~ 1.35e5 (Omega_m h^2/0.13)^(-1/2) M_sun, isothermal,
  * independent of z for 100 < z < 1000 (value from memory; reproduced as
- * 1.362e5 with their definitions, checks.md section 12). 10 % (brief): the
+ * 1.362e5 with their definitions, src/PHYSICS.md §10.5). 10 %: the
  * real gas departs from their assumptions at both ends (mu < 1.22 while
  * x_e ~ 0.05 near z = 1000, T_gas < T_CMB below z ~ 300), so the check runs
  * where they hold, 300 <= z <= 1000. Right after recombination the Jeans
  * mass is of order 1e5-1e6 M_sun (common practice, no source; Peebles &
  * Dicke 1968, value from memory). gamma = 5/3 multiplies M_J by (5/3)^(3/2)
- * exactly (convention check, checks.md trap 4). */
+ * exactly (convention check, src/PHYSICS.md §8). */
 Test(scales, jeans_mass_after_recombination) {
   real_case r;
   real_open(&r, JG_SOUND_SPEED_FLUCTUATING);
@@ -219,12 +219,12 @@ Test(scales, solved_filtering_scale_is_small_k_law) {
   real_close(&r);
 }
 
-/* physics.md section 6: on the real history the Gnedin-Hui integral (which
+/* src/PHYSICS.md §7.4: on the real history the Gnedin-Hui integral (which
  * counts pressure smoothing before the baryons are released near z_drag)
  * and the solved k_F differ by 10-25 %, the integral giving the smaller k_F.
  * Compared with the same (isothermal) sound speed at z = 10 and 20, where
  * that statement applies; at higher z the release is more recent and the
- * gap wider (see the report in the commit). */
+ * gap wider (README, "Why the two filtering scales differ"). */
 Test(scales, integral_and_solved_filtering_differ_on_real_history) {
   real_case r;
   real_open(&r, JG_SOUND_SPEED_ISOTHERMAL);
@@ -244,7 +244,7 @@ Test(scales, integral_and_solved_filtering_differ_on_real_history) {
  * delta_b/delta_c (1e-6: root tolerance 1e-7 in ln k times a slope ~ 1), it
  * is the first crossing (above half at 0.9 k_1/2), and M_1/2 uses the
  * half-wavelength convention of jeans.c. The large-scale ratio itself is
- * ~0.5 near z = 200 (physics.md section 6; 0.45-0.55 checked). */
+ * ~0.5 near z = 200 (src/PHYSICS.md §1; 0.45-0.55 checked). */
 Test(scales, half_suppression_wavenumber) {
   real_case r;
   real_open(&r, JG_SOUND_SPEED_FLUCTUATING);

@@ -19,7 +19,6 @@
 #include <gsl/gsl_errno.h>
 #include <math.h>
 #include <signal.h>
-#include <spawn.h>
 #include <stdio.h>
 #include <stdlib.h>
 #include <string.h>
@@ -30,35 +29,16 @@
 #include <unistd.h>
 
 #include "jeansgrow/jeansgrow.h"
+#include "support.h"
 #include "tables.h"
-
-extern char **environ;
 
 #define REFERENCE JG_SOURCE_DIR "/params/reference.cfg"
 #define COARSE "thermal.grid_points=1000"
 
-static void quiet_gsl(void) { gsl_set_error_handler_off(); }
 TestSuite(scan, .init = quiet_gsl);
 
 /* ---- helpers ------------------------------------------------------------- */
 
-static char *read_file(const char *path) {
-  FILE *f = fopen(path, "rb");
-  if (!f) return NULL;
-  size_t cap = 1 << 16, len = 0, got;
-  char *buf = malloc(cap);
-  cr_assert_not_null(buf);
-  while ((got = fread(buf + len, 1, cap - len - 1, f)) > 0) {
-    len += got;
-    if (cap - len < 2) {
-      buf = realloc(buf, cap *= 2);
-      cr_assert_not_null(buf);
-    }
-  }
-  fclose(f);
-  buf[len] = '\0';
-  return buf;
-}
 
 static void write_file(const char *path, const char *text) {
   FILE *f = fopen(path, "w");
@@ -531,13 +511,13 @@ Test(scan, checkpoint_of_another_scan_or_without_resume_is_refused) {
   jg_scan_checkpoint *c = NULL;
   cr_assert_eq(jg_scan_checkpoint_open(a, ck, 0, &c, &err), JG_OK, "%s", err.message);
   jg_scan_checkpoint_close(c, 0);
-  char *before = read_file(ck);
+  char *before = read_text(ck);
 
   cr_assert_eq(jg_scan_checkpoint_open(a, ck, 0, &c, &err), JG_EINVAL);
   cr_assert(strstr(err.message, "exists: a run of this output was interrupted"), "%s", err.message);
   cr_assert_eq(jg_scan_checkpoint_open(b, ck, 1, &c, &err), JG_EINVAL);
   cr_assert(strstr(err.message, "belongs to a different scan or slice"), "%s", err.message);
-  char *after = read_file(ck);
+  char *after = read_text(ck);
   cr_assert_str_eq(before, after, "a refused checkpoint must be left untouched");
   free(before);
   free(after);
@@ -640,14 +620,14 @@ Test(scan, checkpoint_in_use_is_refused_as_locked_not_as_interrupted) {
   jg_error_clear(&err);
   jg_scan_checkpoint *running = NULL, *second = NULL;
   cr_assert_eq(jg_scan_checkpoint_open(s, ck, 0, &running, &err), JG_OK, "%s", err.message);
-  char *before = read_file(ck);
+  char *before = read_text(ck);
   for (int resume = 0; resume <= 1; resume++) {
     cr_assert_eq(jg_scan_checkpoint_open(s, ck, resume, &second, &err), JG_EINVAL);
     cr_assert(strstr(err.message, "is locked by another jeansgrow scan that is still writing"),
               "resume %d: %s", resume, err.message);
     cr_assert(!strstr(err.message, "interrupted"), "%s", err.message);
   }
-  char *after = read_file(ck);
+  char *after = read_text(ck);
   cr_assert_str_eq(before, after);
   jg_scan_checkpoint_close(running, 0);
   /* Released with the run: now it is an interrupted run's checkpoint. */
@@ -674,7 +654,7 @@ Test(scan, damaged_or_foreign_checkpoint_is_refused_under_resume) {
   const long long first_three[] = {0, 1, 2};
   record_points(s, c, first_three, 3);
   jg_scan_checkpoint_close(c, 0);
-  char *good = read_file(ck);
+  char *good = read_text(ck);
   char *second_line = strchr(good, '\n') + 1;
   char *third_line = strchr(second_line, '\n') + 1;
 
@@ -697,7 +677,7 @@ Test(scan, damaged_or_foreign_checkpoint_is_refused_under_resume) {
                  cases[k].what);
     cr_assert(strstr(err.message, ck) && strstr(err.message, cases[k].expect), "%s: %s",
               cases[k].what, err.message);
-    char *after = read_file(ck);
+    char *after = read_text(ck);
     cr_assert_str_eq(after, cases[k].text, "%s was changed", cases[k].what);
     free(after);
     free(cases[k].text);
@@ -722,38 +702,18 @@ typedef struct outcome {
 
 /* Start `argv0 args...` with stdout and stderr in files of `dir`. */
 static pid_t start(const char *dir, const char *const *args) {
-  char *argv[64];
-  int n = 0;
-  for (int i = 0; args[i]; i++) {
-    cr_assert_lt(n, 63);
-    argv[n++] = strdup(args[i]);
-  }
-  argv[n] = NULL;
   char out[256], err[256];
   path_in(out, sizeof out, dir, ".stdout");
   path_in(err, sizeof err, dir, ".stderr");
-  posix_spawn_file_actions_t fa;
-  posix_spawn_file_actions_init(&fa);
-  posix_spawn_file_actions_addopen(&fa, 0, "/dev/null", O_RDONLY, 0);
-  posix_spawn_file_actions_addopen(&fa, 1, out, O_WRONLY | O_CREAT | O_TRUNC, 0600);
-  posix_spawn_file_actions_addopen(&fa, 2, err, O_WRONLY | O_CREAT | O_TRUNC, 0600);
-  pid_t pid;
-  int rc = posix_spawn(&pid, argv[0], &fa, NULL, argv, environ);
-  posix_spawn_file_actions_destroy(&fa);
-  for (int i = 0; i < n; i++) free(argv[i]);
-  cr_assert_eq(rc, 0, "cannot start %s: %s", args[0], strerror(rc));
-  return pid;
+  return child_start(args[0], args + 1, out, err, 0);
 }
 
 static outcome finish(const char *dir, pid_t pid) {
   outcome o;
-  pid_t w;
-  do w = waitpid(pid, &o.status, 0);
-  while (w < 0 && errno == EINTR);
-  cr_assert_eq(w, pid);
+  o.status = child_wait(pid);
   char path[256];
   path_in(path, sizeof path, dir, ".stderr");
-  o.err = read_file(path);
+  o.err = read_text(path);
   unlink(path);
   path_in(path, sizeof path, dir, ".stdout");
   unlink(path);
@@ -790,7 +750,7 @@ Test(scan, program_writes_the_same_file_with_one_and_two_threads) {
   outcome o1 = run_program(dir, a1), o2 = run_program(dir, a2);
   cr_assert_eq(exit_code(&o1), 0, "%s", o1.err);
   cr_assert_eq(exit_code(&o2), 0, "%s", o2.err);
-  char *t1 = read_file(f1), *t2 = read_file(f2);
+  char *t1 = read_text(f1), *t2 = read_text(f2);
   cr_assert(t1 && t2);
   cr_assert_str_eq(t1, t2);
   cr_assert_eq(count_data_rows(t1), 8 * 4);
@@ -828,7 +788,7 @@ Test(scan, program_on_two_mpi_ranks_writes_the_single_process_file) {
   cr_assert_eq(exit_code(&o1), 0, "%s", o1.err);
   cr_assert_eq(exit_code(&o2), 0, "mpirun: %s", o2.err);
   cr_assert(strstr(o2.err, "2 MPI ranks"), "the run did not use two ranks: %s", o2.err);
-  char *t1 = read_file(f1), *t2 = read_file(f2);
+  char *t1 = read_text(f1), *t2 = read_text(f2);
   cr_assert(t1 && t2);
   cr_assert_str_eq(t1, t2);
   free(t1), free(t2), free(o1.err), free(o2.err);
@@ -839,7 +799,7 @@ Test(scan, program_on_two_mpi_ranks_writes_the_single_process_file) {
 #ifdef JG_TEST_MPIEXEC
 /* Lines in a file (0 if missing). */
 static int count_lines(const char *path) {
-  char *t = read_file(path);
+  char *t = read_text(path);
   int n = 0;
   for (const char *c = t; c && *c; c++) n += *c == '\n';
   free(t);
@@ -912,7 +872,7 @@ Test(scan, program_silent_mpi_rank_ends_the_job_with_a_resumable_checkpoint, .ti
   outcome r = run_program(dir, a_resume);
   cr_assert_eq(exit_code(&r), 0, "%s", r.err);
   cr_assert(strstr(r.err, " resumed, 0 failed"), "%s", r.err);
-  char *tr = read_file(out);
+  char *tr = read_text(out);
   cr_assert_not_null(tr);
   cr_assert_eq(count_data_rows(tr), 100);
   free(tr), free(r.err);
@@ -963,7 +923,7 @@ Test(scan, program_killed_at_a_random_moment_then_resumed_writes_the_same_file) 
   if (WIFSIGNALED(o.status) && exists(out)) {
     /* The kill landed after the rename, before the exit: then the table is
      * the complete one, never a partial one. */
-    char *t_ref = read_file(ref), *t_early = read_file(out);
+    char *t_ref = read_text(ref), *t_early = read_text(out);
     int same = t_ref && t_early && strcmp(t_ref, t_early) == 0;
     free(t_ref), free(t_early);
     cr_assert(same, "a killed run left a table that is not the complete one");
@@ -972,7 +932,7 @@ Test(scan, program_killed_at_a_random_moment_then_resumed_writes_the_same_file) 
   const char *a_resume[] = {KILL_ARGS(out), "--resume", NULL};
   o = run_program(dir, a_resume);
   cr_assert_eq(exit_code(&o), 0, "%s", o.err);
-  char *t_ref = read_file(ref), *t_out = read_file(out);
+  char *t_ref = read_text(ref), *t_out = read_text(out);
   cr_assert(t_ref && t_out);
   cr_assert_str_eq(t_out, t_ref);
   cr_assert(!exists(ck), "the checkpoint must go after success");
@@ -1055,7 +1015,7 @@ Test(scan, baryon_scan_reproduces_single_runs_point_by_point) {
   outcome o = run_program(dir, args);
   cr_assert_eq(exit_code(&o), 0, "%s", o.err);
   free(o.err);
-  char *scan_text = read_file(out);
+  char *scan_text = read_text(out);
   cr_assert_not_null(scan_text);
   for (int i = 0; i < 3; i++) {
     /* The scan's row for z = 100 of point i. */
@@ -1081,7 +1041,7 @@ Test(scan, baryon_scan_reproduces_single_runs_point_by_point) {
     o = run_program(dir, e_args);
     cr_assert_eq(exit_code(&o), 0, "%s", o.err);
     free(o.err);
-    char *epochs = read_file(ep);
+    char *epochs = read_text(ep);
     static const struct {
       const char *name;
       int column; /* in row[]: z, z_star, z_drag, z_gas_decoupling, T_gas, x_e, k_J, M_J */
@@ -1120,7 +1080,7 @@ Test(scan, program_reports_a_failed_point_and_keeps_the_others) {
   cr_assert(strstr(o.err, "jeansgrow scan: point 1 of 2 (cosmology.baryon_density_h2 = 1e-05) "
                           "failed: z_star: no crossing"), "%s", o.err);
   cr_assert(strstr(o.err, "1 failed"), "summary: %s", o.err);
-  char *t = read_file(out);
+  char *t = read_text(out);
   cr_assert_not_null(t, "the table is written despite the failure");
   cr_assert(strstr(t, "\n# failed points: 1\n# failed point 1 of 2 (cosmology.baryon_density_h2 = "
                       "1e-05): JG_ENUMERIC: z_star: no crossing"), "%s", t);
@@ -1155,7 +1115,7 @@ Test(scan, program_second_run_on_a_busy_output_says_another_run_holds_it) {
   }
   close(fd);
   cr_assert(!exists(out), "a refused run wrote the table");
-  char *left = read_file(ck);
+  char *left = read_text(ck);
   cr_assert_str_eq(left, "", "a refused run changed the other run's checkpoint");
   free(left);
   remove_dir(dir);
@@ -1184,7 +1144,7 @@ Test(scan, program_slices_merge_into_the_whole_file) {
   o = run_program(dir, a_merge);
   cr_assert_eq(exit_code(&o), 0, "%s", o.err);
   free(o.err);
-  char *tw = read_file(whole), *tm = read_file(merged);
+  char *tw = read_text(whole), *tm = read_text(merged);
   cr_assert(tw && tm);
   cr_assert_str_eq(tm, tw);
   free(tw), free(tm);
@@ -1220,7 +1180,7 @@ Test(scan, program_merge_refuses_torn_nan_missing_endless_and_overwriting_slices
     cr_assert_eq(exit_code(&o), 0, "%s", o.err);
     free(o.err);
   }
-  char *second = read_file(parts[1]);
+  char *second = read_text(parts[1]);
   cr_assert_not_null(second);
   size_t len = strlen(second);
   char *last_row = second + len - 1;
@@ -1265,7 +1225,7 @@ Test(scan, program_merge_refuses_torn_nan_missing_endless_and_overwriting_slices
   /* The output may not be one of the slices: it would be lost. */
   const char *a_onto[] = {JG_PROGRAM, "merge", parts[1], parts[0], parts[1], NULL};
   expect_merge_refused(dir, a_onto, "is the slice");
-  char *after = read_file(parts[1]);
+  char *after = read_text(parts[1]);
   cr_assert_str_eq(after, second, "the slice named as output was changed");
   free(after);
   free(second);
@@ -1296,7 +1256,7 @@ Test(scan, baryon_scan_reproduces_scales_tables_point_by_point) {
   outcome o = run_program(dir, args);
   cr_assert_eq(exit_code(&o), 0, "%s", o.err);
   free(o.err);
-  char *scan_text = read_file(out);
+  char *scan_text = read_text(out);
   cr_assert_not_null(scan_text);
   int compared = 0;
   for (int i = 0; i < 2; i++) {
@@ -1307,7 +1267,7 @@ Test(scan, baryon_scan_reproduces_scales_tables_point_by_point) {
     o = run_program(dir, s_args);
     cr_assert_eq(exit_code(&o), 0, "%s", o.err);
     free(o.err);
-    char *scales = read_file(single);
+    char *scales = read_text(single);
     cr_assert_not_null(scales);
     for (const char *sl = scales; sl && *sl; sl = strchr(sl, '\n') ? strchr(sl, '\n') + 1 : NULL) {
       if (*sl == '#' || *sl == '\n') continue;
@@ -1356,7 +1316,7 @@ Test(scan, scan_in_h_units_is_the_default_scan_converted_point_by_point) {
   outcome o_mpc = run_program(dir, a_mpc), o_h = run_program(dir, a_h);
   cr_assert_eq(exit_code(&o_mpc), 0, "%s", o_mpc.err);
   cr_assert_eq(exit_code(&o_h), 0, "%s", o_h.err);
-  char *text_mpc = read_file(f_mpc), *text_h = read_file(f_h);
+  char *text_mpc = read_text(f_mpc), *text_h = read_text(f_h);
   cr_assert(text_mpc && text_h);
   table in_mpc, in_h;
   parse_table(text_mpc, &in_mpc);

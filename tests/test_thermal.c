@@ -2,7 +2,7 @@
  * The ionisation and gas-temperature history (src/history/thermal.c,
  * src/history/recombination.c, src/history/gas_temperature.c): equilibrium limits written
  * out independently here, the known shape of the gas temperature, the
- * atomic-physics check values of checks.md, analytic derivatives against
+ * atomic-physics check values (src/PHYSICS.md §10.3), analytic derivatives against
  * finite differences, convergence, the normalisation of the visibility and
  * bad settings.
  *
@@ -26,17 +26,7 @@
 #include "jeansgrow/epochs.h"
 #include "jeansgrow/params.h"
 #include "jeansgrow/thermal.h"
-
-static void quiet_gsl(void) { gsl_set_error_handler_off(); }
-
-/* Criterion has no relative comparison. Written so that NaN fails: every
- * comparison with NaN is false. */
-static void assert_rel(double actual, double expected, double rtol, const char *what) {
-  double diff = fabs(actual - expected);
-  cr_assert(diff <= rtol * fabs(expected),
-            "%s: got %.12g, expected %.12g (relative difference %.3g, tolerance %.3g)", what,
-            actual, expected, expected != 0.0 ? diff / fabs(expected) : diff, rtol);
-}
+#include "support.h"
 
 /* ---- building histories ---------------------------------------------------- */
 
@@ -149,7 +139,7 @@ TestSuite(equilibrium, .init = quiet_gsl);
  * n_e = n_p. Helium is left neutral: its Saha He II fraction at this
  * redshift is ~2e-7, i.e. f_He x 2e-7 ~ 1e-8 electrons per H nucleus, which
  * the test asserts before neglecting it.
- * Tolerances: x_e to 1e-3 (the brief's; x_e ~ 1 here, so it is a weak test);
+ * Tolerances: x_e to 1e-3 (x_e ~ 1 here, so it is a weak test);
  * the neutral fraction 1 - x_p (1.2e-4) to 1e-5, which is what actually
  * tests the equation: had the library's Saha used another energy than the
  * header's JG_E_ION_HYDROGEN (pinned by test_constants), e.g. the
@@ -179,7 +169,7 @@ Test(equilibrium, hydrogen_follows_saha_at_z1800) {
 
 /* Helium from the history against the joint Saha equilibrium of H, He I,
  * He II and He III solved here (Saha equation, analytic; the history uses
- * Saha for helium throughout, physics.md §4).
+ * Saha for helium throughout, src/PHYSICS.md §4.2).
  *   z = 3500: singly ionised. Saha gives He II = 0.99999 of all helium, He III
  *     5e-12 (He III has recombined by z ~ 5000), He I 9e-6: assert > 0.99 as
  *     asked, and the He I and He III fractions to 1e-5 relative.
@@ -290,7 +280,7 @@ Test(gas_temperature, adiabatic_between_z30_and_z15) {
 }
 
 /* The local slope is not 2 at z = 30 (it is 1.92): the gas equation of
- * physics.md §4 gives d ln T / d ln(1+z) = 2 - (Gamma_C/H)(T_rad/T_gas - 1),
+ * src/PHYSICS.md §5 gives d ln T / d ln(1+z) = 2 - (Gamma_C/H)(T_rad/T_gas - 1),
  * and Gamma_C/H = 0.024 times T_rad/T_gas - 1 = 3.3 is 0.08 there. Check that
  * the stored history satisfies that equation (derived here from the
  * equation): slope from a centred difference of the interpolated T_gas
@@ -332,7 +322,7 @@ Test(gas_temperature, residual_ionisation_at_z100) {
 TestSuite(rates, .init = quiet_gsl);
 
 /* 8 sigma_T a_rad T0^4 / (3 m_e c) = 2.711921e-20 s^-1 for T0 = 2.7255 K
- * (checks.md §12, derived from CODATA 2018). jg__compton_rate multiplies it
+ * (src/PHYSICS.md §10.3, derived from CODATA 2018). jg__compton_rate multiplies it
  * by x_e / (1 + f_He + x_e), which is exactly 1/2 for x_e = 1 + f_He. 1e-6:
  * the reference has 7 digits (rounding 2e-7). */
 Test(rates, compton_rate_constant) {
@@ -348,7 +338,7 @@ Test(rates, compton_rate_constant) {
 
 /* Case-B coefficient, Pequignot, Petitjean & Boisson (1991) fit with F = 1:
  * alpha_B(1e4 K) = 2.5798e-13 cm^3/s and alpha_B(3000 K) = 6.6854e-13 cm^3/s
- * (checks.md §3, derived from the fit). 1e-4: the references have five
+ * (src/PHYSICS.md §10.3, derived from the fit). 1e-4: the references have five
  * digits. The library works in m^3/s (1 cm^3 = 1e-6 m^3). */
 Test(rates, case_b_coefficient_values) {
   assert_rel(jg__case_b_coefficient(1.0e4, 1.0), 2.5798e-19, 1e-4, "alpha_B(1e4 K) [m^3/s]");
@@ -359,11 +349,11 @@ Test(rates, case_b_coefficient_values) {
 }
 
 /* The fit against the tabulated case-B coefficient of Ferland et al. (1992,
- * ApJ 387, 95) at 1e4 K, 2.588e-13 cm^3/s (checks.md §3, table value known
- * through a secondary transcription): fit / table = 0.9968 (checks.md §12).
- * 1e-3: the table value has four digits. The other five ratios listed in
- * checks.md §12 are not tested: their table values are not in our material,
- * and backing them out of the ratios would test the fit against itself. */
+ * ApJ 387, 95) at 1e4 K, 2.588e-13 cm^3/s (table value known through a
+ * secondary transcription, src/PHYSICS.md §10.3): fit / table = 0.9968.
+ * 1e-3: the table value has four digits. Other temperatures of that table
+ * are not tested: their values are not at hand, and backing them out of
+ * ratios to the fit would test the fit against itself. */
 Test(rates, case_b_fit_vs_ferland_table) {
   double ratio = jg__case_b_coefficient(1.0e4, 1.0) / 2.588e-19;
   assert_rel(ratio, 0.9968, 1e-3, "alpha_B fit / Ferland 1992 table at 1e4 K");
@@ -389,8 +379,8 @@ static double numeric_derivative(double (*f)(double, void *), void *params, doub
 static double case_b_of_T(double T, void *p) { return jg__case_b_coefficient(T, *(double *)p); }
 
 /* d alpha_B / dT: analytic vs central differences over the range the
- * history visits (30 K ... 3e4 K), F = 1.14. 1e-5 (the brief's): the
- * finite-difference error estimate is required below 1e-6. */
+ * history visits (30 K ... 3e4 K), F = 1.14. 1e-5: ten times the
+ * finite-difference error estimate, which is required below 1e-6. */
 Test(jacobians, case_b_temperature_derivative) {
   double fudge = 1.14;
   const double Ts[] = {30.0, 317.0, 2973.0, 1.0e4, 3.1e4};
@@ -487,7 +477,7 @@ static void check_peebles_state(peebles_args *a, const char *label) {
  * the real electron balance and with a chain slope of 1.0731; plus one
  * invented state at z = 2300 with x_p = 0.97 and T_gas = 0.98 T_rad, where
  * helium is partly ionised so the real dx_e/dx_p differs from 1 and the
- * ionisation term is large. 1e-5 (the brief's). */
+ * ionisation term is large. 1e-5, as for d alpha_B/dT above. */
 Test(jacobians, peebles_rate_derivatives) {
   history h = planck_history();
   const double zs[] = {1300.0, 900.0, 400.0};
@@ -578,7 +568,7 @@ static key_numbers key_numbers_of(const jg_params *p) {
   return k;
 }
 
-/* physics.md §7: defaults reach 1e-6 relative. Tightening thermal.rel_tol
+/* src/PHYSICS.md §9: the defaults reach 1e-6 relative. Tightening thermal.rel_tol
  * by 100 (abs_tol too, so that it does not take over for x_p ~ 3e-4) and
  * doubling thermal.grid_points must each move z_star and x_e(z = 100) by
  * less than 1e-6 relative. Measured: z_star moves by 2e-8 (tolerances) and

@@ -30,7 +30,7 @@ typedef struct jg_epochs {
 jg_status jg_epochs_compute(const jg_thermal *th, jg_epochs *out, jg_error *err);
 
 /* One reported epoch: name, value and unit, in the order `jeansgrow epochs`
- * prints them. Returns NULL past the end. */
+ * prints them. Past the end the entry's name is NULL. */
 typedef struct jg_epoch_entry {
   const char *name;
   const char *unit;

@@ -1,6 +1,6 @@
 /*
  * Linear perturbations of cold dark matter and gas, one comoving wavenumber
- * at a time (physics.md section 5), in x = ln a:
+ * at a time (the repository's src/PHYSICS.md §7), in x = ln a:
  *
  *   delta_c'' + (2 + e) delta_c' = g delta_m
  *   delta_b'' + (2 + e + d) delta_b' = g delta_m - p k^2 (delta_b + delta_T)
@@ -12,8 +12,8 @@
  *   p = (k_B T_gas / (mu m_H)) / (a H)^2   (comoving Mpc^2),
  *   d = nu_drag / H,  nu_drag = n_e sigma_T c / R,  R = 3 rho_b / (4 rho_gamma),
  *   r = Gamma_C (T_rad / T_gas) / H.
- * This is the cosmic-time system delta'' + 2 H delta' = ... of physics.md
- * divided by H^2 (d/dt = H d/dx, d^2/dt^2 = H^2 [d^2/dx^2 + e d/dx]).
+ * This is the cosmic-time system delta'' + 2 H delta' = ... of src/PHYSICS.md
+ * §7.1 divided by H^2 (d/dt = H d/dx, d^2/dt^2 = H^2 [d^2/dx^2 + e d/dx]).
  * The temperature equation is that of Naoz & Barkana (2005, MNRAS 362, 1047)
  * without photon perturbations.
  *
@@ -59,7 +59,7 @@
 extern "C" {
 #endif
 
-/* Validity of the equations on the real history (physics.md section 1),
+/* Validity of the equations on the real history (src/PHYSICS.md §1),
  * comoving 1/Mpc. Below JG_PERTURB_K_MIN photon pressure and Silk damping,
  * neglected here, matter. Above JG_PERTURB_K_MAX the gas stops being a fluid
  * by z ~ 10: the collisional mean free path of the atoms (~1 pc physical at

@@ -22,6 +22,7 @@
 #include <stdlib.h>
 #include <string.h>
 #include <sys/stat.h>
+#include "alloc.h" /* last: test builds route allocations through it */
 
 typedef enum { KIND_NUMBER, KIND_INTEGER, KIND_NUMBER_LIST, KIND_CHOICE, KIND_TEXT } spec_kind;
 

@@ -16,6 +16,7 @@
 
 #include "jeansgrow/version.h"
 #include "file_lock.h"
+#include "alloc.h" /* last: test builds route allocations through it */
 
 struct jg_output {
   FILE *stream;

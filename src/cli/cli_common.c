@@ -169,7 +169,8 @@ int cli_load_params(const cli_options *o, jg_params *p) {
   jg_error_clear(&err);
   if (jg_params_load(o->param_path, o->overrides, o->n_overrides, p, &err) != JG_OK) {
     cli_report(&err);
-    return EXIT_BAD_INPUT; /* a missing or unreadable file is bad input too */
+    /* a missing or unreadable file is bad input too; a shortage of memory is not */
+    return err.status == JG_ENOMEM ? EXIT_RUN_FAILED : EXIT_BAD_INPUT;
   }
   return -1;
 }
@@ -182,7 +183,7 @@ int cli_open_output(const cli_options *o, jg_output **out) {
   if (jg_output_open(o->output_path, out, &err) != JG_OK) {
     release_interrupts(&saved);
     cli_report(&err);
-    return EXIT_BAD_INPUT;
+    return err.status == JG_ENOMEM ? EXIT_RUN_FAILED : EXIT_BAD_INPUT;
   }
   const char *tmp = jg_output_temp_path(*out);
   for (int i = 0; tmp && i < MAX_TEMP_FILES; i++) {

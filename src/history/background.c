@@ -28,6 +28,7 @@
 #include <gsl/gsl_odeiv2.h>
 
 #include "jeansgrow/constants.h"
+#include "../base/alloc.h" /* last: test builds route allocations through it */
 
 /* Smallest scale factor at which jg_background_new checks H^2 > 0, as the
  * public header promises (a = 1e-10, z ~ 1e10: far before anything the
@@ -203,7 +204,7 @@ static jg_status refine_minimum(bg_ctx *ctx, double x_lo, double x_mid, double x
   *q_min = f_mid;
   if (!(f_mid < f_lo && f_mid < f_hi)) return JG_OK;
   gsl_min_fminimizer *m = gsl_min_fminimizer_alloc(gsl_min_fminimizer_brent);
-  if (!m) return JG_FAIL(err, JG_ENOMEM, "background: cannot allocate the GSL minimiser");
+  if (!m) return JG_FAIL(err, JG_ENOMEM, "background: out of memory for the GSL minimiser");
   if (gsl_min_fminimizer_set_with_values(m, &f, x_mid, f_mid, x_lo, f_lo, x_hi, f_hi) ==
       GSL_SUCCESS) {
     /* A double root of Q has a flat bottom: stop on the bracket width in
@@ -417,7 +418,7 @@ static jg_status integrate_a(const jg_background *bg, bg_integrand g, double a_l
   bg_quad q = {{bg, 0, 0.0}, g};
   const double a_split = 1e-3 * bg->omega_r / bg->omega_m;
   gsl_integration_workspace *w = gsl_integration_workspace_alloc(BG_QUAD_LIMIT);
-  if (!w) return JG_FAIL(err, JG_ENOMEM, "background: cannot allocate the %s workspace", what);
+  if (!w) return JG_FAIL(err, JG_ENOMEM, "background: out of memory for the %s workspace", what);
   double total = 0.0, value = 0.0, abserr = 0.0;
   int st = GSL_SUCCESS;
   if (a_lo < a_split) {

@@ -12,6 +12,7 @@
 #include <math.h>
 
 #include "jeansgrow/constants.h"
+#include "../base/alloc.h" /* last: test builds route allocations through it */
 
 typedef double (*z_function)(const jg_thermal *th, double z);
 

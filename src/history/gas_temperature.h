@@ -12,10 +12,11 @@ double jg__compton_rate_dxe(const jg_background *bg, double T_rad, double x_e);
 
 /* Gas temperature while Compton coupling is tight: dT/dt = -2 H T + Gamma (T_rad - T)
  * with T_rad ~ 1/a has the slowly varying solution T = T_rad (1 - H/(Gamma + H))
- * up to O((H/Gamma)^2); physics.md writes its first-order form T_rad (1 - H/Gamma). */
+ * up to O((H/Gamma)^2) (src/PHYSICS.md §5). */
 double jg__gas_temperature_quasi_static(double T_rad, double hubble, double compton_rate);
 
-/* d T_gas / d ln a and its partial derivative with respect to T_gas. */
+/* d T_gas / d ln a (its derivative with respect to T_gas, -2 - Gamma/H, is
+ * written where the Jacobian is built). */
 double jg__gas_temperature_dlna(double T_gas, double T_rad, double hubble, double compton_rate);
 
 /* Mean molecular weight in units of m_H, 1 / [(1 - Y)(1 + x_e) + Y/4]. */

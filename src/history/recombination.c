@@ -12,10 +12,10 @@
 #include "recombination.h"
 
 #include <gsl/gsl_errno.h>
-#include <gsl/gsl_roots.h>
 #include <math.h>
 
 #include "jeansgrow/constants.h"
+#include "../base/alloc.h" /* last: test builds route allocations through it */
 
 /* Pequignot, Petitjean & Boisson (1991) case-B fit, as used by SSS 1999 eq. 3:
  * alpha_B = F 1e-19 a t^b / (1 + c t^d) m^3 s^-1, t = T / 1e4 K. */
@@ -88,26 +88,31 @@ static double electron_excess(double x_e, void *params) {
   return x_p + he.electrons - x_e;
 }
 
+/* The Illinois variant of regula falsi: no allocation, because the thermal
+ * queries above the stored grid, which cannot report a failure, solve this
+ * too. Stops once the bracket is narrower than 1e-14 in x_e. */
 static int solve_electrons(electron_balance *b, double lo, double hi, double *x_e) {
-  gsl_function F = {electron_excess, b};
   double flo = electron_excess(lo, b), fhi = electron_excess(hi, b);
   if (flo <= 0) { *x_e = lo; return GSL_SUCCESS; }
   if (fhi >= 0) { *x_e = hi; return GSL_SUCCESS; }
-  gsl_root_fsolver *s = gsl_root_fsolver_alloc(gsl_root_fsolver_brent);
-  if (!s) return GSL_ENOMEM;
-  int status = gsl_root_fsolver_set(s, &F, lo, hi);
-  for (int iter = 0; status == GSL_SUCCESS && iter < 200; iter++) {
-    status = gsl_root_fsolver_iterate(s);
-    if (status != GSL_SUCCESS) break;
-    double a = gsl_root_fsolver_x_lower(s), c = gsl_root_fsolver_x_upper(s);
-    status = gsl_root_test_interval(a, c, 0.0, 1e-14);
-    if (status == GSL_SUCCESS) break;
-    if (status != GSL_CONTINUE) break;
-    status = GSL_SUCCESS;
+  int kept = 0; /* which end the last step kept: -1 low, +1 high */
+  for (int iter = 0; iter < 200; iter++) {
+    double x = (lo * fhi - hi * flo) / (fhi - flo);
+    if (!(x > lo && x < hi)) x = 0.5 * (lo + hi);
+    double f = electron_excess(x, b);
+    if (f == 0 || hi - lo < 1e-14) { *x_e = x; return GSL_SUCCESS; }
+    if (f > 0) {
+      lo = x, flo = f;
+      if (kept == 1) fhi *= 0.5; /* the high end is stuck: pull the secant towards it */
+      kept = 1;
+    } else {
+      hi = x, fhi = f;
+      if (kept == -1) flo *= 0.5;
+      kept = -1;
+    }
   }
-  *x_e = gsl_root_fsolver_root(s);
-  gsl_root_fsolver_free(s);
-  return status;
+  *x_e = 0.5 * (lo + hi);
+  return GSL_EMAXITER;
 }
 
 int jg__saha_equilibrium(const jg_background *bg, double T_rad, double n_H, double *x_e,

@@ -29,6 +29,7 @@
 #include "gas_temperature.h"
 #include "jeansgrow/constants.h"
 #include "recombination.h"
+#include "../base/alloc.h" /* last: test builds route allocations through it */
 
 struct jg_thermal {
   const jg_background *bg;
@@ -331,8 +332,8 @@ jg_thermal *jg_thermal_new(const jg_background *bg, const jg_thermal_settings *s
     double dummy;
     jg__electrons_given_hydrogen(bg, T_rad, n_H, x_p[i], &x_e[i], &dummy);
   }
-  gsl_odeiv2_driver_free(drv_h);
-  gsl_odeiv2_driver_free(drv_ht);
+  if (drv_h) gsl_odeiv2_driver_free(drv_h); /* GSL's free does not take NULL */
+  if (drv_ht) gsl_odeiv2_driver_free(drv_ht);
 
   if (st == JG_OK) {
     double *tmp = malloc(sizeof(double) * (size_t)n);

@@ -3,7 +3,7 @@
  * include/jeansgrow/perturb.h for the equations and conventions).
  *
  * Methods and sources:
- *   - equations: physics.md section 5; gas-temperature fluctuation equation of
+ *   - equations: src/PHYSICS.md §7; gas-temperature fluctuation equation of
  *     Naoz & Barkana (2005, MNRAS 362, 1047) without photon perturbations;
  *   - initial conditions: growing mode of the Meszaros (1974, A&A 37, 225)
  *     equation with non-clustering baryons, a Gauss hypergeometric function
@@ -43,6 +43,7 @@
 
 #include "jeansgrow/background.h"
 #include "jeansgrow/constants.h"
+#include "../base/alloc.h" /* last: test builds route allocations through it */
 
 /* Nodes per e-fold of the coefficient tables. The cubic-spline error,
  * ~ (5/384) h^4 max|f''''| with h = 2e-3, is below 1e-10 for the logarithms
@@ -117,7 +118,7 @@ static void thermal_medium_free(thermal_medium *tm) {
   free(tm);
 }
 
-/* The three coefficients, from the thermal history at one node. */
+/* The five coefficients, from the thermal history at one node. */
 static void thermal_coefficients(const jg_thermal *th, double x, double q[N_Q]) {
   const jg_background *bg = jg_thermal_background(th);
   double a = exp(x);

@@ -22,6 +22,7 @@
 #include <sys/stat.h>
 
 #include "jeansgrow/perturb.h"
+#include "../base/alloc.h" /* last: test builds route allocations through it */
 
 /* Longest line read; a longer one is an error, never silently cut. */
 #define ST_LINE_MAX 4096

@@ -5,6 +5,7 @@
 #include <string.h>
 
 #include "jeansgrow/background.h"
+#include "../base/alloc.h" /* last: test builds route allocations through it */
 
 void jg_growth_grid_free(jg_growth_grid *g) {
   if (!g) return;

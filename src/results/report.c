@@ -15,6 +15,7 @@
 #include "jeansgrow/constants.h"
 #include "jeansgrow/table.h"
 #include "report_tables.h"
+#include "../base/alloc.h" /* last: test builds route allocations through it */
 
 /* ---- units --------------------------------------------------------------- */
 

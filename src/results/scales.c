@@ -18,6 +18,7 @@
 #include "jeansgrow/background.h"
 #include "jeansgrow/constants.h"
 #include "jeansgrow/jeans.h"
+#include "../base/alloc.h" /* last: test builds route allocations through it */
 
 /* The half-suppression search starts at k_F/4, where the quadratic law
  * 1 - k^2/k_F^2 still gives ~0.94 > 1/2, and steps up by this factor until

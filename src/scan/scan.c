@@ -41,6 +41,7 @@
 #include "jeansgrow/scales.h"
 #include "../results/report_tables.h"
 #include "../base/file_lock.h"
+#include "../base/alloc.h" /* last: test builds route allocations through it */
 
 /* A checkpoint is synced to the disk at least this often (seconds): often
  * enough that a crashed node loses at most this much work, rarely enough

@@ -14,7 +14,7 @@
  * and their errors are measured against a tight reference: this solver at
  * rel_tol 1e-12, abs_tol 1e-14, which the SciPy script cross-checks with
  * SciPy's Radau at the same tolerance. Two ratios are printed: at the
- * same (default) tolerance, the comparison the perturbation issue asks for,
+ * same (default) tolerance, the comparison users make first,
  * and the stricter one at matched accuracy, between the cheapest tolerance
  * of each solver that reaches a common error target in delta_b/delta_c.
  * Costs on that ladder are the best of several runs of all 16 modes (the
@@ -380,7 +380,7 @@ int main(int argc, char **argv) {
       for (int i = 0; i < n_s; i++)
         if (fabs(c_rows[t].rtol / p.perturbations.rel_tol - 1.0) < 1e-6 &&
             fabs(s_rows[i].rtol / c_rows[t].rtol - 1.0) < 1e-6)
-          printf("same tolerance (the issue's benchmark; rel_tol %g, the default): SciPy %.1f "
+          printf("same tolerance (rel_tol %g, the default): SciPy %.1f "
                  "ms/mode, this solver %.3f ms/mode: %.0f times faster%s (errors in "
                  "delta_b/delta_c: %.1e here, %.1e SciPy)\n",
                  c_rows[t].rtol, s_rows[i].ms, c_rows[t].ms, s_rows[i].ms / c_rows[t].ms,

@@ -10,7 +10,7 @@ excludes radiation and its closure Ode0 = 1 - Om0 - Ogamma0 - Onu0 - Ok0 is
 ours, so the two Friedmann equations are the same function; both take their
 constants from CODATA 2018 / IAU 2015.
 
-Tolerance 1e-4 relative: the brief's figure, far above the two quadratures'
+Tolerance 1e-4 relative: the agreement the README promises, far above the two quadratures'
 accuracies (jeansgrow 1e-8, Astropy's scipy.integrate.quad default ~1.5e-8),
 so a failure means different physics (radiation, closure, CPL form,
 curvature), not rounding. The worst differences are printed so that the
