@@ -34,6 +34,7 @@ static const jg_scan_evaluator *scan_evaluator(const jg_params *p) {
  * enough for a node's hiccup, short next to the hours a stuck job would
  * otherwise hold its allocation. */
 #define DEFAULT_RANK_TIMEOUT 300.0
+#define MIN_RANK_TIMEOUT 1.0
 #define MAX_RANK_TIMEOUT 604800.0
 
 typedef struct scan_options {
@@ -155,9 +156,13 @@ static int parse_scan_options(const cli_command *cmd, int argc, char **argv, sca
       char *end;
       errno = 0;
       double t = strtod(optarg, &end);
-      if (errno || end == optarg || *end != '\0' || !(t >= 0 && t <= MAX_RANK_TIMEOUT)) {
-        fprintf(stderr, "jeansgrow scan: --rank-timeout must be a number of seconds from 0 (wait "
-                        "for ever) to %.0f (got '%s')\n", MAX_RANK_TIMEOUT, optarg);
+      /* Below a second, heartbeats would flood rank 0 and a busy node's
+       * ordinary pauses would end the job. */
+      if (errno || end == optarg || *end != '\0' ||
+          !(t == 0 || (t >= MIN_RANK_TIMEOUT && t <= MAX_RANK_TIMEOUT))) {
+        fprintf(stderr, "jeansgrow scan: --rank-timeout must be 0 (wait for ever) or a number of "
+                        "seconds from %.0f to %.0f (got '%s')\n", MIN_RANK_TIMEOUT,
+                MAX_RANK_TIMEOUT, optarg);
         return EXIT_BAD_INPUT;
       }
       o->rank_timeout = t;
