@@ -68,7 +68,7 @@ static void print_scan_help(const cli_command *cmd) {
          "  --resume               finish an interrupted run from OUTPUT.checkpoint\n"
          "  --rank-timeout SECONDS under MPI, end the job (keeping OUTPUT.checkpoint for\n"
          "                         --resume) when a rank has sent nothing for SECONDS\n"
-         "                         (default %.0f; 0 waits for ever)\n"
+         "                         (default %.0f, at least 1; 0 waits for ever)\n"
          "  -o, --output FILE      write the table to FILE (atomically) instead of stdout\n"
          "  -h, --help             show this help\n", DEFAULT_RANK_TIMEOUT);
 }
