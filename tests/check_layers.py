@@ -8,7 +8,8 @@ src/ holds one folder per layer, from the bottom up:
 A source or header file of one layer may include headers of its own layer and
 of the layers below it, never of a layer above. A public header
 (include/jeansgrow/NAME.h) belongs to the layer of the source file that
-implements it (src/LAYER/NAME.c); the few headers with no source of their own
+implements it (src/LAYER/NAME.c, or src/LAYER/NAME_PART.c for a module kept
+in several files); the few headers with no source of their own
 are placed in HEADER_LAYERS below. Exit status 0 when every include goes
 down or sideways, 1 with one line per offending include otherwise.
 
@@ -32,13 +33,16 @@ INCLUDE = re.compile(r'^\s*#\s*include\s+"([^"]+)"', re.M)
 
 
 def layer_of_source(root, name):
-    """Layer of the src/LAYER/NAME.c (or .h) that implements header NAME.h."""
+    """Layer of the src/LAYER/NAME.c (or .h, or NAME_PART.c) that implements header NAME.h."""
     stem = os.path.splitext(name)[0]
     for layer in LAYERS:
         folder = os.path.join(root, "src", layer)
         for ext in (".c", ".h"):
             if os.path.exists(os.path.join(folder, stem + ext)):
                 return layer
+        if os.path.isdir(folder) and any(
+                n.startswith(stem + "_") and n.endswith(".c") for n in os.listdir(folder)):
+            return layer
     return None
 
 

@@ -340,6 +340,31 @@ Test(good_runs, program_help_and_every_command_help_exit_0_with_usage) {
   run_free(&r);
 }
 
+/* The README's key tables are the output of `keys --markdown`, pasted: a
+ * key, a range or a combined rule changed in the key table and not in the
+ * README fails here. */
+Test(good_runs, readme_holds_the_key_tables_of_keys_markdown) {
+  const char *args[] = {"keys", "--markdown", NULL};
+  run_result r;
+  run(args, &r);
+  cr_assert(exited_with(&r, 0), "keys --markdown: exit status");
+  cr_assert_not_null(strstr(r.out, "| de_w0 + de_wa < 1/3 |"), "no combined rules listed");
+  char *readme = read_text(JG_SOURCE_DIR "/README.md");
+  cr_assert_not_null(readme);
+  /* Each table (a block of lines starting with '|') must appear whole. */
+  for (char *block = r.out; *block;) {
+    char *end = strstr(block, "\n\n");
+    if (end) *end = '\0';
+    cr_expect_not_null(strstr(readme, block),
+                       "README.md lacks this part of `jeansgrow keys --markdown`; paste it "
+                       "again:\n%s", block);
+    if (!end) break;
+    block = end + 2;
+  }
+  free(readme);
+  run_free(&r);
+}
+
 /* Run `history` with `extra` arguments into a fresh folder and parse the
  * table; also checks that the run was clean and left exactly one file. */
 static void run_history(const char *const *extra, table *t) {

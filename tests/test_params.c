@@ -31,7 +31,8 @@ static void make_temp_dir(void) {
 
 static void remove_temp_dir(void) {
   char path[128];
-  const char *files[] = {"minimal.cfg", "bom.cfg", NULL};
+  const char *files[] = {"minimal.cfg", "bom.cfg",  "comments.cfg",
+                         "unclosed.cfg", "scan.cfg", NULL};
   for (int i = 0; files[i]; i++) {
     snprintf(path, sizeof path, "%s/%s", temp_dir, files[i]);
     unlink(path);
@@ -176,6 +177,155 @@ Test(params, byte_order_mark_at_the_start_is_ignored) {
   cr_expect_eq(loaded.cosmology.hubble_h, 0.6736);
 }
 
+/* libconfig 1.5 ends a block comment that is never closed at the end of the
+ * file without a word, so the settings after it silently took their
+ * defaults. Closed comments, and comment marks inside strings and line
+ * comments, must still read as before. */
+Test(params, block_comments_read_and_an_unclosed_one_names_its_line) {
+  static const char closed[] =
+      "/* first line\n   second line, with a stray /* inside */\n"
+      "cosmology: { hubble_h = 0.7; # not a comment start: /*\n"
+      "  baryon_density_h2 = 0.02237; // nor this: /*\n"
+      "  cdm_density_h2 = 0.1200; };\n"
+      "perturbations: { initial_table = \"/*.txt\"; };\n";
+  load_ok(temp_file("comments.cfg", closed), NULL, 0, &loaded);
+  cr_expect_eq(loaded.cosmology.hubble_h, 0.7);
+  cr_expect_str_eq(loaded.perturbations.initial_table, "/*.txt");
+
+  static const char unclosed[] =
+      "cosmology: { hubble_h = 0.7; baryon_density_h2 = 0.02237; cdm_density_h2 = 0.12; };\n"
+      "# a line\n"
+      "/* closed */ /* the note that never ends\n"
+      "thermal: { start_redshift = 9000.0; };\n";
+  const char *path = temp_file("unclosed.cfg", unclosed);
+  jg_error err;
+  jg_error_clear(&err);
+  cr_assert_eq(jg_params_load(path, NULL, 0, &loaded, &err), JG_ECONFIG, "accepted: %s",
+               err.message);
+  char expected_message[256];
+  snprintf(expected_message, sizeof expected_message,
+           "%s:3: comment '/*' opened here is never closed by '*/' (everything after it would "
+           "be ignored)",
+           path);
+  cr_expect_str_eq(err.message, expected_message);
+
+  const char *set[] = {"cosmology.hubble_h=0.7 /* was 0.6736"};
+  jg_error_clear(&err);
+  cr_expect_eq(jg_params_load(REFERENCE, set, 1, &loaded, &err), JG_ECONFIG);
+  cr_expect_str_eq(err.message, "--set cosmology.hubble_h=0.7 /* was 0.6736: comment '/*' is "
+                                "never closed by '*/' (everything after it would be ignored)");
+}
+
+/* ---- the scan group ------------------------------------------------------- */
+
+typedef struct seen_axes {
+  int n;
+  char text[4][64], key[4][64];
+  double from[4], to[4], values[4][4];
+  long count[4];
+  int log_spacing[4], n_values[4];
+  char where[4][256];
+} seen_axes;
+
+static jg_status record_axis(void *user, const jg_param_axis *a, jg_error *err) {
+  (void)err;
+  seen_axes *s = user;
+  cr_assert_lt(s->n, 4);
+  int i = s->n++;
+  snprintf(s->text[i], sizeof s->text[i], "%s", a->text ? a->text : "");
+  snprintf(s->key[i], sizeof s->key[i], "%s", a->key ? a->key : "");
+  snprintf(s->where[i], sizeof s->where[i], "%s", a->where);
+  s->from[i] = a->from, s->to[i] = a->to, s->count[i] = a->count;
+  s->log_spacing[i] = a->log_spacing;
+  s->n_values[i] = a->values ? a->n_values : -1;
+  for (int j = 0; j < a->n_values && j < 4; j++) s->values[i][j] = a->values[j];
+  return JG_OK;
+}
+
+/* The scan group is read against its own key table: each element form
+ * arrives as written, and a misspelt key anywhere in it is refused by
+ * jg_params_load (every command) with the message the scan reader gives. */
+Test(params, scan_group_is_read_against_its_key_table) {
+  char text[1024];
+  snprintf(text, sizeof text,
+           "%sscan:\n{\n  vary = (\n"
+           "    { key = \"cosmology.hubble_h\"; from = 0.6; to = 0.8; count = 3;\n"
+           "      spacing = \"log\"; },\n"
+           "    { key = \"thermal.grid_points\"; values = [1000, 2000]; },\n"
+           "    \"cosmology.cdm_density_h2=0.10:0.14:3\"\n  );\n};\n",
+           minimal_text);
+  const char *path = temp_file("scan.cfg", text);
+  static seen_axes seen;
+  memset(&seen, 0, sizeof seen);
+  jg_error err;
+  jg_error_clear(&err);
+  cr_assert_eq(jg_params_read_scan(path, record_axis, &seen, &err), JG_OK, "%s", err.message);
+  cr_assert_eq(seen.n, 3);
+  cr_expect_str_eq(seen.key[0], "cosmology.hubble_h");
+  cr_expect(seen.from[0] == 0.6 && seen.to[0] == 0.8 && seen.count[0] == 3 && seen.log_spacing[0]);
+  cr_expect_eq(seen.n_values[0], -1, "a range has no values list");
+  cr_expect_str_eq(seen.key[1], "thermal.grid_points");
+  cr_expect(seen.n_values[1] == 2 && seen.values[1][0] == 1000.0 && seen.values[1][1] == 2000.0);
+  cr_expect_str_eq(seen.text[2], "cosmology.cdm_density_h2=0.10:0.14:3");
+  char where[256];
+  snprintf(where, sizeof where, "%s:7: scan.vary[1]", path);
+  cr_expect_str_eq(seen.where[1], where);
+  load_ok(path, NULL, 0, &loaded);
+
+  const struct {
+    const char *group, *message;
+  } bad[] = {
+      {"vary = ( { key = \"cosmology.hubble_h\"; form = 0.6; to = 0.8; count = 3; } );",
+       "unknown key 'scan.vary[0].form' (did you mean 'scan.vary[0].from'?)"},
+      {"vray = ( \"cosmology.hubble_h=0.6:0.8:3\" );",
+       "unknown key 'scan.vray' (did you mean 'scan.vary'?)"},
+      {"vary = ( { key = \"cosmology.hubble_h\"; from = 0.6; to = 0.8; count = 3.0; } );",
+       "scan.vary[0].count must be an integer (got the number 3.0)"},
+      {"vary = ( { key = \"cosmology.hubble_h\"; values = [0.6]; spacing = \"lin\"; } );",
+       "scan.vary[0].spacing must be one of linear or log (got \"lin\")"},
+      {"vary = ( { from = 0.6; to = 0.8; count = 3; } );",
+       "scan.vary[0]: needs key = \"group.name\"; (a quoted parameter key)"},
+      {"vary = ( { key = \"cosmology.hubble_h\"; values = [0.6]; count = 3; } );",
+       "scan.vary[0]: give either values or from, to, count (and spacing), not both"},
+      {"vary = ();", "scan.vary is empty (nothing to vary)"},
+  };
+  for (size_t i = 0; i < sizeof bad / sizeof bad[0]; i++) {
+    snprintf(text, sizeof text, "%sscan: {\n  %s\n};\n", minimal_text, bad[i].group);
+    path = temp_file("scan.cfg", text);
+    char expected_message[512];
+    snprintf(expected_message, sizeof expected_message, "%s:3: %s", path, bad[i].message);
+    jg_error_clear(&err);
+    cr_expect_eq(jg_params_load(path, NULL, 0, &loaded, &err), JG_ECONFIG, "%s accepted",
+                 bad[i].group);
+    cr_expect_str_eq(err.message, expected_message);
+    jg_error_clear(&err);
+    memset(&seen, 0, sizeof seen);
+    cr_expect_eq(jg_params_read_scan(path, record_axis, &seen, &err), JG_ECONFIG);
+    cr_expect_str_eq(err.message, expected_message);
+  }
+
+  /* --set cannot reach the group: a known key is refused, an unknown one
+   * is an unknown key like any other. */
+  const char *set_vary[] = {"scan.vary=[\"cosmology.hubble_h=0.6:0.8:3\"]"};
+  jg_error_clear(&err);
+  cr_expect_eq(jg_params_load(REFERENCE, set_vary, 1, &loaded, &err), JG_ECONFIG);
+  cr_expect(strstr(err.message, "the scan group is read from the parameter file only"), "%s",
+            err.message);
+  const char *set_other[] = {"scan.anything=1"};
+  jg_error_clear(&err);
+  cr_expect_eq(jg_params_load(REFERENCE, set_other, 1, &loaded, &err), JG_ECONFIG);
+  cr_expect_str_eq(err.message, "--set scan.anything=1: unknown key 'scan.anything' (no known key "
+                                "is similar; jeansgrow keys lists them all)");
+
+  /* The documented scan keys are the ones the reader knows. */
+  cr_expect_str_eq(jg_param_scan_doc_at(0)->key, "scan.vary");
+  const jg_param_doc *d;
+  int n = 0;
+  for (int i = 1; (d = jg_param_scan_doc_at(i)) != NULL; i++, n++)
+    cr_expect(strncmp(d->key, "scan.vary[].", 12) == 0, "%s", d->key);
+  cr_expect_eq(n, 6, "key, from, to, count, spacing, values");
+}
+
 /* ---- the failure contract ------------------------------------------------ */
 
 Test(params, failing_load_leaves_the_output_untouched_and_says_why) {
@@ -275,6 +425,46 @@ Test(params, documented_keys_are_unique_and_in_a_group) {
   cr_expect_null(jg_param_doc_at(-1));
 }
 
+/* Each combined rule that `jeansgrow keys` lists is enforced, by a message
+ * that names its keys, and names only documented keys; a rule added to the
+ * table without a case here fails the count at the end. The violations
+ * follow the table's order. */
+Test(params, every_listed_combined_rule_is_enforced_naming_its_keys) {
+  enum { N_RULES = 6 };
+  for (int i = 0; i < N_RULES; i++) {
+    const jg_param_rule *r = jg_param_rule_at(i);
+    cr_assert_not_null(r, "rule %d is missing", i);
+    jg_params_set_defaults(&loaded);
+    jg_perturb_settings *pt = &loaded.perturbations;
+    switch (i) {
+    case 0: loaded.output.redshifts[0] = loaded.thermal.start_redshift + 1.0; break;
+    case 1: loaded.cosmology.de_w0 = -0.2, loaded.cosmology.de_wa = 0.6; break;
+    case 2: pt->k_min = 10.0, pt->k_max = 5.0; break;
+    case 3: pt->k_count = 1, pt->k_min = 10.0, pt->k_max = 20.0; break;
+    case 4: loaded.output.redshifts[0] = pt->z_initial = 6000.0; break;
+    case 5: loaded.output.history_z_min = loaded.thermal.start_redshift; break;
+    }
+    jg_error err;
+    jg_error_clear(&err);
+    cr_expect_eq(jg_params_validate(&loaded, &err), JG_ECONFIG, "rule '%s' not enforced",
+                 r->rule);
+    char keys[256];
+    snprintf(keys, sizeof keys, "%s", r->keys);
+    char *save = NULL;
+    for (char *key = strtok_r(keys, ", ", &save); key; key = strtok_r(NULL, ", ", &save)) {
+      int documented = 0;
+      const jg_param_doc *d;
+      for (int j = 0; (d = jg_param_doc_at(j)) != NULL; j++) documented |= !strcmp(d->key, key);
+      cr_expect(documented, "rule '%s' names %s, which is not a key", r->rule, key);
+      const char *last = strrchr(key, '.') + 1;
+      cr_expect_not_null(strstr(err.message, last), "rule '%s': message '%s' does not name %s",
+                         r->rule, err.message, last);
+    }
+  }
+  cr_expect_null(jg_param_rule_at(N_RULES), "a rule without a case in this test");
+  cr_expect_null(jg_param_rule_at(-1));
+}
+
 /* Every key, set through an override to the text its documentation gives as
  * the default, must load, and must give exactly the default parameter set:
  * so the docs name real keys, in syntax the loader reads, with the values
@@ -341,4 +531,178 @@ Test(params, header_lines_read_back_as_the_same_parameters) {
   free(again);
   free(copy);
   free(header);
+}
+
+/* ---- one source for every range ------------------------------------------ */
+
+/* The numeric bounds written in a key's allowed text ("0 < value <= 5",
+ * "..., each 1 <= k <= 1e5") must be the ones the table enforces; a bound
+ * written as another key ("k_min <= value") is a combined rule instead. */
+static void expect_text_matches_range(const jg_param_doc *d, const jg_param_range *r) {
+  const char *text = strstr(d->allowed, ", each ");
+  text = text ? text + strlen(", each ") : d->allowed;
+  char left[64], op1[4], name[64], op2[4], right[64];
+  if (sscanf(text, "%63s %3s %63s %3s %63[^ ,]", left, op1, name, op2, right) != 5) {
+    cr_expect(strstr(d->type, "one of") != NULL, "%s: allowed text '%s' not of the form A < x < B",
+              d->key, d->allowed);
+    return;
+  }
+  char *end;
+  double lo = strtod(left, &end);
+  if (*end == '\0') {
+    cr_expect_eq(lo, r->lo, "%s: text says %s, table %g", d->key, left, r->lo);
+    cr_expect_eq(r->lo_open, strcmp(op1, "<") == 0, "%s: text says '%s'", d->key, op1);
+  }
+  double hi = strtod(right, &end);
+  if (*end == '\0') {
+    cr_expect_eq(hi, r->hi, "%s: text says %s, table %g", d->key, right, r->hi);
+    cr_expect_eq(r->hi_open, strcmp(op2, "<") == 0, "%s: text says '%s'", d->key, op2);
+  }
+}
+
+/* Values just outside and just inside a range's bounds (whole numbers for
+ * integer and word keys). */
+static int probes(const jg_param_range *r, int whole, double *outside, double *inside) {
+  int n = 0;
+  if (isfinite(r->lo)) {
+    outside[n] = r->lo_open ? r->lo : whole ? r->lo - 1 : nextafter(r->lo, -INFINITY);
+    inside[n++] = r->lo_open ? (whole ? r->lo + 1 : nextafter(r->lo, INFINITY)) : r->lo;
+  }
+  if (isfinite(r->hi)) {
+    outside[n] = r->hi_open ? r->hi : whole ? r->hi + 1 : nextafter(r->hi, INFINITY);
+    inside[n++] = r->hi_open ? (whole ? r->hi - 1 : nextafter(r->hi, -INFINITY)) : r->hi;
+  }
+  return n;
+}
+
+static int medium_never_used(const void *ctx, double ln_a, jg_medium_coefficients *out) {
+  (void)ctx, (void)ln_a, (void)out;
+  return 1;
+}
+
+/* The stage that defends `key` builds with `value` put in; NULL when it
+ * would build (the stage's message otherwise, in `err`). Only values
+ * outside the range are given, so every stage fails at its first check,
+ * before any work. */
+static const char *stage_refusal(const char *key, double value, jg_error *err) {
+  jg_params_set_defaults(&loaded);
+  jg_error_clear(err);
+  int whole = strcmp(key, "perturbations.sound_speed") == 0 ||
+              strcmp(key, "perturbations.stepper") == 0;
+  if (whole) {
+    if (strcmp(key, "perturbations.stepper") == 0) loaded.perturbations.stepper = (int)value;
+    else loaded.perturbations.sound_speed = (int)value;
+  } else if (strcmp(key, "perturbations.k_values") == 0) {
+    loaded.perturbations.n_k_values = 1;
+    loaded.perturbations.k_values[0] = value;
+  } else {
+    cr_assert_eq(jg_params_set_number(&loaded, key, value, err), JG_OK, "%s", err->message);
+  }
+  if (strncmp(key, "cosmology.", 10) == 0) {
+    jg_background *bg = jg_background_new(&loaded.cosmology, err);
+    jg_background_free(bg);
+    return bg ? NULL : err->message;
+  }
+  if (strncmp(key, "thermal.", 8) == 0) {
+    jg_params defaults;
+    jg_params_set_defaults(&defaults);
+    jg_background *bg = jg_background_new(&defaults.cosmology, err);
+    cr_assert_not_null(bg, "%s", err->message);
+    jg_thermal *th = jg_thermal_new(bg, &loaded.thermal, err);
+    cr_assert_null(th, "%s = %.17g: the thermal history was built", key, value);
+    jg_background_free(bg);
+    return err->message;
+  }
+  if (strncmp(key, "perturbations.k_", 16) == 0) {
+    static double k[JG_MAX_WAVENUMBERS];
+    int n = 0;
+    return jg_perturb_wavenumbers(&loaded.perturbations, k, &n, err) == JG_OK ? NULL
+                                                                             : err->message;
+  }
+  jg_medium medium = {medium_never_used, NULL, 0.0, -10.0, 0.0, 0.0, 1e30, 1.0};
+  jg_perturb_model *m = jg_perturb_model_new_medium(&medium, &loaded.perturbations, NULL, err);
+  cr_assert_null(m, "%s = %.17g: the model was built", key, value);
+  return err->message;
+}
+
+/* Every range and combined rule lives in the key table, and the stages that
+ * defend their own inputs (a program can bypass the loader) use it: for
+ * every key, a value just outside its range is refused by the loader and
+ * by the stage that reads it, with the same words, and a value just inside
+ * passes both checks. The written range agrees with the enforced one. */
+Test(params, every_range_is_the_one_the_stages_check) {
+  /* Keys no stage reads as a range of its own: the output choices are the
+   * program's; z_initial is bounded by the medium a model is built on (an
+   * analytic test medium may start anywhere); the table name is a file. */
+  static const char *const loader_only[] = {
+      "perturbations.z_initial", "perturbations.initial_table", "output.redshifts",
+      "output.history_rows",     "output.history_z_min",        "output.units", NULL};
+  const jg_param_doc *d;
+  int stage_keys = 0;
+  for (int i = 0; (d = jg_param_doc_at(i)) != NULL; i++) {
+    int only_loader = 0;
+    for (int j = 0; loader_only[j]; j++) only_loader |= strcmp(loader_only[j], d->key) == 0;
+    jg_param_range file, stage;
+    int has_range = jg_params_key_range(d->key, 0, &file);
+    int is_list = strncmp(d->type, "list", 4) == 0;
+    if (is_list) {
+      char element[128];
+      snprintf(element, sizeof element, "%s[0]", d->key);
+      has_range = jg_params_key_range(element, 0, &file) && jg_params_key_range(element, 1, &stage);
+    } else if (has_range) {
+      cr_assert(jg_params_key_range(d->key, 1, &stage));
+    }
+    if (!has_range) {
+      cr_expect(only_loader, "%s has no range and is not listed as loader-only", d->key);
+      continue;
+    }
+    expect_text_matches_range(d, &file);
+    int is_word = strncmp(d->type, "one of", 6) == 0;
+    int whole = is_word || strcmp(d->type, "integer") == 0;
+    double outside[2], inside[2];
+    int n = probes(&file, whole, outside, inside);
+    /* The loader's range, through a whole parameter set. */
+    for (int j = 0; j < n && !is_list && !is_word; j++) {
+      jg_error err;
+      char expected_start[160];
+      snprintf(expected_start, sizeof expected_start, "%s must satisfy ", d->key);
+      jg_params_set_defaults(&loaded);
+      jg_error_clear(&err);
+      cr_assert_eq(jg_params_set_number(&loaded, d->key, outside[j], &err), JG_OK);
+      cr_expect_eq(jg_params_validate(&loaded, &err), JG_ECONFIG, "%s = %.17g accepted", d->key,
+                   outside[j]);
+      cr_expect(strncmp(err.message, expected_start, strlen(expected_start)) == 0, "%s",
+                err.message);
+      jg_params_set_defaults(&loaded);
+      jg_error_clear(&err);
+      cr_assert_eq(jg_params_set_number(&loaded, d->key, inside[j], &err), JG_OK);
+      jg_params_validate(&loaded, &err); /* a combined rule may object, the range may not */
+      cr_expect(strncmp(err.message, expected_start, strlen(expected_start)) != 0,
+                "%s = %.17g refused: %s", d->key, inside[j], err.message);
+    }
+    if (only_loader) continue;
+    /* The stage's range: the file's unless the table grants it a wider one. */
+    stage_keys++;
+    n = probes(&stage, whole, outside, inside);
+    for (int j = 0; j < n; j++) {
+      char name[128];
+      snprintf(name, sizeof name, is_list ? "%s[0]" : "%s", d->key);
+      jg_error table_err, stage_err;
+      jg_error_clear(&table_err);
+      cr_expect_eq(jg_params_check_value(name, outside[j], &table_err), JG_EINVAL);
+      const char *refusal = stage_refusal(d->key, outside[j], &stage_err);
+      cr_expect_not_null(refusal, "%s = %.17g: the stage accepts it", d->key, outside[j]);
+      if (refusal) {
+        cr_expect_eq(stage_err.status, JG_EINVAL, "%s: %s", d->key, refusal);
+        cr_expect_str_eq(refusal, table_err.message);
+      }
+      jg_error_clear(&table_err);
+      cr_expect_eq(jg_params_check_value(name, inside[j], &table_err), JG_OK, "%s = %.17g: %s",
+                   d->key, inside[j], table_err.message);
+    }
+    /* A wider stage domain holds the file's range. */
+    cr_expect(stage.lo <= file.lo && stage.hi >= file.hi, "%s: the stage refuses file values",
+              d->key);
+  }
+  cr_expect_geq(stage_keys, 20, "the stages defend fewer keys than expected");
 }

@@ -24,6 +24,11 @@ extern "C" {
 #define JG_MAX_REDSHIFTS 512 /* longest output.redshifts list */
 #define JG_MAX_WAVENUMBERS 4096 /* longest perturbations.k_values list / k_count */
 #define JG_MAX_PATH 1024 /* longest file name a parameter may hold, with its final zero */
+/* Wavenumbers (1/Mpc, comoving) the fluid equations hold for (why: perturb.h):
+ * the key table's range of perturbations.k_min, k_max and k_values, and the
+ * perturbation module's JG_PERTURB_K_MIN and JG_PERTURB_K_MAX. */
+#define JG_PARAMS_K_LOWEST 1.0
+#define JG_PARAMS_K_HIGHEST 1.0e5
 
 /* The cosmological model (group `cosmology`). */
 typedef struct jg_cosmology {
@@ -118,7 +123,10 @@ void jg_params_set_defaults(jg_params *p);
  * (value in libconfig syntax, arrays included), then check every value.
  * On failure `out` is left untouched and `err` names the file and line (or
  * the override), the key, the value found and what is allowed.
- * Unknown keys are errors, with the nearest known key suggested.
+ * Unknown keys are errors, with the nearest known key suggested. The `scan`
+ * group is checked against its own table (see jg_params_read_scan) and
+ * ignored otherwise; an override cannot set it. A block comment that is
+ * never closed is an error naming its line.
  */
 jg_status jg_params_load(const char *path, const char *const *overrides, int n_overrides,
                          jg_params *out, jg_error *err);
@@ -126,6 +134,36 @@ jg_status jg_params_load(const char *path, const char *const *overrides, int n_o
 /* Check a filled struct (ranges, finiteness, consistency). The loader calls
  * this; programs that fill the struct by hand should call it too. */
 jg_status jg_params_validate(const jg_params *p, jg_error *err);
+
+/*
+ * The same limits for a stage that defends its own inputs (library callers
+ * bypass the loader): each takes its ranges and combined rules from the one
+ * key table, and fails with JG_EINVAL and the loader's message ("KEY must
+ * satisfy ALLOWED (got VALUE)"). jg_background_new and jg_thermal_new call
+ * the first two, jg_perturb_wavenumbers the third; the perturbation model
+ * checks its other keys one by one with jg_params_check_value. The
+ * table grants a stage a wider domain than a file for a few keys, each with
+ * its reason (cosmology.curvature_omega: any finite value, the background
+ * checks H^2 itself; the thermal tolerances: 0 < value < 1).
+ */
+jg_status jg_params_check_cosmology(const jg_cosmology *c, jg_error *err);
+jg_status jg_params_check_thermal(const jg_thermal_settings *s, jg_error *err);
+/* The wavenumber keys of the perturbation settings (k_min, k_max, k_count,
+ * k_values) and the rules between them. */
+jg_status jg_params_check_wavenumbers(const jg_perturb_settings *s, jg_error *err);
+/* One value of a number, integer or word key (a word as its index), or one
+ * element of a list ("perturbations.k_values[3]"). */
+jg_status jg_params_check_value(const char *key, double value, jg_error *err);
+
+/* The allowed range of a number, integer or word key (of a list: of each
+ * element; of a word: its index), as the key table holds it: the file's, or
+ * with `for_stage` the one the stages check. */
+typedef struct jg_param_range {
+  double lo, hi;
+  int lo_open, hi_open; /* 1: the bound itself is excluded */
+} jg_param_range;
+/* 1 and `range` filled for such a key, else 0. */
+int jg_params_key_range(const char *key, int for_stage, jg_param_range *range);
 
 /* Write every key with its effective value as `# key = value;` lines (the
  * header block of every output table). */
@@ -154,6 +192,54 @@ typedef struct jg_param_doc {
 
 /* The i-th documented key, or NULL past the end. */
 const jg_param_doc *jg_param_doc_at(int i);
+
+/*
+ * The grid of `jeansgrow scan` in a parameter file, read against its own key
+ * table (jg_param_scan_doc_at) with the same type checks and messages as
+ * the other keys:
+ *
+ *   scan: { vary = ( { key = "cosmology.hubble_h"; from = 0.6; to = 0.8; count = 3; },
+ *                    { key = "thermal.recombination_fudge"; values = [1.0, 1.14]; },
+ *                    "cosmology.cdm_density_h2=0.10:0.14:3" ); };
+ *
+ * One axis as written; the scan module turns it into a grid axis and checks
+ * it as a grid (see scan.h).
+ */
+typedef struct jg_param_axis {
+  const char *where;    /* "FILE:LINE: scan.vary[I]", to start messages */
+  const char *text;     /* an element written as text "KEY=FROM:TO:N[:log]", else NULL */
+  const char *key;      /* a group element: the varied key */
+  const double *values; /* its `values` list (n_values long), or NULL for a range */
+  int n_values;
+  double from, to;      /* a range: from, to, count values, log spacing or not */
+  long count;
+  int log_spacing;
+} jg_param_axis;
+
+/* Called once per element of scan.vary, in file order; the pointers in
+ * `axis` live until it returns. A non-OK status stops the reading. */
+typedef jg_status (*jg_param_axis_fn)(void *user, const jg_param_axis *axis, jg_error *err);
+
+/* Read the `scan` group of parameter file `path` and hand each axis to
+ * `add`. A file without a scan group calls nothing and succeeds. Errors name
+ * the file, the line and the key (JG_ECONFIG; JG_EIO when the file cannot be
+ * read); jg_params_load makes the same checks, so a typo in the group is
+ * caught by every command. */
+jg_status jg_params_read_scan(const char *path, jg_param_axis_fn add, void *user, jg_error *err);
+
+/* The i-th documented key of the scan group, or NULL past the end. */
+const jg_param_doc *jg_param_scan_doc_at(int i);
+
+/* A rule that ties several keys together (beyond each key's own range). */
+typedef struct jg_param_rule {
+  const char *keys;   /* the keys involved, comma-separated */
+  const char *rule;   /* e.g. "de_w0 + de_wa < 1/3" */
+  const char *reason; /* why the rule holds */
+} jg_param_rule;
+
+/* The i-th combined rule, or NULL past the end. jg_params_validate checks
+ * every one of them. */
+const jg_param_rule *jg_param_rule_at(int i);
 
 #ifdef __cplusplus
 }

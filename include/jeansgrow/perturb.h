@@ -65,11 +65,11 @@ extern "C" {
  * by z ~ 10: the collisional mean free path of the atoms (~1 pc physical at
  * z = 10 for n_H ~ 2.5e-4 cm^-3 and sigma ~ 1e-15 cm^2, value from memory)
  * approaches the wavelength (2 pi / k) / (1 + z) = 5.7 pc at k = 1e5; it is
- * also the bound of the parameter loader. Each k must also exceed
+ * also the bound of the parameter loader (one pair of constants, params.h). Each k must also exceed
  * JG_PERTURB_HORIZON_FACTOR times the comoving horizon wavenumber aH/c at
  * z_initial (Newtonian, sub-horizon equations). */
-#define JG_PERTURB_K_MIN 1.0
-#define JG_PERTURB_K_MAX 1.0e5
+#define JG_PERTURB_K_MIN JG_PARAMS_K_LOWEST
+#define JG_PERTURB_K_MAX JG_PARAMS_K_HIGHEST
 #define JG_PERTURB_HORIZON_FACTOR 10.0
 
 /* ---- the medium: coefficients of the equations -------------------------- */

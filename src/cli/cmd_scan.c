@@ -113,12 +113,6 @@ static int parse_scan_options(const cli_command *cmd, int argc, char **argv, sca
         fprintf(stderr, "jeansgrow scan: too many --set options (at most %d)\n", CLI_MAX_OVERRIDES);
         return EXIT_BAD_INPUT;
       }
-      /* The grid is given with --vary; a --set of it would be ignored. */
-      if (strncmp(optarg, "scan.", 5) == 0 || strncmp(optarg, "scan=", 5) == 0) {
-        fprintf(stderr, "jeansgrow scan: --set %s: the scan grid is not a parameter; use --vary "
-                        "KEY=FROM:TO:N instead\n", optarg);
-        return EXIT_BAD_INPUT;
-      }
       o->common.overrides[o->common.n_overrides++] = optarg;
       break;
     case 't':

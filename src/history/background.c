@@ -112,59 +112,12 @@ double jg_background_z_equality(const jg_background *bg) {
 
 /* ---- construction and validation ---------------------------------------- */
 
-static jg_status check_finite(double v, const char *key, jg_error *err) {
-  if (!isfinite(v))
-    return JG_FAIL(err, JG_EINVAL, "cosmology.%s must be a finite number (got %g)", key, v);
-  return JG_OK;
-}
-
+/* The ranges and the dark-energy rule (w0 + wa < 1/3: the whole library
+ * assumes a radiation-dominated start) are the key table's, so that a
+ * program filling jg_cosmology by hand meets the limits a parameter file
+ * does. Whether H^2 stays positive is this module's own check below. */
 static jg_status validate_cosmology(const jg_cosmology *c, jg_error *err) {
-  const struct {
-    const char *key;
-    double value;
-  } fields[] = {
-      {"hubble_h", c->hubble_h},
-      {"baryon_density_h2", c->baryon_density_h2},
-      {"cdm_density_h2", c->cdm_density_h2},
-      {"curvature_omega", c->curvature_omega},
-      {"cmb_temperature_K", c->cmb_temperature_K},
-      {"helium_mass_fraction", c->helium_mass_fraction},
-      {"neutrino_number_eff", c->neutrino_number_eff},
-      {"de_w0", c->de_w0},
-      {"de_wa", c->de_wa},
-  };
-  for (size_t i = 0; i < sizeof fields / sizeof fields[0]; ++i) {
-    jg_status st = check_finite(fields[i].value, fields[i].key, err);
-    if (st != JG_OK) return st;
-  }
-  if (!(c->hubble_h > 0.0))
-    return JG_FAIL(err, JG_EINVAL, "cosmology.hubble_h must be > 0 (got %g)", c->hubble_h);
-  if (!(c->baryon_density_h2 > 0.0))
-    return JG_FAIL(err, JG_EINVAL, "cosmology.baryon_density_h2 must be > 0 (got %g)",
-                   c->baryon_density_h2);
-  if (!(c->cdm_density_h2 > 0.0))
-    return JG_FAIL(err, JG_EINVAL, "cosmology.cdm_density_h2 must be > 0 (got %g)",
-                   c->cdm_density_h2);
-  if (!(c->cmb_temperature_K > 0.0))
-    return JG_FAIL(err, JG_EINVAL, "cosmology.cmb_temperature_K must be > 0 (got %g)",
-                   c->cmb_temperature_K);
-  if (!(c->helium_mass_fraction >= 0.0 && c->helium_mass_fraction < 1.0))
-    return JG_FAIL(err, JG_EINVAL, "cosmology.helium_mass_fraction must be in [0, 1) (got %g)",
-                   c->helium_mass_fraction);
-  if (!(c->neutrino_number_eff >= 0.0))
-    return JG_FAIL(err, JG_EINVAL, "cosmology.neutrino_number_eff must be >= 0 (got %g)",
-                   c->neutrino_number_eff);
-  /* The whole library assumes a radiation-dominated start (1 + z_eq =
-   * Omega_m/Omega_r, integrals from a = 0, the thermal history). CPL dark
-   * energy has w -> w0 + wa as a -> 0; at w >= 1/3 it would dilute no faster
-   * than radiation and could dominate, or, if Omega_de < 0, drive H^2
-   * negative below the scanned range. */
-  if (!(c->de_w0 + c->de_wa < 1.0 / 3.0))
-    return JG_FAIL(err, JG_EINVAL,
-                   "cosmology.de_w0 + cosmology.de_wa must be < 1/3 so that dark energy is "
-                   "negligible at early times (got %g + %g = %g)",
-                   c->de_w0, c->de_wa, c->de_w0 + c->de_wa);
-  return JG_OK;
+  return jg_params_check_cosmology(c, err);
 }
 
 /* The state an integrand or the minimiser needs. GSL passes a void *; a

@@ -162,27 +162,10 @@ void jg_thermal_free(jg_thermal *th) {
   free(th);
 }
 
+/* The key table's ranges (params.h), for programs that fill the settings
+ * by hand. */
 static jg_status check_settings(const jg_thermal_settings *s, jg_error *err) {
-  if (!(s->start_redshift >= 3000 && s->start_redshift <= 1e5))
-    return JG_FAIL(err, JG_EINVAL, "thermal.start_redshift must be between 3000 and 100000 (got %g)",
-                   s->start_redshift);
-  if (!(s->recombination_fudge > 0) || !isfinite(s->recombination_fudge))
-    return JG_FAIL(err, JG_EINVAL, "thermal.recombination_fudge must be positive (got %g)",
-                   s->recombination_fudge);
-  if (!(s->saha_limit > 0 && s->saha_limit < 1))
-    return JG_FAIL(err, JG_EINVAL, "thermal.saha_limit must lie in (0, 1) (got %g)", s->saha_limit);
-  if (!(s->quasi_static_limit > 0 && s->quasi_static_limit < 1))
-    return JG_FAIL(err, JG_EINVAL, "thermal.quasi_static_limit must lie in (0, 1) (got %g)",
-                   s->quasi_static_limit);
-  /* One message per key, so that the user knows which of the two to change. */
-  if (!(s->rel_tol > 0 && s->rel_tol < 1))
-    return JG_FAIL(err, JG_EINVAL, "thermal.rel_tol must lie in (0, 1) (got %g)", s->rel_tol);
-  if (!(s->abs_tol > 0 && s->abs_tol < 1))
-    return JG_FAIL(err, JG_EINVAL, "thermal.abs_tol must lie in (0, 1) (got %g)", s->abs_tol);
-  if (s->grid_points < 200)
-    return JG_FAIL(err, JG_EINVAL, "thermal.grid_points must be at least 200 (got %d)",
-                   s->grid_points);
-  return JG_OK;
+  return jg_params_check_thermal(s, err);
 }
 
 /* Integrate one ODE phase from x to x_next; name the stage on failure. */

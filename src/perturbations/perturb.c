@@ -257,21 +257,22 @@ static int meszaros_growing_mode(double f_c, double y, double *D, double *dlnD_d
 static double matter_growing_exponent(double f_c) { return 0.5 * (sqrt(0.25 + 6.0 * f_c) - 0.5); }
 
 static jg_status check_settings(const jg_perturb_settings *s, jg_error *err) {
-  if (!(s->rel_tol > 0.0 && s->rel_tol < 1.0))
-    return JG_FAIL(err, JG_EINVAL, "perturbations.rel_tol must lie in (0, 1) (got %g)",
-                   s->rel_tol);
-  if (!(s->abs_tol > 0.0 && s->abs_tol < 1.0))
-    return JG_FAIL(err, JG_EINVAL, "perturbations.abs_tol must lie in (0, 1) (got %g)",
-                   s->abs_tol);
+  /* The key table's ranges (params.h); z_initial below is bounded by the
+   * medium instead, which may be an analytic one. */
+  const struct {
+    const char *key;
+    double value;
+  } keys[] = {{"perturbations.rel_tol", s->rel_tol},
+              {"perturbations.abs_tol", s->abs_tol},
+              {"perturbations.sound_speed", (double)(int)s->sound_speed},
+              {"perturbations.stepper", (double)(int)s->stepper}};
+  for (size_t i = 0; i < sizeof keys / sizeof keys[0]; i++) {
+    jg_status st = jg_params_check_value(keys[i].key, keys[i].value, err);
+    if (st != JG_OK) return st;
+  }
   if (!(s->z_initial > 0.0) || !isfinite(s->z_initial))
     return JG_FAIL(err, JG_EINVAL, "perturbations.z_initial must be finite and > 0 (got %g)",
                    s->z_initial);
-  if (s->sound_speed != JG_SOUND_SPEED_FLUCTUATING && s->sound_speed != JG_SOUND_SPEED_ISOTHERMAL &&
-      s->sound_speed != JG_SOUND_SPEED_ADIABATIC)
-    return JG_FAIL(err, JG_EINVAL, "perturbations.sound_speed: unknown model %d",
-                   (int)s->sound_speed);
-  if (s->stepper != JG_PERTURB_STEPPER_MSBDF_RK8PD && s->stepper != JG_PERTURB_STEPPER_MSBDF)
-    return JG_FAIL(err, JG_EINVAL, "perturbations.stepper: unknown choice %d", (int)s->stepper);
   return JG_OK;
 }
 
@@ -899,26 +900,13 @@ jg_status jg_perturb_solve_limit(const jg_perturb_model *m, jg_perturb_workspace
 jg_status jg_perturb_wavenumbers(const jg_perturb_settings *s, double *k, int *n_k,
                                  jg_error *err) {
   if (!s || !k || !n_k) return JG_FAIL(err, JG_EINVAL, "jg_perturb_wavenumbers: NULL argument");
+  jg_status st = jg_params_check_wavenumbers(s, err);
+  if (st != JG_OK) return st;
   if (s->n_k_values > 0) {
-    if (s->n_k_values > JG_MAX_WAVENUMBERS)
-      return JG_FAIL(err, JG_EINVAL, "perturbations.k_values: at most %d values (got %d)",
-                     JG_MAX_WAVENUMBERS, s->n_k_values);
-    for (int i = 0; i < s->n_k_values; i++) {
-      if (!(s->k_values[i] > 0.0) || !isfinite(s->k_values[i]))
-        return JG_FAIL(err, JG_EINVAL, "perturbations.k_values[%d] = %g must be finite and > 0",
-                       i, s->k_values[i]);
-      k[i] = s->k_values[i];
-    }
+    memcpy(k, s->k_values, sizeof(double) * (size_t)s->n_k_values);
     *n_k = s->n_k_values;
     return JG_OK;
   }
-  if (s->k_count < 1 || s->k_count > JG_MAX_WAVENUMBERS)
-    return JG_FAIL(err, JG_EINVAL, "perturbations.k_count must be 1 to %d (got %d)",
-                   JG_MAX_WAVENUMBERS, s->k_count);
-  if (!(s->k_min > 0.0) || !(s->k_max >= s->k_min) || !isfinite(s->k_max))
-    return JG_FAIL(err, JG_EINVAL,
-                   "perturbations: need 0 < k_min <= k_max (got k_min = %g, k_max = %g)",
-                   s->k_min, s->k_max);
   const int n = s->k_count;
   if (n == 1) {
     k[0] = s->k_min;

@@ -19,7 +19,6 @@
 #include <errno.h>
 #include <fcntl.h>
 #include <inttypes.h>
-#include <libconfig.h>
 #include <limits.h>
 #include <math.h>
 #include <pthread.h>
@@ -402,144 +401,19 @@ static void grid_truncate(jg_scan_grid *g, int n_axes) {
 
 /* ---- the scan group of a parameter file ---------------------------------- */
 
-static int setting_line(const config_setting_t *s, const config_setting_t *fallback) {
-  int line = s ? (int)config_setting_source_line(s) : 0;
-  if (line <= 0 && fallback) line = (int)config_setting_source_line(fallback);
-  return line;
-}
-
-static int setting_number(const config_setting_t *s, double *out) {
-  switch (config_setting_type(s)) {
-  case CONFIG_TYPE_INT:
-    *out = config_setting_get_int(s);
-    return 1;
-  case CONFIG_TYPE_INT64:
-    *out = (double)config_setting_get_int64(s);
-    return 1;
-  case CONFIG_TYPE_FLOAT:
-    *out = config_setting_get_float(s);
-    return 1;
-  default:
-    return 0;
-  }
-}
-
-static jg_status read_vary_group(jg_scan_grid *g, const config_setting_t *e, const char *where,
-                                 jg_error *err) {
-  static const char *const members[] = {"key", "from", "to", "count", "spacing", "values", NULL};
-  int n = config_setting_length(e);
-  for (int i = 0; i < n; i++) {
-    const char *name = config_setting_name(config_setting_get_elem(e, (unsigned)i));
-    int known = 0;
-    for (int j = 0; members[j]; j++) known |= name && strcmp(name, members[j]) == 0;
-    if (!known)
-      return JG_FAIL(err, JG_ECONFIG, "%s: unknown key '%s' (an element holds key, and either "
-                     "from, to, count and spacing, or values)", where, name ? name : "?");
-  }
-  const config_setting_t *key = config_setting_get_member(e, "key");
-  if (!key || config_setting_type(key) != CONFIG_TYPE_STRING)
-    return JG_FAIL(err, JG_ECONFIG, "%s: needs key = \"group.name\"; (a quoted parameter key)",
-                   where);
-  const char *k = config_setting_get_string(key);
-  const config_setting_t *values = config_setting_get_member(e, "values");
-  const config_setting_t *from = config_setting_get_member(e, "from");
-  const config_setting_t *to = config_setting_get_member(e, "to");
-  const config_setting_t *count = config_setting_get_member(e, "count");
-  const config_setting_t *spacing = config_setting_get_member(e, "spacing");
-  if (values) {
-    if (from || to || count || spacing)
-      return JG_FAIL(err, JG_ECONFIG, "%s: give either values or from, to, count (and spacing), "
-                     "not both", where);
-    int t = config_setting_type(values);
-    if (t != CONFIG_TYPE_ARRAY && t != CONFIG_TYPE_LIST)
-      return JG_FAIL(err, JG_ECONFIG, "%s: values must be a list of numbers such as [0.6, 0.7]",
-                     where);
-    int m = config_setting_length(values);
-    double *v = malloc(sizeof(double) * (size_t)(m > 0 ? m : 1));
-    if (!v) return JG_FAIL(err, JG_ENOMEM, "%s: out of memory", where);
-    for (int i = 0; i < m; i++) {
-      if (!setting_number(config_setting_get_elem(values, (unsigned)i), &v[i])) {
-        free(v);
-        return JG_FAIL(err, JG_ECONFIG, "%s: values[%d] must be a number", where, i);
-      }
-    }
-    jg_status st = jg_scan_grid_add_list(g, k, v, m, where, err);
-    free(v);
-    return st;
-  }
-  double f, t, c;
-  if (!from || !to || !count)
-    return JG_FAIL(err, JG_ECONFIG, "%s: needs from, to and count (or a list of values)", where);
-  if (!setting_number(from, &f)) return JG_FAIL(err, JG_ECONFIG, "%s: from must be a number", where);
-  if (!setting_number(to, &t)) return JG_FAIL(err, JG_ECONFIG, "%s: to must be a number", where);
-  int ct = config_setting_type(count);
-  if ((ct != CONFIG_TYPE_INT && ct != CONFIG_TYPE_INT64) || !setting_number(count, &c))
-    return JG_FAIL(err, JG_ECONFIG, "%s: count must be a whole number such as 7", where);
-  jg_scan_spacing sp = JG_SCAN_LINEAR;
-  if (spacing) {
-    const char *w = config_setting_type(spacing) == CONFIG_TYPE_STRING
-                        ? config_setting_get_string(spacing) : NULL;
-    if (w && strcmp(w, "log") == 0) sp = JG_SCAN_LOG;
-    else if (!(w && strcmp(w, "linear") == 0))
-      return JG_FAIL(err, JG_ECONFIG, "%s: spacing must be \"linear\" or \"log\"", where);
-  }
-  if (c > (double)JG_SCAN_MAX_POINTS) c = (double)JG_SCAN_MAX_POINTS + 1;
-  return jg_scan_grid_add_range(g, k, f, t, (long)c, sp, where, err);
+/* One axis of the file's scan.vary, read by the parameter module. */
+static jg_status add_file_axis(void *grid, const jg_param_axis *a, jg_error *err) {
+  jg_scan_grid *g = grid;
+  if (a->text) return jg_scan_grid_parse(g, a->text, a->where, err);
+  if (a->values) return jg_scan_grid_add_list(g, a->key, a->values, a->n_values, a->where, err);
+  return jg_scan_grid_add_range(g, a->key, a->from, a->to, a->count,
+                                a->log_spacing ? JG_SCAN_LOG : JG_SCAN_LINEAR, a->where, err);
 }
 
 jg_status jg_scan_grid_read_file(jg_scan_grid *g, const char *path, jg_error *err) {
   if (!g || !path) return JG_FAIL(err, JG_EINVAL, "jg_scan_grid_read_file: NULL argument");
-  config_t cfg;
-  config_init(&cfg);
-  if (!config_read_file(&cfg, path)) {
-    jg_status st = config_error_type(&cfg) == CONFIG_ERR_FILE_IO
-                       ? JG_FAIL(err, JG_EIO, "%s: cannot read parameter file", path)
-                       : JG_FAIL(err, JG_ECONFIG, "%s:%d: %s", path, config_error_line(&cfg),
-                                 config_error_text(&cfg) ? config_error_text(&cfg) : "syntax error");
-    config_destroy(&cfg);
-    return st;
-  }
   const int n_before = g->n_axes;
-  jg_status st = JG_OK;
-  const config_setting_t *scan = config_lookup(&cfg, "scan");
-  if (scan && config_setting_type(scan) != CONFIG_TYPE_GROUP)
-    st = JG_FAIL(err, JG_ECONFIG, "%s:%d: scan must be a group: scan: { vary = ( ... ); };", path,
-                 setting_line(scan, NULL));
-  const config_setting_t *vary = NULL;
-  if (st == JG_OK && scan) {
-    int n = config_setting_length(scan);
-    for (int i = 0; st == JG_OK && i < n; i++) {
-      const config_setting_t *m = config_setting_get_elem(scan, (unsigned)i);
-      const char *name = config_setting_name(m);
-      if (!name || strcmp(name, "vary") != 0)
-        st = JG_FAIL(err, JG_ECONFIG, "%s:%d: unknown key 'scan.%s' (the scan group holds "
-                     "only 'vary')", path, setting_line(m, scan), name ? name : "?");
-    }
-    vary = config_setting_get_member(scan, "vary");
-  }
-  if (st == JG_OK && vary) {
-    int t = config_setting_type(vary);
-    if (t != CONFIG_TYPE_LIST && t != CONFIG_TYPE_ARRAY)
-      st = JG_FAIL(err, JG_ECONFIG, "%s:%d: scan.vary must be a list: vary = ( { key = ...; "
-                   "from = ...; to = ...; count = ...; } );", path, setting_line(vary, scan));
-    else if (config_setting_length(vary) == 0)
-      st = JG_FAIL(err, JG_ECONFIG, "%s:%d: scan.vary is empty (nothing to vary)", path,
-                   setting_line(vary, scan));
-    int n = config_setting_length(vary);
-    for (int i = 0; st == JG_OK && i < n; i++) {
-      const config_setting_t *e = config_setting_get_elem(vary, (unsigned)i);
-      char where[1024];
-      snprintf(where, sizeof where, "%s:%d: scan.vary[%d]", path, setting_line(e, vary), i);
-      if (config_setting_type(e) == CONFIG_TYPE_STRING)
-        st = jg_scan_grid_parse(g, config_setting_get_string(e), where, err);
-      else if (config_setting_type(e) == CONFIG_TYPE_GROUP)
-        st = read_vary_group(g, e, where, err);
-      else
-        st = JG_FAIL(err, JG_ECONFIG, "%s: each element is a group { key = \"...\"; from = ...; "
-                     "to = ...; count = ...; } or a text \"KEY=FROM:TO:N\"", where);
-    }
-  }
-  config_destroy(&cfg);
+  jg_status st = jg_params_read_scan(path, add_file_axis, g, err);
   if (st != JG_OK) grid_truncate(g, n_before);
   return st;
 }
