@@ -386,18 +386,27 @@ Test(special_outputs, a_named_pipe_receives_the_table) {
   cr_assert(still, "the named pipe was replaced");
 }
 
+/* Make `link_path` a symbolic link to `target` and run `epochs -o` on it;
+ * returns the exit status and says whether the link is still a link. */
+static int epochs_through_link(const char *link_path, const char *target, char *err,
+                               size_t err_size, int *still_link) {
+  cr_assert(symlink(target, link_path) == 0, "symlink: %s", strerror(errno));
+  const char *argv[] = {"", "epochs", REFERENCE, "-o", link_path, NULL};
+  int rc = run_program(argv, NULL, 0, err, err_size);
+  struct stat sb;
+  *still_link = lstat(link_path, &sb) == 0 && S_ISLNK(sb.st_mode);
+  return rc;
+}
+
 Test(special_outputs, a_symbolic_link_is_followed_and_kept) {
   char dir[4096], link_path[4200], file_path[4200];
   make_temp_folder(dir, sizeof dir);
   snprintf(link_path, sizeof link_path, "%s/link.txt", dir);
   snprintf(file_path, sizeof file_path, "%s/table.txt", dir);
   write_text(file_path, "previous complete table\n");
-  cr_assert(symlink("table.txt", link_path) == 0, "symlink: %s", strerror(errno));
-  const char *argv[] = {"", "epochs", REFERENCE, "-o", link_path, NULL};
   char err[4096];
-  int rc = run_program(argv, NULL, 0, err, sizeof err);
-  struct stat sb;
-  int still_link = lstat(link_path, &sb) == 0 && S_ISLNK(sb.st_mode);
+  int still_link = 0;
+  int rc = epochs_through_link(link_path, "table.txt", err, sizeof err, &still_link);
   char *text = read_text(file_path);
   remove_folder(dir);
   cr_assert(rc == 0, "exit status %d, expected 0; stderr: %s", rc, err);
@@ -405,6 +414,118 @@ Test(special_outputs, a_symbolic_link_is_followed_and_kept) {
   cr_assert(text && strncmp(text, "# jeansgrow", 11) == 0,
             "the table did not reach the link's target: %.60s", text ? text : "(missing)");
   free(text);
+}
+
+/* A scan has no folder of its own beside a device: no checkpoint is put
+ * there (it would land in /dev), a full device is reported with its
+ * reason (not "Success"), and --resume, which needs a checkpoint, is
+ * refused. */
+#define SMALL_SCAN "scan", REFERENCE, "--vary", "cosmology.hubble_h=[0.6,0.7]", \
+    "--set=thermal.grid_points=1000", "--set=output.redshifts=[1000.0, 10.0]"
+
+Test(special_outputs, a_scan_keeps_no_checkpoint_beside_a_device) {
+  char dir[4096], null_path[4200], full_path[4200], names[4096];
+  make_temp_folder(dir, sizeof dir);
+  snprintf(null_path, sizeof null_path, "%s/null", dir);
+  snprintf(full_path, sizeof full_path, "%s/full", dir);
+  make_device(null_path, 3);
+  make_device(full_path, 7);
+  const char *to_null[] = {"", SMALL_SCAN, "-o", null_path, NULL};
+  const char *to_full[] = {"", SMALL_SCAN, "-o", full_path, NULL};
+  const char *resume[] = {"", SMALL_SCAN, "--resume", "-o", null_path, NULL};
+  char err_null[4096], err_full[4096], err_resume[4096];
+  int rc_null = run_program(to_null, NULL, 0, err_null, sizeof err_null);
+  int rc_full = run_program(to_full, NULL, 0, err_full, sizeof err_full);
+  int rc_resume = run_program(resume, NULL, 0, err_resume, sizeof err_resume);
+  int n = list_folder(dir, names, sizeof names);
+  int still = is_char_device(null_path) && is_char_device(full_path);
+  remove_folder(dir);
+  cr_assert(rc_null == 0, "exit status %d, expected 0; stderr: %s", rc_null, err_null);
+  cr_assert(rc_full == 1, "exit status %d, expected 1; stderr: %s", rc_full, err_full);
+  cr_assert(strstr(err_full, strerror(ENOSPC)) && !strstr(err_full, "Success"),
+            "a full device must be reported as such: %s", err_full);
+  cr_assert(rc_resume == 2, "exit status %d, expected 2; stderr: %s", rc_resume, err_resume);
+  cr_assert(strstr(err_resume, "--resume needs a regular file"), "%s", err_resume);
+  cr_assert(n == 2, "files left beside the devices:%s", names);
+  cr_assert(still, "a device node was replaced");
+}
+
+/* A link to nothing is refused with its target named: the table would
+ * otherwise replace the link, or be written wherever the link points. */
+Test(special_outputs, a_dangling_symbolic_link_is_refused_and_kept) {
+  char dir[4096], link_path[4200], names[4096];
+  make_temp_folder(dir, sizeof dir);
+  snprintf(link_path, sizeof link_path, "%s/link.txt", dir);
+  char err[4096];
+  int still_link = 0;
+  int rc = epochs_through_link(link_path, "missing/table.txt", err, sizeof err, &still_link);
+  int n = list_folder(dir, names, sizeof names);
+  remove_folder(dir);
+  cr_assert(rc == 2, "exit status %d, expected 2; stderr: %s", rc, err);
+  assert_one_clear_line(err, link_path, "symbolic link to 'missing/table.txt', which does not exist");
+  cr_assert(still_link && n == 1, "the link was replaced or files were left:%s", names);
+}
+
+/* Every name the system allows can be written: the hidden temporary name
+ * (and a scan's checkpoint name) must not pass NAME_MAX (255 bytes) when
+ * the output's own name is close to it. */
+Test(special_outputs, output_names_up_to_the_longest_allowed_are_written) {
+  char dir[4096], path[4600], names[8192];
+  make_temp_folder(dir, sizeof dir);
+  const size_t lengths[] = {241, 242, 250, 255};
+  for (size_t k = 0; k < sizeof lengths / sizeof lengths[0]; k++) {
+    char name[256];
+    memset(name, 'a' + (int)k, lengths[k]);
+    name[lengths[k]] = '\0';
+    snprintf(path, sizeof path, "%s/%s", dir, name);
+    const char *epochs[] = {"", "epochs", REFERENCE, "-o", path, NULL};
+    const char *scan[] = {"", SMALL_SCAN, "-o", path, NULL};
+    char err[4096];
+    int rc = run_program(epochs, NULL, 0, err, sizeof err);
+    cr_assert(rc == 0, "a %zu-byte name: exit status %d; stderr: %s", lengths[k], rc, err);
+    cr_assert(unlink(path) == 0, "a %zu-byte name was not written", lengths[k]);
+    rc = run_program(scan, NULL, 0, err, sizeof err);
+    cr_assert(rc == 0, "scan, a %zu-byte name: exit status %d; stderr: %s", lengths[k], rc, err);
+    cr_assert(unlink(path) == 0, "scan: a %zu-byte name was not written", lengths[k]);
+  }
+  int n = list_folder(dir, names, sizeof names);
+  remove_folder(dir);
+  cr_assert(n == 0, "files left behind:%s", names);
+}
+
+/* A run killed with SIGKILL cannot remove its hidden temporary file; the
+ * next run of the same output removes it, but never the temporary file of
+ * a run still writing (it holds a lock on it), nor a file that only looks
+ * alike. */
+Test(special_outputs, a_killed_run_leaves_temporaries_that_the_next_run_removes) {
+  char dir[4096], path[4200], stale[4200], live[4200], other[4200], names[4096];
+  make_temp_folder(dir, sizeof dir);
+  snprintf(path, sizeof path, "%s/table.txt", dir);
+  snprintf(stale, sizeof stale, "%s/.table.txt.0123456789ab", dir);
+  snprintf(live, sizeof live, "%s/.table.txt.ba9876543210", dir);
+  snprintf(other, sizeof other, "%s/.table.txt.not-ours-at-all", dir);
+  write_text(stale, "# half a table from a killed run\n");
+  write_text(live, "# a table being written\n");
+  write_text(other, "# somebody else's file\n");
+  /* Both temporaries as old as a long run's. */
+  const struct timespec old[2] = {{time(NULL) - 3600, 0}, {time(NULL) - 3600, 0}};
+  cr_assert(utimensat(AT_FDCWD, stale, old, 0) == 0 && utimensat(AT_FDCWD, live, old, 0) == 0);
+  int live_fd = open(live, O_WRONLY);
+  struct flock fl = {.l_type = F_WRLCK, .l_whence = SEEK_SET};
+  cr_assert(live_fd >= 0 && fcntl(live_fd, F_OFD_SETLK, &fl) == 0, "lock: %s", strerror(errno));
+  const char *argv[] = {"", "epochs", REFERENCE, "-o", path, NULL};
+  char err[4096];
+  int rc = run_program(argv, NULL, 0, err, sizeof err);
+  int stale_gone = access(stale, F_OK) != 0, live_kept = access(live, F_OK) == 0;
+  int other_kept = access(other, F_OK) == 0;
+  close(live_fd);
+  int n = list_folder(dir, names, sizeof names);
+  remove_folder(dir);
+  cr_assert(rc == 0, "exit status %d; stderr: %s", rc, err);
+  cr_assert(stale_gone, "the temporary file of the killed run is still there:%s", names);
+  cr_assert(live_kept, "the temporary file of a run still writing was removed");
+  cr_assert(other_kept, "a file that only looks like a temporary file was removed");
+  cr_assert(n == 3, "files:%s", names);
 }
 
 /* ---- interrupts ------------------------------------------------------------ */

@@ -10,6 +10,7 @@
  * program tests run the real evaluator on params/reference.cfg with a
  * coarse history (thermal.grid_points = 1000) to stay quick.
  */
+#define _GNU_SOURCE /* F_OFD_SETLK, to stand in for a running scan's lock */
 #include <criterion/criterion.h>
 #include <criterion/logging.h>
 #include <dirent.h>
@@ -21,6 +22,7 @@
 #include <stdio.h>
 #include <stdlib.h>
 #include <string.h>
+#include <sys/resource.h>
 #include <sys/stat.h>
 #include <sys/wait.h>
 #include <time.h>
@@ -149,6 +151,32 @@ static char *toy_table(const jg_scan *s, int threads) {
   return text;
 }
 
+/* A toy scan over `hubble_axis` and a fresh folder `dir` for its
+ * checkpoint `ck` (dir/t.checkpoint). */
+static jg_scan *toy_scan_in_folder(char *dir, size_t dir_size, char *ck, size_t ck_size,
+                                   const char *hubble_axis) {
+  make_dir(dir, dir_size);
+  path_in(ck, ck_size, dir, "t.checkpoint");
+  return toy_scan(hubble_axis, 1, 1);
+}
+
+/* Evaluate points `indices` of `s` and record them in `c`, in that order. */
+static void record_points(const jg_scan *s, jg_scan_checkpoint *c, const long long *indices,
+                          int n) {
+  jg_error err;
+  jg_error_clear(&err);
+  void *ws = jg_scan_workspace_new(s, &err);
+  cr_assert_not_null(ws, "%s", err.message);
+  double values[16];
+  cr_assert_leq(jg_scan_values_per_point(s), 16);
+  for (int i = 0; i < n; i++) {
+    cr_assert_eq(jg_scan_evaluate(s, indices[i], ws, values, &err), JG_OK, "%s", err.message);
+    cr_assert_eq(jg_scan_checkpoint_add(c, indices[i], JG_OK, values, NULL, &err), JG_OK, "%s",
+                 err.message);
+  }
+  jg_scan_workspace_free(s, ws);
+}
+
 /* Does a data row (not a # line) contain `word`? */
 static int rows_contain(const char *text, const char *word) {
   for (const char *line = text; *line;) {
@@ -191,21 +219,23 @@ Test(scan, linear_and_log_axes_hit_their_ends_and_spacing) {
   const jg_scan_axis *lin = &g.axes[0], *lg = &g.axes[1];
   cr_assert_eq(lin->count, 5);
   /* The ends are exactly the numbers typed; inner points within rounding. */
-  cr_assert_eq(lin->values[0], 0.6);
-  cr_assert_eq(lin->values[4], 0.8);
+  cr_assert_eq(jg_scan_axis_value(lin, 0), 0.6);
+  cr_assert_eq(jg_scan_axis_value(lin, 4), 0.8);
   /* Inner values are the decimals a user would type (15 digits). */
   const double typed[5] = {0.6, 0.65, 0.7, 0.75, 0.8};
   for (int i = 0; i < 5; i++)
-    cr_assert_eq(lin->values[i], typed[i], "linear value %d is %.17g", i, lin->values[i]);
+    cr_assert_eq(jg_scan_axis_value(lin, i), typed[i], "linear value %d is %.17g", i,
+                 jg_scan_axis_value(lin, i));
   cr_assert_eq(lg->spacing, JG_SCAN_LOG);
-  cr_assert_eq(lg->values[0], 0.001);
-  cr_assert_eq(lg->values[2], 0.1);
-  cr_assert_eq(lg->values[1], 0.01, "log midpoint is the geometric mean, %.17g", lg->values[1]);
+  cr_assert_eq(jg_scan_axis_value(lg, 0), 0.001);
+  cr_assert_eq(jg_scan_axis_value(lg, 2), 0.1);
+  cr_assert_eq(jg_scan_axis_value(lg, 1), 0.01, "log midpoint is the geometric mean, %.17g",
+               jg_scan_axis_value(lg, 1));
   jg_scan_grid_clear(&g);
   /* A linear value that is zero but for rounding is zero. */
   cr_assert_eq(jg_scan_grid_parse(&g, "cosmology.curvature_omega=-0.1:0.2:4", NULL, &err), JG_OK);
-  cr_assert_eq(g.axes[0].values[1], 0.0, "got %.17g", g.axes[0].values[1]);
-  cr_assert_eq(g.axes[0].values[2], 0.1, "got %.17g", g.axes[0].values[2]);
+  cr_assert_eq(jg_scan_axis_value(&g.axes[0], 1), 0.0, "got %.17g", jg_scan_axis_value(&g.axes[0], 1));
+  cr_assert_eq(jg_scan_axis_value(&g.axes[0], 2), 0.1, "got %.17g", jg_scan_axis_value(&g.axes[0], 2));
   cr_assert_eq(jg_scan_grid_parse(&g, "cosmology.hubble_h=0.6:0.8:5", NULL, &err), JG_OK);
   cr_assert_eq(jg_scan_grid_parse(&g, "cosmology.baryon_density_h2=0.001:0.1:3:log", NULL, &err), JG_OK);
   cr_assert_eq(jg_scan_grid_points(&g), 4 * 5 * 3);
@@ -221,9 +251,9 @@ Test(scan, explicit_list_keeps_its_order) {
                "%s", err.message);
   cr_assert_eq(g.axes[0].spacing, JG_SCAN_LIST);
   cr_assert_eq(g.axes[0].count, 3);
-  cr_assert_eq(g.axes[0].values[0], 0.8);
-  cr_assert_eq(g.axes[0].values[1], 0.6);
-  cr_assert_eq(g.axes[0].values[2], 0.7);
+  cr_assert_eq(jg_scan_axis_value(&g.axes[0], 0), 0.8);
+  cr_assert_eq(jg_scan_axis_value(&g.axes[0], 1), 0.6);
+  cr_assert_eq(jg_scan_axis_value(&g.axes[0], 2), 0.7);
   jg_scan_grid_clear(&g);
 }
 
@@ -334,8 +364,10 @@ Test(scan, scan_group_of_a_file_gives_the_command_line_grid) {
   for (int a = 0; a < 3; a++) {
     cr_assert_str_eq(from_file.axes[a].key, from_text.axes[a].key);
     cr_assert_eq(from_file.axes[a].count, from_text.axes[a].count);
-    cr_assert_eq(memcmp(from_file.axes[a].values, from_text.axes[a].values,
-                        sizeof(double) * (size_t)from_text.axes[a].count), 0);
+    cr_assert_eq(from_file.axes[a].spacing, from_text.axes[a].spacing);
+    for (int i = 0; i < from_text.axes[a].count; i++)
+      cr_assert_eq(jg_scan_axis_value(&from_file.axes[a], i),
+                   jg_scan_axis_value(&from_text.axes[a], i));
   }
   /* The loader of single runs accepts the file and ignores the scan group. */
   jg_params p;
@@ -434,24 +466,15 @@ Test(scan, failed_points_are_listed_and_get_no_rows) {
 
 Test(scan, resumed_checkpoint_with_a_torn_line_gives_the_same_table) {
   char dir[64], ck[128];
-  make_dir(dir, sizeof dir);
-  path_in(ck, sizeof ck, dir, "t.checkpoint");
-  jg_scan *s = toy_scan("cosmology.hubble_h=0.6:0.8:6", 1, 1);
+  jg_scan *s = toy_scan_in_folder(dir, sizeof dir, ck, sizeof ck, "cosmology.hubble_h=0.6:0.8:6");
   char *whole = toy_table(s, 1);
 
   jg_error err;
   jg_error_clear(&err);
   jg_scan_checkpoint *c = NULL;
   cr_assert_eq(jg_scan_checkpoint_open(s, ck, 0, &c, &err), JG_OK, "%s", err.message);
-  void *ws = jg_scan_workspace_new(s, &err);
-  double values[16];
-  cr_assert_leq(jg_scan_values_per_point(s), 16);
   const long long order[] = {7, 2, 11, 0};
-  for (int i = 0; i < 4; i++) {
-    cr_assert_eq(jg_scan_evaluate(s, order[i], ws, values, &err), JG_OK);
-    cr_assert_eq(jg_scan_checkpoint_add(c, order[i], JG_OK, values, NULL, &err), JG_OK);
-  }
-  jg_scan_workspace_free(s, ws);
+  record_points(s, c, order, 4);
   jg_scan_checkpoint_close(c, 0);
   /* A kill in the middle of the last record: cut into its last line. */
   struct stat sb;
@@ -552,6 +575,124 @@ Test(scan, slices_merge_into_the_whole_table) {
   remove_dir(dir);
 }
 
+static long max_resident_kib(void) {
+  struct rusage ru;
+  getrusage(RUSAGE_SELF, &ru);
+  return ru.ru_maxrss;
+}
+
+/* The largest grid allowed (10^8 points) must start: nothing is held per
+ * point before it is computed (the values follow from the index, the
+ * checkpoint's index fills as points finish), and only the corners and
+ * 20,000 spread points are checked up front. Before, the values alone
+ * took 1.6 GB. The limit below (64 MiB for the whole set-up) is ten times
+ * what it takes and a twentieth of one array of 10^8 doubles. */
+Test(scan, largest_grid_starts_without_holding_its_points) {
+  const long before = max_resident_kib();
+  jg_scan *s = toy_scan("cosmology.hubble_h=0.5:0.9:50000000", 1, 1);
+  cr_assert_eq(jg_scan_total_points(s), 100000000LL);
+  double v[2];
+  jg_scan_grid_values(jg_scan_grid_of(s), 99999999LL, v);
+  cr_assert(v[0] == 0.9 && v[1] == 0.25, "last point: %.17g, %.17g", v[0], v[1]);
+  /* 0.5 + 0.4 / 49999999, to 15 significant digits. */
+  jg_scan_grid_values(jg_scan_grid_of(s), 2 * 1LL, v);
+  cr_assert(v[0] == 0.500000008 && v[1] == 0.24, "second value: %.17g, %.17g", v[0], v[1]);
+  jg_error err;
+  jg_error_clear(&err);
+  jg_scan_checkpoint *c = NULL;
+  cr_assert_eq(jg_scan_checkpoint_open(s, NULL, 0, &c, &err), JG_OK, "%s", err.message);
+  const long long some[] = {30000000, 20000000, 50000001}; /* h in 0.55-0.85 */
+  record_points(s, c, some, 3);
+  cr_assert(jg_scan_checkpoint_has(c, 20000000) && !jg_scan_checkpoint_has(c, 20000001));
+  const long grown = max_resident_kib() - before;
+  jg_scan_checkpoint_close(c, 1);
+  jg_scan_free(s);
+  cr_assert_lt(grown, 64 * 1024, "setting up 10^8 points took %ld KiB", grown);
+}
+
+/* The lock tells a running scan from an interrupted one: while one
+ * checkpoint is open, a second open of the same file (another run, with or
+ * without --resume) is refused as such, and the file is left as it is. */
+Test(scan, checkpoint_in_use_is_refused_as_locked_not_as_interrupted) {
+  char dir[64], ck[128];
+  jg_scan *s = toy_scan_in_folder(dir, sizeof dir, ck, sizeof ck, "cosmology.hubble_h=0.6:0.8:3");
+  jg_error err;
+  jg_error_clear(&err);
+  jg_scan_checkpoint *running = NULL, *second = NULL;
+  cr_assert_eq(jg_scan_checkpoint_open(s, ck, 0, &running, &err), JG_OK, "%s", err.message);
+  char *before = read_text(ck);
+  for (int resume = 0; resume <= 1; resume++) {
+    cr_assert_eq(jg_scan_checkpoint_open(s, ck, resume, &second, &err), JG_EINVAL);
+    cr_assert(strstr(err.message, "is locked by another jeansgrow scan that is still writing"),
+              "resume %d: %s", resume, err.message);
+    cr_assert(!strstr(err.message, "interrupted"), "%s", err.message);
+  }
+  char *after = read_text(ck);
+  cr_assert_str_eq(before, after);
+  jg_scan_checkpoint_close(running, 0);
+  /* Released with the run: now it is an interrupted run's checkpoint. */
+  cr_assert_eq(jg_scan_checkpoint_open(s, ck, 0, &second, &err), JG_EINVAL);
+  cr_assert(strstr(err.message, "a run of this output was interrupted"), "%s", err.message);
+  cr_assert_eq(jg_scan_checkpoint_open(s, ck, 1, &second, &err), JG_OK, "%s", err.message);
+  jg_scan_checkpoint_close(second, 1);
+  free(before), free(after);
+  jg_scan_free(s);
+  remove_dir(dir);
+}
+
+/* --resume never overwrites a file it cannot trust: a foreign file, a
+ * damaged header, or damage before the last line (a kill tears only the
+ * last line) is refused with the line, and the file stays as it was. Only
+ * a header cut by a kill before it was complete starts afresh. */
+Test(scan, damaged_or_foreign_checkpoint_is_refused_under_resume) {
+  char dir[64], ck[128];
+  jg_scan *s = toy_scan_in_folder(dir, sizeof dir, ck, sizeof ck, "cosmology.hubble_h=0.6:0.8:3");
+  jg_error err;
+  jg_error_clear(&err);
+  jg_scan_checkpoint *c = NULL;
+  cr_assert_eq(jg_scan_checkpoint_open(s, ck, 0, &c, &err), JG_OK, "%s", err.message);
+  const long long first_three[] = {0, 1, 2};
+  record_points(s, c, first_three, 3);
+  jg_scan_checkpoint_close(c, 0);
+  char *good = read_text(ck);
+  char *second_line = strchr(good, '\n') + 1;
+  char *third_line = strchr(second_line, '\n') + 1;
+
+  typedef struct { const char *what, *expect; char *text; } damage;
+  damage cases[4];
+  cases[0] = (damage){"a foreign file", ":1: not a jeansgrow scan checkpoint", strdup("my notes\n")};
+  cases[1] = (damage){"a damaged header", ":1: not a jeansgrow scan checkpoint", strdup(good)};
+  cases[1].text[3] = 'X';
+  cases[2] = (damage){"a damaged middle record", ":2: the record's checksum does not match",
+                      strdup(good)};
+  cases[2].text[second_line - good + 4] ^= 1;
+  cases[3] = (damage){"a record given twice", ":5: a record of a point outside this slice, "
+                      "recorded twice", NULL};
+  size_t head = (size_t)(third_line - good);
+  cases[3].text = malloc(strlen(good) + head + 1);
+  sprintf(cases[3].text, "%s%.*s", good, (int)(head - (second_line - good)), second_line);
+  for (int k = 0; k < 4; k++) {
+    write_file(ck, cases[k].text);
+    cr_assert_eq(jg_scan_checkpoint_open(s, ck, 1, &c, &err), JG_EINVAL, "%s was accepted",
+                 cases[k].what);
+    cr_assert(strstr(err.message, ck) && strstr(err.message, cases[k].expect), "%s: %s",
+              cases[k].what, err.message);
+    char *after = read_text(ck);
+    cr_assert_str_eq(after, cases[k].text, "%s was changed", cases[k].what);
+    free(after);
+    free(cases[k].text);
+  }
+  /* A header torn by a kill: nothing was recorded, the run starts afresh. */
+  good[20] = '\0';
+  write_file(ck, good);
+  cr_assert_eq(jg_scan_checkpoint_open(s, ck, 1, &c, &err), JG_OK, "%s", err.message);
+  cr_assert_eq(jg_scan_checkpoint_resumed(c), 0);
+  jg_scan_checkpoint_close(c, 1);
+  free(good);
+  jg_scan_free(s);
+  remove_dir(dir);
+}
+
 /* ---- the program --------------------------------------------------------- */
 
 typedef struct outcome {
@@ -621,19 +762,26 @@ Test(scan, program_writes_the_same_file_with_one_and_two_threads) {
   remove_dir(dir);
 }
 
+#ifdef JG_TEST_MPIEXEC
+/* A fresh folder for a test on two MPI ranks. Open MPI refuses root
+ * without both variables, and 2 ranks may exceed the slots of a small CI
+ * machine (docs: c-practices.md 4.5). */
+static void mpi_test_folder(char *dir, size_t size) {
+  make_dir(dir, size);
+  setenv("OMPI_ALLOW_RUN_AS_ROOT", "1", 1);
+  setenv("OMPI_ALLOW_RUN_AS_ROOT_CONFIRM", "1", 1);
+  setenv("OMPI_MCA_rmaps_base_oversubscribe", "1", 1);
+}
+#endif
+
 Test(scan, program_on_two_mpi_ranks_writes_the_single_process_file) {
 #ifndef JG_TEST_MPIEXEC
   cr_skip_test("jeansgrow was built without MPI (JG_WITH_MPI off or MPI not found)");
 #else
   char dir[64], f1[128], f2[128];
-  make_dir(dir, sizeof dir);
+  mpi_test_folder(dir, sizeof dir);
   path_in(f1, sizeof f1, dir, "serial.txt");
   path_in(f2, sizeof f2, dir, "mpi.txt");
-  /* Open MPI refuses root without both variables, and 2 ranks may exceed
-   * the slots of a small CI machine (docs: c-practices.md 4.5). */
-  setenv("OMPI_ALLOW_RUN_AS_ROOT", "1", 1);
-  setenv("OMPI_ALLOW_RUN_AS_ROOT_CONFIRM", "1", 1);
-  setenv("OMPI_MCA_rmaps_base_oversubscribe", "1", 1);
   const char *a1[] = {SCAN_ARGS(f1), "--threads", "1", NULL};
   const char *a2[] = {JG_TEST_MPIEXEC, JG_TEST_MPI_NP_FLAG, "2", SCAN_ARGS(f2), NULL};
   outcome o1 = run_program(dir, a1), o2 = run_program(dir, a2);
@@ -644,6 +792,90 @@ Test(scan, program_on_two_mpi_ranks_writes_the_single_process_file) {
   cr_assert(t1 && t2);
   cr_assert_str_eq(t1, t2);
   free(t1), free(t2), free(o1.err), free(o2.err);
+  remove_dir(dir);
+#endif
+}
+
+#ifdef JG_TEST_MPIEXEC
+/* Lines in a file (0 if missing). */
+static int count_lines(const char *path) {
+  char *t = read_text(path);
+  int n = 0;
+  for (const char *c = t; c && *c; c++) n += *c == '\n';
+  free(t);
+  return n;
+}
+
+/* The pid of the process whose command line mentions `word` and whose
+ * environment says it is MPI rank `rank`, or 0. */
+static pid_t find_rank(const char *word, int rank) {
+  char want[64];
+  snprintf(want, sizeof want, "OMPI_COMM_WORLD_RANK=%d", rank);
+  DIR *d = opendir("/proc");
+  cr_assert_not_null(d);
+  pid_t found = 0;
+  struct dirent *e;
+  while (!found && (e = readdir(d)) != NULL) {
+    char path[300], buf[8192];
+    if (e->d_name[0] < '1' || e->d_name[0] > '9') continue;
+    int hit[2] = {0, 0};
+    const char *files[2] = {"cmdline", "environ"}, *needles[2] = {word, want};
+    for (int k = 0; k < 2; k++) {
+      snprintf(path, sizeof path, "/proc/%s/%s", e->d_name, files[k]);
+      FILE *f = fopen(path, "rb");
+      if (!f) break;
+      size_t n = fread(buf, 1, sizeof buf - 1, f);
+      fclose(f);
+      for (size_t i = 0; i < n; i += strlen(buf + i) + 1) {
+        buf[n] = '\0';
+        if (strcmp(buf + i, needles[k]) == 0) hit[k] = 1;
+      }
+    }
+    if (hit[0] && hit[1]) found = (pid_t)atoi(e->d_name);
+  }
+  closedir(d);
+  return found;
+}
+#endif
+
+/* A rank that stops answering (here: SIGSTOP) must not hang the job: after
+ * --rank-timeout seconds of silence rank 0 ends it with exit 1, naming the
+ * rank, and the checkpoint resumes to the table of a single run. */
+Test(scan, program_silent_mpi_rank_ends_the_job_with_a_resumable_checkpoint, .timeout = 120) {
+#ifndef JG_TEST_MPIEXEC
+  cr_skip_test("jeansgrow was built without MPI (JG_WITH_MPI off or MPI not found)");
+#else
+  char dir[64], out[128], ck[160];
+  mpi_test_folder(dir, sizeof dir);
+  path_in(out, sizeof out, dir, "silent.txt");
+  snprintf(ck, sizeof ck, "%s.checkpoint", out);
+#define SILENT_ARGS(o)                                                                       \
+  JG_PROGRAM, "scan", REFERENCE, "--vary", "cosmology.hubble_h=0.6:0.8:100", "--set", COARSE, \
+      "--set", "output.redshifts=[10.0]", "--threads", "1", "-o", o
+  const char *a_mpi[] = {JG_TEST_MPIEXEC, JG_TEST_MPI_NP_FLAG, "2", SILENT_ARGS(out),
+                         "--rank-timeout", "2", NULL};
+  pid_t job = start(dir, a_mpi);
+  const double t0 = seconds_now();
+  while (count_lines(ck) < 3 && seconds_now() - t0 < 60) usleep(20000);
+  pid_t rank1 = find_rank(out, 1);
+  cr_assert(rank1 > 0, "rank 1 not found");
+  cr_assert_eq(kill(rank1, SIGSTOP), 0);
+  outcome o = finish(dir, job);
+  kill(rank1, SIGKILL); /* if the launcher left it behind */
+  cr_assert_eq(exit_code(&o), 1, "exit %d: %s", exit_code(&o), o.err);
+  cr_assert(strstr(o.err, "MPI rank 1 has sent nothing for 2 s") &&
+            strstr(o.err, "run the same command with --resume"), "%s", o.err);
+  cr_assert(exists(ck) && !exists(out));
+  free(o.err);
+  /* Resumed (byte-identity of resumed tables is checked above). */
+  const char *a_resume[] = {SILENT_ARGS(out), "--resume", NULL};
+  outcome r = run_program(dir, a_resume);
+  cr_assert_eq(exit_code(&r), 0, "%s", r.err);
+  cr_assert(strstr(r.err, " resumed, 0 failed"), "%s", r.err);
+  char *tr = read_text(out);
+  cr_assert_not_null(tr);
+  cr_assert_eq(count_data_rows(tr), 100);
+  free(tr), free(r.err);
   remove_dir(dir);
 #endif
 }
@@ -858,6 +1090,37 @@ Test(scan, program_reports_a_failed_point_and_keeps_the_others) {
   remove_dir(dir);
 }
 
+/* A second run on an output another run is writing (a plain run, or a
+ * --resume) refuses with exit 2 and says that the other run holds it, not
+ * that it "was interrupted"; the running one is stood in for by this test
+ * holding the lock on OUTPUT.checkpoint. */
+Test(scan, program_second_run_on_a_busy_output_says_another_run_holds_it) {
+  char dir[64], out[128], ck[160];
+  make_dir(dir, sizeof dir);
+  path_in(out, sizeof out, dir, "busy.txt");
+  snprintf(ck, sizeof ck, "%s.checkpoint", out);
+  write_file(ck, "");
+  int fd = open(ck, O_RDWR);
+  struct flock fl = {.l_type = F_WRLCK, .l_whence = SEEK_SET};
+  cr_assert(fd >= 0 && fcntl(fd, F_OFD_SETLK, &fl) == 0, "lock: %s", strerror(errno));
+  const char *plain[] = {SCAN_ARGS(out), NULL};
+  const char *resume[] = {SCAN_ARGS(out), "--resume", NULL};
+  const char *const *runs[] = {plain, resume};
+  for (int k = 0; k < 2; k++) {
+    outcome o = run_program(dir, runs[k]);
+    cr_expect_eq(exit_code(&o), 2, "run %d: exit %d: %s", k, exit_code(&o), o.err);
+    cr_expect(strstr(o.err, "is locked by another jeansgrow scan that is still writing this "
+                            "output") && !strstr(o.err, "interrupted"), "run %d: %s", k, o.err);
+    free(o.err);
+  }
+  close(fd);
+  cr_assert(!exists(out), "a refused run wrote the table");
+  char *left = read_text(ck);
+  cr_assert_str_eq(left, "", "a refused run changed the other run's checkpoint");
+  free(left);
+  remove_dir(dir);
+}
+
 Test(scan, program_slices_merge_into_the_whole_file) {
   char dir[64], whole[128], merged[128], parts[3][128];
   make_dir(dir, sizeof dir);
@@ -890,6 +1153,82 @@ Test(scan, program_slices_merge_into_the_whole_file) {
   cr_assert_eq(exit_code(&o), 2);
   cr_assert(strstr(o.err, "a merge takes all 3 slices"), "%s", o.err);
   free(o.err);
+  remove_dir(dir);
+}
+
+/* A merge refuses, with exit 2, the file and the line, every slice that is
+ * not exactly what a scan writes, and writes nothing then. */
+static void expect_merge_refused(const char *dir, const char *const *args, const char *message) {
+  outcome o = run_program(dir, args);
+  cr_expect_eq(exit_code(&o), 2, "merge %s: exit %d: %s", args[3], exit_code(&o), o.err);
+  cr_expect(strstr(o.err, message), "merge %s: expected '%s' in: %s", args[3], message, o.err);
+  free(o.err);
+}
+
+Test(scan, program_merge_refuses_torn_nan_missing_endless_and_overwriting_slices) {
+  char dir[64], merged[128], parts[2][128], bad[128];
+  make_dir(dir, sizeof dir);
+  path_in(merged, sizeof merged, dir, "merged.txt");
+  path_in(bad, sizeof bad, dir, "bad.txt");
+  for (int i = 0; i < 2; i++) {
+    char name[32], part[8];
+    snprintf(name, sizeof name, "part%d.txt", i + 1);
+    snprintf(part, sizeof part, "%d/2", i + 1);
+    path_in(parts[i], sizeof parts[i], dir, name);
+    const char *a_part[] = {SCAN_ARGS(parts[i]), "--part", part, NULL};
+    outcome o = run_program(dir, a_part);
+    cr_assert_eq(exit_code(&o), 0, "%s", o.err);
+    free(o.err);
+  }
+  char *second = read_text(parts[1]);
+  cr_assert_not_null(second);
+  size_t len = strlen(second);
+  char *last_row = second + len - 1;
+  while (last_row > second && last_row[-1] != '\n') last_row--;
+  long line = 0;
+  for (const char *t = second; t < last_row; t++) line += *t == '\n';
+  char where[160];
+  snprintf(where, sizeof where, "%s:%ld: ", bad, line + 1);
+  const char *a_bad[] = {JG_PROGRAM, "merge", merged, bad, parts[0], NULL};
+
+  /* Cut in the middle of the last row (a kill or a full disk). */
+  second[len - 7] = '\0';
+  write_file(bad, second);
+  second[len - 7] = '0';
+  char message[256];
+  snprintf(message, sizeof message, "%sthe last row is cut short", where);
+  expect_merge_refused(dir, a_bad, message);
+
+  /* A value edited to nan (and to inf): no NaN ever reaches a table. */
+  const char *const non_finite[] = {"nan", "-inf"};
+  for (int k = 0; k < 2; k++) {
+    char *edited = malloc(len + 8);
+    cr_assert_not_null(edited);
+    snprintf(edited, len + 8, "%.*s%s%s", (int)(last_row - second), second, non_finite[k],
+             strchr(last_row, '\t'));
+    write_file(bad, edited);
+    free(edited);
+    snprintf(message, sizeof message, "%scolumn 1 holds '%s', not a finite number", where,
+             non_finite[k]);
+    expect_merge_refused(dir, a_bad, message);
+  }
+
+  /* A missing slice is bad input like any missing input (exit 2). */
+  remove(bad);
+  expect_merge_refused(dir, a_bad, "bad.txt: cannot read the slice (No such file or directory)");
+
+  /* An endless device would be read forever: only regular files are slices. */
+  const char *a_zero[] = {JG_PROGRAM, "merge", merged, "/dev/zero", parts[0], NULL};
+  expect_merge_refused(dir, a_zero, "/dev/zero: not a slice of a jeansgrow scan (it is a device");
+  cr_assert(!exists(merged));
+
+  /* The output may not be one of the slices: it would be lost. */
+  const char *a_onto[] = {JG_PROGRAM, "merge", parts[1], parts[0], parts[1], NULL};
+  expect_merge_refused(dir, a_onto, "is the slice");
+  char *after = read_text(parts[1]);
+  cr_assert_str_eq(after, second, "the slice named as output was changed");
+  free(after);
+  free(second);
   remove_dir(dir);
 }
 

@@ -65,7 +65,9 @@ typedef enum {
 
 #define JG_SCAN_MAX_AXES 8
 #define JG_SCAN_KEY_SIZE 64
-/* Largest grid: the checkpoint index holds 8 bytes per point. */
+/* Largest grid. Nothing is held per grid point before it is computed: the
+ * values are computed from the point's index, and the checkpoint's index
+ * of finished points takes 8 bytes per point as points finish. */
 #define JG_SCAN_MAX_POINTS 100000000LL
 
 typedef struct jg_scan_axis {
@@ -73,8 +75,13 @@ typedef struct jg_scan_axis {
   jg_scan_spacing spacing;
   double from, to;            /* the range as given (LINEAR, LOG) */
   int count;                  /* number of values */
-  double *values;             /* the values, owned by the grid */
+  double *values;             /* JG_SCAN_LIST: the values, owned by the grid; NULL for a
+                                 range, whose values are computed from their index (a grid
+                                 of 10^8 points holds no list): use jg_scan_axis_value */
 } jg_scan_axis;
+
+/* Value i (0 <= i < count) of an axis, whatever its spacing. */
+double jg_scan_axis_value(const jg_scan_axis *ax, long long i);
 
 /* Read the fields; change them only through the functions below. Start from
  * a zeroed struct (`jg_scan_grid g = {0};`), release with jg_scan_grid_clear. */
@@ -195,9 +202,11 @@ typedef struct jg_scan jg_scan;
  * Set up a scan of `grid` over `base` with evaluator `ev`, computing the
  * slice part_index of part_count (1-based; 1 of 1 for the whole grid; the
  * slices are contiguous blocks of grid points of near-equal size).
- * Before any work, every grid point's parameters are checked with
- * jg_params_validate and jg_background_new; the first bad point is reported
- * (JG_EINVAL) with its number and varied values. `base` and `grid` are
+ * Before any work, the grid points' parameters are checked with
+ * jg_params_validate and jg_background_new (every point of a grid up to
+ * 20,000 points; the corners and 20,000 points spread over a larger one,
+ * whose other points jg_scan_evaluate checks at their turn); the first bad
+ * point is reported (JG_EINVAL) with its number and varied values. `base` and `grid` are
  * copied; `ev` is referenced and must outlive the scan.
  */
 jg_status jg_scan_new(const jg_params *base, const jg_scan_grid *grid,
@@ -234,14 +243,26 @@ typedef struct jg_scan_checkpoint jg_scan_checkpoint;
 /*
  * Open the checkpoint of scan `s` at `path`, or an anonymous temporary one
  * when path is NULL (nothing to resume from then).
+ * The file is locked (an advisory open-file lock) until it is closed: a
+ * file another open holds is refused (JG_EINVAL, "locked by another
+ * jeansgrow scan"), with or without resume, and left as it is.
  * resume = 0: the file must not exist (JG_EINVAL otherwise: a previous run
  *             was interrupted; resume it or remove the file).
  * resume = 1: an existing file is read: it must belong to the same scan and
  *             slice (JG_EINVAL otherwise); its valid records count as done,
- *             a torn or damaged tail is cut off. A missing file starts afresh.
+ *             a torn last line is cut off; a damaged header or damage before
+ *             the last line is refused (JG_EINVAL, naming the line) and the
+ *             file left as it is. A missing or empty file, or one holding
+ *             only the start of this scan's header, starts afresh.
  */
 jg_status jg_scan_checkpoint_open(const jg_scan *s, const char *path, int resume,
                                   jg_scan_checkpoint **out, jg_error *err);
+/* Where the program keeps the checkpoint of the table `output`:
+ * OUTPUT.checkpoint, or, for a name so long that the suffix would pass the
+ * longest name the system allows (255 bytes), the name cut short with a
+ * hash of the whole path: CUT~HHHHHHHHHHHHHHHH.checkpoint. Free the result;
+ * NULL when out of memory. */
+char *jg_scan_checkpoint_path_for(const char *output);
 /* Record a finished point (status JG_OK: `values` holds
  * jg_scan_values_per_point values) or a failed one (`message` says why).
  * Thread-safe. Each record is flushed to the system at once, and synced to
@@ -291,8 +312,11 @@ jg_status jg_scan_write_table(const jg_scan *s, jg_scan_checkpoint *c, FILE *f, 
 
 /* Join the slice tables at `paths` (any order) into the whole table, byte
  * for byte what a single run writes. Fails (JG_EINVAL) naming the file if a
- * file is not a scan slice, slices belong to different scans (fingerprints
- * differ) or disagree in their headers, a slice is missing or given twice. */
+ * file cannot be opened or is not a regular file, is not a scan slice,
+ * slices belong to different scans (fingerprints differ) or disagree in
+ * their headers, a slice is missing or given twice; and naming the file and
+ * line if a row is cut short or is not the slice's number of finite numbers
+ * (no NaN or Inf). */
 jg_status jg_scan_merge(const char *const *paths, int n_paths, FILE *out, jg_error *err);
 
 #ifdef __cplusplus

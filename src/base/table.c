@@ -1,16 +1,21 @@
 /* Output tables written atomically (see include/jeansgrow/table.h). */
+#define _GNU_SOURCE /* F_OFD_SETLK: locks held by an open file, not by a process */
 #include "jeansgrow/table.h"
 
+#include <dirent.h>
 #include <errno.h>
 #include <fcntl.h>
+#include <limits.h>
 #include <math.h>
 #include <sys/random.h>
 #include <sys/stat.h>
 #include <stdlib.h>
 #include <string.h>
+#include <time.h>
 #include <unistd.h>
 
 #include "jeansgrow/version.h"
+#include "file_lock.h"
 #include "alloc.h" /* last: test builds route allocations through it */
 
 struct jg_output {
@@ -19,23 +24,104 @@ struct jg_output {
   char *temp_path;
 };
 
-/* Create the temporary file with a random unused name. Unlike mkstemp,
+int jg__file_try_lock(int fd) {
+  /* Open-file-description locks: unlike classic POSIX record locks, they
+   * are not dropped when this process closes some other descriptor of the
+   * same file, and two opens in one process exclude each other. */
+  struct flock fl;
+  memset(&fl, 0, sizeof fl);
+  fl.l_type = F_WRLCK;
+  fl.l_whence = SEEK_SET;
+  if (fcntl(fd, F_OFD_SETLK, &fl) == 0) return 0;
+  return errno == EAGAIN || errno == EACCES ? 1 : -1;
+}
+
+/* The hidden temporary name of an output is ".NAME.XXXXXXXXXXXX" (12
+ * random hex digits). NAME is cut short when the whole would pass the
+ * longest name the system allows, so that every name a user may give can be
+ * written; the random part keeps cut names apart. */
+#define TEMP_SUFFIX_DIGITS 12
+#define TEMP_EXTRA (1 + 1 + TEMP_SUFFIX_DIGITS)
+
+static size_t temp_name_stem(const char *name) {
+  size_t n = strlen(name);
+  return n + TEMP_EXTRA > NAME_MAX ? NAME_MAX - TEMP_EXTRA : n;
+}
+
+/* Is `entry` (a name in the output's folder) a temporary file of the output
+ * called `name`? */
+static int is_temp_name_of(const char *entry, const char *name) {
+  size_t stem = temp_name_stem(name);
+  if (strlen(entry) != stem + TEMP_EXTRA || entry[0] != '.' ||
+      strncmp(entry + 1, name, stem) != 0 || entry[1 + stem] != '.')
+    return 0;
+  for (const char *h = entry + 2 + stem; *h; h++)
+    if (!((*h >= '0' && *h <= '9') || (*h >= 'a' && *h <= 'f'))) return 0;
+  return 1;
+}
+
+/* A temporary file younger than this is never taken for a stale one: its
+ * writer locks it right after creating it, and this leaves that moment a
+ * wide margin. */
+#define STALE_TEMP_AGE_SECONDS 5
+
+/* Remove the temporary files of this output that a killed run left behind
+ * (SIGKILL, a crash, a lost node: no handler could remove them). A live
+ * writer holds a lock on its temporary file for as long as it writes, so a
+ * file of our own name pattern, owned by this user, that nobody holds is
+ * stale. Best effort: whatever cannot be checked is left alone. */
+static void remove_stale_temporaries(const char *path, size_t dir_len) {
+  char dir[PATH_MAX];
+  if (dir_len >= sizeof dir) return;
+  if (dir_len) memcpy(dir, path, dir_len), dir[dir_len] = '\0';
+  else strcpy(dir, ".");
+  const char *name = path + dir_len;
+  DIR *d = opendir(dir);
+  if (!d) return;
+  int dfd = dirfd(d);
+  const time_t now = time(NULL);
+  struct dirent *e;
+  while ((e = readdir(d)) != NULL) {
+    if (!is_temp_name_of(e->d_name, name)) continue;
+    int fd = openat(dfd, e->d_name, O_WRONLY | O_NOFOLLOW | O_NONBLOCK | O_NOCTTY | O_CLOEXEC);
+    if (fd < 0) continue;
+    struct stat sb;
+    if (fstat(fd, &sb) == 0 && S_ISREG(sb.st_mode) && sb.st_uid == geteuid() &&
+        now - sb.st_mtime >= STALE_TEMP_AGE_SECONDS && jg__file_try_lock(fd) == 0)
+      unlinkat(dfd, e->d_name, 0);
+    close(fd);
+  }
+  closedir(d);
+}
+
+/* Create the temporary file with a random unused name, and lock it for as
+ * long as it is written (see remove_stale_temporaries). Unlike mkstemp,
  * open(O_CREAT | O_EXCL, 0666) lets the process umask set the permissions,
  * so the final table gets the same mode as any file the user writes; and
  * getrandom keeps the library free of shared state between threads. */
 static int open_temporary(char *buf, size_t size, const char *path, size_t dir_len) {
   static const char hex[] = "0123456789abcdef";
+  const size_t stem = temp_name_stem(path + dir_len);
   for (int attempt = 0; attempt < 100; attempt++) {
-    unsigned char r[6];
+    unsigned char r[TEMP_SUFFIX_DIGITS / 2];
     if (getrandom(r, sizeof r, 0) != (ssize_t)sizeof r) return -1;
-    char suffix[13];
-    for (int i = 0; i < 6; i++) {
+    char suffix[TEMP_SUFFIX_DIGITS + 1];
+    for (size_t i = 0; i < sizeof r; i++) {
       suffix[2 * i] = hex[r[i] >> 4];
       suffix[2 * i + 1] = hex[r[i] & 15];
     }
-    suffix[12] = '\0';
-    snprintf(buf, size, "%.*s.%s.%s", (int)dir_len, path, path + dir_len, suffix);
+    suffix[TEMP_SUFFIX_DIGITS] = '\0';
+    snprintf(buf, size, "%.*s.%.*s.%s", (int)dir_len, path, (int)stem, path + dir_len, suffix);
     int fd = open(buf, O_WRONLY | O_CREAT | O_EXCL | O_CLOEXEC, 0666);
+    if (fd >= 0 && jg__file_try_lock(fd) < 0 && errno != EINVAL && errno != ENOLCK) {
+      /* A file system without locks (EINVAL, ENOLCK) still gets its table;
+       * only its stale temporaries are never recognised. */
+      int e = errno;
+      close(fd);
+      unlink(buf);
+      errno = e;
+      return -1;
+    }
     if (fd >= 0 || errno != EEXIST) return fd;
   }
   errno = EEXIST;
@@ -81,6 +167,16 @@ jg_status jg_output_open(const char *path, jg_output **out, jg_error *err) {
     }
     if (!S_ISREG(sb.st_mode)) return open_in_place(o, path, out, err);
     if (lstat(path, &lsb) == 0 && S_ISLNK(lsb.st_mode)) resolved = realpath(path, NULL);
+  } else if (lstat(path, &lsb) == 0 && S_ISLNK(lsb.st_mode)) {
+    /* A link to nothing: the rename would replace the link by the table,
+     * and creating its target instead could write anywhere the link was
+     * pointed, so neither happens silently. */
+    char target[PATH_MAX];
+    ssize_t tn = readlink(path, target, sizeof target - 1);
+    target[tn > 0 ? tn : 0] = '\0';
+    jg_output_discard(o);
+    return JG_FAIL(err, JG_EIO, "%s: cannot write output (it is a symbolic link to '%s', which "
+                   "does not exist; remove the link or create its target)", path, target);
   }
   const char *target = resolved ? resolved : path;
   size_t n = strlen(target);
@@ -96,6 +192,7 @@ jg_status jg_output_open(const char *path, jg_output **out, jg_error *err) {
    * rename is atomic) and is hidden by a leading dot in its name. */
   const char *slash = strrchr(target, '/');
   size_t dir_len = slash ? (size_t)(slash - target) + 1 : 0;
+  remove_stale_temporaries(target, dir_len);
   int fd = open_temporary(o->temp_path, n + 32, target, dir_len);
   free(resolved);
   if (fd < 0) {
@@ -143,9 +240,12 @@ jg_status jg_output_commit(jg_output *o, jg_error *err) {
   /* A special file written in place has nothing to sync or rename (fsync
    * on a pipe or /dev/null fails with EINVAL). */
   int in_place = o->temp_path == NULL;
+  /* A write that failed earlier leaves only the stream's error flag; errno
+   * may have been reset since, and "(Success)" would explain nothing. */
+  errno = 0;
   int bad = fflush(o->stream) != 0 || ferror(o->stream) ||
             (!in_place && fsync(fileno(o->stream)) != 0);
-  int e = errno;
+  int e = errno ? errno : EIO;
   if (fclose(o->stream) != 0 && !bad) bad = 1, e = errno;
   o->stream = NULL;
   if (!bad && !in_place && rename(o->temp_path, o->final_path) != 0) bad = 1, e = errno;

@@ -80,9 +80,16 @@ int scan_mpi_all_ok(int ok);
 /* Rank 0's value of v, on every rank. */
 int scan_mpi_share(int v);
 /* Manager/worker scan over all ranks, each with `threads` computing
- * threads; rank 0 (the manager) records into `c` and calls `listener`. */
+ * threads; rank 0 (the manager) records into `c` and calls `listener`.
+ * A worker rank that sends nothing for silence_limit seconds (> 0; workers
+ * busy with long points say they are alive meanwhile) ends the run on rank
+ * 0 with JG_EINTERRUPT and a message naming the rank; the caller keeps the
+ * checkpoint and calls scan_mpi_abort. */
 jg_status scan_mpi_run(const jg_scan *s, jg_scan_checkpoint *c, int threads,
-                       jg_scan_listener listener, void *context, jg_error *err);
+                       double silence_limit, jg_scan_listener listener, void *context,
+                       jg_error *err);
 void scan_mpi_end(void);
+/* End every rank at once with exit status `code` (MPI_Abort). */
+void scan_mpi_abort(int code);
 
 #endif

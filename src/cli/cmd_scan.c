@@ -30,6 +30,13 @@ static const jg_scan_evaluator *scan_evaluator(const jg_params *p) {
 
 #define MAX_THREADS 4096
 
+/* How long a silent MPI rank is waited for, by default (seconds): long
+ * enough for a node's hiccup, short next to the hours a stuck job would
+ * otherwise hold its allocation. */
+#define DEFAULT_RANK_TIMEOUT 300.0
+#define MIN_RANK_TIMEOUT 1.0
+#define MAX_RANK_TIMEOUT 604800.0
+
 typedef struct scan_options {
   cli_options common; /* parameter file, --set, -o */
   const char *vary[JG_SCAN_MAX_AXES + 1];
@@ -37,6 +44,7 @@ typedef struct scan_options {
   int threads; /* 0: the default */
   int part_index, part_count;
   int resume;
+  double rank_timeout; /* seconds; 0: wait for ever */
 } scan_options;
 
 static double now_seconds(void) {
@@ -58,8 +66,11 @@ static void print_scan_help(const cli_command *cmd) {
          "  --part I/N             compute slice I of N (1 <= I <= N) for a job array;\n"
          "                         join the slice files with jeansgrow merge\n"
          "  --resume               finish an interrupted run from OUTPUT.checkpoint\n"
+         "  --rank-timeout SECONDS under MPI, end the job (keeping OUTPUT.checkpoint for\n"
+         "                         --resume) when a rank has sent nothing for SECONDS\n"
+         "                         (default %.0f, at least 1; 0 waits for ever)\n"
          "  -o, --output FILE      write the table to FILE (atomically) instead of stdout\n"
-         "  -h, --help             show this help\n");
+         "  -h, --help             show this help\n", DEFAULT_RANK_TIMEOUT);
 }
 
 static int parse_int(const char *text, long lo, long hi, long *out) {
@@ -74,11 +85,13 @@ static int parse_int(const char *text, long lo, long hi, long *out) {
 static int parse_scan_options(const cli_command *cmd, int argc, char **argv, scan_options *o) {
   memset(o, 0, sizeof *o);
   o->part_index = o->part_count = 1;
+  o->rank_timeout = DEFAULT_RANK_TIMEOUT;
   static const struct option long_opts[] = {{"vary", required_argument, NULL, 'v'},
                                             {"set", required_argument, NULL, 's'},
                                             {"threads", required_argument, NULL, 't'},
                                             {"part", required_argument, NULL, 'p'},
                                             {"resume", no_argument, NULL, 'r'},
+                                            {"rank-timeout", required_argument, NULL, 'T'},
                                             {"output", required_argument, NULL, 'o'},
                                             {"help", no_argument, NULL, 'h'},
                                             {NULL, 0, NULL, 0}};
@@ -133,6 +146,22 @@ static int parse_scan_options(const cli_command *cmd, int argc, char **argv, sca
     case 'r':
       o->resume = 1;
       break;
+    case 'T': {
+      char *end;
+      errno = 0;
+      double t = strtod(optarg, &end);
+      /* Below a second, heartbeats would flood rank 0 and a busy node's
+       * ordinary pauses would end the job. */
+      if (errno || end == optarg || *end != '\0' ||
+          !(t == 0 || (t >= MIN_RANK_TIMEOUT && t <= MAX_RANK_TIMEOUT))) {
+        fprintf(stderr, "jeansgrow scan: --rank-timeout must be 0 (wait for ever) or a number of "
+                        "seconds from %.0f to %.0f (got '%s')\n", MIN_RANK_TIMEOUT,
+                MAX_RANK_TIMEOUT, optarg);
+        return EXIT_BAD_INPUT;
+      }
+      o->rank_timeout = t;
+      break;
+    }
     case 'o':
       o->common.output_path = optarg;
       break;
@@ -268,6 +297,15 @@ static void setup_release(scan_setup *su, int keep_checkpoint) {
   su->checkpoint_path = NULL;
 }
 
+/* A device, pipe or socket (/dev/null, /dev/full, a named pipe) is written
+ * in place and has no folder of its own to keep a checkpoint in: putting
+ * one beside /dev/null would litter /dev. Such a scan keeps its points in
+ * an anonymous temporary checkpoint and cannot be resumed. */
+static int output_is_special(const char *path) {
+  struct stat sb;
+  return stat(path, &sb) == 0 && !S_ISREG(sb.st_mode) && !S_ISDIR(sb.st_mode);
+}
+
 /* Everything before the first point: returns -1 to go on, else an exit
  * status (the error printed). Only the writing rank opens files. */
 static int scan_prepare(const cli_command *cmd, int argc, char **argv, int writer,
@@ -307,14 +345,17 @@ static int scan_prepare(const cli_command *cmd, int argc, char **argv, int write
   if (!writer) return -1;
 
   const char *path = su->opt.common.output_path;
-  if (path) {
-    size_t n = strlen(path) + sizeof ".checkpoint";
-    su->checkpoint_path = malloc(n);
-    if (!su->checkpoint_path) {
-      JG_FAIL(&err, JG_ENOMEM, "out of memory");
-      return cli_report(&err);
+  if (path && output_is_special(path)) {
+    if (su->opt.resume) {
+      fprintf(stderr, "jeansgrow scan: --resume needs a regular file after -o: %s is a device, "
+                      "pipe or socket, beside which no checkpoint is kept\n", path);
+      return EXIT_BAD_INPUT;
     }
-    snprintf(su->checkpoint_path, n, "%s.checkpoint", path);
+    path = NULL; /* the points are kept in an anonymous checkpoint */
+  }
+  if (path && !(su->checkpoint_path = jg_scan_checkpoint_path_for(path))) {
+    JG_FAIL(&err, JG_ENOMEM, "out of memory");
+    return cli_report(&err);
   }
   protect_scan_output(su->checkpoint_path);
   st = jg_scan_checkpoint_open(su->scan, su->checkpoint_path, su->opt.resume, &su->checkpoint,
@@ -417,13 +458,16 @@ int cmd_scan(const cli_command *cmd, int argc, char **argv) {
   pr.at_start = su.checkpoint ? jg_scan_checkpoint_done(su.checkpoint) : 0;
   jg_error err;
   jg_error_clear(&err);
-  jg_status st = ranks > 1 ? scan_mpi_run(su.scan, su.checkpoint, threads, on_point, &pr, &err)
+  jg_status st = ranks > 1 ? scan_mpi_run(su.scan, su.checkpoint, threads, su.opt.rank_timeout,
+                                          on_point, &pr, &err)
                            : jg_scan_run(su.scan, su.checkpoint, threads, on_point, &pr, &err);
   if (pr.drawn) fputc('\n', stderr);
   if (rank == 0) {
     if (st != JG_OK) {
       rc = cli_report(&err);
       setup_release(&su, 1);
+      /* A silent rank would hold up the collective finish below for ever. */
+      if (st == JG_EINTERRUPT && ranks > 1) scan_mpi_abort(rc);
     } else {
       rc = scan_finish(&su, pr.t0, threads, ranks);
     }
@@ -439,6 +483,24 @@ int cmd_scan(const cli_command *cmd, int argc, char **argv) {
 
 /* ---- merge ------------------------------------------------------------- */
 
+/* The merged table replaces its output only at the end, but by then the
+ * slice it names would be gone for good: an output that is one of the
+ * slices (the same file, under any name or link) is refused before
+ * anything is written. Returns -1 to go on, else the exit status. */
+static int refuse_output_among_slices(const char *output, char *const *slices, int n) {
+  struct stat out_sb, slice_sb;
+  if (!output || stat(output, &out_sb) != 0) return -1;
+  for (int i = 0; i < n; i++) {
+    if (stat(slices[i], &slice_sb) == 0 && slice_sb.st_dev == out_sb.st_dev &&
+        slice_sb.st_ino == out_sb.st_ino) {
+      fprintf(stderr, "jeansgrow merge: the output %s is the slice %s; write the merged table "
+                      "to a new file\n", output, slices[i]);
+      return EXIT_BAD_INPUT;
+    }
+  }
+  return -1;
+}
+
 int cmd_merge(const cli_command *cmd, int argc, char **argv) {
   for (int i = 1; i < argc; i++) {
     if (strcmp(argv[i], "-h") == 0 || strcmp(argv[i], "--help") == 0) {
@@ -447,6 +509,7 @@ int cmd_merge(const cli_command *cmd, int argc, char **argv) {
       return EXIT_OK;
     }
   }
+  int rc;
   if (argc < 3) {
     fprintf(stderr, "jeansgrow merge: give the output and the slice files (usage: jeansgrow "
                     "merge %s)\n", cmd->usage);
@@ -455,9 +518,9 @@ int cmd_merge(const cli_command *cmd, int argc, char **argv) {
   cli_options o;
   memset(&o, 0, sizeof o);
   o.output_path = strcmp(argv[1], "-") == 0 ? NULL : argv[1];
+  if ((rc = refuse_output_among_slices(o.output_path, argv + 2, argc - 2)) >= 0) return rc;
   jg_output *out = NULL;
-  int rc = cli_open_output(&o, &out);
-  if (rc >= 0) return rc;
+  if ((rc = cli_open_output(&o, &out)) >= 0) return rc;
   jg_error err;
   jg_error_clear(&err);
   jg_status st = jg_scan_merge((const char *const *)(argv + 2), argc - 2, jg_output_stream(out),

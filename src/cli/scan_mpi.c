@@ -50,10 +50,13 @@ int scan_mpi_begin(int *rank, int *size) {
 int scan_mpi_all_ok(int ok) { return ok; }
 int scan_mpi_share(int v) { return v; }
 jg_status scan_mpi_run(const jg_scan *s, jg_scan_checkpoint *c, int threads,
-                       jg_scan_listener listener, void *context, jg_error *err) {
+                       double silence_limit, jg_scan_listener listener, void *context,
+                       jg_error *err) {
+  (void)silence_limit;
   return jg_scan_run(s, c, threads, listener, context, err);
 }
 void scan_mpi_end(void) {}
+void scan_mpi_abort(int code) { exit(code); }
 
 #else
 
@@ -61,7 +64,12 @@ void scan_mpi_end(void) {}
 #include <pthread.h>
 #include <time.h>
 
-enum { TAG_REQUEST = 1, TAG_TASK = 2, TAG_BYE = 3 };
+enum { TAG_REQUEST = 1, TAG_TASK = 2, TAG_BYE = 3, TAG_ALIVE = 4 };
+
+/* A worker busy with long points sends nothing for as long as they take; it
+ * says it is alive this many times per silence limit, so that only a rank
+ * that is stopped, hung or cut off stays silent for the whole limit. */
+#define HEARTBEATS_PER_LIMIT 4
 
 /* Indices a worker holds per computing thread (one running, one waiting). */
 #define WORKER_DEPTH 2
@@ -129,6 +137,10 @@ int scan_mpi_share(int v) {
 }
 
 void scan_mpi_end(void) { MPI_Finalize(); }
+
+/* A silent rank cannot take part in a clean finish (MPI_Finalize would wait
+ * for it): the launcher ends every rank. */
+void scan_mpi_abort(int code) { MPI_Abort(MPI_COMM_WORLD, code); }
 
 /* One result as it travels: header, values, message. */
 typedef struct result_head {
@@ -257,8 +269,39 @@ static void *manager_worker(void *arg) {
   return NULL;
 }
 
+/* The first worker rank that has sent nothing (no result, request or
+ * heartbeat) for longer than `limit` seconds, or 0. */
+static int silent_rank(const double *last_heard, const char *gone, int ranks, double limit,
+                       double now) {
+  if (limit <= 0) return 0;
+  for (int r = 1; r < ranks; r++)
+    if (!gone[r] && now - last_heard[r] > limit) return r;
+  return 0;
+}
+
+/* Stop the job for a silent rank: the manager's own threads finish their
+ * points and the caller keeps the checkpoint, from which --resume
+ * recomputes whatever the silent rank held. */
+static jg_status give_up_on(manager *m, int rank, int held, double silent_for, double limit,
+                            jg_error *err) {
+  pthread_mutex_lock(&m->lock);
+  m->stop = 1;
+  pthread_mutex_unlock(&m->lock);
+  const char *kept = jg_scan_checkpoint_path(m->c);
+  char resume[4400];
+  if (kept)
+    snprintf(resume, sizeof resume, "the finished points are kept in %s: run the same command "
+             "with --resume to finish", kept);
+  else
+    snprintf(resume, sizeof resume, "nothing is kept without -o FILE");
+  return JG_FAIL(err, JG_EINTERRUPT, "MPI rank %d has sent nothing for %.0f s (holding %d "
+                 "point%s; --rank-timeout %g): ending the job; %s", rank, silent_for, held,
+                 held == 1 ? "" : "s", limit, resume);
+}
+
 static jg_status run_manager(const jg_scan *s, jg_scan_checkpoint *c, int threads, int ranks,
-                             jg_scan_listener listener, void *context, jg_error *err) {
+                             double silence_limit, jg_scan_listener listener, void *context,
+                             jg_error *err) {
   manager m;
   memset(&m, 0, sizeof m);
   m.s = s;
@@ -273,6 +316,10 @@ static jg_status run_manager(const jg_scan *s, jg_scan_checkpoint *c, int thread
   char *buf = malloc(result_size(n_values));
   pthread_t *tid = malloc(sizeof *tid * (size_t)threads);
   int *held = calloc((size_t)ranks, sizeof *held); /* indices each worker holds */
+  double *last_heard = malloc(sizeof *last_heard * (size_t)ranks);
+  char *gone = calloc((size_t)ranks, 1); /* said goodbye */
+  if (!last_heard || !gone) held = (free(held), NULL);
+  for (int r = 0; last_heard && r < ranks; r++) last_heard[r] = monotonic_now();
   int started = 0;
   if (buf && tid && held)
     for (; started < threads; started++)
@@ -284,12 +331,18 @@ static jg_status run_manager(const jg_scan *s, jg_scan_checkpoint *c, int thread
   }
   /* Serve until every worker has said goodbye, which each does only after
    * its last result was answered: no message is left unanswered. */
-  int byes = 0;
+  int byes = 0, silent = 0;
+  double silent_for = 0;
   long nap_ns = NAP_MIN_NS;
   while (byes < ranks - 1) {
     int flag = 0;
     MPI_Status status;
     MPI_Iprobe(MPI_ANY_SOURCE, MPI_ANY_TAG, MPI_COMM_WORLD, &flag, &status);
+    const double now = monotonic_now();
+    if (held && (silent = silent_rank(last_heard, gone, ranks, silence_limit, now)) > 0) {
+      silent_for = now - last_heard[silent];
+      break;
+    }
     if (!flag) {
       pthread_mutex_lock(&m.lock);
       const long ceiling = nap_ceiling_ns(m.eval_seconds, m.evaluated);
@@ -305,7 +358,10 @@ static jg_status run_manager(const jg_scan *s, jg_scan_checkpoint *c, int thread
       MPI_Abort(MPI_COMM_WORLD, EXIT_RUN_FAILED);
     MPI_Recv(buf, bytes, MPI_BYTE, status.MPI_SOURCE, status.MPI_TAG, MPI_COMM_WORLD,
              MPI_STATUS_IGNORE);
+    last_heard[status.MPI_SOURCE] = now;
+    if (status.MPI_TAG == TAG_ALIVE) continue;
     if (status.MPI_TAG == TAG_BYE) {
+      gone[status.MPI_SOURCE] = 1;
       byes++;
       continue;
     }
@@ -324,11 +380,16 @@ static jg_status run_manager(const jg_scan *s, jg_scan_checkpoint *c, int thread
     if (next >= 0) held[status.MPI_SOURCE]++;
     MPI_Send(&next, 1, MPI_LONG_LONG, status.MPI_SOURCE, TAG_TASK, MPI_COMM_WORLD);
   }
+  jg_status gave_up = silent ? give_up_on(&m, silent, held[silent], silent_for, silence_limit,
+                                          err) : JG_OK;
   for (int i = 0; i < started; i++) pthread_join(tid[i], NULL);
   free(held);
+  free(last_heard);
+  free(gone);
   free(tid);
   free(buf);
   pthread_mutex_destroy(&m.lock);
+  if (gave_up != JG_OK) return gave_up;
   if (m.fatal != JG_OK) {
     if (err) *err = m.fatal_err;
     return m.fatal;
@@ -411,7 +472,28 @@ static long long ask(worker *w, const char *msg, int bytes) {
   return next;
 }
 
-static void run_worker(const jg_scan *s, int threads) {
+/* Wait for a computed result, saying every `beat` seconds (if > 0) that
+ * this rank is alive. Called with w->lock held. */
+static void wait_for_result(worker *w, double beat) {
+  while (w->n_results == 0) {
+    if (beat <= 0) {
+      pthread_cond_wait(&w->have_result, &w->lock);
+      continue;
+    }
+    struct timespec until;
+    clock_gettime(CLOCK_REALTIME, &until);
+    const double t = (double)until.tv_sec + 1e-9 * (double)until.tv_nsec + beat;
+    until.tv_sec = (time_t)t;
+    until.tv_nsec = (long)((t - (double)until.tv_sec) * 1e9);
+    if (pthread_cond_timedwait(&w->have_result, &w->lock, &until) != 0 && w->n_results == 0) {
+      pthread_mutex_unlock(&w->lock);
+      MPI_Send(NULL, 0, MPI_BYTE, 0, TAG_ALIVE, MPI_COMM_WORLD);
+      pthread_mutex_lock(&w->lock);
+    }
+  }
+}
+
+static void run_worker(const jg_scan *s, int threads, double silence_limit) {
   worker w;
   memset(&w, 0, sizeof w);
   w.s = s;
@@ -446,7 +528,7 @@ static void run_worker(const jg_scan *s, int threads) {
   }
   while (outstanding > 0) {
     pthread_mutex_lock(&w.lock);
-    while (w.n_results == 0) pthread_cond_wait(&w.have_result, &w.lock);
+    wait_for_result(&w, silence_limit / HEARTBEATS_PER_LIMIT);
     w.n_results--;
     bytes = w.result_bytes[w.n_results];
     memcpy(msg, w.results + (size_t)w.n_results * slot, (size_t)bytes);
@@ -478,12 +560,14 @@ static void run_worker(const jg_scan *s, int threads) {
 }
 
 jg_status scan_mpi_run(const jg_scan *s, jg_scan_checkpoint *c, int threads,
-                       jg_scan_listener listener, void *context, jg_error *err) {
+                       double silence_limit, jg_scan_listener listener, void *context,
+                       jg_error *err) {
   int rank = 0, ranks = 1;
   MPI_Comm_rank(MPI_COMM_WORLD, &rank);
   MPI_Comm_size(MPI_COMM_WORLD, &ranks);
-  if (rank == 0) return run_manager(s, c, threads, ranks, listener, context, err);
-  run_worker(s, threads);
+  if (rank == 0)
+    return run_manager(s, c, threads, ranks, silence_limit, listener, context, err);
+  run_worker(s, threads, silence_limit);
   return JG_OK;
 }
 

@@ -19,11 +19,13 @@
 #include <errno.h>
 #include <fcntl.h>
 #include <inttypes.h>
+#include <limits.h>
 #include <math.h>
 #include <pthread.h>
 #include <stdint.h>
 #include <stdlib.h>
 #include <string.h>
+#include <sys/mman.h>
 #include <sys/stat.h>
 #include <time.h>
 #include <unistd.h>
@@ -37,6 +39,7 @@
 #include "jeansgrow/report.h"
 #include "jeansgrow/scales.h"
 #include "../results/report_tables.h"
+#include "../base/file_lock.h"
 #include "../base/alloc.h" /* last: test builds route allocations through it */
 
 /* A checkpoint is synced to the disk at least this often (seconds): often
@@ -91,15 +94,44 @@ long long jg_scan_grid_points(const jg_scan_grid *g) {
   return n;
 }
 
+/* The value i of a range (not its ends, which are FROM and TO exactly):
+ * rounded to 15 significant digits, and a linear value lost in the rounding
+ * noise of the range set to zero: 0.6:0.7:3 then holds 0.65, not
+ * 0.6499999999999999, and `--set key=0.65` repeats the point exactly. */
+static double range_value(const jg_scan_axis *ax, long long i) {
+  const double t = (double)i / (double)(ax->count - 1);
+  const double from = ax->from, to = ax->to;
+  double x = ax->spacing == JG_SCAN_LOG ? exp(log(from) + (log(to) - log(from)) * t)
+                                        : from + (to - from) * t;
+  if (ax->spacing == JG_SCAN_LINEAR && fabs(x) < 1e-12 * fmax(fabs(from), fabs(to))) x = 0.0;
+  char text[32];
+  snprintf(text, sizeof text, "%.15g", x);
+  return strtod(text, NULL);
+}
+
+double jg_scan_axis_value(const jg_scan_axis *ax, long long i) {
+  if (ax->values) return ax->values[i];
+  if (i <= 0) return ax->from;
+  if (i >= ax->count - 1) return ax->to;
+  return range_value(ax, i);
+}
+
+static int key_is_integer(const char *key) {
+  const jg_param_doc *d = doc_of(key);
+  return d && strcmp(d->type, "integer") == 0;
+}
+
 /* The checks every axis passes, whatever its spacing: a numeric key, not yet
  * varied, room for one more axis, a grid of bounded size, and values the key
- * can take (whole numbers for integer keys). */
-static jg_status check_axis(const jg_scan_grid *g, const char *key, const double *values,
-                            long count, const char *pre, jg_error *err) {
+ * can take (whole numbers for integer keys). A range is monotonic, so its
+ * ends bound it; its inner values are only checked for being whole, which
+ * keeps a range of 10^8 values cheap to check. */
+static jg_status check_axis(const jg_scan_grid *g, const jg_scan_axis *ax, const char *pre,
+                            jg_error *err) {
+  const char *key = ax->key;
   if (g->n_axes >= JG_SCAN_MAX_AXES)
     return JG_FAIL(err, JG_EINVAL, "%stoo many varied keys (at most %d)", pre, JG_SCAN_MAX_AXES);
-  if (strlen(key) >= JG_SCAN_KEY_SIZE || key[0] == '\0')
-    return JG_FAIL(err, JG_EINVAL, "%s'%s' is not a parameter key", pre, key);
+  if (key[0] == '\0') return JG_FAIL(err, JG_EINVAL, "%s'%s' is not a parameter key", pre, key);
   jg_params *scratch = malloc(sizeof *scratch);
   if (!scratch) return JG_FAIL(err, JG_ENOMEM, "%sout of memory", pre);
   jg_params_set_defaults(scratch);
@@ -114,9 +146,16 @@ static jg_status check_axis(const jg_scan_grid *g, const char *key, const double
     else
       st = JG_FAIL(err, JG_EINVAL, "%s%s", pre, why.message);
   }
-  for (long i = 0; st == JG_OK && i < count; i++)
-    if (jg_params_set_number(scratch, key, values[i], &why) != JG_OK)
+  const long count = ax->count;
+  const int integer = key_is_integer(key);
+  for (long i = 0; st == JG_OK && i < count; i++) {
+    const int inner = ax->spacing != JG_SCAN_LIST && i > 0 && i < count - 1;
+    if (inner && !integer) continue;
+    const double v = jg_scan_axis_value(ax, i);
+    if (inner && v == floor(v)) continue;
+    if (jg_params_set_number(scratch, key, v, &why) != JG_OK)
       st = JG_FAIL(err, JG_EINVAL, "%s%s (value %ld of %ld)", pre, why.message, i + 1, count);
+  }
   free(scratch);
   if (st != JG_OK) return st;
   for (int a = 0; a < g->n_axes; a++)
@@ -130,16 +169,29 @@ static jg_status check_axis(const jg_scan_grid *g, const char *key, const double
   return JG_OK;
 }
 
+/* Check the axis and, if it passes, append it (taking `values`, which is
+ * NULL for a range). */
 static jg_status push_axis(jg_scan_grid *g, const char *key, jg_scan_spacing spacing,
-                           double from, double to, double *values, long count) {
-  jg_scan_axis *ax = &g->axes[g->n_axes++];
-  memset(ax, 0, sizeof *ax);
-  snprintf(ax->key, sizeof ax->key, "%s", key);
-  ax->spacing = spacing;
-  ax->from = from;
-  ax->to = to;
-  ax->count = (int)count;
-  ax->values = values;
+                           double from, double to, double *values, long count, const char *pre,
+                           jg_error *err) {
+  jg_scan_axis ax;
+  memset(&ax, 0, sizeof ax);
+  if (strlen(key) >= JG_SCAN_KEY_SIZE) {
+    free(values);
+    return JG_FAIL(err, JG_EINVAL, "%s'%s' is not a parameter key", pre, key);
+  }
+  snprintf(ax.key, sizeof ax.key, "%s", key);
+  ax.spacing = spacing;
+  ax.from = from;
+  ax.to = to;
+  ax.count = (int)count;
+  ax.values = values;
+  jg_status st = check_axis(g, &ax, pre, err);
+  if (st != JG_OK) {
+    free(values);
+    return st;
+  }
+  g->axes[g->n_axes++] = ax;
   return JG_OK;
 }
 
@@ -169,31 +221,9 @@ jg_status jg_scan_grid_add_range(jg_scan_grid *g, const char *key, double from, 
   if (count == 1 && from != to)
     return JG_FAIL(err, JG_EINVAL, "%sN = 1 needs FROM = TO (got %.10g and %.10g)", pre, from,
                    to);
-  double *v = malloc(sizeof(double) * (size_t)count);
-  if (!v) return JG_FAIL(err, JG_ENOMEM, "%sout of memory for %ld values", pre, count);
-  /* Inner values are rounded to 15 significant digits, and a linear value
-   * lost in the rounding noise of the range to zero: 0.6:0.7:3 then holds
-   * 0.65, not 0.6499999999999999, and `--set key=0.65` repeats the point
-   * exactly. */
-  const double noise = 1e-12 * fmax(fabs(from), fabs(to));
-  for (long i = 0; i < count; i++) {
-    double t = count > 1 ? (double)i / (double)(count - 1) : 0.0;
-    double x = spacing == JG_SCAN_LOG ? exp(log(from) + (log(to) - log(from)) * t)
-                                      : from + (to - from) * t;
-    if (spacing == JG_SCAN_LINEAR && fabs(x) < noise) x = 0.0;
-    char text[32];
-    snprintf(text, sizeof text, "%.15g", x);
-    v[i] = strtod(text, NULL);
-  }
-  /* The ends are the values the user typed, not their rounded images. */
-  v[0] = from;
-  v[count - 1] = to;
-  jg_status st = check_axis(g, key, v, count, pre, err);
-  if (st != JG_OK) {
-    free(v);
-    return st;
-  }
-  return push_axis(g, key, spacing, from, to, v, count);
+  /* The values are computed from their index when needed (range_value):
+   * a grid of 10^8 points holds no list of them. */
+  return push_axis(g, key, spacing, from, to, NULL, count, pre, err);
 }
 
 jg_status jg_scan_grid_add_list(jg_scan_grid *g, const char *key, const double *values,
@@ -213,12 +243,7 @@ jg_status jg_scan_grid_add_list(jg_scan_grid *g, const char *key, const double *
   double *v = malloc(sizeof(double) * (size_t)count);
   if (!v) return JG_FAIL(err, JG_ENOMEM, "%sout of memory for %ld values", pre, count);
   memcpy(v, values, sizeof(double) * (size_t)count);
-  jg_status st = check_axis(g, key, v, count, pre, err);
-  if (st != JG_OK) {
-    free(v);
-    return st;
-  }
-  return push_axis(g, key, JG_SCAN_LIST, v[0], v[count - 1], v, count);
+  return push_axis(g, key, JG_SCAN_LIST, v[0], v[count - 1], v, count, pre, err);
 }
 
 static const char *skip_space(const char *s) {
@@ -344,7 +369,7 @@ jg_status jg_scan_grid_parse(jg_scan_grid *g, const char *text, const char *orig
 void jg_scan_grid_values(const jg_scan_grid *g, long long index, double *values) {
   for (int a = g->n_axes - 1; a >= 0; a--) {
     const jg_scan_axis *ax = &g->axes[a];
-    values[a] = ax->values[index % ax->count];
+    values[a] = jg_scan_axis_value(ax, index % ax->count);
     index /= ax->count;
   }
 }
@@ -571,12 +596,12 @@ static jg_status copy_grid(jg_scan_grid *dst, const jg_scan_grid *src, jg_error 
   memset(dst, 0, sizeof *dst);
   for (int a = 0; a < src->n_axes; a++) {
     const jg_scan_axis *ax = &src->axes[a];
-    double *v = malloc(sizeof(double) * (size_t)ax->count);
-    if (!v) {
+    double *v = NULL;
+    if (ax->values && !(v = malloc(sizeof(double) * (size_t)ax->count))) {
       jg_scan_grid_clear(dst);
       return JG_FAIL(err, JG_ENOMEM, "out of memory copying the scan grid");
     }
-    memcpy(v, ax->values, sizeof(double) * (size_t)ax->count);
+    if (v) memcpy(v, ax->values, sizeof(double) * (size_t)ax->count);
     dst->axes[a] = *ax;
     dst->axes[a].values = v;
     dst->n_axes = a + 1;
@@ -628,7 +653,7 @@ static void write_axis(FILE *f, const jg_scan_axis *ax) {
   if (ax->spacing == JG_SCAN_LIST) {
     fputc('[', f);
     for (int i = 0; i < ax->count; i++) {
-      format_exact(a, sizeof a, ax->values[i]);
+      format_exact(a, sizeof a, jg_scan_axis_value(ax, i));
       fprintf(f, "%s%s", i ? ", " : "", a);
     }
     fputc(']', f);
@@ -647,18 +672,32 @@ static jg_status compute_fingerprint(jg_scan *s, jg_error *err) {
   fprintf(f, "jeansgrow scan 1\nversion %s\nevaluator %s\n", JG_VERSION_STRING, s->ev->name);
   for (int i = 0; i < s->n_columns; i++) fprintf(f, "column %s\n", s->columns[i]);
   jg_params_write_header(f, &s->base);
-  for (int a = 0; a < s->grid.n_axes; a++) {
-    const jg_scan_axis *ax = &s->grid.axes[a];
-    fprintf(f, "axis %s %d %d", ax->key, (int)ax->spacing, ax->count);
-    for (int i = 0; i < ax->count; i++) fprintf(f, " %a", ax->values[i]);
-    fputc('\n', f);
-  }
   if (fclose(f) != 0 || !text) {
     free(text);
     return JG_FAIL(err, JG_ENOMEM, "out of memory");
   }
   uint64_t h = fnv1a(FNV_OFFSET, text, size);
   free(text);
+  /* A range is identified by its exact ends, count and spacing (the
+   * program version, hashed above, fixes how its values follow), a list by
+   * its exact values, hashed as they are formatted: a grid of 10^8 values
+   * is neither held as text nor formatted value by value. FNV-1a runs over
+   * the pieces as over their concatenation. */
+  char piece[JG_SCAN_KEY_SIZE + 96];
+  for (int a = 0; a < s->grid.n_axes; a++) {
+    const jg_scan_axis *ax = &s->grid.axes[a];
+    int n = snprintf(piece, sizeof piece, "axis %s %d %d", ax->key, (int)ax->spacing, ax->count);
+    h = fnv1a(h, piece, (size_t)n);
+    if (!ax->values) {
+      n = snprintf(piece, sizeof piece, " from %a to %a", ax->from, ax->to);
+      h = fnv1a(h, piece, (size_t)n);
+    }
+    for (long long i = 0; ax->values && i < ax->count; i++) {
+      n = snprintf(piece, sizeof piece, " %a", ax->values[i]);
+      h = fnv1a(h, piece, (size_t)n);
+    }
+    h = fnv1a(h, "\n", 1);
+  }
   snprintf(s->fingerprint, sizeof s->fingerprint, "%016" PRIx64, h);
   return JG_OK;
 }
@@ -677,10 +716,59 @@ void jg_scan_describe_point(const jg_scan *s, long long index, char *buf, size_t
   }
 }
 
+/* Grids up to this size are checked point by point before any work; a
+ * larger one at its corners and this many points spread over it. A point's
+ * background costs 40-150 microseconds: a few seconds for the whole. */
+#define SCAN_CHECKED_POINTS 20000LL
+
+/* Point `index` as a model: its parameters and its background. `last`
+ * remembers the last cosmology built, which consecutive points often share
+ * (when only later axes vary). */
+static jg_status check_point(const jg_scan *s, long long index, jg_params *p, jg_cosmology *last,
+                             int *have_last, jg_error *why) {
+  jg_error_clear(why);
+  *p = s->base;
+  jg_status st = jg_scan_grid_apply(&s->grid, index, p, why);
+  if (st == JG_OK) st = jg_params_validate(p, why);
+  if (st != JG_OK || (*have_last && memcmp(last, &p->cosmology, sizeof *last) == 0)) return st;
+  jg_background *bg = jg_background_new(&p->cosmology, why);
+  if (!bg) return why->status != JG_OK ? why->status : JG_EINVAL;
+  *last = p->cosmology;
+  *have_last = 1;
+  jg_background_free(bg);
+  return JG_OK;
+}
+
+/* The k-th of the points checked before any work, k < points_checked(s):
+ * every point of a grid up to SCAN_CHECKED_POINTS; in a larger grid, its
+ * 2^axes corners, then SCAN_CHECKED_POINTS points spread evenly over it. */
+static long long points_checked(const jg_scan *s) {
+  return s->total <= SCAN_CHECKED_POINTS ? s->total
+                                         : (1LL << s->grid.n_axes) + SCAN_CHECKED_POINTS;
+}
+
+static long long checked_point(const jg_scan *s, long long k) {
+  if (s->total <= SCAN_CHECKED_POINTS) return k;
+  const long long corners = 1LL << s->grid.n_axes;
+  if (k >= corners) {
+    k -= corners;
+    return (long long)((double)k / (double)(SCAN_CHECKED_POINTS - 1) * (double)(s->total - 1));
+  }
+  long long index = 0;
+  for (int a = 0; a < s->grid.n_axes; a++) {
+    const int end = (int)(k >> a & 1) ? s->grid.axes[a].count - 1 : 0;
+    index = index * s->grid.axes[a].count + end;
+  }
+  return index;
+}
+
 /* Every grid point must make a valid parameter set and background before
  * any work starts: a bad corner found after hours of computing is the
- * failure this prevents. Consecutive points often share their cosmology
- * (when only later axes vary), so the background is built once per change. */
+ * failure this prevents. A grid too large to check in seconds is checked
+ * at its corners and at SCAN_CHECKED_POINTS points spread over it; any
+ * other bad point is found when its turn comes (jg_scan_evaluate checks it
+ * again) and is listed as failed with the reason, without stopping the
+ * others. */
 static jg_status validate_points(const jg_scan *s, jg_error *err) {
   /* The table is the same file at every point (a scan varies numbers only). */
   jg_status table_st = jg_perturb_check_start_table(&s->base.perturbations, err);
@@ -695,21 +783,10 @@ static jg_status validate_points(const jg_scan *s, jg_error *err) {
   int have_last = 0;
   jg_status st = JG_OK;
   jg_error why;
-  for (long long i = 0; st == JG_OK && i < s->total; i++) {
-    jg_error_clear(&why);
-    *p = s->base;
-    jg_status pst = jg_scan_grid_apply(&s->grid, i, p, &why);
-    if (pst == JG_OK) pst = jg_params_validate(p, &why);
-    if (pst == JG_OK && !(have_last && memcmp(last, &p->cosmology, sizeof *last) == 0)) {
-      jg_background *bg = jg_background_new(&p->cosmology, &why);
-      if (bg) {
-        *last = p->cosmology;
-        have_last = 1;
-        jg_background_free(bg);
-      } else {
-        pst = why.status != JG_OK ? why.status : JG_EINVAL;
-      }
-    }
+  const long long n = points_checked(s);
+  for (long long k = 0; st == JG_OK && k < n; k++) {
+    const long long i = checked_point(s, k);
+    jg_status pst = check_point(s, i, p, last, &have_last, &why);
     if (pst == JG_ENOMEM) {
       st = JG_FAIL(err, JG_ENOMEM, "out of memory checking the scan grid");
     } else if (pst != JG_OK) {
@@ -820,6 +897,9 @@ jg_status jg_scan_evaluate(const jg_scan *s, long long index, void *workspace, d
                    s->total - 1);
   w->p = s->base;
   jg_status st = jg_scan_grid_apply(&s->grid, index, &w->p, err);
+  /* Points of a large grid not checked by validate_points are checked
+   * here, at the cost of a parameter check next to a whole evaluation. */
+  if (st == JG_OK) st = jg_params_validate(&w->p, err);
   if (st != JG_OK) return st;
   const jg_scan_evaluator *ev = s->ev;
   st = ev->evaluate(&w->p, values, values + ev->n_point_columns, w->user, err);
@@ -846,7 +926,12 @@ struct jg_scan_checkpoint {
   const jg_scan *s;
   char *path;            /* NULL: anonymous */
   FILE *f;
-  long long *offset;     /* per point of the slice: where its record starts, -1 if none */
+  /* Per point of the slice: 1 + where its record starts, 0 if none. Zero
+   * means "none" so that the index is a fresh anonymous mapping, never
+   * written before use: the system gives its pages memory only as points
+   * finish, and a grid of 10^8 points starts at once (see index_new). */
+  long long *offset;
+  size_t offset_bytes;
   long long end;         /* where the next record goes */
   long long done, failed, resumed;
   char *buf;             /* one record's text, under the lock */
@@ -854,6 +939,16 @@ struct jg_scan_checkpoint {
   double last_sync;
   pthread_mutex_t lock;
 };
+
+/* A zeroed array of n offsets, mapped directly rather than taken from the
+ * allocator, which may write into large blocks (an allocator that
+ * checks memory, for one, marks the whole block at once). NULL when out of
+ * memory. */
+static long long *index_new(size_t n, size_t *bytes) {
+  *bytes = (n > 0 ? n : 1) * sizeof(long long);
+  void *p = mmap(NULL, *bytes, PROT_READ | PROT_WRITE, MAP_PRIVATE | MAP_ANONYMOUS, -1, 0);
+  return p == MAP_FAILED ? NULL : p;
+}
 
 /* Append "content *HASH\n" at the end of the file. */
 static jg_status append_line(jg_scan_checkpoint *c, const char *content, long long *where,
@@ -932,33 +1027,62 @@ static ssize_t read_line_at(jg_scan_checkpoint *c, long long offset) {
   return getline(&c->buf, &c->buf_size, c->f);
 }
 
+/* Is the file's start no more than a torn first write of `header`'s line
+ * (a run killed before its header was on the disk)? Only then may an
+ * existing checkpoint be started afresh; anything else in it (another
+ * program's file, a damaged header) is refused rather than overwritten. */
+static int only_a_torn_header(FILE *f, const char *header) {
+  char line[600];
+  uint64_t h = fnv1a(FNV_OFFSET, header, strlen(header));
+  int want = snprintf(line, sizeof line, "%s *%016" PRIx64 "\n", header, h);
+  char got[sizeof line];
+  if (want <= 0 || fseeko(f, 0, SEEK_SET) != 0) return 0;
+  size_t n = fread(got, 1, (size_t)want, f);
+  return n < (size_t)want && memcmp(got, line, n) == 0;
+}
+
 static jg_status load_existing(jg_scan_checkpoint *c, int *fresh, jg_error *err) {
   const jg_scan *s = c->s;
   char want[512];
   header_text(s, want, sizeof want);
   *fresh = 0;
-  ssize_t n = read_line_at(c, 0);
-  if (n <= 0 || !line_intact(c->buf, (size_t)n)) {
+  if (only_a_torn_header(c->f, want)) {
     /* Killed before its first line was complete: nothing was recorded. */
     *fresh = 1;
     return JG_OK;
   }
+  ssize_t n = read_line_at(c, 0);
+  if (n <= 0 || !line_intact(c->buf, (size_t)n) || strncmp(c->buf, CHECKPOINT_MAGIC " ", strlen(CHECKPOINT_MAGIC) + 1) != 0)
+    return JG_FAIL(err, JG_EINVAL, "%s:1: not a jeansgrow scan checkpoint, or its first line is "
+                   "damaged; it is left as it is: remove it (or name another output) to start "
+                   "this scan afresh", c->path);
   if (strcmp(c->buf, want) != 0)
     return JG_FAIL(err, JG_EINVAL, "%s belongs to a different scan or slice (its first line: "
                    "'%.300s'; this scan: fingerprint %s part %d/%d); finish that scan, or "
                    "remove the file to start this one afresh", c->path, c->buf, s->fingerprint,
                    s->part_index, s->part_count);
-  long long pos = n;
+  long long pos = n, line_number = 1;
   for (;;) {
     n = getline(&c->buf, &c->buf_size, c->f);
     if (n <= 0) break;
+    line_number++;
     record r;
-    /* A torn or damaged line ends what can be trusted; later lines (there
-     * are none after a kill) would be recomputed anyway. */
-    if (!line_intact(c->buf, (size_t)n) || !parse_record(c, c->buf, &r, NULL)) break;
-    long long k = r.index - s->first;
-    if (c->offset[k] >= 0) break;
-    c->offset[k] = pos;
+    const int intact = line_intact(c->buf, (size_t)n);
+    if (!intact || !parse_record(c, c->buf, &r, NULL) || c->offset[r.index - s->first] > 0) {
+      /* A kill tears only the last line, which is cut off below and
+       * recomputed. A bad line with more after it is damage from outside:
+       * cutting there would silently throw away the points after it. */
+      const char *why = !intact ? "the record's checksum does not match"
+                        : (c->buf[0] == 'P' || c->buf[0] == 'F') && c->buf[1] == ' '
+                            ? "a record of a point outside this slice, recorded twice, or with "
+                              "an unreadable value"
+                            : "not a record of a scan point";
+      const int last = getline(&c->buf, &c->buf_size, c->f) <= 0;
+      if (last && !intact) break;
+      return JG_FAIL(err, JG_EINVAL, "%s:%lld: %s; the checkpoint is damaged and is left as it "
+                     "is: remove it to start the scan afresh", c->path, line_number, why);
+    }
+    c->offset[r.index - s->first] = pos + 1;
     c->done++;
     c->failed += r.failed;
     pos += n;
@@ -971,6 +1095,45 @@ static jg_status load_existing(jg_scan_checkpoint *c, int *fresh, jg_error *err)
   return JG_OK;
 }
 
+/* Open (creating it if missing) the checkpoint file at `path` and take its
+ * lock. The lock is what tells a running scan from an interrupted one: a
+ * run holds it until it ends, however it ends, so a second run of the same
+ * output (a plain one, or --resume) refuses instead of writing into the
+ * same file. *created says whether this call made the file. */
+static jg_status open_locked(const char *path, int *fd_out, int *created, jg_error *err) {
+  for (int attempt = 0; attempt < 8; attempt++) {
+    int fd = open(path, O_RDWR | O_CREAT | O_EXCL | O_CLOEXEC, 0644);
+    *created = fd >= 0;
+    if (fd < 0 && errno == EEXIST) fd = open(path, O_RDWR | O_CLOEXEC | O_NOCTTY);
+    if (fd < 0)
+      return JG_FAIL(err, JG_EIO, "%s: cannot %s the scan checkpoint (%s)", path,
+                     errno == ENOENT ? "create" : "open", strerror(errno));
+    int held = jg__file_try_lock(fd);
+    if (held == 1) {
+      close(fd);
+      return JG_FAIL(err, JG_EINVAL, "%s is locked by another jeansgrow scan that is still "
+                     "writing this output; wait for it to finish (or stop it, then --resume)",
+                     path);
+    }
+    if (held < 0 && errno != EINVAL && errno != ENOLCK) {
+      int e = errno;
+      close(fd);
+      return JG_FAIL(err, JG_EIO, "%s: cannot lock the scan checkpoint (%s)", path, strerror(e));
+    }
+    /* The run that held the lock may have finished and removed the file
+     * between our open and our lock: then start over on the path. */
+    struct stat by_fd, by_path;
+    if (fstat(fd, &by_fd) == 0 && stat(path, &by_path) == 0 && by_fd.st_dev == by_path.st_dev &&
+        by_fd.st_ino == by_path.st_ino) {
+      *fd_out = fd;
+      return JG_OK;
+    }
+    close(fd);
+  }
+  return JG_FAIL(err, JG_EIO, "%s: the scan checkpoint keeps being replaced by another run",
+                 path);
+}
+
 jg_status jg_scan_checkpoint_open(const jg_scan *s, const char *path, int resume,
                                   jg_scan_checkpoint **out, jg_error *err) {
   *out = NULL;
@@ -978,7 +1141,7 @@ jg_status jg_scan_checkpoint_open(const jg_scan *s, const char *path, int resume
   if (!c) return JG_FAIL(err, JG_ENOMEM, "out of memory");
   c->s = s;
   pthread_mutex_init(&c->lock, NULL);
-  c->offset = malloc(sizeof(long long) * (size_t)s->count);
+  c->offset = index_new((size_t)s->count, &c->offset_bytes);
   c->buf_size = 64 + (size_t)s->n_values * 32 + JG_ERROR_MESSAGE_SIZE;
   c->buf = malloc(c->buf_size);
   if (path) c->path = dup_string(path);
@@ -986,29 +1149,22 @@ jg_status jg_scan_checkpoint_open(const jg_scan *s, const char *path, int resume
     jg_scan_checkpoint_close(c, 0);
     return JG_FAIL(err, JG_ENOMEM, "out of memory for the scan checkpoint");
   }
-  for (long long i = 0; i < s->count; i++) c->offset[i] = -1;
 
   jg_status st = JG_OK;
-  int fresh = 1;
+  int fresh = 1, created = 0;
   if (!path) {
     c->f = tmpfile();
     if (!c->f) st = JG_FAIL(err, JG_EIO, "cannot create a temporary scan checkpoint (%s)",
                             strerror(errno));
   } else {
-    int fd = open(path, O_RDWR | O_CREAT | O_EXCL, 0644);
-    if (fd < 0 && errno == EEXIST) {
-      if (!resume)
-        st = JG_FAIL(err, JG_EINVAL, "%s exists: a run of this output was interrupted; resume it "
-                     "(jeansgrow scan --resume) or remove the file", path);
-      else if ((fd = open(path, O_RDWR)) < 0)
-        st = JG_FAIL(err, JG_EIO, "%s: cannot open the scan checkpoint (%s)", path,
-                     strerror(errno));
-      else
-        fresh = 0;
-    } else if (fd < 0) {
-      st = JG_FAIL(err, JG_EIO, "%s: cannot create the scan checkpoint (%s)", path,
-                   strerror(errno));
+    int fd = -1;
+    st = open_locked(path, &fd, &created, err);
+    if (st == JG_OK && !created && !resume) {
+      close(fd);
+      st = JG_FAIL(err, JG_EINVAL, "%s exists: a run of this output was interrupted; resume it "
+                   "(jeansgrow scan --resume) or remove the file", path);
     }
+    fresh = created;
     if (st == JG_OK && !(c->f = fdopen(fd, "r+"))) {
       close(fd);
       st = JG_FAIL(err, JG_EIO, "%s: cannot open the scan checkpoint (%s)", path, strerror(errno));
@@ -1028,12 +1184,31 @@ jg_status jg_scan_checkpoint_open(const jg_scan *s, const char *path, int resume
   }
   if (st != JG_OK) {
     /* Remove only a file this call created; never an existing checkpoint. */
-    jg_scan_checkpoint_close(c, fresh && c->f && path && c->end == 0);
+    jg_scan_checkpoint_close(c, created && c->f);
     return st;
   }
   c->last_sync = monotonic_seconds();
   *out = c;
   return JG_OK;
+}
+
+char *jg_scan_checkpoint_path_for(const char *output) {
+  static const char suffix[] = ".checkpoint";
+  const char *slash = strrchr(output, '/');
+  const size_t dir_len = slash ? (size_t)(slash - output) + 1 : 0;
+  const size_t name_len = strlen(output + dir_len);
+  const size_t size = dir_len + name_len + sizeof suffix + 32;
+  char *path = malloc(size);
+  if (!path) return NULL;
+  if (name_len + sizeof suffix - 1 <= NAME_MAX) {
+    snprintf(path, size, "%s%s", output, suffix);
+    return path;
+  }
+  /* The hash keeps apart outputs whose names share the cut part. */
+  const uint64_t h = fnv1a(FNV_OFFSET, output, strlen(output));
+  const size_t cut = NAME_MAX - (sizeof suffix - 1) - 17;
+  snprintf(path, size, "%.*s~%016" PRIx64 "%s", (int)(dir_len + cut), output, h, suffix);
+  return path;
 }
 
 jg_status jg_scan_checkpoint_add(jg_scan_checkpoint *c, long long index, jg_status status,
@@ -1044,7 +1219,7 @@ jg_status jg_scan_checkpoint_add(jg_scan_checkpoint *c, long long index, jg_stat
   pthread_mutex_lock(&c->lock);
   jg_status st = JG_OK;
   long long k = index - s->first;
-  if (c->offset[k] >= 0) {
+  if (c->offset[k] > 0) {
     st = JG_FAIL(err, JG_EINVAL, "scan point %lld is recorded twice", index);
   } else if (status == JG_OK) {
     size_t used = (size_t)snprintf(c->buf, c->buf_size, "P %lld", index);
@@ -1062,7 +1237,7 @@ jg_status jg_scan_checkpoint_add(jg_scan_checkpoint *c, long long index, jg_stat
   long long where = -1;
   if (st == JG_OK) st = append_line(c, c->buf, &where, err);
   if (st == JG_OK) {
-    c->offset[k] = where;
+    c->offset[k] = where + 1;
     c->done++;
     c->failed += status != JG_OK;
     double now = monotonic_seconds();
@@ -1079,7 +1254,7 @@ jg_status jg_scan_checkpoint_add(jg_scan_checkpoint *c, long long index, jg_stat
 
 int jg_scan_checkpoint_has(const jg_scan_checkpoint *c, long long index) {
   long long k = index - c->s->first;
-  return k >= 0 && k < c->s->count && c->offset[k] >= 0;
+  return k >= 0 && k < c->s->count && c->offset[k] > 0;
 }
 long long jg_scan_checkpoint_done(const jg_scan_checkpoint *c) { return c->done; }
 long long jg_scan_checkpoint_failed(const jg_scan_checkpoint *c) { return c->failed; }
@@ -1088,15 +1263,17 @@ const char *jg_scan_checkpoint_path(const jg_scan_checkpoint *c) { return c->pat
 
 void jg_scan_checkpoint_close(jg_scan_checkpoint *c, int remove_file) {
   if (!c) return;
+  /* Removed while still locked: a run that waits for the lock must not
+   * find the finished checkpoint still there the moment it is released. */
+  if (remove_file && c->path) unlink(c->path);
   if (c->f) {
     fflush(c->f);
     if (!remove_file) fsync(fileno(c->f));
     fclose(c->f);
   }
-  if (remove_file && c->path) unlink(c->path);
   pthread_mutex_destroy(&c->lock);
   free(c->path);
-  free(c->offset);
+  if (c->offset) munmap(c->offset, c->offset_bytes);
   free(c->buf);
   free(c);
 }
@@ -1104,7 +1281,7 @@ void jg_scan_checkpoint_close(jg_scan_checkpoint *c, int remove_file) {
 /* Read back the record of point `index` (which must be recorded). */
 static jg_status fetch_record(jg_scan_checkpoint *c, long long index, record *r, double *values,
                               jg_error *err) {
-  ssize_t n = read_line_at(c, c->offset[index - c->s->first]);
+  ssize_t n = read_line_at(c, c->offset[index - c->s->first] - 1);
   if (n <= 0 || !line_intact(c->buf, (size_t)n) || !parse_record(c, c->buf, r, values) ||
       r->index != index)
     return JG_FAIL(err, JG_EIO, "%s: the record of scan point %lld no longer reads back; the "
@@ -1340,7 +1517,11 @@ jg_status jg_scan_write_table(const jg_scan *s, jg_scan_checkpoint *c, FILE *f, 
     }
   }
   pthread_mutex_unlock(&c->lock);
-  if (st == JG_OK && ferror(f)) st = JG_FAIL(err, JG_EIO, "cannot write the scan table (%s)", strerror(errno));
+  /* Reading records back resets errno, so a write that failed before is
+   * known only by the error flag: ask the stream again for the reason. */
+  errno = 0;
+  if (st == JG_OK && (fflush(f) != 0 || ferror(f)))
+    st = JG_FAIL(err, JG_EIO, "cannot write the scan table (%s)", strerror(errno ? errno : EIO));
   for (int i = 0; i < n_lines; i++) free(lines[i]);
   free(lines);
   free(values);
@@ -1384,12 +1565,70 @@ static int push_line(char ***v, int *n, const char *line) {
   return 1;
 }
 
+/* Open a slice for reading. Only a regular file can be a slice: a device
+ * such as /dev/zero would be read forever, and a named pipe would block at
+ * the open (hence O_NONBLOCK, cleared once the file is known to be regular).
+ * A slice that cannot be opened is bad input, like any missing input. */
+static jg_status open_part(part_file *p, const char *path, jg_error *err) {
+  int fd = open(path, O_RDONLY | O_NONBLOCK | O_CLOEXEC | O_NOCTTY);
+  if (fd < 0)
+    return JG_FAIL(err, errno == ENOMEM ? JG_ENOMEM : JG_EINVAL, "%s: cannot read the slice (%s)",
+                   path, strerror(errno));
+  struct stat sb;
+  if (fstat(fd, &sb) != 0) {
+    int e = errno;
+    close(fd);
+    return JG_FAIL(err, JG_EIO, "%s: cannot read the slice (%s)", path, strerror(e));
+  }
+  if (!S_ISREG(sb.st_mode)) {
+    close(fd);
+    return JG_FAIL(err, JG_EINVAL, "%s: not a slice of a jeansgrow scan (it is %s, not a "
+                   "regular file)", path,
+                   S_ISDIR(sb.st_mode) ? "a folder" : "a device, pipe or socket");
+  }
+  int flags = fcntl(fd, F_GETFL);
+  if (flags < 0 || fcntl(fd, F_SETFL, flags & ~O_NONBLOCK) != 0 || !(p->f = fdopen(fd, "r"))) {
+    int e = errno;
+    close(fd);
+    return JG_FAIL(err, JG_EIO, "%s: cannot read the slice (%s)", path, strerror(e));
+  }
+  return JG_OK;
+}
+
+/* A data row of a slice must be what jg_table_write_row writes: `columns`
+ * finite numbers separated by tabs, ending in a newline. A row cut by a
+ * kill or a full disk, or a value edited to nan, would otherwise pass into
+ * the merged table. */
+static jg_status check_part_row(const part_file *p, const char *line, ssize_t n, int columns,
+                                long long line_number, jg_error *err) {
+  if (n <= 0 || line[n - 1] != '\n')
+    return JG_FAIL(err, JG_EINVAL, "%s:%lld: the last row is cut short (no end of line); the "
+                   "slice is incomplete: compute it again", p->path, line_number);
+  const char *s = line;
+  for (int c = 0; c < columns; c++) {
+    char *end;
+    double v = strtod(s, &end);
+    const char sep = c + 1 < columns ? '\t' : '\n';
+    if (end == s || *end != sep || isspace((unsigned char)*s))
+      return JG_FAIL(err, JG_EINVAL, "%s:%lld: column %d is not a number followed by %s; a "
+                     "row holds %d tab-separated numbers: the slice is damaged or was edited",
+                     p->path, line_number, c + 1, c + 1 < columns ? "a tab" : "the end of line",
+                     columns);
+    if (!isfinite(v))
+      return JG_FAIL(err, JG_EINVAL, "%s:%lld: column %d holds '%.*s', not a finite number; "
+                     "no NaN or Inf may enter a table: the slice was edited", p->path,
+                     line_number, c + 1, (int)(end - s), s);
+    s = end + 1;
+  }
+  return JG_OK;
+}
+
 static jg_status read_part(part_file *p, const char *path, jg_error *err) {
   memset(p, 0, sizeof *p);
   p->path = path;
   p->index = -1;
-  p->f = fopen(path, "r");
-  if (!p->f) return JG_FAIL(err, JG_EIO, "%s: cannot read (%s)", path, strerror(errno));
+  jg_status opened = open_part(p, path, err);
+  if (opened != JG_OK) return opened;
   char *line = NULL;
   size_t cap = 0;
   ssize_t n;
@@ -1398,8 +1637,10 @@ static jg_status read_part(part_file *p, const char *path, jg_error *err) {
   off_t body = 0;
   jg_status st = JG_OK;
   char *pending = NULL; /* the previous header line: the last one is the column line */
+  long long header_lines = 0;
   while ((n = getline(&line, &cap, p->f)) > 0) {
     if (line[0] != '#') break;
+    header_lines++;
     body = ftello(p->f);
     if (line[n - 1] == '\n') line[n - 1] = '\0';
     if (pending) {
@@ -1438,15 +1679,20 @@ static jg_status read_part(part_file *p, const char *path, jg_error *err) {
   if (st == JG_OK) {
     p->columns = pending;
     pending = NULL;
-    if (n > 0) {
-      p->data_lines = 1;
-      while (getline(&line, &cap, p->f) > 0) p->data_lines++;
-    }
+  }
+  const int is_slice = p->fingerprint[0] && p->index >= 0 && expected_failures >= 0 && p->columns;
+  if (st == JG_OK && is_slice && n > 0) {
+    int columns = 1;
+    for (const char *t = p->columns; *t; t++) columns += *t == '\t';
+    long long line_number = header_lines + 1;
+    st = check_part_row(p, line, n, columns, line_number, err);
+    for (p->data_lines = 1; st == JG_OK && (n = getline(&line, &cap, p->f)) > 0; p->data_lines++)
+      st = check_part_row(p, line, n, columns, ++line_number, err);
   }
   free(line);
   free(pending);
   if (st != JG_OK) return st;
-  if (!p->fingerprint[0] || p->index < 0 || expected_failures < 0 || !p->columns)
+  if (!is_slice)
     return JG_FAIL(err, JG_EINVAL, "%s: not a slice of a jeansgrow scan (no fingerprint, part "
                    "or failure lines; write slices with jeansgrow scan --part I/N)", path);
   if (p->n_failures != expected_failures)
