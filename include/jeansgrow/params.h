@@ -192,6 +192,8 @@ typedef struct jg_param_doc {
 
 /* The i-th documented key, or NULL past the end. */
 const jg_param_doc *jg_param_doc_at(int i);
+/* The documented key named `key`, or NULL if there is none. */
+const jg_param_doc *jg_param_doc_find(const char *key);
 
 /*
  * The grid of `jeansgrow scan` in a parameter file, read against its own key

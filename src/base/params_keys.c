@@ -261,6 +261,13 @@ const jg_param_doc *jg_param_doc_at(int i) {
   return &jg__param_specs[i].doc;
 }
 
+const jg_param_doc *jg_param_doc_find(const char *key) {
+  const jg_param_doc *d;
+  for (int i = 0; key && (d = jg_param_doc_at(i)) != NULL; i++)
+    if (strcmp(d->key, key) == 0) return d;
+  return NULL;
+}
+
 const jg__param_spec *jg__find_spec(const char *key) {
   for (int i = 0; i < jg__n_param_specs; i++)
     if (strcmp(jg__param_specs[i].doc.key, key) == 0) return &jg__param_specs[i];

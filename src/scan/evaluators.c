@@ -1,0 +1,154 @@
+/*
+ * The built-in evaluators of a scan: what one grid point computes. The
+ * thermal one (epochs and the isothermal Jeans scale of the gas) and the
+ * scales one (every column of `jeansgrow scales`, in the units its user
+ * data names).
+ */
+#include "jeansgrow/scan.h"
+
+#include <stdlib.h>
+#include <string.h>
+
+#include "jeansgrow/background.h"
+#include "jeansgrow/epochs.h"
+#include "jeansgrow/jeans.h"
+#include "jeansgrow/perturb.h"
+#include "jeansgrow/report.h"
+#include "jeansgrow/scales.h"
+#include "../results/report_tables.h"
+#include "../base/alloc.h" /* last: test builds route allocations through it */
+
+static const char *const thermal_point_columns[JG_SCAN_THERMAL_POINT_COLUMNS] = {
+    "z_star", "z_drag", "z_gas_decoupling"};
+static const char *const thermal_redshift_columns[JG_SCAN_THERMAL_REDSHIFT_COLUMNS] = {
+    "T_gas[K]", "x_e", "k_J[1/Mpc]", "M_J[Msun]"};
+static const char *const thermal_conventions[] = {
+    "z_star: Thomson optical depth tau = 1; z_drag: baryon drag depth = 1; "
+    "z_gas_decoupling: T_gas / T_rad = 0.9",
+    "x_e = n_e / n_H; k_J: comoving Jeans wavenumber of the isothermal gas, "
+    "c_s^2 = k_B T_gas / (mu m_H) (gamma = 1), total matter density as the source",
+    "M_J: mass inside the sphere of comoving radius pi / k_J at the mean matter density",
+    NULL};
+
+jg_status jg_scan_thermal_columns(const jg_thermal *th, const jg_params *p,
+                                  double *point_values, double *redshift_values, int stride,
+                                  jg_error *err) {
+  jg_epochs e;
+  jg_status st = jg_epochs_compute(th, &e, err);
+  if (st != JG_OK) return st;
+  point_values[0] = e.z_star;
+  point_values[1] = e.z_drag;
+  point_values[2] = e.z_gas_decoupling;
+  const jg_background *bg = jg_thermal_background(th);
+  for (int j = 0; j < p->output.n_redshifts; j++) {
+    double z = p->output.redshifts[j];
+    jg_thermal_state s;
+    jg_thermal_state_at(th, z, &s);
+    double cs2 = jg_sound_speed_squared(s.T_gas, s.mu, 1.0);
+    double k_J = jg_jeans_wavenumber(bg, 1.0 / (1.0 + z), cs2);
+    double *row = redshift_values + (size_t)j * (size_t)stride;
+    row[0] = s.T_gas;
+    row[1] = s.x_e;
+    row[2] = k_J;
+    row[3] = jg_mass_half_wavelength(bg, k_J);
+  }
+  return JG_OK;
+}
+
+static jg_status thermal_evaluate(const jg_params *p, double *point_values,
+                                  double *redshift_values, void *workspace, jg_error *err) {
+  (void)workspace;
+  jg_background *bg = jg_background_new(&p->cosmology, err);
+  if (!bg) return err ? err->status : JG_EINVAL;
+  jg_thermal *th = jg_thermal_new(bg, &p->thermal, err);
+  jg_status st = th ? JG_OK : (err ? err->status : JG_ENUMERIC);
+  if (st == JG_OK)
+    st = jg_scan_thermal_columns(th, p, point_values, redshift_values,
+                                 JG_SCAN_THERMAL_REDSHIFT_COLUMNS, err);
+  jg_thermal_free(th);
+  jg_background_free(bg);
+  return st;
+}
+
+static const jg_scan_evaluator thermal_evaluator = {
+    "thermal (epochs, T_gas, x_e, isothermal Jeans scale)",
+    JG_SCAN_THERMAL_POINT_COLUMNS,
+    thermal_point_columns,
+    JG_SCAN_THERMAL_REDSHIFT_COLUMNS,
+    thermal_redshift_columns,
+    thermal_conventions,
+    NULL,
+    NULL,
+    thermal_evaluate};
+
+const jg_scan_evaluator *jg_scan_evaluator_thermal(void) { return &thermal_evaluator; }
+
+/* ---- the scales evaluator: what `jeansgrow scales` reports, per point ---- */
+
+/* The `scales` table's columns without its leading `z` (the scan writes z). */
+#define SCALES_REDSHIFT_COLUMNS (JG__REPORT_SCALES_COLUMNS - 1)
+
+/* The evaluator carries its units itself rather than reading
+ * p->output.units, so that its values always match its column names. */
+static jg_status scales_evaluate(const jg_params *p, jg_output_units units, double *point_values,
+                                 double *redshift_values, jg_error *err) {
+  const int n_z = p->output.n_redshifts;
+  jg_scales_point *s = malloc(sizeof *s * (size_t)n_z);
+  if (!s) return JG_FAIL(err, JG_ENOMEM, "out of memory for the scales of a scan point");
+  jg_background *bg = jg_background_new(&p->cosmology, err);
+  jg_thermal *th = bg ? jg_thermal_new(bg, &p->thermal, err) : NULL;
+  jg_perturb_model *m = th ? jg_perturb_model_new(th, &p->perturbations, NULL, err) : NULL;
+  jg_perturb_workspace *w = m ? jg_perturb_workspace_new(m, err) : NULL;
+  jg_status st = w ? JG_OK : (err && err->status != JG_OK ? err->status : JG_ENUMERIC);
+  if (st == JG_OK) {
+    jg_epochs e;
+    st = jg_epochs_compute(th, &e, err);
+    point_values[0] = e.z_star;
+    point_values[1] = e.z_drag;
+    point_values[2] = e.z_gas_decoupling;
+  }
+  if (st == JG_OK) st = jg_scales_compute(m, w, p->output.redshifts, n_z, s, err);
+  double row[SCALES_REDSHIFT_COLUMNS + 1];
+  for (int j = 0; st == JG_OK && j < n_z; j++) {
+    jg_report_scales_row(th, &s[j], units, row);
+    memcpy(redshift_values + (size_t)j * SCALES_REDSHIFT_COLUMNS, row + 1,
+           sizeof(double) * SCALES_REDSHIFT_COLUMNS);
+  }
+  jg_perturb_workspace_free(w);
+  jg_perturb_model_free(m);
+  jg_thermal_free(th);
+  jg_background_free(bg);
+  free(s);
+  return st;
+}
+
+static jg_status scales_evaluate_mpc(const jg_params *p, double *point_values,
+                                     double *redshift_values, void *workspace, jg_error *err) {
+  (void)workspace;
+  return scales_evaluate(p, JG_UNITS_MPC, point_values, redshift_values, err);
+}
+
+static jg_status scales_evaluate_mpc_h(const jg_params *p, double *point_values,
+                                       double *redshift_values, void *workspace, jg_error *err) {
+  (void)workspace;
+  return scales_evaluate(p, JG_UNITS_MPC_H, point_values, redshift_values, err);
+}
+
+/* The report module owns the names and conventions. */
+static const jg_scan_evaluator scales_evaluators[] = {
+    [JG_UNITS_MPC] = {"scales (epochs; Jeans, filtering and half-suppression scales as jeansgrow "
+                      "scales)",
+                      JG_SCAN_THERMAL_POINT_COLUMNS, thermal_point_columns,
+                      SCALES_REDSHIFT_COLUMNS, jg__report_scales_columns[JG_UNITS_MPC] + 1,
+                      jg__report_scales_conventions[JG_UNITS_MPC], NULL, NULL,
+                      scales_evaluate_mpc},
+    [JG_UNITS_MPC_H] = {"scales (epochs; Jeans, filtering and half-suppression scales as "
+                        "jeansgrow scales), in h units",
+                        JG_SCAN_THERMAL_POINT_COLUMNS, thermal_point_columns,
+                        SCALES_REDSHIFT_COLUMNS, jg__report_scales_columns[JG_UNITS_MPC_H] + 1,
+                        jg__report_scales_conventions[JG_UNITS_MPC_H], NULL, NULL,
+                        scales_evaluate_mpc_h}};
+
+const jg_scan_evaluator *jg_scan_evaluator_scales(jg_output_units units) {
+  return &scales_evaluators[units == JG_UNITS_MPC_H ? JG_UNITS_MPC_H : JG_UNITS_MPC];
+}
