@@ -358,11 +358,13 @@ Test(perturb, accurate_at_default_tolerances) {
   s.rel_tol = 1e-12;
   s.abs_tol = 1e-14;
   real_open(&t, &s);
-  /* Both steppers: msbdf then rk8pd (the default), and msbdf throughout. */
-  const jg_perturb_stepper steppers[] = {JG_PERTURB_STEPPER_MSBDF_RK8PD, JG_PERTURB_STEPPER_MSBDF};
+  /* Every stepper: the Rosenbrock integrator (the default), GSL msbdf then
+   * rk8pd, and msbdf throughout. */
+  const jg_perturb_stepper steppers[] = {JG_PERTURB_STEPPER_MSBDF_RK8PD, JG_PERTURB_STEPPER_MSBDF,
+                                         JG_PERTURB_STEPPER_ROSENBROCK};
   const double z[] = {1000.0, 999.9999999, 300.0, 100.0, 10.0};
   const double ks[] = {1.0, 300.0, 5000.0, 1e5};
-  for (int c = 0; c < 2; c++) {
+  for (int c = 0; c < 3; c++) {
     real_case r;
     s = d.perturbations;
     s.stepper = steppers[c];
@@ -390,9 +392,11 @@ Test(perturb, accurate_at_default_tolerances) {
  * Jacobian, while msbdf throughout keeps refreshing its Jacobian. */
 Test(perturb, limit_accurate_and_stepper_switches) {
   real_case hybrid, bdf, tight;
-  real_open(&hybrid, NULL);
-  jg_perturb_settings s = hybrid.p.perturbations;
-  cr_assert_eq(s.stepper, JG_PERTURB_STEPPER_MSBDF_RK8PD, "default stepper");
+  jg_params d;
+  jg_params_set_defaults(&d);
+  jg_perturb_settings s = d.perturbations;
+  s.stepper = JG_PERTURB_STEPPER_MSBDF_RK8PD;
+  real_open(&hybrid, &s);
   s.stepper = JG_PERTURB_STEPPER_MSBDF;
   real_open(&bdf, &s);
   s.rel_tol = 1e-12;

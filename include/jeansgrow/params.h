@@ -62,7 +62,11 @@ typedef enum {
    * make the system stiff, then GSL rk8pd (explicit, 8th order). */
   JG_PERTURB_STEPPER_MSBDF_RK8PD = 0,
   /* GSL msbdf from z_initial to the end. */
-  JG_PERTURB_STEPPER_MSBDF = 1
+  JG_PERTURB_STEPPER_MSBDF = 1,
+  /* The library's own linearly implicit integrator (a 4th-order L-stable
+   * Rosenbrock method, src/perturbations/rosenbrock.c): the default; the two
+   * GSL paths are kept as cross-checks. */
+  JG_PERTURB_STEPPER_ROSENBROCK = 2
 } jg_perturb_stepper;
 
 /* The linear perturbations (group `perturbations`). */

@@ -48,7 +48,7 @@ typedef struct param_spec {
   {{key, "integer", "", def, allowed, meaning}, KIND_INTEGER, P_OFF(field), 0, 0, 0, 0, lo, hi, 0, 0, NULL, 0}
 
 static const char *const sound_speed_words[] = {"fluctuating", "isothermal", "adiabatic", NULL};
-static const char *const stepper_words[] = {"msbdf+rk8pd", "msbdf", NULL};
+static const char *const stepper_words[] = {"msbdf+rk8pd", "msbdf", "rosenbrock", NULL};
 static const char *const units_words[] = {"Mpc", "Mpc/h", NULL};
 
 static const param_spec specs[] = {
@@ -114,11 +114,12 @@ static const param_spec specs[] = {
       "\"fluctuating\"", "fluctuating, isothermal or adiabatic",
       "gas pressure model: delta_T evolved (scale dependent), or uniform with gamma = 1 or 5/3"},
      KIND_CHOICE, P_OFF(perturbations.sound_speed), 0, 0, 0, 0, 0, 2, 0, 0, sound_speed_words, 0},
-    {{"perturbations.stepper", "one of \"msbdf+rk8pd\", \"msbdf\"", "", "\"msbdf+rk8pd\"",
-      "msbdf+rk8pd or msbdf",
-      "GSL steppers: implicit msbdf while the drag and Compton rates exceed 50 H, explicit "
+    {{"perturbations.stepper", "one of \"rosenbrock\", \"msbdf+rk8pd\", \"msbdf\"", "",
+      "\"rosenbrock\"", "rosenbrock, msbdf+rk8pd or msbdf",
+      "rosenbrock: the built-in 4th-order L-stable linearly implicit integrator; or the GSL "
+      "cross-checks: implicit msbdf while the drag and Compton rates exceed 50 H, explicit "
       "rk8pd after; or msbdf throughout"},
-     KIND_CHOICE, P_OFF(perturbations.stepper), 0, 0, 0, 0, 0, 1, 0, 0, stepper_words, 0},
+     KIND_CHOICE, P_OFF(perturbations.stepper), 0, 0, 0, 0, 0, 2, 0, 0, stepper_words, 0},
     {{"perturbations.initial_table", "quoted file name", "", "\"\"",
       "empty, or a readable table (see the README); at most 1023 bytes",
       "baryon start per wavenumber at z_initial, read from this file (relative names from the "
@@ -181,7 +182,7 @@ void jg_params_set_defaults(jg_params *p) {
   p->perturbations.n_k_values = 0;
   p->perturbations.z_initial = 1.0e4;
   p->perturbations.sound_speed = JG_SOUND_SPEED_FLUCTUATING;
-  p->perturbations.stepper = JG_PERTURB_STEPPER_MSBDF_RK8PD;
+  p->perturbations.stepper = JG_PERTURB_STEPPER_ROSENBROCK;
   p->perturbations.initial_table[0] = '\0';
   p->perturbations.rel_tol = 1e-8;
   p->perturbations.abs_tol = 1e-10;
