@@ -358,8 +358,8 @@ Test(perturb, accurate_at_default_tolerances) {
   s.rel_tol = 1e-12;
   s.abs_tol = 1e-14;
   real_open(&t, &s);
-  /* Every stepper: the Rosenbrock integrator (the default), GSL msbdf then
-   * rk8pd, and msbdf throughout. */
+  /* Every stepper: GSL msbdf then rk8pd (the default), msbdf throughout,
+   * and the Rosenbrock integrator (RODAS). */
   const jg_perturb_stepper steppers[] = {JG_PERTURB_STEPPER_MSBDF_RK8PD, JG_PERTURB_STEPPER_MSBDF,
                                          JG_PERTURB_STEPPER_ROSENBROCK};
   const double z[] = {1000.0, 999.9999999, 300.0, 100.0, 10.0};
@@ -392,11 +392,9 @@ Test(perturb, accurate_at_default_tolerances) {
  * Jacobian, while msbdf throughout keeps refreshing its Jacobian. */
 Test(perturb, limit_accurate_and_stepper_switches) {
   real_case hybrid, bdf, tight;
-  jg_params d;
-  jg_params_set_defaults(&d);
-  jg_perturb_settings s = d.perturbations;
-  s.stepper = JG_PERTURB_STEPPER_MSBDF_RK8PD;
-  real_open(&hybrid, &s);
+  real_open(&hybrid, NULL);
+  jg_perturb_settings s = hybrid.p.perturbations;
+  cr_assert_eq(s.stepper, JG_PERTURB_STEPPER_MSBDF_RK8PD, "default stepper");
   s.stepper = JG_PERTURB_STEPPER_MSBDF;
   real_open(&bdf, &s);
   s.rel_tol = 1e-12;

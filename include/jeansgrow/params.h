@@ -63,9 +63,9 @@ typedef enum {
   JG_PERTURB_STEPPER_MSBDF_RK8PD = 0,
   /* GSL msbdf from z_initial to the end. */
   JG_PERTURB_STEPPER_MSBDF = 1,
-  /* The library's own linearly implicit integrator (a 4th-order L-stable
-   * Rosenbrock method, src/perturbations/rosenbrock.c): the default; the two
-   * GSL paths are kept as cross-checks. */
+  /* The library's own linearly implicit integrator (the 4th-order L-stable
+   * Rosenbrock method RODAS, src/perturbations/rosenbrock.c); solves
+   * batches of wavenumbers in lockstep. */
   JG_PERTURB_STEPPER_ROSENBROCK = 2
 } jg_perturb_stepper;
 

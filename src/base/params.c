@@ -114,11 +114,10 @@ static const param_spec specs[] = {
       "\"fluctuating\"", "fluctuating, isothermal or adiabatic",
       "gas pressure model: delta_T evolved (scale dependent), or uniform with gamma = 1 or 5/3"},
      KIND_CHOICE, P_OFF(perturbations.sound_speed), 0, 0, 0, 0, 0, 2, 0, 0, sound_speed_words, 0},
-    {{"perturbations.stepper", "one of \"rosenbrock\", \"msbdf+rk8pd\", \"msbdf\"", "",
-      "\"rosenbrock\"", "rosenbrock, msbdf+rk8pd or msbdf",
-      "rosenbrock: the built-in 4th-order L-stable linearly implicit integrator; or the GSL "
-      "cross-checks: implicit msbdf while the drag and Compton rates exceed 50 H, explicit "
-      "rk8pd after; or msbdf throughout"},
+    {{"perturbations.stepper", "one of \"msbdf+rk8pd\", \"msbdf\", \"rosenbrock\"", "",
+      "\"msbdf+rk8pd\"", "msbdf+rk8pd, msbdf or rosenbrock",
+      "GSL steppers: implicit msbdf while the drag and Compton rates exceed 50 H, explicit "
+      "rk8pd after; or msbdf throughout; or the built-in 4th-order L-stable Rosenbrock method"},
      KIND_CHOICE, P_OFF(perturbations.stepper), 0, 0, 0, 0, 0, 2, 0, 0, stepper_words, 0},
     {{"perturbations.initial_table", "quoted file name", "", "\"\"",
       "empty, or a readable table (see the README); at most 1023 bytes",
@@ -182,7 +181,7 @@ void jg_params_set_defaults(jg_params *p) {
   p->perturbations.n_k_values = 0;
   p->perturbations.z_initial = 1.0e4;
   p->perturbations.sound_speed = JG_SOUND_SPEED_FLUCTUATING;
-  p->perturbations.stepper = JG_PERTURB_STEPPER_ROSENBROCK;
+  p->perturbations.stepper = JG_PERTURB_STEPPER_MSBDF_RK8PD;
   p->perturbations.initial_table[0] = '\0';
   p->perturbations.rel_tol = 1e-8;
   p->perturbations.abs_tol = 1e-10;

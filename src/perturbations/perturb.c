@@ -1008,7 +1008,7 @@ static int coefficients_and_slope(const jg_perturb_model *m, double x, jg_medium
   const jg_medium *md = &m->medium;
   if (md->eval(md->ctx, x, c) != 0) return 1;
   if (!dc) return 0;
-  if (m->owned && !getenv("PT_FD")) {
+  if (m->owned) {
     thermal_medium_slope(m->owned, x, c, dc);
     return 0;
   }
@@ -1102,7 +1102,7 @@ static jg_status ros_solve(const jg_perturb_model *m, jg_perturb_workspace *w,
                             PT_MAX_STEPS};
   const pt_ros_stats before = w->ros->stats;
   double x_fail;
-  int code = pt_ros_integrate(&p, w->ros, m->x_init, y, w->x_out, n_z, &x_fail);
+  int code = jg__ros_integrate(&p, w->ros, m->x_init, y, w->x_out, n_z, &x_fail);
   /* Work counters as for the GSL path: six stage right-hand sides per
    * attempted step and one Jacobian per matrix evaluation, per mode. */
   const pt_ros_stats *after = &w->ros->stats;
@@ -1142,6 +1142,33 @@ jg_status jg_perturb_solve(const jg_perturb_model *m, jg_perturb_workspace *w, d
   double y[5];
   initial_mode(m, &start, y);
   return drive(m, w->drv_mode, k, "mode", y, m->dim_mode, z, n_z, w->order, emit_mode, out, err);
+}
+
+jg_status jg_perturb_solve_many(const jg_perturb_model *m, jg_perturb_workspace *w,
+                                const double *k, int n_k, const double *z, int n_z,
+                                jg_perturb_point *out, jg_error *err) {
+  if (!m || !w || !out || !k || w->m != m || n_k < 0)
+    return JG_FAIL(err, JG_EINVAL,
+                   "jg_perturb_solve_many: model, its own workspace, wavenumbers and output needed");
+  const int lockstep = m->settings.stepper == JG_PERTURB_STEPPER_ROSENBROCK;
+  for (int first = 0; first < n_k; first += JG_PERTURB_BATCH) {
+    const int n = n_k - first < JG_PERTURB_BATCH ? n_k - first : JG_PERTURB_BATCH;
+    jg_perturb_point *batch_out = out + (size_t)first * (size_t)n_z;
+    if (lockstep && n > 1) {
+      jg_status st = order_redshifts(m, w, z, n_z, err);
+      for (int b = 0; st == JG_OK && b < n; b++) st = jg_perturb_check_wavenumber(m, k[first + b], err);
+      if (st != JG_OK) return st;
+      void *outs[JG_PERTURB_BATCH];
+      for (int b = 0; b < n; b++) outs[b] = batch_out + (size_t)b * (size_t)n_z;
+      if (ros_solve(m, w, mode_type(m), k + first, n, z, n_z, outs, err) == JG_OK) continue;
+    }
+    /* One at a time: the GSL steppers, a lone k, or a batch that failed. */
+    for (int b = 0; b < n; b++) {
+      jg_status st = jg_perturb_solve(m, w, k[first + b], z, n_z, batch_out + (size_t)b * n_z, err);
+      if (st != JG_OK) return st;
+    }
+  }
+  return JG_OK;
 }
 
 jg_status jg_perturb_solve_limit(const jg_perturb_model *m, jg_perturb_workspace *w,

@@ -151,7 +151,7 @@ static void update_peaks(const pt_ros_problem *p, pt_ros_work *w, const double *
     }
 }
 
-int pt_ros_integrate(const pt_ros_problem *p, pt_ros_work *w, double x0, double *y,
+int jg__ros_integrate(const pt_ros_problem *p, pt_ros_work *w, double x0, double *y,
                      const double *x_out, int n_out, double *x_fail) {
   const int n = p->dim, modes = p->n_modes, len = n * modes;
   *x_fail = x0;

@@ -98,7 +98,7 @@ typedef struct pt_ros_work {
 /* Integrate y (n_modes x dim, in place) from x0 through the increasing
  * outputs x_out[0..n_out), calling emit at each; the last output is the end.
  * Returns PT_ROS_OK or a failure code, with *x_fail the x reached. */
-int pt_ros_integrate(const pt_ros_problem *p, pt_ros_work *w, double x0, double *y,
+int jg__ros_integrate(const pt_ros_problem *p, pt_ros_work *w, double x0, double *y,
                      const double *x_out, int n_out, double *x_fail);
 
 /* The quintic Hermite interpolation limit: h * rate above this cuts the step. */
