@@ -28,38 +28,31 @@
  * call. They are tabulated once per model on a uniform grid in ln a (500
  * nodes per e-fold) as natural cubic splines of ln p, ln d, ln r, e and g
  * (GSL cspline, stored as per-interval polynomials so that an evaluation is
- * one index computation, five Horner sums and three exponentials). The model is read-only afterwards; all mutable
- * state (GSL drivers, the current k) lives in the per-thread workspace.
+ * one index computation, five Horner sums and three exponentials;
+ * medium_table.c). The model is read-only afterwards; all mutable state
+ * (GSL drivers, the Rosenbrock arrays, the current k) lives in the
+ * per-thread workspace.
+ *
+ * perturbations.stepper = "rosenbrock" takes the other path,
+ * perturb_rosenbrock.c: the library's own integrator (rosenbrock.c), which
+ * also solves batches of wavenumbers in lockstep.
  */
 #include "jeansgrow/perturb.h"
 
 #include <gsl/gsl_errno.h>
-#include <gsl/gsl_odeiv2.h>
 #include <gsl/gsl_sf_hyperg.h>
-#include <gsl/gsl_spline.h>
 #include <math.h>
 #include <stdlib.h>
 #include <string.h>
 
 #include "jeansgrow/background.h"
 #include "jeansgrow/constants.h"
-#include "rosenbrock.h"
+#include "perturb_internal.h"
 
-/* Nodes per e-fold of the coefficient tables. The cubic-spline error,
- * ~ (5/384) h^4 max|f''''| with h = 2e-3, is below 1e-10 for the logarithms
- * of the coefficients, which vary on scales Delta ln a >~ 0.05 (hydrogen
- * recombination is the sharpest feature). */
-#define PT_NODES_PER_EFOLD 500
-/* Extra nodes beyond each end of the range, so that the finite difference
- * for dfdt and the first trial steps stay on the table. */
-#define PT_MARGIN_NODES 8
 /* First trial step in ln a; msbdf adapts it at once. */
 #define PT_HSTART 1.0e-6
 /* Step for the central difference of the coefficients in ln a (dfdt). */
 #define PT_DFDT_STEP 1.0e-6
-/* Steps allowed per output interval before reporting a failure (a stuck
- * integration should fail, not hang a scan). */
-#define PT_MAX_STEPS 2000000
 /* Stiff part: msbdf; on the real history it was 1.35 times faster than
  * bsimp and 6 times faster than rk4imp at the default tolerances
  * (bench_perturb). */
@@ -76,177 +69,9 @@
 /* The switch point is searched on a grid of this spacing in ln a. */
 #define PT_SWITCH_SEARCH_STEP (1.0 / PT_NODES_PER_EFOLD)
 
-/* State layouts. */
-enum { M_C = 0, M_CP = 1, M_B = 2, M_BP = 3, M_T = 4 };
-
-/* ------------------------------------------------------------------------ */
-/* The real-history medium: coefficient tables.                              */
-
-typedef struct thermal_medium {
-  const jg_background *bg;
-  double x0, dx, inv_dx; /* node i at x0 + i dx */
-  int n;                 /* nodes */
-  double *poly;          /* per interval: N_Q quantities x 4 polynomial coefficients */
-} thermal_medium;
-
-enum { Q_PRESSURE = 0, Q_DRAG = 1, Q_RELAX = 2, Q_EXPANSION = 3, Q_GRAVITY = 4, N_Q = 5 };
-
-static int thermal_medium_eval(const void *ctx, double ln_a, jg_medium_coefficients *out) {
-  const thermal_medium *tm = ctx;
-  double t = (ln_a - tm->x0) * tm->inv_dx;
-  if (!(t > -1.0e6 && t < 1.0e9)) return 1; /* NaN or absurdly far off */
-  int i = (int)t;
-  if (i < 0) i = 0;
-  if (i > tm->n - 2) i = tm->n - 2;
-  double u = ln_a - (tm->x0 + i * tm->dx);
-  const double *c = tm->poly + (size_t)i * 4 * N_Q;
-  double lp = c[0] + u * (c[1] + u * (c[2] + u * c[3]));
-  double ld = c[4] + u * (c[5] + u * (c[6] + u * c[7]));
-  double lr = c[8] + u * (c[9] + u * (c[10] + u * c[11]));
-  out->dlnH_dlna = c[12] + u * (c[13] + u * (c[14] + u * c[15]));
-  out->gravity = c[16] + u * (c[17] + u * (c[18] + u * c[19]));
-  out->baryon_fraction = tm->bg->baryon_fraction;
-  out->pressure = exp(lp);
-  out->drag = exp(ld);
-  out->relaxation = exp(lr);
-  return 0;
-}
-
-/* d/d ln a of the coefficients, from the same polynomials (exact for the
- * tabulated medium; c holds the values at ln_a). */
-static void thermal_medium_slope(const thermal_medium *tm, double ln_a,
-                                 const jg_medium_coefficients *c, jg_medium_coefficients *dc) {
-  double t = (ln_a - tm->x0) * tm->inv_dx;
-  int i = (int)t;
-  if (i < 0) i = 0;
-  if (i > tm->n - 2) i = tm->n - 2;
-  double u = ln_a - (tm->x0 + i * tm->dx);
-  const double *q = tm->poly + (size_t)i * 4 * N_Q;
-#define PT_SLOPE(o) (q[(o) + 1] + u * (2.0 * q[(o) + 2] + 3.0 * u * q[(o) + 3]))
-  dc->pressure = c->pressure * PT_SLOPE(0);
-  dc->drag = c->drag * PT_SLOPE(4);
-  dc->relaxation = c->relaxation * PT_SLOPE(8);
-  dc->dlnH_dlna = PT_SLOPE(12);
-  dc->gravity = PT_SLOPE(16);
-#undef PT_SLOPE
-  dc->baryon_fraction = c->baryon_fraction;
-}
-
-static void thermal_medium_free(thermal_medium *tm) {
-  if (!tm) return;
-  free(tm->poly);
-  free(tm);
-}
-
-/* The three coefficients, from the thermal history at one node. */
-static void thermal_coefficients(const jg_thermal *th, double x, double q[N_Q]) {
-  const jg_background *bg = jg_thermal_background(th);
-  double a = exp(x);
-  jg_thermal_state s;
-  jg_thermal_state_at(th, 1.0 / a - 1.0, &s);
-  double H = jg_background_hubble(bg, a);
-  double aH_mpc = a * H * JG_MPC; /* comoving: (k/a) c_T / H with k in 1/Mpc */
-  double cT2 = JG_K_BOLTZMANN * s.T_gas / (s.mu * JG_M_HYDROGEN_ATOM);
-  double n_e = s.x_e * jg_background_n_hydrogen(bg, a);
-  double R = bg->R_coefficient * a;
-  q[Q_PRESSURE] = cT2 / (aH_mpc * aH_mpc);
-  q[Q_DRAG] = n_e * JG_SIGMA_THOMSON * JG_C_LIGHT / (R * H);
-  q[Q_RELAX] = s.compton_rate * (s.T_rad / s.T_gas) / H;
-  q[Q_EXPANSION] = jg_background_dlnH_dlna(bg, a);
-  q[Q_GRAVITY] = 1.5 * jg_background_omega_m_of_a(bg, a);
-}
-
-static thermal_medium *thermal_medium_new(const jg_thermal *th, double x_first, jg_error *err) {
-  thermal_medium *tm = calloc(1, sizeof *tm);
-  if (!tm) {
-    JG_FAIL(err, JG_ENOMEM, "perturbations: out of memory for the coefficient tables");
-    return NULL;
-  }
-  tm->bg = jg_thermal_background(th);
-  tm->dx = 1.0 / PT_NODES_PER_EFOLD;
-  tm->inv_dx = PT_NODES_PER_EFOLD;
-  tm->x0 = x_first - PT_MARGIN_NODES * tm->dx;
-  tm->n = (int)ceil(-tm->x0 * PT_NODES_PER_EFOLD) + PT_MARGIN_NODES + 1;
-  const int n = tm->n;
-  double *x = malloc(sizeof(double) * (size_t)n * (1 + N_Q));
-  tm->poly = malloc(sizeof(double) * (size_t)(n - 1) * 4 * N_Q);
-  gsl_spline *sp = gsl_spline_alloc(gsl_interp_cspline, (size_t)n);
-  jg_status st = JG_OK;
-  if (!x || !tm->poly || !sp)
-    st = JG_FAIL(err, JG_ENOMEM, "perturbations: out of memory for the coefficient tables");
-  if (st == JG_OK) {
-    double *lq = x + n; /* lq[q * n + i] */
-    for (int i = 0; i < n; i++) {
-      x[i] = tm->x0 + i * tm->dx;
-      double q[N_Q];
-      thermal_coefficients(th, x[i], q);
-      for (int k = 0; k < N_Q; k++) {
-        /* The rates p, d, r (power laws in a over decades) by their
-         * logarithms; e (negative) and g (between 0 and 3/2) as they are. */
-        const int logarithmic = k < Q_EXPANSION;
-        if (!isfinite(q[k]) || (logarithmic && !(q[k] > 0.0))) {
-          st = JG_FAIL(err, JG_ENUMERIC,
-                       "perturbations: coefficient %d of the medium is %g at z = %g (thermal "
-                       "history out of range)",
-                       k, q[k], exp(-x[i]) - 1.0);
-          break;
-        }
-        lq[k * n + i] = logarithmic ? log(q[k]) : q[k];
-      }
-      if (st != JG_OK) break;
-    }
-    for (int k = 0; st == JG_OK && k < N_Q; k++) {
-      const double *yk = lq + k * n;
-      if (gsl_spline_init(sp, x, yk, (size_t)n) != GSL_SUCCESS) {
-        st = JG_FAIL(err, JG_ENUMERIC, "perturbations: cannot build the coefficient splines");
-        break;
-      }
-      /* Per-interval polynomial of GSL's natural cubic spline, from the
-       * second derivatives at the nodes: y_i + b u + (M_i/2) u^2 +
-       * (M_{i+1} - M_i)/(6h) u^3, b = (y_{i+1} - y_i)/h - h (2 M_i + M_{i+1})/6. */
-      double M_prev = gsl_spline_eval_deriv2(sp, x[0], NULL);
-      for (int i = 0; i < n - 1; i++) {
-        double h = x[i + 1] - x[i];
-        double M_next = (i + 1 == n - 1) ? 0.0 : gsl_spline_eval_deriv2(sp, x[i + 1], NULL);
-        double *c = tm->poly + (size_t)i * 4 * N_Q + 4 * k;
-        c[0] = yk[i];
-        c[1] = (yk[i + 1] - yk[i]) / h - h * (2.0 * M_prev + M_next) / 6.0;
-        c[2] = 0.5 * M_prev;
-        c[3] = (M_next - M_prev) / (6.0 * h);
-        M_prev = M_next;
-      }
-    }
-  }
-  gsl_spline_free(sp);
-  free(x);
-  if (st != JG_OK) {
-    thermal_medium_free(tm);
-    return NULL;
-  }
-  return tm;
-}
-
 /* ------------------------------------------------------------------------ */
 /* Model.                                                                     */
 
-struct jg_perturb_model {
-  jg_medium medium;
-  thermal_medium *owned;   /* the real-history tables, when built from a history */
-  const jg_thermal *th;    /* NULL for a custom medium */
-  jg_perturb_settings settings;
-  jg_perturb_start start;   /* uniform start, or the table's first row (the k -> 0 start) */
-  jg_perturb_start_table *start_table; /* owned; NULL: the uniform start for every k */
-  int start_given;          /* a start was passed to the constructor */
-  double x_init;           /* ln a at z_initial */
-  double growth_init;      /* D_+ at z_initial (see the header) */
-  double growth_rate_init; /* d ln D_+ / d ln a at z_initial */
-  double k_lo, k_hi;       /* accepted wavenumbers */
-  double k_ref2;           /* scale of the k^2-derivative and Gnedin-Hui components */
-  int fluctuating;         /* delta_T in the state */
-  double gamma;            /* uniform models: pressure on (gamma) delta_b */
-  int dim_mode, dim_limit;
-  double x_explicit;       /* ln a from which the explicit stepper takes over */
-};
 
 /* Growing mode of y (1 + y) D'' + (1 + 3y/2) D' - (3/2) f_c D = 0 (the
  * Meszaros equation with a smooth share f_b = 1 - f_c of the matter):
@@ -470,13 +295,13 @@ jg_perturb_model *jg_perturb_model_new(const jg_thermal *th, const jg_perturb_se
   m->start_given = start != NULL;
   m->th = th;
   const double x_init = -log1p(s->z_initial);
-  m->owned = thermal_medium_new(th, x_init, err);
+  m->owned = jg__pt_thermal_medium_new(th, x_init, err);
   if (!m->owned) {
     free(m);
     return NULL;
   }
   jg_medium *md = &m->medium;
-  md->eval = thermal_medium_eval;
+  md->eval = jg__pt_thermal_medium_eval;
   md->ctx = m->owned;
   md->a_equality = bg->omega_r / bg->omega_m;
   md->ln_a_min = m->owned->x0;
@@ -495,7 +320,7 @@ jg_perturb_model *jg_perturb_model_new(const jg_thermal *th, const jg_perturb_se
 void jg_perturb_model_free(jg_perturb_model *m) {
   if (!m) return;
   jg_perturb_start_table_free(m->start_table);
-  thermal_medium_free(m->owned);
+  jg__pt_thermal_medium_free(m->owned);
   free(m);
 }
 
@@ -564,7 +389,7 @@ static void rhs_mode(const jg_perturb_model *m, const jg_medium_coefficients *c,
   if (m->fluctuating) f[M_T] = (2.0 / 3.0) * y[M_BP] - c->relaxation * y[M_T];
 }
 
-static void jac_mode(const jg_perturb_model *m, const jg_medium_coefficients *c, double k2,
+void jg__pt_jac_mode(const jg_perturb_model *m, const jg_medium_coefficients *c, double k2,
                      double *J, int ld, int off) {
   /* Block of the mode equations at rows/columns off .. off + dim_mode - 1. */
   const double fb = c->baryon_fraction, fc = 1.0 - fb;
@@ -609,10 +434,10 @@ static void rhs_limit(const jg_perturb_model *m, const jg_medium_coefficients *c
   f[j + 1] = -hd * y[j + 1] + pK2 * D;
 }
 
-static void jac_limit(const jg_perturb_model *m, const jg_medium_coefficients *c, double *J) {
+void jg__pt_jac_limit(const jg_perturb_model *m, const jg_medium_coefficients *c, double *J) {
   const int n = m->dim_limit, u = m->dim_mode, j = u + 4;
   memset(J, 0, sizeof(double) * (size_t)n * n);
-  jac_mode(m, c, 0.0, J, n, 0);
+  jg__pt_jac_mode(m, c, 0.0, J, n, 0);
   const double fb = c->baryon_fraction, fc = 1.0 - fb;
   const double hd = 2.0 + c->dlnH_dlna, pK2 = c->pressure * m->k_ref2;
 #define JA(r, s) J[(size_t)(r) * n + (s)]
@@ -636,16 +461,6 @@ static void jac_limit(const jg_perturb_model *m, const jg_medium_coefficients *c
 /* ------------------------------------------------------------------------ */
 /* GSL glue.                                                                  */
 
-typedef struct sys_params {
-  const jg_perturb_model *m;
-  double k2;
-  /* The coefficients at the last ln a evaluated: msbdf's Newton iterations
-   * evaluate the right-hand side several times at the same ln a. They do
-   * not depend on k, so the cache stays valid from one mode to the next. */
-  double x_cached;
-  jg_medium_coefficients c_cached;
-  jg_perturb_work *work; /* the workspace's counters */
-} sys_params;
 
 static int coefficients_at(sys_params *sp, double x, jg_medium_coefficients *c) {
   if (x != sp->x_cached) {
@@ -696,7 +511,7 @@ static int gsl_jac_mode(double x, const double y[], double *dfdy, double dfdt[],
   jg_medium_coefficients c;
   if (coefficients_at(sp, x, &c) != GSL_SUCCESS) return GSL_EBADFUNC;
   memset(dfdy, 0, sizeof(double) * (size_t)n * n);
-  jac_mode(sp->m, &c, sp->k2, dfdy, n, 0);
+  jg__pt_jac_mode(sp->m, &c, sp->k2, dfdy, n, 0);
   return dfdt_central(gsl_rhs_mode, x, y, dfdt, n, params);
 }
 
@@ -705,24 +520,13 @@ static int gsl_jac_limit(double x, const double y[], double *dfdy, double dfdt[]
   sp->work->jacobian_evals++;
   jg_medium_coefficients c;
   if (coefficients_at(sp, x, &c) != GSL_SUCCESS) return GSL_EBADFUNC;
-  jac_limit(sp->m, &c, dfdy);
+  jg__pt_jac_limit(sp->m, &c, dfdy);
   return dfdt_central(gsl_rhs_limit, x, y, dfdt, sp->m->dim_limit, params);
 }
 
 /* ------------------------------------------------------------------------ */
 /* Workspace and solves.                                                      */
 
-struct jg_perturb_workspace {
-  const jg_perturb_model *m;
-  sys_params prm_mode, prm_limit;
-  gsl_odeiv2_system sys_mode, sys_limit;
-  /* [0] msbdf while stiff, [1] the explicit stepper after */
-  gsl_odeiv2_driver *drv_mode[2], *drv_limit[2];
-  pt_ros_work *ros; /* the Rosenbrock integrator's arrays */
-  int order[JG_MAX_REDSHIFTS];
-  double x_out[JG_MAX_REDSHIFTS]; /* ln a of the ordered redshifts */
-  jg_perturb_work work;
-};
 
 jg_perturb_work jg_perturb_workspace_work(const jg_perturb_workspace *w) {
   jg_perturb_work none = {0, 0};
@@ -781,7 +585,7 @@ jg_perturb_workspace *jg_perturb_workspace_new(const jg_perturb_model *m, jg_err
 
 /* Check the requested redshifts and order them from the highest (first
  * reached) down; stable insertion sort, n_z <= JG_MAX_REDSHIFTS. */
-static jg_status order_redshifts(const jg_perturb_model *m, jg_perturb_workspace *w,
+jg_status jg__pt_order_redshifts(const jg_perturb_model *m, jg_perturb_workspace *w,
                                  const double *z, int n_z, jg_error *err) {
   if (n_z < 1 || n_z > JG_MAX_REDSHIFTS || !z)
     return JG_FAIL(err, JG_EINVAL, "perturbations: between 1 and %d redshifts must be given (got %d)",
@@ -806,7 +610,7 @@ static jg_status order_redshifts(const jg_perturb_model *m, jg_perturb_workspace
   return JG_OK;
 }
 
-static void initial_mode(const jg_perturb_model *m, const jg_perturb_start *start, double *y) {
+void jg__pt_initial_mode(const jg_perturb_model *m, const jg_perturb_start *start, double *y) {
   y[M_C] = 1.0;
   y[M_CP] = m->growth_rate_init;
   y[M_B] = start->density_ratio;
@@ -830,10 +634,6 @@ static void fill_point(const jg_perturb_model *m, double z, double k, double fb,
   p->growth_b = safe_ratio(y[M_BP], y[M_B]);
   p->growth_m = safe_ratio(fc * y[M_CP] + fb * y[M_BP], p->delta_m);
 }
-
-/* Drive one system through the ordered redshifts; `emit` stores a result. */
-typedef void (*emit_fn)(const jg_perturb_model *m, double z, double k, double fb,
-                        const double *y, void *out, int index);
 
 /* Advance from *x to x_target: msbdf up to the start of the explicit part,
  * the explicit stepper after it. */
@@ -881,12 +681,12 @@ static jg_status drive(const jg_perturb_model *m, gsl_odeiv2_driver *const d[2],
   return JG_OK;
 }
 
-static void emit_mode(const jg_perturb_model *m, double z, double k, double fb, const double *y,
+void jg__pt_emit_mode(const jg_perturb_model *m, double z, double k, double fb, const double *y,
                       void *out, int index) {
   fill_point(m, z, k, fb, y, (jg_perturb_point *)out + index);
 }
 
-static void emit_limit(const jg_perturb_model *m, double z, double k, double fb, const double *y,
+void jg__pt_emit_limit(const jg_perturb_model *m, double z, double k, double fb, const double *y,
                        void *out, int index) {
   jg_perturb_limit *l = (jg_perturb_limit *)out + index;
   const int u = m->dim_mode, j = u + 4;
@@ -896,242 +696,16 @@ static void emit_limit(const jg_perturb_model *m, double z, double k, double fb,
   l->gh_inverse_kf2 = safe_ratio(y[j + 0] / m->k_ref2, l->k0.delta_m);
 }
 
-/* ------------------------------------------------------------------------ */
-/* The Rosenbrock path: systems as types, wavenumbers in batches.            */
-
-/* A perturbation system as the integrator sees it: its matrix A(x; k^2)
- * from the medium coefficients, a bound on its fastest rate, its start and
- * its read-out. One const table per system; the integrator knows none of
- * them (a new system is a new table). */
-typedef struct pt_system_type {
-  const char *stage; /* for messages */
-  int (*dimension)(const jg_perturb_model *m);
-  /* A (dim x dim, row-major, every entry written); A is affine in the
-   * coefficients, which the slope dA/dx relies on (see ros_matrices). */
-  void (*matrix)(const jg_perturb_model *m, const jg_medium_coefficients *c, double k2,
-                 double *A);
-  void (*start)(const jg_perturb_model *m, double k, double *y, jg_error *err, jg_status *st);
-  emit_fn read_out;
-  /* Error-scale groups of the components (see rosenbrock.h), indexed by
-   * component; room for the largest system. */
-  int group[PT_ROS_MAX_DIM];
-} pt_system_type;
-
-static int dim_mode(const jg_perturb_model *m) { return m->dim_mode; }
-static int dim_limit(const jg_perturb_model *m) { return m->dim_limit; }
-
-static void matrix_mode(const jg_perturb_model *m, const jg_medium_coefficients *c, double k2,
-                        double *A) {
-  memset(A, 0, sizeof(double) * (size_t)m->dim_mode * m->dim_mode);
-  jac_mode(m, c, k2, A, m->dim_mode, 0);
-}
-
-static void matrix_limit(const jg_perturb_model *m, const jg_medium_coefficients *c, double k2,
-                         double *A) {
-  (void)k2;
-  jac_limit(m, c, A);
-}
-
-static void start_mode(const jg_perturb_model *m, double k, double *y, jg_error *err,
-                       jg_status *st) {
-  jg_perturb_start start = m->start;
-  if (m->start_table && k > 0.0) *st = jg_perturb_start_table_at(m->start_table, k, &start, err);
-  initial_mode(m, &start, y);
-}
-
-static void start_limit(const jg_perturb_model *m, double k, double *y, jg_error *err,
-                        jg_status *st) {
-  (void)k, (void)err, (void)st;
-  memset(y, 0, sizeof(double) * (size_t)m->dim_limit);
-  initial_mode(m, &m->start, y);
-}
-
-/* Groups: CDM {delta_c, delta_c'}, gas {delta_b, delta_b', delta_T}; in the
- * limit system (fluctuating layout; the uniform models have no delta_T and
- * shift the rest down by one, see limit_groups) also the k^2 derivatives
- * of CDM and gas and the Gnedin-Hui pair. */
-static const pt_system_type system_mode = {"mode", dim_mode, matrix_mode, start_mode, emit_mode,
-                                           {0, 0, 1, 1, 1}};
-static const pt_system_type system_mode_uniform = {"mode", dim_mode, matrix_mode, start_mode,
-                                                   emit_mode, {0, 0, 1, 1}};
-static const pt_system_type system_limit = {"large-scale limit", dim_limit, matrix_limit,
-                                            start_limit, emit_limit,
-                                            {0, 0, 1, 1, 1, 2, 2, 3, 3, 4, 4}};
-static const pt_system_type system_limit_uniform = {"large-scale limit", dim_limit, matrix_limit,
-                                                    start_limit, emit_limit,
-                                                    {0, 0, 1, 1, 2, 2, 3, 3, 4, 4}};
-
-static const pt_system_type *mode_type(const jg_perturb_model *m) {
-  return m->fluctuating ? &system_mode : &system_mode_uniform;
-}
-static const pt_system_type *limit_type(const jg_perturb_model *m) {
-  return m->fluctuating ? &system_limit : &system_limit_uniform;
-}
-
-/* Fastest rate of the mode equations (per unit ln a): the drag on the gas
- * velocity, the Compton relaxation of delta_T, the sound frequency
- * sqrt(gamma p k^2) and gravity; an upper estimate of |eigenvalue| that
- * decides between dense output and a step cut to the output. The k^2
- * derivative and Gnedin-Hui blocks of the limit system add no new rate
- * (block triangular), so k2 = 0 serves it. */
-static double fastest_rate(const jg_perturb_model *m, const jg_medium_coefficients *c,
-                           double k2) {
-  double damping = fabs(2.0 + c->dlnH_dlna) + c->drag;
-  double sound = sqrt(c->pressure * k2 * (m->fluctuating ? 5.0 / 3.0 : m->gamma));
-  return fmax(fmax(damping, m->fluctuating ? c->relaxation : 0.0), sound + c->gravity);
-}
-
-/* Step cap in ln a: at most 0.05, so that the tabulated coefficients' sharpest
- * feature (hydrogen recombination, Delta ln a ~ 0.1) cannot be stepped over
- * unseen by the error estimate. */
-#define PT_ROS_MAX_STEP 0.05
-#define PT_ROS_FIRST_STEP 1.0e-4
-/* Step for the central difference of a custom medium's coefficients. */
-#define PT_SLOPE_STEP 1.0e-5
-
-/* One batch on its way through the integrator. */
-typedef struct ros_run {
-  const jg_perturb_model *m;
-  const pt_system_type *type;
-  int dim, n_modes;
-  double k[PT_ROS_MAX_MODES], k2[PT_ROS_MAX_MODES];
-  const double *z;     /* requested redshifts, in the caller's order */
-  const int *order;    /* the n-th output is z[order[n]] */
-  void *out[PT_ROS_MAX_MODES]; /* each mode's results, indexed like z */
-  int undefined_output; /* the medium could not be read at an output */
-} ros_run;
-
-/* Coefficients at x and, if dc, their slope: exact for the tabulated
- * history, a central difference for a custom medium. */
-static int coefficients_and_slope(const jg_perturb_model *m, double x, jg_medium_coefficients *c,
-                                  jg_medium_coefficients *dc) {
-  const jg_medium *md = &m->medium;
-  if (md->eval(md->ctx, x, c) != 0) return 1;
-  if (!dc) return 0;
-  if (m->owned) {
-    thermal_medium_slope(m->owned, x, c, dc);
-    return 0;
-  }
-  jg_medium_coefficients cp, cm;
-  if (md->eval(md->ctx, x + PT_SLOPE_STEP, &cp) != 0 || md->eval(md->ctx, x - PT_SLOPE_STEP, &cm))
-    return 1;
-  const double s = 0.5 / PT_SLOPE_STEP;
-  dc->dlnH_dlna = (cp.dlnH_dlna - cm.dlnH_dlna) * s;
-  dc->gravity = (cp.gravity - cm.gravity) * s;
-  dc->pressure = (cp.pressure - cm.pressure) * s;
-  dc->drag = (cp.drag - cm.drag) * s;
-  dc->relaxation = (cp.relaxation - cm.relaxation) * s;
-  dc->baryon_fraction = c->baryon_fraction;
-  return 0;
-}
-
-static int ros_matrices(void *ctx, double x, double *A, double *dA, double *rate) {
-  ros_run *r = ctx;
-  const jg_perturb_model *m = r->m;
-  jg_medium_coefficients c, dc;
-  if (coefficients_and_slope(m, x, &c, dA ? &dc : NULL) != 0) return 1;
-  const int nn = r->dim * r->dim;
-  double fastest = 0.0;
-  for (int b = 0; b < r->n_modes; b++) {
-    r->type->matrix(m, &c, r->k2[b], A + (size_t)b * nn);
-    fastest = fmax(fastest, fastest_rate(m, &c, r->k2[b]));
-  }
-  *rate = fastest;
-  if (dA) {
-    /* A is affine in the coefficients: dA/dx = A(c') - A(0). */
-    jg_medium_coefficients zero = {0};
-    zero.baryon_fraction = c.baryon_fraction;
-    double A_zero[PT_ROS_MAX_DIM * PT_ROS_MAX_DIM];
-    for (int b = 0; b < r->n_modes; b++) {
-      double *d = dA + (size_t)b * nn;
-      r->type->matrix(m, &dc, r->k2[b], d);
-      r->type->matrix(m, &zero, r->k2[b], A_zero);
-      for (int i = 0; i < nn; i++) d[i] -= A_zero[i];
-    }
-  }
-  return 0;
-}
-
-static void ros_emit(void *ctx, int n, const double *y) {
-  ros_run *r = ctx;
-  const int i = r->order[n];
-  jg_medium_coefficients c;
-  if (r->m->medium.eval(r->m->medium.ctx, -log1p(r->z[i]), &c) != 0) {
-    r->undefined_output = 1;
-    return;
-  }
-  for (int b = 0; b < r->n_modes; b++)
-    r->type->read_out(r->m, r->z[i], r->k[b], c.baryon_fraction, y + b * r->dim, r->out[b], i);
-}
-
-static const char *ros_failure(int code) {
-  switch (code) {
-    case PT_ROS_UNDEFINED: return "medium undefined";
-    case PT_ROS_TOO_MANY: return "too many steps";
-    case PT_ROS_TOO_SMALL: return "step size underflow (non-finite state)";
-    case PT_ROS_SINGULAR: return "singular step matrix";
-    default: return "bad integrator input";
-  }
-}
-
-/* Solve a batch of wavenumbers k[0..n) of one system in lockstep; the
- * redshifts are already checked and ordered in w->order. */
-static jg_status ros_solve(const jg_perturb_model *m, jg_perturb_workspace *w,
-                           const pt_system_type *type, const double *k, int n, const double *z,
-                           int n_z, void *const *out, jg_error *err) {
-  ros_run r;
-  memset(&r, 0, sizeof r);
-  r.m = m;
-  r.type = type;
-  r.dim = type->dimension(m);
-  r.n_modes = n;
-  r.z = z;
-  r.order = w->order;
-  double y[PT_ROS_MAX_MODES * PT_ROS_MAX_DIM];
-  for (int b = 0; b < n; b++) {
-    jg_status st = JG_OK;
-    r.k[b] = k[b];
-    r.k2[b] = k[b] * k[b];
-    r.out[b] = out[b];
-    type->start(m, k[b], y + b * r.dim, err, &st);
-    if (st != JG_OK) return st;
-  }
-  for (int i = 0; i < n_z; i++) w->x_out[i] = -log1p(z[w->order[i]]);
-  const pt_ros_problem p = {r.dim, n, ros_matrices, ros_emit, &r, type->group, m->settings.rel_tol,
-                            m->settings.abs_tol, PT_ROS_FIRST_STEP, PT_ROS_MAX_STEP,
-                            PT_MAX_STEPS};
-  const pt_ros_stats before = w->ros->stats;
-  double x_fail;
-  int code = jg__ros_integrate(&p, w->ros, m->x_init, y, w->x_out, n_z, &x_fail);
-  /* Work counters as for the GSL path: six stage right-hand sides per
-   * attempted step and one Jacobian per matrix evaluation, per mode. */
-  const pt_ros_stats *after = &w->ros->stats;
-  w->work.rhs_evals += 6L * n * (after->steps + after->rejected - before.steps - before.rejected);
-  w->work.jacobian_evals += (long)n * (after->matrix_evals - before.matrix_evals);
-  if (code == PT_ROS_OK && r.undefined_output) code = PT_ROS_UNDEFINED;
-  if (code != PT_ROS_OK) {
-    if (n == 1)
-      return JG_FAIL(err, JG_ENUMERIC,
-                     "perturbations (%s, k = %g /Mpc): integration failed between z = %.6g and "
-                     "z = %.6g (reached z = %.6g: %s)",
-                     type->stage, k[0], m->settings.z_initial, z[w->order[n_z - 1]],
-                     exp(-x_fail) - 1.0, ros_failure(code));
-    return JG_FAIL(err, JG_ENUMERIC, "perturbations (%s, batch of %d from k = %g /Mpc): %s at z = %.6g",
-                   type->stage, n, k[0], ros_failure(code), exp(-x_fail) - 1.0);
-  }
-  return JG_OK;
-}
-
 jg_status jg_perturb_solve(const jg_perturb_model *m, jg_perturb_workspace *w, double k,
                            const double *z, int n_z, jg_perturb_point *out, jg_error *err) {
   if (!m || !w || !out || w->m != m)
     return JG_FAIL(err, JG_EINVAL, "jg_perturb_solve: model, its own workspace and output needed");
   jg_status st = jg_perturb_check_wavenumber(m, k, err);
-  if (st == JG_OK) st = order_redshifts(m, w, z, n_z, err);
+  if (st == JG_OK) st = jg__pt_order_redshifts(m, w, z, n_z, err);
   if (st != JG_OK) return st;
   if (m->settings.stepper == JG_PERTURB_STEPPER_ROSENBROCK) {
     void *outs[1] = {out};
-    return ros_solve(m, w, mode_type(m), &k, 1, z, n_z, outs, err);
+    return jg__pt_ros_solve_modes(m, w, &k, 1, z, n_z, outs, err);
   }
   w->prm_mode.k2 = k * k;
   jg_perturb_start start = m->start;
@@ -1140,35 +714,8 @@ jg_status jg_perturb_solve(const jg_perturb_model *m, jg_perturb_workspace *w, d
     if (st != JG_OK) return st;
   }
   double y[5];
-  initial_mode(m, &start, y);
-  return drive(m, w->drv_mode, k, "mode", y, m->dim_mode, z, n_z, w->order, emit_mode, out, err);
-}
-
-jg_status jg_perturb_solve_many(const jg_perturb_model *m, jg_perturb_workspace *w,
-                                const double *k, int n_k, const double *z, int n_z,
-                                jg_perturb_point *out, jg_error *err) {
-  if (!m || !w || !out || !k || w->m != m || n_k < 0)
-    return JG_FAIL(err, JG_EINVAL,
-                   "jg_perturb_solve_many: model, its own workspace, wavenumbers and output needed");
-  const int lockstep = m->settings.stepper == JG_PERTURB_STEPPER_ROSENBROCK;
-  for (int first = 0; first < n_k; first += JG_PERTURB_BATCH) {
-    const int n = n_k - first < JG_PERTURB_BATCH ? n_k - first : JG_PERTURB_BATCH;
-    jg_perturb_point *batch_out = out + (size_t)first * (size_t)n_z;
-    if (lockstep && n > 1) {
-      jg_status st = order_redshifts(m, w, z, n_z, err);
-      for (int b = 0; st == JG_OK && b < n; b++) st = jg_perturb_check_wavenumber(m, k[first + b], err);
-      if (st != JG_OK) return st;
-      void *outs[JG_PERTURB_BATCH];
-      for (int b = 0; b < n; b++) outs[b] = batch_out + (size_t)b * (size_t)n_z;
-      if (ros_solve(m, w, mode_type(m), k + first, n, z, n_z, outs, err) == JG_OK) continue;
-    }
-    /* One at a time: the GSL steppers, a lone k, or a batch that failed. */
-    for (int b = 0; b < n; b++) {
-      jg_status st = jg_perturb_solve(m, w, k[first + b], z, n_z, batch_out + (size_t)b * n_z, err);
-      if (st != JG_OK) return st;
-    }
-  }
-  return JG_OK;
+  jg__pt_initial_mode(m, &start, y);
+  return drive(m, w->drv_mode, k, "mode", y, m->dim_mode, z, n_z, w->order, jg__pt_emit_mode, out, err);
 }
 
 jg_status jg_perturb_solve_limit(const jg_perturb_model *m, jg_perturb_workspace *w,
@@ -1176,17 +723,15 @@ jg_status jg_perturb_solve_limit(const jg_perturb_model *m, jg_perturb_workspace
   if (!m || !w || !out || w->m != m)
     return JG_FAIL(err, JG_EINVAL,
                    "jg_perturb_solve_limit: model, its own workspace and output needed");
-  jg_status st = order_redshifts(m, w, z, n_z, err);
+  jg_status st = jg__pt_order_redshifts(m, w, z, n_z, err);
   if (st != JG_OK) return st;
   if (m->settings.stepper == JG_PERTURB_STEPPER_ROSENBROCK) {
-    const double k0 = 0.0;
-    void *outs[1] = {out};
-    return ros_solve(m, w, limit_type(m), &k0, 1, z, n_z, outs, err);
+    return jg__pt_ros_solve_limit(m, w, z, n_z, out, err);
   }
   double y[16] = {0};
-  initial_mode(m, &m->start, y);
+  jg__pt_initial_mode(m, &m->start, y);
   return drive(m, w->drv_limit, 0.0, "large-scale limit", y, m->dim_limit, z, n_z, w->order,
-               emit_limit, out, err);
+               jg__pt_emit_limit, out, err);
 }
 
 jg_status jg_perturb_wavenumbers(const jg_perturb_settings *s, double *k, int *n_k,
@@ -1254,11 +799,11 @@ jg_status jg_perturb_jacobian(const jg_perturb_model *m, jg_perturb_system which
   jg_status st = diag_coefficients(m, ln_a, &c, err);
   if (st != JG_OK) return st;
   if (which == JG_PERTURB_SYSTEM_LIMIT) {
-    jac_limit(m, &c, dfdy);
+    jg__pt_jac_limit(m, &c, dfdy);
   } else {
     const int n = m->dim_mode;
     memset(dfdy, 0, sizeof(double) * (size_t)n * n);
-    jac_mode(m, &c, k * k, dfdy, n, 0);
+    jg__pt_jac_mode(m, &c, k * k, dfdy, n, 0);
   }
   return JG_OK;
 }
