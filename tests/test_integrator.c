@@ -130,6 +130,33 @@ static void solve_ok(const jg_perturb_model *m, jg_perturb_workspace *w, double 
   cr_assert_eq(jg_perturb_solve(m, w, k, z, n, out, &err), JG_OK, "k = %g: %s", k, err.message);
 }
 
+/* The solver under test (Rosenbrock at the given settings' tolerances) and
+ * the cross-check (GSL msbdf at rel_tol 1e-12, abs_tol 1e-14) on r's
+ * history; free both with pair_free. */
+typedef struct solver_pair {
+  jg_perturb_model *mf, *mt;
+  jg_perturb_workspace *wf, *wt;
+} solver_pair;
+
+static solver_pair pair_open(const real_case *r, const jg_perturb_settings *s) {
+  jg_perturb_settings fast = *s, tight = *s;
+  fast.stepper = JG_PERTURB_STEPPER_ROSENBROCK;
+  tight.stepper = JG_PERTURB_STEPPER_MSBDF;
+  tight.rel_tol = 1e-12;
+  tight.abs_tol = 1e-14;
+  solver_pair p;
+  real_case_model(r, &fast, NULL, &p.mf, &p.wf);
+  real_case_model(r, &tight, NULL, &p.mt, &p.wt);
+  return p;
+}
+
+static void pair_free(solver_pair *p) {
+  jg_perturb_workspace_free(p->wt);
+  jg_perturb_model_free(p->mt);
+  jg_perturb_workspace_free(p->wf);
+  jg_perturb_model_free(p->mf);
+}
+
 /* The Rosenbrock integrator at the default tolerances against GSL msbdf at
  * rel_tol 1e-12 (abs_tol 1e-14), the cross-check path: delta_b/delta_c and
  * delta_c to 1e-6 for the three sound-speed models, at the reference
@@ -150,20 +177,13 @@ Test(integrator, agrees_with_gsl_msbdf) {
     real_case r;
     real_case_open(&r, &d);
     for (int s = 0; s < 3; s++) {
-      jg_perturb_settings fast = d.perturbations, tight = d.perturbations;
-      fast.sound_speed = tight.sound_speed = models[s];
-      fast.stepper = JG_PERTURB_STEPPER_ROSENBROCK;
-      tight.stepper = JG_PERTURB_STEPPER_MSBDF;
-      tight.rel_tol = 1e-12;
-      tight.abs_tol = 1e-14;
-      jg_perturb_model *mf, *mt;
-      jg_perturb_workspace *wf, *wt;
-      real_case_model(&r, &fast, NULL, &mf, &wf);
-      real_case_model(&r, &tight, NULL, &mt, &wt);
+      jg_perturb_settings set = d.perturbations;
+      set.sound_speed = models[s];
+      solver_pair sp = pair_open(&r, &set);
       for (int q = 0; q < 2; q++) {
         jg_perturb_point a[4], b[4];
-        solve_ok(mf, wf, ks[q], z, 4, a);
-        solve_ok(mt, wt, ks[q], z, 4, b);
+        solve_ok(sp.mf, sp.wf, ks[q], z, 4, a);
+        solve_ok(sp.mt, sp.wt, ks[q], z, 4, b);
         for (int i = 0; i < 4; i++) {
           ASSERT_REL(a[i].b_over_c, b[i].b_over_c, 1e-6, "omega_b %g model %d k = %g z = %g",
                      omega_b[c], s, ks[q], z[i]);
@@ -171,10 +191,7 @@ Test(integrator, agrees_with_gsl_msbdf) {
                      omega_b[c], s, ks[q], z[i]);
         }
       }
-      jg_perturb_workspace_free(wt);
-      jg_perturb_model_free(mt);
-      jg_perturb_workspace_free(wf);
-      jg_perturb_model_free(mf);
+      pair_free(&sp);
     }
     real_case_close(&r);
   }
@@ -185,31 +202,28 @@ Test(integrator, agrees_with_gsl_msbdf) {
 Test(integrator, limit_agrees_with_gsl_msbdf) {
   real_case r;
   real_case_open(&r, NULL);
-  jg_perturb_settings fast = r.p.perturbations, tight = r.p.perturbations;
-  fast.stepper = JG_PERTURB_STEPPER_ROSENBROCK;
-  tight.stepper = JG_PERTURB_STEPPER_MSBDF;
-  tight.rel_tol = 1e-12;
-  tight.abs_tol = 1e-14;
-  jg_perturb_model *mf, *mt;
-  jg_perturb_workspace *wf, *wt;
-  real_case_model(&r, &fast, NULL, &mf, &wf);
-  real_case_model(&r, &tight, NULL, &mt, &wt);
+  solver_pair sp = pair_open(&r, &r.p.perturbations);
   const double z[] = {1000.0, 300.0, 100.0, 10.0};
   jg_perturb_limit a[4], b[4];
   jg_error err;
   jg_error_clear(&err);
-  cr_assert_eq(jg_perturb_solve_limit(mf, wf, z, 4, a, &err), JG_OK, "%s", err.message);
-  cr_assert_eq(jg_perturb_solve_limit(mt, wt, z, 4, b, &err), JG_OK, "%s", err.message);
+  cr_assert_eq(jg_perturb_solve_limit(sp.mf, sp.wf, z, 4, a, &err), JG_OK, "%s", err.message);
+  cr_assert_eq(jg_perturb_solve_limit(sp.mt, sp.wt, z, 4, b, &err), JG_OK, "%s", err.message);
   for (int i = 0; i < 4; i++) {
     ASSERT_REL(a[i].gh_inverse_kf2, b[i].gh_inverse_kf2, 1e-6, "z = %g", z[i]);
     ASSERT_REL(a[i].dlnb_dk2, b[i].dlnb_dk2, 5e-6, "z = %g", z[i]);
     ASSERT_REL(a[i].k0.b_over_c, b[i].k0.b_over_c, 1e-6, "z = %g", z[i]);
   }
-  jg_perturb_workspace_free(wt);
-  jg_perturb_model_free(mt);
-  jg_perturb_workspace_free(wf);
-  jg_perturb_model_free(mf);
+  pair_free(&sp);
   real_case_close(&r);
+}
+
+/* The reference cosmology with the Rosenbrock stepper. */
+static void open_rosenbrock(real_case *r) {
+  jg_params d;
+  jg_params_set_defaults(&d);
+  d.perturbations.stepper = JG_PERTURB_STEPPER_ROSENBROCK;
+  real_case_open(r, &d);
 }
 
 /* Lockstep batches: the same results as one k at a time (to the
@@ -219,10 +233,7 @@ Test(integrator, limit_agrees_with_gsl_msbdf) {
  * cut from the list). */
 Test(integrator, batches_agree_and_depend_on_the_list_alone) {
   real_case r;
-  jg_params d;
-  jg_params_set_defaults(&d);
-  d.perturbations.stepper = JG_PERTURB_STEPPER_ROSENBROCK;
-  real_case_open(&r, &d);
+  open_rosenbrock(&r);
   enum { N = 11, NZ = 3 };
   double k[N];
   for (int i = 0; i < N; i++) k[i] = pow(10.0, 5.0 * i / (N - 1));
@@ -253,10 +264,7 @@ Test(integrator, batches_agree_and_depend_on_the_list_alone) {
  * reported by its k, as a single solve would. */
 Test(integrator, batch_with_a_bad_k_names_it) {
   real_case r;
-  jg_params d;
-  jg_params_set_defaults(&d);
-  d.perturbations.stepper = JG_PERTURB_STEPPER_ROSENBROCK;
-  real_case_open(&r, &d);
+  open_rosenbrock(&r);
   const double k[3] = {10.0, 2e5, 100.0}, z = 10.0;
   jg_perturb_point out[3];
   jg_error err;
