@@ -21,6 +21,13 @@
  * least disturbed by other processes), per mode; evaluations are
  * right-hand sides plus Jacobians per mode, as SciPy's nfev + njev.
  *
+ * Then the library's own Rosenbrock integrator (perturbations.stepper =
+ * "rosenbrock") over the same ladder against the same reference, one k at
+ * a time and in lockstep batches of 8 (jg_perturb_solve_many), with its
+ * matched-accuracy ratios against the GSL default. Instruction counts, which
+ * other work on the machine does not disturb, come from running this under
+ * valgrind --tool=callgrind.
+ *
  * Usage: bench_perturb [DIR]
  *   Writes DIR/perturb_coefficients.txt (the medium coefficients on a grid
  *   of 500 nodes per e-fold: what the SciPy comparison interpolates),
