@@ -358,11 +358,13 @@ Test(perturb, accurate_at_default_tolerances) {
   s.rel_tol = 1e-12;
   s.abs_tol = 1e-14;
   real_open(&t, &s);
-  /* Both steppers: msbdf then rk8pd (the default), and msbdf throughout. */
-  const jg_perturb_stepper steppers[] = {JG_PERTURB_STEPPER_MSBDF_RK8PD, JG_PERTURB_STEPPER_MSBDF};
+  /* Every stepper: GSL msbdf then rk8pd (the default), msbdf throughout,
+   * and the Rosenbrock integrator (RODAS). */
+  const jg_perturb_stepper steppers[] = {JG_PERTURB_STEPPER_MSBDF_RK8PD, JG_PERTURB_STEPPER_MSBDF,
+                                         JG_PERTURB_STEPPER_ROSENBROCK};
   const double z[] = {1000.0, 999.9999999, 300.0, 100.0, 10.0};
   const double ks[] = {1.0, 300.0, 5000.0, 1e5};
-  for (int c = 0; c < 2; c++) {
+  for (int c = 0; c < 3; c++) {
     real_case r;
     s = d.perturbations;
     s.stepper = steppers[c];

@@ -309,3 +309,43 @@ Test(scales, report_row_in_h_units_is_the_default_row_converted) {
   cr_expect_null(jg_report_scales_column_name(JG_UNITS_MPC_H, n));
   real_close(&r);
 }
+
+/* ---- the shared-ladder search ------------------------------------------------- */
+
+/* The half-suppression wavenumbers of jg_scales_compute (one ladder for
+ * every redshift, cubic interpolation in ln k, three refinements) equal the
+ * one-redshift search with Brent's method (root tolerance 1e-7 in ln k) to
+ * 1e-6, inside the accepted k range, with the GSL default and with the
+ * Rosenbrock stepper (whose ladder is solved in lockstep batches). */
+Test(scales, shared_ladder_matches_brent) {
+  const double z[] = {1100.0, 1000.0, 500.0, 200.0, 100.0, 50.0, 20.0, 10.0};
+  const jg_perturb_stepper steppers[] = {JG_PERTURB_STEPPER_MSBDF_RK8PD,
+                                         JG_PERTURB_STEPPER_ROSENBROCK};
+  for (int c = 0; c < 2; c++) {
+    jg_params d;
+    jg_params_set_defaults(&d);
+    d.perturbations.stepper = steppers[c];
+    real_case r;
+    real_case_open(&r, &d);
+    double k_lo, k_hi;
+    jg_perturb_model_k_range(r.m, &k_lo, &k_hi);
+    jg_scales_point sc[8];
+    jg_error err;
+    jg_error_clear(&err);
+    cr_assert_eq(jg_scales_compute(r.m, r.w, z, 8, sc, &err), JG_OK, "%s", err.message);
+    for (int i = 0; i < 8; i++) {
+      double k_brent;
+      int found;
+      cr_assert_eq(jg_scales_half_suppression(r.m, r.w, z[i], sc[i].b_over_c_large,
+                                              0.25 * sc[i].k_filter_solved_cdm, &k_brent, &found,
+                                              &err),
+                   JG_OK, "%s", err.message);
+      cr_assert_eq(sc[i].half_found, found, "stepper %d z = %g", c, z[i]);
+      if (!found) continue;
+      cr_assert(sc[i].k_half >= k_lo && sc[i].k_half <= k_hi, "z = %g: k_half = %g", z[i],
+                sc[i].k_half);
+      ASSERT_REL(sc[i].k_half, k_brent, 1e-6, "stepper %d z = %g", c, z[i]);
+    }
+    real_case_close(&r);
+  }
+}

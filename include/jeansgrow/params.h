@@ -67,7 +67,11 @@ typedef enum {
    * make the system stiff, then GSL rk8pd (explicit, 8th order). */
   JG_PERTURB_STEPPER_MSBDF_RK8PD = 0,
   /* GSL msbdf from z_initial to the end. */
-  JG_PERTURB_STEPPER_MSBDF = 1
+  JG_PERTURB_STEPPER_MSBDF = 1,
+  /* The library's own linearly implicit integrator (the 4th-order L-stable
+   * Rosenbrock method RODAS, src/perturbations/rosenbrock.c); solves
+   * batches of wavenumbers in lockstep. */
+  JG_PERTURB_STEPPER_ROSENBROCK = 2
 } jg_perturb_stepper;
 
 /* The linear perturbations (group `perturbations`). */

@@ -217,6 +217,20 @@ typedef struct jg_perturb_limit {
 jg_status jg_perturb_solve(const jg_perturb_model *m, jg_perturb_workspace *w, double k,
                            const double *z, int n_z, jg_perturb_point *out, jg_error *err);
 
+/* Solve the wavenumbers k[0..n_k) (each as jg_perturb_solve would) at
+ * every redshift of z[0..n_z); out[ik * n_z + iz]. With the rosenbrock
+ * stepper, runs of JG_PERTURB_BATCH consecutive entries of k are solved in
+ * lockstep on one step sequence (coefficients read once per step for the
+ * whole batch; the step is the one the most demanding mode of the batch
+ * allows). Batches are cut from the list alone, so a given list always
+ * gives the same digits, whoever solves it; a batch that fails is solved
+ * again mode by mode, and only a failing mode is reported. The GSL steppers
+ * solve one k at a time. */
+#define JG_PERTURB_BATCH 8
+jg_status jg_perturb_solve_many(const jg_perturb_model *m, jg_perturb_workspace *w,
+                                const double *k, int n_k, const double *z, int n_z,
+                                jg_perturb_point *out, jg_error *err);
+
 /* The large-scale limit with its k^2 coefficients and the Gnedin-Hui
  * integral, at every redshift of z[0..n_z). */
 jg_status jg_perturb_solve_limit(const jg_perturb_model *m, jg_perturb_workspace *w,

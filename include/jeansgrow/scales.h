@@ -22,8 +22,10 @@
  *               full-wavelength radius), and the half-wavelength (pi/k_F)^3
  *               value, 8 times smaller, beside it.
  *   Half suppression: k_1/2 where delta_b/delta_c has fallen to half of its
- *               k -> 0 value (first crossing above k_F/4; Brent's method in
- *               ln k on fresh solves); M_1/2 = (4 pi/3) rho_m0 (pi/k_1/2)^3
+ *               k -> 0 value (first crossing above k_F/4; a ladder of k
+ *               shared by all redshifts and a cubic in ln k refined by
+ *               fresh solves, Brent's method in ln k as the fallback);
+ *               M_1/2 = (4 pi/3) rho_m0 (pi/k_1/2)^3
  *               (half-wavelength, like M_J).
  *   Growth:     D(z) of the Heath (1977) integral (matter + Lambda, D -> a
  *               early) for reference; only for w = -1 on the real history.
@@ -68,14 +70,16 @@ typedef struct jg_scales_point {
 } jg_scales_point;
 
 /* All scales at every redshift of z[0..n_z) (any order). Uses the workspace
- * for the large-scale solve and the fresh solves of the half-suppression
- * search (about 15 per redshift). Fails with JG_EINVAL (bad redshift) or
+ * for the large-scale solve and the solves of the half-suppression search
+ * (about 16 ladder wavenumbers for all redshifts together, then three
+ * refinement solves per redshift). Fails with JG_EINVAL (bad redshift) or
  * JG_ENUMERIC (naming the stage, k and z). */
 jg_status jg_scales_compute(const jg_perturb_model *m, jg_perturb_workspace *w, const double *z,
                             int n_z, jg_scales_point *out, jg_error *err);
 
 /* The half-suppression wavenumber at one redshift: the first k (searched
- * upwards from k_start) where (delta_b/delta_c)(k) = ratio_large / 2.
+ * upwards from k_start on its own ladder, then Brent's method) where
+ * (delta_b/delta_c)(k) = ratio_large / 2; jg_scales_compute's fallback.
  * *found = 0 (and *k_half = 0) when the ratio does not cross inside the
  * accepted k range. */
 jg_status jg_scales_half_suppression(const jg_perturb_model *m, jg_perturb_workspace *w, double z,

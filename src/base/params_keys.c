@@ -26,7 +26,7 @@
   {{key, "integer", "", def, allowed, meaning}, JG__KIND_INTEGER, P_OFF(field), 0, 0, 0, 0, lo, hi, 0, 0, NULL, 0}
 
 static const char *const sound_speed_words[] = {"fluctuating", "isothermal", "adiabatic", NULL};
-static const char *const stepper_words[] = {"msbdf+rk8pd", "msbdf", NULL};
+static const char *const stepper_words[] = {"msbdf+rk8pd", "msbdf", "rosenbrock", NULL};
 static const char *const units_words[] = {"Mpc", "Mpc/h", NULL};
 
 const jg__param_spec jg__param_specs[] = {
@@ -94,11 +94,11 @@ const jg__param_spec jg__param_specs[] = {
       "\"fluctuating\"", "fluctuating, isothermal or adiabatic",
       "gas pressure model: delta_T evolved (scale dependent), or uniform with gamma = 1 or 5/3"},
      JG__KIND_CHOICE, P_OFF(perturbations.sound_speed), 0, 0, 0, 0, 0, 2, 0, 0, sound_speed_words, 0},
-    {{"perturbations.stepper", "one of \"msbdf+rk8pd\", \"msbdf\"", "", "\"msbdf+rk8pd\"",
-      "msbdf+rk8pd or msbdf",
+    {{"perturbations.stepper", "one of \"msbdf+rk8pd\", \"msbdf\", \"rosenbrock\"", "",
+      "\"msbdf+rk8pd\"", "msbdf+rk8pd, msbdf or rosenbrock",
       "GSL steppers: implicit msbdf while the drag and Compton rates exceed 50 H, explicit "
-      "rk8pd after; or msbdf throughout"},
-     JG__KIND_CHOICE, P_OFF(perturbations.stepper), 0, 0, 0, 0, 0, 1, 0, 0, stepper_words, 0},
+      "rk8pd after; or msbdf throughout; or the built-in 4th-order L-stable Rosenbrock method"},
+     JG__KIND_CHOICE, P_OFF(perturbations.stepper), 0, 0, 0, 0, 0, 2, 0, 0, stepper_words, 0},
     {{"perturbations.initial_table", "quoted file name", "", "\"\"",
       "empty, or a readable table (see the README); at most 1023 bytes",
       "baryon start per wavenumber at z_initial, read from this file (relative names from the "

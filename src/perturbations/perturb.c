@@ -28,38 +28,32 @@
  * call. They are tabulated once per model on a uniform grid in ln a (500
  * nodes per e-fold) as natural cubic splines of ln p, ln d, ln r, e and g
  * (GSL cspline, stored as per-interval polynomials so that an evaluation is
- * one index computation, five Horner sums and three exponentials). The model is read-only afterwards; all mutable
- * state (GSL drivers, the current k) lives in the per-thread workspace.
+ * one index computation, five Horner sums and three exponentials;
+ * medium_table.c). The model is read-only afterwards; all mutable state
+ * (GSL drivers, the Rosenbrock arrays, the current k) lives in the
+ * per-thread workspace.
+ *
+ * perturbations.stepper = "rosenbrock" takes the other path,
+ * perturb_rosenbrock.c: the library's own integrator (rosenbrock.c), which
+ * also solves batches of wavenumbers in lockstep.
  */
 #include "jeansgrow/perturb.h"
 
 #include <gsl/gsl_errno.h>
-#include <gsl/gsl_odeiv2.h>
 #include <gsl/gsl_sf_hyperg.h>
-#include <gsl/gsl_spline.h>
 #include <math.h>
 #include <stdlib.h>
 #include <string.h>
 
 #include "jeansgrow/background.h"
 #include "jeansgrow/constants.h"
+#include "perturb_internal.h"
 #include "../base/alloc.h" /* last: test builds route allocations through it */
 
-/* Nodes per e-fold of the coefficient tables. The cubic-spline error,
- * ~ (5/384) h^4 max|f''''| with h = 2e-3, is below 1e-10 for the logarithms
- * of the coefficients, which vary on scales Delta ln a >~ 0.05 (hydrogen
- * recombination is the sharpest feature). */
-#define PT_NODES_PER_EFOLD 500
-/* Extra nodes beyond each end of the range, so that the finite difference
- * for dfdt and the first trial steps stay on the table. */
-#define PT_MARGIN_NODES 8
 /* First trial step in ln a; msbdf adapts it at once. */
 #define PT_HSTART 1.0e-6
 /* Step for the central difference of the coefficients in ln a (dfdt). */
 #define PT_DFDT_STEP 1.0e-6
-/* Steps allowed per output interval before reporting a failure (a stuck
- * integration should fail, not hang a scan). */
-#define PT_MAX_STEPS 2000000
 /* Stiff part: msbdf; on the real history it was 1.35 times faster than
  * bsimp and 6 times faster than rk4imp at the default tolerances
  * (bench_perturb). */
@@ -76,157 +70,9 @@
 /* The switch point is searched on a grid of this spacing in ln a. */
 #define PT_SWITCH_SEARCH_STEP (1.0 / PT_NODES_PER_EFOLD)
 
-/* State layouts. */
-enum { M_C = 0, M_CP = 1, M_B = 2, M_BP = 3, M_T = 4 };
-
-/* ------------------------------------------------------------------------ */
-/* The real-history medium: coefficient tables.                              */
-
-typedef struct thermal_medium {
-  const jg_background *bg;
-  double x0, dx, inv_dx; /* node i at x0 + i dx */
-  int n;                 /* nodes */
-  double *poly;          /* per interval: N_Q quantities x 4 polynomial coefficients */
-} thermal_medium;
-
-enum { Q_PRESSURE = 0, Q_DRAG = 1, Q_RELAX = 2, Q_EXPANSION = 3, Q_GRAVITY = 4, N_Q = 5 };
-
-static int thermal_medium_eval(const void *ctx, double ln_a, jg_medium_coefficients *out) {
-  const thermal_medium *tm = ctx;
-  double t = (ln_a - tm->x0) * tm->inv_dx;
-  if (!(t > -1.0e6 && t < 1.0e9)) return 1; /* NaN or absurdly far off */
-  int i = (int)t;
-  if (i < 0) i = 0;
-  if (i > tm->n - 2) i = tm->n - 2;
-  double u = ln_a - (tm->x0 + i * tm->dx);
-  const double *c = tm->poly + (size_t)i * 4 * N_Q;
-  double lp = c[0] + u * (c[1] + u * (c[2] + u * c[3]));
-  double ld = c[4] + u * (c[5] + u * (c[6] + u * c[7]));
-  double lr = c[8] + u * (c[9] + u * (c[10] + u * c[11]));
-  out->dlnH_dlna = c[12] + u * (c[13] + u * (c[14] + u * c[15]));
-  out->gravity = c[16] + u * (c[17] + u * (c[18] + u * c[19]));
-  out->baryon_fraction = tm->bg->baryon_fraction;
-  out->pressure = exp(lp);
-  out->drag = exp(ld);
-  out->relaxation = exp(lr);
-  return 0;
-}
-
-static void thermal_medium_free(thermal_medium *tm) {
-  if (!tm) return;
-  free(tm->poly);
-  free(tm);
-}
-
-/* The five coefficients, from the thermal history at one node. */
-static void thermal_coefficients(const jg_thermal *th, double x, double q[N_Q]) {
-  const jg_background *bg = jg_thermal_background(th);
-  double a = exp(x);
-  jg_thermal_state s;
-  jg_thermal_state_at(th, 1.0 / a - 1.0, &s);
-  double H = jg_background_hubble(bg, a);
-  double aH_mpc = a * H * JG_MPC; /* comoving: (k/a) c_T / H with k in 1/Mpc */
-  double cT2 = JG_K_BOLTZMANN * s.T_gas / (s.mu * JG_M_HYDROGEN_ATOM);
-  double n_e = s.x_e * jg_background_n_hydrogen(bg, a);
-  double R = bg->R_coefficient * a;
-  q[Q_PRESSURE] = cT2 / (aH_mpc * aH_mpc);
-  q[Q_DRAG] = n_e * JG_SIGMA_THOMSON * JG_C_LIGHT / (R * H);
-  q[Q_RELAX] = s.compton_rate * (s.T_rad / s.T_gas) / H;
-  q[Q_EXPANSION] = jg_background_dlnH_dlna(bg, a);
-  q[Q_GRAVITY] = 1.5 * jg_background_omega_m_of_a(bg, a);
-}
-
-static thermal_medium *thermal_medium_new(const jg_thermal *th, double x_first, jg_error *err) {
-  thermal_medium *tm = calloc(1, sizeof *tm);
-  if (!tm) {
-    JG_FAIL(err, JG_ENOMEM, "perturbations: out of memory for the coefficient tables");
-    return NULL;
-  }
-  tm->bg = jg_thermal_background(th);
-  tm->dx = 1.0 / PT_NODES_PER_EFOLD;
-  tm->inv_dx = PT_NODES_PER_EFOLD;
-  tm->x0 = x_first - PT_MARGIN_NODES * tm->dx;
-  tm->n = (int)ceil(-tm->x0 * PT_NODES_PER_EFOLD) + PT_MARGIN_NODES + 1;
-  const int n = tm->n;
-  double *x = malloc(sizeof(double) * (size_t)n * (1 + N_Q));
-  tm->poly = malloc(sizeof(double) * (size_t)(n - 1) * 4 * N_Q);
-  gsl_spline *sp = gsl_spline_alloc(gsl_interp_cspline, (size_t)n);
-  jg_status st = JG_OK;
-  if (!x || !tm->poly || !sp)
-    st = JG_FAIL(err, JG_ENOMEM, "perturbations: out of memory for the coefficient tables");
-  if (st == JG_OK) {
-    double *lq = x + n; /* lq[q * n + i] */
-    for (int i = 0; i < n; i++) {
-      x[i] = tm->x0 + i * tm->dx;
-      double q[N_Q];
-      thermal_coefficients(th, x[i], q);
-      for (int k = 0; k < N_Q; k++) {
-        /* The rates p, d, r (power laws in a over decades) by their
-         * logarithms; e (negative) and g (between 0 and 3/2) as they are. */
-        const int logarithmic = k < Q_EXPANSION;
-        if (!isfinite(q[k]) || (logarithmic && !(q[k] > 0.0))) {
-          st = JG_FAIL(err, JG_ENUMERIC,
-                       "perturbations: coefficient %d of the medium is %g at z = %g (thermal "
-                       "history out of range)",
-                       k, q[k], exp(-x[i]) - 1.0);
-          break;
-        }
-        lq[k * n + i] = logarithmic ? log(q[k]) : q[k];
-      }
-      if (st != JG_OK) break;
-    }
-    for (int k = 0; st == JG_OK && k < N_Q; k++) {
-      const double *yk = lq + k * n;
-      if (gsl_spline_init(sp, x, yk, (size_t)n) != GSL_SUCCESS) {
-        st = JG_FAIL(err, JG_ENUMERIC, "perturbations: cannot build the coefficient splines");
-        break;
-      }
-      /* Per-interval polynomial of GSL's natural cubic spline, from the
-       * second derivatives at the nodes: y_i + b u + (M_i/2) u^2 +
-       * (M_{i+1} - M_i)/(6h) u^3, b = (y_{i+1} - y_i)/h - h (2 M_i + M_{i+1})/6. */
-      double M_prev = gsl_spline_eval_deriv2(sp, x[0], NULL);
-      for (int i = 0; i < n - 1; i++) {
-        double h = x[i + 1] - x[i];
-        double M_next = (i + 1 == n - 1) ? 0.0 : gsl_spline_eval_deriv2(sp, x[i + 1], NULL);
-        double *c = tm->poly + (size_t)i * 4 * N_Q + 4 * k;
-        c[0] = yk[i];
-        c[1] = (yk[i + 1] - yk[i]) / h - h * (2.0 * M_prev + M_next) / 6.0;
-        c[2] = 0.5 * M_prev;
-        c[3] = (M_next - M_prev) / (6.0 * h);
-        M_prev = M_next;
-      }
-    }
-  }
-  gsl_spline_free(sp);
-  free(x);
-  if (st != JG_OK) {
-    thermal_medium_free(tm);
-    return NULL;
-  }
-  return tm;
-}
-
 /* ------------------------------------------------------------------------ */
 /* Model.                                                                     */
 
-struct jg_perturb_model {
-  jg_medium medium;
-  thermal_medium *owned;   /* the real-history tables, when built from a history */
-  const jg_thermal *th;    /* NULL for a custom medium */
-  jg_perturb_settings settings;
-  jg_perturb_start start;   /* uniform start, or the table's first row (the k -> 0 start) */
-  jg_perturb_start_table *start_table; /* owned; NULL: the uniform start for every k */
-  int start_given;          /* a start was passed to the constructor */
-  double x_init;           /* ln a at z_initial */
-  double growth_init;      /* D_+ at z_initial (see the header) */
-  double growth_rate_init; /* d ln D_+ / d ln a at z_initial */
-  double k_lo, k_hi;       /* accepted wavenumbers */
-  double k_ref2;           /* scale of the k^2-derivative and Gnedin-Hui components */
-  int fluctuating;         /* delta_T in the state */
-  double gamma;            /* uniform models: pressure on (gamma) delta_b */
-  int dim_mode, dim_limit;
-  double x_explicit;       /* ln a from which the explicit stepper takes over */
-};
 
 /* Growing mode of y (1 + y) D'' + (1 + 3y/2) D' - (3/2) f_c D = 0 (the
  * Meszaros equation with a smooth share f_b = 1 - f_c of the matter):
@@ -282,7 +128,7 @@ static jg_status check_settings(const jg_perturb_settings *s, jg_error *err) {
  * the msbdf-only stepper. */
 static double explicit_start(const jg_perturb_model *m) {
   const jg_medium *md = &m->medium;
-  if (m->settings.stepper == JG_PERTURB_STEPPER_MSBDF) return INFINITY;
+  if (m->settings.stepper != JG_PERTURB_STEPPER_MSBDF_RK8PD) return INFINITY;
   double start = m->x_init;
   const int n = (int)ceil((md->ln_a_max - m->x_init) / PT_SWITCH_SEARCH_STEP);
   for (int i = 0; i <= n; i++) {
@@ -450,13 +296,13 @@ jg_perturb_model *jg_perturb_model_new(const jg_thermal *th, const jg_perturb_se
   m->start_given = start != NULL;
   m->th = th;
   const double x_init = -log1p(s->z_initial);
-  m->owned = thermal_medium_new(th, x_init, err);
+  m->owned = jg__pt_thermal_medium_new(th, x_init, err);
   if (!m->owned) {
     free(m);
     return NULL;
   }
   jg_medium *md = &m->medium;
-  md->eval = thermal_medium_eval;
+  md->eval = jg__pt_thermal_medium_eval;
   md->ctx = m->owned;
   md->a_equality = bg->omega_r / bg->omega_m;
   md->ln_a_min = m->owned->x0;
@@ -475,7 +321,7 @@ jg_perturb_model *jg_perturb_model_new(const jg_thermal *th, const jg_perturb_se
 void jg_perturb_model_free(jg_perturb_model *m) {
   if (!m) return;
   jg_perturb_start_table_free(m->start_table);
-  thermal_medium_free(m->owned);
+  jg__pt_thermal_medium_free(m->owned);
   free(m);
 }
 
@@ -544,7 +390,7 @@ static void rhs_mode(const jg_perturb_model *m, const jg_medium_coefficients *c,
   if (m->fluctuating) f[M_T] = (2.0 / 3.0) * y[M_BP] - c->relaxation * y[M_T];
 }
 
-static void jac_mode(const jg_perturb_model *m, const jg_medium_coefficients *c, double k2,
+void jg__pt_jac_mode(const jg_perturb_model *m, const jg_medium_coefficients *c, double k2,
                      double *J, int ld, int off) {
   /* Block of the mode equations at rows/columns off .. off + dim_mode - 1. */
   const double fb = c->baryon_fraction, fc = 1.0 - fb;
@@ -589,10 +435,10 @@ static void rhs_limit(const jg_perturb_model *m, const jg_medium_coefficients *c
   f[j + 1] = -hd * y[j + 1] + pK2 * D;
 }
 
-static void jac_limit(const jg_perturb_model *m, const jg_medium_coefficients *c, double *J) {
+void jg__pt_jac_limit(const jg_perturb_model *m, const jg_medium_coefficients *c, double *J) {
   const int n = m->dim_limit, u = m->dim_mode, j = u + 4;
   memset(J, 0, sizeof(double) * (size_t)n * n);
-  jac_mode(m, c, 0.0, J, n, 0);
+  jg__pt_jac_mode(m, c, 0.0, J, n, 0);
   const double fb = c->baryon_fraction, fc = 1.0 - fb;
   const double hd = 2.0 + c->dlnH_dlna, pK2 = c->pressure * m->k_ref2;
 #define JA(r, s) J[(size_t)(r) * n + (s)]
@@ -616,16 +462,6 @@ static void jac_limit(const jg_perturb_model *m, const jg_medium_coefficients *c
 /* ------------------------------------------------------------------------ */
 /* GSL glue.                                                                  */
 
-typedef struct sys_params {
-  const jg_perturb_model *m;
-  double k2;
-  /* The coefficients at the last ln a evaluated: msbdf's Newton iterations
-   * evaluate the right-hand side several times at the same ln a. They do
-   * not depend on k, so the cache stays valid from one mode to the next. */
-  double x_cached;
-  jg_medium_coefficients c_cached;
-  jg_perturb_work *work; /* the workspace's counters */
-} sys_params;
 
 static int coefficients_at(sys_params *sp, double x, jg_medium_coefficients *c) {
   if (x != sp->x_cached) {
@@ -676,7 +512,7 @@ static int gsl_jac_mode(double x, const double y[], double *dfdy, double dfdt[],
   jg_medium_coefficients c;
   if (coefficients_at(sp, x, &c) != GSL_SUCCESS) return GSL_EBADFUNC;
   memset(dfdy, 0, sizeof(double) * (size_t)n * n);
-  jac_mode(sp->m, &c, sp->k2, dfdy, n, 0);
+  jg__pt_jac_mode(sp->m, &c, sp->k2, dfdy, n, 0);
   return dfdt_central(gsl_rhs_mode, x, y, dfdt, n, params);
 }
 
@@ -685,22 +521,13 @@ static int gsl_jac_limit(double x, const double y[], double *dfdy, double dfdt[]
   sp->work->jacobian_evals++;
   jg_medium_coefficients c;
   if (coefficients_at(sp, x, &c) != GSL_SUCCESS) return GSL_EBADFUNC;
-  jac_limit(sp->m, &c, dfdy);
+  jg__pt_jac_limit(sp->m, &c, dfdy);
   return dfdt_central(gsl_rhs_limit, x, y, dfdt, sp->m->dim_limit, params);
 }
 
 /* ------------------------------------------------------------------------ */
 /* Workspace and solves.                                                      */
 
-struct jg_perturb_workspace {
-  const jg_perturb_model *m;
-  sys_params prm_mode, prm_limit;
-  gsl_odeiv2_system sys_mode, sys_limit;
-  /* [0] msbdf while stiff, [1] the explicit stepper after */
-  gsl_odeiv2_driver *drv_mode[2], *drv_limit[2];
-  int order[JG_MAX_REDSHIFTS];
-  jg_perturb_work work;
-};
 
 jg_perturb_work jg_perturb_workspace_work(const jg_perturb_workspace *w) {
   jg_perturb_work none = {0, 0};
@@ -713,6 +540,7 @@ void jg_perturb_workspace_free(jg_perturb_workspace *w) {
     if (w->drv_mode[i]) gsl_odeiv2_driver_free(w->drv_mode[i]);
     if (w->drv_limit[i]) gsl_odeiv2_driver_free(w->drv_limit[i]);
   }
+  free(w->ros);
   free(w);
 }
 
@@ -733,6 +561,13 @@ jg_perturb_workspace *jg_perturb_workspace_new(const jg_perturb_model *m, jg_err
   w->sys_mode = (gsl_odeiv2_system){gsl_rhs_mode, gsl_jac_mode, (size_t)m->dim_mode, &w->prm_mode};
   w->sys_limit =
       (gsl_odeiv2_system){gsl_rhs_limit, gsl_jac_limit, (size_t)m->dim_limit, &w->prm_limit};
+  w->ros = malloc(sizeof *w->ros);
+  if (!w->ros) {
+    jg_perturb_workspace_free(w);
+    JG_FAIL(err, JG_ENOMEM, "perturbations: out of memory for a workspace");
+    return NULL;
+  }
+  memset(&w->ros->stats, 0, sizeof w->ros->stats);
   const double ea = m->settings.abs_tol, er = m->settings.rel_tol;
   const gsl_odeiv2_step_type *types[2] = {PT_STIFF_STEPPER, PT_EXPLICIT_STEPPER};
   for (int i = 0; i < 2; i++) {
@@ -751,7 +586,7 @@ jg_perturb_workspace *jg_perturb_workspace_new(const jg_perturb_model *m, jg_err
 
 /* Check the requested redshifts and order them from the highest (first
  * reached) down; stable insertion sort, n_z <= JG_MAX_REDSHIFTS. */
-static jg_status order_redshifts(const jg_perturb_model *m, jg_perturb_workspace *w,
+jg_status jg__pt_order_redshifts(const jg_perturb_model *m, jg_perturb_workspace *w,
                                  const double *z, int n_z, jg_error *err) {
   if (n_z < 1 || n_z > JG_MAX_REDSHIFTS || !z)
     return JG_FAIL(err, JG_EINVAL, "perturbations: between 1 and %d redshifts must be given (got %d)",
@@ -776,7 +611,7 @@ static jg_status order_redshifts(const jg_perturb_model *m, jg_perturb_workspace
   return JG_OK;
 }
 
-static void initial_mode(const jg_perturb_model *m, const jg_perturb_start *start, double *y) {
+void jg__pt_initial_mode(const jg_perturb_model *m, const jg_perturb_start *start, double *y) {
   y[M_C] = 1.0;
   y[M_CP] = m->growth_rate_init;
   y[M_B] = start->density_ratio;
@@ -800,10 +635,6 @@ static void fill_point(const jg_perturb_model *m, double z, double k, double fb,
   p->growth_b = safe_ratio(y[M_BP], y[M_B]);
   p->growth_m = safe_ratio(fc * y[M_CP] + fb * y[M_BP], p->delta_m);
 }
-
-/* Drive one system through the ordered redshifts; `emit` stores a result. */
-typedef void (*emit_fn)(const jg_perturb_model *m, double z, double k, double fb,
-                        const double *y, void *out, int index);
 
 /* Advance from *x to x_target: msbdf up to the start of the explicit part,
  * the explicit stepper after it. */
@@ -851,12 +682,12 @@ static jg_status drive(const jg_perturb_model *m, gsl_odeiv2_driver *const d[2],
   return JG_OK;
 }
 
-static void emit_mode(const jg_perturb_model *m, double z, double k, double fb, const double *y,
+void jg__pt_emit_mode(const jg_perturb_model *m, double z, double k, double fb, const double *y,
                       void *out, int index) {
   fill_point(m, z, k, fb, y, (jg_perturb_point *)out + index);
 }
 
-static void emit_limit(const jg_perturb_model *m, double z, double k, double fb, const double *y,
+void jg__pt_emit_limit(const jg_perturb_model *m, double z, double k, double fb, const double *y,
                        void *out, int index) {
   jg_perturb_limit *l = (jg_perturb_limit *)out + index;
   const int u = m->dim_mode, j = u + 4;
@@ -871,8 +702,12 @@ jg_status jg_perturb_solve(const jg_perturb_model *m, jg_perturb_workspace *w, d
   if (!m || !w || !out || w->m != m)
     return JG_FAIL(err, JG_EINVAL, "jg_perturb_solve: model, its own workspace and output needed");
   jg_status st = jg_perturb_check_wavenumber(m, k, err);
-  if (st == JG_OK) st = order_redshifts(m, w, z, n_z, err);
+  if (st == JG_OK) st = jg__pt_order_redshifts(m, w, z, n_z, err);
   if (st != JG_OK) return st;
+  if (m->settings.stepper == JG_PERTURB_STEPPER_ROSENBROCK) {
+    void *outs[1] = {out};
+    return jg__pt_ros_solve_modes(m, w, &k, 1, z, n_z, outs, err);
+  }
   w->prm_mode.k2 = k * k;
   jg_perturb_start start = m->start;
   if (m->start_table && k > 0.0) {
@@ -880,8 +715,8 @@ jg_status jg_perturb_solve(const jg_perturb_model *m, jg_perturb_workspace *w, d
     if (st != JG_OK) return st;
   }
   double y[5];
-  initial_mode(m, &start, y);
-  return drive(m, w->drv_mode, k, "mode", y, m->dim_mode, z, n_z, w->order, emit_mode, out, err);
+  jg__pt_initial_mode(m, &start, y);
+  return drive(m, w->drv_mode, k, "mode", y, m->dim_mode, z, n_z, w->order, jg__pt_emit_mode, out, err);
 }
 
 jg_status jg_perturb_solve_limit(const jg_perturb_model *m, jg_perturb_workspace *w,
@@ -889,12 +724,15 @@ jg_status jg_perturb_solve_limit(const jg_perturb_model *m, jg_perturb_workspace
   if (!m || !w || !out || w->m != m)
     return JG_FAIL(err, JG_EINVAL,
                    "jg_perturb_solve_limit: model, its own workspace and output needed");
-  jg_status st = order_redshifts(m, w, z, n_z, err);
+  jg_status st = jg__pt_order_redshifts(m, w, z, n_z, err);
   if (st != JG_OK) return st;
+  if (m->settings.stepper == JG_PERTURB_STEPPER_ROSENBROCK) {
+    return jg__pt_ros_solve_limit(m, w, z, n_z, out, err);
+  }
   double y[16] = {0};
-  initial_mode(m, &m->start, y);
+  jg__pt_initial_mode(m, &m->start, y);
   return drive(m, w->drv_limit, 0.0, "large-scale limit", y, m->dim_limit, z, n_z, w->order,
-               emit_limit, out, err);
+               jg__pt_emit_limit, out, err);
 }
 
 jg_status jg_perturb_wavenumbers(const jg_perturb_settings *s, double *k, int *n_k,
@@ -949,11 +787,11 @@ jg_status jg_perturb_jacobian(const jg_perturb_model *m, jg_perturb_system which
   jg_status st = diag_coefficients(m, ln_a, &c, err);
   if (st != JG_OK) return st;
   if (which == JG_PERTURB_SYSTEM_LIMIT) {
-    jac_limit(m, &c, dfdy);
+    jg__pt_jac_limit(m, &c, dfdy);
   } else {
     const int n = m->dim_mode;
     memset(dfdy, 0, sizeof(double) * (size_t)n * n);
-    jac_mode(m, &c, k * k, dfdy, n, 0);
+    jg__pt_jac_mode(m, &c, k * k, dfdy, n, 0);
   }
   return JG_OK;
 }

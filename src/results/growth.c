@@ -50,8 +50,7 @@ jg_status jg_growth_grid_compute(const jg_perturb_model *m, jg_perturb_workspace
   for (int iz = 0; st == JG_OK && th && iz < n_z; iz++)
     st = jg_background_growth_factor(jg_thermal_background(th), 1.0 / (1.0 + z[iz]),
                                      &g->D_ref[iz], &g->f_ref[iz], err);
-  for (int ik = 0; st == JG_OK && ik < n_k; ik++)
-    st = jg_perturb_solve(m, w, k[ik], z, n_z, &g->points[(size_t)ik * (size_t)n_z], err);
+  if (st == JG_OK) st = jg_perturb_solve_many(m, w, k, n_k, z, n_z, g->points, err);
   if (st != JG_OK) {
     jg_growth_grid_free(g);
     return st;

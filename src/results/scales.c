@@ -6,13 +6,16 @@
  * Hui (1998, MNRAS 296, 44), the integral being integrated alongside the
  * large-scale solve in perturb.c; filtering mass convention of Gnedin (2000,
  * ApJ 542, 535); growth factor of Heath (1977, MNRAS 179, 351) from
- * background.c. The half-suppression root uses GSL's Brent solver.
+ * background.c. The half-suppression root: a shared ladder of wavenumbers and
+ * cubic interpolation in ln k (half_suppression_all), GSL's Brent solver as
+ * the fallback.
  */
 #include "jeansgrow/scales.h"
 
 #include <gsl/gsl_errno.h>
 #include <gsl/gsl_roots.h>
 #include <math.h>
+#include <stdlib.h>
 #include <string.h>
 
 #include "jeansgrow/background.h"
@@ -43,19 +46,24 @@ typedef struct half_ctx {
   const jg_perturb_model *m;
   jg_perturb_workspace *w;
   double z, target;
+  double k_min, k_max; /* exp(ln k) is clamped to these exact values */
   jg_status status;
   jg_error *err;
 } half_ctx;
 
-/* (delta_b/delta_c)(k) - target at k = exp(ln_k). */
+/* (delta_b/delta_c)(k) - target at k = exp(ln_k), never outside
+ * [k_min, k_max] through rounding. */
 static double half_residual(double ln_k, void *params) {
   half_ctx *c = params;
   if (c->status != JG_OK) return GSL_NAN;
   jg_perturb_point p;
-  c->status = jg_perturb_solve(c->m, c->w, exp(ln_k), &c->z, 1, &p, c->err);
+  const double k = fmin(fmax(exp(ln_k), c->k_min), c->k_max);
+  c->status = jg_perturb_solve(c->m, c->w, k, &c->z, 1, &p, c->err);
   if (c->status != JG_OK) return GSL_NAN;
   return p.b_over_c - c->target;
 }
+
+static jg_status half_brent(half_ctx *cp, double ka, double kb, double *k_half, int *found);
 
 jg_status jg_scales_half_suppression(const jg_perturb_model *m, jg_perturb_workspace *w, double z,
                                      double ratio_large, double k_start, double *k_half,
@@ -68,7 +76,7 @@ jg_status jg_scales_half_suppression(const jg_perturb_model *m, jg_perturb_works
     return JG_FAIL(err, JG_EINVAL,
                    "half suppression at z = %g: the large-scale delta_b/delta_c is %g (must be > 0)",
                    z, ratio_large);
-  half_ctx c = {m, w, z, 0.5 * ratio_large, JG_OK, err};
+  half_ctx c = {m, w, z, 0.5 * ratio_large, k_lo, k_hi, JG_OK, err};
   double ka = fmin(fmax(k_start, k_lo), k_hi);
   double fa = half_residual(log(ka), &c);
   /* Step down until the ratio is above one half (rarely needed). */
@@ -92,6 +100,17 @@ jg_status jg_scales_half_suppression(const jg_perturb_model *m, jg_perturb_works
     *found = 1;
     return JG_OK;
   }
+  return half_brent(&c, ka, kb, k_half, found);
+}
+
+/* Brent's method on ln k between the bracket ends ka < kb (residual > 0 at
+ * ka, < 0 at kb). */
+static jg_status half_brent(half_ctx *cp, double ka, double kb, double *k_half, int *found) {
+  half_ctx c = *cp;
+  c.k_min = ka;
+  c.k_max = kb;
+  const double z = c.z;
+  jg_error *err = c.err;
   gsl_root_fsolver *s = gsl_root_fsolver_alloc(gsl_root_fsolver_brent);
   if (!s) return JG_FAIL(err, JG_ENOMEM, "half suppression: out of memory for the root solver");
   gsl_function F = {half_residual, &c};
@@ -103,7 +122,7 @@ jg_status jg_scales_half_suppression(const jg_perturb_model *m, jg_perturb_works
     if (st != GSL_SUCCESS) break;
     double lo = gsl_root_fsolver_x_lower(s), hi = gsl_root_fsolver_x_upper(s);
     if (gsl_root_test_interval(lo, hi, SC_ROOT_TOL, 0.0) == GSL_SUCCESS) {
-      *k_half = exp(gsl_root_fsolver_root(s));
+      *k_half = fmin(fmax(exp(gsl_root_fsolver_root(s)), ka), kb);
       *found = 1;
       break;
     }
@@ -145,6 +164,191 @@ static double k_from_inverse_square(double inv_k2) {
   return inv_k2 > 0.0 ? 1.0 / sqrt(inv_k2) : HUGE_VAL;
 }
 
+/* ---- the half-suppression search on a shared ladder ---------------------- */
+
+/* Rungs of the shared ladder at most (1.5^40 spans 7 decades). */
+#define SC_MAX_RUNGS 40
+/* Refinement solves after the first estimate; a last move in ln k above
+ * SC_CUBIC_SETTLED (within Brent's stopping interval, SC_ROOT_TOL times
+ * |ln k| > 1e-7 for k > e) sends the redshift to Brent's method instead. */
+#define SC_REFINEMENTS 3
+#define SC_CUBIC_SETTLED 1.0e-7
+#define SC_MAX_POINTS (SC_MAX_RUNGS + SC_REFINEMENTS)
+
+/* The interpolating polynomial through n <= 4 points (t_i, f_i) at t, by
+ * Neville's scheme. */
+static double through_points(const double *t, const double *f, int n, double x) {
+  double p[4];
+  for (int i = 0; i < n; i++) p[i] = f[i];
+  for (int level = 1; level < n; level++)
+    for (int i = 0; i < n - level; i++)
+      p[i] = ((x - t[i + level]) * p[i] + (t[i] - x) * p[i + 1]) / (t[i] - t[i + level]);
+  return p[0];
+}
+
+/* The root inside [ta, tb] (f(ta) > 0 >= f(tb)) of the cubic through the
+ * 4 known points nearest `centre` (fewer if fewer are known), by bisection
+ * on the polynomial; the polynomial is cheap, so 60 halvings cost nothing. */
+static double cubic_root(const double *t, const double *f, int n, double ta, double tb,
+                         double centre) {
+  double tt[4], ff[4];
+  char used[SC_MAX_POINTS] = {0};
+  int m = 0;
+  for (; m < 4 && m < n; m++) {
+    int best = -1;
+    for (int i = 0; i < n; i++)
+      if (!used[i] && (best < 0 || fabs(t[i] - centre) < fabs(t[best] - centre))) best = i;
+    used[best] = 1;
+    tt[m] = t[best];
+    ff[m] = f[best];
+  }
+  double lo = ta, hi = tb;
+  for (int it = 0; it < 60; it++) {
+    const double x = 0.5 * (lo + hi);
+    if (through_points(tt, ff, m, x) > 0.0) lo = x; else hi = x;
+  }
+  return 0.5 * (lo + hi);
+}
+
+typedef struct half_search {
+  int state;            /* 0 searching, 1 bracketed, 2 done, 3 to Brent */
+  int start_rung;       /* the rung at or below this redshift's start */
+  double ka, kb;        /* bracket, exact wavenumbers */
+  int n;                /* known points */
+  double t[SC_MAX_POINTS], f[SC_MAX_POINTS]; /* ln k and residual */
+} half_search;
+
+/* k_1/2 at every redshift at once. One ladder of wavenumbers, k_j = k_0
+ * 1.5^j from the smallest start over the redshifts, solved in batches with
+ * every redshift read off each solve; per redshift the first crossing at or
+ * above its own start, located by the cubic in ln k through the nearest
+ * rungs and refined three times by a fresh solve at the estimate (all
+ * redshifts' refinements in one batch) and a new cubic through the points
+ * nearest the newest one. Two rounds left the last move at 1e-6 to 7e-5 in
+ * ln k on the reference cosmology, three at most 8e-8.
+ * Brent's method only where this does not settle or the ladder cannot
+ * bracket (a crossing below the smallest start). Wavenumbers are carried as
+ * values and clamped to exact bounds, never rebuilt from their logarithms
+ * outside them. */
+static jg_status half_search_run(const jg_perturb_model *m, jg_perturb_workspace *w,
+                                 const double *z, int n_z, const double *target,
+                                 const double *k_start, double *k_half, int *found,
+                                 half_search *hs, jg_perturb_point *pts, jg_error *err);
+
+static jg_status half_suppression_all(const jg_perturb_model *m, jg_perturb_workspace *w,
+                                      const double *z, int n_z, const double *target,
+                                      const double *k_start, double *k_half, int *found,
+                                      jg_error *err) {
+  half_search *hs = malloc(sizeof *hs * (size_t)n_z);
+  jg_perturb_point *pts = malloc(sizeof *pts * JG_PERTURB_BATCH * (size_t)n_z);
+  jg_status st = JG_OK;
+  if (!hs || !pts) st = JG_FAIL(err, JG_ENOMEM, "half suppression: out of memory");
+  else st = half_search_run(m, w, z, n_z, target, k_start, k_half, found, hs, pts, err);
+  free(hs);
+  free(pts);
+  return st;
+}
+
+static jg_status half_search_run(const jg_perturb_model *m, jg_perturb_workspace *w,
+                                 const double *z, int n_z, const double *target,
+                                 const double *k_start, double *k_half, int *found,
+                                 half_search *hs, jg_perturb_point *pts, jg_error *err) {
+  double k_lo, k_hi;
+  jg_perturb_model_k_range(m, &k_lo, &k_hi);
+  double k0 = k_hi;
+  for (int i = 0; i < n_z; i++) k0 = fmin(k0, fmin(fmax(k_start[i], k_lo), k_hi));
+  double rung[SC_MAX_RUNGS];
+  int n_rungs = 0;
+  for (int j = 0; j < SC_MAX_RUNGS; j++) {
+    rung[n_rungs++] = j == 0 ? k0 : fmin(rung[j - 1] * SC_LADDER, k_hi);
+    if (rung[n_rungs - 1] >= k_hi) break;
+  }
+  for (int i = 0; i < n_z; i++) {
+    memset(&hs[i], 0, sizeof hs[i]);
+    found[i] = 0;
+    k_half[i] = 0.0;
+    const double start = fmin(fmax(k_start[i], k_lo), k_hi);
+    while (hs[i].start_rung + 1 < n_rungs && rung[hs[i].start_rung + 1] <= start) hs[i].start_rung++;
+  }
+  /* The ladder, a batch at a time, until every redshift is bracketed or the
+   * ladder ends. */
+  int solved = 0, open = n_z;
+  while (open > 0 && solved < n_rungs) {
+    const int n = n_rungs - solved < JG_PERTURB_BATCH ? n_rungs - solved : JG_PERTURB_BATCH;
+    jg_status st = jg_perturb_solve_many(m, w, rung + solved, n, z, n_z, pts, err);
+    if (st != JG_OK) return st;
+    for (int b = 0; b < n; b++) {
+      const int j = solved + b;
+      for (int i = 0; i < n_z; i++) {
+        half_search *h = &hs[i];
+        h->t[h->n] = log(rung[j]);
+        h->f[h->n] = pts[b * n_z + i].b_over_c - target[i];
+        h->n++;
+        if (h->state != 0 || j < h->start_rung) continue;
+        const double fj = h->f[h->n - 1];
+        if (j == h->start_rung) {
+          if (fj <= 0.0) h->state = 3, open--; /* suppressed at its start: Brent's path */
+          continue;
+        }
+        if (fj <= 0.0) {
+          h->ka = rung[j - 1];
+          h->kb = rung[j];
+          h->state = fj == 0.0 ? 2 : 1;
+          if (fj == 0.0) k_half[i] = rung[j], found[i] = 1;
+          open--;
+        }
+      }
+    }
+    solved += n;
+  }
+  /* The refinements, every open redshift in one batch per round; the
+   * rungs solved beyond a bracket join the cubic too. */
+  for (int round = 0; round <= SC_REFINEMENTS; round++) {
+    double ks[JG_MAX_REDSHIFTS];
+    int who[JG_MAX_REDSHIFTS], nk = 0;
+    for (int i = 0; i < n_z; i++) {
+      half_search *h = &hs[i];
+      if (h->state != 1) continue;
+      /* Around the bracket's middle first, then around the newest point. */
+      const double centre = round == 0 ? 0.5 * (log(h->ka) + log(h->kb)) : h->t[h->n - 1];
+      const double t = cubic_root(h->t, h->f, h->n, log(h->ka), log(h->kb), centre);
+      const double k = fmin(fmax(exp(t), h->ka), h->kb);
+      if (round == SC_REFINEMENTS) {
+        const double moved = fabs(t - h->t[h->n - 1]);
+        if (moved <= SC_CUBIC_SETTLED) k_half[i] = k, found[i] = 1, h->state = 2;
+        else h->state = 3;
+        continue;
+      }
+      ks[nk] = k;
+      who[nk++] = i;
+    }
+    for (int first = 0; first < nk; first += JG_PERTURB_BATCH) {
+      const int n = nk - first < JG_PERTURB_BATCH ? nk - first : JG_PERTURB_BATCH;
+      jg_status st = jg_perturb_solve_many(m, w, ks + first, n, z, n_z, pts, err);
+      if (st != JG_OK) return st;
+      for (int b = 0; b < n; b++) {
+        const int i = who[first + b];
+        half_search *h = &hs[i];
+        const double fk = pts[b * n_z + i].b_over_c - target[i];
+        h->t[h->n] = log(ks[first + b]);
+        h->f[h->n] = fk;
+        h->n++;
+        if (fk > 0.0) h->ka = ks[first + b];
+        else if (fk < 0.0) h->kb = ks[first + b];
+        else k_half[i] = ks[first + b], found[i] = 1, h->state = 2;
+      }
+    }
+  }
+  /* Fallbacks: the one-redshift search with Brent's method. */
+  for (int i = 0; i < n_z; i++) {
+    if (hs[i].state != 3) continue;
+    jg_status st = jg_scales_half_suppression(m, w, z[i], 2.0 * target[i], k_start[i], &k_half[i],
+                                              &found[i], err);
+    if (st != JG_OK) return st;
+  }
+  return JG_OK;
+}
+
 jg_status jg_scales_compute(const jg_perturb_model *m, jg_perturb_workspace *w, const double *z,
                             int n_z, jg_scales_point *out, jg_error *err) {
   if (!m || !w || !z || !out || n_z < 1 || n_z > JG_MAX_REDSHIFTS)
@@ -152,6 +356,8 @@ jg_status jg_scales_compute(const jg_perturb_model *m, jg_perturb_workspace *w, 
                    "jg_scales_compute: model, workspace, 1 to %d redshifts and output needed",
                    JG_MAX_REDSHIFTS);
   jg_perturb_limit limit[JG_MAX_REDSHIFTS];
+  double target[JG_MAX_REDSHIFTS], k_start[JG_MAX_REDSHIFTS], k_half[JG_MAX_REDSHIFTS];
+  int found[JG_MAX_REDSHIFTS];
   jg_status st = jg_perturb_solve_limit(m, w, z, n_z, limit, err);
   if (st != JG_OK) return st;
   const jg_thermal *th = jg_perturb_model_thermal(m);
@@ -179,11 +385,13 @@ jg_status jg_scales_compute(const jg_perturb_model *m, jg_perturb_workspace *w, 
     p->delta_m_large = l->k0.delta_m;
     p->growth_rate_large = l->k0.growth_m;
 
-    double k_start = SC_START_FRACTION * p->k_filter_solved_cdm;
-    st = jg_scales_half_suppression(m, w, z[i], l->k0.b_over_c, k_start, &p->k_half,
-                                    &p->half_found, err);
-    if (st != JG_OK) return st;
-    p->m_half = p->half_found ? jg_scales_mass(m, p->k_half, 1.0) : 0.0;
+    if (!(l->k0.b_over_c > 0.0))
+      return JG_FAIL(err, JG_EINVAL,
+                     "half suppression at z = %g: the large-scale delta_b/delta_c is %g (must be "
+                     "> 0)",
+                     z[i], l->k0.b_over_c);
+    target[i] = 0.5 * l->k0.b_over_c;
+    k_start[i] = SC_START_FRACTION * p->k_filter_solved_cdm;
 
     if (th) {
       const jg_background *bg = jg_thermal_background(th);
@@ -193,6 +401,13 @@ jg_status jg_scales_compute(const jg_perturb_model *m, jg_perturb_workspace *w, 
         p->has_heath = 1;
       }
     }
+  }
+  st = half_suppression_all(m, w, z, n_z, target, k_start, k_half, found, err);
+  if (st != JG_OK) return st;
+  for (int i = 0; i < n_z; i++) {
+    out[i].half_found = found[i];
+    out[i].k_half = found[i] ? k_half[i] : 0.0;
+    out[i].m_half = found[i] ? jg_scales_mass(m, k_half[i], 1.0) : 0.0;
   }
   return JG_OK;
 }

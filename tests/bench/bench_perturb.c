@@ -21,6 +21,13 @@
  * least disturbed by other processes), per mode; evaluations are
  * right-hand sides plus Jacobians per mode, as SciPy's nfev + njev.
  *
+ * Then the library's own Rosenbrock integrator (perturbations.stepper =
+ * "rosenbrock") over the same ladder against the same reference, one k at
+ * a time and in lockstep batches of 8 (jg_perturb_solve_many), with its
+ * matched-accuracy ratios against the GSL default. Instruction counts, which
+ * other work on the machine does not disturb, come from running this under
+ * valgrind --tool=callgrind.
+ *
  * Usage: bench_perturb [DIR]
  *   Writes DIR/perturb_coefficients.txt (the medium coefficients on a grid
  *   of 500 nodes per e-fold: what the SciPy comparison interpolates),
@@ -83,8 +90,10 @@ typedef struct ladder_row {
 } ladder_row;
 
 /* The 16 benchmark modes: every (n_k - 1)/15-th of the grid, ends included. */
+static int batched; /* solve the set with jg_perturb_solve_many */
 static int solve_set(const jg_perturb_model *m, jg_perturb_workspace *w, const double *ks,
                      const double *z, jg_perturb_point out[N_REF][N_Z], jg_error *err) {
+  if (batched) return jg_perturb_solve_many(m, w, ks, N_REF, z, N_Z, &out[0][0], err) != JG_OK;
   for (int j = 0; j < N_REF; j++)
     if (jg_perturb_solve(m, w, ks[j], z, N_Z, out[j], err) != JG_OK) return 1;
   return 0;
@@ -399,6 +408,40 @@ int main(int argc, char **argv) {
              "(rel_tol %g), this solver %.3f ms/mode (rel_tol %g): %.0f times faster\n",
              targets[q], s_rows[is].ms, s_rows[is].rtol, c_rows[ic].ms, c_rows[ic].rtol, ratio);
     }
+  }
+
+  /* The Rosenbrock integrator (perturbations.stepper = "rosenbrock") on the
+   * same ladder, one k at a time and in lockstep batches of 8, against the
+   * same reference; matched accuracy against the GSL default. */
+  ladder_row r_rows[2][N_LADDER];
+  jg_perturb_settings rs = p.perturbations;
+  rs.stepper = JG_PERTURB_STEPPER_ROSENBROCK;
+  for (batched = 0; batched < 2; batched++)
+    for (int t = 0; t < N_LADDER; t++)
+      if (run_tolerance(th, &rs, ladder_rtol[t], ladder_rtol[t] * ABS_PER_REL, ks, z, sol, ref,
+                        LADDER_REPEATS, &r_rows[batched][t], &err)) {
+        fprintf(stderr, "bench_perturb (rosenbrock, rel_tol %g): %s\n", ladder_rtol[t],
+                err.message);
+        return 1;
+      }
+  printf("\nRosenbrock integrator (RODAS), same work and reference\n");
+  printf("%-8s | %-31s | %-31s\n", "", "one k at a time", "batches of 8 in lockstep");
+  printf("%-8s | %9s %9s %11s | %9s %9s %11s\n", "rel_tol", "err b/c", "ms/mode", "evals/mode",
+         "err b/c", "ms/mode", "evals/mode");
+  for (int t = 0; t < N_LADDER; t++)
+    printf("%-8.0e | %9.2e %9.3f %11.0f | %9.2e %9.3f %11.0f\n", ladder_rtol[t],
+           r_rows[0][t].err_ratio, r_rows[0][t].ms, r_rows[0][t].evals, r_rows[1][t].err_ratio,
+           r_rows[1][t].ms, r_rows[1][t].evals);
+  for (int q = 0; q < N_TARGETS; q++) {
+    int ig = cheapest(c_rows, N_LADDER, targets[q]);
+    int i1 = cheapest(r_rows[0], N_LADDER, targets[q]), ib = cheapest(r_rows[1], N_LADDER, targets[q]);
+    if (ig < 0 || i1 < 0 || ib < 0) continue;
+    printf("matched accuracy, delta_b/delta_c error <= %g: GSL %s %.3f ms/mode (rel_tol %g); "
+           "Rosenbrock %.3f ms/mode alone (rel_tol %g, x%.2f), %.3f in batches (rel_tol %g, "
+           "x%.2f)\n",
+           targets[q], STEPPER_NAME, c_rows[ig].ms, c_rows[ig].rtol, r_rows[0][i1].ms,
+           r_rows[0][i1].rtol, c_rows[ig].ms / r_rows[0][i1].ms, r_rows[1][ib].ms,
+           r_rows[1][ib].rtol, c_rows[ig].ms / r_rows[1][ib].ms);
   }
   jg_perturb_workspace_free(w);
   jg_perturb_model_free(m);

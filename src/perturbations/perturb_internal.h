@@ -1,0 +1,126 @@
+/*
+ * Shared inside the perturbations layer (not installed): the model and
+ * workspace, the coefficient tables of the real history (medium_table.c),
+ * the equations (perturb.c) and the Rosenbrock path (perturb_rosenbrock.c).
+ */
+#ifndef JG_PERTURBATIONS_INTERNAL_H
+#define JG_PERTURBATIONS_INTERNAL_H
+
+#include <gsl/gsl_odeiv2.h>
+
+#include "jeansgrow/background.h"
+#include "jeansgrow/perturb.h"
+#include "rosenbrock.h"
+
+/* Steps allowed per output interval before reporting a failure (a stuck
+ * integration should fail, not hang a scan). */
+#define PT_MAX_STEPS 2000000
+
+/* Nodes per e-fold of the coefficient tables. The cubic-spline error,
+ * ~ (5/384) h^4 max|f''''| with h = 2e-3, is below 1e-10 for the logarithms
+ * of the coefficients, which vary on scales Delta ln a >~ 0.05 (hydrogen
+ * recombination is the sharpest feature). */
+#define PT_NODES_PER_EFOLD 500
+/* Extra nodes beyond each end of the range, so that the finite difference
+ * for dfdt and the first trial steps stay on the table. */
+#define PT_MARGIN_NODES 8
+
+/* State layouts. */
+enum { M_C = 0, M_CP = 1, M_B = 2, M_BP = 3, M_T = 4 };
+
+/* ---- the real-history medium: coefficient tables (medium_table.c) ------ */
+
+typedef struct thermal_medium {
+  const jg_background *bg;
+  double x0, dx, inv_dx; /* node i at x0 + i dx */
+  int n;                 /* nodes */
+  double *poly;          /* per interval: N_Q quantities x 4 polynomial coefficients */
+} thermal_medium;
+
+enum { Q_PRESSURE = 0, Q_DRAG = 1, Q_RELAX = 2, Q_EXPANSION = 3, Q_GRAVITY = 4, N_Q = 5 };
+
+thermal_medium *jg__pt_thermal_medium_new(const jg_thermal *th, double x_first, jg_error *err);
+void jg__pt_thermal_medium_free(thermal_medium *tm);
+int jg__pt_thermal_medium_eval(const void *ctx, double ln_a, jg_medium_coefficients *out);
+/* d/d ln a of the coefficients (c: the values at ln_a). */
+void jg__pt_thermal_medium_slope(const thermal_medium *tm, double ln_a,
+                                 const jg_medium_coefficients *c, jg_medium_coefficients *dc);
+
+/* ---- model and workspace ----------------------------------------------- */
+
+struct jg_perturb_model {
+  jg_medium medium;
+  thermal_medium *owned;   /* the real-history tables, when built from a history */
+  const jg_thermal *th;    /* NULL for a custom medium */
+  jg_perturb_settings settings;
+  jg_perturb_start start;   /* uniform start, or the table's first row (the k -> 0 start) */
+  jg_perturb_start_table *start_table; /* owned; NULL: the uniform start for every k */
+  int start_given;          /* a start was passed to the constructor */
+  double x_init;           /* ln a at z_initial */
+  double growth_init;      /* D_+ at z_initial (see the header) */
+  double growth_rate_init; /* d ln D_+ / d ln a at z_initial */
+  double k_lo, k_hi;       /* accepted wavenumbers */
+  double k_ref2;           /* scale of the k^2-derivative and Gnedin-Hui components */
+  int fluctuating;         /* delta_T in the state */
+  double gamma;            /* uniform models: pressure on (gamma) delta_b */
+  int dim_mode, dim_limit;
+  double x_explicit;       /* ln a from which the explicit stepper takes over */
+};
+
+
+typedef struct sys_params {
+  const jg_perturb_model *m;
+  double k2;
+  /* The coefficients at the last ln a evaluated: msbdf's Newton iterations
+   * evaluate the right-hand side several times at the same ln a. They do
+   * not depend on k, so the cache stays valid from one mode to the next. */
+  double x_cached;
+  jg_medium_coefficients c_cached;
+  jg_perturb_work *work; /* the workspace's counters */
+} sys_params;
+
+
+struct jg_perturb_workspace {
+  const jg_perturb_model *m;
+  sys_params prm_mode, prm_limit;
+  gsl_odeiv2_system sys_mode, sys_limit;
+  /* [0] msbdf while stiff, [1] the explicit stepper after */
+  gsl_odeiv2_driver *drv_mode[2], *drv_limit[2];
+  pt_ros_work *ros; /* the Rosenbrock integrator's arrays */
+  int order[JG_MAX_REDSHIFTS];
+  double x_out[JG_MAX_REDSHIFTS]; /* ln a of the ordered redshifts */
+  jg_perturb_work work;
+};
+
+
+/* ---- the equations and their read-out (perturb.c) ----------------------- */
+
+void jg__pt_jac_mode(const jg_perturb_model *m, const jg_medium_coefficients *c, double k2,
+                     double *J, int ld, int off);
+void jg__pt_jac_limit(const jg_perturb_model *m, const jg_medium_coefficients *c, double *J);
+void jg__pt_initial_mode(const jg_perturb_model *m, const jg_perturb_start *start, double *y);
+/* Store one result: out[index] of the system's result type. */
+typedef void (*emit_fn)(const jg_perturb_model *m, double z, double k, double fb,
+                        const double *y, void *out, int index);
+
+void jg__pt_emit_mode(const jg_perturb_model *m, double z, double k, double fb, const double *y,
+                      void *out, int index);
+void jg__pt_emit_limit(const jg_perturb_model *m, double z, double k, double fb,
+                       const double *y, void *out, int index);
+/* Check z[0..n_z) and order it into w->order, highest first. */
+jg_status jg__pt_order_redshifts(const jg_perturb_model *m, jg_perturb_workspace *w,
+                                 const double *z, int n_z, jg_error *err);
+
+/* ---- the Rosenbrock path (perturb_rosenbrock.c) -------------------------- */
+
+/* Wavenumbers k[0..n) (n <= PT_ROS_MAX_MODES) of the mode system in
+ * lockstep, redshifts already checked and ordered in w->order; outs[b]
+ * receives mode b's points, indexed like z. */
+jg_status jg__pt_ros_solve_modes(const jg_perturb_model *m, jg_perturb_workspace *w,
+                                 const double *k, int n, const double *z, int n_z,
+                                 void *const *outs, jg_error *err);
+/* The large-scale limit system, redshifts already checked and ordered. */
+jg_status jg__pt_ros_solve_limit(const jg_perturb_model *m, jg_perturb_workspace *w,
+                                 const double *z, int n_z, jg_perturb_limit *out, jg_error *err);
+
+#endif

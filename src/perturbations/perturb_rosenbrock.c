@@ -1,0 +1,275 @@
+/*
+ * The Rosenbrock path of the perturbations (perturbations.stepper =
+ * "rosenbrock"): each system as a const table for the integrator of
+ * rosenbrock.c, and wavenumbers solved in lockstep batches.
+ */
+#include <math.h>
+#include <string.h>
+
+#include "perturb_internal.h"
+/* ------------------------------------------------------------------------ */
+/* The Rosenbrock path: systems as types, wavenumbers in batches.            */
+
+/* A perturbation system as the integrator sees it: its matrix A(x; k^2)
+ * from the medium coefficients, a bound on its fastest rate, its start and
+ * its read-out. One const table per system; the integrator knows none of
+ * them (a new system is a new table). */
+typedef struct pt_system_type {
+  const char *stage; /* for messages */
+  int (*dimension)(const jg_perturb_model *m);
+  /* A (dim x dim, row-major, every entry written); A is affine in the
+   * coefficients, which the slope dA/dx relies on (see ros_matrices). */
+  void (*matrix)(const jg_perturb_model *m, const jg_medium_coefficients *c, double k2,
+                 double *A);
+  void (*start)(const jg_perturb_model *m, double k, double *y, jg_error *err, jg_status *st);
+  emit_fn read_out;
+  /* Error-scale groups of the components (see rosenbrock.h), indexed by
+   * component; room for the largest system. */
+  int group[PT_ROS_MAX_DIM];
+} pt_system_type;
+
+static int dim_mode(const jg_perturb_model *m) { return m->dim_mode; }
+static int dim_limit(const jg_perturb_model *m) { return m->dim_limit; }
+
+static void matrix_mode(const jg_perturb_model *m, const jg_medium_coefficients *c, double k2,
+                        double *A) {
+  memset(A, 0, sizeof(double) * (size_t)m->dim_mode * m->dim_mode);
+  jg__pt_jac_mode(m, c, k2, A, m->dim_mode, 0);
+}
+
+static void matrix_limit(const jg_perturb_model *m, const jg_medium_coefficients *c, double k2,
+                         double *A) {
+  (void)k2;
+  jg__pt_jac_limit(m, c, A);
+}
+
+static void start_mode(const jg_perturb_model *m, double k, double *y, jg_error *err,
+                       jg_status *st) {
+  jg_perturb_start start = m->start;
+  if (m->start_table && k > 0.0) *st = jg_perturb_start_table_at(m->start_table, k, &start, err);
+  jg__pt_initial_mode(m, &start, y);
+}
+
+static void start_limit(const jg_perturb_model *m, double k, double *y, jg_error *err,
+                        jg_status *st) {
+  (void)k, (void)err, (void)st;
+  memset(y, 0, sizeof(double) * (size_t)m->dim_limit);
+  jg__pt_initial_mode(m, &m->start, y);
+}
+
+/* Groups: CDM {delta_c, delta_c'}, gas {delta_b, delta_b', delta_T}; in the
+ * limit system (fluctuating layout; the uniform models have no delta_T and
+ * shift the rest down by one, see limit_groups) also the k^2 derivatives
+ * of CDM and gas and the Gnedin-Hui pair. */
+static const pt_system_type system_mode = {"mode", dim_mode, matrix_mode, start_mode, jg__pt_emit_mode,
+                                           {0, 0, 1, 1, 1}};
+static const pt_system_type system_mode_uniform = {"mode", dim_mode, matrix_mode, start_mode,
+                                                   jg__pt_emit_mode, {0, 0, 1, 1}};
+static const pt_system_type system_limit = {"large-scale limit", dim_limit, matrix_limit,
+                                            start_limit, jg__pt_emit_limit,
+                                            {0, 0, 1, 1, 1, 2, 2, 3, 3, 4, 4}};
+static const pt_system_type system_limit_uniform = {"large-scale limit", dim_limit, matrix_limit,
+                                                    start_limit, jg__pt_emit_limit,
+                                                    {0, 0, 1, 1, 2, 2, 3, 3, 4, 4}};
+
+static const pt_system_type *mode_type(const jg_perturb_model *m) {
+  return m->fluctuating ? &system_mode : &system_mode_uniform;
+}
+static const pt_system_type *limit_type(const jg_perturb_model *m) {
+  return m->fluctuating ? &system_limit : &system_limit_uniform;
+}
+
+/* Fastest rate of the mode equations (per unit ln a): the drag on the gas
+ * velocity, the Compton relaxation of delta_T, the sound frequency
+ * sqrt(gamma p k^2) and gravity; an upper estimate of |eigenvalue| that
+ * decides between dense output and a step cut to the output. The k^2
+ * derivative and Gnedin-Hui blocks of the limit system add no new rate
+ * (block triangular), so k2 = 0 serves it. */
+static double fastest_rate(const jg_perturb_model *m, const jg_medium_coefficients *c,
+                           double k2) {
+  double damping = fabs(2.0 + c->dlnH_dlna) + c->drag;
+  double sound = sqrt(c->pressure * k2 * (m->fluctuating ? 5.0 / 3.0 : m->gamma));
+  return fmax(fmax(damping, m->fluctuating ? c->relaxation : 0.0), sound + c->gravity);
+}
+
+/* Step cap in ln a: at most 0.05, so that the tabulated coefficients' sharpest
+ * feature (hydrogen recombination, Delta ln a ~ 0.1) cannot be stepped over
+ * unseen by the error estimate. */
+#define PT_ROS_MAX_STEP 0.05
+#define PT_ROS_FIRST_STEP 1.0e-4
+/* Step for the central difference of a custom medium's coefficients. */
+#define PT_SLOPE_STEP 1.0e-5
+
+/* One batch on its way through the integrator. */
+typedef struct ros_run {
+  const jg_perturb_model *m;
+  const pt_system_type *type;
+  int dim, n_modes;
+  double k[PT_ROS_MAX_MODES], k2[PT_ROS_MAX_MODES];
+  const double *z;     /* requested redshifts, in the caller's order */
+  const int *order;    /* the n-th output is z[order[n]] */
+  void *out[PT_ROS_MAX_MODES]; /* each mode's results, indexed like z */
+  int undefined_output; /* the medium could not be read at an output */
+} ros_run;
+
+/* Coefficients at x and, if dc, their slope: exact for the tabulated
+ * history, a central difference for a custom medium. */
+static int coefficients_and_slope(const jg_perturb_model *m, double x, jg_medium_coefficients *c,
+                                  jg_medium_coefficients *dc) {
+  const jg_medium *md = &m->medium;
+  if (md->eval(md->ctx, x, c) != 0) return 1;
+  if (!dc) return 0;
+  if (m->owned) {
+    jg__pt_thermal_medium_slope(m->owned, x, c, dc);
+    return 0;
+  }
+  jg_medium_coefficients cp, cm;
+  if (md->eval(md->ctx, x + PT_SLOPE_STEP, &cp) != 0 || md->eval(md->ctx, x - PT_SLOPE_STEP, &cm))
+    return 1;
+  const double s = 0.5 / PT_SLOPE_STEP;
+  dc->dlnH_dlna = (cp.dlnH_dlna - cm.dlnH_dlna) * s;
+  dc->gravity = (cp.gravity - cm.gravity) * s;
+  dc->pressure = (cp.pressure - cm.pressure) * s;
+  dc->drag = (cp.drag - cm.drag) * s;
+  dc->relaxation = (cp.relaxation - cm.relaxation) * s;
+  dc->baryon_fraction = c->baryon_fraction;
+  return 0;
+}
+
+static int ros_matrices(void *ctx, double x, double *A, double *dA, double *rate) {
+  ros_run *r = ctx;
+  const jg_perturb_model *m = r->m;
+  jg_medium_coefficients c, dc;
+  if (coefficients_and_slope(m, x, &c, dA ? &dc : NULL) != 0) return 1;
+  const int nn = r->dim * r->dim;
+  double fastest = 0.0;
+  for (int b = 0; b < r->n_modes; b++) {
+    r->type->matrix(m, &c, r->k2[b], A + (size_t)b * nn);
+    fastest = fmax(fastest, fastest_rate(m, &c, r->k2[b]));
+  }
+  *rate = fastest;
+  if (dA) {
+    /* A is affine in the coefficients: dA/dx = A(c') - A(0). */
+    jg_medium_coefficients zero = {0};
+    zero.baryon_fraction = c.baryon_fraction;
+    double A_zero[PT_ROS_MAX_DIM * PT_ROS_MAX_DIM];
+    for (int b = 0; b < r->n_modes; b++) {
+      double *d = dA + (size_t)b * nn;
+      r->type->matrix(m, &dc, r->k2[b], d);
+      r->type->matrix(m, &zero, r->k2[b], A_zero);
+      for (int i = 0; i < nn; i++) d[i] -= A_zero[i];
+    }
+  }
+  return 0;
+}
+
+static void ros_emit(void *ctx, int n, const double *y) {
+  ros_run *r = ctx;
+  const int i = r->order[n];
+  jg_medium_coefficients c;
+  if (r->m->medium.eval(r->m->medium.ctx, -log1p(r->z[i]), &c) != 0) {
+    r->undefined_output = 1;
+    return;
+  }
+  for (int b = 0; b < r->n_modes; b++)
+    r->type->read_out(r->m, r->z[i], r->k[b], c.baryon_fraction, y + b * r->dim, r->out[b], i);
+}
+
+static const char *ros_failure(int code) {
+  switch (code) {
+    case PT_ROS_UNDEFINED: return "medium undefined";
+    case PT_ROS_TOO_MANY: return "too many steps";
+    case PT_ROS_TOO_SMALL: return "step size underflow (non-finite state)";
+    case PT_ROS_SINGULAR: return "singular step matrix";
+    default: return "bad integrator input";
+  }
+}
+
+/* Solve a batch of wavenumbers k[0..n) of one system in lockstep; the
+ * redshifts are already checked and ordered in w->order. */
+static jg_status ros_solve(const jg_perturb_model *m, jg_perturb_workspace *w,
+                           const pt_system_type *type, const double *k, int n, const double *z,
+                           int n_z, void *const *out, jg_error *err) {
+  ros_run r;
+  memset(&r, 0, sizeof r);
+  r.m = m;
+  r.type = type;
+  r.dim = type->dimension(m);
+  r.n_modes = n;
+  r.z = z;
+  r.order = w->order;
+  double y[PT_ROS_MAX_MODES * PT_ROS_MAX_DIM];
+  for (int b = 0; b < n; b++) {
+    jg_status st = JG_OK;
+    r.k[b] = k[b];
+    r.k2[b] = k[b] * k[b];
+    r.out[b] = out[b];
+    type->start(m, k[b], y + b * r.dim, err, &st);
+    if (st != JG_OK) return st;
+  }
+  for (int i = 0; i < n_z; i++) w->x_out[i] = -log1p(z[w->order[i]]);
+  const pt_ros_problem p = {r.dim, n, ros_matrices, ros_emit, &r, type->group, m->settings.rel_tol,
+                            m->settings.abs_tol, PT_ROS_FIRST_STEP, PT_ROS_MAX_STEP,
+                            PT_MAX_STEPS};
+  const pt_ros_stats before = w->ros->stats;
+  double x_fail;
+  int code = jg__ros_integrate(&p, w->ros, m->x_init, y, w->x_out, n_z, &x_fail);
+  /* Work counters as for the GSL path: six stage right-hand sides per
+   * attempted step and one Jacobian per matrix evaluation, per mode. */
+  const pt_ros_stats *after = &w->ros->stats;
+  w->work.rhs_evals += 6L * n * (after->steps + after->rejected - before.steps - before.rejected);
+  w->work.jacobian_evals += (long)n * (after->matrix_evals - before.matrix_evals);
+  if (code == PT_ROS_OK && r.undefined_output) code = PT_ROS_UNDEFINED;
+  if (code != PT_ROS_OK) {
+    if (n == 1)
+      return JG_FAIL(err, JG_ENUMERIC,
+                     "perturbations (%s, k = %g /Mpc): integration failed between z = %.6g and "
+                     "z = %.6g (reached z = %.6g: %s)",
+                     type->stage, k[0], m->settings.z_initial, z[w->order[n_z - 1]],
+                     exp(-x_fail) - 1.0, ros_failure(code));
+    return JG_FAIL(err, JG_ENUMERIC, "perturbations (%s, batch of %d from k = %g /Mpc): %s at z = %.6g",
+                   type->stage, n, k[0], ros_failure(code), exp(-x_fail) - 1.0);
+  }
+  return JG_OK;
+}
+
+
+jg_status jg__pt_ros_solve_modes(const jg_perturb_model *m, jg_perturb_workspace *w,
+                                 const double *k, int n, const double *z, int n_z,
+                                 void *const *outs, jg_error *err) {
+  return ros_solve(m, w, mode_type(m), k, n, z, n_z, outs, err);
+}
+
+jg_status jg__pt_ros_solve_limit(const jg_perturb_model *m, jg_perturb_workspace *w,
+                                 const double *z, int n_z, jg_perturb_limit *out, jg_error *err) {
+  const double k0 = 0.0;
+  void *outs[1] = {out};
+  return ros_solve(m, w, limit_type(m), &k0, 1, z, n_z, outs, err);
+}
+
+jg_status jg_perturb_solve_many(const jg_perturb_model *m, jg_perturb_workspace *w,
+                                const double *k, int n_k, const double *z, int n_z,
+                                jg_perturb_point *out, jg_error *err) {
+  if (!m || !w || !out || !k || w->m != m || n_k < 0)
+    return JG_FAIL(err, JG_EINVAL,
+                   "jg_perturb_solve_many: model, its own workspace, wavenumbers and output needed");
+  const int lockstep = m->settings.stepper == JG_PERTURB_STEPPER_ROSENBROCK;
+  for (int first = 0; first < n_k; first += JG_PERTURB_BATCH) {
+    const int n = n_k - first < JG_PERTURB_BATCH ? n_k - first : JG_PERTURB_BATCH;
+    jg_perturb_point *batch_out = out + (size_t)first * (size_t)n_z;
+    if (lockstep && n > 1) {
+      jg_status st = jg__pt_order_redshifts(m, w, z, n_z, err);
+      for (int b = 0; st == JG_OK && b < n; b++) st = jg_perturb_check_wavenumber(m, k[first + b], err);
+      if (st != JG_OK) return st;
+      void *outs[JG_PERTURB_BATCH];
+      for (int b = 0; b < n; b++) outs[b] = batch_out + (size_t)b * (size_t)n_z;
+      if (ros_solve(m, w, mode_type(m), k + first, n, z, n_z, outs, err) == JG_OK) continue;
+    }
+    /* One at a time: the GSL steppers, a lone k, or a batch that failed. */
+    for (int b = 0; b < n; b++) {
+      jg_status st = jg_perturb_solve(m, w, k[first + b], z, n_z, batch_out + (size_t)b * n_z, err);
+      if (st != JG_OK) return st;
+    }
+  }
+  return JG_OK;
+}

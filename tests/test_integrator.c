@@ -1,0 +1,275 @@
+/*
+ * The Rosenbrock integrator (src/perturbations/rosenbrock.c): its order on
+ * analytic problems, its dense output, and the perturbations it gives
+ * against GSL's msbdf (the cross-check path), one k at a time and in
+ * lockstep batches.
+ */
+#include <criterion/criterion.h>
+#include <math.h>
+#include <string.h>
+
+#include "../src/perturbations/rosenbrock.h"
+#include "jeansgrow/jeansgrow.h"
+#include "real_case.h"
+#include "support.h"
+
+TestSuite(integrator, .init = quiet_gsl);
+
+/* ---- analytic problems ----------------------------------------------------- */
+
+/* y1' = -y1 + x y2, y2' = -2 y2 (non-autonomous): with y(0) = (1, 1),
+ * y2 = e^{-2x}, y1 = e^{-x} (1 + 1 - (1 + x) e^{-x}) (integrating factor). */
+static int nonautonomous(void *ctx, double x, double *A, double *dA, double *rate) {
+  (void)ctx;
+  A[0] = -1.0, A[1] = x, A[2] = 0.0, A[3] = -2.0;
+  if (dA) dA[0] = 0.0, dA[1] = 1.0, dA[2] = 0.0, dA[3] = 0.0;
+  *rate = 2.0;
+  return 0;
+}
+static double nonautonomous_y1(double x) { return exp(-x) * (2.0 - (1.0 + x) * exp(-x)); }
+
+/* Prothero & Robinson's stiff test written as a linear system: y' =
+ * -L(x) (y - cos x) - sin x with cos and sin carried as states (c' = -s,
+ * s' = c); y = cos x is the solution from y(0) = 1 whatever the stiffness
+ * L(x) = L0 e^x (Hairer & Wanner II, section IV.15, the test of order
+ * reduction). */
+static double pr_stiffness;
+static int prothero_robinson(void *ctx, double x, double *A, double *dA, double *rate) {
+  (void)ctx;
+  const double L = pr_stiffness * exp(x);
+  memset(A, 0, 9 * sizeof *A);
+  A[0] = -L, A[1] = L, A[2] = -1.0, A[5] = -1.0, A[7] = 1.0;
+  if (dA) {
+    memset(dA, 0, 9 * sizeof *dA);
+    dA[0] = -L, dA[1] = L;
+  }
+  *rate = L;
+  return 0;
+}
+
+typedef struct collected {
+  int n;
+  double y[600][3];
+} collected;
+static void collect(void *ctx, int index, const double *y) {
+  collected *c = ctx;
+  memcpy(c->y[index], y, 3 * sizeof *y);
+  c->n++;
+}
+
+static pt_ros_work work;
+
+/* Error at x = 2 of fixed steps h (tolerances so loose that no step is
+ * rejected, the first and largest step h). */
+static double fixed_step_error(pt_ros_matrices_fn f, int dim, double h, int component,
+                               double exact) {
+  collected c = {0};
+  pt_ros_problem p = {dim, 1, f, collect, &c, NULL, 1e9, 1e9, h, h, 1000000};
+  double y[3] = {1.0, 1.0, 0.0}, x_end = 2.0, x_fail;
+  int st = jg__ros_integrate(&p, &work, 0.0, y, &x_end, 1, &x_fail);
+  cr_assert_eq(st, PT_ROS_OK, "h = %g: code %d at x = %g", h, st, x_fail);
+  return fabs(c.y[0][component] - exact);
+}
+
+/* RODAS is of order 4 (Hairer & Wanner II, section IV.7): halving the step
+ * divides the error by 2^4. Measured orders 3.90 and 3.95 on the
+ * non-autonomous problem (h = 1/128 .. 1/512), 4.00 on the stiff one. */
+Test(integrator, order_four_on_analytic_problems) {
+  double e[3];
+  for (int i = 0; i < 3; i++)
+    e[i] = fixed_step_error(nonautonomous, 2, 1.0 / (128 << i), 0, nonautonomous_y1(2.0));
+  for (int i = 0; i < 2; i++) {
+    double order = log2(e[i] / e[i + 1]);
+    cr_assert(order > 3.8 && order < 4.2, "non-autonomous: order %g (errors %g, %g)", order,
+              e[i], e[i + 1]);
+  }
+  /* Stiff: L h from 1e5 to 1e7; L-stable and stiffly accurate, no order
+   * reduction here. */
+  pr_stiffness = 1e6;
+  for (int i = 0; i < 3; i++)
+    e[i] = fixed_step_error(prothero_robinson, 3, 0.1 / (1 << i), 0, cos(2.0));
+  for (int i = 0; i < 2; i++) {
+    double order = log2(e[i] / e[i + 1]);
+    cr_assert(order > 3.8 && order < 4.2, "stiff: order %g (errors %g, %g)", order, e[i],
+              e[i + 1]);
+  }
+}
+
+/* Outputs from the quintic Hermite interpolant: as accurate as the steps,
+ * and 512 outputs take no more steps than 8 (the output list does not
+ * limit the step). */
+Test(integrator, dense_output_accurate_and_free) {
+  static double x_out[512];
+  static collected c;
+  long steps[2];
+  const int counts[2] = {8, 512};
+  for (int t = 0; t < 2; t++) {
+    const int n = counts[t];
+    for (int i = 0; i < n; i++) x_out[i] = 3.0 * (i + 1) / n;
+    memset(&c, 0, sizeof c);
+    pt_ros_problem p = {2, 1, nonautonomous, collect, &c, NULL, 1e-10, 1e-12, 1e-3, 0.5, 100000};
+    double y[2] = {1.0, 1.0}, x_fail;
+    const long before = work.stats.steps;
+    cr_assert_eq(jg__ros_integrate(&p, &work, 0.0, y, x_out, n, &x_fail), PT_ROS_OK);
+    steps[t] = work.stats.steps - before;
+    cr_assert_eq(c.n, n);
+    for (int i = 0; i < n; i++) {
+      ASSERT_REL(c.y[i][0], nonautonomous_y1(x_out[i]), 1e-8, "x = %g of %d outputs", x_out[i], n);
+      ASSERT_REL(c.y[i][1], exp(-2.0 * x_out[i]), 1e-8, "x = %g of %d outputs", x_out[i], n);
+    }
+  }
+  cr_assert_eq(steps[1], steps[0], "steps with 512 outputs %ld, with 8 %ld", steps[1], steps[0]);
+}
+
+/* ---- the perturbations ----------------------------------------------------- */
+
+static void solve_ok(const jg_perturb_model *m, jg_perturb_workspace *w, double k, const double *z,
+                     int n, jg_perturb_point *out) {
+  jg_error err;
+  jg_error_clear(&err);
+  cr_assert_eq(jg_perturb_solve(m, w, k, z, n, out, &err), JG_OK, "k = %g: %s", k, err.message);
+}
+
+/* The solver under test (Rosenbrock at the given settings' tolerances) and
+ * the cross-check (GSL msbdf at rel_tol 1e-12, abs_tol 1e-14) on r's
+ * history; free both with pair_free. */
+typedef struct solver_pair {
+  jg_perturb_model *mf, *mt;
+  jg_perturb_workspace *wf, *wt;
+} solver_pair;
+
+static solver_pair pair_open(const real_case *r, const jg_perturb_settings *s) {
+  jg_perturb_settings fast = *s, tight = *s;
+  fast.stepper = JG_PERTURB_STEPPER_ROSENBROCK;
+  tight.stepper = JG_PERTURB_STEPPER_MSBDF;
+  tight.rel_tol = 1e-12;
+  tight.abs_tol = 1e-14;
+  solver_pair p;
+  real_case_model(r, &fast, NULL, &p.mf, &p.wf);
+  real_case_model(r, &tight, NULL, &p.mt, &p.wt);
+  return p;
+}
+
+static void pair_free(solver_pair *p) {
+  jg_perturb_workspace_free(p->wt);
+  jg_perturb_model_free(p->mt);
+  jg_perturb_workspace_free(p->wf);
+  jg_perturb_model_free(p->mf);
+}
+
+/* The Rosenbrock integrator at the default tolerances against GSL msbdf at
+ * rel_tol 1e-12 (abs_tol 1e-14), the cross-check path: delta_b/delta_c and
+ * delta_c to 1e-6 for the three sound-speed models, at the reference
+ * cosmology and two corners of the parameter box (scarce baryons and little
+ * matter; many baryons and much matter), from the largest to the smallest
+ * scales accepted. */
+Test(integrator, agrees_with_gsl_msbdf) {
+  const double omega_b[] = {0.0224, 0.005, 0.06}, omega_c[] = {0.12, 0.05, 0.3};
+  const jg_sound_speed_model models[] = {JG_SOUND_SPEED_FLUCTUATING, JG_SOUND_SPEED_ISOTHERMAL,
+                                         JG_SOUND_SPEED_ADIABATIC};
+  const double z[] = {500.0, 100.0, 20.0, 10.0};
+  const double ks[] = {1.0, 1e5};
+  for (int c = 0; c < 3; c++) {
+    jg_params d;
+    jg_params_set_defaults(&d);
+    d.cosmology.baryon_density_h2 = omega_b[c];
+    d.cosmology.cdm_density_h2 = omega_c[c];
+    real_case r;
+    real_case_open(&r, &d);
+    for (int s = 0; s < 3; s++) {
+      jg_perturb_settings set = d.perturbations;
+      set.sound_speed = models[s];
+      solver_pair sp = pair_open(&r, &set);
+      for (int q = 0; q < 2; q++) {
+        jg_perturb_point a[4], b[4];
+        solve_ok(sp.mf, sp.wf, ks[q], z, 4, a);
+        solve_ok(sp.mt, sp.wt, ks[q], z, 4, b);
+        for (int i = 0; i < 4; i++) {
+          ASSERT_REL(a[i].b_over_c, b[i].b_over_c, 1e-6, "omega_b %g model %d k = %g z = %g",
+                     omega_b[c], s, ks[q], z[i]);
+          ASSERT_REL(a[i].delta_c, b[i].delta_c, 1e-6, "omega_b %g model %d k = %g z = %g",
+                     omega_b[c], s, ks[q], z[i]);
+        }
+      }
+      pair_free(&sp);
+    }
+    real_case_close(&r);
+  }
+}
+
+/* The large-scale limit: the Gnedin-Hui 1/k_F^2 to 1e-6 and the k^2
+ * derivative to 5e-6, as asked of the GSL paths (test_perturb.c). */
+Test(integrator, limit_agrees_with_gsl_msbdf) {
+  real_case r;
+  real_case_open(&r, NULL);
+  solver_pair sp = pair_open(&r, &r.p.perturbations);
+  const double z[] = {1000.0, 300.0, 100.0, 10.0};
+  jg_perturb_limit a[4], b[4];
+  jg_error err;
+  jg_error_clear(&err);
+  cr_assert_eq(jg_perturb_solve_limit(sp.mf, sp.wf, z, 4, a, &err), JG_OK, "%s", err.message);
+  cr_assert_eq(jg_perturb_solve_limit(sp.mt, sp.wt, z, 4, b, &err), JG_OK, "%s", err.message);
+  for (int i = 0; i < 4; i++) {
+    ASSERT_REL(a[i].gh_inverse_kf2, b[i].gh_inverse_kf2, 1e-6, "z = %g", z[i]);
+    ASSERT_REL(a[i].dlnb_dk2, b[i].dlnb_dk2, 5e-6, "z = %g", z[i]);
+    ASSERT_REL(a[i].k0.b_over_c, b[i].k0.b_over_c, 1e-6, "z = %g", z[i]);
+  }
+  pair_free(&sp);
+  real_case_close(&r);
+}
+
+/* The reference cosmology with the Rosenbrock stepper. */
+static void open_rosenbrock(real_case *r) {
+  jg_params d;
+  jg_params_set_defaults(&d);
+  d.perturbations.stepper = JG_PERTURB_STEPPER_ROSENBROCK;
+  real_case_open(r, &d);
+}
+
+/* Lockstep batches: the same results as one k at a time (to the
+ * tolerance: a batch steps as its most demanding mode asks), and digits
+ * that depend on the list alone: the list's first 8 and last 3 solved as
+ * lists of their own give the same bits as the whole list (batches of 8
+ * cut from the list). */
+Test(integrator, batches_agree_and_depend_on_the_list_alone) {
+  real_case r;
+  open_rosenbrock(&r);
+  enum { N = 11, NZ = 3 };
+  double k[N];
+  for (int i = 0; i < N; i++) k[i] = pow(10.0, 5.0 * i / (N - 1));
+  const double z[NZ] = {10.0, 500.0, 100.0};
+  static jg_perturb_point all[N * NZ], head[8 * NZ], tail[3 * NZ];
+  jg_error err;
+  jg_error_clear(&err);
+  cr_assert_eq(jg_perturb_solve_many(r.m, r.w, k, N, z, NZ, all, &err), JG_OK, "%s", err.message);
+  cr_assert_eq(jg_perturb_solve_many(r.m, r.w, k, 8, z, NZ, head, &err), JG_OK, "%s", err.message);
+  cr_assert_eq(jg_perturb_solve_many(r.m, r.w, k + 8, 3, z, NZ, tail, &err), JG_OK, "%s",
+               err.message);
+  cr_assert(memcmp(all, head, sizeof head) == 0, "first batch differs when solved alone");
+  cr_assert(memcmp(all + 8 * NZ, tail, sizeof tail) == 0, "last batch differs when solved alone");
+  for (int i = 0; i < N; i++) {
+    jg_perturb_point one[NZ];
+    solve_ok(r.m, r.w, k[i], z, NZ, one);
+    for (int j = 0; j < NZ; j++) {
+      ASSERT_REL(all[i * NZ + j].b_over_c, one[j].b_over_c, 1e-7, "k = %g z = %g", k[i], z[j]);
+      ASSERT_REL(all[i * NZ + j].delta_c, one[j].delta_c, 1e-7, "k = %g z = %g", k[i], z[j]);
+      cr_assert_eq(all[i * NZ + j].z, z[j]);
+      cr_assert_eq(all[i * NZ + j].k, k[i]);
+    }
+  }
+  real_case_close(&r);
+}
+
+/* A batch the integrator refuses (a k outside the accepted range) is
+ * reported by its k, as a single solve would. */
+Test(integrator, batch_with_a_bad_k_names_it) {
+  real_case r;
+  open_rosenbrock(&r);
+  const double k[3] = {10.0, 2e5, 100.0}, z = 10.0;
+  jg_perturb_point out[3];
+  jg_error err;
+  jg_error_clear(&err);
+  cr_assert_eq(jg_perturb_solve_many(r.m, r.w, k, 3, &z, 1, out, &err), JG_EINVAL);
+  cr_assert(strstr(err.message, "k = 200000") != NULL, "%s", err.message);
+  real_case_close(&r);
+}
