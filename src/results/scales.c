@@ -13,6 +13,7 @@
 #include <gsl/gsl_errno.h>
 #include <gsl/gsl_roots.h>
 #include <math.h>
+#include <stdio.h>
 #include <string.h>
 
 #include "jeansgrow/background.h"
@@ -42,18 +43,34 @@ typedef struct half_ctx {
   const jg_perturb_model *m;
   jg_perturb_workspace *w;
   double z, target;
+  double k_below, k_above; /* Brent's bracket, carried exactly as wavenumbers */
   jg_status status;
   jg_error *err;
 } half_ctx;
 
-/* (delta_b/delta_c)(k) - target at k = exp(ln_k). */
-static double half_residual(double ln_k, void *params) {
-  half_ctx *c = params;
+/* (delta_b/delta_c)(k) - target. The search only asks for wavenumbers inside
+ * the model's accepted range, so a refusal by the solver is a failure of
+ * this stage, not bad input: it is reported as such, with its k and z. */
+static double half_residual(half_ctx *c, double k) {
   if (c->status != JG_OK) return GSL_NAN;
   jg_perturb_point p;
-  c->status = jg_perturb_solve(c->m, c->w, exp(ln_k), &c->z, 1, &p, c->err);
-  if (c->status != JG_OK) return GSL_NAN;
+  c->status = jg_perturb_solve(c->m, c->w, k, &c->z, 1, &p, c->err);
+  if (c->status != JG_OK) {
+    char why[JG_ERROR_MESSAGE_SIZE];
+    snprintf(why, sizeof why, "%s", c->err ? c->err->message : "");
+    c->status = JG_FAIL(c->err, c->status == JG_EINVAL ? JG_ENUMERIC : c->status,
+                        "half suppression at z = %g, k = %.17g /Mpc: %s", c->z, k, why);
+    return GSL_NAN;
+  }
   return p.b_over_c - c->target;
+}
+
+/* Brent works in ln k; exp(log(k)) may differ from k in the last bit, so
+ * its trial point is mapped back inside the bracket, whose ends are the
+ * exact wavenumbers of the ladder (one of them may be the range's bound). */
+static double half_residual_ln(double ln_k, void *params) {
+  half_ctx *c = params;
+  return half_residual(c, fmin(fmax(exp(ln_k), c->k_below), c->k_above));
 }
 
 jg_status jg_scales_half_suppression(const jg_perturb_model *m, jg_perturb_workspace *w, double z,
@@ -67,13 +84,13 @@ jg_status jg_scales_half_suppression(const jg_perturb_model *m, jg_perturb_works
     return JG_FAIL(err, JG_EINVAL,
                    "half suppression at z = %g: the large-scale delta_b/delta_c is %g (must be > 0)",
                    z, ratio_large);
-  half_ctx c = {m, w, z, 0.5 * ratio_large, JG_OK, err};
+  half_ctx c = {m, w, z, 0.5 * ratio_large, 0.0, 0.0, JG_OK, err};
   double ka = fmin(fmax(k_start, k_lo), k_hi);
-  double fa = half_residual(log(ka), &c);
+  double fa = half_residual(&c, ka);
   /* Step down until the ratio is above one half (rarely needed). */
   while (c.status == JG_OK && fa <= 0.0 && ka > k_lo) {
     ka = fmax(ka / SC_LADDER, k_lo);
-    fa = half_residual(log(ka), &c);
+    fa = half_residual(&c, ka);
   }
   if (c.status != JG_OK) return c.status;
   if (fa <= 0.0) return JG_OK; /* already suppressed at the lowest accepted k */
@@ -82,7 +99,7 @@ jg_status jg_scales_half_suppression(const jg_perturb_model *m, jg_perturb_works
     ka = kb;
     fa = fb;
     kb = fmin(kb * SC_LADDER, k_hi);
-    fb = half_residual(log(kb), &c);
+    fb = half_residual(&c, kb);
     if (c.status != JG_OK) return c.status;
   }
   if (fb > 0.0) return JG_OK; /* no crossing below the upper limit */
@@ -93,7 +110,9 @@ jg_status jg_scales_half_suppression(const jg_perturb_model *m, jg_perturb_works
   }
   gsl_root_fsolver *s = gsl_root_fsolver_alloc(gsl_root_fsolver_brent);
   if (!s) return JG_FAIL(err, JG_ENOMEM, "half suppression: out of memory for the root solver");
-  gsl_function F = {half_residual, &c};
+  c.k_below = ka;
+  c.k_above = kb;
+  gsl_function F = {half_residual_ln, &c};
   int st = gsl_root_fsolver_set(s, &F, log(ka), log(kb));
   int iter = 0;
   while (st == GSL_SUCCESS && iter++ < SC_ROOT_ITER) {
@@ -102,7 +121,7 @@ jg_status jg_scales_half_suppression(const jg_perturb_model *m, jg_perturb_works
     if (st != GSL_SUCCESS) break;
     double lo = gsl_root_fsolver_x_lower(s), hi = gsl_root_fsolver_x_upper(s);
     if (gsl_root_test_interval(lo, hi, SC_ROOT_TOL, 0.0) == GSL_SUCCESS) {
-      *k_half = exp(gsl_root_fsolver_root(s));
+      *k_half = fmin(fmax(exp(gsl_root_fsolver_root(s)), ka), kb);
       *found = 1;
       break;
     }
