@@ -49,8 +49,12 @@
  * of the coefficients, which vary on scales Delta ln a >~ 0.05 (hydrogen
  * recombination is the sharpest feature). */
 #define PT_NODES_PER_EFOLD 500
-/* Extra nodes beyond each end of the range, so that the finite difference
- * for dfdt and the first trial steps stay on the table. */
+/* Extra nodes before the start, so that the finite difference for dfdt and
+ * the first trial steps stay on the table. The table ends at a = 1 exactly:
+ * beyond today the background is not checked (H^2 may turn negative soon
+ * after a = 1 when Omega_de < 0, e.g. h = 0.05 with ordinary densities), and
+ * the only evaluations there, dfdt's PT_DFDT_STEP past the last output,
+ * extrapolate the last interval's polynomial. */
 #define PT_MARGIN_NODES 8
 /* First trial step in ln a; msbdf adapts it at once. */
 #define PT_HSTART 1.0e-6
@@ -144,8 +148,8 @@ static thermal_medium *thermal_medium_new(const jg_thermal *th, double x_first, 
   tm->bg = jg_thermal_background(th);
   tm->dx = 1.0 / PT_NODES_PER_EFOLD;
   tm->inv_dx = PT_NODES_PER_EFOLD;
-  tm->x0 = x_first - PT_MARGIN_NODES * tm->dx;
-  tm->n = (int)ceil(-tm->x0 * PT_NODES_PER_EFOLD) + PT_MARGIN_NODES + 1;
+  tm->n = (int)ceil(-x_first * PT_NODES_PER_EFOLD) + PT_MARGIN_NODES + 1;
+  tm->x0 = -(tm->n - 1) * tm->dx;
   const int n = tm->n;
   double *x = malloc(sizeof(double) * (size_t)n * (1 + N_Q));
   tm->poly = malloc(sizeof(double) * (size_t)(n - 1) * 4 * N_Q);
@@ -156,7 +160,7 @@ static thermal_medium *thermal_medium_new(const jg_thermal *th, double x_first, 
   if (st == JG_OK) {
     double *lq = x + n; /* lq[q * n + i] */
     for (int i = 0; i < n; i++) {
-      x[i] = tm->x0 + i * tm->dx;
+      x[i] = i == n - 1 ? 0.0 : tm->x0 + i * tm->dx;
       double q[N_Q];
       thermal_coefficients(th, x[i], q);
       for (int k = 0; k < N_Q; k++) {

@@ -59,7 +59,7 @@ static double half_residual(half_ctx *c, double k) {
     char why[JG_ERROR_MESSAGE_SIZE];
     snprintf(why, sizeof why, "%s", c->err ? c->err->message : "");
     c->status = JG_FAIL(c->err, c->status == JG_EINVAL ? JG_ENUMERIC : c->status,
-                        "half suppression at z = %g, k = %.17g /Mpc: %s", c->z, k, why);
+                        "half suppression at z = %g, k = %.10g /Mpc: %s", c->z, k, why);
     return GSL_NAN;
   }
   return p.b_over_c - c->target;
