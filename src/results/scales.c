@@ -205,8 +205,10 @@ jg_status jg_scales_compute(const jg_perturb_model *m, jg_perturb_workspace *w, 
 
     if (th) {
       const jg_background *bg = jg_thermal_background(th);
-      if (bg->cosmology.de_w0 == -1.0 && bg->cosmology.de_wa == 0.0) {
-        st = jg_background_growth_heath(bg, 1.0 / (1.0 + z[i]), &p->growth_heath, err);
+      const double a = 1.0 / (1.0 + z[i]);
+      if (bg->cosmology.de_w0 == -1.0 && bg->cosmology.de_wa == 0.0 &&
+          jg_background_reference_growth_defined(bg, a)) {
+        st = jg_background_growth_heath(bg, a, &p->growth_heath, err);
         if (st != JG_OK) return st;
         p->has_heath = 1;
       }
