@@ -311,13 +311,9 @@ jg_thermal *jg_thermal_new(const jg_background *bg, const jg_thermal_settings *s
       continue;
     }
     if (phase < 3) {
-      if (phase == 1) { /* Compton coupling lost before hydrogen left Saha: never for sane input */
-        st = JG_FAIL(err, JG_ENUMERIC,
-                     "thermal history: Compton coupling weak (H/Gamma_C = %g) while hydrogen is "
-                     "still in Saha equilibrium at z = %.1f",
-                     H / compton, z);
-        break;
-      }
+      /* Coupling weak already in Saha equilibrium (little or cold radiation,
+       * a fast expansion, or a small thermal.quasi_static_limit): the joint
+       * equations start from the Saha x_p, which the Peebles rate keeps. */
       phase = 3;
       x = xi;
       y[0] = x_p[i];
