@@ -50,6 +50,7 @@
 #define MAX_SETS 64
 #define SET_SIZE 192
 #define MAX_LIST 16
+#define MAX_ATTEMPTS 100
 
 /* ---- random numbers: splitmix64, one stream per cosmology ---------------- */
 
@@ -120,7 +121,7 @@ typedef struct drawn {
 typedef struct sweep_options {
   long first, count;
   uint64_t seed;
-  int threads, full, verbose;
+  int threads, full, verbose, epochs;
   const char *params, *program;
 } sweep_options;
 
@@ -310,9 +311,11 @@ typedef struct outcome {
 static int finite_positive(double v) { return isfinite(v) && v > 0.0; }
 
 /* Load, build and compute; the checks of the file comment. */
-static void run_one(const sweep_options *o, long index, FILE *sink, drawn *d, outcome *out) {
+static void run_one(const sweep_options *o, long index, int attempt, FILE *sink, drawn *d,
+                    outcome *out) {
   memset(out, 0, sizeof *out);
-  rng r = {o->seed ^ (0xD1B54A32D192ED03ull * (uint64_t)(index + 1))};
+  rng r = {o->seed ^ (0xD1B54A32D192ED03ull * (uint64_t)(index + 1)) ^
+           (0x8CB92BA72F3D8DD7ull * (uint64_t)attempt)};
   char why[256];
   jg_params *p = malloc(sizeof *p);
   double *k = malloc(sizeof(double) * JG_MAX_WAVENUMBERS);
@@ -419,7 +422,8 @@ static void run_one(const sweep_options *o, long index, FILE *sink, drawn *d, ou
               pt->b_over_c);
     }
 
-  /* the epochs of `run` */
+  /* the epochs of `run` (--epochs) */
+  if (!o->epochs) goto done;
   jg_epochs e;
   st = jg_epochs_compute(th, &e, &err);
   FAIL_IF(st != JG_OK, "epochs", "%s (%s)", err.message, jg_status_name(st));
@@ -465,17 +469,30 @@ static void *work(void *arg) {
     return NULL;
   }
   for (long i = o->first + wk->id; i < o->first + o->count; i += o->threads) {
+    /* A draw refused cleanly (exit 2) is counted and replaced by another,
+     * so that every index is a cosmology that runs. */
     outcome out;
-    run_one(o, i, sink, d, &out);
+    for (int attempt = 0; attempt < MAX_ATTEMPTS; attempt++) {
+      run_one(o, i, attempt, sink, d, &out);
+      if (!out.refused) break;
+      pthread_mutex_lock(wk->lock);
+      wk->refused++;
+      if (o->verbose) {
+        fprintf(stderr, "refused cosmology %ld.%d (%s, exit 2): %s\n", i, attempt, out.command,
+                out.message);
+        print_reproducer(o, "scales", d);
+      }
+      pthread_mutex_unlock(wk->lock);
+    }
     pthread_mutex_lock(wk->lock);
     if (out.failed) {
       wk->failed++;
       fprintf(stderr, "FAILED cosmology %ld (%s): %s\n", i, out.command, out.message);
       print_reproducer(o, out.command, d);
     } else if (out.refused) {
-      wk->refused++;
-      fprintf(stderr, "refused cosmology %ld (%s, exit 2): %s\n", i, out.command, out.message);
-      if (o->verbose) print_reproducer(o, "scales", d);
+      wk->failed++;
+      fprintf(stderr, "FAILED cosmology %ld: %d draws in a row refused, the last: %s\n", i,
+              MAX_ATTEMPTS, out.message);
     } else {
       wk->ran++;
     }
@@ -488,7 +505,7 @@ static void *work(void *arg) {
 
 int main(int argc, char **argv) {
   gsl_set_error_handler_off();
-  sweep_options o = {0, 500, 20261203, 1, 0, 0, "params/reference.cfg", "build/jeansgrow"};
+  sweep_options o = {0, 500, 20261203, 1, 0, 0, 0, "params/reference.cfg", "build/jeansgrow"};
 #ifdef JG_SOURCE_DIR
   o.params = JG_SOURCE_DIR "/params/reference.cfg";
 #endif
@@ -499,6 +516,7 @@ int main(int argc, char **argv) {
     const char *a = argv[i], *v = i + 1 < argc ? argv[i + 1] : NULL;
     if (!strcmp(a, "--full")) o.full = 1;
     else if (!strcmp(a, "--verbose")) o.verbose = 1;
+    else if (!strcmp(a, "--epochs")) o.epochs = 1;
     else if (v && !strcmp(a, "--count")) o.count = atol(argv[++i]);
     else if (v && !strcmp(a, "--first")) o.first = atol(argv[++i]);
     else if (v && !strcmp(a, "--seed")) o.seed = strtoull(argv[++i], NULL, 10);
@@ -531,9 +549,9 @@ int main(int argc, char **argv) {
     pthread_join(tid[t], NULL);
     ran += wk[t].ran, refused += wk[t].refused, failed += wk[t].failed;
   }
-  printf("valid_sweep: seed %llu, cosmologies %ld to %ld%s: %ld ran, %ld refused by the "
-         "loader or background (exit 2), %ld failed\n",
+  printf("valid_sweep: seed %llu, cosmologies %ld to %ld%s: %ld ran, %ld failed; %ld other "
+         "draws refused cleanly by the loader or background (exit 2) and replaced\n",
          (unsigned long long)o.seed, o.first, o.first + o.count - 1,
-         o.full ? " (full ranges)" : "", ran, refused, failed);
+         o.full ? " (full ranges)" : "", ran, failed, refused);
   return failed ? 1 : 0;
 }

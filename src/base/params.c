@@ -52,7 +52,7 @@ static const char *const stepper_words[] = {"msbdf+rk8pd", "msbdf", NULL};
 static const char *const units_words[] = {"Mpc", "Mpc/h", NULL};
 
 static const param_spec specs[] = {
-    REQUIRED_NUMBER("cosmology.hubble_h", cosmology.hubble_h, "", "0 < value <= 5", 0, 1, 5, 0,
+    REQUIRED_NUMBER("cosmology.hubble_h", cosmology.hubble_h, "", "0.1 <= value <= 5", 0.1, 0, 5, 0,
                     "H0 / (100 km/s/Mpc)"),
     REQUIRED_NUMBER("cosmology.baryon_density_h2", cosmology.baryon_density_h2, "",
                     "0 < value <= 1", 0, 1, 1, 0, "baryon density Omega_b h^2"),
@@ -62,7 +62,7 @@ static const param_spec specs[] = {
            "-1 < value < 1 (and H^2 > 0 at all times)", -1, 1, 1, 1,
            "curvature density Omega_k today (negative: closed)"),
     NUMBER("cosmology.cmb_temperature_K", cosmology.cmb_temperature_K, "K", "2.7255",
-           "0 < value <= 30", 0, 1, 30, 0, "CMB temperature today"),
+           "1 <= value <= 30", 1, 0, 30, 0, "CMB temperature today"),
     NUMBER("cosmology.helium_mass_fraction", cosmology.helium_mass_fraction, "", "0.2454",
            "0 <= value < 1", 0, 0, 1, 1, "primordial helium mass fraction Y_P"),
     NUMBER("cosmology.neutrino_number_eff", cosmology.neutrino_number_eff, "", "3.046",

@@ -57,9 +57,12 @@ typedef struct local_state {
 
 static int local_state_at(const history_system *sys, double x, double x_p, local_state *s) {
   if (!isfinite(x_p)) return GSL_EBADFUNC;
-  /* A trial step that overshoots below zero: make the stepper retry with a
-   * smaller step (any status other than GSL_EBADFUNC does that). */
-  if (!(x_p > 0)) return GSL_EDOM;
+  /* A trial step that overshoots below zero, or above full ionisation:
+   * make the stepper retry with a smaller step (any status other than
+   * GSL_EBADFUNC does that). Above 1 the neutral fraction 1 - x_p is
+   * negative, the Peebles factor C can change sign, and a loose tolerance
+   * let x_p run away to 50 when the equations started in Saha equilibrium. */
+  if (!(x_p > 0 && x_p <= 1.0)) return GSL_EDOM;
   s->a = exp(x);
   s->H = jg_background_hubble(sys->bg, s->a);
   s->T_rad = jg_background_T_radiation(sys->bg, s->a);
@@ -306,14 +309,16 @@ jg_thermal *jg_thermal_new(const jg_background *bg, const jg_thermal_settings *s
       jg__electrons_given_hydrogen(bg, T_rad, n_H, x_p[i], &x_e[i], &dummy);
     }
     double compton = jg__compton_rate(bg, T_rad, x_e[i]);
-    if (phase < 3 && H / compton < settings->quasi_static_limit) {
+    /* While hydrogen is in Saha equilibrium the gas temperature stays
+     * quasi-static even if the coupling is already weak (a small
+     * thermal.quasi_static_limit, a fast expansion): the joint equations
+     * start where hydrogen leaves Saha, not in equilibrium, where the
+     * Peebles rate is stiff beyond use and x_p sits against 1. */
+    if (phase == 1 || (phase == 2 && H / compton < settings->quasi_static_limit)) {
       T_gas[i] = jg__gas_temperature_quasi_static(T_rad, H, compton);
       continue;
     }
     if (phase < 3) {
-      /* Coupling weak already in Saha equilibrium (little or cold radiation,
-       * a fast expansion, or a small thermal.quasi_static_limit): the joint
-       * equations start from the Saha x_p, which the Peebles rate keeps. */
       phase = 3;
       x = xi;
       y[0] = x_p[i];
