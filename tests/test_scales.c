@@ -359,14 +359,19 @@ Test(scales, half_suppression_wavenumber) {
 /* Valid cosmologies at the edges of the box, refused before (issue 17): a
  * CMB temperature of 30 K (the documented limit) and an output at the
  * thermal start z = 8000 sent the half-suppression search to the upper
- * bound k = 1e5; h = 0.05 with ordinary densities has Omega_de ~ -56, so
- * H^2 turns negative soon after a = 1, where the coefficient tables used to
- * reach. Each must give finite, ordered scales down to z = 0. */
+ * bound k = 1e5; h = 0.1 (the lower limit) with the largest densities
+ * has Omega_m = 300 and Omega_de = -299 (flat), so H^2 turns negative at
+ * a = (300/299)^(1/3) = 1.0011, inside the 8 nodes (0.016 in ln a) the
+ * coefficient tables used to reach beyond a = 1 (h = 0.05 with ordinary
+ * densities failed the same way). Each must give finite, ordered scales
+ * down to z = 0. */
 Test(scales, valid_cosmologies_at_the_edges_of_the_box) {
   jg_params p[3];
   for (int i = 0; i < 3; i++) jg_params_set_defaults(&p[i]);
   p[0].cosmology.cmb_temperature_K = 30.0;
-  p[1].cosmology.hubble_h = 0.05;
+  p[1].cosmology.hubble_h = 0.1;
+  p[1].cosmology.baryon_density_h2 = 1.0;
+  p[1].cosmology.cdm_density_h2 = 2.0;
   const double z_of[3][2] = {{20.0, 0.0}, {20.0, 0.0}, {8000.0, 10.0}};
   for (int c = 0; c < 3; c++) {
     real_case r;
