@@ -392,6 +392,59 @@ Test(scales, valid_cosmologies_at_the_edges_of_the_box) {
   }
 }
 
+/* Scales that do not exist are 0, not failures. The random sweep
+ * (tests/valid_sweep.c, seed 20261203) met both on real histories, at the
+ * level of the integration error: a k -> 0 delta_b/delta_c still <= 0 (no
+ * half of it to find; this was exit 2) and a small-k law of delta_b with no
+ * suppression (k_F = 1/sqrt(0), refused as infinite by the table). Here the
+ * gh medium makes each exact: baryons starting opposite to the dark matter
+ * (delta_b = -delta_c, moving against it) keep delta_b/delta_c < 0 for a
+ * while, and without pressure the k^2 coefficients are exactly 0. */
+static int no_pressure_eval(const void *ctx, double ln_a, jg_medium_coefficients *c) {
+  int st = gh_eval(ctx, ln_a, c);
+  c->pressure = 0.0;
+  return st;
+}
+
+Test(scales, scales_that_do_not_exist_are_zero) {
+  gh_medium g = {10.0, 0.0};
+  const double a_i = 1e-4;
+  jg_medium md = {gh_eval, &g, 0.0, -40.0, 10.0, 0.0, 1e30, 1.0};
+  jg_perturb_settings s = {0};
+  s.z_initial = 1.0 / a_i - 1.0;
+  s.sound_speed = JG_SOUND_SPEED_ISOTHERMAL;
+  s.rel_tol = 1e-10;
+  s.abs_tol = 1e-13;
+  jg_perturb_start opposite = {-1.0, -1.0, 0.0};
+  jg_error err;
+  jg_perturb_model *m = jg_perturb_model_new_medium(&md, &s, &opposite, &err);
+  cr_assert_not_null(m, "%s", err.message);
+  jg_perturb_workspace *w = jg_perturb_workspace_new(m, &err);
+  const double z = 1.0 / (1.2 * a_i) - 1.0;
+  jg_scales_point p;
+  jg_error_clear(&err);
+  cr_assert_eq(jg_scales_compute(m, w, &z, 1, &p, &err), JG_OK, "%s", err.message);
+  cr_assert_lt(p.b_over_c_large, 0.0, "the premise: %g", p.b_over_c_large);
+  cr_assert(p.half_found == 0 && p.k_half == 0.0 && p.m_half == 0.0);
+  jg_perturb_workspace_free(w);
+  jg_perturb_model_free(m);
+
+  md.eval = no_pressure_eval;
+  jg_perturb_start together = {1.0, 1.0, 0.0};
+  m = jg_perturb_model_new_medium(&md, &s, &together, &err);
+  cr_assert_not_null(m, "%s", err.message);
+  w = jg_perturb_workspace_new(m, &err);
+  const double z_late = 9.0;
+  cr_assert_eq(jg_scales_compute(m, w, &z_late, 1, &p, &err), JG_OK, "%s", err.message);
+  cr_assert(p.k_filter_solved == 0.0 && p.m_filter_solved == 0.0 &&
+                p.k_filter_integral_isothermal == 0.0 && p.m_filter_integral_isothermal == 0.0 &&
+                p.k_filter_solved_cdm == 0.0,
+            "k_F = %g, integral %g", p.k_filter_solved, p.k_filter_integral_isothermal);
+  cr_assert_eq(p.half_found, 0);
+  jg_perturb_workspace_free(w);
+  jg_perturb_model_free(m);
+}
+
 /* ---- the scales table in h units ----------------------------------------------- */
 
 /* A row of the scales table with output.units = "Mpc/h" is the default row

@@ -310,6 +310,11 @@ typedef struct outcome {
 
 static int finite_positive(double v) { return isfinite(v) && v > 0.0; }
 
+/* Both 0 (no such scale), or both finite and positive. */
+static int scale_and_mass(double k, double mass) {
+  return (k == 0.0 && mass == 0.0) || (finite_positive(k) && finite_positive(mass));
+}
+
 /* Load, build and compute; the checks of the file comment. */
 static void run_one(const sweep_options *o, long index, int attempt, FILE *sink, drawn *d,
                     outcome *out) {
@@ -395,14 +400,20 @@ static void run_one(const sweep_options *o, long index, int attempt, FILE *sink,
             "scales", "z = %g: Jeans k %g (adiabatic %g), M %g (adiabatic %g) not ordered", z[i],
             q->k_jeans_isothermal, q->k_jeans_adiabatic, q->m_jeans_isothermal,
             q->m_jeans_adiabatic);
-    FAIL_IF(!finite_positive(q->k_filter_solved) || !finite_positive(q->m_filter_solved) ||
-                !finite_positive(q->k_filter_integral_isothermal) ||
-                !(q->k_filter_integral_adiabatic < q->k_filter_integral_isothermal),
-            "scales", "z = %g: filtering k %g, integral %g (adiabatic %g)", z[i],
-            q->k_filter_solved, q->k_filter_integral_isothermal, q->k_filter_integral_adiabatic);
-    FAIL_IF(!finite_positive(q->b_over_c_large) || !finite_positive(q->delta_m_large), "scales",
-            "z = %g: k -> 0 delta_b/delta_c %g, delta_m %g", z[i], q->b_over_c_large,
-            q->delta_m_large);
+    /* A filtering scale is 0 (mass 0) where the small-k law shows no
+     * suppression; otherwise positive, and gamma = 5/3 gives a smaller k. */
+    FAIL_IF(!scale_and_mass(q->k_filter_solved, q->m_filter_solved) ||
+                !scale_and_mass(q->k_filter_integral_isothermal,
+                                q->m_filter_integral_isothermal) ||
+                !(q->k_filter_integral_adiabatic < q->k_filter_integral_isothermal ||
+                  q->k_filter_integral_isothermal == 0.0),
+            "scales", "z = %g: filtering k %g (M %g), integral %g (M %g, adiabatic k %g)", z[i],
+            q->k_filter_solved, q->m_filter_solved, q->k_filter_integral_isothermal,
+            q->m_filter_integral_isothermal, q->k_filter_integral_adiabatic);
+    FAIL_IF(!isfinite(q->b_over_c_large) || !finite_positive(q->delta_m_large) ||
+                (q->half_found && !(q->b_over_c_large > 0.0)),
+            "scales", "z = %g: k -> 0 delta_b/delta_c %g, delta_m %g, half found %d", z[i],
+            q->b_over_c_large, q->delta_m_large, q->half_found);
     FAIL_IF(q->half_found && !(q->k_half >= k_lo && q->k_half <= k_hi &&
                                finite_positive(q->m_half)),
             "scales", "z = %g: k_half = %.17g outside [%g, %g] or M_half = %g", z[i], q->k_half,

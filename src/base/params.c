@@ -83,12 +83,13 @@ static const param_spec specs[] = {
            0, 0.9999, 0, "hydrogen follows Saha equilibrium while x_p is above this"),
     NUMBER("thermal.quasi_static_limit", thermal.quasi_static_limit, "", "0.001",
            "0 < value <= 0.1", 0, 1, 0.1, 0,
-           "T_gas takes its quasi-static value while H / Gamma_C is below this"),
+           "T_gas takes its quasi-static value while H / Gamma_C is below this (and while "
+           "hydrogen is in Saha equilibrium)"),
     NUMBER("thermal.rel_tol", thermal.rel_tol, "", "1e-10", "1e-13 <= value <= 1e-3", 1e-13, 0,
            1e-3, 0, "relative tolerance of the stiff integration"),
     NUMBER("thermal.abs_tol", thermal.abs_tol, "", "1e-12", "0 < value <= 1e-3", 0, 1, 1e-3, 0,
            "absolute tolerance of the stiff integration (x_p, and T_gas in K)"),
-    INTEGER("thermal.grid_points", thermal.grid_points, "4000", "200 <= value <= 1000000", 200,
+    INTEGER("thermal.grid_points", thermal.grid_points, "4000", "1000 <= value <= 1000000", 1000,
             1000000, "nodes of the stored history, uniform in ln a"),
 
     NUMBER("perturbations.k_min", perturbations.k_min, "1/Mpc", "1.0", "1 <= value <= 1e5", 1,

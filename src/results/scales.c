@@ -80,8 +80,10 @@ jg_status jg_scales_half_suppression(const jg_perturb_model *m, jg_perturb_works
   *k_half = 0.0;
   double k_lo, k_hi;
   jg_perturb_model_k_range(m, &k_lo, &k_hi);
+  /* The ratio comes from the k = 0 solve: one that is not > 0 is a failure
+   * of this stage (exit 1), not bad input. */
   if (!(ratio_large > 0.0))
-    return JG_FAIL(err, JG_EINVAL,
+    return JG_FAIL(err, JG_ENUMERIC,
                    "half suppression at z = %g: the large-scale delta_b/delta_c is %g (must be > 0)",
                    z, ratio_large);
   half_ctx c = {m, w, z, 0.5 * ratio_large, 0.0, 0.0, JG_OK, err};
@@ -159,8 +161,10 @@ static jg_status jeans_at(const jg_perturb_model *m, double z, double *k_iso, do
   return JG_OK;
 }
 
+/* k from 1/k^2; 0 (with mass 0, see jg_scales_mass) when 1/k^2 <= 0: the
+ * small-k law shows no suppression yet, and the scale does not exist. */
 static double k_from_inverse_square(double inv_k2) {
-  return inv_k2 > 0.0 ? 1.0 / sqrt(inv_k2) : HUGE_VAL;
+  return inv_k2 > 0.0 ? 1.0 / sqrt(inv_k2) : 0.0;
 }
 
 jg_status jg_scales_compute(const jg_perturb_model *m, jg_perturb_workspace *w, const double *z,
@@ -197,10 +201,15 @@ jg_status jg_scales_compute(const jg_perturb_model *m, jg_perturb_workspace *w, 
     p->delta_m_large = l->k0.delta_m;
     p->growth_rate_large = l->k0.growth_m;
 
-    double k_start = SC_START_FRACTION * p->k_filter_solved_cdm;
-    st = jg_scales_half_suppression(m, w, z[i], l->k0.b_over_c, k_start, &p->k_half,
-                                    &p->half_found, err);
-    if (st != JG_OK) return st;
+    /* No half-suppression scale while the k -> 0 baryons have not started
+     * to follow the dark matter (delta_b/delta_c <= 0 there). */
+    if (l->k0.b_over_c > 0.0) {
+      double k_start = p->k_filter_solved_cdm > 0.0 ? SC_START_FRACTION * p->k_filter_solved_cdm
+                                                     : HUGE_VAL;
+      st = jg_scales_half_suppression(m, w, z[i], l->k0.b_over_c, k_start, &p->k_half,
+                                      &p->half_found, err);
+      if (st != JG_OK) return st;
+    }
     p->m_half = p->half_found ? jg_scales_mass(m, p->k_half, 1.0) : 0.0;
 
     if (th) {
