@@ -52,7 +52,7 @@
 /* Extra nodes before the start, so that the finite difference for dfdt and
  * the first trial steps stay on the table. The table ends at a = 1 exactly:
  * beyond today the background is not checked (H^2 may turn negative soon
- * after a = 1 when Omega_de < 0, e.g. h = 0.05 with ordinary densities), and
+ * after a = 1 when Omega_de < 0, e.g. h = 0.1 with the largest densities), and
  * the only evaluations there, dfdt's PT_DFDT_STEP past the last output,
  * extrapolate the last interval's polynomial. */
 #define PT_MARGIN_NODES 8
