@@ -48,7 +48,7 @@
 #include "jeansgrow/jeansgrow.h"
 
 #define MAX_SETS 64
-#define SET_SIZE 192
+#define SET_SIZE 768 /* room for MAX_LIST redshifts of 17 digits */
 #define MAX_LIST 16
 #define MAX_ATTEMPTS 100
 
@@ -153,7 +153,7 @@ static void remember(drawn *d, const char *key, double v) {
 static void set_text(drawn *d, const char *key, const char *fmt, ...)
     __attribute__((format(printf, 3, 4)));
 static void set_text(drawn *d, const char *key, const char *fmt, ...) {
-  char value[SET_SIZE - 70];
+  char value[SET_SIZE - 96];
   va_list ap;
   va_start(ap, fmt);
   vsnprintf(value, sizeof value, fmt, ap);
@@ -239,7 +239,7 @@ static int draw_all(rng *r, const sweep_options *o, double k_floor, drawn *d, ch
         hi.inclusive = 0;
       }
       int n = 1 + (int)(rng_next(r) % (uint64_t)(o->full ? MAX_LIST : 3));
-      char list[SET_SIZE - 70];
+      char list[SET_SIZE - 96];
       size_t used = 0;
       list[used++] = '[';
       for (int j = 0; j < n; j++) {
