@@ -25,7 +25,7 @@
 /* A run as small as keeps every stage: a coarse history, two output
  * redshifts, three wavenumbers (so the half-suppression search runs). */
 #define SMALL                                                                                  \
-  "--set", "thermal.grid_points=300", "--set", "output.history_rows=20", "--set",               \
+  "--set", "thermal.grid_points=500", "--set", "output.history_rows=20", "--set",               \
       "output.redshifts=[200.0, 20.0]", "--set", "perturbations.k_count=3", "--set",             \
       "perturbations.k_max=300.0"
 

@@ -446,6 +446,32 @@ Test(heath_growth, rejects_evolving_dark_energy) {
   jg_background_free(bg);
 }
 
+/* The reference universe of the growth functions drops radiation but keeps
+ * Omega_Lambda = 1 - Omega_m - Omega_r (flat). When radiation dominates
+ * today (T_cmb = 30 K: Omega_r = 1.35 at h = 0.6736) its H^2 = Omega_m a^-3 +
+ * Omega_Lambda vanishes at a_c = (Omega_m / -Omega_Lambda)^(1/3) (algebra):
+ * defined just before, not just after; always defined on Planck 2018. */
+Test(heath_growth, reference_defined_while_its_hubble_rate_is_real) {
+  jg_cosmology c = planck2018();
+  jg_background *bg = build(&c);
+  cr_assert_eq(jg_background_reference_growth_defined(bg, 1.0), 1);
+  jg_background_free(bg);
+  c.cmb_temperature_K = 30.0;
+  bg = build(&c);
+  cr_assert_gt(bg->omega_r, 1.0, "the premise: radiation dominates today");
+  cr_assert_lt(bg->omega_de, 0.0);
+  const double a_c = cbrt(bg->omega_m / -bg->omega_de);
+  cr_assert_lt(a_c, 1.0);
+  cr_assert_eq(jg_background_reference_growth_defined(bg, 0.999 * a_c), 1, "a_c = %g", a_c);
+  cr_assert_eq(jg_background_reference_growth_defined(bg, 1.001 * a_c), 0, "a_c = %g", a_c);
+  cr_assert_eq(jg_background_reference_growth_defined(bg, 1.0), 0);
+  double D;
+  jg_error err;
+  cr_assert_eq(jg_background_growth_heath(bg, 0.999 * a_c, &D, &err), JG_OK, "%s", err.message);
+  cr_assert(isfinite(D) && D > 0.0);
+  jg_background_free(bg);
+}
+
 /* ---- the analytic slope and curvature ---------------------------------- */
 
 TestSuite(derivatives, .init = quiet_gsl);

@@ -126,10 +126,10 @@ Test(params, later_override_of_the_same_key_wins) {
 
 Test(params, override_creates_a_missing_group) {
   /* minimal.cfg has no thermal group at all. */
-  const char *set[] = {"thermal.start_redshift=9000.0", "thermal.grid_points=500"};
+  const char *set[] = {"thermal.start_redshift=9000.0", "thermal.grid_points=1500"};
   load_ok(temp_file("minimal.cfg", minimal_text), set, 2, &loaded);
   cr_expect_eq(loaded.thermal.start_redshift, 9000.0);
-  cr_expect_eq(loaded.thermal.grid_points, 500);
+  cr_expect_eq(loaded.thermal.grid_points, 1500);
 }
 
 Test(params, override_accepts_an_array_and_an_integer_for_a_number) {

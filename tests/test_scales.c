@@ -155,6 +155,92 @@ Test(scales, gnedin_hui_two_phase_history) {
   jg_perturb_model_free(m);
 }
 
+/* ---- wavenumbers at the bounds of the accepted range ----------------------------- */
+
+/* The half-suppression search must never hand the solver a wavenumber past
+ * the accepted range: exp(log(1e5)) is 1e5 plus one ulp, so a search that
+ * round-trips the bound through ln k refused valid cosmologies (found by
+ * the random sweep of valid inputs). Here the crossing lies in the last step of the ladder, between
+ * k_max/1.2 and k_max = 1e5, so Brent's bracket ends exactly on the bound.
+ * The gh medium depends on k/k_J0 alone, so the crossing found with
+ * k_J0 = 10 and no upper bound, scaled, places it at 0.9 k_max; the scaled
+ * search must find the same crossing (1e-6: root tolerance 1e-7 in ln k). */
+Test(scales, half_suppression_bracket_ending_on_the_upper_bound) {
+  const double k_max = 1e5;
+  cr_assert_gt(exp(log(k_max)), k_max, "the premise of this test: the round trip rounds up");
+  gh_medium g = {10.0, 0.0};
+  jg_medium md;
+  const double a_i = 1e-4, z = 99.0;
+  jg_perturb_model *m = gh_model(&g, a_i, &md);
+  jg_error err;
+  jg_perturb_workspace *w = jg_perturb_workspace_new(m, &err);
+  double k_free;
+  int found;
+  cr_assert_eq(jg_scales_half_suppression(m, w, z, 1.0, g.k_j0 / 4.0, &k_free, &found, &err),
+               JG_OK, "%s", err.message);
+  cr_assert_eq(found, 1);
+  jg_perturb_workspace_free(w);
+  jg_perturb_model_free(m);
+
+  gh_medium scaled = {g.k_j0 * 0.9 * k_max / k_free, 0.0};
+  m = gh_model(&scaled, a_i, &md);
+  md.k_max = k_max; /* the model copied the medium: build again with the bound */
+  jg_perturb_model_free(m);
+  jg_perturb_settings s = {0};
+  s.z_initial = 1.0 / a_i - 1.0;
+  s.sound_speed = JG_SOUND_SPEED_ISOTHERMAL;
+  s.rel_tol = 1e-11;
+  s.abs_tol = 1e-14;
+  jg_perturb_start start = {1.0, 1.0, 0.0};
+  m = jg_perturb_model_new_medium(&md, &s, &start, &err);
+  cr_assert_not_null(m, "%s", err.message);
+  w = jg_perturb_workspace_new(m, &err);
+  double k_half;
+  jg_error_clear(&err);
+  cr_assert_eq(jg_scales_half_suppression(m, w, z, 1.0, k_max / 1.2, &k_half, &found, &err),
+               JG_OK, "%s", err.message);
+  cr_assert_eq(found, 1);
+  ASSERT_REL(k_half, 0.9 * k_max, 1e-6, "scaled crossing");
+  cr_assert_leq(k_half, k_max);
+  /* Starting on the bound itself, above the crossing: the ladder steps down. */
+  cr_assert_eq(jg_scales_half_suppression(m, w, z, 1.0, k_max, &k_half, &found, &err), JG_OK,
+               "%s", err.message);
+  ASSERT_REL(k_half, 0.9 * k_max, 1e-6, "started on the bound");
+  jg_perturb_workspace_free(w);
+  jg_perturb_model_free(m);
+}
+
+/* A solver failure inside the search is this stage's failure: a numerical
+ * one (exit 1 in the program), naming the stage, the wavenumber and z,
+ * never "invalid input" (exit 2), which would blame a valid parameter file. */
+static int fails_late_eval(const void *ctx, double ln_a, jg_medium_coefficients *c) {
+  if (ln_a > log(0.05)) return 1;
+  return gh_eval(ctx, ln_a, c);
+}
+
+Test(scales, half_suppression_failure_names_stage_k_and_z) {
+  gh_medium g = {10.0, 0.0};
+  jg_medium md = {fails_late_eval, &g, 0.0, -40.0, 10.0, 0.0, 1e30, 1.0};
+  jg_perturb_settings s = {0};
+  s.z_initial = 1e4 - 1.0;
+  s.sound_speed = JG_SOUND_SPEED_ISOTHERMAL;
+  s.rel_tol = 1e-8;
+  s.abs_tol = 1e-10;
+  jg_error err;
+  jg_perturb_model *m = jg_perturb_model_new_medium(&md, &s, NULL, &err);
+  cr_assert_not_null(m, "%s", err.message);
+  jg_perturb_workspace *w = jg_perturb_workspace_new(m, &err);
+  double k_half;
+  int found;
+  jg_error_clear(&err);
+  jg_status st = jg_scales_half_suppression(m, w, 9.0, 1.0, 2.5, &k_half, &found, &err);
+  cr_assert_eq(st, JG_ENUMERIC, "%s: %s", jg_status_name(st), err.message);
+  cr_assert(strstr(err.message, "half suppression at z = 9, k = 2.5 /Mpc: "), "%s", err.message);
+  cr_assert_eq(found, 0);
+  jg_perturb_workspace_free(w);
+  jg_perturb_model_free(m);
+}
+
 /* ---- real history ------------------------------------------------------------ */
 
 /* The reference cosmology with sound-speed model ss. */
@@ -268,6 +354,95 @@ Test(scales, half_suppression_wavenumber) {
     ASSERT_REL(sc[i].growth_heath, D, 1e-14, "z = %g", z[i]);
   }
   real_close(&r);
+}
+
+/* Valid cosmologies at the edges of the box, refused before: a
+ * CMB temperature of 30 K (the documented limit) and an output at the
+ * thermal start z = 8000 sent the half-suppression search to the upper
+ * bound k = 1e5; h = 0.1 (the lower limit) with the largest densities
+ * has Omega_m = 300 and Omega_de = -299 (flat), so H^2 turns negative at
+ * a = (300/299)^(1/3) = 1.0011, inside the 8 nodes (0.016 in ln a) the
+ * coefficient tables used to reach beyond a = 1 (h = 0.05 with ordinary
+ * densities failed the same way). Each must give finite, ordered scales
+ * down to z = 0. */
+Test(scales, valid_cosmologies_at_the_edges_of_the_box) {
+  jg_params p[3];
+  for (int i = 0; i < 3; i++) jg_params_set_defaults(&p[i]);
+  p[0].cosmology.cmb_temperature_K = 30.0;
+  p[1].cosmology.hubble_h = 0.1;
+  p[1].cosmology.baryon_density_h2 = 1.0;
+  p[1].cosmology.cdm_density_h2 = 2.0;
+  const double z_of[3][2] = {{20.0, 0.0}, {20.0, 0.0}, {8000.0, 10.0}};
+  for (int c = 0; c < 3; c++) {
+    real_case r;
+    real_case_open(&r, &p[c]);
+    jg_scales_point sc[2];
+    jg_error err;
+    jg_error_clear(&err);
+    cr_assert_eq(jg_scales_compute(r.m, r.w, z_of[c], 2, sc, &err), JG_OK, "case %d: %s", c,
+                 err.message);
+    for (int i = 0; i < 2; i++) {
+      cr_assert(isfinite(sc[i].k_jeans_isothermal) && isfinite(sc[i].k_filter_solved) &&
+                    sc[i].k_jeans_adiabatic < sc[i].k_jeans_isothermal,
+                "case %d, z = %g", c, z_of[c][i]);
+      cr_assert(sc[i].half_found == 0 || (sc[i].k_half > 0.0 && sc[i].k_half <= 1e5),
+                "case %d, z = %g: k_half %g", c, z_of[c][i], sc[i].k_half);
+    }
+    real_case_close(&r);
+  }
+}
+
+/* Scales that do not exist are 0, not failures. The random sweep
+ * (tests/valid_sweep.c, seed 20261203) met both on real histories, at the
+ * level of the integration error: a k -> 0 delta_b/delta_c still <= 0 (no
+ * half of it to find; this was exit 2) and a small-k law of delta_b with no
+ * suppression (k_F = 1/sqrt(0), refused as infinite by the table). Here the
+ * gh medium makes each exact: baryons starting opposite to the dark matter
+ * (delta_b = -delta_c, moving against it) keep delta_b/delta_c < 0 for a
+ * while, and without pressure the k^2 coefficients are exactly 0. */
+static int no_pressure_eval(const void *ctx, double ln_a, jg_medium_coefficients *c) {
+  int st = gh_eval(ctx, ln_a, c);
+  c->pressure = 0.0;
+  return st;
+}
+
+Test(scales, scales_that_do_not_exist_are_zero) {
+  gh_medium g = {10.0, 0.0};
+  const double a_i = 1e-4;
+  jg_medium md = {gh_eval, &g, 0.0, -40.0, 10.0, 0.0, 1e30, 1.0};
+  jg_perturb_settings s = {0};
+  s.z_initial = 1.0 / a_i - 1.0;
+  s.sound_speed = JG_SOUND_SPEED_ISOTHERMAL;
+  s.rel_tol = 1e-10;
+  s.abs_tol = 1e-13;
+  jg_perturb_start opposite = {-1.0, -1.0, 0.0};
+  jg_error err;
+  jg_perturb_model *m = jg_perturb_model_new_medium(&md, &s, &opposite, &err);
+  cr_assert_not_null(m, "%s", err.message);
+  jg_perturb_workspace *w = jg_perturb_workspace_new(m, &err);
+  const double z = 1.0 / (1.2 * a_i) - 1.0;
+  jg_scales_point p;
+  jg_error_clear(&err);
+  cr_assert_eq(jg_scales_compute(m, w, &z, 1, &p, &err), JG_OK, "%s", err.message);
+  cr_assert_lt(p.b_over_c_large, 0.0, "the premise: %g", p.b_over_c_large);
+  cr_assert(p.half_found == 0 && p.k_half == 0.0 && p.m_half == 0.0);
+  jg_perturb_workspace_free(w);
+  jg_perturb_model_free(m);
+
+  md.eval = no_pressure_eval;
+  jg_perturb_start together = {1.0, 1.0, 0.0};
+  m = jg_perturb_model_new_medium(&md, &s, &together, &err);
+  cr_assert_not_null(m, "%s", err.message);
+  w = jg_perturb_workspace_new(m, &err);
+  const double z_late = 9.0;
+  cr_assert_eq(jg_scales_compute(m, w, &z_late, 1, &p, &err), JG_OK, "%s", err.message);
+  cr_assert(p.k_filter_solved == 0.0 && p.m_filter_solved == 0.0 &&
+                p.k_filter_integral_isothermal == 0.0 && p.m_filter_integral_isothermal == 0.0 &&
+                p.k_filter_solved_cdm == 0.0,
+            "k_F = %g, integral %g", p.k_filter_solved, p.k_filter_integral_isothermal);
+  cr_assert_eq(p.half_found, 0);
+  jg_perturb_workspace_free(w);
+  jg_perturb_model_free(m);
 }
 
 /* ---- the scales table in h units ----------------------------------------------- */

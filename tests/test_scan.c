@@ -974,7 +974,7 @@ Test(scan, program_refuses_bad_grids_before_any_work) {
        "<= 0"},
       {"cosmology.hubble_h=0.5:7:3", NULL,
        "jeansgrow: scan point 3 of 3 (cosmology.hubble_h = 7) is not a valid model: "
-       "cosmology.hubble_h must satisfy 0 < value <= 5 (got 7)\n"},
+       "cosmology.hubble_h must satisfy 0.1 <= value <= 5 (got 7)\n"},
   };
   for (size_t i = 0; i < sizeof cases / sizeof cases[0]; i++) {
     const char *args[16] = {JG_PROGRAM, "scan", REFERENCE, "--vary", cases[i].vary, "--set",

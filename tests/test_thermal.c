@@ -817,6 +817,45 @@ Test(convergence, grid_leaves_the_integration_alone) {
   free_history(&coarse);
 }
 
+/* Settings inside their documented ranges that used to fail (found by the
+ * random sweep of valid inputs, tests/valid_sweep.c): with the smallest
+ * quasi-static limit and the latest Saha hand-over the Compton coupling can
+ * count as weak while hydrogen is still in Saha equilibrium, which was an
+ * error. Now T_gas stays quasi-static until hydrogen leaves Saha, the joint
+ * equations start there, and x_p above 1 is refused as a trial step. The
+ * history must stay physical (x_e at most H and He fully ionised, T_gas <=
+ * T_rad, to 1 %) and, since the quasi-static limit only sets where an
+ * approximation hands over, agree with the default history: 1e-3 in T_gas
+ * and 1 % in x_e at z = 1000, 500, 100 and 20 (the loosest relative
+ * tolerance allowed, 1e-5, over ~1000 steps; common practice, no source). */
+Test(convergence, weak_coupling_in_saha_equilibrium) {
+  jg_params p;
+  jg_params_set_defaults(&p);
+  history ref = build_history(&p);
+  p.thermal.quasi_static_limit = 1e-4;
+  p.thermal.saha_limit = 0.9999;
+  p.thermal.rel_tol = 1e-5;
+  p.thermal.abs_tol = 1e-8;
+  history h = build_history(&p);
+  const double x_e_max = 1.0 + 2.0 * h.bg->helium_to_hydrogen, slack = 1.0 + 1e-2;
+  for (double z = 8000.0; z >= 1.0; z *= 0.97) {
+    jg_thermal_state s = state_at(&h, z);
+    cr_assert(s.x_e > 0.0 && s.x_e <= x_e_max * slack, "z = %g: x_e = %g", z, s.x_e);
+    cr_assert(s.T_gas > 0.0 && s.T_gas <= s.T_rad * slack, "z = %g: T_gas = %g, T_rad = %g", z,
+              s.T_gas, s.T_rad);
+  }
+  const double zs[] = {1000.0, 500.0, 100.0, 20.0};
+  for (int i = 0; i < 4; i++) {
+    char what[64];
+    snprintf(what, sizeof what, "x_e at z = %g", zs[i]);
+    assert_rel(state_at(&h, zs[i]).x_e, state_at(&ref, zs[i]).x_e, 1e-2, what);
+    snprintf(what, sizeof what, "T_gas at z = %g", zs[i]);
+    assert_rel(state_at(&h, zs[i]).T_gas, state_at(&ref, zs[i]).T_gas, 1e-3, what);
+  }
+  free_history(&h);
+  free_history(&ref);
+}
+
 /* ---- optical depth and visibility ---------------------------------------------- */
 
 TestSuite(visibility, .init = quiet_gsl);

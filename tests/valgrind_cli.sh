@@ -47,7 +47,7 @@ check epochs_reference 0 epochs "$ref"
 check history_reference 0 history "$ref" -o "$work/history.txt"
 # Replacing an existing table goes through the same atomic rename.
 check history_replaces_file 0 history "$ref" --set output.history_rows=50 -o "$work/history.txt"
-check epochs_with_overrides 0 epochs "$ref" --set thermal.grid_points=500 \
+check epochs_with_overrides 0 epochs "$ref" --set thermal.grid_points=1000 \
   --set 'output.redshifts=[900.0, 30.0]' --set cosmology.hubble_h=0.7
 check keys 0 keys
 check help 0 history --help

@@ -99,6 +99,13 @@ jg_status jg_background_growth_heath(const jg_background *bg, double a, double *
 jg_status jg_background_growth_factor(const jg_background *bg, double a, double *D, double *f,
                                       jg_error *err);
 
+/* 1 when the reference universe of the two growth functions above (matter,
+ * curvature and dark energy, radiation left out) has H^2 > 0 from the start
+ * of the growth equation to a; 0 otherwise, e.g. when radiation dominates
+ * today (Omega_r >~ 1: T_cmb = 30 K with h < 0.78, or h < 0.0065 at
+ * T_cmb = 2.7255 K), where that reference does not exist. */
+int jg_background_reference_growth_defined(const jg_background *bg, double a);
+
 #ifdef __cplusplus
 }
 #endif

@@ -30,17 +30,17 @@ static const char *const stepper_words[] = {"msbdf+rk8pd", "msbdf", "rosenbrock"
 static const char *const units_words[] = {"Mpc", "Mpc/h", NULL};
 
 const jg__param_spec jg__param_specs[] = {
-    REQUIRED_NUMBER("cosmology.hubble_h", cosmology.hubble_h, "", "0 < value <= 5", 0, 1, 5, 0,
+    REQUIRED_NUMBER("cosmology.hubble_h", cosmology.hubble_h, "", "0.1 <= value <= 5", 0.1, 0, 5, 0,
                     "H0 / (100 km/s/Mpc)"),
     REQUIRED_NUMBER("cosmology.baryon_density_h2", cosmology.baryon_density_h2, "",
                     "0 < value <= 1", 0, 1, 1, 0, "baryon density Omega_b h^2"),
-    REQUIRED_NUMBER("cosmology.cdm_density_h2", cosmology.cdm_density_h2, "", "0 < value <= 2",
-                    0, 1, 2, 0, "cold dark matter density Omega_c h^2"),
+    REQUIRED_NUMBER("cosmology.cdm_density_h2", cosmology.cdm_density_h2, "", "0.01 <= value <= 2",
+                    0.01, 0, 2, 0, "cold dark matter density Omega_c h^2"),
     NUMBER("cosmology.curvature_omega", cosmology.curvature_omega, "", "0.0",
            "-1 < value < 1 (and H^2 > 0 at all times)", -1, 1, 1, 1,
            "curvature density Omega_k today (negative: closed)"),
     NUMBER("cosmology.cmb_temperature_K", cosmology.cmb_temperature_K, "K", "2.7255",
-           "0 < value <= 30", 0, 1, 30, 0, "CMB temperature today"),
+           "1 <= value <= 30", 1, 0, 30, 0, "CMB temperature today"),
     NUMBER("cosmology.helium_mass_fraction", cosmology.helium_mass_fraction, "", "0.2454",
            "0 <= value < 1", 0, 0, 1, 1, "primordial helium mass fraction Y_P"),
     NUMBER("cosmology.neutrino_number_eff", cosmology.neutrino_number_eff, "", "3.046",
@@ -60,13 +60,14 @@ const jg__param_spec jg__param_specs[] = {
     NUMBER("thermal.saha_limit", thermal.saha_limit, "", "0.99", "0.5 <= value <= 0.9999", 0.5,
            0, 0.9999, 0, "hydrogen follows Saha equilibrium while x_p is above this"),
     NUMBER("thermal.quasi_static_limit", thermal.quasi_static_limit, "", "0.001",
-           "0 < value <= 0.1", 0, 1, 0.1, 0,
-           "T_gas takes its quasi-static value while H / Gamma_C is below this"),
-    NUMBER("thermal.rel_tol", thermal.rel_tol, "", "1e-10", "1e-13 <= value <= 1e-3", 1e-13, 0,
-           1e-3, 0, "relative tolerance of the stiff integration"),
-    NUMBER("thermal.abs_tol", thermal.abs_tol, "", "1e-12", "0 < value <= 1e-3", 0, 1, 1e-3, 0,
+           "1e-4 <= value <= 0.1", 1e-4, 0, 0.1, 0,
+           "T_gas takes its quasi-static value while H / Gamma_C is below this (and while "
+           "hydrogen is in Saha equilibrium)"),
+    NUMBER("thermal.rel_tol", thermal.rel_tol, "", "1e-10", "1e-13 <= value <= 1e-5", 1e-13, 0,
+           1e-5, 0, "relative tolerance of the stiff integration"),
+    NUMBER("thermal.abs_tol", thermal.abs_tol, "", "1e-12", "0 < value <= 1e-5", 0, 1, 1e-5, 0,
            "absolute tolerance of the stiff integration (x_p, and T_gas in K)"),
-    INTEGER("thermal.grid_points", thermal.grid_points, "1500", "200 <= value <= 1000000", 200,
+    INTEGER("thermal.grid_points", thermal.grid_points, "1500", "500 <= value <= 1000000", 500,
             1000000,
             "nodes of the stored history uniform in ln a (about 160 more are graded around the "
             "phase switches and the ends)"),
@@ -173,6 +174,10 @@ const jg__stage_domain jg__stage_domains[] = {
     {"cosmology.curvature_omega", -HUGE_VAL, HUGE_VAL, 1, 1, "a finite number",
      "the background itself refuses any model whose H^2 turns negative, and is tested on "
      "strongly closed ones (Omega_k = -1.5, -5) where that check, not the file range, must act"},
+    {"cosmology.cmb_temperature_K", 0.0, 30.0, 1, 0, "0 < value <= 30",
+     "the file's lower limit of 1 K is for the thermal history (below it hydrogen recombined "
+     "before any allowed start); the background alone is tested down to 0.001 K, where the "
+     "radiation is small enough for the matter-only closed forms"},
     {"thermal.rel_tol", 0.0, 1.0, 1, 1, "0 < value < 1",
      "tolerances beyond the file range are legal for a program: the test of a genuine "
      "solver failure asks 1e-300"},

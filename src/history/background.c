@@ -546,12 +546,32 @@ static int growth_rhs(double x, const double y[], double f[], void *params) {
   return GSL_SUCCESS;
 }
 
+/* Start of the growth equation: where dark energy and curvature are
+ * negligible next to matter. */
+static double growth_a_start(double a) { return fmin(1e-5, 0.5 * a); }
+
+/* Points per e-fold at which the reference H^2 is checked: its terms are
+ * powers of a (times exp(-3 wa (1 - a))), so a sign change between two
+ * points 1/64 e-fold apart would need a double root there. */
+#define BG_REFERENCE_CHECKS_PER_EFOLD 64.0
+
+int jg_background_reference_growth_defined(const jg_background *bg, double a) {
+  if (!bg || !(a > 0.0 && a <= 1.0)) return 0;
+  const double a_start = growth_a_start(a), span = log(a / a_start);
+  const int n = (int)ceil(BG_REFERENCE_CHECKS_PER_EFOLD * span);
+  double de2;
+  for (int i = 0; i <= n; i++) {
+    const double ai = i == n ? a : a_start * exp(span * i / n);
+    if (!(growth_e2(bg, ai, &de2) > 0.0)) return 0;
+  }
+  return 1;
+}
+
 jg_status jg_background_growth_factor(const jg_background *bg, double a, double *D, double *f,
                                       jg_error *err) {
   jg_status st = check_args_a(bg, a, D, "jg_background_growth_factor", err);
   if (st != JG_OK) return st;
-  /* Start where dark energy and curvature are negligible next to matter. */
-  const double a_start = fmin(1e-5, 0.5 * a);
+  const double a_start = growth_a_start(a);
   background_ref ref = {bg};
   gsl_odeiv2_system sys = {growth_rhs, NULL, 2, &ref};
   gsl_odeiv2_driver *d =

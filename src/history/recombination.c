@@ -129,9 +129,12 @@ int jg__bracketed_root(double (*f)(double, void *), void *params, double lo, dou
   }
   const bool rising = flo < 0;
   int kept = 0; /* which end the last step kept: -1 low, +1 high */
-  for (int iter = 0; iter < 200; iter++) {
+  for (int iter = 0; iter < 400; iter++) {
     double x = (lo * fhi - hi * flo) / (fhi - flo);
-    if (!(x > lo && x < hi)) x = 0.5 * (lo + hi);
+    /* Every third step a bisection: regula falsi alone can creep along a
+     * bracket of hundreds of units where the function is flat over most of
+     * it; halving bounds the work by three times the bisection count. */
+    if (!(x > lo && x < hi) || iter % 3 == 2) x = 0.5 * (lo + hi);
     double fx = f(x, params);
     if (fx == 0 || hi - lo < tol) {
       *root = x;
@@ -152,11 +155,29 @@ int jg__bracketed_root(double (*f)(double, void *), void *params, double lo, dou
   return GSL_EMAXITER;
 }
 
-/* x_e to 1e-14, or the end of [lo, hi] the balance does not reach. */
+/* The balance against ln x_e: the bracket spans hundreds of decades. */
+static double electron_excess_ln(double ln_x_e, void *params) {
+  return electron_excess(exp(ln_x_e), params);
+}
+
+/* x_e to 1e-15 relative, or the end of [lo, hi] the balance does not reach.
+ * The bracket is first narrowed in ln x_e to 1e-6: in x_e itself a bracket
+ * from 1e-300 to the fully ionised value, which is large when helium
+ * dominates (Y_P -> 1), took regula falsi more than its steps to close on a
+ * root many decades below the top. The root is then found in x_e, relative
+ * to its size. */
 static int solve_electrons(electron_balance *b, double lo, double hi, double *x_e) {
   if (electron_excess(lo, b) <= 0) { *x_e = lo; return GSL_SUCCESS; }
   if (electron_excess(hi, b) >= 0) { *x_e = hi; return GSL_SUCCESS; }
-  return jg__bracketed_root(electron_excess, b, lo, hi, 1e-14, x_e);
+  double ln_x_e;
+  /* exp(log(x)) may miss x by an ulp: a root that close to an end leaves
+   * no sign change in ln x_e, and the search in x_e takes the whole bracket. */
+  if (jg__bracketed_root(electron_excess_ln, b, log(lo), log(hi), 1e-6, &ln_x_e) != GSL_SUCCESS)
+    return jg__bracketed_root(electron_excess, b, lo, hi, 1e-15 * hi, x_e);
+  const double near_lo = fmax(exp(ln_x_e - 2e-6), lo), near_hi = fmin(exp(ln_x_e + 2e-6), hi);
+  if (electron_excess(near_lo, b) > 0 && electron_excess(near_hi, b) < 0)
+    return jg__bracketed_root(electron_excess, b, near_lo, near_hi, 1e-15 * near_hi, x_e);
+  return jg__bracketed_root(electron_excess, b, lo, hi, 1e-15 * hi, x_e);
 }
 
 int jg__saha_equilibrium(const jg_background *bg, double T_rad, double n_H, double *x_e,

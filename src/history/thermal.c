@@ -64,9 +64,12 @@ typedef struct local_state {
 
 static int local_state_at(const history_system *sys, double x, double x_p, local_state *s) {
   if (!isfinite(x_p)) return GSL_EBADFUNC;
-  /* A trial step that overshoots below zero: make the stepper retry with a
-   * smaller step (any status other than GSL_EBADFUNC does that). */
-  if (!(x_p > 0)) return GSL_EDOM;
+  /* A trial step that overshoots below zero, or above full ionisation:
+   * make the stepper retry with a smaller step (any status other than
+   * GSL_EBADFUNC does that). Above 1 the neutral fraction 1 - x_p is
+   * negative, the Peebles factor C can change sign, and a loose tolerance
+   * let x_p run away to 50 when the equations started in Saha equilibrium. */
+  if (!(x_p > 0 && x_p <= 1.0)) return GSL_EDOM;
   s->a = exp(x);
   s->H = jg_background_hubble(sys->bg, s->a);
   s->T_rad = jg_background_T_radiation(sys->bg, s->a);
@@ -238,6 +241,20 @@ typedef struct step_span {
   double y0[2], y1[2], f0[2], f1[2];
 } step_span;
 
+/* x_p or T_gas (k = 0, 1) between the ends of a step. Both move one way
+ * within a step, but at loose tolerances a step is long and its end slopes
+ * stiff, and the cubic through them can leave the range the step spans
+ * (seen: x_p = -0.18, x_p above full ionisation, T_gas < 0 at
+ * thermal.rel_tol = 1e-3), states the equations cannot take; the value is
+ * held inside the step's range, and x_p at most 1. At the default
+ * tolerances the cubic stays inside and this changes nothing. */
+static double hermite_at(const step_span *s, int k, double x);
+static double value_in_step(const step_span *s, int k, double x) {
+  const double lo = fmin(s->y0[k], s->y1[k]), hi = fmax(s->y0[k], s->y1[k]);
+  const double v = fmin(fmax(hermite_at(s, k, x), lo), hi);
+  return k == 0 ? fmin(v, 1.0) : v;
+}
+
 static double hermite_at(const step_span *s, int k, double x) {
   const double h = s->x1 - s->x0, t = (x - s->x0) / h, t2 = t * t, t3 = t2 * t;
   return (2.0 * t3 - 3.0 * t2 + 1.0) * s->y0[k] + (t3 - 2.0 * t2 + t) * h * s->f0[k] +
@@ -290,6 +307,11 @@ static double weak_coupling_excess(const history_run *r, double x, double x_p) {
   return ls.H / ls.compton - r->settings->quasi_static_limit;
 }
 
+static jg_status unusable_state(double x, double x_p, jg_error *err) {
+  return JG_FAIL(err, JG_ENUMERIC, "thermal history: x_p = %g unusable at z = %.3f", x_p,
+                 z_of_ln_a(x));
+}
+
 /* Where the Saha x_p falls to thermal.saha_limit (the start if it already
  * has; today if it never does). The Saha x_p falls monotonically with time. */
 static jg_status locate_handover(history_run *r, double x_start, jg_error *err) {
@@ -306,24 +328,20 @@ static jg_status locate_handover(history_run *r, double x_start, jg_error *err) 
                      "thermal history (Saha equilibrium): cannot locate x_p = %g below z = %.3f",
                      r->settings->saha_limit, z_of_ln_a(x_start));
   }
-  /* H/Gamma_C only grows with time: checking the end of the Saha phase
-   * checks all of it. */
+  /* While hydrogen is in Saha equilibrium the gas temperature stays
+   * quasi-static even if the coupling is already weak (a small
+   * thermal.quasi_static_limit, a fast expansion): the joint equations then
+   * start at the hand-over, not in equilibrium, where the Peebles rate is
+   * stiff beyond use and x_p sits against 1. H/Gamma_C only grows with
+   * time, so the end of the Saha phase tells. */
   double x_e, x_p = saha_hydrogen_at(r->bg, r->x_handover, &x_e);
   const double excess = weak_coupling_excess(r, r->x_handover, x_p);
-  if (excess >= 0.0) /* never for sane input */
-    return JG_FAIL(err, JG_ENUMERIC,
-                   "thermal history: Compton coupling weak (H/Gamma_C = %g) while hydrogen is "
-                   "still in Saha equilibrium at z = %.1f",
-                   excess + r->settings->quasi_static_limit, z_of_ln_a(r->x_handover));
+  if (!isfinite(excess)) return unusable_state(r->x_handover, x_p, err);
+  if (excess >= 0.0) r->x_weak = r->x_handover;
   return JG_OK;
 }
 
 /* ---- phases 2 and 3: the stepper's own steps ---- */
-
-static jg_status unusable_state(double x, double x_p, jg_error *err) {
-  return JG_FAIL(err, JG_ENUMERIC, "thermal history: x_p = %g unusable at z = %.3f", x_p,
-                 z_of_ln_a(x));
-}
 
 typedef struct coupling_crossing {
   const history_run *r;
@@ -332,7 +350,7 @@ typedef struct coupling_crossing {
 
 static double weak_coupling_in_step(double x, void *p) {
   const coupling_crossing *c = p;
-  return weak_coupling_excess(c->r, x, hermite_at(c->s, 0, x));
+  return weak_coupling_excess(c->r, x, value_in_step(c->s, 0, x));
 }
 
 /* Integrate one phase from (*x, y) to today, keeping every step. Phase 2
@@ -373,7 +391,7 @@ static jg_status run_phase(history_run *r, gsl_odeiv2_driver *d, const char *sta
                        "z = %.3f",
                        stage, r->settings->quasi_static_limit, z_of_ln_a(s.x0), z_of_ln_a(s.x1));
       *x = r->x_weak;
-      y[0] = hermite_at(&s, 0, r->x_weak);
+      y[0] = value_in_step(&s, 0, r->x_weak);
       return JG_OK;
     }
     s.x0 = s.x1;
@@ -399,7 +417,9 @@ static jg_status integrate_history(history_run *r, double x_start, jg_error *err
 
   double x = r->x_handover, x_e;
   double y[2] = {saha_hydrogen_at(r->bg, x, &x_e), 0.0};
-  if (st == JG_OK) st = run_phase(r, drv_h, "hydrogen recombination", &x, y, err);
+  const bool weak_at_handover = r->x_weak == r->x_handover;
+  if (st == JG_OK && !weak_at_handover)
+    st = run_phase(r, drv_h, "hydrogen recombination", &x, y, err);
   r->first_integrated_T = r->n_spans;
   if (st == JG_OK && x < 0.0) {
     local_state ls;
@@ -502,11 +522,11 @@ static jg_status fill_nodes(const history_run *r, const jg_thermal *th, double *
     if (integrated_T && j < r->first_integrated_T) j = r->first_integrated_T;
     while (j + 1 < end && r->spans[j].x1 < x) j++;
     const step_span *s = &r->spans[j];
-    x_p[i] = hermite_at(s, 0, x);
+    x_p[i] = value_in_step(s, 0, x);
     if (local_state_at(&r->sys, x, x_p[i], &ls) != GSL_SUCCESS)
       return unusable_state(x, x_p[i], err);
     x_e[i] = ls.x_e;
-    T_gas[i] = integrated_T ? hermite_at(s, 1, x)
+    T_gas[i] = integrated_T ? value_in_step(s, 1, x)
                             : jg__gas_temperature_quasi_static(ls.T_rad, ls.H, ls.compton);
   }
   return JG_OK;

@@ -86,8 +86,8 @@ thermal_medium *jg__pt_thermal_medium_new(const jg_thermal *th, double x_first, 
   tm->bg = jg_thermal_background(th);
   tm->dx = 1.0 / PT_NODES_PER_EFOLD;
   tm->inv_dx = PT_NODES_PER_EFOLD;
-  tm->x0 = x_first - PT_MARGIN_NODES * tm->dx;
-  tm->n = (int)ceil(-tm->x0 * PT_NODES_PER_EFOLD) + PT_MARGIN_NODES + 1;
+  tm->n = (int)ceil(-x_first * PT_NODES_PER_EFOLD) + PT_MARGIN_NODES + 1;
+  tm->x0 = -(tm->n - 1) * tm->dx;
   const int n = tm->n;
   double *x = malloc(sizeof(double) * (size_t)n * (1 + N_Q));
   tm->poly = malloc(sizeof(double) * (size_t)(n - 1) * 4 * N_Q);
@@ -98,7 +98,7 @@ thermal_medium *jg__pt_thermal_medium_new(const jg_thermal *th, double x_first, 
   if (st == JG_OK) {
     double *lq = x + n; /* lq[q * n + i] */
     for (int i = 0; i < n; i++) {
-      x[i] = tm->x0 + i * tm->dx;
+      x[i] = i == n - 1 ? 0.0 : tm->x0 + i * tm->dx;
       double q[N_Q];
       thermal_coefficients(th, x[i], q);
       for (int k = 0; k < N_Q; k++) {

@@ -21,8 +21,12 @@
  * of the coefficients, which vary on scales Delta ln a >~ 0.05 (hydrogen
  * recombination is the sharpest feature). */
 #define PT_NODES_PER_EFOLD 500
-/* Extra nodes beyond each end of the range, so that the finite difference
- * for dfdt and the first trial steps stay on the table. */
+/* Extra nodes before the start, so that the finite difference for dfdt and
+ * the first trial steps stay on the table. The table ends at a = 1 exactly:
+ * beyond today the background is not checked (H^2 may turn negative soon
+ * after a = 1 when Omega_de < 0, e.g. h = 0.1 with the largest densities), and
+ * the only evaluations there, dfdt's PT_DFDT_STEP past the last output,
+ * extrapolate the last interval's polynomial. */
 #define PT_MARGIN_NODES 8
 
 /* State layouts. */

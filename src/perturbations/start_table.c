@@ -114,6 +114,14 @@ static jg_status store_row(jg_perturb_start_table *t, const char *path, int line
   if (t->n > 0 && !(v[COL_K] > *k_prev))
     return JG_FAIL(err, JG_ECONFIG, "%s:%d: k = %g /Mpc does not increase (the row before has %g)",
                    path, line_no, v[COL_K], *k_prev);
+  /* The interpolation runs in ln k, which must increase too: two k a few
+   * ulps apart can share a logarithm, and GSL would then refuse the table
+   * with no line to name. */
+  if (t->n > 0 && !(log(v[COL_K]) > t->ln_k[t->n - 1]))
+    return JG_FAIL(err, JG_ECONFIG,
+                   "%s:%d: k = %.17g /Mpc is too close to the row before (%.17g): their "
+                   "logarithms, in which the table is interpolated, are equal",
+                   path, line_no, v[COL_K], *k_prev);
   if (t->n == ST_ROWS_MAX) return JG_FAIL(err, JG_ECONFIG, "%s: more than %d rows", path, ST_ROWS_MAX);
   if (t->n == *capacity && grow(t, capacity) != JG_OK)
     return JG_FAIL(err, JG_ENOMEM, "%s: out of memory for the table", path);

@@ -46,8 +46,14 @@ jg_status jg_growth_grid_compute(const jg_perturb_model *m, jg_perturb_workspace
   memcpy(g->z, z, sizeof(double) * (size_t)n_z);
   jg_status st = jg_perturb_solve_limit(m, w, z, n_z, g->limit, err);
   const jg_thermal *th = jg_perturb_model_thermal(m);
+  /* The reference growth exists only while matter and dark energy alone
+   * keep H^2 > 0 (not in a universe that radiation dominates today): left
+   * out of the whole table otherwise. */
   g->has_reference = th != NULL;
-  for (int iz = 0; st == JG_OK && th && iz < n_z; iz++)
+  for (int iz = 0; g->has_reference && iz < n_z; iz++)
+    g->has_reference =
+        jg_background_reference_growth_defined(jg_thermal_background(th), 1.0 / (1.0 + z[iz]));
+  for (int iz = 0; st == JG_OK && g->has_reference && iz < n_z; iz++)
     st = jg_background_growth_factor(jg_thermal_background(th), 1.0 / (1.0 + z[iz]),
                                      &g->D_ref[iz], &g->f_ref[iz], err);
   if (st == JG_OK) st = jg_perturb_solve_many(m, w, k, n_k, z, n_z, g->points, err);

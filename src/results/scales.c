@@ -15,6 +15,7 @@
 #include <gsl/gsl_errno.h>
 #include <gsl/gsl_roots.h>
 #include <math.h>
+#include <stdio.h>
 #include <stdlib.h>
 #include <string.h>
 
@@ -46,21 +47,34 @@ typedef struct half_ctx {
   const jg_perturb_model *m;
   jg_perturb_workspace *w;
   double z, target;
-  double k_min, k_max; /* exp(ln k) is clamped to these exact values */
+  double k_below, k_above; /* Brent's bracket, carried exactly as wavenumbers */
   jg_status status;
   jg_error *err;
 } half_ctx;
 
-/* (delta_b/delta_c)(k) - target at k = exp(ln_k), never outside
- * [k_min, k_max] through rounding. */
-static double half_residual(double ln_k, void *params) {
-  half_ctx *c = params;
+/* (delta_b/delta_c)(k) - target. The search only asks for wavenumbers inside
+ * the model's accepted range, so a refusal by the solver is a failure of
+ * this stage, not bad input: it is reported as such, with its k and z. */
+static double half_residual(half_ctx *c, double k) {
   if (c->status != JG_OK) return GSL_NAN;
   jg_perturb_point p;
-  const double k = fmin(fmax(exp(ln_k), c->k_min), c->k_max);
   c->status = jg_perturb_solve(c->m, c->w, k, &c->z, 1, &p, c->err);
-  if (c->status != JG_OK) return GSL_NAN;
+  if (c->status != JG_OK) {
+    char why[JG_ERROR_MESSAGE_SIZE];
+    snprintf(why, sizeof why, "%s", c->err ? c->err->message : "");
+    c->status = JG_FAIL(c->err, c->status == JG_EINVAL ? JG_ENUMERIC : c->status,
+                        "half suppression at z = %g, k = %.10g /Mpc: %s", c->z, k, why);
+    return GSL_NAN;
+  }
   return p.b_over_c - c->target;
+}
+
+/* Brent works in ln k; exp(log(k)) may differ from k in the last bit, so
+ * its trial point is mapped back inside the bracket, whose ends are the
+ * exact wavenumbers of the ladder (one of them may be the range's bound). */
+static double half_residual_ln(double ln_k, void *params) {
+  half_ctx *c = params;
+  return half_residual(c, fmin(fmax(exp(ln_k), c->k_below), c->k_above));
 }
 
 static jg_status half_brent(half_ctx *cp, double ka, double kb, double *k_half, int *found);
@@ -72,17 +86,19 @@ jg_status jg_scales_half_suppression(const jg_perturb_model *m, jg_perturb_works
   *k_half = 0.0;
   double k_lo, k_hi;
   jg_perturb_model_k_range(m, &k_lo, &k_hi);
+  /* The ratio comes from the k = 0 solve: one that is not > 0 is a failure
+   * of this stage (exit 1), not bad input. */
   if (!(ratio_large > 0.0))
-    return JG_FAIL(err, JG_EINVAL,
+    return JG_FAIL(err, JG_ENUMERIC,
                    "half suppression at z = %g: the large-scale delta_b/delta_c is %g (must be > 0)",
                    z, ratio_large);
-  half_ctx c = {m, w, z, 0.5 * ratio_large, k_lo, k_hi, JG_OK, err};
+  half_ctx c = {m, w, z, 0.5 * ratio_large, 0.0, 0.0, JG_OK, err};
   double ka = fmin(fmax(k_start, k_lo), k_hi);
-  double fa = half_residual(log(ka), &c);
+  double fa = half_residual(&c, ka);
   /* Step down until the ratio is above one half (rarely needed). */
   while (c.status == JG_OK && fa <= 0.0 && ka > k_lo) {
     ka = fmax(ka / SC_LADDER, k_lo);
-    fa = half_residual(log(ka), &c);
+    fa = half_residual(&c, ka);
   }
   if (c.status != JG_OK) return c.status;
   if (fa <= 0.0) return JG_OK; /* already suppressed at the lowest accepted k */
@@ -91,7 +107,7 @@ jg_status jg_scales_half_suppression(const jg_perturb_model *m, jg_perturb_works
     ka = kb;
     fa = fb;
     kb = fmin(kb * SC_LADDER, k_hi);
-    fb = half_residual(log(kb), &c);
+    fb = half_residual(&c, kb);
     if (c.status != JG_OK) return c.status;
   }
   if (fb > 0.0) return JG_OK; /* no crossing below the upper limit */
@@ -107,13 +123,13 @@ jg_status jg_scales_half_suppression(const jg_perturb_model *m, jg_perturb_works
  * ka, < 0 at kb). */
 static jg_status half_brent(half_ctx *cp, double ka, double kb, double *k_half, int *found) {
   half_ctx c = *cp;
-  c.k_min = ka;
-  c.k_max = kb;
   const double z = c.z;
   jg_error *err = c.err;
   gsl_root_fsolver *s = gsl_root_fsolver_alloc(gsl_root_fsolver_brent);
   if (!s) return JG_FAIL(err, JG_ENOMEM, "half suppression: out of memory for the root solver");
-  gsl_function F = {half_residual, &c};
+  c.k_below = ka;
+  c.k_above = kb;
+  gsl_function F = {half_residual_ln, &c};
   int st = gsl_root_fsolver_set(s, &F, log(ka), log(kb));
   int iter = 0;
   while (st == GSL_SUCCESS && iter++ < SC_ROOT_ITER) {
@@ -160,8 +176,10 @@ static jg_status jeans_at(const jg_perturb_model *m, double z, double *k_iso, do
   return JG_OK;
 }
 
+/* k from 1/k^2; 0 (with mass 0, see jg_scales_mass) when 1/k^2 <= 0: the
+ * small-k law shows no suppression yet, and the scale does not exist. */
 static double k_from_inverse_square(double inv_k2) {
-  return inv_k2 > 0.0 ? 1.0 / sqrt(inv_k2) : HUGE_VAL;
+  return inv_k2 > 0.0 ? 1.0 / sqrt(inv_k2) : 0.0;
 }
 
 /* ---- the half-suppression search on a shared ladder ---------------------- */
@@ -249,6 +267,17 @@ static jg_status half_suppression_all(const jg_perturb_model *m, jg_perturb_work
   return st;
 }
 
+/* The search asks only for wavenumbers inside the model's accepted range,
+ * so a refusal by the solver is a failure of this stage (exit 1), not bad
+ * input: said as such, with the wavenumbers of the batch. */
+static jg_status search_failed(jg_status st, double k_first, double k_last, jg_error *err) {
+  if (st == JG_ENOMEM) return st;
+  char why[JG_ERROR_MESSAGE_SIZE];
+  snprintf(why, sizeof why, "%s", err ? err->message : "");
+  return JG_FAIL(err, st == JG_EINVAL ? JG_ENUMERIC : st,
+                 "half suppression, k = %.10g to %.10g /Mpc: %s", k_first, k_last, why);
+}
+
 static jg_status half_search_run(const jg_perturb_model *m, jg_perturb_workspace *w,
                                  const double *z, int n_z, const double *target,
                                  const double *k_start, double *k_half, int *found,
@@ -256,27 +285,34 @@ static jg_status half_search_run(const jg_perturb_model *m, jg_perturb_workspace
   double k_lo, k_hi;
   jg_perturb_model_k_range(m, &k_lo, &k_hi);
   double k0 = k_hi;
-  for (int i = 0; i < n_z; i++) k0 = fmin(k0, fmin(fmax(k_start[i], k_lo), k_hi));
+  for (int i = 0; i < n_z; i++)
+    if (target[i] > 0.0) k0 = fmin(k0, fmin(fmax(k_start[i], k_lo), k_hi));
   double rung[SC_MAX_RUNGS];
   int n_rungs = 0;
   for (int j = 0; j < SC_MAX_RUNGS; j++) {
     rung[n_rungs++] = j == 0 ? k0 : fmin(rung[j - 1] * SC_LADDER, k_hi);
     if (rung[n_rungs - 1] >= k_hi) break;
   }
+  int open = 0;
   for (int i = 0; i < n_z; i++) {
     memset(&hs[i], 0, sizeof hs[i]);
     found[i] = 0;
     k_half[i] = 0.0;
+    if (!(target[i] > 0.0)) { /* no such scale at this redshift */
+      hs[i].state = 2;
+      continue;
+    }
+    open++;
     const double start = fmin(fmax(k_start[i], k_lo), k_hi);
     while (hs[i].start_rung + 1 < n_rungs && rung[hs[i].start_rung + 1] <= start) hs[i].start_rung++;
   }
   /* The ladder, a batch at a time, until every redshift is bracketed or the
    * ladder ends. */
-  int solved = 0, open = n_z;
+  int solved = 0;
   while (open > 0 && solved < n_rungs) {
     const int n = n_rungs - solved < JG_PERTURB_BATCH ? n_rungs - solved : JG_PERTURB_BATCH;
     jg_status st = jg_perturb_solve_many(m, w, rung + solved, n, z, n_z, pts, err);
-    if (st != JG_OK) return st;
+    if (st != JG_OK) return search_failed(st, rung[solved], rung[solved + n - 1], err);
     for (int b = 0; b < n; b++) {
       const int j = solved + b;
       for (int i = 0; i < n_z; i++) {
@@ -325,7 +361,7 @@ static jg_status half_search_run(const jg_perturb_model *m, jg_perturb_workspace
     for (int first = 0; first < nk; first += JG_PERTURB_BATCH) {
       const int n = nk - first < JG_PERTURB_BATCH ? nk - first : JG_PERTURB_BATCH;
       jg_status st = jg_perturb_solve_many(m, w, ks + first, n, z, n_z, pts, err);
-      if (st != JG_OK) return st;
+      if (st != JG_OK) return search_failed(st, ks[first], ks[first + n - 1], err);
       for (int b = 0; b < n; b++) {
         const int i = who[first + b];
         half_search *h = &hs[i];
@@ -385,18 +421,19 @@ jg_status jg_scales_compute(const jg_perturb_model *m, jg_perturb_workspace *w, 
     p->delta_m_large = l->k0.delta_m;
     p->growth_rate_large = l->k0.growth_m;
 
-    if (!(l->k0.b_over_c > 0.0))
-      return JG_FAIL(err, JG_EINVAL,
-                     "half suppression at z = %g: the large-scale delta_b/delta_c is %g (must be "
-                     "> 0)",
-                     z[i], l->k0.b_over_c);
-    target[i] = 0.5 * l->k0.b_over_c;
-    k_start[i] = SC_START_FRACTION * p->k_filter_solved_cdm;
+    /* No half-suppression scale while the k -> 0 baryons have not started
+     * to follow the dark matter (delta_b/delta_c <= 0 there): its target is
+     * NaN, which the search skips. */
+    target[i] = l->k0.b_over_c > 0.0 ? 0.5 * l->k0.b_over_c : NAN;
+    k_start[i] = p->k_filter_solved_cdm > 0.0 ? SC_START_FRACTION * p->k_filter_solved_cdm
+                                               : HUGE_VAL;
 
     if (th) {
       const jg_background *bg = jg_thermal_background(th);
-      if (bg->cosmology.de_w0 == -1.0 && bg->cosmology.de_wa == 0.0) {
-        st = jg_background_growth_heath(bg, 1.0 / (1.0 + z[i]), &p->growth_heath, err);
+      const double a = 1.0 / (1.0 + z[i]);
+      if (bg->cosmology.de_w0 == -1.0 && bg->cosmology.de_wa == 0.0 &&
+          jg_background_reference_growth_defined(bg, a)) {
+        st = jg_background_growth_heath(bg, a, &p->growth_heath, err);
         if (st != JG_OK) return st;
         p->has_heath = 1;
       }
