@@ -167,6 +167,56 @@ Test(equilibrium, hydrogen_follows_saha_at_z1800) {
   free_history(&h);
 }
 
+/* The Saha balance must be solved wherever the box of valid cosmologies
+ * goes, not only near the reference: helium-free gas (Y_P = 0), where a
+ * helium term overflowed to inf x 0 = NaN at x_e = 1e-150, and gas that is
+ * almost all helium (Y_P = 0.998, fully ionised x_e ~ 250), where the root
+ * lay hundreds of decades below the top of its bracket (both cosmologies
+ * from the random sweep of valid inputs). At every redshift from 1e5 to 1
+ * the solution must be found and satisfy its own equations, checked here
+ * as written (src/PHYSICS.md §4.1): x_e = x_p + helium electrons, and
+ * x_p x_e / (1 - x_p) = (2 pi m_e k T / h^2)^(3/2) e^(-E_ion/kT) / n_H,
+ * both to 1e-10 relative (the solver's 1e-15 leaves room for the rounding
+ * of the terms), wherever x_e is above the floor of 1e-300 (the second
+ * where the neutral fraction 1 - x_p > 1e-4 can be formed to 1e-12). */
+Test(equilibrium, saha_balance_solved_across_the_box) {
+  const double helium[] = {0.0, 0.998};
+  const double baryons[] = {1.0, 6.3e-6};
+  for (int c = 0; c < 2; c++) {
+    jg_params p;
+    jg_params_set_defaults(&p);
+    p.cosmology.hubble_h = 1.43;
+    p.cosmology.cmb_temperature_K = 22.0;
+    p.cosmology.helium_mass_fraction = helium[c];
+    p.cosmology.baryon_density_h2 = baryons[c];
+    jg_error e;
+    jg_background *bg = jg_background_new(&p.cosmology, &e);
+    cr_assert(bg, "%s", e.message);
+    for (double z = 1e5; z >= 1.0; z /= 1.07) {
+      const double a = 1.0 / (1.0 + z), T = jg_background_T_radiation(bg, a);
+      const double n_H = jg_background_n_hydrogen(bg, a);
+      double x_e = -1, x_p = -1;
+      int st = jg__saha_equilibrium(bg, T, n_H, &x_e, &x_p);
+      cr_assert(st == GSL_SUCCESS, "Y_P = %g, z = %g: status %d", helium[c], z, st);
+      cr_assert(x_e > 0 && isfinite(x_e) && x_p >= 0 && x_p <= 1, "Y_P = %g, z = %g: x_e = %g, "
+                "x_p = %g", helium[c], z, x_e, x_p);
+      if (x_e < 1e-290 || x_p >= 1.0) continue;
+      jg__helium_saha he;
+      jg__helium_saha_at(bg, T, n_H, x_e, &he);
+      char what[96];
+      snprintf(what, sizeof what, "electron balance, Y_P = %g, z = %g", helium[c], z);
+      assert_rel(x_e, x_p + he.electrons, 1e-10, what);
+      const double kT = JG_K_BOLTZMANN * T;
+      const double ratio = jg__electron_quantum_density(T) * exp(-JG_E_ION_HYDROGEN / kT) / n_H;
+      if (x_p > 1e-290 && ratio > 1e-290 && 1.0 - x_p > 1e-4) {
+        snprintf(what, sizeof what, "hydrogen Saha, Y_P = %g, z = %g", helium[c], z);
+        assert_rel(x_p * x_e / (1.0 - x_p), ratio, 1e-10, what);
+      }
+    }
+    jg_background_free(bg);
+  }
+}
+
 /* Helium from the history against the joint Saha equilibrium of H, He I,
  * He II and He III solved here (Saha equation, analytic; the history uses
  * Saha for helium throughout, src/PHYSICS.md §4.2).

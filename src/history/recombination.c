@@ -82,7 +82,10 @@ static void helium_given_electrons(const helium_ratios *r, double x_e, jg__heliu
     out->x_HeII = 0.0;
     out->x_HeIII = f_He;
   } else {
-    q = (p1 + 2.0 * p2) / denom;
+    /* Scaled by the largest term: p1 + 2 p2 can overflow where denom does
+     * not (p2 near the largest double, far below any real recombination). */
+    const double m = fmax(1.0, fmax(p1, p2));
+    q = (p1 / m + 2.0 * (p2 / m)) / (denom / m);
     double dnum = A1 + 4.0 * A1 * A2 * u, dden = A1 + 2.0 * A1 * A2 * u;
     dq_du = (dnum * denom - (p1 + 2.0 * p2) * dden) / (denom * denom);
     out->x_HeII = f_He * p1 / denom;
@@ -155,29 +158,26 @@ int jg__bracketed_root(double (*f)(double, void *), void *params, double lo, dou
   return GSL_EMAXITER;
 }
 
-/* The balance against ln x_e: the bracket spans hundreds of decades. */
-static double electron_excess_ln(double ln_x_e, void *params) {
-  return electron_excess(exp(ln_x_e), params);
-}
-
 /* x_e to 1e-15 relative, or the end of [lo, hi] the balance does not reach.
- * The bracket is first narrowed in ln x_e to 1e-6: in x_e itself a bracket
- * from 1e-300 to the fully ionised value, which is large when helium
- * dominates (Y_P -> 1), took regula falsi more than its steps to close on a
- * root many decades below the top. The root is then found in x_e, relative
- * to its size. */
+ * The bracket is first narrowed by bisection in ln x_e to 1e-6 (30 halvings
+ * of the 700 e-folds from 1e-300): regula falsi in x_e itself, from 1e-300
+ * to the fully ionised value, took more than its steps to close on a root
+ * many decades below the top. The root is then found in x_e, relative to
+ * its size, inside that narrow bracket, whose ends keep their signs. */
 static int solve_electrons(electron_balance *b, double lo, double hi, double *x_e) {
   if (electron_excess(lo, b) <= 0) { *x_e = lo; return GSL_SUCCESS; }
   if (electron_excess(hi, b) >= 0) { *x_e = hi; return GSL_SUCCESS; }
-  double ln_x_e;
-  /* exp(log(x)) may miss x by an ulp: a root that close to an end leaves
-   * no sign change in ln x_e, and the search in x_e takes the whole bracket. */
-  if (jg__bracketed_root(electron_excess_ln, b, log(lo), log(hi), 1e-6, &ln_x_e) != GSL_SUCCESS)
-    return jg__bracketed_root(electron_excess, b, lo, hi, 1e-15 * hi, x_e);
-  const double near_lo = fmax(exp(ln_x_e - 2e-6), lo), near_hi = fmin(exp(ln_x_e + 2e-6), hi);
-  if (electron_excess(near_lo, b) > 0 && electron_excess(near_hi, b) < 0)
-    return jg__bracketed_root(electron_excess, b, near_lo, near_hi, 1e-15 * near_hi, x_e);
-  return jg__bracketed_root(electron_excess, b, lo, hi, 1e-15 * hi, x_e);
+  double t_lo = log(lo), t_hi = log(hi), x_lo = lo, x_hi = hi;
+  while (t_hi - t_lo > 1e-6) {
+    const double t = 0.5 * (t_lo + t_hi), x = fmin(fmax(exp(t), lo), hi);
+    const double f = electron_excess(x, b);
+    if (!isfinite(f)) return GSL_EBADFUNC;
+    if (f > 0) t_lo = t, x_lo = x;
+    else t_hi = t, x_hi = x;
+  }
+  if (jg__bracketed_root(electron_excess, b, x_lo, x_hi, 1e-15 * x_hi, x_e) != GSL_SUCCESS)
+    *x_e = 0.5 * (x_lo + x_hi); /* within 1e-6 relative: the bracket itself */
+  return GSL_SUCCESS;
 }
 
 int jg__saha_equilibrium(const jg_background *bg, double T_rad, double n_H, double *x_e,
