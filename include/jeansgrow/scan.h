@@ -303,6 +303,46 @@ typedef void (*jg_scan_listener)(void *context, const jg_scan_event *event);
 jg_status jg_scan_run(const jg_scan *s, jg_scan_checkpoint *c, int threads,
                       jg_scan_listener listener, void *context, jg_error *err);
 
+/* ---- threads over a feed of point indices -------------------------------- */
+
+/*
+ * Where a runner's threads take point indices and where their results go,
+ * so that a driver other than jg_scan_run (the program's MPI ranks, say)
+ * reuses the threads and keeps only its own bookkeeping. The three
+ * functions are called from the runner's threads at once: they must be
+ * thread-safe.
+ *   take  the next index to evaluate, or -1 when there is none: the thread
+ *         then ends;
+ *   give  a finished point: status JG_OK with its values
+ *         (jg_scan_values_per_point of them; valid during the call only), or
+ *         the failure and its message (JG_ENOMEM: the point has no result,
+ *         and a feed normally stops the run); seconds it took;
+ *   fail  the thread cannot start (no memory for its workspace); a feed
+ *         normally makes take return -1 from then on.
+ */
+typedef struct jg_scan_feed {
+  void *context;
+  long long (*take)(void *context);
+  void (*give)(void *context, long long index, jg_status status, const double *values,
+               const char *message, double seconds);
+  void (*fail)(void *context, const jg_error *err);
+} jg_scan_feed;
+
+typedef struct jg_scan_runner jg_scan_runner;
+
+/* Start up to `threads` (>= 1) threads over `feed` (copied). The number
+ * that did start may be smaller (jg_scan_runner_threads; 0 when the system
+ * gives none: then call jg_scan_feed_work yourself). JG_ENOMEM, JG_EINVAL. */
+jg_status jg_scan_runner_start(const jg_scan *s, int threads, const jg_scan_feed *feed,
+                               jg_scan_runner **out, jg_error *err);
+int jg_scan_runner_threads(const jg_scan_runner *r);
+/* Wait for every thread to end (each ends when take returns -1), then free
+ * the runner. Accepts NULL. */
+void jg_scan_runner_join(jg_scan_runner *r);
+/* What one runner thread does, in the calling thread: take, evaluate, give,
+ * until take returns -1. */
+void jg_scan_feed_work(const jg_scan *s, const jg_scan_feed *feed);
+
 /* ---- the table ----------------------------------------------------------- */
 
 /* Write the table of the slice to `f` from the checkpoint (every point of

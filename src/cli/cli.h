@@ -2,6 +2,8 @@
 #ifndef JEANSGROW_CLI_H
 #define JEANSGROW_CLI_H
 
+#include <getopt.h>
+
 #include "jeansgrow/jeansgrow.h"
 
 #define CLI_MAX_OVERRIDES 256
@@ -31,6 +33,18 @@ typedef struct cli_options {
 /* Parse `[--set k=v]... [-o FILE] [--help] PARAMFILE`. Returns -1 to go on,
  * or an exit status (after printing help or an error). */
 int cli_parse_options(const cli_command *cmd, int argc, char **argv, cli_options *o);
+
+/* A command's own long options beside the common ones: `handle` gets each
+ * one's code (the option's val) and argument and returns -1 to go on or an
+ * exit status (after printing the error); `help` replaces the generic help. */
+typedef struct cli_extra_options {
+  const struct option *long_opts; /* ends with {NULL, 0, NULL, 0}; at most 12 */
+  int (*handle)(int code, const char *arg, void *context);
+  void (*help)(const cli_command *cmd);
+  void *context;
+} cli_extra_options;
+int cli_parse_options_with(const cli_command *cmd, int argc, char **argv, cli_options *o,
+                           const cli_extra_options *extra);
 
 /* Load the parameters named by the options; prints the error on failure. */
 int cli_load_params(const cli_options *o, jg_params *p);

@@ -82,15 +82,29 @@ static void print_command_help(const cli_command *cmd) {
 }
 
 int cli_parse_options(const cli_command *cmd, int argc, char **argv, cli_options *o) {
+  return cli_parse_options_with(cmd, argc, argv, o, NULL);
+}
+
+int cli_parse_options_with(const cli_command *cmd, int argc, char **argv, cli_options *o,
+                           const cli_extra_options *extra) {
   memset(o, 0, sizeof *o);
-  static const struct option long_opts[] = {{"set", required_argument, NULL, 's'},
+  enum { MAX_EXTRA = 12 };
+  struct option long_opts[MAX_EXTRA + 4] = {{"set", required_argument, NULL, 's'},
                                             {"output", required_argument, NULL, 'o'},
-                                            {"help", no_argument, NULL, 'h'},
-                                            {NULL, 0, NULL, 0}};
+                                            {"help", no_argument, NULL, 'h'}};
+  int n_opts = 3;
+  for (int i = 0; extra && extra->long_opts[i].name && i < MAX_EXTRA; i++)
+    long_opts[n_opts++] = extra->long_opts[i];
+  long_opts[n_opts] = (struct option){NULL, 0, NULL, 0};
   opterr = 0;
   optind = 1;
   int c;
   while ((c = getopt_long(argc, argv, ":o:h", long_opts, NULL)) != -1) {
+    if (extra && c != 's' && c != 'o' && c != 'h' && c != ':' && c != '?') {
+      const int status = extra->handle(c, optarg, extra->context);
+      if (status >= 0) return status;
+      continue;
+    }
     switch (c) {
     case 's':
       if (o->n_overrides >= CLI_MAX_OVERRIDES) {
@@ -108,7 +122,8 @@ int cli_parse_options(const cli_command *cmd, int argc, char **argv, cli_options
       o->output_path = optarg;
       break;
     case 'h':
-      print_command_help(cmd);
+      if (extra && extra->help) extra->help(cmd);
+      else print_command_help(cmd);
       return EXIT_OK;
     case ':':
       fprintf(stderr, "jeansgrow %s: option '%s' needs a value\n", cmd->name, argv[optind - 1]);

@@ -21,6 +21,7 @@
 #include <unistd.h>
 
 #include "cli.h"
+#include "../base/clock.h"
 
 /* The evaluator behind the table's columns, in the units the parameters
  * ask for. A later stage (growth) plugs in here with an evaluator of its own. */
@@ -46,12 +47,6 @@ typedef struct scan_options {
   int resume;
   double rank_timeout; /* seconds; 0: wait for ever */
 } scan_options;
-
-static double now_seconds(void) {
-  struct timespec ts;
-  clock_gettime(CLOCK_MONOTONIC, &ts);
-  return (double)ts.tv_sec + 1e-9 * (double)ts.tv_nsec;
-}
 
 static void print_scan_help(const cli_command *cmd) {
   printf("Usage: jeansgrow %s %s\n\n%s.\n\n%s\n", cmd->name, cmd->usage, cmd->summary,
@@ -82,127 +77,84 @@ static int parse_int(const char *text, long lo, long hi, long *out) {
   return 1;
 }
 
+/* The options only scan has, beside --set, -o and --help. */
+static int handle_scan_option(int code, const char *arg, void *context) {
+  scan_options *o = context;
+  long v;
+  switch (code) {
+  case 'v':
+    if (o->n_vary >= JG_SCAN_MAX_AXES) {
+      fprintf(stderr, "jeansgrow scan: too many --vary options (at most %d)\n", JG_SCAN_MAX_AXES);
+      return EXIT_BAD_INPUT;
+    }
+    o->vary[o->n_vary++] = arg;
+    break;
+  case 't':
+    if (!parse_int(arg, 1, MAX_THREADS, &v)) {
+      fprintf(stderr, "jeansgrow scan: --threads must be a whole number from 1 to %d (got '%s')\n",
+              MAX_THREADS, arg);
+      return EXIT_BAD_INPUT;
+    }
+    o->threads = (int)v;
+    break;
+  case 'p': {
+    const char *slash = strchr(arg, '/');
+    long i = 0, n = 0;
+    char left[32];
+    int ok = slash && (size_t)(slash - arg) < sizeof left;
+    if (ok) {
+      memcpy(left, arg, (size_t)(slash - arg));
+      left[slash - arg] = '\0';
+      ok = parse_int(left, 1, 1000000000L, &i) && parse_int(slash + 1, 1, 1000000000L, &n) &&
+           i <= n;
+    }
+    if (!ok) {
+      fprintf(stderr, "jeansgrow scan: --part must be I/N with 1 <= I <= N, e.g. --part 2/8 "
+                      "(got '%s')\n", arg);
+      return EXIT_BAD_INPUT;
+    }
+    o->part_index = (int)i;
+    o->part_count = (int)n;
+    break;
+  }
+  case 'r':
+    o->resume = 1;
+    break;
+  case 'T': {
+    char *end;
+    errno = 0;
+    double t = strtod(arg, &end);
+    /* Below a second, heartbeats would flood rank 0 and a busy node's
+     * ordinary pauses would end the job. */
+    if (errno || end == arg || *end != '\0' ||
+        !(t == 0 || (t >= MIN_RANK_TIMEOUT && t <= MAX_RANK_TIMEOUT))) {
+      fprintf(stderr, "jeansgrow scan: --rank-timeout must be 0 (wait for ever) or a number of "
+                      "seconds from %.0f to %.0f (got '%s')\n", MIN_RANK_TIMEOUT,
+              MAX_RANK_TIMEOUT, arg);
+      return EXIT_BAD_INPUT;
+    }
+    o->rank_timeout = t;
+    break;
+  }
+  }
+  return -1;
+}
+
 static int parse_scan_options(const cli_command *cmd, int argc, char **argv, scan_options *o) {
   memset(o, 0, sizeof *o);
   o->part_index = o->part_count = 1;
   o->rank_timeout = DEFAULT_RANK_TIMEOUT;
-  static const struct option long_opts[] = {{"vary", required_argument, NULL, 'v'},
-                                            {"set", required_argument, NULL, 's'},
+  static const struct option scan_opts[] = {{"vary", required_argument, NULL, 'v'},
                                             {"threads", required_argument, NULL, 't'},
                                             {"part", required_argument, NULL, 'p'},
                                             {"resume", no_argument, NULL, 'r'},
                                             {"rank-timeout", required_argument, NULL, 'T'},
-                                            {"output", required_argument, NULL, 'o'},
-                                            {"help", no_argument, NULL, 'h'},
                                             {NULL, 0, NULL, 0}};
-  opterr = 0;
-  optind = 1;
-  int c;
-  long v;
-  while ((c = getopt_long(argc, argv, ":o:h", long_opts, NULL)) != -1) {
-    switch (c) {
-    case 'v':
-      if (o->n_vary >= JG_SCAN_MAX_AXES) {
-        fprintf(stderr, "jeansgrow scan: too many --vary options (at most %d)\n", JG_SCAN_MAX_AXES);
-        return EXIT_BAD_INPUT;
-      }
-      o->vary[o->n_vary++] = optarg;
-      break;
-    case 's':
-      if (o->common.n_overrides >= CLI_MAX_OVERRIDES) {
-        fprintf(stderr, "jeansgrow scan: too many --set options (at most %d)\n", CLI_MAX_OVERRIDES);
-        return EXIT_BAD_INPUT;
-      }
-      o->common.overrides[o->common.n_overrides++] = optarg;
-      break;
-    case 't':
-      if (!parse_int(optarg, 1, MAX_THREADS, &v)) {
-        fprintf(stderr, "jeansgrow scan: --threads must be a whole number from 1 to %d (got '%s')\n",
-                MAX_THREADS, optarg);
-        return EXIT_BAD_INPUT;
-      }
-      o->threads = (int)v;
-      break;
-    case 'p': {
-      const char *slash = strchr(optarg, '/');
-      long i = 0, n = 0;
-      char left[32];
-      int ok = slash && (size_t)(slash - optarg) < sizeof left;
-      if (ok) {
-        memcpy(left, optarg, (size_t)(slash - optarg));
-        left[slash - optarg] = '\0';
-        ok = parse_int(left, 1, 1000000000L, &i) && parse_int(slash + 1, 1, 1000000000L, &n) &&
-             i <= n;
-      }
-      if (!ok) {
-        fprintf(stderr, "jeansgrow scan: --part must be I/N with 1 <= I <= N, e.g. --part 2/8 "
-                        "(got '%s')\n", optarg);
-        return EXIT_BAD_INPUT;
-      }
-      o->part_index = (int)i;
-      o->part_count = (int)n;
-      break;
-    }
-    case 'r':
-      o->resume = 1;
-      break;
-    case 'T': {
-      char *end;
-      errno = 0;
-      double t = strtod(optarg, &end);
-      /* Below a second, heartbeats would flood rank 0 and a busy node's
-       * ordinary pauses would end the job. */
-      if (errno || end == optarg || *end != '\0' ||
-          !(t == 0 || (t >= MIN_RANK_TIMEOUT && t <= MAX_RANK_TIMEOUT))) {
-        fprintf(stderr, "jeansgrow scan: --rank-timeout must be 0 (wait for ever) or a number of "
-                        "seconds from %.0f to %.0f (got '%s')\n", MIN_RANK_TIMEOUT,
-                MAX_RANK_TIMEOUT, optarg);
-        return EXIT_BAD_INPUT;
-      }
-      o->rank_timeout = t;
-      break;
-    }
-    case 'o':
-      o->common.output_path = optarg;
-      break;
-    case 'h':
-      print_scan_help(cmd);
-      return EXIT_OK;
-    case ':':
-      fprintf(stderr, "jeansgrow scan: option '%s' needs a value\n", argv[optind - 1]);
-      return EXIT_BAD_INPUT;
-    default:
-      if (optopt)
-        fprintf(stderr, "jeansgrow scan: unknown option '-%c' (see jeansgrow scan --help)\n",
-                optopt);
-      else
-        fprintf(stderr, "jeansgrow scan: unknown option '%s' (see jeansgrow scan --help)\n",
-                argv[optind - 1]);
-      return EXIT_BAD_INPUT;
-    }
-  }
-  if (optind >= argc) {
-    fprintf(stderr, "jeansgrow scan: missing parameter file (usage: jeansgrow scan %s)\n",
-            cmd->usage);
-    return EXIT_BAD_INPUT;
-  }
-  if (optind + 1 < argc) {
-    fprintf(stderr, "jeansgrow scan: unexpected argument '%s' (one parameter file only)\n",
-            argv[optind + 1]);
-    return EXIT_BAD_INPUT;
-  }
-  o->common.param_path = argv[optind];
+  const cli_extra_options extra = {scan_opts, handle_scan_option, print_scan_help, o};
+  int rc = cli_parse_options_with(cmd, argc, argv, &o->common, &extra);
+  if (rc >= 0) return rc;
   const char *out = o->common.output_path;
   if (out && strcmp(out, "-") == 0) out = o->common.output_path = NULL;
-  if (out && out[0] == '\0') {
-    fprintf(stderr, "jeansgrow scan: option '-o' needs a file name (got an empty one)\n");
-    return EXIT_BAD_INPUT;
-  }
-  struct stat sb;
-  if (out && stat(out, &sb) == 0 && S_ISDIR(sb.st_mode)) {
-    fprintf(stderr, "jeansgrow scan: %s is a directory; -o needs a file name\n", out);
-    return EXIT_BAD_INPUT;
-  }
   if (o->resume && !out) {
     fprintf(stderr, "jeansgrow scan: --resume needs -o FILE (the run resumes from "
                     "FILE.checkpoint)\n");
@@ -229,7 +181,7 @@ static void format_duration(double s, char *buf, size_t size) {
 
 static void draw_bar(progress *pr, long long done, long long total) {
   const int width = 28;
-  double now = now_seconds();
+  double now = jg__monotonic_seconds();
   double rate = (double)(done - pr->at_start) / (now - pr->t0 > 1e-6 ? now - pr->t0 : 1e-6);
   int fill = total > 0 ? (int)((double)width * (double)done / (double)total) : width;
   char bar[64], left[32];
@@ -254,7 +206,7 @@ static void on_point(void *context, const jg_scan_event *e) {
             jg_scan_total_points(pr->scan), desc, e->message);
   }
   /* A redraw costs a write to the terminal; ten a second is smooth enough. */
-  if (pr->tty && (now_seconds() - pr->last_draw >= 0.1 || e->done == e->total))
+  if (pr->tty && (jg__monotonic_seconds() - pr->last_draw >= 0.1 || e->done == e->total))
     draw_bar(pr, e->done, e->total);
 }
 
@@ -389,7 +341,7 @@ static int scan_finish(scan_setup *su, double t0, int threads, int ranks) {
   }
   long long failed = jg_scan_checkpoint_failed(c), resumed = jg_scan_checkpoint_resumed(c);
   long long points = jg_scan_slice_points(s);
-  double dt = now_seconds() - t0;
+  double dt = jg__monotonic_seconds() - t0;
   double rate = dt > 0 ? (double)(points - resumed) / dt : 0.0;
   char where[64];
   if (ranks > 1) snprintf(where, sizeof where, "%d MPI ranks x %d thread%s", ranks, threads,
@@ -454,7 +406,7 @@ int cmd_scan(const cli_command *cmd, int argc, char **argv) {
   memset(&pr, 0, sizeof pr);
   pr.scan = su.scan;
   pr.tty = rank == 0 && isatty(STDERR_FILENO);
-  pr.t0 = now_seconds();
+  pr.t0 = jg__monotonic_seconds();
   pr.at_start = su.checkpoint ? jg_scan_checkpoint_done(su.checkpoint) : 0;
   jg_error err;
   jg_error_clear(&err);

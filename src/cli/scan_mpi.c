@@ -64,6 +64,8 @@ void scan_mpi_abort(int code) { exit(code); }
 #include <pthread.h>
 #include <time.h>
 
+#include "../base/clock.h"
+
 enum { TAG_REQUEST = 1, TAG_TASK = 2, TAG_BYE = 3, TAG_ALIVE = 4 };
 
 /* A worker busy with long points sends nothing for as long as they take; it
@@ -90,12 +92,6 @@ enum { TAG_REQUEST = 1, TAG_TASK = 2, TAG_BYE = 3, TAG_ALIVE = 4 };
 #define NAP_CEILING_UNTIMED_NS 1000000L /* until a point's cost is known */
 #define NAP_CEILING_MAX_NS 20000000L
 #define NAP_POINT_FRACTION 8
-
-static double monotonic_now(void) {
-  struct timespec ts;
-  clock_gettime(CLOCK_MONOTONIC, &ts);
-  return (double)ts.tv_sec + 1e-9 * (double)ts.tv_nsec;
-}
 
 /* The nap ceiling from the time spent on `points` points so far. */
 static long nap_ceiling_ns(double seconds, long long points) {
@@ -240,33 +236,28 @@ static void manager_record(manager *m, long long index, jg_status st, const doub
   pthread_mutex_unlock(&m->lock);
 }
 
-static void *manager_worker(void *arg) {
-  manager *m = arg;
+/* The manager's own computing threads: indices from the same counter as
+ * the workers', results straight into the checkpoint. */
+static long long manager_feed_take(void *context) { return manager_take(context); }
+
+static void manager_feed_give(void *context, long long index, jg_status st, const double *values,
+                              const char *message, double seconds) {
+  manager *m = context;
+  pthread_mutex_lock(&m->lock);
+  m->eval_seconds += seconds;
+  m->evaluated++;
+  pthread_mutex_unlock(&m->lock);
   jg_error e;
   jg_error_clear(&e);
-  void *ws = jg_scan_workspace_new(m->s, &e);
-  double *values = malloc(sizeof(double) * (size_t)jg_scan_values_per_point(m->s));
-  if (!ws || !values) {
-    if (!values) JG_FAIL(&e, JG_ENOMEM, "out of memory for a scan thread");
-    pthread_mutex_lock(&m->lock);
-    manager_fail(m, &e);
-    pthread_mutex_unlock(&m->lock);
-  }
-  long long i;
-  while (ws && values && (i = manager_take(m)) >= 0) {
-    jg_error_clear(&e);
-    const double t0 = monotonic_now();
-    jg_status st = jg_scan_evaluate(m->s, i, ws, values, &e);
-    const double dt = monotonic_now() - t0;
-    pthread_mutex_lock(&m->lock);
-    m->eval_seconds += dt;
-    m->evaluated++;
-    pthread_mutex_unlock(&m->lock);
-    manager_record(m, i, st, values, e.message, &e);
-  }
-  jg_scan_workspace_free(m->s, ws);
-  free(values);
-  return NULL;
+  if (st == JG_ENOMEM) JG_FAIL(&e, JG_ENOMEM, "%s", message);
+  manager_record(m, index, st, values, message, &e);
+}
+
+static void manager_feed_fail(void *context, const jg_error *e) {
+  manager *m = context;
+  pthread_mutex_lock(&m->lock);
+  manager_fail(m, e);
+  pthread_mutex_unlock(&m->lock);
 }
 
 /* The first worker rank that has sent nothing (no result, request or
@@ -314,17 +305,18 @@ static jg_status run_manager(const jg_scan *s, jg_scan_checkpoint *c, int thread
   pthread_mutex_init(&m.lock, NULL);
   const int n_values = jg_scan_values_per_point(s);
   char *buf = malloc(result_size(n_values));
-  pthread_t *tid = malloc(sizeof *tid * (size_t)threads);
   int *held = calloc((size_t)ranks, sizeof *held); /* indices each worker holds */
   double *last_heard = malloc(sizeof *last_heard * (size_t)ranks);
   char *gone = calloc((size_t)ranks, 1); /* said goodbye */
   if (!last_heard || !gone) held = (free(held), NULL);
-  for (int r = 0; last_heard && r < ranks; r++) last_heard[r] = monotonic_now();
-  int started = 0;
-  if (buf && tid && held)
-    for (; started < threads; started++)
-      if (pthread_create(&tid[started], NULL, manager_worker, &m) != 0) break;
-  if (!buf || !tid || !held) {
+  for (int r = 0; last_heard && r < ranks; r++) last_heard[r] = jg__monotonic_seconds();
+  jg_scan_runner *runner = NULL;
+  if (buf && held) {
+    const jg_scan_feed feed = {&m, manager_feed_take, manager_feed_give, manager_feed_fail};
+    jg_error e;
+    if (jg_scan_runner_start(s, threads, &feed, &runner, &e) != JG_OK) manager_feed_fail(&m, &e);
+  }
+  if (!buf || !held) {
     jg_error e;
     JG_FAIL(&e, JG_ENOMEM, "out of memory for the MPI manager");
     manager_fail(&m, &e);
@@ -338,7 +330,7 @@ static jg_status run_manager(const jg_scan *s, jg_scan_checkpoint *c, int thread
     int flag = 0;
     MPI_Status status;
     MPI_Iprobe(MPI_ANY_SOURCE, MPI_ANY_TAG, MPI_COMM_WORLD, &flag, &status);
-    const double now = monotonic_now();
+    const double now = jg__monotonic_seconds();
     if (held && (silent = silent_rank(last_heard, gone, ranks, silence_limit, now)) > 0) {
       silent_for = now - last_heard[silent];
       break;
@@ -382,11 +374,10 @@ static jg_status run_manager(const jg_scan *s, jg_scan_checkpoint *c, int thread
   }
   jg_status gave_up = silent ? give_up_on(&m, silent, held[silent], silent_for, silence_limit,
                                           err) : JG_OK;
-  for (int i = 0; i < started; i++) pthread_join(tid[i], NULL);
+  jg_scan_runner_join(runner);
   free(held);
   free(last_heard);
   free(gone);
-  free(tid);
   free(buf);
   pthread_mutex_destroy(&m.lock);
   if (gave_up != JG_OK) return gave_up;
@@ -415,39 +406,36 @@ typedef struct worker {
   long long evaluated;
 } worker;
 
-static void *worker_thread(void *arg) {
-  worker *w = arg;
+/* A worker's computing threads: indices from the queue its main thread
+ * fills, results packed for its main thread to send. */
+static long long worker_feed_take(void *context) {
+  worker *w = context;
+  pthread_mutex_lock(&w->lock);
+  while (w->n_tasks == 0 && !w->quit) pthread_cond_wait(&w->have_task, &w->lock);
+  const long long i = w->n_tasks > 0 ? w->tasks[--w->n_tasks] : -1;
+  pthread_mutex_unlock(&w->lock);
+  return i;
+}
+
+static void worker_feed_give(void *context, long long index, jg_status st, const double *values,
+                             const char *message, double seconds) {
+  worker *w = context;
   const int n_values = jg_scan_values_per_point(w->s);
-  jg_error e;
-  jg_error_clear(&e);
-  void *ws = jg_scan_workspace_new(w->s, &e);
-  double *values = malloc(sizeof(double) * (size_t)n_values);
-  if (!ws || !values) MPI_Abort(MPI_COMM_WORLD, EXIT_RUN_FAILED); /* set-up memory: hopeless */
-  for (;;) {
-    pthread_mutex_lock(&w->lock);
-    while (w->n_tasks == 0 && !w->quit) pthread_cond_wait(&w->have_task, &w->lock);
-    if (w->n_tasks == 0) {
-      pthread_mutex_unlock(&w->lock);
-      break;
-    }
-    long long i = w->tasks[--w->n_tasks];
-    pthread_mutex_unlock(&w->lock);
-    jg_error_clear(&e);
-    const double t0 = monotonic_now();
-    jg_status st = jg_scan_evaluate(w->s, i, ws, values, &e);
-    const double dt = monotonic_now() - t0;
-    pthread_mutex_lock(&w->lock);
-    w->eval_seconds += dt;
-    w->evaluated++;
-    char *slot = w->results + (size_t)w->n_results * result_size(n_values);
-    pack_result(slot, i, st, values, n_values, e.message, &w->result_bytes[w->n_results]);
-    w->n_results++;
-    pthread_cond_signal(&w->have_result);
-    pthread_mutex_unlock(&w->lock);
-  }
-  jg_scan_workspace_free(w->s, ws);
-  free(values);
-  return NULL;
+  pthread_mutex_lock(&w->lock);
+  w->eval_seconds += seconds;
+  w->evaluated++;
+  char *slot = w->results + (size_t)w->n_results * result_size(n_values);
+  pack_result(slot, index, st, values, n_values, message, &w->result_bytes[w->n_results]);
+  w->n_results++;
+  pthread_cond_signal(&w->have_result);
+  pthread_mutex_unlock(&w->lock);
+}
+
+/* No memory for a thread's workspace: the rank cannot keep its promises. */
+static void worker_feed_fail(void *context, const jg_error *e) {
+  (void)context;
+  (void)e;
+  MPI_Abort(MPI_COMM_WORLD, EXIT_RUN_FAILED);
 }
 
 /* Send a request (with a result, or none) and take the reply: the next
@@ -504,14 +492,16 @@ static void run_worker(const jg_scan *s, int threads, double silence_limit) {
   w.results = malloc(slot * (size_t)depth);
   w.result_bytes = malloc(sizeof *w.result_bytes * (size_t)depth);
   char *msg = malloc(slot);
-  pthread_t *tid = malloc(sizeof *tid * (size_t)threads);
-  if (!w.tasks || !w.results || !w.result_bytes || !msg || !tid)
-    MPI_Abort(MPI_COMM_WORLD, EXIT_RUN_FAILED);
+  if (!w.tasks || !w.results || !w.result_bytes || !msg) MPI_Abort(MPI_COMM_WORLD, EXIT_RUN_FAILED);
   pthread_mutex_init(&w.lock, NULL);
   pthread_cond_init(&w.have_task, NULL);
   pthread_cond_init(&w.have_result, NULL);
-  for (int i = 0; i < threads; i++)
-    if (pthread_create(&tid[i], NULL, worker_thread, &w) != 0) MPI_Abort(MPI_COMM_WORLD, EXIT_RUN_FAILED);
+  const jg_scan_feed feed = {&w, worker_feed_take, worker_feed_give, worker_feed_fail};
+  jg_scan_runner *runner = NULL;
+  jg_error e;
+  if (jg_scan_runner_start(s, threads, &feed, &runner, &e) != JG_OK ||
+      jg_scan_runner_threads(runner) < threads)
+    MPI_Abort(MPI_COMM_WORLD, EXIT_RUN_FAILED); /* fewer threads would leave queued points */
 
   /* Every index held is in the queue, computing, or a result not yet sent;
    * never more than `depth` of them, the capacity of each buffer. */
@@ -547,7 +537,7 @@ static void run_worker(const jg_scan *s, int threads, double silence_limit) {
   w.quit = 1;
   pthread_cond_broadcast(&w.have_task);
   pthread_mutex_unlock(&w.lock);
-  for (int i = 0; i < threads; i++) pthread_join(tid[i], NULL);
+  jg_scan_runner_join(runner);
   MPI_Send(msg, 0, MPI_BYTE, 0, TAG_BYE, MPI_COMM_WORLD);
   pthread_cond_destroy(&w.have_task);
   pthread_cond_destroy(&w.have_result);
@@ -556,7 +546,6 @@ static void run_worker(const jg_scan *s, int threads, double silence_limit) {
   free(w.results);
   free(w.result_bytes);
   free(msg);
-  free(tid);
 }
 
 jg_status scan_mpi_run(const jg_scan *s, jg_scan_checkpoint *c, int threads,
