@@ -95,7 +95,8 @@ static const char *const toy_point_columns[] = {"h_squared"};
 static const char *const toy_redshift_columns[] = {"h_times_1pz", "h_third[km]"};
 
 static jg_status toy_evaluate(const jg_params *p, double *point_values, double *redshift_values,
-                              void *workspace, jg_error *err) {
+                              void *workspace, const void *user, jg_error *err) {
+  (void)user;
   (void)workspace;
   const double h = p->cosmology.hubble_h;
   if (h > 0.85) return JG_FAIL(err, JG_ENUMERIC, "toy: no convergence at h = %g", h);
@@ -108,7 +109,7 @@ static jg_status toy_evaluate(const jg_params *p, double *point_values, double *
 }
 
 static const jg_scan_evaluator toy = {"toy", 1, toy_point_columns, 2, toy_redshift_columns,
-                                      NULL, NULL, NULL, toy_evaluate};
+                                      NULL, NULL, NULL, toy_evaluate, NULL};
 
 static void toy_params(jg_params *p) {
   jg_params_set_defaults(p);

@@ -163,7 +163,8 @@ typedef struct jg_scan_evaluator {
   void *(*workspace_new)(const jg_params *base); /* NULL: no workspace; NULL result = no memory */
   void (*workspace_free)(void *workspace);
   jg_status (*evaluate)(const jg_params *p, double *point_values, double *redshift_values,
-                        void *workspace, jg_error *err);
+                        void *workspace, const void *user, jg_error *err);
+  const void *user;                          /* handed to evaluate as it is (may be NULL) */
 } jg_scan_evaluator;
 
 /*

@@ -56,8 +56,10 @@ jg_status jg_scan_thermal_columns(const jg_thermal *th, const jg_params *p,
 }
 
 static jg_status thermal_evaluate(const jg_params *p, double *point_values,
-                                  double *redshift_values, void *workspace, jg_error *err) {
+                                  double *redshift_values, void *workspace, const void *user,
+                                  jg_error *err) {
   (void)workspace;
+  (void)user;
   jg_background *bg = jg_background_new(&p->cosmology, err);
   if (!bg) return err ? err->status : JG_EINVAL;
   jg_thermal *th = jg_thermal_new(bg, &p->thermal, err);
@@ -79,7 +81,8 @@ static const jg_scan_evaluator thermal_evaluator = {
     thermal_conventions,
     NULL,
     NULL,
-    thermal_evaluate};
+    thermal_evaluate,
+    NULL};
 
 const jg_scan_evaluator *jg_scan_evaluator_thermal(void) { return &thermal_evaluator; }
 
@@ -88,10 +91,14 @@ const jg_scan_evaluator *jg_scan_evaluator_thermal(void) { return &thermal_evalu
 /* The `scales` table's columns without its leading `z` (the scan writes z). */
 #define SCALES_REDSHIFT_COLUMNS (JG__REPORT_SCALES_COLUMNS - 1)
 
-/* The evaluator carries its units itself rather than reading
- * p->output.units, so that its values always match its column names. */
-static jg_status scales_evaluate(const jg_params *p, jg_output_units units, double *point_values,
-                                 double *redshift_values, jg_error *err) {
+/* The evaluator carries its units itself, as its user data, rather than
+ * reading p->output.units, so that its values always match its column
+ * names. */
+static jg_status scales_evaluate(const jg_params *p, double *point_values,
+                                 double *redshift_values, void *workspace, const void *user,
+                                 jg_error *err) {
+  (void)workspace;
+  const jg_output_units units = *(const jg_output_units *)user;
   const int n_z = p->output.n_redshifts;
   jg_scales_point *s = malloc(sizeof *s * (size_t)n_z);
   if (!s) return JG_FAIL(err, JG_ENOMEM, "out of memory for the scales of a scan point");
@@ -122,17 +129,7 @@ static jg_status scales_evaluate(const jg_params *p, jg_output_units units, doub
   return st;
 }
 
-static jg_status scales_evaluate_mpc(const jg_params *p, double *point_values,
-                                     double *redshift_values, void *workspace, jg_error *err) {
-  (void)workspace;
-  return scales_evaluate(p, JG_UNITS_MPC, point_values, redshift_values, err);
-}
-
-static jg_status scales_evaluate_mpc_h(const jg_params *p, double *point_values,
-                                       double *redshift_values, void *workspace, jg_error *err) {
-  (void)workspace;
-  return scales_evaluate(p, JG_UNITS_MPC_H, point_values, redshift_values, err);
-}
+static const jg_output_units units_mpc = JG_UNITS_MPC, units_mpc_h = JG_UNITS_MPC_H;
 
 /* The report module owns the names and conventions. */
 static const jg_scan_evaluator scales_evaluators[] = {
@@ -141,13 +138,13 @@ static const jg_scan_evaluator scales_evaluators[] = {
                       JG_SCAN_THERMAL_POINT_COLUMNS, thermal_point_columns,
                       SCALES_REDSHIFT_COLUMNS, jg__report_scales_columns[JG_UNITS_MPC] + 1,
                       jg__report_scales_conventions[JG_UNITS_MPC], NULL, NULL,
-                      scales_evaluate_mpc},
+                      scales_evaluate, &units_mpc},
     [JG_UNITS_MPC_H] = {"scales (epochs; Jeans, filtering and half-suppression scales as "
                         "jeansgrow scales), in h units",
                         JG_SCAN_THERMAL_POINT_COLUMNS, thermal_point_columns,
                         SCALES_REDSHIFT_COLUMNS, jg__report_scales_columns[JG_UNITS_MPC_H] + 1,
                         jg__report_scales_conventions[JG_UNITS_MPC_H], NULL, NULL,
-                        scales_evaluate_mpc_h}};
+                        scales_evaluate, &units_mpc_h}};
 
 const jg_scan_evaluator *jg_scan_evaluator_scales(jg_output_units units) {
   return &scales_evaluators[units == JG_UNITS_MPC_H ? JG_UNITS_MPC_H : JG_UNITS_MPC];

@@ -358,7 +358,7 @@ jg_status jg_scan_evaluate(const jg_scan *s, long long index, void *workspace, d
   if (st == JG_OK) st = jg_params_validate(&w->p, err);
   if (st != JG_OK) return st;
   const jg_scan_evaluator *ev = s->ev;
-  st = ev->evaluate(&w->p, values, values + ev->n_point_columns, w->user, err);
+  st = ev->evaluate(&w->p, values, values + ev->n_point_columns, w->user, ev->user, err);
   if (st != JG_OK) {
     if (err && !err->message[0]) JG_FAIL(err, st, "%s", jg_strerror(st));
     return st;
