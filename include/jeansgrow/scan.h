@@ -344,6 +344,25 @@ void jg_scan_runner_join(jg_scan_runner *r);
  * until take returns -1. */
 void jg_scan_feed_work(const jg_scan *s, const jg_scan_feed *feed);
 
+/*
+ * The feed of one slice: hands out the points of s's slice missing from c,
+ * in grid order, and records each result in c (telling `listener`, as
+ * jg_scan_run does). A failed record, a JG_ENOMEM result, fail or
+ * jg_scan_slice_feed_stop stop it: take returns -1 from then on.
+ * jg_scan_run is this feed on a runner; the program's MPI manager feeds its
+ * own threads and the other ranks' results through it too.
+ */
+typedef struct jg_scan_slice_feed jg_scan_slice_feed;
+jg_status jg_scan_slice_feed_new(const jg_scan *s, jg_scan_checkpoint *c,
+                                 jg_scan_listener listener, void *context,
+                                 jg_scan_slice_feed **out, jg_error *err);
+jg_scan_feed jg_scan_slice_feed_of(jg_scan_slice_feed *f);
+/* Points neither recorded nor handed out yet. */
+long long jg_scan_slice_feed_unassigned(jg_scan_slice_feed *f);
+void jg_scan_slice_feed_stop(jg_scan_slice_feed *f);
+/* Free it; returns the error that stopped it (copied to err), or JG_OK. */
+jg_status jg_scan_slice_feed_free(jg_scan_slice_feed *f, jg_error *err);
+
 /* ---- the table ----------------------------------------------------------- */
 
 /* Write the table of the slice to `f` from the checkpoint (every point of

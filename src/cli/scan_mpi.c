@@ -169,38 +169,16 @@ static void pack_result(char *buf, long long index, jg_status st, const double *
 
 /* ---- the manager (rank 0) ---------------------------------------------- */
 
+/* The manager: the library's slice feed hands out the indices and records
+ * the results, for its own computing threads and for the other ranks'
+ * alike; the manager adds the cost of its own points, for the naps. */
 typedef struct manager {
-  const jg_scan *s;
-  jg_scan_checkpoint *c;
-  jg_scan_listener listener;
-  void *context;
+  jg_scan_slice_feed *slice;
+  jg_scan_feed feed;   /* the slice feed's functions */
   pthread_mutex_t lock;
-  long long next;       /* lowest index not yet handed out */
-  long long unassigned; /* points neither recorded nor handed out */
-  double eval_seconds;  /* time the manager's own threads spent on points, */
-  long long evaluated;  /* and how many: the cost of a point, for the naps */
-  int stop;
-  jg_status fatal;
-  jg_error fatal_err;
+  double eval_seconds; /* time the manager's own threads spent on points, */
+  long long evaluated; /* and how many: the cost of a point, for the naps */
 } manager;
-
-static void manager_fail(manager *m, const jg_error *e) {
-  if (m->fatal == JG_OK) {
-    m->fatal = e->status != JG_OK ? e->status : JG_EIO;
-    m->fatal_err = *e;
-  }
-  m->stop = 1;
-}
-
-static long long manager_take(manager *m) {
-  pthread_mutex_lock(&m->lock);
-  const long long end = jg_scan_first_point(m->s) + jg_scan_slice_points(m->s);
-  while (m->next < end && jg_scan_checkpoint_has(m->c, m->next)) m->next++;
-  long long i = (!m->stop && m->next < end) ? m->next++ : -1;
-  if (i >= 0) m->unassigned--;
-  pthread_mutex_unlock(&m->lock);
-  return i;
-}
 
 /* The next index for a worker that holds `held` indices on `threads`
  * threads (every rank runs the same --threads), -1 if none for now. Once
@@ -210,35 +188,15 @@ static long long manager_take(manager *m) {
  * to whichever thread frees up first. It asks again with each result, so
  * it leaves only when nothing is left. */
 static long long manager_take_for_worker(manager *m, int held, int threads, int ranks) {
-  pthread_mutex_lock(&m->lock);
-  const int endgame = m->unassigned < (long long)threads * ranks;
-  pthread_mutex_unlock(&m->lock);
-  return endgame && held >= threads ? -1 : manager_take(m);
+  const int endgame = jg_scan_slice_feed_unassigned(m->slice) < (long long)threads * ranks;
+  return endgame && held >= threads ? -1 : m->feed.take(m->feed.context);
 }
 
-static void manager_record(manager *m, long long index, jg_status st, const double *values,
-                           const char *message, const jg_error *eval_err) {
-  pthread_mutex_lock(&m->lock);
-  if (st == JG_ENOMEM) {
-    manager_fail(m, eval_err);
-  } else {
-    jg_error werr;
-    jg_error_clear(&werr);
-    if (jg_scan_checkpoint_add(m->c, index, st, values, message, &werr) != JG_OK) {
-      manager_fail(m, &werr);
-    } else if (m->listener) {
-      jg_scan_event ev = {index, st, st == JG_OK ? "" : message,
-                          jg_scan_checkpoint_done(m->c), jg_scan_checkpoint_failed(m->c),
-                          jg_scan_slice_points(m->s)};
-      m->listener(m->context, &ev);
-    }
-  }
-  pthread_mutex_unlock(&m->lock);
+/* The manager's own computing threads: the slice feed, timed. */
+static long long manager_feed_take(void *context) {
+  manager *m = context;
+  return m->feed.take(m->feed.context);
 }
-
-/* The manager's own computing threads: indices from the same counter as
- * the workers', results straight into the checkpoint. */
-static long long manager_feed_take(void *context) { return manager_take(context); }
 
 static void manager_feed_give(void *context, long long index, jg_status st, const double *values,
                               const char *message, double seconds) {
@@ -247,17 +205,12 @@ static void manager_feed_give(void *context, long long index, jg_status st, cons
   m->eval_seconds += seconds;
   m->evaluated++;
   pthread_mutex_unlock(&m->lock);
-  jg_error e;
-  jg_error_clear(&e);
-  if (st == JG_ENOMEM) JG_FAIL(&e, JG_ENOMEM, "%s", message);
-  manager_record(m, index, st, values, message, &e);
+  m->feed.give(m->feed.context, index, st, values, message, seconds);
 }
 
 static void manager_feed_fail(void *context, const jg_error *e) {
   manager *m = context;
-  pthread_mutex_lock(&m->lock);
-  manager_fail(m, e);
-  pthread_mutex_unlock(&m->lock);
+  m->feed.fail(m->feed.context, e);
 }
 
 /* The first worker rank that has sent nothing (no result, request or
@@ -273,12 +226,10 @@ static int silent_rank(const double *last_heard, const char *gone, int ranks, do
 /* Stop the job for a silent rank: the manager's own threads finish their
  * points and the caller keeps the checkpoint, from which --resume
  * recomputes whatever the silent rank held. */
-static jg_status give_up_on(manager *m, int rank, int held, double silent_for, double limit,
-                            jg_error *err) {
-  pthread_mutex_lock(&m->lock);
-  m->stop = 1;
-  pthread_mutex_unlock(&m->lock);
-  const char *kept = jg_scan_checkpoint_path(m->c);
+static jg_status give_up_on(manager *m, jg_scan_checkpoint *c, int rank, int held,
+                            double silent_for, double limit, jg_error *err) {
+  jg_scan_slice_feed_stop(m->slice);
+  const char *kept = jg_scan_checkpoint_path(c);
   char resume[4400];
   if (kept)
     snprintf(resume, sizeof resume, "the finished points are kept in %s: run the same command "
@@ -295,13 +246,12 @@ static jg_status run_manager(const jg_scan *s, jg_scan_checkpoint *c, int thread
                              jg_error *err) {
   manager m;
   memset(&m, 0, sizeof m);
-  m.s = s;
-  m.c = c;
-  m.listener = listener;
-  m.context = context;
-  m.next = jg_scan_first_point(s);
-  m.unassigned = jg_scan_slice_points(s) - jg_scan_checkpoint_done(c);
-  m.fatal = JG_OK;
+  if (jg_scan_slice_feed_new(s, c, listener, context, &m.slice, err) != JG_OK) {
+    /* Without it no worker's request can be answered: end every rank. */
+    cli_report(err);
+    MPI_Abort(MPI_COMM_WORLD, EXIT_RUN_FAILED);
+  }
+  m.feed = jg_scan_slice_feed_of(m.slice);
   pthread_mutex_init(&m.lock, NULL);
   const int n_values = jg_scan_values_per_point(s);
   char *buf = malloc(result_size(n_values));
@@ -319,7 +269,7 @@ static jg_status run_manager(const jg_scan *s, jg_scan_checkpoint *c, int thread
   if (!buf || !held) {
     jg_error e;
     JG_FAIL(&e, JG_ENOMEM, "out of memory for the MPI manager");
-    manager_fail(&m, &e);
+    manager_feed_fail(&m, &e);
   }
   /* Serve until every worker has said goodbye, which each does only after
    * its last result was answered: no message is left unanswered. */
@@ -361,29 +311,33 @@ static jg_status run_manager(const jg_scan *s, jg_scan_checkpoint *c, int thread
     memcpy(&h, buf, sizeof h);
     if (h.index >= 0) {
       held[status.MPI_SOURCE]--;
+      char no_memory[64];
       const char *text = h.message_length > 0 ? buf + sizeof h : "";
-      jg_error e;
-      jg_error_clear(&e);
-      if (h.status == JG_ENOMEM)
-        JG_FAIL(&e, JG_ENOMEM, "out of memory on MPI rank %d", status.MPI_SOURCE);
-      manager_record(&m, h.index, (jg_status)h.status, (const double *)(buf + sizeof h), text, &e);
+      if (h.status == JG_ENOMEM) {
+        snprintf(no_memory, sizeof no_memory, "out of memory on MPI rank %d", status.MPI_SOURCE);
+        text = no_memory;
+      }
+      m.feed.give(m.feed.context, h.index, (jg_status)h.status,
+                  (const double *)(buf + sizeof h), text, 0.0);
     }
     long long next = manager_take_for_worker(&m, held[status.MPI_SOURCE], threads, ranks);
     if (next >= 0) held[status.MPI_SOURCE]++;
     MPI_Send(&next, 1, MPI_LONG_LONG, status.MPI_SOURCE, TAG_TASK, MPI_COMM_WORLD);
   }
-  jg_status gave_up = silent ? give_up_on(&m, silent, held[silent], silent_for, silence_limit,
-                                          err) : JG_OK;
+  jg_status gave_up = silent ? give_up_on(&m, c, silent, held[silent], silent_for,
+                                          silence_limit, err) : JG_OK;
   jg_scan_runner_join(runner);
   free(held);
   free(last_heard);
   free(gone);
   free(buf);
   pthread_mutex_destroy(&m.lock);
+  jg_error fed_err;
+  const jg_status fed = jg_scan_slice_feed_free(m.slice, &fed_err);
   if (gave_up != JG_OK) return gave_up;
-  if (m.fatal != JG_OK) {
-    if (err) *err = m.fatal_err;
-    return m.fatal;
+  if (fed != JG_OK) {
+    if (err) *err = fed_err;
+    return fed;
   }
   /* Every point must be in: a worker that vanished would leave holes, and
    * the table writer refuses those rather than write a partial table. */

@@ -88,64 +88,108 @@ void jg_scan_runner_join(jg_scan_runner *r) {
   free(r);
 }
 
-/* ---- the feed of one process: the slice's missing points, into the
- * checkpoint ---------------------------------------------------------------- */
+/* ---- the slice feed: the slice's missing points, into the checkpoint ----- */
 
-typedef struct run_state {
+struct jg_scan_slice_feed {
   const jg_scan *s;
   jg_scan_checkpoint *c;
   jg_scan_listener listener;
   void *context;
   pthread_mutex_t lock;
-  long long next; /* lowest index not yet handed out */
+  long long next;       /* lowest index not yet handed out */
+  long long unassigned; /* points neither recorded nor handed out */
   int stop;
   jg_status fatal;
   jg_error fatal_err;
-} run_state;
+};
 
 /* Called with the lock held. */
-static void run_stop(run_state *r, const jg_error *e) {
-  if (r->fatal == JG_OK) {
-    r->fatal = e->status != JG_OK ? e->status : JG_EIO;
-    r->fatal_err = *e;
+static void slice_stop(jg_scan_slice_feed *f, const jg_error *e) {
+  if (e && f->fatal == JG_OK) {
+    f->fatal = e->status != JG_OK ? e->status : JG_EIO;
+    f->fatal_err = *e;
   }
-  r->stop = 1;
+  f->stop = 1;
 }
 
-static long long run_take(void *context) {
-  run_state *r = context;
-  pthread_mutex_lock(&r->lock);
-  const long long end = r->s->first + r->s->count;
-  while (r->next < end && jg_scan_checkpoint_has(r->c, r->next)) r->next++;
-  long long i = (!r->stop && r->next < end) ? r->next++ : -1;
-  pthread_mutex_unlock(&r->lock);
+static long long slice_take(void *context) {
+  jg_scan_slice_feed *f = context;
+  pthread_mutex_lock(&f->lock);
+  const long long end = f->s->first + f->s->count;
+  while (f->next < end && jg_scan_checkpoint_has(f->c, f->next)) f->next++;
+  long long i = (!f->stop && f->next < end) ? f->next++ : -1;
+  if (i >= 0) f->unassigned--;
+  pthread_mutex_unlock(&f->lock);
   return i;
 }
 
-static void run_give(void *context, long long index, jg_status status, const double *values,
-                     const char *message, double seconds) {
+static void slice_give(void *context, long long index, jg_status status, const double *values,
+                       const char *message, double seconds) {
   (void)seconds;
-  run_state *r = context;
-  pthread_mutex_lock(&r->lock);
+  jg_scan_slice_feed *f = context;
+  pthread_mutex_lock(&f->lock);
   jg_error werr;
   jg_error_clear(&werr);
   if (status == JG_ENOMEM) { /* the run cannot go on; the point stays missing */
     JG_FAIL(&werr, JG_ENOMEM, "%s", message);
-    run_stop(r, &werr);
-  } else if (jg_scan_checkpoint_add(r->c, index, status, values, message, &werr) != JG_OK) {
-    run_stop(r, &werr);
-  } else if (r->listener) {
-    jg_scan_event ev = {index, status, message, r->c->done, r->c->failed, r->s->count};
-    r->listener(r->context, &ev);
+    slice_stop(f, &werr);
+  } else if (jg_scan_checkpoint_add(f->c, index, status, values, message, &werr) != JG_OK) {
+    slice_stop(f, &werr);
+  } else if (f->listener) {
+    jg_scan_event ev = {index, status, message, f->c->done, f->c->failed, f->s->count};
+    f->listener(f->context, &ev);
   }
-  pthread_mutex_unlock(&r->lock);
+  pthread_mutex_unlock(&f->lock);
 }
 
-static void run_fail(void *context, const jg_error *e) {
-  run_state *r = context;
-  pthread_mutex_lock(&r->lock);
-  run_stop(r, e);
-  pthread_mutex_unlock(&r->lock);
+static void slice_fail(void *context, const jg_error *e) {
+  jg_scan_slice_feed *f = context;
+  pthread_mutex_lock(&f->lock);
+  slice_stop(f, e);
+  pthread_mutex_unlock(&f->lock);
+}
+
+jg_status jg_scan_slice_feed_new(const jg_scan *s, jg_scan_checkpoint *c,
+                                 jg_scan_listener listener, void *context,
+                                 jg_scan_slice_feed **out, jg_error *err) {
+  *out = NULL;
+  if (!s || !c || c->s != s)
+    return JG_FAIL(err, JG_EINVAL, "jg_scan_slice_feed_new: scan and checkpoint do not match");
+  jg_scan_slice_feed *f = calloc(1, sizeof *f);
+  if (!f) return JG_FAIL(err, JG_ENOMEM, "out of memory for the scan feed");
+  f->s = s;
+  f->c = c;
+  f->listener = listener;
+  f->context = context;
+  f->next = s->first;
+  f->unassigned = s->count - c->done;
+  f->fatal = JG_OK;
+  pthread_mutex_init(&f->lock, NULL);
+  *out = f;
+  return JG_OK;
+}
+
+jg_scan_feed jg_scan_slice_feed_of(jg_scan_slice_feed *f) {
+  const jg_scan_feed feed = {f, slice_take, slice_give, slice_fail};
+  return feed;
+}
+
+long long jg_scan_slice_feed_unassigned(jg_scan_slice_feed *f) {
+  pthread_mutex_lock(&f->lock);
+  const long long n = f->unassigned;
+  pthread_mutex_unlock(&f->lock);
+  return n;
+}
+
+void jg_scan_slice_feed_stop(jg_scan_slice_feed *f) { slice_fail(f, NULL); }
+
+jg_status jg_scan_slice_feed_free(jg_scan_slice_feed *f, jg_error *err) {
+  if (!f) return JG_OK;
+  const jg_status st = f->fatal;
+  if (st != JG_OK && err) *err = f->fatal_err;
+  pthread_mutex_destroy(&f->lock);
+  free(f);
+  return st;
 }
 
 jg_status jg_scan_run(const jg_scan *s, jg_scan_checkpoint *c, int threads,
@@ -155,26 +199,15 @@ jg_status jg_scan_run(const jg_scan *s, jg_scan_checkpoint *c, int threads,
   long long missing = s->count - c->done;
   if (missing <= 0) return JG_OK;
   if (threads > missing) threads = (int)missing;
-  run_state r;
-  memset(&r, 0, sizeof r);
-  r.s = s;
-  r.c = c;
-  r.listener = listener;
-  r.context = context;
-  r.next = s->first;
-  r.fatal = JG_OK;
-  pthread_mutex_init(&r.lock, NULL);
-  const jg_scan_feed feed = {&r, run_take, run_give, run_fail};
+  jg_scan_slice_feed *f = NULL;
+  jg_status st = jg_scan_slice_feed_new(s, c, listener, context, &f, err);
+  if (st != JG_OK) return st;
+  const jg_scan_feed feed = jg_scan_slice_feed_of(f);
   jg_scan_runner *runner = NULL;
-  jg_status st = jg_scan_runner_start(s, threads, &feed, &runner, err);
+  st = jg_scan_runner_start(s, threads, &feed, &runner, err);
   if (st == JG_OK && jg_scan_runner_threads(runner) == 0)
     jg_scan_feed_work(s, &feed); /* no thread could start: do the work here */
   jg_scan_runner_join(runner);
-  pthread_mutex_destroy(&r.lock);
-  if (st != JG_OK) return st;
-  if (r.fatal != JG_OK) {
-    if (err) *err = r.fatal_err;
-    return r.fatal;
-  }
-  return JG_OK;
+  const jg_status fed = jg_scan_slice_feed_free(f, err);
+  return st != JG_OK ? st : fed;
 }
