@@ -422,25 +422,29 @@ static double hubble_distance_mpc(const jg_background *bg) {
   return JG_C_LIGHT / bg->H0 / JG_MPC;
 }
 
-jg_status jg_background_cosmic_time(const jg_background *bg, double a, double *t, jg_error *err) {
-  jg_status st = check_args_a(bg, a, t, "jg_background_cosmic_time", err);
+/* A time since the big bang: the integral of g from a = 0, times `unit`. */
+static jg_status time_since_big_bang(const jg_background *bg, double a,
+                                     double (*g)(bg_ctx *, double), double unit,
+                                     const char *what, const char *caller, double *out,
+                                     jg_error *err) {
+  jg_status st = check_args_a(bg, a, out, caller, err);
   if (st != JG_OK) return st;
   double v;
-  st = integrate_a(bg, g_time, 0.0, a, "cosmic time", 1.0 / a - 1.0, &v, err);
+  st = integrate_a(bg, g, 0.0, a, what, 1.0 / a - 1.0, &v, err);
   if (st != JG_OK) return st;
-  *t = v / bg->H0;
+  *out = v * unit;
   return JG_OK;
+}
+
+jg_status jg_background_cosmic_time(const jg_background *bg, double a, double *t, jg_error *err) {
+  return time_since_big_bang(bg, a, g_time, bg ? 1.0 / bg->H0 : 0.0, "cosmic time",
+                             "jg_background_cosmic_time", t, err);
 }
 
 jg_status jg_background_conformal_time(const jg_background *bg, double a, double *eta_mpc,
                                        jg_error *err) {
-  jg_status st = check_args_a(bg, a, eta_mpc, "jg_background_conformal_time", err);
-  if (st != JG_OK) return st;
-  double v;
-  st = integrate_a(bg, g_conformal, 0.0, a, "conformal time", 1.0 / a - 1.0, &v, err);
-  if (st != JG_OK) return st;
-  *eta_mpc = v * hubble_distance_mpc(bg);
-  return JG_OK;
+  return time_since_big_bang(bg, a, g_conformal, bg ? hubble_distance_mpc(bg) : 0.0,
+                             "conformal time", "jg_background_conformal_time", eta_mpc, err);
 }
 
 jg_status jg_background_comoving_distance(const jg_background *bg, double z, double *d_mpc,

@@ -82,32 +82,30 @@ static int local_state_at(const history_system *sys, double x, double x_p, local
   return GSL_SUCCESS;
 }
 
-/* Phase 2: y = {x_p}, T_gas quasi-static. */
-static int rhs_hydrogen(double x, const double y[], double f[], void *params) {
-  history_system *sys = params;
+/* dx_p/d ln a (and dT_gas/d ln a when the gas temperature is integrated:
+ * dim 2, y = {x_p, T_gas}; dim 1, y = {x_p}, T_gas quasi-static). */
+static int rhs_history(int dim, double x, const double y[], double f[], history_system *sys) {
   local_state s;
   int st = local_state_at(sys, x, y[0], &s);
   if (st != GSL_SUCCESS) return st;
-  double T_gas = jg__gas_temperature_quasi_static(s.T_rad, s.H, s.compton);
+  if (dim == 2 && !isfinite(y[1])) return GSL_EBADFUNC;
+  if (dim == 2 && !(y[1] > 0)) return GSL_EDOM;
+  const double T_gas = dim == 2 ? y[1] : jg__gas_temperature_quasi_static(s.T_rad, s.H, s.compton);
   jg__peebles_rate r;
   jg__peebles_rate_at(y[0], s.x_e, s.dxe_dxp, T_gas, s.T_rad, s.n_H, s.H, sys->fudge, &r);
   f[0] = r.dxp_dt / s.H;
+  if (dim == 2) f[1] = jg__gas_temperature_dlna(y[1], s.T_rad, s.H, s.compton);
   return GSL_SUCCESS;
+}
+
+/* Phase 2: y = {x_p}, T_gas quasi-static. */
+static int rhs_hydrogen(double x, const double y[], double f[], void *params) {
+  return rhs_history(1, x, y, f, params);
 }
 
 /* Phase 3: y = {x_p, T_gas}. */
 static int rhs_hydrogen_temperature(double x, const double y[], double f[], void *params) {
-  history_system *sys = params;
-  local_state s;
-  int st = local_state_at(sys, x, y[0], &s);
-  if (st != GSL_SUCCESS) return st;
-  if (!isfinite(y[1])) return GSL_EBADFUNC;
-  if (!(y[1] > 0)) return GSL_EDOM;
-  jg__peebles_rate r;
-  jg__peebles_rate_at(y[0], s.x_e, s.dxe_dxp, y[1], s.T_rad, s.n_H, s.H, sys->fudge, &r);
-  f[0] = r.dxp_dt / s.H;
-  f[1] = jg__gas_temperature_dlna(y[1], s.T_rad, s.H, s.compton);
-  return GSL_SUCCESS;
+  return rhs_history(2, x, y, f, params);
 }
 
 /* The explicit x-dependence (dfdt) by a central difference of the
@@ -596,23 +594,20 @@ static void early_state(const jg_thermal *th, double a, double *x_e, double *x_p
 
 static double clamp_ln_a(double x) { return x > 0.0 ? 0.0 : x; }
 
-double jg_thermal_x_e(const jg_thermal *th, double ln_a) {
+/* x_e (want_T = 0) or T_gas (want_T = 1) at ln a: the stored spline, or the
+ * equilibrium above the start redshift. */
+static double stored_or_early(const jg_thermal *th, double ln_a, int want_T) {
   if (ln_a < th->ln_a_start) {
     double x_e, x_p, T;
     early_state(th, exp(ln_a), &x_e, &x_p, &T);
-    return x_e;
+    return want_T ? T : x_e;
   }
-  return exp(gsl_spline_eval(th->ln_xe, clamp_ln_a(ln_a), NULL));
+  return exp(gsl_spline_eval(want_T ? th->ln_Tgas : th->ln_xe, clamp_ln_a(ln_a), NULL));
 }
 
-double jg_thermal_T_gas(const jg_thermal *th, double ln_a) {
-  if (ln_a < th->ln_a_start) {
-    double x_e, x_p, T;
-    early_state(th, exp(ln_a), &x_e, &x_p, &T);
-    return T;
-  }
-  return exp(gsl_spline_eval(th->ln_Tgas, clamp_ln_a(ln_a), NULL));
-}
+double jg_thermal_x_e(const jg_thermal *th, double ln_a) { return stored_or_early(th, ln_a, 0); }
+
+double jg_thermal_T_gas(const jg_thermal *th, double ln_a) { return stored_or_early(th, ln_a, 1); }
 
 void jg_thermal_state_at(const jg_thermal *th, double z, jg_thermal_state *s) {
   const jg_background *bg = th->bg;
