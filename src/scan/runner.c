@@ -2,10 +2,12 @@
  * Running a scan on threads. jg_scan_runner_start starts threads that take
  * point indices from a feed, evaluate them (each thread with its own
  * workspace) and give the results back to the feed; the feed decides where
- * indices come from and where results go. jg_scan_run is the feed of one
- * process (the missing points of the slice, into the checkpoint); the
- * program's MPI driver has feeds of its own (indices from rank 0, results
- * back to it) and keeps only the messaging.
+ * indices come from and where results go. The slice feed hands out the
+ * points of a slice missing from its checkpoint and records the results:
+ * jg_scan_run runs it on threads, and the program's MPI manager feeds its
+ * own threads and the other ranks' results through it. The MPI workers
+ * have feeds of their own (indices from rank 0, results back to it), so the
+ * MPI code keeps only its messaging.
  */
 #include "scan_internal.h"
 
