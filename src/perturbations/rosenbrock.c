@@ -55,8 +55,18 @@ static const double C61 = 0.8083246795921522e+01, C62 = -0.7981132988064893e+01,
 #define GROW_MAX 6.0
 #define SHRINK_MIN 0.2
 
+/* The helpers below are inlined into a copy of the integrator per common
+ * dimension (see jg__ros_integrate), so that their loops over n are
+ * unrolled for n = 4, 5, 10, 11; the arithmetic and its order are the same
+ * in every copy. */
+#if defined(__GNUC__)
+#define ROS_INLINE static inline __attribute__((always_inline))
+#else
+#define ROS_INLINE static inline
+#endif
+
 /* LU with partial pivoting of an n x n row-major matrix; 0 if singular. */
-static int lu_factor(double *a, int n, int *piv) {
+ROS_INLINE int lu_factor(double *a, int n, int *piv) {
   for (int k = 0; k < n; k++) {
     int p = k;
     double best = fabs(a[k * n + k]);
@@ -83,7 +93,7 @@ static int lu_factor(double *a, int n, int *piv) {
 
 /* lu_factor swaps whole rows, multipliers included (P A = L U): all the
  * interchanges come first, then the two triangular solves. */
-static void lu_solve(const double *a, int n, const int *piv, double *b) {
+ROS_INLINE void lu_solve(const double *a, int n, const int *piv, double *b) {
   for (int k = 0; k < n; k++)
     if (piv[k] != k) {
       double t = b[k];
@@ -106,7 +116,7 @@ static void lu_solve(const double *a, int n, const int *piv, double *b) {
 }
 
 /* out = A v for every mode. */
-static void mat_vec(const double *A, const double *v, double *out, int n, int modes) {
+ROS_INLINE void mat_vec(const double *A, const double *v, double *out, int n, int modes) {
   for (int b = 0; b < modes; b++) {
     const double *Ab = A + (size_t)b * n * n;
     const double *vb = v + b * n;
@@ -120,13 +130,13 @@ static void mat_vec(const double *A, const double *v, double *out, int n, int mo
 }
 
 /* One stage: solve (1/(h gamma) - A0) U = rhs per mode, in place in rhs. */
-static void solve_all(pt_ros_work *w, int n, int modes, double *rhs) {
+ROS_INLINE void solve_all(pt_ros_work *w, int n, int modes, double *rhs) {
   for (int b = 0; b < modes; b++)
     lu_solve(w->LU + (size_t)b * n * n, n, w->pivot + b * n, rhs + b * n);
 }
 
 /* y'' = A' y + A (A y) for the quintic Hermite interpolant. */
-static void second_derivative(const double *A, const double *dA, const double *y,
+ROS_INLINE void second_derivative(const double *A, const double *dA, const double *y,
                               const double *f, double *out, int n, int modes, double *tmp) {
   mat_vec(dA, y, out, n, modes);
   mat_vec(A, f, tmp, n, modes);
@@ -141,8 +151,8 @@ static int all_finite(const double *v, int len) {
 
 /* The largest |y_i| so far per component, and per group of components
  * (p->group; the absolute tolerance's reference). */
-static void update_peaks(const pt_ros_problem *p, pt_ros_work *w, const double *y) {
-  const int n = p->dim;
+ROS_INLINE void update_peaks(const pt_ros_problem *p, pt_ros_work *w, const double *y,
+                             const int n) {
   for (int i = 0; i < n * p->n_modes; i++) w->own_peak[i] = fmax(w->own_peak[i], fabs(y[i]));
   for (int b = 0; b < p->n_modes; b++)
     for (int i = 0; i < n; i++) {
@@ -154,9 +164,9 @@ static void update_peaks(const pt_ros_problem *p, pt_ros_work *w, const double *
     }
 }
 
-int jg__ros_integrate(const pt_ros_problem *p, pt_ros_work *w, double x0, double *y,
-                     const double *x_out, int n_out, double *x_fail) {
-  const int n = p->dim, modes = p->n_modes, len = n * modes;
+ROS_INLINE int integrate(const pt_ros_problem *p, pt_ros_work *w, double x0, double *y,
+                        const double *x_out, int n_out, double *x_fail, const int n) {
+  const int modes = p->n_modes, len = n * modes;
   *x_fail = x0;
   if (n < 1 || n > PT_ROS_MAX_DIM || modes < 1 || modes > PT_ROS_MAX_MODES || n_out < 1)
     return PT_ROS_BAD_INPUT;
@@ -167,7 +177,7 @@ int jg__ros_integrate(const pt_ros_problem *p, pt_ros_work *w, double x0, double
   w->stats.matrix_evals++;
   if (p->matrices(p->ctx, x, w->A0, w->dA0, &rate0) != 0) return PT_ROS_UNDEFINED;
   for (int i = 0; i < len; i++) w->own_peak[i] = 0.0;
-  update_peaks(p, w, y);
+  update_peaks(p, w, y, n);
 
   int next = 0;
   while (next < n_out && x_out[next] == x) p->emit(p->ctx, next++, y);
@@ -325,7 +335,7 @@ int jg__ros_integrate(const pt_ros_problem *p, pt_ros_work *w, double x0, double
       }
     }
     memcpy(y, w->ynew, sizeof(double) * (size_t)len);
-    update_peaks(p, w, y);
+    update_peaks(p, w, y, n);
     memcpy(w->A0, w->A1, sizeof(double) * (size_t)len * n);
     memcpy(w->dA0, w->dA1, sizeof(double) * (size_t)len * n);
     rate0 = rate1;
@@ -340,4 +350,15 @@ int jg__ros_integrate(const pt_ros_problem *p, pt_ros_work *w, double x0, double
 undefined:
   *x_fail = x;
   return PT_ROS_UNDEFINED;
+}
+
+int jg__ros_integrate(const pt_ros_problem *p, pt_ros_work *w, double x0, double *y,
+                      const double *x_out, int n_out, double *x_fail) {
+  switch (p->dim) { /* the perturbation systems' dimensions */
+    case 4: return integrate(p, w, x0, y, x_out, n_out, x_fail, 4);
+    case 5: return integrate(p, w, x0, y, x_out, n_out, x_fail, 5);
+    case 10: return integrate(p, w, x0, y, x_out, n_out, x_fail, 10);
+    case 11: return integrate(p, w, x0, y, x_out, n_out, x_fail, 11);
+    default: return integrate(p, w, x0, y, x_out, n_out, x_fail, p->dim);
+  }
 }
