@@ -10,7 +10,19 @@
  * one LU factorisation of (1/(h gamma)) I - A(x_n) per step and mode, six
  * solves with it; the non-autonomous term uses dA/dx, supplied exactly.
  *
- * Error control, per mode: the estimate e (6th stage) is measured
+ * Error control, per mode: the estimate is the 6th stage U6 (the
+ * difference of the 4th- and 3rd-order solutions) filtered as
+ * e = (I - h gamma A(x_n))^-1 U6, with the step's own factorisation (one
+ * more solve). Why: an error along a stiff direction (rate lambda, h lambda
+ * >> 1) is damped by the next step (R(infinity) = 0), so only its part
+ * along the slow directions carries into the solution; the filter passes
+ * slow components unchanged and divides stiff ones by ~ h gamma lambda
+ * (the filter Hairer & Wanner use for their Radau IIA code, section IV.8,
+ * from memory). Without
+ * it the tiny gas velocity slaved by the drag before recombination
+ * (delta_b' ~ gravity delta_c / drag) set the step on the real history;
+ * with it the same delta_b/delta_c accuracy costs ~25 % fewer steps
+ * (DEVELOPERS.md, "The Rosenbrock path"). e is measured
  * component by component against
  *     w_i = rel_tol * max(|y_i(x_n)|, |y_i(x_n+1)|) + abs_tol * peak_i,
  * peak_i the largest |y_j| of this solve so far over the components j of
@@ -92,6 +104,7 @@ typedef struct pt_ros_work {
   double rhs[PT_ROS_MAX_MODES * PT_ROS_MAX_DIM], peak[PT_ROS_MAX_MODES * PT_ROS_MAX_DIM];
   double own_peak[PT_ROS_MAX_MODES * PT_ROS_MAX_DIM];
   double yout[PT_ROS_MAX_MODES * PT_ROS_MAX_DIM];
+  double err_est[PT_ROS_MAX_MODES * PT_ROS_MAX_DIM]; /* filtered error estimate */
   pt_ros_stats stats; /* accumulated over every solve with this workspace */
 } pt_ros_work;
 
