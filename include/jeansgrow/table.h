@@ -12,6 +12,7 @@
 #define JEANSGROW_TABLE_H
 
 #include <stdio.h>
+#include <sys/types.h>
 
 #include "jeansgrow/error.h"
 #include "jeansgrow/params.h"
@@ -49,6 +50,20 @@ void jg_table_write_columns(FILE *f, const char *const *names, int n);
  * row's first value) if any value is NaN or infinite: nothing is written. */
 jg_status jg_table_write_row(FILE *f, const double *values, int n, const char *const *names,
                              jg_error *err);
+
+/* Reading a table back (the scan's merge does). The header: every `#` line
+ * from the current position as written, without its newline (the last one
+ * is the column-name line), into a new array; the stream is left at the
+ * first data row. JG_ENOMEM, JG_EIO naming `path`. */
+jg_status jg_table_read_header(FILE *f, const char *path, char ***lines, int *n_lines,
+                               jg_error *err);
+void jg_table_free_header(char **lines, int n_lines);
+/* A data row (`n` bytes, as getline read it) must be what
+ * jg_table_write_row writes: `columns` finite numbers separated by tabs,
+ * ending in a newline. JG_EINVAL naming path:line_number and the column
+ * otherwise (a row cut by a kill or a full disk, a value edited to nan). */
+jg_status jg_table_check_row(const char *line, ssize_t n, int columns, const char *path,
+                             long long line_number, jg_error *err);
 
 #ifdef __cplusplus
 }

@@ -2,6 +2,7 @@
 #define _GNU_SOURCE /* F_OFD_SETLK: locks held by an open file, not by a process */
 #include "jeansgrow/table.h"
 
+#include <ctype.h>
 #include <dirent.h>
 #include <errno.h>
 #include <fcntl.h>
@@ -282,5 +283,68 @@ jg_status jg_table_write_row(FILE *f, const double *values, int n, const char *c
                      names ? names[i] : "?", values[0]);
   for (int i = 0; i < n; i++) fprintf(f, "%s%.10e", i ? "\t" : "", values[i]);
   fputc('\n', f);
+  return JG_OK;
+}
+
+/* ---- reading tables back ------------------------------------------------- */
+
+jg_status jg_table_read_header(FILE *f, const char *path, char ***lines, int *n_lines,
+                               jg_error *err) {
+  *lines = NULL;
+  *n_lines = 0;
+  char *line = NULL;
+  size_t cap = 0;
+  ssize_t n;
+  jg_status st = JG_OK;
+  off_t body = ftello(f);
+  while (st == JG_OK && (n = getline(&line, &cap, f)) > 0 && line[0] == '#') {
+    body = ftello(f);
+    if (line[n - 1] == '\n') line[n - 1] = '\0';
+    char **bigger = realloc(*lines, sizeof **lines * (size_t)(*n_lines + 1));
+    char *copy = bigger ? strdup(line) : NULL;
+    if (bigger) *lines = bigger;
+    if (!copy) {
+      st = JG_FAIL(err, JG_ENOMEM, "%s: out of memory reading the table header", path);
+      break;
+    }
+    (*lines)[(*n_lines)++] = copy;
+  }
+  free(line);
+  if (st == JG_OK && (ferror(f) || fseeko(f, body, SEEK_SET) != 0))
+    st = JG_FAIL(err, JG_EIO, "%s: cannot read (%s)", path, strerror(errno ? errno : EIO));
+  if (st != JG_OK) {
+    jg_table_free_header(*lines, *n_lines);
+    *lines = NULL;
+    *n_lines = 0;
+  }
+  return st;
+}
+
+void jg_table_free_header(char **lines, int n_lines) {
+  for (int i = 0; lines && i < n_lines; i++) free(lines[i]);
+  free(lines);
+}
+
+jg_status jg_table_check_row(const char *line, ssize_t n, int columns, const char *path,
+                             long long line_number, jg_error *err) {
+  if (n <= 0 || line[n - 1] != '\n')
+    return JG_FAIL(err, JG_EINVAL, "%s:%lld: the last row is cut short (no end of line); the "
+                   "table is incomplete: compute it again", path, line_number);
+  const char *s = line;
+  for (int c = 0; c < columns; c++) {
+    char *end;
+    double v = strtod(s, &end);
+    const char sep = c + 1 < columns ? '\t' : '\n';
+    if (end == s || *end != sep || isspace((unsigned char)*s))
+      return JG_FAIL(err, JG_EINVAL, "%s:%lld: column %d is not a number followed by %s; a "
+                     "row holds %d tab-separated numbers: the table is damaged or was edited",
+                     path, line_number, c + 1, c + 1 < columns ? "a tab" : "the end of line",
+                     columns);
+    if (!isfinite(v))
+      return JG_FAIL(err, JG_EINVAL, "%s:%lld: column %d holds '%.*s', not a finite number; "
+                     "no NaN or Inf may enter a table: the table was edited", path,
+                     line_number, c + 1, (int)(end - s), s);
+    s = end + 1;
+  }
   return JG_OK;
 }

@@ -208,69 +208,27 @@ static jg_status open_part(part_file *p, const char *path, jg_error *err) {
   return JG_OK;
 }
 
-/* A data row of a slice must be what jg_table_write_row writes: `columns`
- * finite numbers separated by tabs, ending in a newline. A row cut by a
- * kill or a full disk, or a value edited to nan, would otherwise pass into
- * the merged table. */
-static jg_status check_part_row(const part_file *p, const char *line, ssize_t n, int columns,
-                                long long line_number, jg_error *err) {
-  if (n <= 0 || line[n - 1] != '\n')
-    return JG_FAIL(err, JG_EINVAL, "%s:%lld: the last row is cut short (no end of line); the "
-                   "slice is incomplete: compute it again", p->path, line_number);
-  const char *s = line;
-  for (int c = 0; c < columns; c++) {
-    char *end;
-    double v = strtod(s, &end);
-    const char sep = c + 1 < columns ? '\t' : '\n';
-    if (end == s || *end != sep || isspace((unsigned char)*s))
-      return JG_FAIL(err, JG_EINVAL, "%s:%lld: column %d is not a number followed by %s; a "
-                     "row holds %d tab-separated numbers: the slice is damaged or was edited",
-                     p->path, line_number, c + 1, c + 1 < columns ? "a tab" : "the end of line",
-                     columns);
-    if (!isfinite(v))
-      return JG_FAIL(err, JG_EINVAL, "%s:%lld: column %d holds '%.*s', not a finite number; "
-                     "no NaN or Inf may enter a table: the slice was edited", p->path,
-                     line_number, c + 1, (int)(end - s), s);
-    s = end + 1;
-  }
-  return JG_OK;
-}
-
+/* A slice: its header read with the table module and sorted into the
+ * common lines, the part line, the failure section and the column line,
+ * then every row checked as the table module wrote it. */
 static jg_status read_part(part_file *p, const char *path, jg_error *err) {
   memset(p, 0, sizeof *p);
   p->path = path;
   p->index = -1;
-  jg_status opened = open_part(p, path, err);
-  if (opened != JG_OK) return opened;
-  char *line = NULL;
-  size_t cap = 0;
-  ssize_t n;
+  jg_status st = open_part(p, path, err);
+  if (st != JG_OK) return st;
+  char **lines = NULL;
+  int n_lines = 0;
+  st = jg_table_read_header(p->f, path, &lines, &n_lines, err);
+  if (st != JG_OK) return st;
   long long expected_failures = -1;
   int in_failures = 0, redshifts = 0;
-  off_t body = 0;
-  jg_status st = JG_OK;
-  char *pending = NULL; /* the previous header line: the last one is the column line */
-  long long header_lines = 0;
-  while ((n = getline(&line, &cap, p->f)) > 0) {
-    if (line[0] != '#') break;
-    header_lines++;
-    body = ftello(p->f);
-    if (line[n - 1] == '\n') line[n - 1] = '\0';
-    if (pending) {
-      if (!push_line(in_failures ? &p->failures : &p->header,
-                     in_failures ? &p->n_failures : &p->n_header, pending)) {
-        st = JG_FAIL(err, JG_ENOMEM, "out of memory");
-        break;
-      }
-      free(pending);
-      pending = NULL;
-    }
+  for (int k = 0; st == JG_OK && k + 1 < n_lines; k++) { /* the last is the column line */
+    const char *line = lines[k];
     if (strncmp(line, "# " PART_PREFIX, strlen("# " PART_PREFIX)) == 0) {
       if (sscanf(line + strlen("# " PART_PREFIX), "%d/%d, points %lld to %lld of %lld", &p->index,
-                 &p->count, &p->first, &p->last, &p->total) != 5) {
+                 &p->count, &p->first, &p->last, &p->total) != 5)
         st = JG_FAIL(err, JG_EINVAL, "%s: cannot read its scan part line", path);
-        break;
-      }
       continue; /* not part of the common header */
     }
     if (strncmp(line, "# scan fingerprint: ", 20) == 0)
@@ -284,30 +242,31 @@ static jg_status read_part(part_file *p, const char *path, jg_error *err) {
       in_failures = 1;
       continue;
     }
-    if (!(pending = jg__scan_strdup(line))) {
+    if (!push_line(in_failures ? &p->failures : &p->header,
+                   in_failures ? &p->n_failures : &p->n_header, line))
       st = JG_FAIL(err, JG_ENOMEM, "out of memory");
-      break;
-    }
   }
-  if (st == JG_OK) {
-    p->columns = pending;
-    pending = NULL;
-  }
-  const int is_slice = p->fingerprint[0] && p->index >= 0 && expected_failures >= 0 && p->columns;
-  if (st == JG_OK && is_slice && n > 0) {
-    int columns = 1;
-    for (const char *t = p->columns; *t; t++) columns += *t == '\t';
-    long long line_number = header_lines + 1;
-    st = check_part_row(p, line, n, columns, line_number, err);
-    for (p->data_lines = 1; st == JG_OK && (n = getline(&line, &cap, p->f)) > 0; p->data_lines++)
-      st = check_part_row(p, line, n, columns, ++line_number, err);
-  }
-  free(line);
-  free(pending);
+  if (st == JG_OK && n_lines > 0 && !(p->columns = jg__scan_strdup(lines[n_lines - 1])))
+    st = JG_FAIL(err, JG_ENOMEM, "out of memory");
+  jg_table_free_header(lines, n_lines);
   if (st != JG_OK) return st;
+  const int is_slice = p->fingerprint[0] && p->index >= 0 && expected_failures >= 0 && p->columns;
   if (!is_slice)
     return JG_FAIL(err, JG_EINVAL, "%s: not a slice of a jeansgrow scan (no fingerprint, part "
                    "or failure lines; write slices with jeansgrow scan --part I/N)", path);
+  const off_t body = ftello(p->f);
+  int columns = 1;
+  for (const char *t = p->columns; *t; t++) columns += *t == '\t';
+  char *line = NULL;
+  size_t cap = 0;
+  ssize_t n;
+  long long line_number = n_lines;
+  while (st == JG_OK && (n = getline(&line, &cap, p->f)) > 0) {
+    st = jg_table_check_row(line, n, columns, path, ++line_number, err);
+    p->data_lines++;
+  }
+  free(line);
+  if (st != JG_OK) return st;
   if (p->n_failures != expected_failures)
     return JG_FAIL(err, JG_EINVAL, "%s: lists %d failed points where its header announces %lld",
                    path, p->n_failures, expected_failures);
