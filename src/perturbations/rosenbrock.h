@@ -101,7 +101,7 @@ typedef struct pt_ros_work {
   double U[6][PT_ROS_MAX_MODES * PT_ROS_MAX_DIM];
   double f0[PT_ROS_MAX_MODES * PT_ROS_MAX_DIM], fx0[PT_ROS_MAX_MODES * PT_ROS_MAX_DIM];
   double ytmp[PT_ROS_MAX_MODES * PT_ROS_MAX_DIM], ynew[PT_ROS_MAX_MODES * PT_ROS_MAX_DIM];
-  double rhs[PT_ROS_MAX_MODES * PT_ROS_MAX_DIM], peak[PT_ROS_MAX_MODES * PT_ROS_MAX_DIM];
+  double peak[PT_ROS_MAX_MODES * PT_ROS_MAX_DIM];
   double own_peak[PT_ROS_MAX_MODES * PT_ROS_MAX_DIM];
   double yout[PT_ROS_MAX_MODES * PT_ROS_MAX_DIM];
   double err_est[PT_ROS_MAX_MODES * PT_ROS_MAX_DIM]; /* filtered error estimate */
