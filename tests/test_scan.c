@@ -1332,3 +1332,39 @@ Test(scan, scan_in_h_units_is_the_default_scan_converted_point_by_point) {
   free(text_mpc), free(text_h), free(o_mpc.err), free(o_h.err);
   remove_dir(dir);
 }
+
+/* A scan's fingerprint covers the start table by its content, not by its
+ * name: a table edited between an interrupted run and --resume must make
+ * the checkpoint "a different scan" instead of mixing two starts. */
+Test(scan, fingerprint_follows_the_start_table_content) {
+  char dir[] = "/tmp/jg_scan_table_XXXXXX";
+  cr_assert(mkdtemp(dir));
+  char path[512];
+  snprintf(path, sizeof path, "%s/start.txt", dir);
+  const char *tables[3] = {"1 0.1 0.2\n100000 0.1 0.2\n", "1 0.1 0.2\n100000 0.1 0.3\n",
+                           "1 0.1 0.2\n100000 0.1 0.2\n"};
+  char prints[3][17];
+  for (int i = 0; i < 3; i++) {
+    FILE *f = fopen(path, "w");
+    cr_assert(f);
+    fputs(tables[i], f);
+    fclose(f);
+    jg_params p;
+    toy_params(&p);
+    snprintf(p.perturbations.initial_table, sizeof p.perturbations.initial_table, "%s", path);
+    jg_scan_grid g = {0};
+    jg_error err;
+    jg_error_clear(&err);
+    cr_assert_eq(jg_scan_grid_parse(&g, "cosmology.hubble_h=0.6:0.7:2", "test", &err), JG_OK,
+                 "%s", err.message);
+    jg_scan *s = NULL;
+    cr_assert_eq(jg_scan_new(&p, &g, &toy, 1, 1, &s, &err), JG_OK, "%s", err.message);
+    snprintf(prints[i], sizeof prints[i], "%s", jg_scan_fingerprint(s));
+    jg_scan_free(s);
+    jg_scan_grid_clear(&g);
+  }
+  cr_assert_str_neq(prints[0], prints[1], "an edited table kept the fingerprint");
+  cr_assert_str_eq(prints[0], prints[2], "the same table changed the fingerprint");
+  remove(path);
+  rmdir(dir);
+}

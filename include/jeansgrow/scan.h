@@ -222,7 +222,8 @@ int jg_scan_redshifts(const jg_scan *s);           /* rows per point */
 int jg_scan_values_per_point(const jg_scan *s);    /* doubles per evaluated point */
 const jg_scan_grid *jg_scan_grid_of(const jg_scan *s);
 /* 16 hex digits identifying the scan: the version, the base parameters, the
- * grid (exact values) and the evaluator's columns; the same for every slice. */
+ * grid (exact values), the evaluator's columns and the content of the start
+ * table (perturbations.initial_table), if any; the same for every slice. */
 const char *jg_scan_fingerprint(const jg_scan *s);
 /* "key = value, key = value" for point `index`, for messages. */
 void jg_scan_describe_point(const jg_scan *s, long long index, char *buf, size_t size);

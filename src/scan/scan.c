@@ -16,6 +16,7 @@
  */
 #include "scan_internal.h"
 
+#include <errno.h>
 #include <inttypes.h>
 #include <math.h>
 #include <stdlib.h>
@@ -153,6 +154,23 @@ static jg_status compute_fingerprint(jg_scan *s, jg_error *err) {
       h = jg__fnv1a(h, piece, (size_t)n);
     }
     h = jg__fnv1a(h, "\n", 1);
+  }
+  /* The start table by its content, not its name: a table edited between
+   * an interrupted run and --resume would otherwise mix two starts. */
+  const char *table = s->base.perturbations.initial_table;
+  if (table[0]) {
+    FILE *t = fopen(table, "rb");
+    if (!t)
+      return JG_FAIL(err, JG_EINVAL, "perturbations.initial_table: cannot read %s (%s)", table,
+                     strerror(errno));
+    char buf[4096];
+    size_t got;
+    h = jg__fnv1a(h, "table\n", 6);
+    while ((got = fread(buf, 1, sizeof buf, t)) > 0) h = jg__fnv1a(h, buf, got);
+    const int failed = ferror(t);
+    fclose(t);
+    if (failed)
+      return JG_FAIL(err, JG_EIO, "perturbations.initial_table: cannot read %s", table);
   }
   snprintf(s->fingerprint, sizeof s->fingerprint, "%016" PRIx64, h);
   return JG_OK;
