@@ -308,8 +308,8 @@ jg_status jg_scan_new(const jg_params *base, const jg_scan_grid *grid,
   s->n_values = ev->n_point_columns + s->n_z * ev->n_redshift_columns;
   st = copy_grid(&s->grid, grid, err);
   if (st == JG_OK) st = build_columns(s, err);
+  if (st == JG_OK) st = validate_points(s, err); /* first: it names a bad start table */
   if (st == JG_OK) st = compute_fingerprint(s, err);
-  if (st == JG_OK) st = validate_points(s, err);
   if (st != JG_OK) {
     jg_scan_free(s);
     return st;
