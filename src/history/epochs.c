@@ -57,8 +57,12 @@ static jg_status find_crossing(const jg_thermal *th, z_function f, double level,
     return JG_FAIL(err, JG_ENUMERIC, "%s: %s is not finite at z = %g or z = %g", what, quantity,
                    lo, hi);
   if (!(flo * fhi < 0)) {
-    snprintf(reason, JG_EPOCH_REASON_SIZE, "%s stays %s %g from z = %g to z = %g", quantity,
-             flo + fhi < 0 ? "below" : "above", level, hi, lo);
+    if (lo > 0)
+      snprintf(reason, JG_EPOCH_REASON_SIZE, "%s stays %s %g from z = %g down to z = %g",
+               quantity, flo + fhi < 0 ? "below" : "above", level, hi, lo);
+    else
+      snprintf(reason, JG_EPOCH_REASON_SIZE, "%s stays %s %g from z = %g until today", quantity,
+               flo + fhi < 0 ? "below" : "above", level, hi);
     return JG_OK;
   }
   *found = 1;
@@ -118,8 +122,8 @@ static jg_status visibility_peak(const jg_thermal *th, double z_top, double *z, 
     return JG_FAIL(err, JG_ENUMERIC, "visibility peak: the visibility is not finite");
   if (best == 0 || best == VISIBILITY_SAMPLES - 1) {
     snprintf(reason, JG_EPOCH_REASON_SIZE,
-             "the visibility has no maximum between z = 0 and z = %g (largest at z = %g)", z_top,
-             best == 0 ? 0.0 : z_top);
+             "the visibility has no maximum between z = 0 and z = %g; it is largest at z = %g",
+             z_top, best == 0 ? 0.0 : z_top);
     return JG_OK;
   }
   *found = 1;
