@@ -214,20 +214,28 @@ jg_status jg_epochs_compute(const jg_thermal *th, jg_epochs *e, jg_error *err) {
 int jg_epochs_count(void) { return JG_EPOCH_COUNT; }
 
 jg_epoch_entry jg_epochs_entry(const jg_epochs *e, int i) {
+  /* Indexed by the JG_EPOCH_ constants, so that the order and the bits agree;
+   * existence and reason are filled in below. */
+#define EPOCH(entry, name, unit, meaning, value)                                            \
+  [JG_EPOCH_##entry] = {name, unit, meaning, value, 1, ""}
   const jg_epoch_entry table[] = {
-      {"z_star", "", "photon decoupling, Thomson optical depth tau = 1", e->z_star, 1, ""},
-      {"z_visibility_peak", "", "maximum of the visibility function", e->z_visibility_peak, 1, ""},
-      {"z_drag", "", "end of baryon drag, drag depth = 1", e->z_drag, 1, ""},
-      {"r_star", "Mpc", "comoving sound horizon at z_star", e->r_star, 1, ""},
-      {"r_drag", "Mpc", "comoving sound horizon at z_drag", e->r_drag, 1, ""},
-      {"theta_star_100", "", "100 r_star / D_M(z_star)", e->theta_star_100, 1, ""},
-      {"z_eq", "", "matter-radiation equality", e->z_eq, 1, ""},
-      {"k_eq", "1/Mpc", "a H / c at equality (comoving)", e->k_eq, 1, ""},
-      {"age", "Gyr", "age of the universe today", e->age_Gyr, 1, ""},
-      {"z_gas_decoupling", "", "T_gas / T_rad = 0.9", e->z_gas_decoupling, 1, ""},
-      {"x_e_z100", "", "free electrons per hydrogen nucleus at z = 100", e->x_e_z100, 1, ""},
-      {"T_gas_z100", "K", "gas temperature at z = 100", e->T_gas_z100, 1, ""},
+      EPOCH(Z_STAR, "z_star", "", "photon decoupling, Thomson optical depth tau = 1", e->z_star),
+      EPOCH(Z_VISIBILITY_PEAK, "z_visibility_peak", "", "maximum of the visibility function",
+            e->z_visibility_peak),
+      EPOCH(Z_DRAG, "z_drag", "", "end of baryon drag, drag depth = 1", e->z_drag),
+      EPOCH(R_STAR, "r_star", "Mpc", "comoving sound horizon at z_star", e->r_star),
+      EPOCH(R_DRAG, "r_drag", "Mpc", "comoving sound horizon at z_drag", e->r_drag),
+      EPOCH(THETA_STAR, "theta_star_100", "", "100 r_star / D_M(z_star)", e->theta_star_100),
+      EPOCH(Z_EQ, "z_eq", "", "matter-radiation equality", e->z_eq),
+      EPOCH(K_EQ, "k_eq", "1/Mpc", "a H / c at equality (comoving)", e->k_eq),
+      EPOCH(AGE, "age", "Gyr", "age of the universe today", e->age_Gyr),
+      EPOCH(Z_GAS_DECOUPLING, "z_gas_decoupling", "", "T_gas / T_rad = 0.9",
+            e->z_gas_decoupling),
+      EPOCH(X_E_Z100, "x_e_z100", "", "free electrons per hydrogen nucleus at z = 100",
+            e->x_e_z100),
+      EPOCH(T_GAS_Z100, "T_gas_z100", "K", "gas temperature at z = 100", e->T_gas_z100),
   };
+#undef EPOCH
   _Static_assert(sizeof table / sizeof table[0] == JG_EPOCH_COUNT, "one entry per JG_EPOCH_");
   if (i < 0 || i >= JG_EPOCH_COUNT) {
     jg_epoch_entry none = {NULL, NULL, NULL, 0.0, 0, ""};
