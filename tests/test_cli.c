@@ -695,6 +695,35 @@ Test(good_runs, run_writes_four_tables_and_a_summary, .timeout = 120) {
   remove_dir(dir);
 }
 
+/* With Omega_b h^2 = 1e-5 the optical depth stays below 1 back to the start
+ * (tests/test_epochs.c, absent_epochs): `run` succeeds, its summary says
+ * "none" with the reason, and epochs.txt comments the missing lines out. */
+Test(good_runs, run_reports_an_absent_epoch_as_none, .timeout = 120) {
+  char dir[64];
+  make_temp_dir(dir, sizeof dir);
+  char folder[128];
+  snprintf(folder, sizeof folder, "%s/results", dir);
+  const char *args[] = {"run", REFERENCE, "--set", "cosmology.baryon_density_h2=0.00001",
+                        "--set", "perturbations.k_count=4", "-o", folder, NULL};
+  run_result r;
+  run(args, &r);
+  cr_assert(exited_with(&r, 0), "an absent epoch is not a failure: %s", r.err);
+  cr_expect(strstr(r.out, "photon decoupling z_star = none (the Thomson optical depth stays "
+                          "below 1 from z = 8000 down to z = 1), end of drag z_drag = "),
+            "summary: %s", r.out);
+  char path[192];
+  snprintf(path, sizeof path, "%s/epochs.txt", folder);
+  char *epochs = read_text(path);
+  cr_assert_not_null(epochs);
+  cr_expect(strstr(epochs, "\n# z_star: none (") && !strstr(epochs, "\nz_star\t") &&
+                strstr(epochs, "\n# theta_star_100: none (no z_star)\n") &&
+                strstr(epochs, "\nz_drag\t"),
+            "%s", epochs);
+  free(epochs);
+  run_free(&r);
+  remove_dir(dir);
+}
+
 /* `run -o` takes a folder: an existing file there is refused before any work. */
 Test(good_runs, run_refuses_a_file_as_its_folder) {
   char dir[64], file[128];

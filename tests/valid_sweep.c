@@ -441,6 +441,13 @@ static void run_one(const sweep_options *o, long index, int attempt, FILE *sink,
   jg_epochs e;
   st = jg_epochs_compute(th, &e, &err);
   FAIL_IF(st != JG_OK, "epochs", "%s (%s)", err.message, jg_status_name(st));
+  /* An epoch this universe lacks is absent with a reason, never a number
+   * that is not one. */
+  for (int i = 0; i < jg_epochs_count(); i++) {
+    jg_epoch_entry en = jg_epochs_entry(&e, i);
+    FAIL_IF(en.exists ? !isfinite(en.value) : (en.value != 0.0 || !en.reason[0]), "epochs",
+            "%s = %g (exists %d, reason \"%s\")", en.name, en.value, en.exists, en.reason);
+  }
   st = jg_report_epochs(sink, p, &e, &err);
   FAIL_IF(st != JG_OK, "epochs", "table: %s", err.message);
 done:

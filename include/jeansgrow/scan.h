@@ -169,7 +169,7 @@ typedef struct jg_scan_evaluator {
 
 /*
  * The built-in evaluator. Per point: z_star, z_drag, z_gas_decoupling (as
- * jg_epochs_compute). Per redshift: T_gas[K], x_e, and the isothermal Jeans
+ * jg_epochs_compute; -1 for an epoch the point's universe lacks). Per redshift: T_gas[K], x_e, and the isothermal Jeans
  * scale of the gas, c_s^2 = k_B T_gas / (mu m_H) (gamma = 1), k_J[1/Mpc] =
  * jg_jeans_wavenumber and M_J[Msun] = jg_mass_half_wavelength(k_J).
  */
@@ -177,7 +177,7 @@ const jg_scan_evaluator *jg_scan_evaluator_thermal(void);
 
 /*
  * The evaluator of `jeansgrow scan`: per point z_star, z_drag,
- * z_gas_decoupling; per redshift every column of the `jeansgrow scales`
+ * z_gas_decoupling (-1 for an epoch the point's universe lacks); per redshift every column of the `jeansgrow scales`
  * table after its `z`, with the same names and conventions (k_J, M_J, k_F,
  * M_F, k_half, M_half, ...), computed the same way (jg_scales_compute), in
  * `units` (pass the base parameters' output.units; each point is converted

@@ -77,6 +77,18 @@ static jg_status write_table(int which, FILE *f, const jg_params *p, const jg_th
   }
 }
 
+/* One epoch of the summary: its value in `format`, scaled by `factor`, or
+ * "none (why)" where this universe does not have it. */
+static const char *summary_epoch(char *buf, size_t size, const jg_epochs *e, int entry,
+                                 const char *format, double factor) {
+  jg_epoch_entry en = jg_epochs_entry(e, entry);
+  if (en.exists)
+    snprintf(buf, size, format, en.value * factor);
+  else
+    snprintf(buf, size, "none (%s)", en.reason);
+  return buf;
+}
+
 static void print_summary(const char *param_path, const char *dir, const jg_params *p,
                           const jg_thermal *th, const run_results *r) {
   const jg_epochs *e = &r->epochs;
@@ -88,12 +100,18 @@ static void print_summary(const char *param_path, const char *dir, const jg_para
   const char *m_unit = jg_report_unit("Msun", units, h, &m_factor);
   const char *l_unit = jg_report_unit("Mpc", units, h, &l_factor);
   printf("jeansgrow run: %s -> %s/\n", param_path, dir);
-  printf("  photon decoupling z_star = %.2f, end of drag z_drag = %.2f, "
-         "sound horizon r_drag = %.2f %s\n",
-         e->z_star, e->z_drag, e->r_drag * l_factor, l_unit);
-  printf("  gas decouples from the CMB (T_gas = 0.9 T_rad) at z = %.1f; x_e(z=100) = %.3g; "
+  char z_star[JG_EPOCH_REASON_SIZE + 8], z_drag[JG_EPOCH_REASON_SIZE + 8];
+  char r_drag[JG_EPOCH_REASON_SIZE + 8], z_gas[JG_EPOCH_REASON_SIZE + 8];
+  char r_format[32];
+  snprintf(r_format, sizeof r_format, "%%.2f %s", l_unit);
+  printf("  photon decoupling z_star = %s, end of drag z_drag = %s, sound horizon r_drag = %s\n",
+         summary_epoch(z_star, sizeof z_star, e, JG_EPOCH_Z_STAR, "%.2f", 1.0),
+         summary_epoch(z_drag, sizeof z_drag, e, JG_EPOCH_Z_DRAG, "%.2f", 1.0),
+         summary_epoch(r_drag, sizeof r_drag, e, JG_EPOCH_R_DRAG, r_format, l_factor));
+  printf("  gas decouples from the CMB (T_gas = 0.9 T_rad) at z = %s; x_e(z=100) = %.3g; "
          "age %.3f Gyr\n",
-         e->z_gas_decoupling, e->x_e_z100, e->age_Gyr);
+         summary_epoch(z_gas, sizeof z_gas, e, JG_EPOCH_Z_GAS_DECOUPLING, "%.1f", 1.0),
+         e->x_e_z100, e->age_Gyr);
   char k_J[32], M_J[32], k_F[32], M_F[32], k_half[32], M_half[32];
   snprintf(k_J, sizeof k_J, "k_J[%s]", k_unit);
   snprintf(M_J, sizeof M_J, "M_J[%s]", m_unit);

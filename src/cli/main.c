@@ -44,7 +44,8 @@ static const cli_command commands[] = {
      "PARAMFILE --vary KEY=FROM:TO:N[:log] [--vary ...] [--set KEY=VALUE]... [--threads N]\n"
      "       [--part I/N] [--resume] [-o FILE]",
      "One row per grid point and output redshift: the varied values, z, z_star, z_drag,\n"
-     "z_gas_decoupling, then every column of `jeansgrow scales` at that redshift\n"
+     "z_gas_decoupling (-1 where that universe has no such epoch), then every column\n"
+     "of `jeansgrow scales` at that redshift\n"
      "(T_gas[K], x_e, k_J[1/Mpc], M_J[Msun], k_F[1/Mpc], M_F[Msun], k_half[1/Mpc], ...;\n"
      "h/Mpc and Msun/h with output.units = \"Mpc/h\", each point with its own h).\n"
      "The grid may instead come from the scan.vary list of PARAMFILE. Under mpirun the\n"

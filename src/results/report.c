@@ -171,7 +171,7 @@ jg_status jg_report_epochs(FILE *f, const jg_params *p, const jg_epochs *e, jg_e
   const double h = p->cosmology.hubble_h;
   const int n = jg_epochs_count();
   for (int i = 0; i < n; i++)
-    if (!isfinite(jg_epochs_entry(e, i).value))
+    if (jg_epochs_entry(e, i).exists && !isfinite(jg_epochs_entry(e, i).value))
       return JG_FAIL(err, JG_ENUMERIC, "epochs: %s is not finite", jg_epochs_entry(e, i).name);
   jg_table_write_preamble(f, "derived epochs (name, value, unit; '-' = dimensionless)", p,
                           units == JG_UNITS_MPC_H ? epochs_conventions_mpc_h : NULL);
@@ -184,7 +184,12 @@ jg_status jg_report_epochs(FILE *f, const jg_params *p, const jg_epochs *e, jg_e
     jg_epoch_entry en = jg_epochs_entry(e, i);
     double factor;
     const char *unit = jg_report_unit(en.unit, units, h, &factor);
-    fprintf(f, "%s\t%.10g\t%s\n", en.name, en.value * factor, unit[0] ? unit : "-");
+    /* An epoch this universe does not have stays a comment, so that the
+     * table keeps numbers only and still loads as it is. */
+    if (!en.exists)
+      fprintf(f, "# %s: none (%s)\n", en.name, en.reason);
+    else
+      fprintf(f, "%s\t%.10g\t%s\n", en.name, en.value * factor, unit[0] ? unit : "-");
   }
   return JG_OK;
 }
@@ -247,13 +252,20 @@ _Static_assert(sizeof scales_quantities / sizeof scales_quantities[0] ==
       "b_over_c_large, delta_m_large, rate_m_large: the k -> 0 limit: delta_b/delta_c, "     \
       "delta_m per unit initial CDM contrast, and d ln delta_m / d ln a"
 
+#define SCALES_UNITS_MPC "units: k comoving 1/Mpc, masses M_sun, temperatures K"
+#define SCALES_UNITS_MPC_H                                                                   \
+  "units: k comoving h/Mpc (1/Mpc divided by h), masses M_sun/h (M_sun times h), "         \
+  "temperatures K; h = cosmology.hubble_h"
+
 const char *const jg__report_scales_conventions[][JG__REPORT_SCALES_CONVENTIONS] = {
-    [JG_UNITS_MPC] = {SCALES_CONVENTIONS, "units: k comoving 1/Mpc, masses M_sun, temperatures K",
+    [JG_UNITS_MPC] = {SCALES_CONVENTIONS, SCALES_UNITS_MPC, NULL},
+    [JG_UNITS_MPC_H] = {SCALES_CONVENTIONS, SCALES_UNITS_MPC_H, NULL}};
+
+const char *const jg__report_scan_scales_conventions[][JG__REPORT_SCALES_CONVENTIONS + 1] = {
+    [JG_UNITS_MPC] = {JG__REPORT_SCAN_EPOCHS_CONVENTION, SCALES_CONVENTIONS, SCALES_UNITS_MPC,
                       NULL},
-    [JG_UNITS_MPC_H] = {SCALES_CONVENTIONS,
-                        "units: k comoving h/Mpc (1/Mpc divided by h), masses M_sun/h (M_sun "
-                        "times h), temperatures K; h = cosmology.hubble_h",
-                        NULL}};
+    [JG_UNITS_MPC_H] = {JG__REPORT_SCAN_EPOCHS_CONVENTION, SCALES_CONVENTIONS,
+                        SCALES_UNITS_MPC_H, NULL}};
 
 int jg_report_scales_column_count(void) { return N_SCALES_COLUMNS; }
 

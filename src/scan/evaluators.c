@@ -23,22 +23,31 @@ static const char *const thermal_point_columns[JG_SCAN_THERMAL_POINT_COLUMNS] = 
 static const char *const thermal_redshift_columns[JG_SCAN_THERMAL_REDSHIFT_COLUMNS] = {
     "T_gas[K]", "x_e", "k_J[1/Mpc]", "M_J[Msun]"};
 static const char *const thermal_conventions[] = {
-    "z_star: Thomson optical depth tau = 1; z_drag: baryon drag depth = 1; "
-    "z_gas_decoupling: T_gas / T_rad = 0.9",
+    JG__REPORT_SCAN_EPOCHS_CONVENTION,
     "x_e = n_e / n_H; k_J: comoving Jeans wavenumber of the isothermal gas, "
     "c_s^2 = k_B T_gas / (mu m_H) (gamma = 1), total matter density as the source",
     "M_J: mass inside the sphere of comoving radius pi / k_J at the mean matter density",
     NULL};
 
-jg_status jg_scan_thermal_columns(const jg_thermal *th, const jg_params *p,
-                                  double *point_values, double *redshift_values, int stride,
-                                  jg_error *err) {
+/* The per-point epoch columns of both evaluators, computed from the point's history. */
+static jg_status epoch_columns(const jg_thermal *th, double *point_values, jg_error *err) {
   jg_epochs e;
   jg_status st = jg_epochs_compute(th, &e, err);
   if (st != JG_OK) return st;
-  point_values[0] = e.z_star;
-  point_values[1] = e.z_drag;
-  point_values[2] = e.z_gas_decoupling;
+  const int entries[JG_SCAN_THERMAL_POINT_COLUMNS] = {JG_EPOCH_Z_STAR, JG_EPOCH_Z_DRAG,
+                                                      JG_EPOCH_Z_GAS_DECOUPLING};
+  for (int i = 0; i < JG_SCAN_THERMAL_POINT_COLUMNS; i++) {
+    jg_epoch_entry en = jg_epochs_entry(&e, entries[i]);
+    point_values[i] = en.exists ? en.value : JG__REPORT_SCAN_NO_EPOCH;
+  }
+  return JG_OK;
+}
+
+jg_status jg_scan_thermal_columns(const jg_thermal *th, const jg_params *p,
+                                  double *point_values, double *redshift_values, int stride,
+                                  jg_error *err) {
+  jg_status st = epoch_columns(th, point_values, err);
+  if (st != JG_OK) return st;
   const jg_background *bg = jg_thermal_background(th);
   for (int j = 0; j < p->output.n_redshifts; j++) {
     double z = p->output.redshifts[j];
@@ -107,13 +116,7 @@ static jg_status scales_evaluate(const jg_params *p, double *point_values,
   jg_perturb_model *m = th ? jg_perturb_model_new(th, &p->perturbations, NULL, err) : NULL;
   jg_perturb_workspace *w = m ? jg_perturb_workspace_new(m, err) : NULL;
   jg_status st = w ? JG_OK : (err && err->status != JG_OK ? err->status : JG_ENUMERIC);
-  if (st == JG_OK) {
-    jg_epochs e;
-    st = jg_epochs_compute(th, &e, err);
-    point_values[0] = e.z_star;
-    point_values[1] = e.z_drag;
-    point_values[2] = e.z_gas_decoupling;
-  }
+  if (st == JG_OK) st = epoch_columns(th, point_values, err);
   if (st == JG_OK) st = jg_scales_compute(m, w, p->output.redshifts, n_z, s, err);
   double row[SCALES_REDSHIFT_COLUMNS + 1];
   for (int j = 0; st == JG_OK && j < n_z; j++) {
@@ -137,13 +140,13 @@ static const jg_scan_evaluator scales_evaluators[] = {
                       "scales)",
                       JG_SCAN_THERMAL_POINT_COLUMNS, thermal_point_columns,
                       SCALES_REDSHIFT_COLUMNS, jg__report_scales_columns[JG_UNITS_MPC] + 1,
-                      jg__report_scales_conventions[JG_UNITS_MPC], NULL, NULL,
+                      jg__report_scan_scales_conventions[JG_UNITS_MPC], NULL, NULL,
                       scales_evaluate, &units_mpc},
     [JG_UNITS_MPC_H] = {"scales (epochs; Jeans, filtering and half-suppression scales as "
                         "jeansgrow scales), in h units",
                         JG_SCAN_THERMAL_POINT_COLUMNS, thermal_point_columns,
                         SCALES_REDSHIFT_COLUMNS, jg__report_scales_columns[JG_UNITS_MPC_H] + 1,
-                        jg__report_scales_conventions[JG_UNITS_MPC_H], NULL, NULL,
+                        jg__report_scan_scales_conventions[JG_UNITS_MPC_H], NULL, NULL,
                         scales_evaluate, &units_mpc_h}};
 
 const jg_scan_evaluator *jg_scan_evaluator_scales(jg_output_units units) {
