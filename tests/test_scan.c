@@ -766,7 +766,7 @@ Test(scan, program_writes_the_same_file_with_one_and_two_threads) {
 #ifdef JG_TEST_MPIEXEC
 /* A fresh folder for a test on two MPI ranks. Open MPI refuses root
  * without both variables, and 2 ranks may exceed the slots of a small CI
- * machine (docs: c-practices.md 4.5). */
+ * machine (DEVELOPERS.md, MPI). */
 static void mpi_test_folder(char *dir, size_t size) {
   make_dir(dir, size);
   setenv("OMPI_ALLOW_RUN_AS_ROOT", "1", 1);

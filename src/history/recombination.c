@@ -134,9 +134,9 @@ int jg__bracketed_root(double (*f)(double, void *), void *params, double lo, dou
   int kept = 0; /* which end the last step kept: -1 low, +1 high */
   for (int iter = 0; iter < 400; iter++) {
     double x = (lo * fhi - hi * flo) / (fhi - flo);
-    /* Every third step a bisection: regula falsi alone can creep along a
-     * bracket of hundreds of units where the function is flat over most of
-     * it; halving bounds the work by three times the bisection count. */
+    /* Every third step a bisection: regula falsi can creep along a bracket
+     * where the function is flat over most of it; halving bounds the work
+     * at three times the bisection count, whatever the function's shape. */
     if (!(x > lo && x < hi) || iter % 3 == 2) x = 0.5 * (lo + hi);
     double fx = f(x, params);
     if (fx == 0 || hi - lo < tol) {

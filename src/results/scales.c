@@ -43,6 +43,23 @@ double jg_scales_mass(const jg_perturb_model *m, double k, double f) {
   return 4.0 * JG_PI / 3.0 * rho * r * r * r;
 }
 
+/* The search asks only for wavenumbers inside the model's accepted range,
+ * so a refusal by the solver is a failure of this stage (exit 1), not bad
+ * input: said as such, with the wavenumbers of `k_first` to `k_last` (one
+ * wavenumber when they are equal) and, for one redshift, z (or NAN). */
+static jg_status search_failed(jg_status st, double k_first, double k_last, double z,
+                               jg_error *err) {
+  if (st == JG_ENOMEM) return st;
+  char why[JG_ERROR_MESSAGE_SIZE], where[96];
+  snprintf(why, sizeof why, "%s", err ? err->message : "");
+  int n = isnan(z) ? 0 : snprintf(where, sizeof where, " at z = %g", z);
+  if (k_first == k_last)
+    snprintf(where + n, sizeof where - (size_t)n, ", k = %.10g /Mpc", k_first);
+  else
+    snprintf(where + n, sizeof where - (size_t)n, ", k = %.10g to %.10g /Mpc", k_first, k_last);
+  return JG_FAIL(err, st == JG_EINVAL ? JG_ENUMERIC : st, "half suppression%s: %s", where, why);
+}
+
 typedef struct half_ctx {
   const jg_perturb_model *m;
   jg_perturb_workspace *w;
@@ -52,18 +69,14 @@ typedef struct half_ctx {
   jg_error *err;
 } half_ctx;
 
-/* (delta_b/delta_c)(k) - target. The search only asks for wavenumbers inside
- * the model's accepted range, so a refusal by the solver is a failure of
- * this stage, not bad input: it is reported as such, with its k and z. */
+/* (delta_b/delta_c)(k) - target; a refusal by the solver is the stage's
+ * failure (search_failed). */
 static double half_residual(half_ctx *c, double k) {
   if (c->status != JG_OK) return GSL_NAN;
   jg_perturb_point p;
   c->status = jg_perturb_solve(c->m, c->w, k, &c->z, 1, &p, c->err);
   if (c->status != JG_OK) {
-    char why[JG_ERROR_MESSAGE_SIZE];
-    snprintf(why, sizeof why, "%s", c->err ? c->err->message : "");
-    c->status = JG_FAIL(c->err, c->status == JG_EINVAL ? JG_ENUMERIC : c->status,
-                        "half suppression at z = %g, k = %.10g /Mpc: %s", c->z, k, why);
+    c->status = search_failed(c->status, k, k, c->z, c->err);
     return GSL_NAN;
   }
   return p.b_over_c - c->target;
@@ -267,17 +280,6 @@ static jg_status half_suppression_all(const jg_perturb_model *m, jg_perturb_work
   return st;
 }
 
-/* The search asks only for wavenumbers inside the model's accepted range,
- * so a refusal by the solver is a failure of this stage (exit 1), not bad
- * input: said as such, with the wavenumbers of the batch. */
-static jg_status search_failed(jg_status st, double k_first, double k_last, jg_error *err) {
-  if (st == JG_ENOMEM) return st;
-  char why[JG_ERROR_MESSAGE_SIZE];
-  snprintf(why, sizeof why, "%s", err ? err->message : "");
-  return JG_FAIL(err, st == JG_EINVAL ? JG_ENUMERIC : st,
-                 "half suppression, k = %.10g to %.10g /Mpc: %s", k_first, k_last, why);
-}
-
 static jg_status half_search_run(const jg_perturb_model *m, jg_perturb_workspace *w,
                                  const double *z, int n_z, const double *target,
                                  const double *k_start, double *k_half, int *found,
@@ -312,7 +314,7 @@ static jg_status half_search_run(const jg_perturb_model *m, jg_perturb_workspace
   while (open > 0 && solved < n_rungs) {
     const int n = n_rungs - solved < JG_PERTURB_BATCH ? n_rungs - solved : JG_PERTURB_BATCH;
     jg_status st = jg_perturb_solve_many(m, w, rung + solved, n, z, n_z, pts, err);
-    if (st != JG_OK) return search_failed(st, rung[solved], rung[solved + n - 1], err);
+    if (st != JG_OK) return search_failed(st, rung[solved], rung[solved + n - 1], NAN, err);
     for (int b = 0; b < n; b++) {
       const int j = solved + b;
       for (int i = 0; i < n_z; i++) {
@@ -361,7 +363,7 @@ static jg_status half_search_run(const jg_perturb_model *m, jg_perturb_workspace
     for (int first = 0; first < nk; first += JG_PERTURB_BATCH) {
       const int n = nk - first < JG_PERTURB_BATCH ? nk - first : JG_PERTURB_BATCH;
       jg_status st = jg_perturb_solve_many(m, w, ks + first, n, z, n_z, pts, err);
-      if (st != JG_OK) return search_failed(st, ks[first], ks[first + n - 1], err);
+      if (st != JG_OK) return search_failed(st, ks[first], ks[first + n - 1], NAN, err);
       for (int b = 0; b < n; b++) {
         const int i = who[first + b];
         half_search *h = &hs[i];

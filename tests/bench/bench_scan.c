@@ -208,7 +208,7 @@ int main(int argc, char **argv) {
 #ifdef JG_MPIEXEC
   mpiexec = JG_MPIEXEC;
   /* Open MPI as root needs both variables; oversubscription for small CI
-   * machines (c-practices.md 4.5). */
+   * machines (DEVELOPERS.md, MPI). */
   setenv("OMPI_ALLOW_RUN_AS_ROOT", "1", 1);
   setenv("OMPI_ALLOW_RUN_AS_ROOT_CONFIRM", "1", 1);
   setenv("OMPI_MCA_rmaps_base_oversubscribe", "1", 1);
