@@ -32,7 +32,7 @@ static void make_temp_dir(void) {
 static void remove_temp_dir(void) {
   char path[128];
   const char *files[] = {"minimal.cfg", "bom.cfg",  "comments.cfg",
-                         "unclosed.cfg", "scan.cfg", NULL};
+                         "unclosed.cfg", "scan.cfg", "beside.cfg", NULL};
   for (int i = 0; files[i]; i++) {
     snprintf(path, sizeof path, "%s/%s", temp_dir, files[i]);
     unlink(path);
@@ -175,6 +175,28 @@ Test(params, byte_order_mark_at_the_start_is_ignored) {
   strcat(text, minimal_text);
   load_ok(temp_file("bom.cfg", text), NULL, 0, &loaded);
   cr_expect_eq(loaded.cosmology.hubble_h, 0.6736);
+}
+
+/* A table named in a parameter file lies beside that file wherever the
+ * program is started from; a name given with --set is the shell's, taken
+ * from the current folder; absolute names stay as written. */
+Test(params, relative_table_names_are_taken_from_the_parameter_files_folder) {
+  static const char text[] =
+      "cosmology: { hubble_h = 0.6736; baryon_density_h2 = 0.02237; cdm_density_h2 = 0.1200; };\n"
+      "perturbations: { initial_table = \"start.txt\"; };\n";
+  const char *path = temp_file("beside.cfg", text);
+  char want[256];
+  snprintf(want, sizeof want, "%s/start.txt", temp_dir);
+  load_ok(path, NULL, 0, &loaded);
+  cr_expect_str_eq(loaded.perturbations.initial_table, want);
+
+  const char *from_shell[] = {"perturbations.initial_table=\"start.txt\""};
+  load_ok(path, from_shell, 1, &loaded);
+  cr_expect_str_eq(loaded.perturbations.initial_table, "start.txt");
+
+  const char *absolute[] = {"perturbations.initial_table=\"/data/start.txt\""};
+  load_ok(path, absolute, 1, &loaded);
+  cr_expect_str_eq(loaded.perturbations.initial_table, "/data/start.txt");
 }
 
 /* libconfig 1.5 ends a block comment that is never closed at the end of the

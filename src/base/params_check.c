@@ -161,7 +161,8 @@ static jg_status check_spec(const jg__locator *loc, const jg__param_spec *s, con
   case JG__KIND_INTEGER:
   case JG__KIND_CHOICE:
     return check_whole(loc, s, s->doc.key, *jg__cint_at(p, s->offset), err);
-  case JG__KIND_TEXT: {
+  case JG__KIND_TEXT:
+  case JG__KIND_FILE: {
     const char *text = (const char *)p + s->offset;
     if (memchr(text, '\0', s->capacity)) return JG_OK;
     jg__locate(loc, s->doc.key, where, sizeof where);
@@ -260,7 +261,7 @@ static const jg__param_spec *spec_of_value(const char *key) {
   char *bracket = strchr(base, '[');
   if (bracket) *bracket = '\0';
   const jg__param_spec *s = jg__find_spec(base);
-  if (!s || s->kind == JG__KIND_TEXT || (bracket != NULL) != (s->kind == JG__KIND_NUMBER_LIST))
+  if (!s || s->kind == JG__KIND_TEXT || s->kind == JG__KIND_FILE || (bracket != NULL) != (s->kind == JG__KIND_NUMBER_LIST))
     return NULL;
   return s;
 }

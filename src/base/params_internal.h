@@ -28,7 +28,10 @@ typedef enum {
   JG__KIND_INTEGER,
   JG__KIND_NUMBER_LIST,
   JG__KIND_CHOICE,
-  JG__KIND_TEXT
+  JG__KIND_TEXT,
+  /* Text naming a file: a relative name written in a parameter file is taken
+   * from that file's folder (one given with --set, from the current folder). */
+  JG__KIND_FILE
 } jg__spec_kind;
 
 typedef struct jg__param_spec {
@@ -43,7 +46,7 @@ typedef struct jg__param_spec {
   int lo_open, hi_open;/* strict (>) or inclusive (>=) bounds */
   const char *const *choices; /* JG__KIND_CHOICE: the allowed words, NULL-terminated;
                                  stored as the int index of the word */
-  size_t capacity;     /* JG__KIND_TEXT: bytes of the char array, final zero included */
+  size_t capacity;     /* JG__KIND_TEXT, _FILE: bytes of the char array, final zero included */
 } jg__param_spec;
 
 extern const jg__param_spec jg__param_specs[];

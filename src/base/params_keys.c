@@ -102,9 +102,9 @@ const jg__param_spec jg__param_specs[] = {
      JG__KIND_CHOICE, P_OFF(perturbations.stepper), 0, 0, 0, 0, 0, 2, 0, 0, stepper_words, 0},
     {{"perturbations.initial_table", "quoted file name", "", "\"\"",
       "empty, or a readable table (see the README); at most 1023 bytes",
-      "baryon start per wavenumber at z_initial, read from this file (relative names from the "
-      "current folder); empty: baryons empty and at rest"},
-     JG__KIND_TEXT, P_OFF(perturbations.initial_table), 0, 0, 0, 0, 0, 0, 0, 0, NULL, JG_MAX_PATH},
+      "baryon start per wavenumber at z_initial, read from this file (a relative name in a "
+      "parameter file from that file's folder, one given with --set from the current folder); empty: baryons empty and at rest"},
+     JG__KIND_FILE, P_OFF(perturbations.initial_table), 0, 0, 0, 0, 0, 0, 0, 0, NULL, JG_MAX_PATH},
     NUMBER("perturbations.rel_tol", perturbations.rel_tol, "", "1e-8", "1e-13 <= value <= 1e-3",
            1e-13, 0, 1e-3, 0, "relative tolerance of the perturbation integration"),
     NUMBER("perturbations.abs_tol", perturbations.abs_tol, "", "1e-10", "0 < value <= 1e-3", 0,

@@ -114,7 +114,8 @@ jg_status jg__read_setting(const char *where, const char *name, const jg__param_
     return JG_FAIL(err, JG_ECONFIG, "%s%s must be one of %s (got \"%s\")", where, name,
                    s->doc.allowed, word);
   }
-  case JG__KIND_TEXT: {
+  case JG__KIND_TEXT:
+  case JG__KIND_FILE: {
     if (type != CONFIG_TYPE_STRING)
       return JG_FAIL(err, JG_ECONFIG, "%s%s must be quoted text such as \"file.txt\" (got %s)",
                      where, name, jg__describe_value(set, got, sizeof got));
@@ -228,6 +229,22 @@ jg_status jg__read_file(config_t *cfg, const char *path, jg_error *err) {
   return st;
 }
 
+/* A relative file name written in the parameter file names a file beside
+ * it, wherever the program is started from. */
+static jg_status take_from_file_folder(const char *where, const jg__param_spec *s,
+                                       const char *param_path, char *name, jg_error *err) {
+  const char *slash = strrchr(param_path, '/');
+  if (name[0] == '\0' || name[0] == '/' || !slash) return JG_OK;
+  size_t folder = (size_t)(slash - param_path) + 1, n = strlen(name);
+  if (folder + n >= s->capacity)
+    return JG_FAIL(err, JG_ECONFIG,
+                   "%s%s is too long once joined to the parameter file's folder (%zu bytes; at "
+                   "most %zu)", where, s->doc.key, folder + n, s->capacity - 1);
+  memmove(name + folder, name, n + 1);
+  memcpy(name, param_path, folder);
+  return JG_OK;
+}
+
 jg_status jg_params_load(const char *path, const char *const *overrides, int n_overrides,
                          jg_params *out, jg_error *err) {
   if (!path || !out)
@@ -257,6 +274,8 @@ jg_status jg_params_load(const char *path, const char *const *overrides, int n_o
     char where[512];
     jg__locate(&loc, s->doc.key, where, sizeof where);
     st = jg__read_setting(where, s->doc.key, s, set, &p, err);
+    if (st == JG_OK && s->kind == JG__KIND_FILE && config_setting_source_line(set) > 0)
+      st = take_from_file_folder(where, s, path, (char *)&p + s->offset, err);
   }
   if (st == JG_OK) st = jg__validate(&loc, &p, err);
   config_destroy(&cfg);
@@ -292,7 +311,8 @@ void jg_params_write_header(FILE *f, const jg_params *p) {
     case JG__KIND_CHOICE:
       fprintf(f, "\"%s\";\n", s->choices[*jg__cint_at(p, s->offset)]);
       break;
-    case JG__KIND_TEXT: {
+    case JG__KIND_TEXT:
+    case JG__KIND_FILE: {
       /* libconfig's escapes, so that the line reads back as it was. */
       fputc('"', f);
       for (const char *c = (const char *)p + s->offset; *c; c++) {

@@ -151,7 +151,8 @@ jg_status jg__apply_override(config_t *cfg, const char *text, jg_error *err) {
     }
   }
   const jg__param_spec *spec = jg__find_spec(key);
-  if (!src && spec && (spec->kind == JG__KIND_CHOICE || spec->kind == JG__KIND_TEXT) &&
+  if (!src && spec && (spec->kind == JG__KIND_CHOICE || spec->kind == JG__KIND_TEXT ||
+                         spec->kind == JG__KIND_FILE) &&
       eq[1] != '"') {
     /* The usual cause: the shell ate the quotes of --set key="word". */
     config_destroy(&tmp);
