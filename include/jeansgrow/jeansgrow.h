@@ -13,6 +13,7 @@
 #define JEANSGROW_JEANSGROW_H
 
 #include "jeansgrow/background.h"
+#include "jeansgrow/config.h"
 #include "jeansgrow/constants.h"
 #include "jeansgrow/epochs.h"
 #include "jeansgrow/error.h"
@@ -25,6 +26,7 @@
 #include "jeansgrow/scan.h"
 #include "jeansgrow/table.h"
 #include "jeansgrow/thermal.h"
+#include "jeansgrow/universe.h"
 #include "jeansgrow/version.h"
 
 #endif

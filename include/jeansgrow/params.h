@@ -182,6 +182,22 @@ int jg_params_key_is_numeric(const char *key);
  * a value that is not whole for an integer key; `p` is then unchanged. The
  * range is not checked here: call jg_params_validate afterwards. */
 jg_status jg_params_set_number(jg_params *p, const char *key, double value, jg_error *err);
+/* Setters by key for the other kinds of value, with the loader's type
+ * checks and messages ("KEY must be ... (got ...)"), the range again left
+ * to jg_params_validate; `p` is unchanged on failure:
+ *   jg_params_set_text     a word key (perturbations.sound_speed: "isothermal")
+ *                          or a text or file-name key (taken as given);
+ *   jg_params_set_list     a list of numbers (n may be 0: the empty list);
+ *   jg_params_set_boolean  a key that takes true or false;
+ *   jg_params_set_value    any key from its value written as in a parameter
+ *                          file ("0.7", "\"isothermal\"", "[20.0, 10.0]",
+ *                          "true"): what --set KEY=VALUE does, messages
+ *                          starting "--set KEY=VALUE: ". */
+jg_status jg_params_set_text(jg_params *p, const char *key, const char *text, jg_error *err);
+jg_status jg_params_set_list(jg_params *p, const char *key, const double *values, int n,
+                             jg_error *err);
+jg_status jg_params_set_boolean(jg_params *p, const char *key, int value, jg_error *err);
+jg_status jg_params_set_value(jg_params *p, const char *key, const char *value, jg_error *err);
 
 /* One documented key: the loader, `jeansgrow keys` and the README table all
  * come from the same list. */
