@@ -306,6 +306,14 @@ Test(null_error, scan) {
   jg_scan_checkpoint_close(cp, 1);
   jg_scan_free(s);
   jg_scan_grid_clear(&g);
+  jg_config *c = NULL;
+  cr_assert_eq(jg_config_new(&c, NULL), JG_OK);
+  char *text = NULL;
+  cr_assert_eq(jg_config_scan(c, (const char *const[]){"cosmology.hubble_h=1:0:3"}, 1, 1, &text,
+                              NULL, NULL, NULL),
+               JG_EINVAL);
+  cr_assert_null(text);
+  jg_config_free(c);
 }
 
 /* ---- end of null_error ---- */

@@ -15,6 +15,7 @@
 #include "jeansgrow/background.h"
 #include "jeansgrow/config.h"
 #include "jeansgrow/constants.h"
+#include "jeansgrow/embed_scan.h"
 #include "jeansgrow/epochs.h"
 #include "jeansgrow/error.h"
 #include "jeansgrow/growth.h"
