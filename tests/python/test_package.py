@@ -257,3 +257,19 @@ def test_version_is_the_programs():
     out = subprocess.run([PROGRAM, "--version"], check=True, capture_output=True,
                          text=True).stdout
     assert jeansgrow.version() in out
+
+
+def test_the_readme_python_example_runs_and_draws_its_figure(tmp_path):
+    """The example of the README ("Use it as a library") as a reader would
+    copy it, run from a folder with the repository's params/."""
+    with open(os.path.join(SOURCE, "README.md"), encoding="utf-8") as f:
+        readme = f.read()
+    start = readme.index("<!-- python example")
+    start = readme.index("```python\n", start) + len("```python\n")
+    code = readme[start:readme.index("```\n", start)]
+    (tmp_path / "params").symlink_to(os.path.join(SOURCE, "params"))
+    (tmp_path / "example.py").write_text(code)
+    env = dict(os.environ, MPLBACKEND="Agg", PYTHONPATH=os.path.join(SOURCE, "src", "python"))
+    subprocess.run(["/usr/bin/python3", "example.py"], cwd=tmp_path, env=env, check=True)
+    figure = tmp_path / "filtering_mass.png"
+    assert figure.read_bytes()[:8] == b"\x89PNG\r\n\x1a\n"
