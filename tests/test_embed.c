@@ -462,3 +462,58 @@ Test(embed, an_unphysical_medium_is_refused_before_gsl_sees_it) {
   cr_assert(strstr(e.message, "baryon fraction -3") != NULL, "%s", e.message);
   jg_gsl_handler_off();
 }
+
+/* Extreme values given to the public functions of every stage, with GSL's
+ * default handler installed: each is refused or answered, none reaches a
+ * GSL routine that raises (which would abort this process). The optical
+ * depth beyond z ~ 1e14 did, through GSL's adaptive quadrature. */
+Test(embed, extreme_values_never_make_gsl_abort_the_host, .timeout = 60) {
+  gsl_set_error_handler(NULL);
+  stages s;
+  stages_build(&s);
+  const double extreme[] = {NAN, -1.0, -0.999999, 1e300, INFINITY, -INFINITY, 0.0, 1e-300};
+  for (size_t i = 0; i < sizeof extreme / sizeof extreme[0]; i++) {
+    double x = extreme[i], v, f, k_half;
+    int found;
+    jg_perturb_point pt;
+    jg_perturb_limit lim;
+    jg_scales_point sp;
+    jg_thermal_state ts;
+    jg_perturb_solve(s.m, s.w, 100.0, &x, 1, &pt, NULL);
+    jg_perturb_solve(s.m, s.w, x, (double[]){20.0}, 1, &pt, NULL);
+    jg_perturb_solve_limit(s.m, s.w, &x, 1, &lim, NULL);
+    jg_scales_compute(s.m, s.w, &x, 1, &sp, NULL);
+    jg_scales_half_suppression(s.m, s.w, 20.0, x, 10.0, &k_half, &found, NULL);
+    jg_scales_half_suppression(s.m, s.w, 20.0, 0.5, x, &k_half, &found, NULL);
+    jg_background_comoving_distance(s.bg, x, &v, NULL);
+    jg_background_transverse_distance(s.bg, x, &v, NULL);
+    jg_background_sound_horizon(s.bg, x, &v, NULL);
+    jg_background_cosmic_time(s.bg, x, &v, NULL);
+    jg_background_conformal_time(s.bg, x, &v, NULL);
+    jg_background_growth_heath(s.bg, x, &v, NULL);
+    jg_background_growth_factor(s.bg, x, &v, &f, NULL);
+    jg_thermal_state_at(s.th, x, &ts);
+    jg_thermal_optical_depth(s.th, x);
+    jg_thermal_drag_depth(s.th, x);
+    jg_thermal_visibility(s.th, x);
+    jg_growth_grid *g = NULL;
+    jg_growth_grid_compute(s.m, s.w, &x, 1, (double[]){20.0}, 1, &g, NULL);
+    jg_growth_grid_free(g);
+    jg_cosmology c = s.p.cosmology;
+    c.de_w0 = x;
+    jg_background_free(jg_background_new(&c, NULL));
+    jg_thermal_settings t = s.p.thermal;
+    t.start_redshift = x;
+    jg_thermal_free(jg_thermal_new(s.bg, &t, NULL));
+    jg_perturb_settings ps = s.p.perturbations;
+    ps.z_initial = x;
+    jg_perturb_model_free(jg_perturb_model_new(s.th, &ps, NULL, NULL));
+    jg_perturb_start start = {x, x, x};
+    jg_perturb_model_free(jg_perturb_model_new(s.th, &s.p.perturbations, &start, NULL));
+  }
+  /* Beyond the stored history the depths keep growing with z. */
+  cr_assert_lt(jg_thermal_optical_depth(s.th, 1e20), jg_thermal_optical_depth(s.th, 1e22));
+  cr_assert_lt(jg_thermal_drag_depth(s.th, 1e20), jg_thermal_drag_depth(s.th, 1e22));
+  stages_free(&s);
+  jg_gsl_handler_off();
+}
