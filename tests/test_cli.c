@@ -872,3 +872,58 @@ Test(good_runs, run_in_h_units_writes_and_summarises_in_h_units, .timeout = 120)
   run_free(&r);
   remove_dir(dir);
 }
+
+/* The program's help states the order the commands take (PARAMFILE first,
+ * options after, as every command's usage says), and `history --help`
+ * names where the table ends instead of promising z = 0. */
+Test(good_runs, help_states_the_real_usage_order_and_the_history_end) {
+  const char *args[] = {"--help", NULL};
+  run_result r;
+  run(args, &r);
+  cr_assert(exited_with(&r, 0));
+  cr_expect(strncmp(r.out, "Usage: jeansgrow COMMAND PARAMFILE [options]\n", 45) == 0,
+            "--help printed: %.80s", r.out);
+  run_free(&r);
+  const char *history_args[] = {"history", "--help", NULL};
+  run(history_args, &r);
+  cr_assert(exited_with(&r, 0));
+  cr_expect(strstr(r.out, "output.history_z_min") != NULL, "history --help: %s", r.out);
+  cr_expect(strstr(r.out, "to z = 0") == NULL, "history --help still says z = 0: %s", r.out);
+  run_free(&r);
+}
+
+/* The scales header must not state an order between the two filtering
+ * wavenumbers that its own rows contradict: the Gnedin-Hui integral lies
+ * below the measured k_F with the isothermal sound speed, but above it at
+ * z = 10 in the default fluctuating model (511.07 against 505.97 /Mpc on
+ * the reference cosmology, measured with this program). */
+Test(good_runs, scales_header_claims_no_order_of_the_filtering_scales_its_rows_break,
+     .timeout = 120) {
+  const char *models[] = {"perturbations.sound_speed=\"isothermal\"",
+                          "perturbations.sound_speed=\"fluctuating\""};
+  for (int m = 0; m < 2; m++) {
+    const char *args[] = {"scales", REFERENCE, "--set", models[m], "--set",
+                          "output.redshifts=[100.0, 20.0, 10.0]", NULL};
+    run_result r;
+    run(args, &r);
+    cr_assert(exited_with(&r, 0), "%s", r.err);
+    table t;
+    parse_table(r.out, &t);
+    const int measured = column_index(&t, "k_F[1/Mpc]");
+    const int integral = column_index(&t, "k_F_integral[1/Mpc]");
+    cr_assert(measured >= 0 && integral >= 0);
+    cr_expect(strstr(t.header, "so it lies below k_F") == NULL, "%s", t.header);
+    cr_expect(strstr(t.header, "below k_F with the isothermal sound speed") != NULL);
+    for (int i = 0; i < t.n_rows; i++) {
+      const double ratio = cell(&t, i, integral) / cell(&t, i, measured);
+      if (m == 0) cr_expect(ratio < 1, "isothermal, z = %g: integral/measured = %g",
+                            cell(&t, i, 0), ratio);
+    }
+    if (m == 1)
+      cr_expect(cell(&t, 2, integral) > cell(&t, 2, measured),
+                "fluctuating, z = 10: the integral (%g) is expected above the measured k_F (%g)",
+                cell(&t, 2, integral), cell(&t, 2, measured));
+    table_free(&t);
+    run_free(&r);
+  }
+}

@@ -25,6 +25,7 @@
 #include "jeansgrow/scan.h"
 #include "jeansgrow/table.h"
 #include "jeansgrow/thermal.h"
+#include "jeansgrow/validity.h"
 #include "jeansgrow/version.h"
 
 #endif

@@ -6,6 +6,7 @@
  * was; each table is written to a temporary file and renamed into place.
  */
 #include <errno.h>
+#include <signal.h>
 #include <stdio.h>
 #include <stdlib.h>
 #include <string.h>
@@ -73,7 +74,7 @@ static jg_status write_table(int which, FILE *f, const jg_params *p, const jg_th
   case FILE_SCALES:
     return jg_report_scales(f, p, th, r->scales, p->output.n_redshifts, err);
   default:
-    return jg_report_growth(f, p, r->growth, err);
+    return jg_report_growth(f, p, th, r->growth, err);
   }
 }
 
@@ -153,6 +154,9 @@ int cmd_run(const cli_command *cmd, int argc, char **argv) {
     return EXIT_BAD_INPUT;
   }
   if ((rc = prepare_folder(dir)) >= 0) return rc;
+  /* The computation comes before any file is opened: without this an
+   * interrupt there would end the program silently. */
+  cli_protect_interrupts("jeansgrow: interrupted; no table was written, the output folder is as it was\n");
 
   jg_background *bg = NULL;
   jg_thermal *th = NULL;
@@ -186,11 +190,20 @@ int cmd_run(const cli_command *cmd, int argc, char **argv) {
     if (rc < 0) st = write_table(i, jg_output_stream(out[i]), &p, th, r, &err);
   }
   if (rc < 0 && st == JG_OK) {
+    /* All four tables or none: an interrupt between two renames would
+     * leave a folder mixing two runs. */
+    sigset_t block, saved;
+    sigemptyset(&block);
+    sigaddset(&block, SIGINT);
+    sigaddset(&block, SIGTERM);
+    sigprocmask(SIG_BLOCK, &block, &saved);
     for (int i = 0; i < N_RUN_FILES && rc < 0; i++) {
       int c = cli_commit_output(out[i]);
       out[i] = NULL;
       if (c != EXIT_OK) rc = c;
     }
+    cli_protect_interrupts("jeansgrow: interrupted after the tables were written\n");
+    sigprocmask(SIG_SETMASK, &saved, NULL);
   }
   for (int i = 0; i < N_RUN_FILES; i++)
     if (out[i]) cli_discard_output(out[i]);

@@ -14,7 +14,7 @@ static const cli_command commands[] = {
      "Writes DIR/history.txt, DIR/epochs.txt, DIR/scales.txt and DIR/growth.txt (DIR is\n"
      "created if missing; default jeansgrow-out), each atomically, then prints a summary.",
      OUTPUT_FOLDER, cmd_run},
-    {"history", "Ionisation and gas-temperature history from the start redshift to z = 0",
+    {"history", "Ionisation and gas-temperature history from the start redshift to output.history_z_min",
      "PARAMFILE [--set KEY=VALUE]... [-o FILE]",
      "Columns: z, x_e, x_HII, x_HeII, x_HeIII, T_gas[K], T_rad[K], mu, compton_rate[1/s],\n"
      "H[km/s/Mpc], tau, visibility, tau_drag (see the README). Rows uniform in ln(1+z),\n"
@@ -58,7 +58,7 @@ static const cli_command commands[] = {
 #define N_COMMANDS ((int)(sizeof commands / sizeof commands[0]))
 
 static void print_help(void) {
-  printf("Usage: jeansgrow COMMAND [options] PARAMFILE\n\n"
+  printf("Usage: jeansgrow COMMAND PARAMFILE [options]\n\n"
          "Jeans and filtering scales, and linear growth of baryon and dark-matter\n"
          "perturbations with gas pressure, after recombination.\n\nCommands:\n");
   for (int i = 0; i < N_COMMANDS; i++) printf("  %-9s %s\n", commands[i].name, commands[i].summary);
@@ -73,7 +73,7 @@ int main(int argc, char **argv) {
   if (argc < 2) {
     /* A usage error: one line on stderr, as for every other bad input, so
      * that a script sees it and stdout stays empty. */
-    fprintf(stderr, "jeansgrow: no command given (usage: jeansgrow COMMAND [options] PARAMFILE; "
+    fprintf(stderr, "jeansgrow: no command given (usage: jeansgrow COMMAND PARAMFILE [options]; "
                     "see jeansgrow --help)\n");
     return EXIT_BAD_INPUT;
   }

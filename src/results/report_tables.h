@@ -7,10 +7,17 @@
 
 #include "jeansgrow/params.h"
 
-#define JG__REPORT_SCALES_COLUMNS 22
-#define JG__REPORT_SCALES_CONVENTIONS 9 /* lines, the terminating NULL included */
+#define JG__REPORT_SCALES_COLUMNS 23
+#define JG__REPORT_SCALES_CONVENTIONS 10 /* lines, the terminating NULL included */
 extern const char *const jg__report_scales_columns[][JG__REPORT_SCALES_COLUMNS];
 extern const char *const jg__report_scales_conventions[][JG__REPORT_SCALES_CONVENTIONS];
+
+/* The flags column of the scales and growth tables (validity.h). */
+#define JG__REPORT_FLAGS_CONVENTION                                                          \
+  "flags: 0 inside the stated validity, else the sum of 1 = the gas has barely started "    \
+  "(k -> 0 delta_b/delta_c < 0.1: filtering and half-suppression scales describe a "        \
+  "perturbation not yet there), 2 = below the lowest redshift of the thermal model, 4 = "   \
+  "wavelength within ten mean free paths of the atoms (the gas stops being a fluid)"
 
 /* The scan's per-point epoch columns. A scan table holds numbers only, so an
  * epoch a point's universe does not have (jg_epochs.absent) is written as
