@@ -23,7 +23,8 @@ do for [fmt in formats] {
   set format y "10^{%L}"
   set xlabel ""
   set ylabel "free electrons per H nucleus"
-  if (z_valid > 0) { set obj 1 rect from graph 0, graph 0 to first 1 + z_valid, graph 1 behind fc rgb "#eeeeee" fs solid noborder } else { unset obj 1 }
+  shade_offset = 1
+  @shade_invalid
   set yrange [*:2]
   plot table using (1 + $1):(column(col("x_e"))) with lines ls 1 title "x_e", \
        table using (1 + $1):(column(col("x_HII"))) with lines ls 2 title "x_{HII}", \

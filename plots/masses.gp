@@ -25,12 +25,13 @@ do for [fmt in formats] {
   set xlabel "redshift z"
   set ylabel sprintf("mass [%s]", unit_of(col("M_J")))
   set title sprintf("Masses at the mean matter density, sphere of %s", radius_text)
-  if (z_valid > 0) { set obj 1 rect from graph 0, graph 0 to first z_valid, graph 1 behind fc rgb "#eeeeee" fs solid noborder } else { unset obj 1 }
+  @shade_invalid
   plot table using 1:(column(col("M_J")) * factor) with linespoints ls 1 title "Jeans (isothermal)", \
        table using 1:(column(col("M_F_halfwave")) * factor) with linespoints ls 2 title "filtering, solved", \
        table using 1:(column(col("M_F_integral_halfwave")) * factor) with linespoints ls 3 title "filtering, Gnedin-Hui integral", \
        table using 1:(column(col("half_found")) > 0 ? column(col("M_half")) * factor : NaN) with linespoints ls 4 title "half suppression", \
        for [e in extras] table using 1:(column(col(e))) with linespoints ls 5 title e noenhanced, \
        table using 1:(flags > 0 && column(flags) > 0 ? column(col("M_F_halfwave")) * factor : NaN) with points ls 20 title (flags > 0 ? "outside the stated validity (flags column)" : ""), \
-       table using 1:(flags > 0 && column(flags) > 0 ? (column(col("half_found")) > 0 ? column(col("M_half")) * factor : NaN) : NaN) with points ls 20 notitle
+       table using 1:(flags > 0 && column(flags) > 0 ? (column(col("half_found")) > 0 ? column(col("M_half")) * factor : NaN) : NaN) with points ls 20 notitle, \
+       NaN with boxes fc rgb "#e4e4e4" fs solid title @shade_key
 }

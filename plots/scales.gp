@@ -11,11 +11,12 @@ do for [fmt in formats] {
   set xlabel "redshift z"
   set ylabel sprintf("comoving wavenumber [%s]", unit_of(col("k_J"))) noenhanced
   set title "Scales the gas follows: smaller k is larger scale"
-  if (z_valid > 0) { set obj 1 rect from graph 0, graph 0 to first z_valid, graph 1 behind fc rgb "#eeeeee" fs solid noborder } else { unset obj 1 }
+  @shade_invalid
   plot table using 1:(column(col("k_J"))) with linespoints ls 1 title "k_J (isothermal Jeans)", \
        table using 1:(column(col("k_F")) > 0 ? column(col("k_F")) : NaN) with linespoints ls 2 title "k_F, solved", \
        table using 1:(column(col("k_F_integral"))) with linespoints ls 3 title "k_F, Gnedin-Hui integral", \
        table using 1:(column(col("half_found")) > 0 ? column(col("k_half")) : NaN) with linespoints ls 4 title "k_{1/2}, half suppression", \
        table using 1:(flags > 0 && column(flags) > 0 && column(col("k_F")) > 0 ? column(col("k_F")) : NaN) with points ls 20 title (flags > 0 ? "outside the stated validity (flags column)" : ""), \
-       table using 1:(flags > 0 && column(flags) > 0 && column(col("half_found")) > 0 ? column(col("k_half")) : NaN) with points ls 20 notitle
+       table using 1:(flags > 0 && column(flags) > 0 && column(col("half_found")) > 0 ? column(col("k_half")) : NaN) with points ls 20 notitle, \
+       NaN with boxes fc rgb "#e4e4e4" fs solid title @shade_key
 }

@@ -24,8 +24,8 @@ need = "do for [needed in needed_columns] { if (col(needed) == 0) { print sprint
 
 # The thermal model's lowest valid redshift, from the table header (0 if
 # the table does not state one); masses in one radius convention.
-valid_line = system(sprintf("awk '/^# validity: / { print; exit } !/^#/ { exit }' '%s'", table))
-z_valid = strstrt(valid_line, "z >= ") > 0 ? real(word(valid_line[strstrt(valid_line, "z >= ") + 5:], 1)) : 0
+z_valid_text = system(sprintf("awk '/^# validity: / && match($0, /z >= [0-9.eE+-]+/) { print substr($0, RSTART + 5, RLENGTH - 5); exit } !/^#/ { exit }' '%s'", table))
+z_valid = z_valid_text eq "" ? 0 : real(z_valid_text)
 mass_radius = header_value("output.mass_radius")
 if (mass_radius eq "") mass_radius = "half_wavelength"
 
@@ -42,6 +42,11 @@ do for [i = 1:8] {
 # How a flagged value (outside the stated validity: `flags` column > 0) is
 # drawn: an open grey circle over the point.
 set style line 20 lc rgb "#808080" pt 6 ps 2.2 lw 1.5
+# Below the thermal model's lowest valid redshift the plot is shaded (on a
+# reversed z axis: from z_valid to the right edge; shade_offset 1 for 1 + z).
+shade_offset = 0
+shade_invalid = "if (z_valid > 0) { set obj 1 rect from first z_valid + shade_offset, graph 0 to graph 1, graph 1 behind fc rgb '#e4e4e4' fs solid noborder } else { unset obj 1 }"
+shade_key = "(z_valid > 0 ? sprintf('below z = %g: thermal model not valid', z_valid) : '')"
 formats = "png svg"
 # The distinct values of column n, in the order they first appear.
 distinct(n) = system(sprintf("awk -F'\t' '!/^#/ && !seen[$%d]++ { print $%d }' '%s'", n, n, table))

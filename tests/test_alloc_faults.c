@@ -129,7 +129,7 @@ Test(alloc_faults, every_allocation_of_a_run) {
   char dir[64], out[128];
   make_folder(dir, sizeof dir);
   snprintf(out, sizeof out, "%s/results", dir);
-  const char *args[] = {"run", REFERENCE, SMALL, "-o", out, NULL};
+  const char *args[] = {"run", REFERENCE, SMALL, "--no-figures", "-o", out, NULL};
   walk(dir, args, out, "run");
   remove_folder(dir);
 }

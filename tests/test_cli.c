@@ -703,7 +703,7 @@ Test(good_runs, run_reports_an_absent_epoch_as_none, .timeout = 120) {
   make_temp_dir(dir, sizeof dir);
   char folder[128];
   snprintf(folder, sizeof folder, "%s/results", dir);
-  const char *args[] = {"run", REFERENCE, "--set", "cosmology.baryon_density_h2=0.00001",
+  const char *args[] = {"run", REFERENCE, "--no-figures", "--set", "cosmology.baryon_density_h2=0.00001",
                         "--set", "perturbations.k_count=4", "-o", folder, NULL};
   run_result r;
   run(args, &r);
@@ -834,7 +834,7 @@ Test(good_runs, epochs_in_h_units_are_the_default_epochs_converted) {
 Test(good_runs, run_in_h_units_writes_and_summarises_in_h_units, .timeout = 120) {
   char dir[64];
   make_temp_dir(dir, sizeof dir);
-  const char *args[] = {"run", REFERENCE, "--set", "perturbations.k_count=8", "--set",
+  const char *args[] = {"run", REFERENCE, "--no-figures", "--set", "perturbations.k_count=8", "--set",
                         IN_H_UNITS, "-o", dir, NULL};
   run_result r;
   run(args, &r);

@@ -100,6 +100,14 @@ typedef enum {
   JG_UNITS_MPC_H = 1 /* k in h/Mpc = (1/Mpc)/h, masses in M_sun/h = M_sun h, lengths in Mpc/h = Mpc h */
 } jg_output_units;
 
+/* The radius of the sphere a mass scale M = (4 pi/3) rho_m0 R^3 is quoted
+ * with, in the `run` summary and the figures (output.mass_radius); the
+ * tables carry both. */
+typedef enum {
+  JG_MASS_RADIUS_HALF_WAVELENGTH = 0, /* R = pi/k */
+  JG_MASS_RADIUS_FULL_WAVELENGTH = 1  /* R = 2 pi/k: 8 times the mass */
+} jg_mass_radius;
+
 /* What the commands report (group `output`). */
 typedef struct jg_output_settings {
   double redshifts[JG_MAX_REDSHIFTS]; /* requested redshifts, in file order */
@@ -108,6 +116,7 @@ typedef struct jg_output_settings {
   double history_z_max;/* first redshift of the history table (<= thermal.start_redshift) */
   double history_z_min;/* last redshift of the history table */
   jg_output_units units;
+  jg_mass_radius mass_radius;
 } jg_output_settings;
 
 typedef struct jg_params {

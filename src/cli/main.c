@@ -12,7 +12,10 @@ static const cli_command commands[] = {
     {"run", "The main job: history, epochs, scales and growth into one folder, with a summary",
      "PARAMFILE [--set KEY=VALUE]... [-o DIR]",
      "Writes DIR/history.txt, DIR/epochs.txt, DIR/scales.txt and DIR/growth.txt (DIR is\n"
-     "created if missing; default jeansgrow-out), each atomically, then prints a summary.",
+     "created if missing; default jeansgrow-out), each atomically, then prints a summary\n"
+     "and, when gnuplot is installed, draws the figures (history, masses, scales,\n"
+     "suppression, rates; each as .png and .svg) into DIR. --no-figures skips them.\n"
+     "Masses in the summary and figures use one radius (output.mass_radius).",
      OUTPUT_FOLDER, cmd_run},
     {"history", "Ionisation and gas-temperature history from the start redshift to output.history_z_min",
      "PARAMFILE [--set KEY=VALUE]... [-o FILE]",
@@ -51,6 +54,12 @@ static const cli_command commands[] = {
      "The grid may instead come from the scan.vary list of PARAMFILE. Under mpirun the\n"
      "ranks share the points; the file is the same whatever the threads or ranks.",
      1, cmd_scan},
+    {"plot", "Draw the figures of a run folder or of one table (a scan's too) with gnuplot",
+     "DIR|TABLE",
+     "For a folder: the figures of its history.txt, scales.txt and growth.txt, as `run`\n"
+     "draws them. For a table: its figures beside it, named after it (a scan table:\n"
+     "each scale against the varied key, or maps for two varied keys).",
+     0, cmd_plot},
     {"merge", "Join the slice tables of a scan run with --part I/N into the whole table",
      "OUT PART_FILE...", "The slices must come from one scan (same fingerprint), all of them.",
      1, cmd_merge},
