@@ -186,10 +186,16 @@ void jg_params_write_header(FILE *f, const jg_params *p);
  * keys, lists and words. */
 int jg_params_key_is_numeric(const char *key);
 
-/* Set the number or integer `key` to `value`. JG_EINVAL for an unknown key
- * (the nearest known key suggested), a key that is not a single number, or
- * a value that is not whole for an integer key; `p` is then unchanged. The
- * range is not checked here: call jg_params_validate afterwards. */
+/* The words a word-valued key takes, in the order of their numbers 0, 1,
+ * ... (NULL-terminated), or NULL when `key` is not word-valued. */
+const char *const *jg_params_key_words(const char *key);
+
+/* Set the number or integer `key` to `value`; a word-valued key takes the
+ * number of its word (jg_params_key_words). JG_EINVAL for an unknown key
+ * (the nearest known key suggested), a key that is not a single number or
+ * word, a value that is not whole for an integer key, or no word of that
+ * number; `p` is then unchanged. The range is not checked here: call
+ * jg_params_validate afterwards. */
 jg_status jg_params_set_number(jg_params *p, const char *key, double value, jg_error *err);
 
 /* One documented key: the loader, `jeansgrow keys` and the README table all

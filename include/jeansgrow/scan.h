@@ -80,8 +80,11 @@ typedef struct jg_scan_axis {
                                  of 10^8 points holds no list): use jg_scan_axis_value */
 } jg_scan_axis;
 
-/* Value i (0 <= i < count) of an axis, whatever its spacing. */
+/* Value i (0 <= i < count) of an axis, whatever its spacing. An axis of a
+ * word-valued key (KEY=[WORD1, WORD2]) holds the words' numbers (their
+ * place in jg_params_key_words, which the table writes); its word: */
 double jg_scan_axis_value(const jg_scan_axis *ax, long long i);
+const char *jg_scan_axis_word(const jg_scan_axis *ax, long long i); /* NULL: not word-valued */
 
 /* Read the fields; change them only through the functions below. Start from
  * a zeroed struct (`jg_scan_grid g = {0};`), release with jg_scan_grid_clear. */
@@ -97,8 +100,11 @@ typedef struct jg_scan_grid {
  * NULL). Fails with JG_EINVAL, naming the text and what is allowed, for: bad
  * syntax, N < 1, FROM > TO, N = 1 with FROM != TO, non-positive bounds with
  * log spacing, non-finite numbers, an unknown key (nearest key suggested), a
- * key that is not a single number, a fractional value for an integer key, a
+ * key that is not a single number or word, a fractional value for an
+ * integer key, a range of a word-valued key or a word it does not take, a
  * key varied twice, too many axes or points. The grid is unchanged then.
+ * A word-valued key is varied over a list of its words, quoted or not:
+ * "perturbations.sound_speed=[fluctuating, isothermal]".
  */
 jg_status jg_scan_grid_parse(jg_scan_grid *g, const char *text, const char *origin,
                              jg_error *err);

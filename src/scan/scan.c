@@ -110,8 +110,9 @@ void jg__scan_write_axis(FILE *f, const jg_scan_axis *ax) {
   if (ax->spacing == JG_SCAN_LIST) {
     fputc('[', f);
     for (int i = 0; i < ax->count; i++) {
+      const char *word = jg_scan_axis_word(ax, i);
       format_exact(a, sizeof a, jg_scan_axis_value(ax, i));
-      fprintf(f, "%s%s", i ? ", " : "", a);
+      fprintf(f, "%s%s", i ? ", " : "", word ? word : a);
     }
     fputc(']', f);
   } else {
@@ -184,7 +185,10 @@ void jg_scan_describe_point(const jg_scan *s, long long index, char *buf, size_t
   for (int a = 0; a < s->grid.n_axes && used < size; a++) {
     char num[64];
     format_exact(num, sizeof num, v[a]);
-    int w = snprintf(buf + used, size - used, "%s%s = %s", a ? ", " : "", s->grid.axes[a].key, num);
+    const char *const *words = jg_params_key_words(s->grid.axes[a].key);
+    const char *word = words ? words[(int)v[a]] : num;
+    int w = snprintf(buf + used, size - used, "%s%s = %s", a ? ", " : "", s->grid.axes[a].key,
+                     word);
     if (w < 0) break;
     used += (size_t)w;
   }

@@ -26,7 +26,7 @@ static char **scan_header_lines(const jg_scan *s, int *n_out) {
   const jg_scan_evaluator *ev = s->ev;
   int n_conv = 0;
   while (ev->conventions && ev->conventions[n_conv]) n_conv++;
-  int cap = 8 + s->grid.n_axes + n_conv;
+  int cap = 8 + 2 * s->grid.n_axes + n_conv;
   char **lines = calloc((size_t)cap + 1, sizeof *lines);
   if (!lines) return NULL;
   int n = 0;
@@ -47,6 +47,14 @@ static char **scan_header_lines(const jg_scan *s, int *n_out) {
     if (LINE_BEGIN()) {
       fputs("scan vary: ", f);
       jg__scan_write_axis(f, &s->grid.axes[a]);
+    }
+    if (!LINE_END()) goto fail;
+    /* A table holds numbers: a word-valued key's column holds its word's number. */
+    const char *const *words = jg_params_key_words(s->grid.axes[a].key);
+    if (!words) continue;
+    if (LINE_BEGIN()) {
+      fprintf(f, "scan words: the column %s holds", s->grid.axes[a].key);
+      for (int w = 0; words[w]; w++) fprintf(f, "%s %d = %s", w ? "," : "", w, words[w]);
     }
     if (!LINE_END()) goto fail;
   }
