@@ -52,4 +52,8 @@ formats = "png svg"
 distinct(n) = system(sprintf("awk -F'\t' '!/^#/ && !seen[$%d]++ { print $%d }' '%s'", n, n, table))
 # Rows of one redshift only (the growth and scan tables interleave them).
 at_z(zcol, zv, v) = abs(column(zcol) - zv) <= 1e-9 * (1 + abs(zv)) ? v : NaN
+# The same as a data source, so that lines join consecutive points of that
+# redshift (and wavenumber, column kc > 0), with a blank line wherever
+# column 1 changes if `blocks` (the grid format of a map).
+rows_at(zc, zv, kc, kv, blocks) = sprintf("< awk -F'\t' -v z=%.17g -v k=%.17g -v zc=%d -v kc=%d -v blocks=%d '!/^#/ && (zc == 0 || ($zc - z) ^ 2 <= (1e-9 * (1 + z)) ^ 2) && (kc == 0 || ($kc - k) ^ 2 <= (1e-9 * k) ^ 2) { if (blocks && seen && $1 != last) print \"\"; seen = 1; last = $1; print }' '%s'", zv, kv, zc, kc, blocks, table)
 start_figure = "if (fmt eq 'png') { set terminal pngcairo size 1000,650 font 'sans,14' enhanced } else { set terminal svg size 1000,650 font 'sans,14' enhanced dynamic }; set output sprintf('%s.%s', out, fmt)"

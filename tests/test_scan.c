@@ -109,7 +109,7 @@ static jg_status toy_evaluate(const jg_params *p, double *point_values, double *
 }
 
 static const jg_scan_evaluator toy = {"toy", 1, toy_point_columns, 2, toy_redshift_columns,
-                                      NULL, NULL, NULL, toy_evaluate, NULL};
+                                      NULL, NULL, NULL, toy_evaluate, NULL, JG_SCAN_ROWS_REDSHIFT};
 
 static void toy_params(jg_params *p) {
   jg_params_set_defaults(p);

@@ -373,8 +373,10 @@ jg_status jg_report_scales(FILE *f, const jg_params *p, const jg_thermal *th,
   X("rate_ref", NONE)
 
 static const quantity growth_quantities[] = {GROWTH_COLUMNS(QUANTITY_OF)};
-#define N_GROWTH_COLUMNS ((int)(sizeof growth_quantities / sizeof growth_quantities[0]))
-static const char *const growth_columns[][N_GROWTH_COLUMNS] = {
+#define N_GROWTH_COLUMNS JG__REPORT_GROWTH_COLUMNS
+_Static_assert(sizeof growth_quantities / sizeof growth_quantities[0] == JG__REPORT_GROWTH_COLUMNS,
+               "JG__REPORT_GROWTH_COLUMNS must match the column list");
+const char *const jg__report_growth_columns[][N_GROWTH_COLUMNS] = {
     [JG_UNITS_MPC] = {GROWTH_COLUMNS(NAME_IN_MPC)},
     [JG_UNITS_MPC_H] = {GROWTH_COLUMNS(NAME_IN_MPC_H)}};
 
@@ -391,38 +393,52 @@ static const char *const growth_columns[][N_GROWTH_COLUMNS] = {
       "D -> a early, and d ln D / d ln a, for reference (the same on every row of a redshift)", \
       JG__REPORT_FLAGS_CONVENTION
 
+#define GROWTH_UNITS_MPC "units: k comoving 1/Mpc"
+#define GROWTH_UNITS_MPC_H "units: k comoving h/Mpc (1/Mpc divided by h); h = cosmology.hubble_h"
 static const char *const growth_conventions[][8] = {
-    [JG_UNITS_MPC] = {GROWTH_CONVENTIONS, "units: k comoving 1/Mpc", NULL},
+    [JG_UNITS_MPC] = {GROWTH_CONVENTIONS, GROWTH_UNITS_MPC, NULL},
     [JG_UNITS_MPC_H] = {GROWTH_CONVENTIONS,
-                        "units: k comoving h/Mpc (1/Mpc divided by h); h = cosmology.hubble_h",
+                        GROWTH_UNITS_MPC_H,
                         NULL}};
+const char *const jg__report_scan_growth_conventions[][JG__REPORT_SCAN_GROWTH_CONVENTIONS] = {
+    [JG_UNITS_MPC] = {JG__REPORT_SCAN_EPOCHS_CONVENTION, GROWTH_CONVENTIONS, GROWTH_UNITS_MPC,
+                      NULL},
+    [JG_UNITS_MPC_H] = {JG__REPORT_SCAN_EPOCHS_CONVENTION, GROWTH_CONVENTIONS,
+                        GROWTH_UNITS_MPC_H, NULL}};
 
 jg_status jg_report_growth(FILE *f, const jg_params *p, const jg_thermal *th,
                            const jg_growth_grid *g, jg_error *err) {
   const jg_output_units units = table_units(p->output.units);
   const double h = p->cosmology.hubble_h;
-  const char *const *columns = growth_columns[units];
+  const char *const *columns = jg__report_growth_columns[units];
   /* Without a real history there is no reference growth: its two columns
    * are left out rather than filled. */
   const int n_columns = g->has_reference ? N_GROWTH_COLUMNS : N_GROWTH_COLUMNS - 2;
   write_preamble_with_validity(f, "linear growth by wavenumber", p, th, growth_conventions[units]);
   jg_table_write_columns(f, columns, n_columns);
+  double row[N_GROWTH_COLUMNS];
   for (int iz = 0; iz < g->n_z; iz++) {
-    const double large = g->limit[iz].k0.b_over_c;
     for (int ik = 0; ik < g->n_k; ik++) {
-      const jg_perturb_point *pt = jg_growth_grid_at(g, ik, iz);
-      double row[N_GROWTH_COLUMNS] = {pt->z,        pt->k,        pt->delta_c,
-                                      pt->delta_b,  pt->delta_m,  pt->delta_T,
-                                      pt->b_over_c, pt->delta_b / pt->delta_m,
-                                      pt->b_over_c / large,
-                                      pt->growth_c, pt->growth_b, pt->growth_m,
-                                      jg_validity_growth_flags(th, pt->z, pt->k, large),
-                                      g->has_reference ? g->D_ref[iz] : 0.0,
-                                      g->has_reference ? g->f_ref[iz] : 0.0};
-      for (int i = 0; i < n_columns; i++) row[i] *= unit_factor(growth_quantities[i], units, h);
+      jg__report_growth_row(th, g, ik, iz, units, h, row);
       jg_status st = jg_table_write_row(f, row, n_columns, columns, err);
       if (st != JG_OK) return st;
     }
   }
   return JG_OK;
+}
+
+void jg__report_growth_row(const jg_thermal *th, const jg_growth_grid *g, int ik, int iz,
+                           jg_output_units units, double h, double *row) {
+  const double large = g->limit[iz].k0.b_over_c;
+  const jg_perturb_point *pt = jg_growth_grid_at(g, ik, iz);
+  const double values[N_GROWTH_COLUMNS] = {pt->z,        pt->k,        pt->delta_c,
+                                           pt->delta_b,  pt->delta_m,  pt->delta_T,
+                                           pt->b_over_c, pt->delta_b / pt->delta_m,
+                                           pt->b_over_c / large,
+                                           pt->growth_c, pt->growth_b, pt->growth_m,
+                                           jg_validity_growth_flags(th, pt->z, pt->k, large),
+                                           g->has_reference ? g->D_ref[iz] : 0.0,
+                                           g->has_reference ? g->f_ref[iz] : 0.0};
+  for (int i = 0; i < N_GROWTH_COLUMNS; i++)
+    row[i] = values[i] * unit_factor(growth_quantities[i], table_units(units), h);
 }
