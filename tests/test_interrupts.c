@@ -420,7 +420,7 @@ Test(special_outputs, a_symbolic_link_is_followed_and_kept) {
  * there (it would land in /dev), a full device is reported with its
  * reason (not "Success"), and --resume, which needs a checkpoint, is
  * refused. */
-#define SMALL_SCAN "scan", REFERENCE, "--vary", "cosmology.hubble_h=[0.6,0.7]", \
+#define SMALL_SCAN "scan", REFERENCE, "--no-figures", "--vary", "cosmology.hubble_h=[0.6,0.7]", \
     "--set=thermal.grid_points=1000", "--set=output.redshifts=[1000.0, 10.0]"
 
 Test(special_outputs, a_scan_keeps_no_checkpoint_beside_a_device) {

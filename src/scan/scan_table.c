@@ -243,7 +243,7 @@ static jg_status read_part(part_file *p, const char *path, jg_error *err) {
   st = jg_table_read_header(p->f, path, &lines, &n_lines, err);
   if (st != JG_OK) return st;
   long long expected_failures = -1;
-  int in_failures = 0, redshifts = 0;
+  int in_failures = 0, rows = 0;
   for (int k = 0; st == JG_OK && k + 1 < n_lines; k++) { /* the last is the column line */
     const char *line = lines[k];
     if (strncmp(line, "# " PART_PREFIX, strlen("# " PART_PREFIX)) == 0) {
@@ -255,8 +255,13 @@ static jg_status read_part(part_file *p, const char *path, jg_error *err) {
     if (strncmp(line, "# scan fingerprint: ", 20) == 0)
       snprintf(p->fingerprint, sizeof p->fingerprint, "%.16s", line + 20);
     if (strncmp(line, "# scan grid: ", 13) == 0) {
+      /* Rows per point, as the grid line states them (scan_header_lines). */
       const char *per = strstr(line, "), ");
-      if (per) redshifts = atoi(per + 3);
+      int n_z = 0, n_k = 0;
+      if (per && strncmp(per + 3, "one row per point", 17) == 0) rows = 1;
+      else if (per && sscanf(per + 3, "%d redshifts x %d wavenumbers", &n_z, &n_k) == 2)
+        rows = n_z * n_k;
+      else if (per) rows = atoi(per + 3);
     }
     if (strncmp(line, FAILED_COUNT_PREFIX, strlen(FAILED_COUNT_PREFIX)) == 0) {
       expected_failures = atoll(line + strlen(FAILED_COUNT_PREFIX));
@@ -292,11 +297,11 @@ static jg_status read_part(part_file *p, const char *path, jg_error *err) {
     return JG_FAIL(err, JG_EINVAL, "%s: lists %d failed points where its header announces %lld",
                    path, p->n_failures, expected_failures);
   long long points = p->last - p->first + 1;
-  if (redshifts > 0 && p->data_lines != (points - p->n_failures) * redshifts)
+  if (rows > 0 && p->data_lines != (points - p->n_failures) * rows)
     return JG_FAIL(err, JG_EINVAL, "%s: holds %lld rows where its %lld points (%d failed) with "
-                   "%d redshifts each make %lld; the file is incomplete or was edited", path,
-                   p->data_lines, points, p->n_failures, redshifts,
-                   (points - p->n_failures) * redshifts);
+                   "%d %s each make %lld; the file is incomplete or was edited", path,
+                   p->data_lines, points, p->n_failures, rows, rows == 1 ? "row" : "rows",
+                   (points - p->n_failures) * rows);
   if (fseeko(p->f, body, SEEK_SET) != 0)
     return JG_FAIL(err, JG_EIO, "%s: cannot read (%s)", path, strerror(errno));
   return JG_OK;
