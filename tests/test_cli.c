@@ -927,3 +927,102 @@ Test(good_runs, scales_header_claims_no_order_of_the_filtering_scales_its_rows_b
     run_free(&r);
   }
 }
+
+/* The flags (include/jeansgrow/validity.h) appear exactly where their rules
+ * put them. Reference cosmology: the k -> 0 delta_b/delta_c is below 0.1 at
+ * z = 1000 and above it from z = 500 on (this program's scales table:
+ * 0.0073 and 0.17); the thermal model holds down to z = 20; the fluid
+ * limit: hydrogen atoms as hard spheres of the Bohr radius, sigma =
+ * 4 pi a_0^2 = 3.52e-20 m^2 (a_0 = 5.29177e-11 m, CODATA 2018), mean free
+ * path 1/(n_H sigma) with n_H(z) = n_H0 (1+z)^3, a wavelength of at least
+ * ten of them: k_max = 2 pi n_H0 (1+z)^2 sigma / 10 comoving, about
+ * 1.6e4 /Mpc at z = 10 and 180 /Mpc at z = 0 for n_H0 = 0.19 /m^3. */
+Test(good_runs, validity_flags_mark_exactly_the_rows_their_rules_name, .timeout = 120) {
+  const char *s_args[] = {"scales", REFERENCE, "--set", "output.redshifts=[1000.0, 500.0, 20.0, 10.0]",
+                          NULL};
+  run_result r;
+  run(s_args, &r);
+  cr_assert(exited_with(&r, 0), "%s", r.err);
+  table t;
+  parse_table(r.out, &t);
+  const int flags = column_index(&t, "flags"), large = column_index(&t, "b_over_c_large");
+  cr_assert(flags >= 0 && large >= 0, "no flags or b_over_c_large column");
+  cr_expect(strstr(t.header, "# flags: 0 inside the stated validity") != NULL);
+  cr_expect(strstr(t.header, "# validity: the thermal history (no heating, no reionisation) "
+                             "holds for z >= 20;") != NULL, "%s", t.header);
+  const double expected[] = {1, 0, 0, 2};
+  for (int i = 0; i < 4; i++)
+    cr_expect_eq(cell(&t, i, flags), expected[i], "z = %g: flags %g (b/c large %g)",
+                 cell(&t, i, 0), cell(&t, i, flags), cell(&t, i, large));
+  cr_expect(cell(&t, 0, large) < 0.1 && cell(&t, 1, large) > 0.1, "the rule's premise moved");
+  table_free(&t);
+  run_free(&r);
+
+  const char *g_args[] = {"growth", REFERENCE, "--set", "output.redshifts=[100.0, 10.0, 0.0]",
+                          "--set", "perturbations.k_values=[100.0, 1000.0, 10000.0, 30000.0]", NULL};
+  run(g_args, &r);
+  cr_assert(exited_with(&r, 0), "%s", r.err);
+  parse_table(r.out, &t);
+  const int gf = column_index(&t, "flags");
+  cr_assert(gf >= 0);
+  /* z = 100: nothing; z = 10: below the thermal model (2), and 3e4 /Mpc
+   * beyond the fluid limit (4); z = 0: 2, and every k from 1000 on is
+   * beyond the fluid limit (~180 /Mpc there), 100 /Mpc not. */
+  const double g_expected[] = {0, 0, 0, 0, 2, 2, 2, 6, 2, 6, 6, 6};
+  cr_assert_eq(t.n_rows, 12);
+  for (int i = 0; i < 12; i++)
+    cr_expect_eq(cell(&t, i, gf), g_expected[i], "z = %g, k = %g: flags %g, expected %g",
+                 cell(&t, i, 0), cell(&t, i, 1), cell(&t, i, gf), g_expected[i]);
+  table_free(&t);
+  run_free(&r);
+}
+
+/* The run summary quotes every mass in one radius convention and says
+ * which: by default pi/k (its M_F is the table's M_F_halfwave, its M_J the
+ * table's M_J); with output.mass_radius = "full_wavelength" 2 pi/k (M_F is
+ * the table's M_F, M_J and M_half eight times the table's). Flag legends
+ * appear for the flags present. */
+Test(good_runs, run_summary_speaks_one_mass_convention_and_explains_its_flags, .timeout = 120) {
+  for (int full = 0; full < 2; full++) {
+    char dir[64];
+    make_temp_dir(dir, sizeof dir);
+    const char *args[] = {"run", REFERENCE, "--no-figures", "--set", "perturbations.k_count=8",
+                          "--set", "output.redshifts=[1000.0, 100.0, 10.0]", "--set",
+                          full ? "output.mass_radius=\"full_wavelength\""
+                               : "output.mass_radius=\"half_wavelength\"",
+                          "-o", dir, NULL};
+    run_result r;
+    run(args, &r);
+    cr_assert(exited_with(&r, 0), "%s", r.err);
+    cr_expect(strstr(r.out, full ? "with R = 2 pi/k, the full wavelength (output.mass_radius = "
+                                   "\"full_wavelength\")"
+                                 : "with R = pi/k, half the wavelength (output.mass_radius = "
+                                   "\"half_wavelength\")") != NULL, "%s", r.out);
+    cr_expect(strstr(r.out, "flags 1: the gas has barely started") != NULL, "%s", r.out);
+    cr_expect(strstr(r.out, "flags 2: below z = 20") != NULL, "%s", r.out);
+    cr_expect(strstr(r.out, "flags 4:") == NULL, "%s", r.out);
+    char path[128];
+    snprintf(path, sizeof path, "%s/scales.txt", dir);
+    char *text = read_text(path);
+    cr_assert_not_null(text);
+    table t;
+    parse_table(text, &t);
+    /* The z = 100 line of the summary: z, T_gas, k_J, M_J, k_F, M_F, k_half, M_half, flags. */
+    const char *line = strstr(r.out, "\n     100.0 ");
+    cr_assert_not_null(line, "%s", r.out);
+    double z, T, kJ, MJ, kF, MF, kh, Mh;
+    int fl;
+    cr_assert_eq(sscanf(line, " %lf %lf %lf %lf %lf %lf %lf %lf %d", &z, &T, &kJ, &MJ, &kF, &MF,
+                        &kh, &Mh, &fl), 9, "%s", line);
+    const double factor = full ? 8.0 : 1.0;
+    assert_rel(MJ, factor * cell(&t, 1, column_index(&t, "M_J[Msun]")), 1e-3, "M_J");
+    assert_rel(MF, cell(&t, 1, column_index(&t, full ? "M_F[Msun]" : "M_F_halfwave[Msun]")), 1e-3,
+               "M_F");
+    assert_rel(Mh, factor * cell(&t, 1, column_index(&t, "M_half[Msun]")), 1e-3, "M_half");
+    cr_expect_eq(fl, 0);
+    table_free(&t);
+    free(text);
+    run_free(&r);
+    remove_dir(dir);
+  }
+}
