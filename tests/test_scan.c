@@ -1413,6 +1413,16 @@ static size_t fields_text(const char *line, int from, int count, const char **st
   return (size_t)(end - *start);
 }
 
+/* Run a scan (or any command writing `out`) that must succeed; its table. */
+static char *table_of_run(const char *dir, const char *const *args, const char *out) {
+  outcome o = run_program(dir, args);
+  cr_assert_eq(exit_code(&o), 0, "%s: %s", args[1], o.err);
+  free(o.err);
+  char *text = read_text(out);
+  cr_assert_not_null(text, "%s wrote no %s", args[1], out);
+  return text;
+}
+
 /* Every row of the single runs `singles[i]` (the command `single`, with
  * `--set sets[i]`) must appear, in order, among the scan rows whose first
  * column is point_values[i]: the scan's fields from scan_from compared
@@ -1434,11 +1444,7 @@ static void expect_scan_is_single_runs(const char *dir, const char *scan_text, c
     args[a++] = "-o";
     args[a++] = out;
     args[a] = NULL;
-    outcome o = run_program(dir, args);
-    cr_assert_eq(exit_code(&o), 0, "%s %s: %s", single, sets[i], o.err);
-    free(o.err);
-    char *text = read_text(out);
-    cr_assert_not_null(text);
+    char *text = table_of_run(dir, args, out);
     const int m = data_lines(text, single_lines, 4096);
     cr_assert_eq(m, rows_per_point, "%s %s: %d rows", single, sets[i], m);
     for (int r = 0; r < m; r++) {
@@ -1468,12 +1474,8 @@ Test(scan, growth_scan_equals_growth_runs_point_by_point, .timeout = 120) {
   const char *args[] = {JG_PROGRAM, "scan", REFERENCE, "--no-figures", "--table", "growth",
                         "--vary", "cosmology.baryon_density_h2=[0.018, 0.03]",
                         GROWTH_SCAN_SETTINGS, "-o", out, NULL};
-  outcome o = run_program(dir, args);
-  cr_assert_eq(exit_code(&o), 0, "%s", o.err);
-  cr_assert(strstr(o.err, "2 points x 6 rows"), "%s", o.err);
-  free(o.err);
-  char *text = read_text(out);
-  cr_assert_not_null(text);
+  char *text = table_of_run(dir, args, out);
+  cr_assert_eq(count_data_rows(text), 2 * 6);
   cr_assert(strstr(text, "\n# cosmology.baryon_density_h2\tz\tz_star\tz_drag\tz_gas_decoupling\t"
                          "k[1/Mpc]\tdelta_c\t"), "column line missing");
   const char *sets[] = {"cosmology.baryon_density_h2=0.018", "cosmology.baryon_density_h2=0.03"};
@@ -1494,11 +1496,7 @@ Test(scan, sound_speed_scan_equals_the_three_single_runs, .timeout = 120) {
                         "perturbations.sound_speed=[fluctuating, \"isothermal\", adiabatic]",
                         "--set", COARSE, "--set", "output.redshifts=[500.0, 20.0]", "-o", out,
                         NULL};
-  outcome o = run_program(dir, args);
-  cr_assert_eq(exit_code(&o), 0, "%s", o.err);
-  free(o.err);
-  char *text = read_text(out);
-  cr_assert_not_null(text);
+  char *text = table_of_run(dir, args, out);
   cr_expect(strstr(text, "# scan vary: perturbations.sound_speed = [fluctuating, isothermal, "
                          "adiabatic]\n"), "vary line");
   cr_expect(strstr(text, "# scan words: the column perturbations.sound_speed holds 0 = "
@@ -1524,16 +1522,9 @@ Test(scan, epochs_scan_row_is_the_epochs_table) {
   path_in(single, sizeof single, dir, "epochs.txt");
   const char *args[] = {JG_PROGRAM, "scan", REFERENCE, "--no-figures", "--table", "epochs",
                         "--vary", "cosmology.hubble_h=[0.7]", "-o", out, NULL};
-  outcome o = run_program(dir, args);
-  cr_assert_eq(exit_code(&o), 0, "%s", o.err);
-  free(o.err);
   const char *e_args[] = {JG_PROGRAM, "epochs", REFERENCE, "--set", "cosmology.hubble_h=0.7",
                           "-o", single, NULL};
-  o = run_program(dir, e_args);
-  cr_assert_eq(exit_code(&o), 0, "%s", o.err);
-  free(o.err);
-  char *scan_text = read_text(out), *epochs = read_text(single);
-  cr_assert(scan_text && epochs);
+  char *scan_text = table_of_run(dir, args, out), *epochs = table_of_run(dir, e_args, single);
   table t;
   parse_table(scan_text, &t);
   cr_assert_eq(t.n_rows, 1);
@@ -1571,12 +1562,7 @@ Test(scan, growth_scan_of_a_word_key_is_the_same_on_threads_slices_and_ranks, .t
   path_in(merged, sizeof merged, dir, "merged.txt");
   const char *a1[] = {GROWTH_WORD_ARGS(f1), "--threads", "1", NULL};
   const char *a2[] = {GROWTH_WORD_ARGS(f2), "--threads", "2", NULL};
-  outcome o1 = run_program(dir, a1), o2 = run_program(dir, a2);
-  cr_assert_eq(exit_code(&o1), 0, "%s", o1.err);
-  cr_assert_eq(exit_code(&o2), 0, "%s", o2.err);
-  free(o1.err), free(o2.err);
-  char *t1 = read_text(f1), *t2 = read_text(f2);
-  cr_assert(t1 && t2);
+  char *t1 = table_of_run(dir, a1, f1), *t2 = table_of_run(dir, a2, f2);
   cr_assert_str_eq(t1, t2);
   cr_assert_eq(count_data_rows(t1), 6 * 2 * 3);
   for (int i = 0; i < 2; i++) {
@@ -1585,16 +1571,10 @@ Test(scan, growth_scan_of_a_word_key_is_the_same_on_threads_slices_and_ranks, .t
     snprintf(part, sizeof part, "%d/2", i + 1);
     path_in(parts[i], sizeof parts[i], dir, name);
     const char *a_part[] = {GROWTH_WORD_ARGS(parts[i]), "--part", part, NULL};
-    outcome o = run_program(dir, a_part);
-    cr_assert_eq(exit_code(&o), 0, "%s", o.err);
-    free(o.err);
+    free(table_of_run(dir, a_part, parts[i]));
   }
   const char *a_merge[] = {JG_PROGRAM, "merge", merged, parts[1], parts[0], NULL};
-  outcome o = run_program(dir, a_merge);
-  cr_assert_eq(exit_code(&o), 0, "%s", o.err);
-  free(o.err);
-  char *tm = read_text(merged);
-  cr_assert_not_null(tm);
+  char *tm = table_of_run(dir, a_merge, merged);
   cr_assert_str_eq(tm, t1);
   free(tm);
 #ifdef JG_TEST_MPIEXEC
@@ -1602,11 +1582,7 @@ Test(scan, growth_scan_of_a_word_key_is_the_same_on_threads_slices_and_ranks, .t
   mpi_test_folder(mdir, sizeof mdir);
   path_in(fm, sizeof fm, mdir, "mpi.txt");
   const char *am[] = {JG_TEST_MPIEXEC, JG_TEST_MPI_NP_FLAG, "2", GROWTH_WORD_ARGS(fm), NULL};
-  o = run_program(mdir, am);
-  cr_assert_eq(exit_code(&o), 0, "mpirun: %s", o.err);
-  free(o.err);
-  char *tmpi = read_text(fm);
-  cr_assert_not_null(tmpi);
+  char *tmpi = table_of_run(mdir, am, fm);
   cr_assert_str_eq(tmpi, t1);
   free(tmpi);
   remove_dir(mdir);

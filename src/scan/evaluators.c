@@ -153,20 +153,25 @@ static jg_status scales_evaluate(const jg_params *p, double *point_values,
 
 static const jg_output_units units_mpc = JG_UNITS_MPC, units_mpc_h = JG_UNITS_MPC_H;
 
-/* The report module owns the names and conventions. */
-static const jg_scan_evaluator scales_evaluators[] = {
-    [JG_UNITS_MPC] = {"scales (epochs; Jeans, filtering and half-suppression scales as jeansgrow "
-                      "scales)",
-                      JG_SCAN_THERMAL_POINT_COLUMNS, thermal_point_columns,
-                      SCALES_REDSHIFT_COLUMNS, jg__report_scales_columns[JG_UNITS_MPC] + 1,
-                      jg__report_scan_scales_conventions[JG_UNITS_MPC], NULL, NULL,
-                      scales_evaluate, &units_mpc, JG_SCAN_ROWS_REDSHIFT},
-    [JG_UNITS_MPC_H] = {"scales (epochs; Jeans, filtering and half-suppression scales as "
-                        "jeansgrow scales), in h units",
-                        JG_SCAN_THERMAL_POINT_COLUMNS, thermal_point_columns,
-                        SCALES_REDSHIFT_COLUMNS, jg__report_scales_columns[JG_UNITS_MPC_H] + 1,
-                        jg__report_scan_scales_conventions[JG_UNITS_MPC_H], NULL, NULL,
-                        scales_evaluate, &units_mpc_h, JG_SCAN_ROWS_REDSHIFT}};
+/* The pair of evaluators of one table, in 1/Mpc and in h units (both names
+ * enter the fingerprint); POINTS, ROWS and CONVENTIONS are macros of the
+ * units index. The report module owns the names and conventions. */
+#define UNITS_EVALUATORS(label, label_h, n_points, POINTS, n_rows, ROWS, CONVENTIONS, evaluate, \
+                         rows)                                                                 \
+  {[JG_UNITS_MPC] = {label, n_points, POINTS(JG_UNITS_MPC), n_rows, ROWS(JG_UNITS_MPC),         \
+                     CONVENTIONS(JG_UNITS_MPC), NULL, NULL, evaluate, &units_mpc, rows},       \
+   [JG_UNITS_MPC_H] = {label_h, n_points, POINTS(JG_UNITS_MPC_H), n_rows, ROWS(JG_UNITS_MPC_H), \
+                       CONVENTIONS(JG_UNITS_MPC_H), NULL, NULL, evaluate, &units_mpc_h, rows}}
+#define EPOCH_POINTS(u) thermal_point_columns
+#define SCALES_ROWS(u) (jg__report_scales_columns[u] + 1)
+#define SCALES_CONVENTIONS(u) jg__report_scan_scales_conventions[u]
+
+static const jg_scan_evaluator scales_evaluators[] = UNITS_EVALUATORS(
+    "scales (epochs; Jeans, filtering and half-suppression scales as jeansgrow scales)",
+    "scales (epochs; Jeans, filtering and half-suppression scales as jeansgrow scales), in h "
+    "units",
+    JG_SCAN_THERMAL_POINT_COLUMNS, EPOCH_POINTS, SCALES_REDSHIFT_COLUMNS, SCALES_ROWS,
+    SCALES_CONVENTIONS, scales_evaluate, JG_SCAN_ROWS_REDSHIFT);
 
 const jg_scan_evaluator *jg_scan_evaluator_scales(jg_output_units units) {
   return &scales_evaluators[units == JG_UNITS_MPC_H ? JG_UNITS_MPC_H : JG_UNITS_MPC];
@@ -207,19 +212,13 @@ static jg_status growth_evaluate(const jg_params *p, double *point_values,
   return st;
 }
 
-static const jg_scan_evaluator growth_evaluators[] = {
-    [JG_UNITS_MPC] = {"growth (epochs; the growth table by redshift and wavenumber)",
-                      JG_SCAN_THERMAL_POINT_COLUMNS, thermal_point_columns,
-                      JG__REPORT_GROWTH_SCAN_COLUMNS, jg__report_growth_columns[JG_UNITS_MPC] + 1,
-                      jg__report_scan_growth_conventions[JG_UNITS_MPC], NULL, NULL,
-                      growth_evaluate, &units_mpc, JG_SCAN_ROWS_WAVENUMBER},
-    [JG_UNITS_MPC_H] = {"growth (epochs; the growth table by redshift and wavenumber), in h "
-                        "units",
-                        JG_SCAN_THERMAL_POINT_COLUMNS, thermal_point_columns,
-                        JG__REPORT_GROWTH_SCAN_COLUMNS,
-                        jg__report_growth_columns[JG_UNITS_MPC_H] + 1,
-                        jg__report_scan_growth_conventions[JG_UNITS_MPC_H], NULL, NULL,
-                        growth_evaluate, &units_mpc_h, JG_SCAN_ROWS_WAVENUMBER}};
+#define GROWTH_ROWS(u) (jg__report_growth_columns[u] + 1)
+#define GROWTH_CONVENTIONS(u) jg__report_scan_growth_conventions[u]
+static const jg_scan_evaluator growth_evaluators[] = UNITS_EVALUATORS(
+    "growth (epochs; the growth table by redshift and wavenumber)",
+    "growth (epochs; the growth table by redshift and wavenumber), in h units",
+    JG_SCAN_THERMAL_POINT_COLUMNS, EPOCH_POINTS, JG__REPORT_GROWTH_SCAN_COLUMNS, GROWTH_ROWS,
+    GROWTH_CONVENTIONS, growth_evaluate, JG_SCAN_ROWS_WAVENUMBER);
 
 const jg_scan_evaluator *jg_scan_evaluator_growth(jg_output_units units) {
   return &growth_evaluators[units == JG_UNITS_MPC_H ? JG_UNITS_MPC_H : JG_UNITS_MPC];
@@ -264,14 +263,13 @@ static jg_status epochs_evaluate(const jg_params *p, double *point_values,
   return st;
 }
 
-static const jg_scan_evaluator epochs_evaluators[] = {
-    [JG_UNITS_MPC] = {"epochs (the epochs table, one row per point)", JG_EPOCH_COUNT,
-                      epochs_columns[JG_UNITS_MPC], 0, NULL, epochs_conventions, NULL, NULL,
-                      epochs_evaluate, &units_mpc, JG_SCAN_ROWS_POINT},
-    [JG_UNITS_MPC_H] = {"epochs (the epochs table, one row per point), in h units",
-                        JG_EPOCH_COUNT, epochs_columns[JG_UNITS_MPC_H], 0, NULL,
-                        epochs_conventions, NULL, NULL, epochs_evaluate, &units_mpc_h,
-                        JG_SCAN_ROWS_POINT}};
+#define EPOCHS_POINTS(u) epochs_columns[u]
+#define NO_ROWS(u) NULL
+#define EPOCHS_CONVENTIONS(u) epochs_conventions
+static const jg_scan_evaluator epochs_evaluators[] = UNITS_EVALUATORS(
+    "epochs (the epochs table, one row per point)",
+    "epochs (the epochs table, one row per point), in h units", JG_EPOCH_COUNT, EPOCHS_POINTS, 0,
+    NO_ROWS, EPOCHS_CONVENTIONS, epochs_evaluate, JG_SCAN_ROWS_POINT);
 
 const jg_scan_evaluator *jg_scan_evaluator_epochs(jg_output_units units) {
   return &epochs_evaluators[units == JG_UNITS_MPC_H ? JG_UNITS_MPC_H : JG_UNITS_MPC];
