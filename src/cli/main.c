@@ -45,14 +45,16 @@ static const cli_command commands[] = {
      NULL, 0, cmd_keys},
     {"scan", "One table over a grid of parameter values, on threads, MPI ranks or job slices",
      "PARAMFILE --vary KEY=FROM:TO:N[:log] [--vary ...] [--set KEY=VALUE]... [--threads N]\n"
-     "       [--part I/N] [--resume] [-o FILE]",
+     "       [--table scales|growth|epochs] [--part I/N] [--resume] [--no-figures] [-o FILE]",
      "One row per grid point and output redshift: the varied values, z, z_star, z_drag,\n"
      "z_gas_decoupling (-1 where that universe has no such epoch), then every column\n"
      "of `jeansgrow scales` at that redshift\n"
      "(T_gas[K], x_e, k_J[1/Mpc], M_J[Msun], k_F[1/Mpc], M_F[Msun], k_half[1/Mpc], ...;\n"
      "h/Mpc and Msun/h with output.units = \"Mpc/h\", each point with its own h).\n"
-     "The grid may instead come from the scan.vary list of PARAMFILE. Under mpirun the\n"
-     "ranks share the points; the file is the same whatever the threads or ranks.",
+     "--table growth writes the growth table's columns per redshift and wavenumber,\n"
+     "--table epochs one row of epochs per point. The grid may instead come from the\n"
+     "scan.vary list of PARAMFILE. Under mpirun the ranks share the points; the file is\n"
+     "the same whatever the threads or ranks. Figures of the table are drawn beside it.",
      1, cmd_scan},
     {"plot", "Draw the figures of a run folder or of one table (a scan's too) with gnuplot",
      "DIR|TABLE",
