@@ -800,7 +800,6 @@ Test(scan, program_on_two_mpi_ranks_writes_the_single_process_file) {
 #endif
 }
 
-#ifdef JG_TEST_MPIEXEC
 /* Lines in a file (0 if missing). */
 static int count_lines(const char *path) {
   char *t = read_text(path);
@@ -809,6 +808,8 @@ static int count_lines(const char *path) {
   free(t);
   return n;
 }
+
+#ifdef JG_TEST_MPIEXEC
 
 /* The pid of the process whose command line mentions `word` and whose
  * environment says it is MPI rank `rank`, or 0. */
@@ -1589,4 +1590,38 @@ Test(scan, growth_scan_of_a_word_key_is_the_same_on_threads_slices_and_ranks, .t
 #endif
   free(t1), free(t2);
   remove_dir(dir);
+}
+
+/* Killed (SIGKILL) once its checkpoint holds a few points, a growth scan of
+ * a word key resumed with --resume writes the bytes of an uninterrupted
+ * run. */
+Test(scan, growth_scan_of_a_word_key_killed_then_resumed_writes_the_same_file, .timeout = 240) {
+  char dir[64], ref[128], out[128], ck[160];
+  make_dir(dir, sizeof dir);
+  path_in(ref, sizeof ref, dir, "reference.txt");
+  path_in(out, sizeof out, dir, "resumed.txt");
+  snprintf(ck, sizeof ck, "%s.checkpoint", out);
+#define RESUME_ARGS(o)                                                                        \
+  JG_PROGRAM, "scan", REFERENCE, "--no-figures", "--table", "growth", "--vary",                \
+      "perturbations.sound_speed=[isothermal, fluctuating]", "--vary",                         \
+      "cosmology.baryon_density_h2=0.015:0.03:12", GROWTH_SCAN_SETTINGS, "--threads", "1",     \
+      "-o", o
+  const char *a_ref[] = {RESUME_ARGS(ref), NULL};
+  char *t_ref = table_of_run(dir, a_ref, ref);
+  const char *a_run[] = {RESUME_ARGS(out), NULL};
+  pid_t pid = start(dir, a_run);
+  const double t0 = seconds_now();
+  /* The header line and at least three points recorded. */
+  while (count_lines(ck) < 4 && seconds_now() - t0 < 120) usleep(2000);
+  kill(pid, SIGKILL);
+  outcome o = finish(dir, pid);
+  free(o.err);
+  cr_assert(!exists(out), "the run finished before it was killed: make the grid larger");
+  const char *a_resume[] = {RESUME_ARGS(out), "--resume", NULL};
+  char *t_out = table_of_run(dir, a_resume, out);
+  cr_assert_str_eq(t_out, t_ref);
+  cr_assert(!exists(ck), "the checkpoint must go after success");
+  free(t_ref), free(t_out);
+  remove_dir(dir);
+#undef RESUME_ARGS
 }
