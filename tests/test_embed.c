@@ -220,7 +220,7 @@ Test(null_error, results) {
                                       NULL),
                JG_OK);
   g->points[0].delta_b = NAN;
-  cr_assert_neq(jg_report_growth(sink, &s.p, g, NULL), JG_OK);
+  cr_assert_neq(jg_report_growth(sink, &s.p, s.th, g, NULL), JG_OK);
   jg_growth_grid_free(g);
   fclose(sink);
 
@@ -268,10 +268,10 @@ Test(null_error, scan) {
   p.output.n_redshifts = 1;
   p.output.redshifts[0] = 20.0;
   cr_assert_eq(jg_scan_grid_parse(&g, "cosmology.hubble_h=[0.6, 0.7]", NULL, NULL), JG_OK);
-  jg_scan_grid words = {.n_axes = 1};
-  snprintf(words.axes[0].key, JG_SCAN_KEY_SIZE, "output.units"); /* not a number key */
-  words.axes[0].count = 1;
-  cr_assert_neq(jg_scan_grid_apply(&words, 0, &p, NULL), JG_OK);
+  jg_scan_grid unknown = {.n_axes = 1};
+  snprintf(unknown.axes[0].key, JG_SCAN_KEY_SIZE, "output.no_such_key");
+  unknown.axes[0].count = 1;
+  cr_assert_neq(jg_scan_grid_apply(&unknown, 0, &p, NULL), JG_OK);
   jg_scan *s = NULL;
   const jg_scan_evaluator *ev = jg_scan_evaluator_thermal();
   cr_assert_neq(jg_scan_new(&p, &g, ev, 3, 2, &s, NULL), JG_OK);

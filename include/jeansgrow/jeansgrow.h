@@ -28,6 +28,7 @@
 #include "jeansgrow/table.h"
 #include "jeansgrow/thermal.h"
 #include "jeansgrow/universe.h"
+#include "jeansgrow/validity.h"
 #include "jeansgrow/version.h"
 
 #endif

@@ -104,7 +104,7 @@ static jg_status write_scales(const jg_perturb_model *m, jg_perturb_workspace *w
 }
 
 static jg_status write_growth(const jg_perturb_model *m, jg_perturb_workspace *w,
-                              const jg_params *p, FILE *f, jg_error *err) {
+                              const jg_params *p, const jg_thermal *th, FILE *f, jg_error *err) {
   double *k = malloc(sizeof(double) * JG_MAX_WAVENUMBERS);
   int n_k = 0;
   jg_growth_grid *g = NULL;
@@ -113,7 +113,7 @@ static jg_status write_growth(const jg_perturb_model *m, jg_perturb_workspace *w
   if (st == JG_OK)
     st = jg_growth_grid_compute(m, w, k, n_k, p->output.redshifts, p->output.n_redshifts, &g,
                                 err);
-  if (st == JG_OK) st = jg_report_growth(f, p, g, err);
+  if (st == JG_OK) st = jg_report_growth(f, p, th, g, err);
   jg_growth_grid_free(g);
   free(k);
   return st;
@@ -145,7 +145,7 @@ jg_status jg_universe_write(jg_universe *u, jg_table_kind kind, const double *z,
       jg_perturb_workspace *w = m ? jg_perturb_workspace_new(m, err) : NULL;
       if (!w) st = m ? JG_ENOMEM : u->model_error.status;
       else if (kind == JG_TABLE_SCALES) st = write_scales(m, w, p, u->th, f, err);
-      else st = write_growth(m, w, p, f, err);
+      else st = write_growth(m, w, p, u->th, f, err);
       jg_perturb_workspace_free(w);
       break;
     }
