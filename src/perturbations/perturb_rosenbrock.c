@@ -89,7 +89,9 @@ static double fastest_rate(const jg_perturb_model *m, const jg_medium_coefficien
                            double k2) {
   double damping = fabs(2.0 + c->dlnH_dlna) + c->drag;
   double sound = sqrt(c->pressure * k2 * (m->fluctuating ? 5.0 / 3.0 : m->gamma));
-  return fmax(fmax(damping, m->fluctuating ? c->relaxation : 0.0), sound + c->gravity);
+  const double relaxation = m->fluctuating ? c->relaxation : 0.0;
+  const double relaxing = damping > relaxation ? damping : relaxation;
+  return relaxing > sound + c->gravity ? relaxing : sound + c->gravity;
 }
 
 /* Step cap in ln a: at most 0.05, so that the tabulated coefficients' sharpest
@@ -126,6 +128,10 @@ typedef struct ros_run {
   const int *order;    /* the n-th output is z[order[n]] */
   void *out[PT_ROS_MAX_MODES]; /* each mode's results, indexed like z */
   int undefined_output; /* the medium could not be read at an output */
+  /* A at zero coefficients (the constant part of the affine A) per mode, for
+   * the baryon fraction zero_fb (NaN: not yet built). */
+  double zero_fb;
+  double A_zero[PT_ROS_MAX_MODES * PT_ROS_MAX_DIM * PT_ROS_MAX_DIM];
 } ros_run;
 
 /* Coefficients at x and, if dc, their slope: exact for the tabulated
@@ -161,19 +167,25 @@ static int ros_matrices(void *ctx, double x, double *A, double *dA, double *rate
   double fastest = 0.0;
   for (int b = 0; b < r->n_modes; b++) {
     r->type->matrix(m, &c, r->k2[b], A + (size_t)b * nn);
-    fastest = fmax(fastest, fastest_rate(m, &c, r->k2[b]));
+    const double rate_b = fastest_rate(m, &c, r->k2[b]);
+    if (rate_b > fastest) fastest = rate_b;
   }
   *rate = fastest;
   if (dA) {
-    /* A is affine in the coefficients: dA/dx = A(c') - A(0). */
-    jg_medium_coefficients zero = {0};
-    zero.baryon_fraction = c.baryon_fraction;
-    double A_zero[PT_ROS_MAX_DIM * PT_ROS_MAX_DIM];
+    /* A is affine in the coefficients: dA/dx = A(c') - A(0). A(0) depends on
+     * k and the baryon fraction alone: built once per solve. */
+    if (!(c.baryon_fraction == r->zero_fb)) {
+      jg_medium_coefficients zero = {0};
+      zero.baryon_fraction = c.baryon_fraction;
+      for (int b = 0; b < r->n_modes; b++)
+        r->type->matrix(m, &zero, r->k2[b], r->A_zero + (size_t)b * nn);
+      r->zero_fb = c.baryon_fraction;
+    }
     for (int b = 0; b < r->n_modes; b++) {
       double *d = dA + (size_t)b * nn;
+      const double *d0 = r->A_zero + (size_t)b * nn;
       r->type->matrix(m, &dc, r->k2[b], d);
-      r->type->matrix(m, &zero, r->k2[b], A_zero);
-      for (int i = 0; i < nn; i++) d[i] -= A_zero[i];
+      for (int i = 0; i < nn; i++) d[i] -= d0[i];
     }
   }
   return 0;
@@ -214,6 +226,7 @@ static jg_status ros_solve(const jg_perturb_model *m, jg_perturb_workspace *w,
   r.n_modes = n;
   r.z = z;
   r.order = w->order;
+  r.zero_fb = NAN;
   double y[PT_ROS_MAX_MODES * PT_ROS_MAX_DIM];
   for (int b = 0; b < n; b++) {
     jg_status st = JG_OK;

@@ -65,6 +65,11 @@ static const double C61 = 0.8083246795921522e+01, C62 = -0.7981132988064893e+01,
 #define ROS_INLINE static inline
 #endif
 
+/* The larger of two numbers that are not NaN. fmax() is a library call
+ * unless NaN handling is switched off for the whole build: too dear on the
+ * per-step paths. */
+ROS_INLINE double larger(double a, double b) { return a > b ? a : b; }
+
 /* LU with partial pivoting of an n x n row-major matrix; 0 if singular. */
 ROS_INLINE int lu_factor(double *a, int n, int *piv) {
   for (int k = 0; k < n; k++) {
@@ -150,18 +155,21 @@ static int all_finite(const double *v, int len) {
 }
 
 /* The largest |y_i| so far per component, and per group of components
- * (p->group; the absolute tolerance's reference). */
+ * (p->group, numbers 0 .. n - 1; the absolute tolerance's reference). y is
+ * finite here (a non-finite step is rejected before). */
 ROS_INLINE void update_peaks(const pt_ros_problem *p, pt_ros_work *w, const double *y,
                              const int n) {
-  for (int i = 0; i < n * p->n_modes; i++) w->own_peak[i] = fmax(w->own_peak[i], fabs(y[i]));
-  for (int b = 0; b < p->n_modes; b++)
-    for (int i = 0; i < n; i++) {
-      double peak = w->own_peak[b * n + i];
-      if (p->group)
-        for (int j = 0; j < n; j++)
-          if (p->group[j] == p->group[i]) peak = fmax(peak, w->own_peak[b * n + j]);
-      w->peak[b * n + i] = peak;
-    }
+  for (int i = 0; i < n * p->n_modes; i++) w->own_peak[i] = larger(w->own_peak[i], fabs(y[i]));
+  if (!p->group) {
+    memcpy(w->peak, w->own_peak, sizeof(double) * (size_t)(n * p->n_modes));
+    return;
+  }
+  for (int b = 0; b < p->n_modes; b++) {
+    double group_peak[PT_ROS_MAX_DIM] = {0.0};
+    const double *own = w->own_peak + b * n;
+    for (int i = 0; i < n; i++) group_peak[p->group[i]] = larger(group_peak[p->group[i]], own[i]);
+    for (int i = 0; i < n; i++) w->peak[b * n + i] = group_peak[p->group[i]];
+  }
 }
 
 ROS_INLINE int integrate(const pt_ros_problem *p, pt_ros_work *w, double x0, double *y,
@@ -172,6 +180,8 @@ ROS_INLINE int integrate(const pt_ros_problem *p, pt_ros_work *w, double x0, dou
     return PT_ROS_BAD_INPUT;
   for (int i = 0; i < n_out; i++)
     if (!(x_out[i] >= (i ? x_out[i - 1] : x0))) return PT_ROS_BAD_INPUT;
+  for (int i = 0; p->group && i < n; i++)
+    if (p->group[i] < 0 || p->group[i] >= n) return PT_ROS_BAD_INPUT;
 
   double x = x0, rate0 = 0.0, rate1 = 0.0, rate_s = 0.0;
   w->stats.matrix_evals++;
@@ -279,11 +289,13 @@ ROS_INLINE int integrate(const pt_ros_problem *p, pt_ros_work *w, double x0, dou
       double sum = 0.0;
       for (int i = b * n; i < (b + 1) * n; i++) {
         double peak = w->peak[i] > 0.0 ? w->peak[i] : 1.0;
-        double scale = p->rel_tol * fmax(fabs(y[i]), fabs(w->ynew[i])) + p->abs_tol * peak;
+        double scale = p->rel_tol * larger(fabs(y[i]), fabs(w->ynew[i])) + p->abs_tol * peak;
         double e = w->err_est[i] / scale;
         sum += e * e;
       }
-      err = fmax(err, sqrt(sum / n));
+      /* (NaN carried on: the test below rejects it.) */
+      const double mode_err = sqrt(sum / n);
+      if (!(mode_err <= err)) err = mode_err;
     }
     if (!isfinite(err) || !all_finite(w->ynew, len)) {
       w->stats.rejected++;

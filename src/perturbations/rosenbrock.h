@@ -68,7 +68,8 @@ typedef struct pt_ros_problem {
   pt_ros_matrices_fn matrices;
   pt_ros_emit_fn emit;
   void *ctx;
-  const int *group; /* dim entries: the error-scale group of each component (NULL: its own) */
+  const int *group; /* dim entries: the error-scale group of each component, numbered
+                       0 .. dim - 1 (NULL: its own) */
   double rel_tol, abs_tol;
   double h_start; /* first trial step */
   double h_max;   /* no step longer */
