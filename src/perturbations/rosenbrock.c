@@ -47,6 +47,18 @@ static const double C51 = 0.7496443313967647e+01, C52 = -0.1024680431464352e+02,
 static const double C61 = 0.8083246795921522e+01, C62 = -0.7981132988064893e+01,
                     C63 = -0.3152159432874371e+02, C64 = 0.1631930543123136e+02,
                     C65 = -0.6058818238834054e+01;
+/* RODAS's continuous extension of order 3 (Hairer & Wanner's published
+ * code for the method, value from memory, checked by the dense-output tests
+ * in tests/test_integrator.c): y(x_n + t h) = (1 - t) y_n + t (y_n+1 +
+ * (1 - t) (q1 + t q2)), q1 = sum D2j U_j, q2 = sum D3j U_j. Built from the
+ * stages, it inherits their damping of the stiff components, which the
+ * Hermite interpolant from derivatives does not (see rosenbrock.h). */
+static const double E21 = 0.1012623508344586e+02, E22 = -0.7487995877610167e+01,
+                    E23 = -0.3480091861555747e+02, E24 = -0.7992771707568823e+01,
+                    E25 = 0.1025137723295662e+01;
+static const double E31 = -0.6762803392801253e+00, E32 = 0.6087714651680015e+01,
+                    E33 = 0.1643084320892478e+02, E34 = 0.2476722511418386e+02,
+                    E35 = -0.6594389125716872e+01;
 
 /* Step-size control (Hairer & Wanner, section IV.8, common practice): the
  * estimate is O(h^4), so the step scales with err^(-1/4), with a safety
@@ -172,6 +184,27 @@ ROS_INLINE void update_peaks(const pt_ros_problem *p, pt_ros_work *w, const doub
   }
 }
 
+/* Outputs x_out[next ..] inside the stiff step (x, x + h) from the method's
+ * own continuous extension, from the stages (q1 into U[5], q2 into ytmp;
+ * neither is needed any more); returns the next output's index. Kept out of
+ * line: it runs on few steps. */
+static int stiff_outputs(const pt_ros_problem *p, pt_ros_work *w, double x, double h,
+                         const double *y, const double *x_out, int next, int n_out, int len) {
+  double(*U)[PT_ROS_MAX_MODES * PT_ROS_MAX_DIM] = w->U;
+  double *q1 = U[5], *q2 = w->ytmp;
+  for (int i = 0; i < len; i++) {
+    q1[i] = E21 * U[0][i] + E22 * U[1][i] + E23 * U[2][i] + E24 * U[3][i] + E25 * U[4][i];
+    q2[i] = E31 * U[0][i] + E32 * U[1][i] + E33 * U[2][i] + E34 * U[3][i] + E35 * U[4][i];
+  }
+  while (next < n_out && x_out[next] < x + h) {
+    const double t = (x_out[next] - x) / h;
+    for (int i = 0; i < len; i++)
+      w->yout[i] = (1.0 - t) * y[i] + t * (w->ynew[i] + (1.0 - t) * (q1[i] + t * q2[i]));
+    p->emit(p->ctx, next++, w->yout);
+  }
+  return next;
+}
+
 ROS_INLINE int integrate(const pt_ros_problem *p, pt_ros_work *w, double x0, double *y,
                         const double *x_out, int n_out, double *x_fail, const int n) {
   const int modes = p->n_modes, len = n * modes;
@@ -211,8 +244,7 @@ ROS_INLINE int integrate(const pt_ros_problem *p, pt_ros_work *w, double x0, dou
      * stretched to it.) */
     const double sliver = 1e-3 * h;
     if (x_new >= x_end - sliver) x_new = x_end;
-    if (x_out[next] < x_new + sliver && (h * rate0 > PT_ROS_DENSE_LIMIT || x_out[next] >= x_new))
-      x_new = x_out[next], cut = 1;
+    if (x_out[next] < x_new + sliver && x_out[next] >= x_new) x_new = x_out[next], cut = 1;
     h = x_new - x;
     if (!(h > 1e-14 * fmax(1.0, fabs(x)))) {
       *x_fail = x;
@@ -318,8 +350,10 @@ ROS_INLINE int integrate(const pt_ros_problem *p, pt_ros_work *w, double x0, dou
       continue;
     }
 
-    /* Accepted: outputs inside (x, x_new] from the interpolant. */
+    /* Accepted: outputs inside (x, x_new] from an interpolant. */
     w->stats.steps++;
+    if (next < n_out && x_out[next] < x_new && h * rate0 > PT_ROS_DENSE_LIMIT)
+      next = stiff_outputs(p, w, x, h, y, x_out, next, n_out, len);
     if (next < n_out && x_out[next] <= x_new) {
       /* Hermite data: derivatives at both ends (f1 into U1, y''0 into U2,
        * y''1 into U3; the stage values are no longer needed). */
