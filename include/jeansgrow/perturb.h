@@ -44,9 +44,10 @@
  * Objects: a jg_perturb_model (coefficients precomputed once, read-only,
  * share it between threads) and a jg_perturb_workspace per thread (the GSL
  * drivers; allocate once, reuse for every k). Integration (jg_perturb_stepper):
- * GSL msbdf with the analytic Jacobian while the drag and Compton rates make
- * the system stiff, then by default GSL's explicit rk8pd; the requested
- * redshifts are reached by driving the integration to each of them in turn.
+ * by default the library's own Rosenbrock integrator, outputs read off its
+ * interpolants; or GSL msbdf with the analytic Jacobian while the drag and
+ * Compton rates make the system stiff, then GSL's explicit rk8pd, the
+ * requested redshifts reached by driving the integration to each in turn.
  */
 #ifndef JEANSGROW_PERTURB_H
 #define JEANSGROW_PERTURB_H

@@ -28,7 +28,8 @@
  * call. They are tabulated once per model on a uniform grid in ln a (500
  * nodes per e-fold) as natural cubic splines of ln p, ln d, ln r, e and g
  * (GSL cspline, stored as per-interval polynomials so that an evaluation is
- * one index computation, five Horner sums and three exponentials;
+ * one index computation, five Horner sums and three exponentials, those
+ * of the rates' node values stored and the rest a short series;
  * medium_table.c). The model is read-only afterwards; all mutable state
  * (GSL drivers, the Rosenbrock arrays, the current k) lives in the
  * per-thread workspace.

@@ -39,6 +39,7 @@ typedef struct thermal_medium {
   double x0, dx, inv_dx; /* node i at x0 + i dx */
   int n;                 /* nodes */
   double *poly;          /* per interval: N_Q quantities x 4 polynomial coefficients */
+  double *node_rate;     /* per interval: exp of the constant term of ln p, ln d, ln r */
 } thermal_medium;
 
 enum { Q_PRESSURE = 0, Q_DRAG = 1, Q_RELAX = 2, Q_EXPANSION = 3, Q_GRAVITY = 4, N_Q = 5 };

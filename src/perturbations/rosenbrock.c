@@ -47,6 +47,18 @@ static const double C51 = 0.7496443313967647e+01, C52 = -0.1024680431464352e+02,
 static const double C61 = 0.8083246795921522e+01, C62 = -0.7981132988064893e+01,
                     C63 = -0.3152159432874371e+02, C64 = 0.1631930543123136e+02,
                     C65 = -0.6058818238834054e+01;
+/* RODAS's continuous extension of order 3 (Hairer & Wanner's published
+ * code for the method, value from memory, checked by the dense-output tests
+ * in tests/test_integrator.c): y(x_n + t h) = (1 - t) y_n + t (y_n+1 +
+ * (1 - t) (q1 + t q2)), q1 = sum D2j U_j, q2 = sum D3j U_j. Built from the
+ * stages, it inherits their damping of the stiff components, which the
+ * Hermite interpolant from derivatives does not (see rosenbrock.h). */
+static const double E21 = 0.1012623508344586e+02, E22 = -0.7487995877610167e+01,
+                    E23 = -0.3480091861555747e+02, E24 = -0.7992771707568823e+01,
+                    E25 = 0.1025137723295662e+01;
+static const double E31 = -0.6762803392801253e+00, E32 = 0.6087714651680015e+01,
+                    E33 = 0.1643084320892478e+02, E34 = 0.2476722511418386e+02,
+                    E35 = -0.6594389125716872e+01;
 
 /* Step-size control (Hairer & Wanner, section IV.8, common practice): the
  * estimate is O(h^4), so the step scales with err^(-1/4), with a safety
@@ -64,6 +76,11 @@ static const double C61 = 0.8083246795921522e+01, C62 = -0.7981132988064893e+01,
 #else
 #define ROS_INLINE static inline
 #endif
+
+/* The larger of two numbers that are not NaN. fmax() is a library call
+ * unless NaN handling is switched off for the whole build: too dear on the
+ * per-step paths. */
+ROS_INLINE double larger(double a, double b) { return a > b ? a : b; }
 
 /* LU with partial pivoting of an n x n row-major matrix; 0 if singular. */
 ROS_INLINE int lu_factor(double *a, int n, int *piv) {
@@ -150,18 +167,42 @@ static int all_finite(const double *v, int len) {
 }
 
 /* The largest |y_i| so far per component, and per group of components
- * (p->group; the absolute tolerance's reference). */
+ * (p->group, numbers 0 .. n - 1; the absolute tolerance's reference). y is
+ * finite here (a non-finite step is rejected before). */
 ROS_INLINE void update_peaks(const pt_ros_problem *p, pt_ros_work *w, const double *y,
                              const int n) {
-  for (int i = 0; i < n * p->n_modes; i++) w->own_peak[i] = fmax(w->own_peak[i], fabs(y[i]));
-  for (int b = 0; b < p->n_modes; b++)
-    for (int i = 0; i < n; i++) {
-      double peak = w->own_peak[b * n + i];
-      if (p->group)
-        for (int j = 0; j < n; j++)
-          if (p->group[j] == p->group[i]) peak = fmax(peak, w->own_peak[b * n + j]);
-      w->peak[b * n + i] = peak;
-    }
+  for (int i = 0; i < n * p->n_modes; i++) w->own_peak[i] = larger(w->own_peak[i], fabs(y[i]));
+  if (!p->group) {
+    memcpy(w->peak, w->own_peak, sizeof(double) * (size_t)(n * p->n_modes));
+    return;
+  }
+  for (int b = 0; b < p->n_modes; b++) {
+    double group_peak[PT_ROS_MAX_DIM] = {0.0};
+    const double *own = w->own_peak + b * n;
+    for (int i = 0; i < n; i++) group_peak[p->group[i]] = larger(group_peak[p->group[i]], own[i]);
+    for (int i = 0; i < n; i++) w->peak[b * n + i] = group_peak[p->group[i]];
+  }
+}
+
+/* Outputs x_out[next ..] inside the stiff step (x, x + h) from the method's
+ * own continuous extension, from the stages (q1 into U[5], q2 into ytmp;
+ * neither is needed any more); returns the next output's index. Kept out of
+ * line: it runs on few steps. */
+static int stiff_outputs(const pt_ros_problem *p, pt_ros_work *w, double x, double h,
+                         const double *y, const double *x_out, int next, int n_out, int len) {
+  double(*U)[PT_ROS_MAX_MODES * PT_ROS_MAX_DIM] = w->U;
+  double *q1 = U[5], *q2 = w->ytmp;
+  for (int i = 0; i < len; i++) {
+    q1[i] = E21 * U[0][i] + E22 * U[1][i] + E23 * U[2][i] + E24 * U[3][i] + E25 * U[4][i];
+    q2[i] = E31 * U[0][i] + E32 * U[1][i] + E33 * U[2][i] + E34 * U[3][i] + E35 * U[4][i];
+  }
+  while (next < n_out && x_out[next] < x + h) {
+    const double t = (x_out[next] - x) / h;
+    for (int i = 0; i < len; i++)
+      w->yout[i] = (1.0 - t) * y[i] + t * (w->ynew[i] + (1.0 - t) * (q1[i] + t * q2[i]));
+    p->emit(p->ctx, next++, w->yout);
+  }
+  return next;
 }
 
 ROS_INLINE int integrate(const pt_ros_problem *p, pt_ros_work *w, double x0, double *y,
@@ -172,6 +213,8 @@ ROS_INLINE int integrate(const pt_ros_problem *p, pt_ros_work *w, double x0, dou
     return PT_ROS_BAD_INPUT;
   for (int i = 0; i < n_out; i++)
     if (!(x_out[i] >= (i ? x_out[i - 1] : x0))) return PT_ROS_BAD_INPUT;
+  for (int i = 0; p->group && i < n; i++)
+    if (p->group[i] < 0 || p->group[i] >= n) return PT_ROS_BAD_INPUT;
 
   double x = x0, rate0 = 0.0, rate1 = 0.0, rate_s = 0.0;
   w->stats.matrix_evals++;
@@ -201,8 +244,7 @@ ROS_INLINE int integrate(const pt_ros_problem *p, pt_ros_work *w, double x0, dou
      * stretched to it.) */
     const double sliver = 1e-3 * h;
     if (x_new >= x_end - sliver) x_new = x_end;
-    if (x_out[next] < x_new + sliver && (h * rate0 > PT_ROS_DENSE_LIMIT || x_out[next] >= x_new))
-      x_new = x_out[next], cut = 1;
+    if (x_out[next] < x_new + sliver && x_out[next] >= x_new) x_new = x_out[next], cut = 1;
     h = x_new - x;
     if (!(h > 1e-14 * fmax(1.0, fabs(x)))) {
       *x_fail = x;
@@ -279,11 +321,13 @@ ROS_INLINE int integrate(const pt_ros_problem *p, pt_ros_work *w, double x0, dou
       double sum = 0.0;
       for (int i = b * n; i < (b + 1) * n; i++) {
         double peak = w->peak[i] > 0.0 ? w->peak[i] : 1.0;
-        double scale = p->rel_tol * fmax(fabs(y[i]), fabs(w->ynew[i])) + p->abs_tol * peak;
+        double scale = p->rel_tol * larger(fabs(y[i]), fabs(w->ynew[i])) + p->abs_tol * peak;
         double e = w->err_est[i] / scale;
         sum += e * e;
       }
-      err = fmax(err, sqrt(sum / n));
+      /* (NaN carried on: the test below rejects it.) */
+      const double mode_err = sqrt(sum / n);
+      if (!(mode_err <= err)) err = mode_err;
     }
     if (!isfinite(err) || !all_finite(w->ynew, len)) {
       w->stats.rejected++;
@@ -306,8 +350,10 @@ ROS_INLINE int integrate(const pt_ros_problem *p, pt_ros_work *w, double x0, dou
       continue;
     }
 
-    /* Accepted: outputs inside (x, x_new] from the interpolant. */
+    /* Accepted: outputs inside (x, x_new] from an interpolant. */
     w->stats.steps++;
+    if (next < n_out && x_out[next] < x_new && h * rate0 > PT_ROS_DENSE_LIMIT)
+      next = stiff_outputs(p, w, x, h, y, x_out, next, n_out, len);
     if (next < n_out && x_out[next] <= x_new) {
       /* Hermite data: derivatives at both ends (f1 into U1, y''0 into U2,
        * y''1 into U3; the stage values are no longer needed). */

@@ -37,13 +37,15 @@
  * temperature fluctuation slaved to it far below it is not resolved for its
  * own sake).
  *
- * Outputs: a point x_out inside an accepted step is read off the quintic
- * Hermite interpolant through y, y' = A y and y'' = (A' + A^2) y at both
- * ends (interpolation error O(h^6), below the step's own), so outputs do not
- * shorten steps; where the step is long compared with the fastest rate of
- * the system (h * rate > PT_ROS_DENSE_LIMIT, the stiff part, where y'' of
- * the numerical solution amplifies its error), the step is cut to end on
- * the output exactly instead.
+ * Outputs never shorten steps. A point x_out inside an accepted step is
+ * read off the quintic Hermite interpolant through y, y' = A y and y'' =
+ * (A' + A^2) y at both ends (interpolation error O(h^6), below the step's
+ * own) while the step is short compared with the fastest rate of the system
+ * (h * rate <= PT_ROS_DENSE_LIMIT). Where it is long (the stiff part),
+ * y' and y'' of the numerical solution amplify its error along the stiff
+ * directions by h * rate and its square, so the method's own continuous
+ * extension of order 3, built from the stages, is used instead (it damps
+ * as the stages do).
  *
  * The workspace has fixed-size arrays: nothing is allocated while solving.
  */
@@ -68,7 +70,8 @@ typedef struct pt_ros_problem {
   pt_ros_matrices_fn matrices;
   pt_ros_emit_fn emit;
   void *ctx;
-  const int *group; /* dim entries: the error-scale group of each component (NULL: its own) */
+  const int *group; /* dim entries: the error-scale group of each component, numbered
+                       0 .. dim - 1 (NULL: its own) */
   double rel_tol, abs_tol;
   double h_start; /* first trial step */
   double h_max;   /* no step longer */
@@ -114,7 +117,8 @@ typedef struct pt_ros_work {
 int jg__ros_integrate(const pt_ros_problem *p, pt_ros_work *w, double x0, double *y,
                      const double *x_out, int n_out, double *x_fail);
 
-/* The quintic Hermite interpolation limit: h * rate above this cuts the step. */
+/* The quintic Hermite interpolation limit: above this h * rate, outputs come
+ * from the stages' continuous extension. */
 #define PT_ROS_DENSE_LIMIT 1.0
 
 #endif

@@ -1,12 +1,15 @@
 /*
  * Benchmark of the perturbation solver on the reference cosmology (defaults
- * of jg_params_set_defaults: Planck 2018, fluctuating sound speed, GSL
- * msbdf then rk8pd, rel_tol 1e-8, abs_tol 1e-10): the cost of one k-mode and
- * of the 128-mode default grid (1 to 5000 /Mpc) from z_initial = 1e4 to
- * z = 10 with 7 output redshifts, as the median of repeated runs, the same
- * grid with msbdf throughout, and the peak memory.
+ * of jg_params_set_defaults: Planck 2018, fluctuating sound speed, the
+ * Rosenbrock stepper, rel_tol 1e-8, abs_tol 1e-10): the cost of one k-mode
+ * and of the 128-mode default grid (1 to 5000 /Mpc) from z_initial = 1e4 to
+ * z = 10 with 7 output redshifts, one k at a time and in lockstep batches,
+ * as the median of repeated runs; the same grid on the GSL paths (msbdf then
+ * rk8pd, msbdf throughout); the cost of 512 output redshifts against 8
+ * (dense output); and the peak memory.
  *
- * Then the comparison with SciPy on the same work: 16 modes of that grid,
+ * Then the comparison of the GSL path (msbdf then rk8pd, the cross-check
+ * path) with SciPy on the same work: 16 modes of that grid,
  * the same 7 redshifts. Equal nominal tolerances are not equal accuracy
  * (GSL's step control takes the largest error over the components, SciPy's
  * BDF a root mean square, and the methods differ), so both solvers are run
@@ -22,9 +25,10 @@
  * right-hand sides plus Jacobians per mode, as SciPy's nfev + njev.
  *
  * Then the library's own Rosenbrock integrator (perturbations.stepper =
- * "rosenbrock") over the same ladder against the same reference, one k at
- * a time and in lockstep batches of 8 (jg_perturb_solve_many), with its
- * matched-accuracy ratios against the GSL default. Instruction counts, which
+ * "rosenbrock", the default) over the same ladder against the same
+ * reference, one k at a time and in lockstep batches of 8
+ * (jg_perturb_solve_many), with its matched-accuracy ratios against the GSL
+ * path and, once the script has run, against SciPy. Instruction counts, which
  * other work on the machine does not disturb, come from running this under
  * valgrind --tool=callgrind.
  *
@@ -68,7 +72,7 @@ static double median(double *v, int n) {
 
 #define N_Z 7
 #define N_REF 16
-/* The default stepper of jg_params_set_defaults, as the tables name it. */
+/* The GSL path of the comparison with SciPy, as the tables name it. */
 #define STEPPER_NAME "msbdf+rk8pd"
 
 /* The tolerance ladder of the same-work comparison (rel_tol; abs_tol is
@@ -242,42 +246,102 @@ int main(int argc, char **argv) {
       }
     tn[r] = now() - a;
   }
-  double one = median(t1, R1), all = median(tn, RN), lim = median(tl, R1);
-  /* The same grid with msbdf throughout, for the gain of the stepper switch. */
-  double t_msbdf[RN];
-  {
+  double tb[RN];
+  for (int r = 0; r < RN; r++) {
+    double a = now();
+    if (jg_perturb_solve_many(m, w, k, n_k, z, N_Z, &out[0][0], &err) != JG_OK) {
+      fprintf(stderr, "bench_perturb: %s\n", err.message);
+      return 1;
+    }
+    tb[r] = now() - a;
+  }
+  double one = median(t1, R1), all = median(tn, RN), lim = median(tl, R1),
+         all_batched = median(tb, RN);
+  /* The same grid on the GSL paths: msbdf then rk8pd, msbdf throughout. */
+  double all_gsl[2];
+  for (int g = 0; g < 2; g++) {
+    double t_gsl[RN];
     jg_perturb_settings s = p.perturbations;
-    s.stepper = JG_PERTURB_STEPPER_MSBDF;
+    s.stepper = g == 0 ? JG_PERTURB_STEPPER_MSBDF_RK8PD : JG_PERTURB_STEPPER_MSBDF;
     jg_perturb_model *mm = jg_perturb_model_new(th, &s, NULL, &err);
     jg_perturb_workspace *wm = mm ? jg_perturb_workspace_new(mm, &err) : NULL;
     for (int r = 0; wm && r < RN; r++) {
       double a = now();
       for (int i = 0; i < n_k; i++)
         if (jg_perturb_solve(mm, wm, k[i], z, N_Z, out[i], &err) != JG_OK) break;
-      t_msbdf[r] = now() - a;
+      t_gsl[r] = now() - a;
     }
     if (!wm || err.status != JG_OK) {
-      fprintf(stderr, "bench_perturb (msbdf throughout): %s\n", err.message);
+      fprintf(stderr, "bench_perturb (GSL stepper %d): %s\n", g, err.message);
       return 1;
     }
     jg_perturb_workspace_free(wm);
     jg_perturb_model_free(mm);
+    all_gsl[g] = median(t_gsl, RN);
   }
-  double all_msbdf = median(t_msbdf, RN);
+  /* Dense output: 8 and 512 output redshifts from 1100 to 0, the 16 modes
+   * of the comparison below, one k at a time and in batches; evaluations of
+   * the coefficient matrices and time, best of 5. */
+  double dense_ms[2][2], dense_evals[2][2];
+  {
+    static double zd[512];
+    static jg_perturb_point pd[16 * 512];
+    double kd[16];
+    for (int j = 0; j < 16; j++) kd[j] = k[j * (n_k - 1) / 15];
+    const int counts[2] = {8, 512};
+    for (int c = 0; c < 2; c++) {
+      for (int i = 0; i < counts[c]; i++) zd[i] = 1100.0 * (counts[c] - 1 - i) / (counts[c] - 1);
+      for (int b = 0; b < 2; b++) {
+        double best = 0.0;
+        jg_perturb_work w0 = jg_perturb_workspace_work(w);
+        for (int r = 0; r < 5; r++) {
+          double a = now();
+          jg_status st = JG_OK;
+          if (b)
+            st = jg_perturb_solve_many(m, w, kd, 16, zd, counts[c], pd, &err);
+          else
+            for (int j = 0; j < 16 && st == JG_OK; j++)
+              st = jg_perturb_solve(m, w, kd[j], zd, counts[c], pd, &err);
+          if (st != JG_OK) {
+            fprintf(stderr, "bench_perturb (dense output): %s\n", err.message);
+            return 1;
+          }
+          double t = now() - a;
+          if (r == 0 || t < best) best = t;
+        }
+        jg_perturb_work w1 = jg_perturb_workspace_work(w);
+        dense_ms[c][b] = 1e3 * best / 16;
+        dense_evals[c][b] = (double)(w1.jacobian_evals - w0.jacobian_evals) / (5 * 16);
+      }
+    }
+  }
   struct rusage ru;
   getrusage(RUSAGE_SELF, &ru);
-  printf("# perturbation solver, reference cosmology, %s sound speed, GSL %s, rel_tol %g, "
-         "abs_tol %g\n",
+  printf("# perturbation solver, reference cosmology, %s sound speed, default stepper "
+         "(rosenbrock), rel_tol %g, abs_tol %g\n",
          p.perturbations.sound_speed == JG_SOUND_SPEED_FLUCTUATING ? "fluctuating" : "uniform",
-         STEPPER_NAME, p.perturbations.rel_tol, p.perturbations.abs_tol);
+         p.perturbations.rel_tol, p.perturbations.abs_tol);
   printf("model build (coefficient tables)     %10.3f ms\n", 1e3 * t_model);
   printf("one mode, k = 300 /Mpc, %d redshifts  %10.3f ms (median of %d)\n", N_Z, 1e3 * one, R1);
   printf("large-scale limit with k^2 terms     %10.3f ms (median of %d)\n", 1e3 * lim, R1);
   printf("%d modes, k = %g..%g /Mpc          %10.3f ms (median of %d), %.3f ms per mode\n", n_k,
          k[0], k[n_k - 1], 1e3 * all, RN, 1e3 * all / n_k);
-  printf("the same, msbdf throughout            %10.3f ms (median of %d), %.3f ms per mode: "
+  printf("the same in lockstep batches of %d     %10.3f ms (median of %d), %.3f ms per mode\n",
+         JG_PERTURB_BATCH, 1e3 * all_batched, RN, 1e3 * all_batched / n_k);
+  printf("the same, GSL msbdf then rk8pd        %10.3f ms (median of %d), %.3f ms per mode: "
+         "x%.2f the default's time, x%.2f in batches\n",
+         1e3 * all_gsl[0], RN, 1e3 * all_gsl[0] / n_k, all_gsl[0] / all, all_gsl[0] / all_batched);
+  printf("the same, GSL msbdf throughout        %10.3f ms (median of %d), %.3f ms per mode: "
          "the switch to rk8pd saves a factor %.2f\n",
-         1e3 * all_msbdf, RN, 1e3 * all_msbdf / n_k, all_msbdf / all);
+         1e3 * all_gsl[1], RN, 1e3 * all_gsl[1] / n_k, all_gsl[1] / all_gsl[0]);
+  printf("dense output, 16 modes, z 1100..0:    8 outputs %.3f ms/mode (%.0f matrices), 512 "
+         "outputs %.3f ms/mode (%.0f): x%.2f time, x%.2f matrices\n",
+         dense_ms[0][0], dense_evals[0][0], dense_ms[1][0], dense_evals[1][0],
+         dense_ms[1][0] / dense_ms[0][0], dense_evals[1][0] / dense_evals[0][0]);
+  printf("  the same in batches of %d:           8 outputs %.3f ms/mode (%.0f matrices), 512 "
+         "outputs %.3f ms/mode (%.0f): x%.2f time, x%.2f matrices\n",
+         JG_PERTURB_BATCH, dense_ms[0][1], dense_evals[0][1], dense_ms[1][1], dense_evals[1][1],
+         dense_ms[1][1] / dense_ms[0][1], dense_evals[1][1] / dense_evals[0][1]);
   printf("peak resident memory                 %10.1f MB\n", ru.ru_maxrss / 1024.0);
 
   /* Files for the SciPy comparison. */
@@ -305,18 +369,21 @@ int main(int argc, char **argv) {
   }
   fclose(f);
 
-  /* The same work: 16 modes, the tight reference, then the ladder. */
+  /* The same work: 16 modes, the tight reference, then the ladder, on the
+   * GSL path. */
+  jg_perturb_settings gsl_path = p.perturbations;
+  gsl_path.stepper = JG_PERTURB_STEPPER_MSBDF_RK8PD;
   double ks[N_REF];
   for (int j = 0; j < N_REF; j++) ks[j] = k[j * (n_k - 1) / (N_REF - 1)];
   static jg_perturb_point ref[N_REF][N_Z], sol[N_REF][N_Z];
   ladder_row ref_row, c_rows[N_LADDER];
-  if (run_tolerance(th, &p.perturbations, REF_RTOL, REF_RTOL * ABS_PER_REL, ks, z, ref, NULL, 1,
+  if (run_tolerance(th, &gsl_path, REF_RTOL, REF_RTOL * ABS_PER_REL, ks, z, ref, NULL, 1,
                     &ref_row, &err)) {
     fprintf(stderr, "bench_perturb (reference): %s\n", err.message);
     return 1;
   }
   for (int t = 0; t < N_LADDER; t++)
-    if (run_tolerance(th, &p.perturbations, ladder_rtol[t], ladder_rtol[t] * ABS_PER_REL, ks, z,
+    if (run_tolerance(th, &gsl_path, ladder_rtol[t], ladder_rtol[t] * ABS_PER_REL, ks, z,
                       sol, ref, LADDER_REPEATS, &c_rows[t], &err)) {
       fprintf(stderr, "bench_perturb (rel_tol %g): %s\n", ladder_rtol[t], err.message);
       return 1;
@@ -369,7 +436,7 @@ int main(int argc, char **argv) {
   printf("cost: this solver best of %d runs%s, per mode\n", LADDER_REPEATS,
          n_s > 0 ? ", SciPy as its line below says" : "");
   printf("%-8s | %-41s | %s\n", "", "this solver (GSL " STEPPER_NAME ")",
-         n_s > 0 ? "SciPy solve_ivp BDF" : "(SciPy: run tests/bench/scipy_perturb.py DIR)");
+         n_s > 0 ? "SciPy solve_ivp (its line below)" : "(SciPy: run tests/bench/scipy_perturb.py DIR)");
   printf("%-8s | %9s %9s %9s %9s | %9s %9s %9s %9s\n", "rel_tol", "err b/c", "err d_c",
          "ms/mode", "evals", "err b/c", "err d_c", "ms/mode", "f+J evals");
   for (int t = 0; t < N_LADDER; t++) {
@@ -442,6 +509,11 @@ int main(int argc, char **argv) {
            targets[q], STEPPER_NAME, c_rows[ig].ms, c_rows[ig].rtol, r_rows[0][i1].ms,
            r_rows[0][i1].rtol, c_rows[ig].ms / r_rows[0][i1].ms, r_rows[1][ib].ms,
            r_rows[1][ib].rtol, c_rows[ig].ms / r_rows[1][ib].ms);
+    const int is = n_s > 0 ? cheapest(s_rows, n_s, targets[q]) : -1;
+    if (is >= 0)
+      printf("  against SciPy (%.1f ms/mode, rel_tol %g): x%.0f alone, x%.0f in batches\n",
+             s_rows[is].ms, s_rows[is].rtol, s_rows[is].ms / r_rows[0][i1].ms,
+             s_rows[is].ms / r_rows[1][ib].ms);
   }
   jg_perturb_workspace_free(w);
   jg_perturb_model_free(m);

@@ -7,7 +7,7 @@ Reads DIR/perturb_coefficients.txt (the C medium coefficients on a grid of
 natural cubic splines of ln p, ln d, ln r, and of e and g. Solves the
 fluctuating-sound-speed system y = {delta_c, delta_c', delta_b, delta_b',
 delta_T} in x = ln a with scipy.integrate.solve_ivp, implicit method 'BDF'
-with the analytic Jacobian, from z_initial to z = 10 with the same 7 output
+with the analytic Jacobian (or 'LSODA' with --method LSODA), from z_initial to z = 10 with the same 7 output
 redshifts and the same 16 modes as DIR/perturb_reference.txt. Initial
 conditions: CDM on the Meszaros growing mode with smooth baryons,
 2F1(alpha, beta; 1; -y) from scipy.special.hyp2f1 (independent of the C
@@ -36,6 +36,7 @@ for this script alone:
       tests/bench/scipy_perturb.py DIR
 
 Usage: /usr/bin/python3 tests/bench/scipy_perturb.py DIR [--repeats N] [--no-radau]
+                                                     [--method BDF|LSODA]
 """
 import argparse
 import math
@@ -133,6 +134,8 @@ def main():
     ap.add_argument("dir", nargs="?", default=".")
     ap.add_argument("--repeats", type=int, default=3)
     ap.add_argument("--no-radau", action="store_true")
+    ap.add_argument("--method", choices=("BDF", "LSODA"), default="BDF",
+                    help="solve_ivp method of the ladder (both with the analytic Jacobian)")
     opt = ap.parse_args()
     d, repeats, radau = opt.dir, max(1, opt.repeats), not opt.no_radau
     env = ", ".join(f"{v}={os.environ[v]}" for v in ("OPENBLAS_CORETYPE", "OPENBLAS_L2_SIZE")
@@ -185,21 +188,22 @@ def main():
               f"{ec:.1e} ({1e3 * t / len(ks):.0f} ms/mode)")
         radau_line = f"# radau {er:.6e} {ec:.6e}\n"
 
-    print(f"solve_ivp BDF + analytic Jacobian, {len(ks)} modes k = {ks[0]:g}..{ks[-1]:g} /Mpc, "
+    method = opt.method
+    print(f"solve_ivp {method} + analytic Jacobian, {len(ks)} modes k = {ks[0]:g}..{ks[-1]:g} /Mpc, "
           f"{len(zs)} redshifts; cost: best of {repeats} runs, per mode")
     print(f"{'rel_tol':>8} {'err b/c':>9} {'err d_c':>9} {'ms/mode':>9} {'f+J evals':>9}")
     rows = []
     for rtol in c_ladder[:, 0]:
         best = None
         for _ in range(repeats):
-            t, er, ec, ev = solve_all("BDF", float(rtol))
+            t, er, ec, ev = solve_all(method, float(rtol))
             best = t if best is None else min(best, t)
         ms = 1e3 * best / len(ks)
         rows.append((rtol, rtol * ABS_PER_REL, er, ec, ms, ev / len(ks)))
         print(f"{rtol:8.0e} {er:9.2e} {ec:9.2e} {ms:9.1f} {ev / len(ks):9.0f}", flush=True)
 
     with open(f"{d}/perturb_scipy_ladder.txt", "w") as f:
-        f.write(f"# scipy solve_ivp BDF, analytic Jacobian, best of {repeats} runs; "
+        f.write(f"# scipy solve_ivp {method}, analytic Jacobian, best of {repeats} runs; "
                 f"Python {sys.version.split()[0]}, "
                 f"NumPy {np.__version__}, SciPy {scipy.__version__}; {env}\n")
         f.write(radau_line)
