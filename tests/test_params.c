@@ -452,7 +452,7 @@ Test(params, documented_keys_are_unique_and_in_a_group) {
  * table without a case here fails the count at the end. The violations
  * follow the table's order. */
 Test(params, every_listed_combined_rule_is_enforced_naming_its_keys) {
-  enum { N_RULES = 6 };
+  enum { N_RULES = 8 };
   for (int i = 0; i < N_RULES; i++) {
     const jg_param_rule *r = jg_param_rule_at(i);
     cr_assert_not_null(r, "rule %d is missing", i);
@@ -464,7 +464,16 @@ Test(params, every_listed_combined_rule_is_enforced_naming_its_keys) {
     case 2: pt->k_min = 10.0, pt->k_max = 5.0; break;
     case 3: pt->k_count = 1, pt->k_min = 10.0, pt->k_max = 20.0; break;
     case 4: loaded.output.redshifts[0] = pt->z_initial = 6000.0; break;
-    case 5: loaded.output.history_z_min = loaded.thermal.start_redshift; break;
+    case 5:
+      snprintf(pt->initial_columns, sizeof pt->initial_columns, "k delta_b theta_b");
+      pt->initial_gauge = JG_TABLE_SYNCHRONOUS;
+      break;
+    case 6:
+      loaded.output.redshifts[0] = 20.0, loaded.output.n_redshifts = 1, pt->z_initial = 1000.0;
+      snprintf(pt->initial_table, sizeof pt->initial_table, "start.csv");
+      snprintf(pt->initial_columns, sizeof pt->initial_columns, "k b_over_c rate_b");
+      break;
+    case 7: loaded.output.history_z_min = loaded.thermal.start_redshift; break;
     }
     jg_error err;
     jg_error_clear(&err);
@@ -655,9 +664,13 @@ static const char *stage_refusal(const char *key, double value, jg_error *err) {
 Test(params, every_range_is_the_one_the_stages_check) {
   /* Keys no stage reads as a range of its own: the output choices are the
    * program's; z_initial is bounded by the medium a model is built on (an
-   * analytic test medium may start anywhere); the table name is a file. */
+   * analytic test medium may start anywhere); the table name is a file, and
+   * its layout keys are read only with a table (the table reader checks the
+   * three words with jg_params_check_value; tests/test_perturb.c). */
   static const char *const loader_only[] = {
-      "perturbations.z_initial", "perturbations.initial_table", "output.redshifts",
+      "perturbations.z_initial", "perturbations.initial_table", "perturbations.initial_columns",
+      "perturbations.initial_k_unit", "perturbations.initial_separator",
+      "perturbations.initial_gauge", "output.redshifts",
       "output.history_rows",     "output.history_z_min",        "output.units", NULL};
   const jg_param_doc *d;
   int stage_keys = 0;

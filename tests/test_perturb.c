@@ -111,7 +111,7 @@ Test(perturb, eds_catch_up_moving_with_dark_matter) {
   jg_medium md = eds_medium_of(&e);
   const double a_i = 1e-3;
   jg_perturb_settings s = tight_settings(1.0 / a_i - 1.0, JG_SOUND_SPEED_ISOTHERMAL);
-  jg_perturb_start start = {0.0, 1.0, 0.0};
+  jg_perturb_start start = {0.0, 1.0, 0.0, 0, 0.0};
   jg_error err;
   jg_perturb_model *m = jg_perturb_model_new_medium(&md, &s, &start, &err);
   cr_assert_not_null(m, "%s", err.message);
@@ -796,7 +796,7 @@ Test(start_table, reads_and_interpolates_linear_data_exactly) {
   }
   jg_perturb_start s;
   cr_assert_eq(jg_perturb_start_table_at(t, 0.99, &s, &err), JG_EINVAL, "below the table");
-  cr_assert(strstr(err.message, "outside the initial-condition table"), "%s", err.message);
+  cr_assert(strstr(err.message, "outside the start table"), "%s", err.message);
   cr_assert_eq(jg_perturb_start_table_at(t, 101.0, &s, &err), JG_EINVAL, "above the table");
   jg_perturb_start_table_free(t);
   remove_table(path);
@@ -813,7 +813,7 @@ Test(start_table, constant_table_is_the_uniform_start) {
   jg_params_set_defaults(&d);
   snprintf(d.perturbations.initial_table, sizeof d.perturbations.initial_table, "%s", path);
   real_case_open(&t, &d);
-  const jg_perturb_start uniform = {0.25, 0.5, 0.01};
+  const jg_perturb_start uniform = {0.25, 0.5, 0.01, 0, 0.0};
   jg_perturb_settings s = d.perturbations;
   s.initial_table[0] = '\0';
   jg_perturb_model *mu;
