@@ -452,7 +452,7 @@ Test(params, documented_keys_are_unique_and_in_a_group) {
  * table without a case here fails the count at the end. The violations
  * follow the table's order. */
 Test(params, every_listed_combined_rule_is_enforced_naming_its_keys) {
-  enum { N_RULES = 8 };
+  enum { N_RULES = 9 };
   for (int i = 0; i < N_RULES; i++) {
     const jg_param_rule *r = jg_param_rule_at(i);
     cr_assert_not_null(r, "rule %d is missing", i);
@@ -469,11 +469,17 @@ Test(params, every_listed_combined_rule_is_enforced_naming_its_keys) {
       pt->initial_gauge = JG_TABLE_SYNCHRONOUS;
       break;
     case 6:
+      snprintf(pt->initial_table, sizeof pt->initial_table, "start.csv");
+      snprintf(pt->initial_columns, sizeof pt->initial_columns, "k delta_c delta_b");
+      snprintf(pt->initial_second_table, sizeof pt->initial_second_table, "later.csv");
+      pt->initial_second_redshift = pt->z_initial;
+      break;
+    case 7:
       loaded.output.redshifts[0] = 20.0, loaded.output.n_redshifts = 1, pt->z_initial = 1000.0;
       snprintf(pt->initial_table, sizeof pt->initial_table, "start.csv");
       snprintf(pt->initial_columns, sizeof pt->initial_columns, "k b_over_c rate_b");
       break;
-    case 7: loaded.output.history_z_min = loaded.thermal.start_redshift; break;
+    case 8: loaded.output.history_z_min = loaded.thermal.start_redshift; break;
     }
     jg_error err;
     jg_error_clear(&err);
@@ -670,7 +676,8 @@ Test(params, every_range_is_the_one_the_stages_check) {
   static const char *const loader_only[] = {
       "perturbations.z_initial", "perturbations.initial_table", "perturbations.initial_columns",
       "perturbations.initial_k_unit", "perturbations.initial_separator",
-      "perturbations.initial_gauge", "output.redshifts",
+      "perturbations.initial_gauge", "perturbations.initial_second_table",
+      "perturbations.initial_second_redshift", "output.redshifts",
       "output.history_rows",     "output.history_z_min",        "output.units", NULL};
   const jg_param_doc *d;
   int stage_keys = 0;

@@ -975,6 +975,52 @@ Test(start_table, each_velocity_convention_matches_the_hand_derived_case) {
   }
 }
 
+/* Two snapshots, worked by hand: delta_c ~ a and delta_b ~ a^1.5 between
+ * z = 1000 and z_2 = 990 (a_2/a_1 = 1001/991), so the difference of the
+ * logarithms gives the rates 1 and 1.5 exactly: d ln delta_c/d ln a = 1,
+ * (d delta_b/d ln a)/delta_c = 1.5 x 0.25, velocity ratio 0.375. With the
+ * snapshots the other way round (the start at z = 990, the second one at
+ * 1000), the same rates. */
+Test(start_table, two_snapshots_give_the_rates_of_a_power_law) {
+  const double growth = 1001.0 / 991.0;
+  char first[JG_MAX_PATH], later[JG_MAX_PATH], text[512];
+  write_table(first, sizeof first, "1 2 0.5\n10 2 0.5\n");
+  snprintf(text, sizeof text, "1 %.17g %.17g\n10 %.17g %.17g\n", 2.0 * growth,
+           0.5 * pow(growth, 1.5), 2.0 * growth, 0.5 * pow(growth, 1.5));
+  write_table(later, sizeof later, text);
+  jg_params d;
+  jg_params_set_defaults(&d);
+  jg_perturb_settings *s = &d.perturbations;
+  snprintf(s->initial_columns, sizeof s->initial_columns, "k delta_c delta_b");
+  snprintf(s->initial_second_table, sizeof s->initial_second_table, "%s", later);
+  s->z_initial = 1000.0;
+  s->initial_second_redshift = 990.0;
+  const jg_perturb_table_frame frame = {1.0, 1.0, 0.9};
+  jg_error err;
+  jg_error_clear(&err);
+  jg_perturb_start_table *t = jg_perturb_start_table_read_layout(first, s, &frame, &err);
+  cr_assert_not_null(t, "%s", err.message);
+  jg_perturb_start st = start_of(t, 3.0);
+  cr_assert(st.has_cdm_rate);
+  ASSERT_REL(st.cdm_rate, 1.0, 1e-12, "d ln delta_c / d ln a");
+  ASSERT_REL(st.density_ratio, 0.25, 1e-15, "delta_b/delta_c");
+  ASSERT_REL(st.velocity_ratio, 0.375, 1e-12, "velocity ratio");
+  jg_perturb_start_table_free(t);
+  /* Earlier second snapshot: swap the roles of the files. */
+  s->z_initial = 990.0;
+  s->initial_second_redshift = 1000.0;
+  snprintf(s->initial_second_table, sizeof s->initial_second_table, "%s", first);
+  t = jg_perturb_start_table_read_layout(later, s, &frame, &err);
+  cr_assert_not_null(t, "%s", err.message);
+  st = start_of(t, 3.0);
+  ASSERT_REL(st.cdm_rate, 1.0, 1e-12, "d ln delta_c / d ln a, backwards");
+  /* there delta_b/delta_c = 0.25 (a_2/a_1)^0.5, and the ratio 1.5 times it */
+  ASSERT_REL(st.velocity_ratio, 0.375 * sqrt(growth), 1e-12, "velocity ratio, backwards");
+  jg_perturb_start_table_free(t);
+  remove_table(first);
+  remove_table(later);
+}
+
 /* The fixes of the reading: a subnormal value is a number (1e-310 lies
  * below the smallest normal double, 2.2e-308, and strtod flags it as an
  * underflow), and a k within 1e-9 relative of a table end, as an h/Mpc

@@ -219,7 +219,9 @@ static int draw_all(rng *r, const sweep_options *o, double k_floor, drawn *d, ch
       continue;
     }
     if (!strcmp(key, "perturbations.initial_table") || !strcmp(key, "perturbations.k_values") ||
-        !strcmp(key, "perturbations.initial_columns"))
+        !strcmp(key, "perturbations.initial_columns") ||
+        !strcmp(key, "perturbations.initial_second_table") ||
+        !strcmp(key, "perturbations.initial_second_redshift"))
       continue; /* a file and its layout (tests/test_perturb.c), and the grid's list twin
                  * (the grid is drawn) */
     bound lo, hi;

@@ -33,6 +33,10 @@ extern "C" {
  * growing mode, baryons as given): a table that gives the dark matter's
  * velocity too may start lower. */
 #define JG_PARAMS_OWN_START_Z_MIN 1500.0
+/* Largest |ln((1 + z_2)/(1 + z_initial))| between two snapshots: the rate
+ * from their difference errs by about half this times the change of the
+ * rate per e-fold (a few per cent per e-fold near recombination). */
+#define JG_PARAMS_SNAPSHOT_STEP_MAX 0.1
 #define JG_PARAMS_K_LOWEST 1.0
 #define JG_PARAMS_K_HIGHEST 1.0e5
 
@@ -104,6 +108,11 @@ typedef struct jg_perturb_settings {
   int initial_k_unit;
   int initial_separator;
   int initial_gauge;
+  /* A second snapshot of the same wavenumbers, same layout, at
+   * initial_second_redshift: the rates come from the two (d ln delta/d ln a
+   * as the difference of the logarithms); "" none. */
+  char initial_second_table[JG_MAX_PATH];
+  double initial_second_redshift;
 } jg_perturb_settings;
 
 /* ---- column maps: what each column of a table read by jeansgrow holds --- */
@@ -151,9 +160,10 @@ jg_status jg_column_map_parse(const char *text, jg_column_map *map, char *why, s
 const char *jg_column_kind_word(jg_column_kind kind);
 /* Can `map` start the perturbations (k, the baryon density and velocity,
  * and what those need: a theta needs delta_c, theta_c is not a synchronous
- * quantity)? JG_OK, or JG_ECONFIG with the reason in `why`. */
-jg_status jg_column_map_check_start(const jg_column_map *map, jg_table_gauge gauge, char *why,
-                                    size_t size);
+ * quantity)? With a second snapshot the velocities may be left out (the
+ * rates come from the two), and delta_c and delta_b are needed. JG_OK, or JG_ECONFIG with the reason in `why`. */
+jg_status jg_column_map_check_start(const jg_column_map *map, jg_table_gauge gauge,
+                                    int second_snapshot, char *why, size_t size);
 /* Does a start with these settings give the dark matter's velocity (so that
  * it replaces the Meszaros start)? 0 for a bad or empty map. */
 int jg_params_start_gives_cdm_velocity(const jg_perturb_settings *s);

@@ -81,8 +81,8 @@ static int count_held(const jg_column_map *m, const int *kinds) {
   return n;
 }
 
-jg_status jg_column_map_check_start(const jg_column_map *m, jg_table_gauge gauge, char *why,
-                                    size_t size) {
+jg_status jg_column_map_check_start(const jg_column_map *m, jg_table_gauge gauge,
+                                    int second_snapshot, char *why, size_t size) {
   static const int baryon_velocity[] = {JG_COLUMN_VELOCITY_RATIO, JG_COLUMN_RATE_B,
                                         JG_COLUMN_THETA_B, -1};
   static const int cdm_velocity[] = {JG_COLUMN_RATE_C, JG_COLUMN_THETA_C, -1};
@@ -98,9 +98,15 @@ jg_status jg_column_map_check_start(const jg_column_map *m, jg_table_gauge gauge
     return snprintf(why, size,
                     "the baryon density must be given once: b_over_c, or delta_b with delta_c"),
            JG_ECONFIG;
-  if (count_held(m, baryon_velocity) != 1)
+  if (second_snapshot && (col[JG_COLUMN_DELTA_C] < 0 || col[JG_COLUMN_DELTA_B] < 0))
     return snprintf(why, size,
-                    "the baryon velocity must be given once: velocity_ratio, rate_b or theta_b"),
+                    "two snapshots give rates through delta_c and delta_b: name both columns"),
+           JG_ECONFIG;
+  if (count_held(m, baryon_velocity) > 1 ||
+      (!second_snapshot && count_held(m, baryon_velocity) != 1))
+    return snprintf(why, size,
+                    "the baryon velocity must be given once: velocity_ratio, rate_b or theta_b "
+                    "(or a second snapshot, perturbations.initial_second_table)"),
            JG_ECONFIG;
   if (count_held(m, cdm_velocity) > 1 || count_held(m, temperature) > 1)
     return snprintf(why, size,
@@ -122,6 +128,7 @@ jg_status jg_column_map_check_start(const jg_column_map *m, jg_table_gauge gauge
 
 int jg_params_start_gives_cdm_velocity(const jg_perturb_settings *s) {
   if (!s->initial_table[0] || !s->initial_columns[0]) return 0;
+  if (s->initial_second_table[0]) return 1;
   jg_column_map m;
   char why[256];
   if (jg_column_map_parse(s->initial_columns, &m, why, sizeof why) != JG_OK) return 0;

@@ -133,6 +133,15 @@ const jg__param_spec jg__param_specs[] = {
       "comoving with the dark matter (theta_c = 0)"},
      JG__KIND_CHOICE, P_OFF(perturbations.initial_gauge), 0, 0, 0, 0, 0, 1, 0, 0,
      table_gauge_words, 0},
+    {{"perturbations.initial_second_table", "quoted file name", "", "\"\"",
+      "empty, or a readable table of the same layout and wavenumbers; at most 1023 bytes",
+      "second snapshot at initial_second_redshift: the growth rates come from the two "
+      "(relative names as for initial_table); empty: none"},
+     JG__KIND_FILE, P_OFF(perturbations.initial_second_table), 0, 0, 0, 0, 0, 0, 0, 0, NULL,
+     JG_MAX_PATH},
+    NUMBER("perturbations.initial_second_redshift", perturbations.initial_second_redshift, "",
+           "0.0", "0 <= value <= 100000", 0, 0, 1e5, 0,
+           "redshift of initial_second_table, within 0.1 of z_initial in ln(1+z)"),
     NUMBER("perturbations.rel_tol", perturbations.rel_tol, "", "1e-8", "1e-13 <= value <= 1e-3",
            1e-13, 0, 1e-3, 0, "relative tolerance of the perturbation integration"),
     NUMBER("perturbations.abs_tol", perturbations.abs_tol, "", "1e-10", "0 < value <= 1e-3", 0,
@@ -237,6 +246,13 @@ const jg__param_rule jg__param_rules[] = {
       "the columns give k, the baryon density and velocity, each once",
       "the start needs them; a theta needs delta_c, and theta_c is 0 in the synchronous gauge"},
      NULL, jg__rule_start_columns},
+    {{"perturbations.initial_second_table, perturbations.initial_second_redshift, "
+      "perturbations.z_initial, perturbations.initial_table, perturbations.initial_columns",
+      "a second snapshot needs a start table with columns, at |ln((1 + z_2)/(1 + z_initial))| "
+      "<= 0.1, not 0",
+      "the rates are differences of ln delta over that step, which err by about half the step "
+      "times the change of the rate"},
+     NULL, jg__rule_second_snapshot_near},
     {{"perturbations.z_initial, perturbations.initial_table, perturbations.initial_columns",
       "z_initial >= 1500 unless the start table gives the dark matter's velocity",
       "our own start puts the dark matter on the Meszaros growing mode with smooth baryons, "
@@ -292,6 +308,8 @@ void jg_params_set_defaults(jg_params *p) {
   p->perturbations.initial_k_unit = JG_TABLE_K_PER_MPC;
   p->perturbations.initial_separator = JG_TABLE_BLANKS;
   p->perturbations.initial_gauge = JG_TABLE_NEWTONIAN;
+  p->perturbations.initial_second_table[0] = '\0';
+  p->perturbations.initial_second_redshift = 0.0;
   p->perturbations.rel_tol = 1e-8;
   p->perturbations.abs_tol = 1e-10;
 

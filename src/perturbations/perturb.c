@@ -218,9 +218,10 @@ void jg_perturb_model_describe_start(const jg_perturb_model *m, char *buf, size_
              "start: from the table %s (FNV-1a checksum %016llx) at z = %g, dark matter %s",
              jg_perturb_start_table_path(m->start_table),
              jg_perturb_start_table_checksum(m->start_table), m->settings.z_initial,
-             jg_perturb_start_table_has_cdm_rate(m->start_table)
-                 ? "with the table's velocity"
-                 : "with the Meszaros growing mode's rate");
+             !jg_perturb_start_table_has_cdm_rate(m->start_table)
+                 ? "with the Meszaros growing mode's rate"
+             : m->settings.initial_second_table[0] ? "and baryon rates from the second snapshot"
+                                                   : "with the table's velocity");
   } else if (m->start_given) {
     snprintf(buf, size,
              "start: at z = %g, dark matter on the Meszaros growing mode, baryons as the "

@@ -48,7 +48,12 @@ struct jg_perturb_start_table {
   jg_table_gauge gauge;
   double k_factor; /* table unit -> 1/Mpc */
   double k_prev;   /* the last row's k as written */
+  const char *second_path; /* the settings' initial_second_table while reading */
   jg_perturb_table_frame frame;
+  /* The second snapshot, read first: k (1/Mpc), delta_c, delta_b per row. */
+  double *second;     /* 3 per row */
+  int n_second;
+  double snapshot_step; /* ln a_2 - ln a_1 */
   double *ln_k;       /* n, 1/Mpc */
   double *value[N_Q]; /* n each */
   gsl_interp *interp[N_Q];
@@ -61,6 +66,7 @@ void jg_perturb_start_table_free(jg_perturb_start_table *t) {
     free(t->value[c]);
   }
   free(t->ln_k);
+  free(t->second);
   free(t);
 }
 
@@ -88,10 +94,33 @@ static jg_status convert_row(const jg_perturb_start_table *t, const char *path, 
     return JG_FAIL(err, JG_ECONFIG, "%s:%d: delta_c is 0 (every value is taken relative to it)",
                    path, line_no);
   q[Q_DENSITY] = col[JG_COLUMN_B_OVER_C] >= 0 ? v[JG_COLUMN_B_OVER_C] : v[JG_COLUMN_DELTA_B] / dc;
+  /* Two snapshots: d ln delta / d ln a as the difference of the logarithms
+   * (the rate at the middle of the step, to first order at the start). */
+  double snapshot_rate[2] = {NAN, NAN};
+  if (t->second) {
+    const double *w = &t->second[3 * t->n];
+    const double k = v[JG_COLUMN_K] * t->k_factor;
+    if (t->n >= t->n_second || fabs(w[0] / k - 1.0) > ST_K_SNAP)
+      return JG_FAIL(err, JG_ECONFIG,
+                     "%s:%d: k = %g has no twin on row %d of the second snapshot %s (the two "
+                     "must hold the same wavenumbers in the same order)",
+                     path, line_no, v[JG_COLUMN_K], t->n + 1, t->second_path);
+    const double ratio[2] = {w[1] / dc, w[2] / v[JG_COLUMN_DELTA_B]};
+    for (int i = 0; i < 2; i++) {
+      if (!(ratio[i] > 0.0) || !isfinite(ratio[i]))
+        return JG_FAIL(err, JG_ECONFIG,
+                       "%s:%d: delta_%c changes sign or vanishes between the two snapshots "
+                       "(no growth rate)",
+                       path, line_no, i ? 'b' : 'c');
+      snapshot_rate[i] = log(ratio[i]) / t->snapshot_step;
+    }
+  }
   if (col[JG_COLUMN_RATE_C] >= 0)
     q[Q_CDM_RATE] = v[JG_COLUMN_RATE_C];
   else if (col[JG_COLUMN_THETA_C] >= 0) /* Newtonian: the map check refuses it otherwise */
     q[Q_CDM_RATE] = -v[JG_COLUMN_THETA_C] * theta_factor / dc;
+  else if (t->second)
+    q[Q_CDM_RATE] = snapshot_rate[0];
   else
     q[Q_CDM_RATE] = t->frame.growing_rate;
   if (!(q[Q_CDM_RATE] != 0.0))
@@ -103,6 +132,8 @@ static jg_status convert_row(const jg_perturb_start_table *t, const char *path, 
     q[Q_BARYON_RATE] = v[JG_COLUMN_VELOCITY_RATIO] * q[Q_CDM_RATE];
   else if (col[JG_COLUMN_RATE_B] >= 0)
     q[Q_BARYON_RATE] = v[JG_COLUMN_RATE_B] * q[Q_DENSITY];
+  else if (col[JG_COLUMN_THETA_B] < 0) /* two snapshots */
+    q[Q_BARYON_RATE] = snapshot_rate[1] * q[Q_DENSITY];
   else if (t->gauge == JG_TABLE_SYNCHRONOUS)
     q[Q_BARYON_RATE] = q[Q_CDM_RATE] - v[JG_COLUMN_THETA_B] * theta_factor / dc;
   else
@@ -153,6 +184,25 @@ static jg_status store_row(void *user, const char *path, int line_no, const doub
   return JG_OK;
 }
 
+/* A row of the second snapshot (a jg_table_row_fn). */
+static jg_status store_second_row(void *user, const char *path, int line_no, const double *v,
+                                  jg_error *err) {
+  jg_perturb_start_table *t = user;
+  if (t->n_second == ST_ROWS_MAX)
+    return JG_FAIL(err, JG_ECONFIG, "%s: more than %d rows", path, ST_ROWS_MAX);
+  if (t->n_second % 64 == 0) {
+    double *bigger = realloc(t->second, sizeof(double) * 3 * (size_t)(t->n_second + 64));
+    if (!bigger) return JG_FAIL(err, JG_ENOMEM, "%s: out of memory for the table", path);
+    t->second = bigger;
+  }
+  (void)line_no;
+  double *w = &t->second[3 * t->n_second++];
+  w[0] = v[JG_COLUMN_K] * t->k_factor;
+  w[1] = v[JG_COLUMN_DELTA_C];
+  w[2] = v[JG_COLUMN_DELTA_B];
+  return JG_OK;
+}
+
 jg_perturb_start_table *jg_perturb_start_table_read_layout(const char *path,
                                                            const jg_perturb_settings *s,
                                                            const jg_perturb_table_frame *frame,
@@ -188,15 +238,33 @@ jg_perturb_start_table *jg_perturb_start_table_read_layout(const char *path,
   char why[256];
   jg_status st = jg_column_map_parse(plain ? plain_columns : s->initial_columns, &t->map, why,
                                      sizeof why);
-  if (st == JG_OK) st = jg_column_map_check_start(&t->map, t->gauge, why, sizeof why);
+  const int second = !plain && s->initial_second_table[0] != '\0';
+  if (st == JG_OK)
+    st = jg_column_map_check_start(&t->map, t->gauge, second, why, sizeof why);
   if (st != JG_OK) {
     JG_FAIL(err, JG_ECONFIG, "perturbations.initial_columns: %s", why);
   } else {
-    t->has_cdm_rate = t->map.column[JG_COLUMN_RATE_C] >= 0 ||
+    t->has_cdm_rate = second || t->map.column[JG_COLUMN_RATE_C] >= 0 ||
                       (t->map.column[JG_COLUMN_THETA_C] >= 0 && t->gauge == JG_TABLE_NEWTONIAN);
+    t->snapshot_step = log1p(s->z_initial) - log1p(s->initial_second_redshift);
+    t->second_path = s->initial_second_table;
+    if (second) {
+      st = jg_table_read_mapped(s->initial_second_table, &t->map,
+                                (jg_table_separator)s->initial_separator, 0, store_second_row, t,
+                                NULL, err);
+      if (st == JG_OK && !(t->snapshot_step != 0.0))
+        st = JG_FAIL(err, JG_ECONFIG,
+                     "perturbations.initial_second_redshift must differ from z_initial");
+    }
+  }
+  if (st == JG_OK) {
     st = jg_table_read_mapped(path, &t->map, (jg_table_separator)s->initial_separator,
                               plain ? PLAIN_MIN_CELLS : 0, store_row, t, &t->checksum, err);
+    if (st == JG_OK && second && t->n != t->n_second)
+      st = JG_FAIL(err, JG_ECONFIG, "%s has %d rows, the second snapshot %s has %d", path, t->n,
+                   s->initial_second_table, t->n_second);
   }
+  t->second_path = NULL;
   if (st == JG_OK && t->n < 2)
     st = JG_FAIL(err, JG_ECONFIG,
                  "%s: %d data row(s); at least two are needed (the start is interpolated in k)",
