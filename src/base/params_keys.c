@@ -107,8 +107,9 @@ const jg__param_spec jg__param_specs[] = {
      JG__KIND_CHOICE, P_OFF(perturbations.stepper), 0, 0, 0, 0, 0, 2, 0, 0, stepper_words, 0},
     {{"perturbations.initial_table", "quoted file name", "", "\"\"",
       "empty, or a readable table (see the README); at most 1023 bytes",
-      "baryon start per wavenumber at z_initial, read from this file (a relative name in a "
-      "parameter file from that file's folder, one given with --set from the current folder); empty: baryons empty and at rest"},
+      "start per wavenumber at z_initial (the baryons; the dark matter too if it gives its "
+      "velocity), read from this file (a relative name in a parameter file from that file's "
+      "folder, one given with --set from the current folder); empty: our own start"},
      JG__KIND_FILE, P_OFF(perturbations.initial_table), 0, 0, 0, 0, 0, 0, 0, 0, NULL, JG_MAX_PATH},
     {{"perturbations.initial_columns", "quoted words", "", "\"\"",
       "empty, or words from k, delta_c, delta_b, delta_T, b_over_c, T_over_c, velocity_ratio, "
@@ -248,8 +249,8 @@ const jg__param_rule jg__param_rules[] = {
      NULL, jg__rule_start_columns},
     {{"perturbations.initial_second_table, perturbations.initial_second_redshift, "
       "perturbations.z_initial, perturbations.initial_table, perturbations.initial_columns",
-      "a second snapshot needs a start table with columns, at |ln((1 + z_2)/(1 + z_initial))| "
-      "<= 0.1, not 0",
+      "a second snapshot needs a start table with columns, at abs(ln((1 + z_2)/(1 + "
+      "z_initial))) <= 0.1, not 0",
       "the rates are differences of ln delta over that step, which err by about half the step "
       "times the change of the rate"},
      NULL, jg__rule_second_snapshot_near},
