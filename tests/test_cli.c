@@ -894,6 +894,13 @@ static void growth_table(const char *dir, const char *name, const char *extra1,
   run_free(&r);
 }
 
+/* A fresh folder holding our growth table, ours.txt (its path in `ours`). */
+static void our_growth_table(char *dir, size_t dir_size, char *ours, size_t ours_size) {
+  make_temp_dir(dir, dir_size);
+  growth_table(dir, "ours.txt", NULL, NULL);
+  snprintf(ours, ours_size, "%s/ours.txt", dir);
+}
+
 static table read_table_file(const char *path) {
   char *text = read_text(path);
   cr_assert_not_null(text, "cannot read %s", path);
@@ -907,9 +914,7 @@ static table read_table_file(const char *path) {
  * (a reference k on one of our rows takes that row's value). */
 Test(compare, identical_tables_give_exit_0_and_zero_difference) {
   char dir[64], ours[128], cmp[128];
-  make_temp_dir(dir, sizeof dir);
-  growth_table(dir, "ours.txt", NULL, NULL);
-  snprintf(ours, sizeof ours, "%s/ours.txt", dir);
+  our_growth_table(dir, sizeof dir, ours, sizeof ours);
   snprintf(cmp, sizeof cmp, "%s/cmp.txt", dir);
   const char *args[] = {"compare", ours, ours, "--normalise-at", "10", "--tolerance", "1e-12",
                         "-o", cmp, NULL};
@@ -937,10 +942,8 @@ Test(compare, identical_tables_give_exit_0_and_zero_difference) {
  * tolerance below it gives exit status 3, one above it 0. */
 Test(compare, two_cosmologies_give_the_tolerance_status_and_the_place_of_the_largest) {
   char dir[64], ours[128], theirs[128], csv[128];
-  make_temp_dir(dir, sizeof dir);
-  growth_table(dir, "ours.txt", NULL, NULL);
+  our_growth_table(dir, sizeof dir, ours, sizeof ours);
   growth_table(dir, "theirs.txt", "cosmology.baryon_density_h2=0.024", "output.units=\"Mpc/h\"");
-  snprintf(ours, sizeof ours, "%s/ours.txt", dir);
   snprintf(theirs, sizeof theirs, "%s/theirs.txt", dir);
   snprintf(csv, sizeof csv, "%s/theirs.csv", dir);
   table a = read_table_file(ours), b = read_table_file(theirs);
@@ -988,9 +991,7 @@ Test(compare, two_cosmologies_give_the_tolerance_status_and_the_place_of_the_lar
  * is a reference redshift our table does not have. */
 Test(compare, malformed_reference_and_missing_redshift_are_refused) {
   char dir[64], ours[128], ref[128];
-  make_temp_dir(dir, sizeof dir);
-  growth_table(dir, "ours.txt", NULL, NULL);
-  snprintf(ours, sizeof ours, "%s/ours.txt", dir);
+  our_growth_table(dir, sizeof dir, ours, sizeof ours);
   snprintf(ref, sizeof ref, "%s/ref.txt", dir);
   const struct {
     const char *text, *message;
