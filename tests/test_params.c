@@ -118,6 +118,23 @@ Test(params, override_replaces_a_value_from_the_file) {
   cr_expect_eq(loaded.cosmology.baryon_density_h2, 0.02237, "other keys keep their values");
 }
 
+/* A wavenumber within 1e-9 (relative) of a bound of the fluid equations is
+ * that bound: 1 /Mpc converted to h/Mpc and back with ten digits reads
+ * 0.9999999999; 1e-8 off is still refused. */
+Test(params, wavenumbers_rounded_at_a_bound_are_the_bound) {
+  const char *set[] = {"perturbations.k_values=[0.9999999999, 10.0, 100000.00005]",
+                       "perturbations.k_min=0.9999999999"};
+  load_ok(REFERENCE, set, 2, &loaded);
+  cr_expect_eq(loaded.perturbations.k_values[0], 1.0);
+  cr_expect_eq(loaded.perturbations.k_values[1], 10.0, "inside values stay as written");
+  cr_expect_eq(loaded.perturbations.k_values[2], 1e5);
+  cr_expect_eq(loaded.perturbations.k_min, 1.0);
+  const char *off[] = {"perturbations.k_min=0.99999999"};
+  jg_error err;
+  jg_error_clear(&err);
+  cr_expect_eq(jg_params_load(REFERENCE, off, 1, &loaded, &err), JG_ECONFIG, "1e-8 below");
+}
+
 Test(params, later_override_of_the_same_key_wins) {
   const char *set[] = {"cosmology.hubble_h=0.7", "cosmology.hubble_h=0.65"};
   load_ok(REFERENCE, set, 2, &loaded);
