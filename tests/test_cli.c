@@ -916,11 +916,21 @@ Test(compare, identical_tables_give_exit_0_and_zero_difference) {
   char dir[64], ours[128], cmp[128];
   our_growth_table(dir, sizeof dir, ours, sizeof ours);
   snprintf(cmp, sizeof cmp, "%s/cmp.txt", dir);
+  char png[128];
+  snprintf(png, sizeof png, "%s/cmp.png", dir);
   const char *args[] = {"compare", ours, ours, "--normalise-at", "10", "--tolerance", "1e-12",
-                        "-o", cmp, NULL};
+                        "--figure", png, "-o", cmp, NULL};
   run_result r;
   run(args, &r);
   cr_assert(exited_with(&r, 0), "exit status; stderr %s", r.err);
+  /* The figure, when gnuplot is installed (tests/setup.sh installs it). */
+  if (system("command -v gnuplot >/dev/null 2>&1") == 0) {
+    char *image = read_text(png);
+    cr_expect(image && strncmp(image, "\x89PNG", 4) == 0, "no PNG figure in %s", png);
+    free(image);
+  } else {
+    cr_expect(strstr(r.err, "gnuplot is not installed"), "%s", r.err);
+  }
   cr_expect(strstr(r.out, "delta_b/delta_c: largest relative difference 0.000e+00"), "%s", r.out);
   table t = read_table_file(cmp);
   cr_assert_eq(t.n_rows, 27, "9 k x 3 z compared");

@@ -11,6 +11,7 @@
  */
 #include "jeansgrow/compare.h"
 
+#include <errno.h>
 #include <gsl/gsl_errno.h>
 #include <gsl/gsl_interp.h>
 #include <math.h>
@@ -89,7 +90,7 @@ static jg_status sort_checked(point_list *l, const char *path, jg_error *err) {
 static jg_status our_layout(const char *path, jg_column_map *map, double *h, double *k_factor,
                             jg_error *err) {
   FILE *f = fopen(path, "r");
-  if (!f) return JG_FAIL(err, JG_ECONFIG, "cannot read %s: %m", path);
+  if (!f) return JG_FAIL(err, JG_ECONFIG, "cannot read %s: %s", path, strerror(errno));
   char line[4096], names[4096] = "";
   *h = NAN;
   while (fgets(line, sizeof line, f) && line[0] == '#') {
