@@ -1019,6 +1019,26 @@ Test(start_table, two_snapshots_give_the_rates_of_a_power_law) {
   jg_perturb_start_table_free(t);
   remove_table(first);
   remove_table(later);
+  /* Synchronous theta_b with the dark matter's rate from the snapshots:
+   * d ln delta_c/d ln a = 1 as above; theta_b = -0.1 (aH/c = 1 in this
+   * frame) with delta_c = 2 gives (d delta_b/d ln a)/delta_c = 1 + 0.1/2
+   * = 1.05, the velocity ratio 1.05. */
+  write_table(first, sizeof first, "1 2 0.5 -0.1\n10 2 0.5 -0.1\n");
+  snprintf(text, sizeof text, "1 %.17g 0.5 0\n10 %.17g 0.5 0\n", 2.0 * growth, 2.0 * growth);
+  write_table(later, sizeof later, text);
+  snprintf(s->initial_columns, sizeof s->initial_columns, "k delta_c delta_b theta_b");
+  snprintf(s->initial_second_table, sizeof s->initial_second_table, "%s", later);
+  s->initial_gauge = JG_TABLE_SYNCHRONOUS;
+  s->z_initial = 1000.0;
+  s->initial_second_redshift = 990.0;
+  t = jg_perturb_start_table_read_layout(first, s, &frame, &err);
+  cr_assert_not_null(t, "%s", err.message);
+  st = start_of(t, 3.0);
+  ASSERT_REL(st.cdm_rate, 1.0, 1e-12, "synchronous: d ln delta_c / d ln a from the snapshots");
+  ASSERT_REL(st.velocity_ratio, 1.05, 1e-12, "synchronous: velocity ratio");
+  jg_perturb_start_table_free(t);
+  remove_table(first);
+  remove_table(later);
 }
 
 /* The fixes of the reading: a subnormal value is a number (1e-310 lies
