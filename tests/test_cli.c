@@ -1026,3 +1026,155 @@ Test(good_runs, run_summary_speaks_one_mass_convention_and_explains_its_flags, .
     remove_dir(dir);
   }
 }
+
+/* ---- compare: our growth table against another code's -------------------- */
+
+TestSuite(compare);
+
+/* A growth table of the reference cosmology with `extra` --set overrides,
+ * written to dir/name. */
+static void growth_table(const char *dir, const char *name, const char *extra1,
+                         const char *extra2) {
+  char out[256];
+  snprintf(out, sizeof out, "%s/%s", dir, name);
+  const char *args[] = {"growth", REFERENCE, "--set", "perturbations.k_count=9",
+                        "--set", "output.redshifts=[1000.0, 100.0, 20.0]",
+                        "--set", extra1 ? extra1 : "perturbations.k_max=5000.0",
+                        "--set", extra2 ? extra2 : "perturbations.k_min=1.0",
+                        "-o", out, NULL};
+  run_result r;
+  run(args, &r);
+  cr_assert(exited_with(&r, 0), "growth %s: %s", name, r.err);
+  run_free(&r);
+}
+
+/* A fresh folder holding our growth table, ours.txt (its path in `ours`). */
+static void our_growth_table(char *dir, size_t dir_size, char *ours, size_t ours_size) {
+  make_temp_dir(dir, dir_size);
+  growth_table(dir, "ours.txt", NULL, NULL);
+  snprintf(ours, ours_size, "%s/ours.txt", dir);
+}
+
+static table read_table_file(const char *path) {
+  char *text = read_text(path);
+  cr_assert_not_null(text, "cannot read %s", path);
+  table t;
+  parse_table(text, &t);
+  free(text);
+  return t;
+}
+
+/* The same table on both sides: exit 0, and every difference exactly 0
+ * (a reference k on one of our rows takes that row's value). */
+Test(compare, identical_tables_give_exit_0_and_zero_difference) {
+  char dir[64], ours[128], cmp[128];
+  our_growth_table(dir, sizeof dir, ours, sizeof ours);
+  snprintf(cmp, sizeof cmp, "%s/cmp.txt", dir);
+  char png[128];
+  snprintf(png, sizeof png, "%s/cmp.png", dir);
+  const char *args[] = {"compare", ours, ours, "--normalise-at", "10", "--tolerance", "1e-12",
+                        "--figure", png, "-o", cmp, NULL};
+  run_result r;
+  run(args, &r);
+  cr_assert(exited_with(&r, 0), "exit status; stderr %s", r.err);
+  /* The figure, when gnuplot is installed (tests/setup.sh installs it). */
+  if (system("command -v gnuplot >/dev/null 2>&1") == 0) {
+    char *image = read_text(png);
+    cr_expect(image && strncmp(image, "\x89PNG", 4) == 0, "no PNG figure in %s", png);
+    free(image);
+  } else {
+    cr_expect(strstr(r.err, "gnuplot is not installed"), "%s", r.err);
+  }
+  cr_expect(strstr(r.out, "delta_b/delta_c: largest relative difference 0.000e+00"), "%s", r.out);
+  table t = read_table_file(cmp);
+  cr_assert_eq(t.n_rows, 27, "9 k x 3 z compared");
+  const char *diffs[] = {"diff_b_over_c", "diff_delta_b_norm", "diff_delta_c_norm"};
+  for (int d = 0; d < 3; d++) {
+    const int c = column_index(&t, diffs[d]);
+    cr_assert_geq(c, 0, "no column %s", diffs[d]);
+    for (int i = 0; i < t.n_rows; i++) cr_expect_eq(cell(&t, i, c), 0.0, "%s row %d", diffs[d], i);
+  }
+  table_free(&t);
+  run_free(&r);
+  remove_dir(dir);
+}
+
+/* Two cosmologies (Omega_b h^2 0.02237 and 0.024), the second written as a
+ * comma-separated table in h/Mpc with its columns in another order, as
+ * another code might: the largest difference and its place must be the
+ * ones computed here from the two tables row by row (same k grid), and a
+ * tolerance below it gives exit status 3, one above it 0. */
+Test(compare, two_cosmologies_give_the_tolerance_status_and_the_place_of_the_largest) {
+  char dir[64], ours[128], theirs[128], csv[128];
+  our_growth_table(dir, sizeof dir, ours, sizeof ours);
+  growth_table(dir, "theirs.txt", "cosmology.baryon_density_h2=0.024", "output.units=\"Mpc/h\"");
+  snprintf(theirs, sizeof theirs, "%s/theirs.txt", dir);
+  snprintf(csv, sizeof csv, "%s/theirs.csv", dir);
+  table a = read_table_file(ours), b = read_table_file(theirs);
+  cr_assert_eq(a.n_rows, b.n_rows);
+  const int az = column_index(&a, "z"), abc = column_index(&a, "b_over_c");
+  const int bz = column_index(&b, "z"), bk = column_index(&b, "k[h/Mpc]");
+  const int bdc = column_index(&b, "delta_c"), bdb = column_index(&b, "delta_b");
+  cr_assert(az >= 0 && abc >= 0 && bz >= 0 && bk >= 0 && bdc >= 0 && bdb >= 0);
+  FILE *f = fopen(csv, "w");
+  cr_assert_not_null(f);
+  fprintf(f, "# k [h/Mpc], z, delta_b, delta_c (another code's layout)\n");
+  double largest = 0.0, z_at = 0.0, k_at = 0.0;
+  for (int i = 0; i < b.n_rows; i++) {
+    const double db = cell(&b, i, bdb) * 7.0, dc = cell(&b, i, bdc) * 7.0; /* any normalisation */
+    fprintf(f, "%.10e, %.10e ,%.10e, %.10e\n", cell(&b, i, bk), cell(&b, i, bz), db, dc);
+    const double diff = fabs(cell(&a, i, abc) / (db / dc) - 1.0);
+    if (diff > largest) largest = diff, z_at = cell(&b, i, bz), k_at = cell(&b, i, bk);
+  }
+  fclose(f);
+  cr_assert_gt(largest, 1e-3, "the cosmologies differ by %g only", largest);
+  char expected[160], tight[32], loose[32];
+  snprintf(expected, sizeof expected, "largest relative difference %.3e at z = %g, k = %.6g h/Mpc",
+           largest, z_at, k_at);
+  snprintf(tight, sizeof tight, "%g", largest * 0.5);
+  snprintf(loose, sizeof loose, "%g", largest * 2.0);
+  const char *tolerances[] = {tight, loose};
+  for (int j = 0; j < 2; j++) {
+    const char *args[] = {"compare", ours, csv, "--columns", "k z delta_b delta_c",
+                          "--separator", "commas", "--k-unit", "h/Mpc", "--tolerance",
+                          tolerances[j], NULL};
+    run_result r;
+    run(args, &r);
+    cr_expect(exited_with(&r, j == 0 ? 3 : 0), "tolerance %s: exit status; stderr %s",
+              tolerances[j], r.err);
+    cr_expect(strstr(r.err, expected), "summary '%s' not in: %s", expected, r.err);
+    cr_expect(strncmp(r.out, "# jeansgrow", 11) == 0, "the table goes to stdout");
+    run_free(&r);
+  }
+  table_free(&a);
+  table_free(&b);
+  remove_dir(dir);
+}
+
+/* A malformed reference is refused with its file and line (exit 2), and so
+ * is a reference redshift our table does not have. */
+Test(compare, malformed_reference_and_missing_redshift_are_refused) {
+  char dir[64], ours[128], ref[128];
+  our_growth_table(dir, sizeof dir, ours, sizeof ours);
+  snprintf(ref, sizeof ref, "%s/ref.txt", dir);
+  const struct {
+    const char *text, *message;
+  } cases[] = {
+      {"# z k delta_c delta_b\n20 1 1 0.5\n20 10 1\n", "ref.txt:3: 3 cell(s) on this row"},
+      {"20 1 1 0.5\n20 x 1 0.5\n", "ref.txt:2: cell 2 ('x') is not a number"},
+      {"20 1 1 nan\n", "ref.txt:1: cell 4 ('nan') is not a finite number"},
+      {"20 10 1 0.5\n20 10 1 0.5\n", "ref.txt:2: z = 20, k = 10 repeats line 1"},
+      {"30 10 1 0.5\n", "ref.txt:1: z = 30 is not among the redshifts"},
+  };
+  for (size_t i = 0; i < sizeof cases / sizeof cases[0]; i++) {
+    write_text(ref, cases[i].text);
+    const char *args[] = {"compare", ours, ref, NULL};
+    run_result r;
+    run(args, &r);
+    cr_expect(exited_with(&r, 2), "case %zu: exit status", i);
+    cr_expect(strstr(r.err, cases[i].message), "case %zu: %s", i, r.err);
+    cr_expect_str_empty(r.out, "case %zu: nothing written", i);
+    run_free(&r);
+  }
+  remove_dir(dir);
+}

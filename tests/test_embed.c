@@ -170,6 +170,21 @@ Test(null_error, perturbations) {
   cr_assert_eq(write(fd, "1.0 0.1\n", 8), 8);
   close(fd);
   cr_assert_null(jg_perturb_start_table_read(bad_table, NULL));
+  const jg_perturb_table_frame frame = {1.0, 1.0, 1.0};
+  cr_assert_null(jg_perturb_start_table_read_layout(bad_table, &ps, &frame, NULL));
+  cr_assert_null(jg_perturb_start_table_read_layout(bad_table, &ps, NULL, NULL));
+  jg_column_map map;
+  char why[128];
+  cr_assert_eq(jg_column_map_parse("k delta_c delta_b", &map, why, sizeof why), JG_OK);
+  cr_assert_neq(jg_table_read_mapped("/nonexistent/table.txt", &map, JG_TABLE_BLANKS, 0,
+                                     NULL, NULL, NULL, NULL),
+                JG_OK);
+  jg_compare_layout layout = {.k_unit = JG_TABLE_K_PER_MPC};
+  jg_comparison *comparison = NULL;
+  cr_assert_neq(jg_compare_tables(bad_table, "/nonexistent/reference.txt", &layout, &comparison,
+                                  NULL),
+                JG_OK);
+  cr_assert_null(comparison);
   unlink(bad_table);
   cr_assert_null(jg_perturb_model_new_medium(NULL, &s.p.perturbations, NULL, NULL));
   cr_assert_null(jg_perturb_workspace_new(NULL, NULL));
@@ -508,7 +523,7 @@ Test(embed, extreme_values_never_make_gsl_abort_the_host, .timeout = 60) {
     jg_perturb_settings ps = s.p.perturbations;
     ps.z_initial = x;
     jg_perturb_model_free(jg_perturb_model_new(s.th, &ps, NULL, NULL));
-    jg_perturb_start start = {x, x, x};
+    jg_perturb_start start = {x, x, x, 1, x};
     jg_perturb_model_free(jg_perturb_model_new(s.th, &s.p.perturbations, &start, NULL));
   }
   /* Beyond the stored history the depths keep growing with z. */

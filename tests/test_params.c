@@ -118,6 +118,23 @@ Test(params, override_replaces_a_value_from_the_file) {
   cr_expect_eq(loaded.cosmology.baryon_density_h2, 0.02237, "other keys keep their values");
 }
 
+/* A wavenumber within 1e-9 (relative) of a bound of the fluid equations is
+ * that bound: 1 /Mpc converted to h/Mpc and back with ten digits reads
+ * 0.9999999999; 1e-8 off is still refused. */
+Test(params, wavenumbers_rounded_at_a_bound_are_the_bound) {
+  const char *set[] = {"perturbations.k_values=[0.9999999999, 10.0, 100000.00005]",
+                       "perturbations.k_min=0.9999999999"};
+  load_ok(REFERENCE, set, 2, &loaded);
+  cr_expect_eq(loaded.perturbations.k_values[0], 1.0);
+  cr_expect_eq(loaded.perturbations.k_values[1], 10.0, "inside values stay as written");
+  cr_expect_eq(loaded.perturbations.k_values[2], 1e5);
+  cr_expect_eq(loaded.perturbations.k_min, 1.0);
+  const char *off[] = {"perturbations.k_min=0.99999999"};
+  jg_error err;
+  jg_error_clear(&err);
+  cr_expect_eq(jg_params_load(REFERENCE, off, 1, &loaded, &err), JG_ECONFIG, "1e-8 below");
+}
+
 Test(params, later_override_of_the_same_key_wins) {
   const char *set[] = {"cosmology.hubble_h=0.7", "cosmology.hubble_h=0.65"};
   load_ok(REFERENCE, set, 2, &loaded);
@@ -452,7 +469,7 @@ Test(params, documented_keys_are_unique_and_in_a_group) {
  * table without a case here fails the count at the end. The violations
  * follow the table's order. */
 Test(params, every_listed_combined_rule_is_enforced_naming_its_keys) {
-  enum { N_RULES = 6 };
+  enum { N_RULES = 9 };
   for (int i = 0; i < N_RULES; i++) {
     const jg_param_rule *r = jg_param_rule_at(i);
     cr_assert_not_null(r, "rule %d is missing", i);
@@ -464,7 +481,22 @@ Test(params, every_listed_combined_rule_is_enforced_naming_its_keys) {
     case 2: pt->k_min = 10.0, pt->k_max = 5.0; break;
     case 3: pt->k_count = 1, pt->k_min = 10.0, pt->k_max = 20.0; break;
     case 4: loaded.output.redshifts[0] = pt->z_initial = 6000.0; break;
-    case 5: loaded.output.history_z_min = loaded.thermal.start_redshift; break;
+    case 5:
+      snprintf(pt->initial_columns, sizeof pt->initial_columns, "k delta_b theta_b");
+      pt->initial_gauge = JG_TABLE_SYNCHRONOUS;
+      break;
+    case 6:
+      snprintf(pt->initial_table, sizeof pt->initial_table, "start.csv");
+      snprintf(pt->initial_columns, sizeof pt->initial_columns, "k delta_c delta_b");
+      snprintf(pt->initial_second_table, sizeof pt->initial_second_table, "later.csv");
+      pt->initial_second_redshift = pt->z_initial;
+      break;
+    case 7:
+      loaded.output.redshifts[0] = 20.0, loaded.output.n_redshifts = 1, pt->z_initial = 1000.0;
+      snprintf(pt->initial_table, sizeof pt->initial_table, "start.csv");
+      snprintf(pt->initial_columns, sizeof pt->initial_columns, "k b_over_c rate_b");
+      break;
+    case 8: loaded.output.history_z_min = loaded.thermal.start_redshift; break;
     }
     jg_error err;
     jg_error_clear(&err);
@@ -655,11 +687,16 @@ static const char *stage_refusal(const char *key, double value, jg_error *err) {
 Test(params, every_range_is_the_one_the_stages_check) {
   /* Keys no stage reads as a range of its own: the output choices are the
    * program's; z_initial is bounded by the medium a model is built on (an
-   * analytic test medium may start anywhere); the table name is a file. */
+   * analytic test medium may start anywhere); the table name is a file, and
+   * its layout keys are read only with a table (the table reader checks the
+   * three words with jg_params_check_value; tests/test_perturb.c). */
   static const char *const loader_only[] = {
-      "perturbations.z_initial", "perturbations.initial_table", "output.redshifts",
+      "perturbations.z_initial", "perturbations.initial_table", "perturbations.initial_columns",
+      "perturbations.initial_k_unit", "perturbations.initial_separator",
+      "perturbations.initial_gauge", "perturbations.initial_second_table",
+      "perturbations.initial_second_redshift", "output.redshifts",
       "output.history_rows",     "output.history_z_min",        "output.units",
-      "output.mass_radius",      NULL};
+      "output.mass_radius", NULL};
   const jg_param_doc *d;
   int stage_keys = 0;
   for (int i = 0; (d = jg_param_doc_at(i)) != NULL; i++) {

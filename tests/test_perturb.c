@@ -111,7 +111,7 @@ Test(perturb, eds_catch_up_moving_with_dark_matter) {
   jg_medium md = eds_medium_of(&e);
   const double a_i = 1e-3;
   jg_perturb_settings s = tight_settings(1.0 / a_i - 1.0, JG_SOUND_SPEED_ISOTHERMAL);
-  jg_perturb_start start = {0.0, 1.0, 0.0};
+  jg_perturb_start start = {0.0, 1.0, 0.0, 0, 0.0};
   jg_error err;
   jg_perturb_model *m = jg_perturb_model_new_medium(&md, &s, &start, &err);
   cr_assert_not_null(m, "%s", err.message);
@@ -799,7 +799,7 @@ Test(start_table, reads_and_interpolates_linear_data_exactly) {
   }
   jg_perturb_start s;
   cr_assert_eq(jg_perturb_start_table_at(t, 0.99, &s, &err), JG_EINVAL, "below the table");
-  cr_assert(strstr(err.message, "outside the initial-condition table"), "%s", err.message);
+  cr_assert(strstr(err.message, "outside the start table"), "%s", err.message);
   cr_assert_eq(jg_perturb_start_table_at(t, 101.0, &s, &err), JG_EINVAL, "above the table");
   jg_perturb_start_table_free(t);
   remove_table(path);
@@ -816,7 +816,7 @@ Test(start_table, constant_table_is_the_uniform_start) {
   jg_params_set_defaults(&d);
   snprintf(d.perturbations.initial_table, sizeof d.perturbations.initial_table, "%s", path);
   real_case_open(&t, &d);
-  const jg_perturb_start uniform = {0.25, 0.5, 0.01};
+  const jg_perturb_start uniform = {0.25, 0.5, 0.01, 0, 0.0};
   jg_perturb_settings s = d.perturbations;
   s.initial_table[0] = '\0';
   jg_perturb_model *mu;
@@ -893,4 +893,268 @@ Test(start_table, restart_from_own_solution) {
   jg_perturb_model_free(mr);
   real_case_close(&c);
   remove_table(path);
+}
+
+/* ---- column maps: the conventions of other codes' tables ----------------- */
+
+/* A start table read with a layout, settings from the defaults. */
+static jg_perturb_start_table *read_layout(const char *path, const char *columns, int k_unit,
+                                           int separator, int gauge,
+                                           const jg_perturb_table_frame *frame, jg_error *err) {
+  jg_params d;
+  jg_params_set_defaults(&d);
+  snprintf(d.perturbations.initial_columns, sizeof d.perturbations.initial_columns, "%s",
+           columns);
+  d.perturbations.initial_k_unit = k_unit;
+  d.perturbations.initial_separator = separator;
+  d.perturbations.initial_gauge = gauge;
+  jg_error_clear(err);
+  return jg_perturb_start_table_read_layout(path, &d.perturbations, frame, err);
+}
+
+/* The start one row gives, at the row's own k (1/Mpc). */
+static jg_perturb_start start_of(const jg_perturb_start_table *t, double k) {
+  jg_perturb_start s;
+  jg_error err;
+  jg_error_clear(&err);
+  cr_assert_eq(jg_perturb_start_table_at(t, k, &s, &err), JG_OK, "%s", err.message);
+  return s;
+}
+
+/* Each velocity convention against a case worked by hand (src/PHYSICS.md
+ * §7.6), with the frame h = 0.5, aH/c = 0.01 /Mpc, growing-mode rate 0.9.
+ * Rows at k = 2 and 4 h/Mpc, i.e. 1 and 2 /Mpc; delta_c = 4, delta_b = 1
+ * on the first row, so delta_b/delta_c = 0.25:
+ *  - growth rates rate_c = 0.95, rate_b = 1.5: d delta_c/d ln a / delta_c
+ *    = 0.95, d delta_b/d ln a / delta_c = 1.5 x 0.25 = 0.375, velocity
+ *    ratio 0.375/0.95;
+ *  - Newtonian theta_c = -0.02 h/Mpc = -0.01 /Mpc: d delta_c/d ln a =
+ *    -theta_c/(aH/c) = 1, per delta_c 0.25; theta_b = -0.004 h/Mpc =
+ *    -0.002 /Mpc: d delta_b/d ln a = 0.2, per delta_c 0.05; ratio 0.2;
+ *  - synchronous theta_b = -0.004 h/Mpc (theta_c = 0): d delta_b/d ln a =
+ *    d delta_c/d ln a + 0.2, per delta_c 0.9 + 0.05 = 0.95 with the growing
+ *    mode's 0.9; ratio 0.95/0.9, and the dark matter keeps the growing mode;
+ *  - the same synchronous table with rate_c = 0.95: 0.95 + 0.05 = 1.0,
+ *    ratio 1/0.95. */
+Test(start_table, each_velocity_convention_matches_the_hand_derived_case) {
+  const jg_perturb_table_frame frame = {0.5, 0.01, 0.9};
+  struct {
+    const char *text, *columns;
+    int separator, gauge;
+    double b_over_c, velocity_ratio, cdm_rate;
+    int has_cdm_rate;
+  } cases[] = {
+      {"# k, delta_c, delta_b, rate_c, rate_b\n2, 4, 1, 0.95, 1.5\n 4 ,4 , 1,0.95,1.5\n",
+       "k delta_c delta_b rate_c rate_b", JG_TABLE_COMMAS, JG_TABLE_NEWTONIAN, 0.25,
+       0.375 / 0.95, 0.95, 1},
+      {"-0.004 1 2 -0.02 4\n-0.004 1 4 -0.02 4\n", "theta_b delta_b k theta_c delta_c",
+       JG_TABLE_BLANKS, JG_TABLE_NEWTONIAN, 0.25, 0.2, 0.25, 1},
+      {"2\t4\t1\t-0.004\n4\t4\t1\t-0.004\n", "k delta_c delta_b theta_b", JG_TABLE_BLANKS,
+       JG_TABLE_SYNCHRONOUS, 0.25, 0.95 / 0.9, 0.0, 0},
+      {"2,0.95,4,1,-0.004,99\n4,0.95,4,1,-0.004,99\n", "k,rate_c,delta_c,delta_b,theta_b,-",
+       JG_TABLE_COMMAS, JG_TABLE_SYNCHRONOUS, 0.25, 1.0 / 0.95, 0.95, 1},
+  };
+  for (size_t i = 0; i < sizeof cases / sizeof cases[0]; i++) {
+    char path[JG_MAX_PATH];
+    write_table(path, sizeof path, cases[i].text);
+    jg_error err;
+    jg_perturb_start_table *t = read_layout(path, cases[i].columns, JG_TABLE_K_H_PER_MPC,
+                                            cases[i].separator, cases[i].gauge, &frame, &err);
+    cr_assert_not_null(t, "case %zu: %s", i, err.message);
+    double lo, hi;
+    jg_perturb_start_table_range(t, &lo, &hi);
+    ASSERT_REL(lo, 1.0, 1e-15, "case %zu: k_min in 1/Mpc", i);
+    ASSERT_REL(hi, 2.0, 1e-15, "case %zu: k_max in 1/Mpc", i);
+    cr_assert_eq(jg_perturb_start_table_has_cdm_rate(t), cases[i].has_cdm_rate, "case %zu", i);
+    for (double k = 1.0; k <= 2.0; k *= 1.25) {
+      jg_perturb_start s = start_of(t, k);
+      ASSERT_REL(s.density_ratio, cases[i].b_over_c, 1e-14, "case %zu k %g", i, k);
+      ASSERT_REL(s.velocity_ratio, cases[i].velocity_ratio, 1e-14, "case %zu k %g", i, k);
+      cr_assert_eq(s.has_cdm_rate, cases[i].has_cdm_rate, "case %zu", i);
+      if (s.has_cdm_rate) ASSERT_REL(s.cdm_rate, cases[i].cdm_rate, 1e-14, "case %zu", i);
+    }
+    jg_perturb_start_table_free(t);
+    remove_table(path);
+  }
+}
+
+/* Two snapshots, worked by hand: delta_c ~ a and delta_b ~ a^1.5 between
+ * z = 1000 and z_2 = 990 (a_2/a_1 = 1001/991), so the difference of the
+ * logarithms gives the rates 1 and 1.5 exactly: d ln delta_c/d ln a = 1,
+ * (d delta_b/d ln a)/delta_c = 1.5 x 0.25, velocity ratio 0.375. With the
+ * snapshots the other way round (the start at z = 990, the second one at
+ * 1000), the same rates. */
+Test(start_table, two_snapshots_give_the_rates_of_a_power_law) {
+  const double growth = 1001.0 / 991.0;
+  char first[JG_MAX_PATH], later[JG_MAX_PATH], text[512];
+  write_table(first, sizeof first, "1 2 0.5\n10 2 0.5\n");
+  snprintf(text, sizeof text, "1 %.17g %.17g\n10 %.17g %.17g\n", 2.0 * growth,
+           0.5 * pow(growth, 1.5), 2.0 * growth, 0.5 * pow(growth, 1.5));
+  write_table(later, sizeof later, text);
+  jg_params d;
+  jg_params_set_defaults(&d);
+  jg_perturb_settings *s = &d.perturbations;
+  snprintf(s->initial_columns, sizeof s->initial_columns, "k delta_c delta_b");
+  snprintf(s->initial_second_table, sizeof s->initial_second_table, "%s", later);
+  s->z_initial = 1000.0;
+  s->initial_second_redshift = 990.0;
+  const jg_perturb_table_frame frame = {1.0, 1.0, 0.9};
+  jg_error err;
+  jg_error_clear(&err);
+  jg_perturb_start_table *t = jg_perturb_start_table_read_layout(first, s, &frame, &err);
+  cr_assert_not_null(t, "%s", err.message);
+  jg_perturb_start st = start_of(t, 3.0);
+  cr_assert(st.has_cdm_rate);
+  ASSERT_REL(st.cdm_rate, 1.0, 1e-12, "d ln delta_c / d ln a");
+  ASSERT_REL(st.density_ratio, 0.25, 1e-15, "delta_b/delta_c");
+  ASSERT_REL(st.velocity_ratio, 0.375, 1e-12, "velocity ratio");
+  jg_perturb_start_table_free(t);
+  /* Earlier second snapshot: swap the roles of the files. */
+  s->z_initial = 990.0;
+  s->initial_second_redshift = 1000.0;
+  snprintf(s->initial_second_table, sizeof s->initial_second_table, "%s", first);
+  t = jg_perturb_start_table_read_layout(later, s, &frame, &err);
+  cr_assert_not_null(t, "%s", err.message);
+  st = start_of(t, 3.0);
+  ASSERT_REL(st.cdm_rate, 1.0, 1e-12, "d ln delta_c / d ln a, backwards");
+  /* there delta_b/delta_c = 0.25 (a_2/a_1)^0.5, and the ratio 1.5 times it */
+  ASSERT_REL(st.velocity_ratio, 0.375 * sqrt(growth), 1e-12, "velocity ratio, backwards");
+  jg_perturb_start_table_free(t);
+  remove_table(first);
+  remove_table(later);
+  /* Synchronous theta_b with the dark matter's rate from the snapshots:
+   * d ln delta_c/d ln a = 1 as above; theta_b = -0.1 (aH/c = 1 in this
+   * frame) with delta_c = 2 gives (d delta_b/d ln a)/delta_c = 1 + 0.1/2
+   * = 1.05, the velocity ratio 1.05. */
+  write_table(first, sizeof first, "1 2 0.5 -0.1\n10 2 0.5 -0.1\n");
+  snprintf(text, sizeof text, "1 %.17g 0.5 0\n10 %.17g 0.5 0\n", 2.0 * growth, 2.0 * growth);
+  write_table(later, sizeof later, text);
+  snprintf(s->initial_columns, sizeof s->initial_columns, "k delta_c delta_b theta_b");
+  snprintf(s->initial_second_table, sizeof s->initial_second_table, "%s", later);
+  s->initial_gauge = JG_TABLE_SYNCHRONOUS;
+  s->z_initial = 1000.0;
+  s->initial_second_redshift = 990.0;
+  t = jg_perturb_start_table_read_layout(first, s, &frame, &err);
+  cr_assert_not_null(t, "%s", err.message);
+  st = start_of(t, 3.0);
+  ASSERT_REL(st.cdm_rate, 1.0, 1e-12, "synchronous: d ln delta_c / d ln a from the snapshots");
+  ASSERT_REL(st.velocity_ratio, 1.05, 1e-12, "synchronous: velocity ratio");
+  jg_perturb_start_table_free(t);
+  remove_table(first);
+  remove_table(later);
+}
+
+/* The fixes of the reading: a subnormal value is a number (1e-310 lies
+ * below the smallest normal double, 2.2e-308, and strtod flags it as an
+ * underflow), and a k within 1e-9 relative of a table end, as an h/Mpc
+ * value rounded to ten digits gives, is that end. */
+Test(start_table, subnormal_values_and_rounded_ends_are_accepted) {
+  char path[JG_MAX_PATH];
+  write_table(path, sizeof path, "1 1e-310 0.5\n100 0.2 0.5\n");
+  jg_error err;
+  jg_error_clear(&err);
+  jg_perturb_start_table *t = jg_perturb_start_table_read(path, &err);
+  cr_assert_not_null(t, "%s", err.message);
+  cr_assert_eq(start_of(t, 1.0).density_ratio, 1e-310);
+  jg_perturb_start s;
+  cr_assert_eq(jg_perturb_start_table_at(t, 0.9999999999, &s, &err), JG_OK, "%s", err.message);
+  cr_assert_eq(s.density_ratio, 1e-310, "the end row itself");
+  cr_assert_eq(jg_perturb_start_table_at(t, 100.00000001, &s, &err), JG_OK, "%s", err.message);
+  cr_assert_eq(jg_perturb_start_table_at(t, 0.99999999, &s, &err), JG_EINVAL, "1e-8 below");
+  jg_perturb_start_table_free(t);
+  remove_table(path);
+}
+
+/* Our own state at z_hand, written as another code would write it, read
+ * back as the start at z_hand and evolved on: delta_b/delta_c must agree
+ * with the run that never stopped. The table carries the dark matter's
+ * velocity, so nothing is approximated at the hand-over; what is left is
+ * the integration error of the two runs at the default tolerances (1e-6 is
+ * the accuracy they promise, README "Where the results stop being valid"). */
+typedef enum { EXPORT_RATES_CSV_H, EXPORT_THETA_NEWTONIAN, EXPORT_THETA_SYNCHRONOUS } export_kind;
+
+static void export_state(const real_case *c, export_kind kind, double z_hand, const double *ks,
+                         int nk, const jg_perturb_point *state, char *text, size_t size) {
+  const double h = c->p.cosmology.hubble_h;
+  const double a = 1.0 / (1.0 + z_hand);
+  /* aH/c in 1/Mpc: the conformal Hubble rate, the unit of theta (c = 1). */
+  const double conformal_hubble = a * jg_background_hubble(c->bg, a) * JG_MPC / JG_C_LIGHT;
+  snprintf(text, size, "# exported at z = %g\n", z_hand);
+  for (int j = 0; j < nk; j++) {
+    const jg_perturb_point *p = &state[j];
+    /* An arbitrary normalisation per k, as a transfer function has. */
+    const double norm = -3.0 * (1.0 + j);
+    const double dc = p->delta_c * norm, db = p->delta_b * norm, dT = p->delta_T * norm;
+    const double theta_c = -p->growth_c * dc * conformal_hubble;
+    const double theta_b = -p->growth_b * db * conformal_hubble;
+    char row[512];
+    if (kind == EXPORT_RATES_CSV_H)
+      snprintf(row, sizeof row, "%.17g, %.17g, %.17g, %.17g, %.17g, %.17g\n", ks[j] / h, dc, db,
+               p->growth_c, p->growth_b, dT);
+    else if (kind == EXPORT_THETA_NEWTONIAN)
+      snprintf(row, sizeof row, "%.17g %.17g %.17g %.17g %.17g %.17g\n", theta_b, db, ks[j],
+               theta_c, dc, dT);
+    else /* synchronous: velocities relative to the dark matter's */
+      snprintf(row, sizeof row, "%.17g %.17g %.17g %.17g %.17g %.17g\n", ks[j], dc, db,
+               theta_b - theta_c, p->growth_c, dT);
+    strncat(text, row, size - strlen(text) - 1);
+  }
+}
+
+/* Measured: 1.8e-7 at most in each convention, over k = 1 to 5000 /Mpc and
+ * z = 500 to 20. */
+Test(start_table, round_trip_at_z_1000_in_three_conventions) {
+  real_case c; /* continuous, from z = 1e4 */
+  real_case_open(&c, NULL);
+  enum { NK = 7 };
+  const double ks[NK] = {1.0, 5.0, 30.0, 100.0, 300.0, 1000.0, 5000.0};
+  const double z_hand = 1000.0;
+  const double z[] = {z_hand, 500.0, 100.0, 20.0};
+  jg_perturb_point cont[NK][4], state[NK];
+  for (int j = 0; j < NK; j++) {
+    solve_ok(c.m, c.w, ks[j], z, 4, cont[j]);
+    state[j] = cont[j][0];
+  }
+  const struct {
+    export_kind kind;
+    const char *columns;
+    int k_unit, separator, gauge;
+  } ways[] = {
+      {EXPORT_RATES_CSV_H, "k delta_c delta_b rate_c rate_b delta_T", JG_TABLE_K_H_PER_MPC,
+       JG_TABLE_COMMAS, JG_TABLE_NEWTONIAN},
+      {EXPORT_THETA_NEWTONIAN, "theta_b delta_b k theta_c delta_c delta_T", JG_TABLE_K_PER_MPC,
+       JG_TABLE_BLANKS, JG_TABLE_NEWTONIAN},
+      {EXPORT_THETA_SYNCHRONOUS, "k delta_c delta_b theta_b rate_c delta_T", JG_TABLE_K_PER_MPC,
+       JG_TABLE_BLANKS, JG_TABLE_SYNCHRONOUS},
+  };
+  for (size_t w = 0; w < sizeof ways / sizeof ways[0]; w++) {
+    char text[8192], path[JG_MAX_PATH];
+    export_state(&c, ways[w].kind, z_hand, ks, NK, state, text, sizeof text);
+    write_table(path, sizeof path, text);
+    jg_perturb_settings s = c.p.perturbations;
+    s.z_initial = z_hand;
+    snprintf(s.initial_table, sizeof s.initial_table, "%s", path);
+    snprintf(s.initial_columns, sizeof s.initial_columns, "%s", ways[w].columns);
+    s.initial_k_unit = ways[w].k_unit;
+    s.initial_separator = ways[w].separator;
+    s.initial_gauge = ways[w].gauge;
+    jg_perturb_model *mr;
+    jg_perturb_workspace *wr;
+    real_case_model(&c, &s, NULL, &mr, &wr);
+    double worst = 0.0;
+    for (int j = 0; j < NK; j++) {
+      jg_perturb_point r[3];
+      solve_ok(mr, wr, ks[j], z + 1, 3, r);
+      for (int i = 0; i < 3; i++) {
+        const double want = cont[j][i + 1].b_over_c;
+        worst = fmax(worst, fabs(r[i].b_over_c / want - 1.0));
+        ASSERT_REL(r[i].b_over_c, want, 1e-6, "way %zu k = %g z = %g", w, ks[j], z[i + 1]);
+      }
+    }
+    cr_log_info("round trip way %zu: largest relative difference %.2e", w, worst);
+    jg_perturb_workspace_free(wr);
+    jg_perturb_model_free(mr);
+    remove_table(path);
+  }
+  real_case_close(&c);
 }

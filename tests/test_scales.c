@@ -55,7 +55,7 @@ static jg_perturb_model *gh_model(const gh_medium *g, double a_i, jg_medium *md)
   s.sound_speed = JG_SOUND_SPEED_ISOTHERMAL;
   s.rel_tol = 1e-11;
   s.abs_tol = 1e-14;
-  jg_perturb_start start = {1.0, 1.0, 0.0};
+  jg_perturb_start start = {1.0, 1.0, 0.0, 0, 0.0};
   jg_error err;
   jg_perturb_model *m = jg_perturb_model_new_medium(md, &s, &start, &err);
   cr_assert_not_null(m, "%s", err.message);
@@ -191,7 +191,7 @@ Test(scales, half_suppression_bracket_ending_on_the_upper_bound) {
   s.sound_speed = JG_SOUND_SPEED_ISOTHERMAL;
   s.rel_tol = 1e-11;
   s.abs_tol = 1e-14;
-  jg_perturb_start start = {1.0, 1.0, 0.0};
+  jg_perturb_start start = {1.0, 1.0, 0.0, 0, 0.0};
   m = jg_perturb_model_new_medium(&md, &s, &start, &err);
   cr_assert_not_null(m, "%s", err.message);
   w = jg_perturb_workspace_new(m, &err);
@@ -415,7 +415,7 @@ Test(scales, scales_that_do_not_exist_are_zero) {
   s.sound_speed = JG_SOUND_SPEED_ISOTHERMAL;
   s.rel_tol = 1e-10;
   s.abs_tol = 1e-13;
-  jg_perturb_start opposite = {-1.0, -1.0, 0.0};
+  jg_perturb_start opposite = {-1.0, -1.0, 0.0, 0, 0.0};
   jg_error err;
   jg_perturb_model *m = jg_perturb_model_new_medium(&md, &s, &opposite, &err);
   cr_assert_not_null(m, "%s", err.message);
@@ -430,7 +430,7 @@ Test(scales, scales_that_do_not_exist_are_zero) {
   jg_perturb_model_free(m);
 
   md.eval = no_pressure_eval;
-  jg_perturb_start together = {1.0, 1.0, 0.0};
+  jg_perturb_start together = {1.0, 1.0, 0.0, 0, 0.0};
   m = jg_perturb_model_new_medium(&md, &s, &together, &err);
   cr_assert_not_null(m, "%s", err.message);
   w = jg_perturb_workspace_new(m, &err);

@@ -218,12 +218,21 @@ static int draw_all(rng *r, const sweep_options *o, double k_floor, drawn *d, ch
       set_text(d, key, "\"%s\"", words[rng_next(r) % (uint64_t)n]);
       continue;
     }
-    if (!strcmp(key, "perturbations.initial_table") || !strcmp(key, "perturbations.k_values"))
-      continue; /* a file (tests/test_perturb.c) and the grid's list twin (the grid is drawn) */
+    if (!strcmp(key, "perturbations.initial_table") || !strcmp(key, "perturbations.k_values") ||
+        !strcmp(key, "perturbations.initial_columns") ||
+        !strcmp(key, "perturbations.initial_second_table") ||
+        !strcmp(key, "perturbations.initial_second_redshift"))
+      continue; /* a file and its layout (tests/test_perturb.c), and the grid's list twin
+                 * (the grid is drawn) */
     bound lo, hi;
     if (!parse_range(doc->allowed, &lo, &hi)) {
       snprintf(why, why_size, "%s: cannot read the range '%s'", key, doc->allowed);
       return 0;
+    }
+    if (!strcmp(key, "perturbations.z_initial")) {
+      /* No start table is drawn, so our own start's floor applies (its range says so). */
+      lo.value = JG_PARAMS_OWN_START_Z_MIN;
+      lo.inclusive = 1;
     }
     if ((lo.key[0] && !value_of(d, key, lo.key, &lo.value)) ||
         (hi.key[0] && !value_of(d, key, hi.key, &hi.value))) {

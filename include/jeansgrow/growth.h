@@ -23,6 +23,7 @@ typedef struct jg_growth_grid {
   int has_reference;        /* 1 when D_ref, f_ref are set (model on a real history) */
   double *D_ref;            /* [iz]: scale-independent growth D(z), D -> a early */
   double *f_ref;            /* [iz]: its rate d ln D / d ln a */
+  char start[JG_MAX_PATH + 256]; /* where the perturbations started (jg_perturb_model_describe_start) */
 } jg_growth_grid;
 
 /* Solve every k of k[0..n_k) at every z of z[0..n_z), and (on a real

@@ -13,6 +13,7 @@
 #define JEANSGROW_JEANSGROW_H
 
 #include "jeansgrow/background.h"
+#include "jeansgrow/compare.h"
 #include "jeansgrow/config.h"
 #include "jeansgrow/constants.h"
 #include "jeansgrow/embed_scan.h"

@@ -27,6 +27,16 @@ extern "C" {
 /* Wavenumbers (1/Mpc, comoving) the fluid equations hold for (why: perturb.h):
  * the key table's range of perturbations.k_min, k_max and k_values, and the
  * perturbation module's JG_PERTURB_K_MIN and JG_PERTURB_K_MAX. */
+/* Longest column map (perturbations.initial_columns), with its final zero. */
+#define JG_MAX_COLUMN_TEXT 256
+/* The lowest perturbations.z_initial of our own start (CDM on the Meszaros
+ * growing mode, baryons as given): a table that gives the dark matter's
+ * velocity too may start lower. */
+#define JG_PARAMS_OWN_START_Z_MIN 1500.0
+/* Largest |ln((1 + z_2)/(1 + z_initial))| between two snapshots: the rate
+ * from their difference errs by about half this times the change of the
+ * rate per e-fold (a few per cent per e-fold near recombination). */
+#define JG_PARAMS_SNAPSHOT_STEP_MAX 0.1
 #define JG_PARAMS_K_LOWEST 1.0
 #define JG_PARAMS_K_HIGHEST 1.0e5
 
@@ -89,7 +99,74 @@ typedef struct jg_perturb_settings {
   /* Baryon start per wavenumber from a table (see jg_perturb_start_table in
    * perturb.h); empty: the uniform start (baryons empty and at rest). */
   char initial_table[JG_MAX_PATH];
+  /* Its layout: what each column holds (see jg_column_map_parse; "" the
+   * plain layout k b_over_c velocity_ratio [T_over_c]), the unit of its
+   * wavenumbers and velocity divergences (jg_table_k_unit), the separator
+   * (jg_table_separator) and the gauge of its velocity divergences
+   * (jg_table_gauge). */
+  char initial_columns[JG_MAX_COLUMN_TEXT];
+  int initial_k_unit;
+  int initial_separator;
+  int initial_gauge;
+  /* A second snapshot of the same wavenumbers, same layout, at
+   * initial_second_redshift: the rates come from the two (d ln delta/d ln a
+   * as the difference of the logarithms); "" none. */
+  char initial_second_table[JG_MAX_PATH];
+  double initial_second_redshift;
 } jg_perturb_settings;
+
+/* ---- column maps: what each column of a table read by jeansgrow holds --- */
+
+/* Unit of the wavenumbers (and velocity divergences) of a table. */
+typedef enum { JG_TABLE_K_PER_MPC = 0, JG_TABLE_K_H_PER_MPC = 1 } jg_table_k_unit;
+/* Cells separated by blanks (spaces, tabs) or by commas (blanks around them allowed). */
+typedef enum { JG_TABLE_BLANKS = 0, JG_TABLE_COMMAS = 1 } jg_table_separator;
+/* Gauge of the velocity divergences theta: conformal Newtonian (the
+ * continuity equation delta' = -theta sub-horizon), or synchronous comoving
+ * with the dark matter (theta_c = 0, delta_b' - delta_c' = -theta_b). */
+typedef enum { JG_TABLE_NEWTONIAN = 0, JG_TABLE_SYNCHRONOUS = 1 } jg_table_gauge;
+
+/* The quantities a column may hold (the words of a column map). */
+typedef enum {
+  JG_COLUMN_SKIP = 0,       /* "-": a column not read */
+  JG_COLUMN_K,              /* "k": comoving wavenumber */
+  JG_COLUMN_Z,              /* "z": redshift (compared tables only) */
+  JG_COLUMN_DELTA_C,        /* "delta_c", "delta_b", "delta_T": contrasts, one normalisation */
+  JG_COLUMN_DELTA_B,
+  JG_COLUMN_DELTA_T,
+  JG_COLUMN_B_OVER_C,       /* "b_over_c": delta_b / delta_c */
+  JG_COLUMN_T_OVER_C,       /* "T_over_c": delta_T / delta_c */
+  JG_COLUMN_VELOCITY_RATIO, /* "velocity_ratio": (d delta_b/d ln a) / (d delta_c/d ln a) */
+  JG_COLUMN_RATE_C,         /* "rate_c", "rate_b": d ln delta / d ln a */
+  JG_COLUMN_RATE_B,
+  JG_COLUMN_THETA_C,        /* "theta_c", "theta_b": velocity divergences in conformal time */
+  JG_COLUMN_THETA_B,
+  JG_N_COLUMN_KINDS
+} jg_column_kind;
+
+#define JG_MAX_COLUMNS 64
+typedef struct jg_column_map {
+  int n;                            /* columns named (a row may hold more: they are not read) */
+  jg_column_kind kind[JG_MAX_COLUMNS];
+  int column[JG_N_COLUMN_KINDS];    /* 0-based column of each quantity, -1 if absent */
+} jg_column_map;
+
+/* Parse a column map: words separated by blanks or commas, one per column
+ * in order, from the names above ("-" for a column to skip); each quantity
+ * at most once. On failure `why` says what is wrong and JG_ECONFIG is
+ * returned. */
+jg_status jg_column_map_parse(const char *text, jg_column_map *map, char *why, size_t size);
+/* The word of a quantity. */
+const char *jg_column_kind_word(jg_column_kind kind);
+/* Can `map` start the perturbations (k, the baryon density and velocity,
+ * and what those need: a theta needs delta_c, theta_c is not a synchronous
+ * quantity)? With a second snapshot the velocities may be left out (the
+ * rates come from the two), and delta_c and delta_b are needed. JG_OK, or JG_ECONFIG with the reason in `why`. */
+jg_status jg_column_map_check_start(const jg_column_map *map, jg_table_gauge gauge,
+                                    int second_snapshot, char *why, size_t size);
+/* Does a start with these settings give the dark matter's velocity (so that
+ * it replaces the Meszaros start)? 0 for a bad or empty map. */
+int jg_params_start_gives_cdm_velocity(const jg_perturb_settings *s);
 
 /* The units of wavenumbers, masses and comoving lengths in what the
  * commands write (output.units). Inputs (perturbations.k_min, k_max,

@@ -103,44 +103,79 @@ typedef struct jg_medium {
   double rho_m0;      /* comoving matter density, M_sun per unit volume (0: masses not reported) */
 } jg_medium;
 
-/* Baryon state at z_initial relative to the CDM growing mode there. */
+/* Baryon state at z_initial relative to the CDM there; with has_cdm_rate
+ * the dark matter's rate too (it then replaces the Meszaros growing mode's
+ * rate; a start of three values leaves it 0: the growing mode). */
 typedef struct jg_perturb_start {
   double density_ratio;     /* delta_b / delta_c */
   double velocity_ratio;    /* (d delta_b / d ln a) / (d delta_c / d ln a) */
   double temperature_ratio; /* delta_T / delta_c (fluctuating model only) */
+  int has_cdm_rate;         /* 1: cdm_rate is given */
+  double cdm_rate;          /* d ln delta_c / d ln a */
 } jg_perturb_start;
+
+typedef struct jg_perturb_model jg_perturb_model;
 
 /* ---- initial conditions from a table ------------------------------------ */
 
-/* The baryon start per wavenumber at z_initial, for runs that continue a
- * Boltzmann code's solution (perturbations.initial_table). A text file;
- * lines starting with '#' and blank lines are skipped; every other line
- * holds, separated by blanks,
- *   k [1/Mpc]   delta_b/delta_c   velocity ratio   [delta_T/delta_c]
- * with k strictly increasing (at least two rows) and the same number of
- * values on every row. The velocity ratio is
- * (d delta_b/d ln a) / (d delta_c/d ln a), which on sub-horizon scales is
- * the ratio theta_b/theta_c of the velocity divergences. Without the fourth
- * column delta_T starts at 0. Values between rows are interpolated in ln k
- * (GSL Steffen, or linear for two rows); wavenumbers outside the table are
- * refused. The CDM keeps its Meszaros growing mode (delta_c = 1), and the
+/* The start per wavenumber at z_initial, for runs that continue another
+ * code's solution (perturbations.initial_table). A text table read through
+ * a column map (perturbations.initial_columns, _k_unit, _separator,
+ * _gauge; see params.h and the README): k, the baryon density (b_over_c,
+ * or delta_b with delta_c) and velocity, in one of these conventions, each
+ * turned into the state of src/PHYSICS.md §7.3:
+ *   velocity_ratio  (d delta_b/d ln a) / (d delta_c/d ln a);
+ *   rate_b, rate_c  d ln delta / d ln a;
+ *   theta_b, theta_c  velocity divergences in conformal time, in the
+ *                   table's k unit (c = 1): Newtonian gauge
+ *                   d delta/d ln a = -theta / (aH/c), or synchronous
+ *                   (theta_c = 0): d delta_b/d ln a = d delta_c/d ln a
+ *                   - theta_b / (aH/c).
+ * Without rate_c (or Newtonian theta_c) the dark matter keeps the growing
+ * mode's rate. Optional delta_T (or T_over_c). Rows with k strictly
+ * increasing, also in ln k (at least two); values interpolated in ln k
+ * (GSL Steffen, linear for two rows); k within 1e-9 relative of an end of
+ * the table counts as that end; wavenumbers further out are refused. The
  * k -> 0 reference starts from the first row. */
 typedef struct jg_perturb_start_table jg_perturb_start_table;
+/* What turns the table's velocities into the state: h (for h/Mpc), the
+ * comoving Hubble rate aH/c at z_initial in 1/Mpc (for theta), and the
+ * growing mode's d ln delta_c / d ln a there (for a table without the dark
+ * matter's velocity). */
+typedef struct jg_perturb_table_frame {
+  double hubble_h;
+  double conformal_hubble;
+  double growing_rate;
+} jg_perturb_table_frame;
+/* Read `path` with the layout of `s` (its initial_columns, _k_unit,
+ * _separator, _gauge; the path itself is `path`). */
+jg_perturb_start_table *jg_perturb_start_table_read_layout(const char *path,
+                                                           const jg_perturb_settings *s,
+                                                           const jg_perturb_table_frame *frame,
+                                                           jg_error *err);
+/* The plain layout k[1/Mpc] b_over_c velocity_ratio [T_over_c], blanks. */
 jg_perturb_start_table *jg_perturb_start_table_read(const char *path, jg_error *err);
 void jg_perturb_start_table_free(jg_perturb_start_table *t);
 const char *jg_perturb_start_table_path(const jg_perturb_start_table *t);
+/* 1/Mpc, whatever the table's unit. */
 void jg_perturb_start_table_range(const jg_perturb_start_table *t, double *k_min, double *k_max);
 int jg_perturb_start_table_has_temperature(const jg_perturb_start_table *t);
+/* 1 when the table gives the dark matter's velocity. */
+int jg_perturb_start_table_has_cdm_rate(const jg_perturb_start_table *t);
+/* FNV-1a hash of the file's bytes, for table headers. */
+unsigned long long jg_perturb_start_table_checksum(const jg_perturb_start_table *t);
 /* The start at k (thread-safe). */
 jg_status jg_perturb_start_table_at(const jg_perturb_start_table *t, double k,
                                     jg_perturb_start *out, jg_error *err);
 /* Read and check settings->initial_table (if any) as a model would, without
  * building one: for callers that must refuse a bad table before any work. */
 jg_status jg_perturb_check_start_table(const jg_perturb_settings *s, jg_error *err);
+/* Where the perturbations start, in words for table headers (the table and
+ * its checksum, or our own start), into buf. */
+void jg_perturb_model_describe_start(const jg_perturb_model *m, char *buf, size_t size);
 
 /* ---- model and workspace -------------------------------------------------- */
 
-typedef struct jg_perturb_model jg_perturb_model;
 typedef struct jg_perturb_workspace jg_perturb_workspace;
 
 /* Real history: coefficients from the thermal history (cubic splines in ln a,

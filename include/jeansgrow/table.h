@@ -65,6 +65,24 @@ void jg_table_free_header(char **lines, int n_lines);
 jg_status jg_table_check_row(const char *line, ssize_t n, int columns, const char *path,
                              long long line_number, jg_error *err);
 
+/* Reading a table another program wrote, through a column map (params.h):
+ * lines starting with '#' and blank lines are skipped; every other line
+ * holds cells separated as `sep` says, the same number on every row and
+ * at least `min_cells` (the map's length when 0); cells past the map are
+ * not read. Each data row is handed to `row` with values[kind] for every
+ * quantity of the map (NAN for one of a short row, 0..min_cells allowing)
+ * and its line number. Refused, naming path:line, the cell and the value
+ * (JG_ECONFIG): a cell that is not a number, NaN or infinite, or beyond
+ * double precision; a ragged or short row; a zero byte (binary file); a
+ * line longer than 4096 bytes. Numbers below the smallest normal double
+ * are read as they are (subnormal, or 0). `checksum` (may be NULL)
+ * receives the FNV-1a hash of the file's bytes. */
+typedef jg_status (*jg_table_row_fn)(void *user, const char *path, int line_no,
+                                     const double *values, jg_error *err);
+jg_status jg_table_read_mapped(const char *path, const jg_column_map *map,
+                               jg_table_separator sep, int min_cells, jg_table_row_fn row,
+                               void *user, unsigned long long *checksum, jg_error *err);
+
 #ifdef __cplusplus
 }
 #endif

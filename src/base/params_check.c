@@ -139,6 +139,55 @@ jg_status jg__rule_history_range_ordered(const jg__locator *loc, const jg_params
                  where, p->output.history_z_min, p->thermal.start_redshift);
 }
 
+jg_status jg__rule_start_columns(const jg__locator *loc, const jg_params *p, jg_error *err) {
+  const jg_perturb_settings *pt = &p->perturbations;
+  if (!pt->initial_columns[0]) return JG_OK;
+  jg_column_map map;
+  char why[256], where[512];
+  if (jg_column_map_parse(pt->initial_columns, &map, why, sizeof why) == JG_OK &&
+      jg_column_map_check_start(&map, (jg_table_gauge)pt->initial_gauge,
+                                pt->initial_second_table[0] != '\0', why, sizeof why) == JG_OK)
+    return JG_OK;
+  jg__locate(loc, "perturbations.initial_columns", where, sizeof where);
+  return JG_FAIL(err, JG_ECONFIG,
+                 "%sperturbations.initial_columns = \"%.80s\" (perturbations.initial_gauge = "
+                 "\"%s\"): %s",
+                 where, pt->initial_columns,
+                 pt->initial_gauge == JG_TABLE_SYNCHRONOUS ? "synchronous" : "newtonian", why);
+}
+
+jg_status jg__rule_second_snapshot_near(const jg__locator *loc, const jg_params *p,
+                                       jg_error *err) {
+  const jg_perturb_settings *pt = &p->perturbations;
+  if (!pt->initial_second_table[0]) return JG_OK;
+  const double step = log1p(pt->initial_second_redshift) - log1p(pt->z_initial);
+  if (step != 0.0 && fabs(step) <= JG_PARAMS_SNAPSHOT_STEP_MAX && pt->initial_table[0] &&
+      pt->initial_columns[0])
+    return JG_OK;
+  char where[512];
+  jg__locate(loc, "perturbations.initial_second_redshift", where, sizeof where);
+  return JG_FAIL(err, JG_ECONFIG,
+                 "%sperturbations.initial_second_table needs perturbations.initial_table with "
+                 "its perturbations.initial_columns, and perturbations.initial_second_redshift "
+                 "= %g must differ from perturbations.z_initial = %g by at most %g in ln(1+z)",
+                 where, pt->initial_second_redshift, pt->z_initial, JG_PARAMS_SNAPSHOT_STEP_MAX);
+}
+
+jg_status jg__rule_own_start_early(const jg__locator *loc, const jg_params *p, jg_error *err) {
+  const jg_perturb_settings *pt = &p->perturbations;
+  if (pt->z_initial >= JG_PARAMS_OWN_START_Z_MIN || jg_params_start_gives_cdm_velocity(pt))
+    return JG_OK;
+  char where[512];
+  jg__locate(loc, "perturbations.z_initial", where, sizeof where);
+  return JG_FAIL(err, JG_ECONFIG,
+                 "%sperturbations.z_initial = %g is below %g, where the dark matter's own "
+                 "start (Meszaros growing mode, smooth baryons) holds; below it the start "
+                 "table (perturbations.initial_table) must give the dark matter's velocity "
+                 "too (perturbations.initial_columns with rate_c, or theta_c in the Newtonian "
+                 "gauge)",
+                 where, pt->z_initial, JG_PARAMS_OWN_START_Z_MIN);
+}
+
 /* Whole-number keys (integers, and the index of a word) hold an int. */
 static jg_status check_whole(const jg__locator *loc, const jg__param_spec *s, const char *name,
                              double v, jg_error *err) {

@@ -122,6 +122,9 @@ jg_status jg__rule_wavenumbers_ordered(const jg__locator *loc, const jg_params *
 jg_status jg__rule_single_wavenumber(const jg__locator *loc, const jg_params *p, jg_error *err);
 jg_status jg__rule_redshifts_after_start(const jg__locator *loc, const jg_params *p, jg_error *err);
 jg_status jg__rule_history_range_ordered(const jg__locator *loc, const jg_params *p, jg_error *err);
+jg_status jg__rule_start_columns(const jg__locator *loc, const jg_params *p, jg_error *err);
+jg_status jg__rule_own_start_early(const jg__locator *loc, const jg_params *p, jg_error *err);
+jg_status jg__rule_second_snapshot_near(const jg__locator *loc, const jg_params *p, jg_error *err);
 
 static inline double *jg__number_at(jg_params *p, const jg__param_spec *s) {
   return (double *)((char *)p + s->offset);

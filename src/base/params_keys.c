@@ -29,6 +29,9 @@ static const char *const sound_speed_words[] = {"fluctuating", "isothermal", "ad
 static const char *const stepper_words[] = {"msbdf+rk8pd", "msbdf", "rosenbrock", NULL};
 static const char *const units_words[] = {"Mpc", "Mpc/h", NULL};
 static const char *const mass_radius_words[] = {"half_wavelength", "full_wavelength", NULL};
+static const char *const table_k_unit_words[] = {"1/Mpc", "h/Mpc", NULL};
+static const char *const table_separator_words[] = {"blanks", "commas", NULL};
+static const char *const table_gauge_words[] = {"newtonian", "synchronous", NULL};
 
 const jg__param_spec jg__param_specs[] = {
     REQUIRED_NUMBER("cosmology.hubble_h", cosmology.hubble_h, "", "0.1 <= value <= 5", 0.1, 0, 5, 0,
@@ -90,8 +93,10 @@ const jg__param_spec jg__param_specs[] = {
      JG__KIND_NUMBER_LIST, P_OFF(perturbations.k_values), P_OFF(perturbations.n_k_values), 0,
      JG_MAX_WAVENUMBERS, 0, JG_PARAMS_K_LOWEST, JG_PARAMS_K_HIGHEST, 0, 0, NULL, 0},
     NUMBER("perturbations.z_initial", perturbations.z_initial, "", "10000.0",
-           "1500 <= value <= 100000 and above every output redshift", 1500, 0, 1e5, 0,
-           "redshift where CDM starts on the Meszaros growing mode, baryons at rest"),
+           "0 < value <= 100000, >= 1500 unless the start table gives the dark matter's "
+           "velocity, and above every output redshift", 0, 1, 1e5, 0,
+           "redshift where the perturbations start: CDM on the Meszaros growing mode and "
+           "baryons at rest, or as perturbations.initial_table gives them"),
     {{"perturbations.sound_speed", "one of \"fluctuating\", \"isothermal\", \"adiabatic\"", "",
       "\"fluctuating\"", "fluctuating, isothermal or adiabatic",
       "gas pressure model: delta_T evolved (scale dependent), or uniform with gamma = 1 or 5/3"},
@@ -104,9 +109,42 @@ const jg__param_spec jg__param_specs[] = {
      JG__KIND_CHOICE, P_OFF(perturbations.stepper), 0, 0, 0, 0, 0, 2, 0, 0, stepper_words, 0},
     {{"perturbations.initial_table", "quoted file name", "", "\"\"",
       "empty, or a readable table (see the README); at most 1023 bytes",
-      "baryon start per wavenumber at z_initial, read from this file (a relative name in a "
-      "parameter file from that file's folder, one given with --set from the current folder); empty: baryons empty and at rest"},
+      "start per wavenumber at z_initial (the baryons; the dark matter too if it gives its "
+      "velocity), read from this file (a relative name in a parameter file from that file's "
+      "folder, one given with --set from the current folder); empty: our own start"},
      JG__KIND_FILE, P_OFF(perturbations.initial_table), 0, 0, 0, 0, 0, 0, 0, 0, NULL, JG_MAX_PATH},
+    {{"perturbations.initial_columns", "quoted words", "", "\"\"",
+      "empty, or words from k, delta_c, delta_b, delta_T, b_over_c, T_over_c, velocity_ratio, "
+      "rate_c, rate_b, theta_c, theta_b, - (see the README); at most 255 bytes",
+      "what each column of initial_table holds, in order (- skips a column); empty: k "
+      "b_over_c velocity_ratio and optionally T_over_c"},
+     JG__KIND_TEXT, P_OFF(perturbations.initial_columns), 0, 0, 0, 0, 0, 0, 0, 0, NULL,
+     JG_MAX_COLUMN_TEXT},
+    {{"perturbations.initial_k_unit", "one of \"1/Mpc\", \"h/Mpc\"", "", "\"1/Mpc\"",
+      "1/Mpc or h/Mpc",
+      "unit of the wavenumbers and velocity divergences theta of initial_table (h = "
+      "cosmology.hubble_h)"},
+     JG__KIND_CHOICE, P_OFF(perturbations.initial_k_unit), 0, 0, 0, 0, 0, 1, 0, 0,
+     table_k_unit_words, 0},
+    {{"perturbations.initial_separator", "one of \"blanks\", \"commas\"", "", "\"blanks\"",
+      "blanks or commas", "what separates the cells of initial_table: spaces and tabs, or commas"},
+     JG__KIND_CHOICE, P_OFF(perturbations.initial_separator), 0, 0, 0, 0, 0, 1, 0, 0,
+     table_separator_words, 0},
+    {{"perturbations.initial_gauge", "one of \"newtonian\", \"synchronous\"", "",
+      "\"newtonian\"", "newtonian or synchronous",
+      "gauge of the theta columns of initial_table: conformal Newtonian, or synchronous "
+      "comoving with the dark matter (theta_c = 0)"},
+     JG__KIND_CHOICE, P_OFF(perturbations.initial_gauge), 0, 0, 0, 0, 0, 1, 0, 0,
+     table_gauge_words, 0},
+    {{"perturbations.initial_second_table", "quoted file name", "", "\"\"",
+      "empty, or a readable table of the same layout and wavenumbers; at most 1023 bytes",
+      "second snapshot at initial_second_redshift: the growth rates come from the two "
+      "(relative names as for initial_table); empty: none"},
+     JG__KIND_FILE, P_OFF(perturbations.initial_second_table), 0, 0, 0, 0, 0, 0, 0, 0, NULL,
+     JG_MAX_PATH},
+    NUMBER("perturbations.initial_second_redshift", perturbations.initial_second_redshift, "",
+           "0.0", "0 <= value <= 100000", 0, 0, 1e5, 0,
+           "redshift of initial_second_table, within 0.1 of z_initial in ln(1+z)"),
     NUMBER("perturbations.rel_tol", perturbations.rel_tol, "", "1e-8", "1e-13 <= value <= 1e-3",
            1e-13, 0, 1e-3, 0, "relative tolerance of the perturbation integration: GSL's local error per step; "
            "the rosenbrock stepper holds its error estimate to 100 times it, calibrated so that "
@@ -215,6 +253,22 @@ const jg__param_rule jg__param_rules[] = {
       "every output redshift < perturbations.z_initial",
       "the perturbations start there"},
      NULL, jg__rule_redshifts_after_start},
+    {{"perturbations.initial_columns, perturbations.initial_gauge",
+      "the columns give k, the baryon density and velocity, each once",
+      "the start needs them; a theta needs delta_c, and theta_c is 0 in the synchronous gauge"},
+     NULL, jg__rule_start_columns},
+    {{"perturbations.initial_second_table, perturbations.initial_second_redshift, "
+      "perturbations.z_initial, perturbations.initial_table, perturbations.initial_columns",
+      "a second snapshot needs a start table with columns, at abs(ln((1 + z_2)/(1 + "
+      "z_initial))) <= 0.1, not 0",
+      "the rates are differences of ln delta over that step, which err by about half the step "
+      "times the change of the rate"},
+     NULL, jg__rule_second_snapshot_near},
+    {{"perturbations.z_initial, perturbations.initial_table, perturbations.initial_columns",
+      "z_initial >= 1500 unless the start table gives the dark matter's velocity",
+      "our own start puts the dark matter on the Meszaros growing mode with smooth baryons, "
+      "which holds only while the photons hold the baryons"},
+     NULL, jg__rule_own_start_early},
     {{"output.history_z_min, thermal.start_redshift", "history_z_min < thermal.start_redshift",
       "the history table runs down from the start of the thermal history"},
      NULL, jg__rule_history_range_ordered},
@@ -261,6 +315,12 @@ void jg_params_set_defaults(jg_params *p) {
   p->perturbations.sound_speed = JG_SOUND_SPEED_FLUCTUATING;
   p->perturbations.stepper = JG_PERTURB_STEPPER_ROSENBROCK;
   p->perturbations.initial_table[0] = '\0';
+  p->perturbations.initial_columns[0] = '\0';
+  p->perturbations.initial_k_unit = JG_TABLE_K_PER_MPC;
+  p->perturbations.initial_separator = JG_TABLE_BLANKS;
+  p->perturbations.initial_gauge = JG_TABLE_NEWTONIAN;
+  p->perturbations.initial_second_table[0] = '\0';
+  p->perturbations.initial_second_redshift = 0.0;
   p->perturbations.rel_tol = 1e-8;
   p->perturbations.abs_tol = 1e-10;
 

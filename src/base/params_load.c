@@ -245,6 +245,25 @@ static jg_status take_from_file_folder(const char *where, const jg__param_spec *
   return JG_OK;
 }
 
+/* A wavenumber within this (relative) of a bound of the fluid equations
+ * is that bound: 1 /Mpc written in h/Mpc and converted back with ten
+ * digits is 0.9999999999. */
+#define K_BOUND_SNAP 1e-9
+
+static double snap_to_bounds(double k) {
+  const double bounds[] = {JG_PARAMS_K_LOWEST, JG_PARAMS_K_HIGHEST};
+  for (int i = 0; i < 2; i++)
+    if (fabs(k / bounds[i] - 1.0) <= K_BOUND_SNAP) return bounds[i];
+  return k;
+}
+
+static void snap_wavenumbers(jg_perturb_settings *pt) {
+  pt->k_min = snap_to_bounds(pt->k_min);
+  pt->k_max = snap_to_bounds(pt->k_max);
+  for (int i = 0; i < pt->n_k_values && i < JG_MAX_WAVENUMBERS; i++)
+    pt->k_values[i] = snap_to_bounds(pt->k_values[i]);
+}
+
 jg_status jg_params_load(const char *path, const char *const *overrides, int n_overrides,
                          jg_params *out, jg_error *err) {
   if (!path || !out)
@@ -277,6 +296,7 @@ jg_status jg_params_load(const char *path, const char *const *overrides, int n_o
     if (st == JG_OK && s->kind == JG__KIND_FILE && config_setting_source_line(set) > 0)
       st = take_from_file_folder(where, s, path, (char *)&p + s->offset, err);
   }
+  if (st == JG_OK) snap_wavenumbers(&p.perturbations);
   if (st == JG_OK) st = jg__validate(&loc, &p, err);
   config_destroy(&cfg);
   if (st == JG_OK) *out = p;

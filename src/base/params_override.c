@@ -49,7 +49,9 @@ void jg__locate(const jg__locator *loc, const char *key, char *buf, size_t size)
   }
   for (int i = loc->n_overrides - 1; i >= 0; i--) {
     if (override_covers(loc->overrides[i], key)) {
-      snprintf(buf, size, "--set %s: ", loc->overrides[i]);
+      /* A long list is not echoed whole: the message after it must stay. */
+      const char *o = loc->overrides[i];
+      snprintf(buf, size, "--set %.60s%s: ", o, strlen(o) > 60 ? "..." : "");
       return;
     }
   }

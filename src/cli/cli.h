@@ -9,7 +9,7 @@
 #define CLI_MAX_OVERRIDES 256
 
 /* Exit statuses of the program. */
-enum { EXIT_OK = 0, EXIT_RUN_FAILED = 1, EXIT_BAD_INPUT = 2 };
+enum { EXIT_OK = 0, EXIT_RUN_FAILED = 1, EXIT_BAD_INPUT = 2, EXIT_TOLERANCE_NOT_MET = 3 };
 
 /* What -o names. */
 enum { OUTPUT_NONE = 0, OUTPUT_FILE = 1, OUTPUT_FOLDER = 2 };
@@ -81,6 +81,7 @@ int cmd_keys(const cli_command *cmd, int argc, char **argv);
 int cmd_scan(const cli_command *cmd, int argc, char **argv);
 int cmd_merge(const cli_command *cmd, int argc, char **argv);
 int cmd_plot(const cli_command *cmd, int argc, char **argv);
+int cmd_compare(const cli_command *cmd, int argc, char **argv);
 
 /* MPI for `jeansgrow scan` (src/cli/scan_mpi.c; the library knows no MPI).
  * scan_mpi_launcher_rank: this process's rank as an MPI launcher announces

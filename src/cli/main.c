@@ -41,6 +41,19 @@ static const cli_command commands[] = {
      "b_over_m, suppression, rate_c, rate_b, rate_m (per unit initial CDM contrast).\n"
      "With output.units = \"Mpc/h\": k[h/Mpc]. The k grid is set in 1/Mpc in any case.",
      1, cmd_growth},
+    {"compare", "Our growth table against another code's at the same redshifts",
+     "OURS REFERENCE [--columns WORDS] [--k-unit 1/Mpc|h/Mpc] [--separator blanks|commas]\n"
+     "       [--normalise-at K] [--tolerance X] [--figure FILE.png] [-o FILE]",
+     "OURS is a growth table of jeansgrow (growth, or run's growth.txt); REFERENCE holds\n"
+     "the other code's values, its columns named by --columns (default \"z k delta_c\n"
+     "delta_b\"; words as for perturbations.initial_columns: z, k, delta_c, delta_b or\n"
+     "b_over_c, - to skip). Per reference row: ours interpolated in ln k, the relative\n"
+     "difference of delta_b/delta_c, and with --normalise-at K of delta_b and delta_c each\n"
+     "divided by its value at k = K (the reference's unit). A summary (largest, where,\n"
+     "rms) goes to stdout with -o, else to stderr after the table. --figure draws the\n"
+     "difference against k with gnuplot, if installed. Exit status 3 when a largest\n"
+     "difference exceeds --tolerance X (the table is written all the same).",
+     OUTPUT_FILE, cmd_compare},
     {"keys", "List every parameter key with its unit, default and allowed range", "[--markdown]",
      NULL, 0, cmd_keys},
     {"scan", "One table over a grid of parameter values, on threads, MPI ranks or job slices",

@@ -44,6 +44,7 @@ jg_status jg_growth_grid_compute(const jg_perturb_model *m, jg_perturb_workspace
   }
   memcpy(g->k, k, sizeof(double) * (size_t)n_k);
   memcpy(g->z, z, sizeof(double) * (size_t)n_z);
+  jg_perturb_model_describe_start(m, g->start, sizeof g->start);
   jg_status st = jg_perturb_solve_limit(m, w, z, n_z, g->limit, err);
   const jg_thermal *th = jg_perturb_model_thermal(m);
   /* The reference growth exists only while matter and dark energy alone

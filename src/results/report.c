@@ -382,8 +382,8 @@ const char *const jg__report_growth_columns[][N_GROWTH_COLUMNS] = {
 
 #define GROWTH_CONVENTIONS                                                                    \
   "delta_c, delta_b, delta_m, delta_T: CDM, baryon, total-matter and gas-temperature "        \
-  "contrasts per unit initial CDM contrast (delta_c = 1 at perturbations.z_initial on the "   \
-  "Meszaros growing mode; baryons start at rest and empty)",                                  \
+  "contrasts per unit initial CDM contrast (delta_c = 1 at perturbations.z_initial; the "     \
+  "start line below says how the perturbations started)",                                     \
       "delta_m = (1 - f_b) delta_c + f_b delta_b; b_over_c = delta_b/delta_c; "               \
       "b_over_m = delta_b/delta_m",                                                           \
       "suppression: b_over_c divided by its k -> 0 value at the same z (pressure alone)",     \
@@ -414,7 +414,14 @@ jg_status jg_report_growth(FILE *f, const jg_params *p, const jg_thermal *th,
   /* Without a real history there is no reference growth: its two columns
    * are left out rather than filled. */
   const int n_columns = g->has_reference ? N_GROWTH_COLUMNS : N_GROWTH_COLUMNS - 2;
-  write_preamble_with_validity(f, "linear growth by wavenumber", p, th, growth_conventions[units]);
+  /* The conventions plus the start line, which depends on the run. */
+  const char *conventions[8];
+  int n_conv = 0;
+  for (; growth_conventions[units][n_conv]; n_conv++)
+    conventions[n_conv] = growth_conventions[units][n_conv];
+  conventions[n_conv++] = g->start;
+  conventions[n_conv] = NULL;
+  write_preamble_with_validity(f, "linear growth by wavenumber", p, th, conventions);
   jg_table_write_columns(f, columns, n_columns);
   double row[N_GROWTH_COLUMNS];
   for (int iz = 0; iz < g->n_z; iz++) {

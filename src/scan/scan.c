@@ -126,6 +126,22 @@ void jg__scan_write_axis(FILE *f, const jg_scan_axis *ax) {
   }
 }
 
+/* Fold the bytes of the table `path` (named by `key`; "" none) into *h. */
+static jg_status hash_table_content(uint64_t *h, const char *key, const char *path,
+                                    jg_error *err) {
+  if (!path[0]) return JG_OK;
+  FILE *t = fopen(path, "rb");
+  if (!t) return JG_FAIL(err, JG_EINVAL, "%s: cannot read %s (%s)", key, path, strerror(errno));
+  char buf[4096];
+  size_t got;
+  *h = jg__fnv1a(*h, "table\n", 6);
+  while ((got = fread(buf, 1, sizeof buf, t)) > 0) *h = jg__fnv1a(*h, buf, got);
+  const int failed = ferror(t);
+  fclose(t);
+  if (failed) return JG_FAIL(err, JG_EIO, "%s: cannot read %s", key, path);
+  return JG_OK;
+}
+
 static jg_status compute_fingerprint(jg_scan *s, jg_error *err) {
   char *text = NULL;
   size_t size = 0;
@@ -160,23 +176,14 @@ static jg_status compute_fingerprint(jg_scan *s, jg_error *err) {
     }
     h = jg__fnv1a(h, "\n", 1);
   }
-  /* The start table by its content, not its name: a table edited between
-   * an interrupted run and --resume would otherwise mix two starts. */
-  const char *table = s->base.perturbations.initial_table;
-  if (table[0]) {
-    FILE *t = fopen(table, "rb");
-    if (!t)
-      return JG_FAIL(err, JG_EINVAL, "perturbations.initial_table: cannot read %s (%s)", table,
-                     strerror(errno));
-    char buf[4096];
-    size_t got;
-    h = jg__fnv1a(h, "table\n", 6);
-    while ((got = fread(buf, 1, sizeof buf, t)) > 0) h = jg__fnv1a(h, buf, got);
-    const int failed = ferror(t);
-    fclose(t);
-    if (failed)
-      return JG_FAIL(err, JG_EIO, "perturbations.initial_table: cannot read %s", table);
-  }
+  /* The start tables by their content, not their names: a table edited
+   * between an interrupted run and --resume would otherwise mix two starts. */
+  const jg_perturb_settings *pt = &s->base.perturbations;
+  jg_status st = hash_table_content(&h, "perturbations.initial_table", pt->initial_table, err);
+  if (st == JG_OK)
+    st = hash_table_content(&h, "perturbations.initial_second_table", pt->initial_second_table,
+                            err);
+  if (st != JG_OK) return st;
   snprintf(s->fingerprint, sizeof s->fingerprint, "%016" PRIx64, h);
   return JG_OK;
 }
