@@ -23,6 +23,9 @@ typedef struct jg_growth_grid {
   int has_reference;        /* 1 when D_ref, f_ref are set (model on a real history) */
   double *D_ref;            /* [iz]: scale-independent growth D(z), D -> a early */
   double *f_ref;            /* [iz]: its rate d ln D / d ln a */
+  /* [ik * n_z + iz]: the streaming averages (stream_results.h); NULL
+   * without streaming. */
+  struct jg_stream_power *stream;
 } jg_growth_grid;
 
 /* Solve every k of k[0..n_k) at every z of z[0..n_z), and (on a real

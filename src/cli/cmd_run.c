@@ -54,12 +54,16 @@ static jg_status compute_all(const jg_params *p, const jg_thermal *th, jg_pertur
   jg_status st = jg_epochs_compute(th, &r->epochs, err);
   if (st == JG_OK)
     st = jg_scales_compute(model, ws, p->output.redshifts, p->output.n_redshifts, r->scales, err);
+  if (st == JG_OK)
+    st = jg_scales_add_streaming(model, ws, &p->streaming, p->output.redshifts,
+                                 p->output.n_redshifts, r->scales, err);
   r->k = malloc(sizeof(double) * JG_MAX_WAVENUMBERS);
   if (!r->k) return JG_FAIL(err, JG_ENOMEM, "out of memory for the wavenumbers");
   if (st == JG_OK) st = jg_perturb_wavenumbers(&p->perturbations, r->k, &r->n_k, err);
   if (st == JG_OK)
     st = jg_growth_grid_compute(model, ws, r->k, r->n_k, p->output.redshifts,
                                 p->output.n_redshifts, &r->growth, err);
+  if (st == JG_OK) st = jg_growth_grid_add_streaming(r->growth, model, ws, &p->streaming, err);
   return st;
 }
 

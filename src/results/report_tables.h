@@ -7,8 +7,8 @@
 
 #include "jeansgrow/params.h"
 
-#define JG__REPORT_SCALES_COLUMNS 22
-#define JG__REPORT_SCALES_CONVENTIONS 9 /* lines, the terminating NULL included */
+#define JG__REPORT_SCALES_COLUMNS 26
+#define JG__REPORT_SCALES_CONVENTIONS 10 /* lines, the terminating NULL included */
 extern const char *const jg__report_scales_columns[][JG__REPORT_SCALES_COLUMNS];
 extern const char *const jg__report_scales_conventions[][JG__REPORT_SCALES_CONVENTIONS];
 

@@ -14,6 +14,7 @@
 #include "jeansgrow/jeans.h"
 #include "jeansgrow/perturb.h"
 #include "jeansgrow/report.h"
+#include "jeansgrow/stream_results.h"
 #include "jeansgrow/scales.h"
 #include "../results/report_tables.h"
 #include "../base/alloc.h" /* last: test builds route allocations through it */
@@ -118,6 +119,7 @@ static jg_status scales_evaluate(const jg_params *p, double *point_values,
   jg_status st = w ? JG_OK : (err && err->status != JG_OK ? err->status : JG_ENUMERIC);
   if (st == JG_OK) st = epoch_columns(th, point_values, err);
   if (st == JG_OK) st = jg_scales_compute(m, w, p->output.redshifts, n_z, s, err);
+  if (st == JG_OK) st = jg_scales_add_streaming(m, w, &p->streaming, p->output.redshifts, n_z, s, err);
   double row[SCALES_REDSHIFT_COLUMNS + 1];
   for (int j = 0; st == JG_OK && j < n_z; j++) {
     jg_report_scales_row(th, &s[j], units, row);
