@@ -135,16 +135,16 @@ const jg__param_spec jg__param_specs[] = {
            "10 <= value <= 1500", 10, 0, 1500, 0,
            "the flow starts here (the baryons' kinematic release; Tseliakhovich & Hirata 2010 "
            "quote the rms at z ~ 1020, value from memory) and decays as 1/a after"),
-    INTEGER("streaming.velocity_nodes", streaming.velocity_nodes, "6", "1 <= value <= 32", 1,
+    INTEGER("streaming.velocity_nodes", streaming.velocity_nodes, "16", "1 <= value <= 32", 1,
             32,
             "Gauss-Hermite nodes of the velocity along k, v_par >= 0 (the Maxwellian and "
             "direction average; a rule of twice as many nodes, even in v_par)"),
-    INTEGER("streaming.direction_nodes", streaming.direction_nodes, "6", "1 <= value <= 32", 1,
+    INTEGER("streaming.direction_nodes", streaming.direction_nodes, "8", "1 <= value <= 32", 1,
             32, "Gauss-Legendre nodes of mu in [0, 1] (direction averages at a fixed speed)"),
     NUMBER("streaming.patch_multiple", streaming.patch_multiple, "", "1.0", "0 <= value <= 5",
            0, 0, 5, 0,
            "the local patch: the stream_b_power_patch column at |v_bc| = this times the rms"),
-    NUMBER("streaming.rel_tol", streaming.rel_tol, "", "1e-6", "1e-10 <= value <= 1e-3", 1e-10,
+    NUMBER("streaming.rel_tol", streaming.rel_tol, "", "1e-5", "1e-10 <= value <= 1e-3", 1e-10,
            0, 1e-3, 0,
            "relative tolerance of the streaming solves (their averages are ratios good to "
            "about 1e-4 by their quadrature; tighter costs time, not accuracy)"),
@@ -286,10 +286,10 @@ void jg_params_set_defaults(jg_params *p) {
 
   p->streaming.rms_velocity_kms = 0.0;
   p->streaming.start_redshift = 1020.0;
-  p->streaming.velocity_nodes = 6;
-  p->streaming.direction_nodes = 6;
+  p->streaming.velocity_nodes = 16;
+  p->streaming.direction_nodes = 8;
   p->streaming.patch_multiple = 1.0;
-  p->streaming.rel_tol = 1e-6;
+  p->streaming.rel_tol = 1e-5;
 }
 
 const jg_param_doc *jg_param_doc_at(int i) {

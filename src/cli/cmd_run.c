@@ -140,6 +140,19 @@ static void print_summary(const char *param_path, const char *dir, const jg_para
          p->perturbations.sound_speed == JG_SOUND_SPEED_FLUCTUATING ? "fluctuating"
          : p->perturbations.sound_speed == JG_SOUND_SPEED_ISOTHERMAL ? "isothermal"
                                                                        : "adiabatic");
+  if (p->streaming.rms_velocity_kms > 0.0) {
+    printf("  with the streaming velocity (rms %g km/s from z = %g), beside the values above:\n",
+           p->streaming.rms_velocity_kms, p->streaming.start_redshift);
+    printf("  %8s %11s %11s %13s %14s\n", "z", k_F, M_F, k_half, M_half);
+    for (int i = 0; i < p->output.n_redshifts; i++) {
+      const jg_scales_point *s = &r->scales[i];
+      printf("  %8.1f %11.4g %11.3e", s->z, s->k_filter_stream * k_factor,
+             s->m_filter_stream * m_factor);
+      if (s->half_stream_found)
+        printf(" %13.4g %14.3e\n", s->k_half_stream * k_factor, s->m_half_stream * m_factor);
+      else printf(" %13s %14s\n", "none", "-");
+    }
+  }
   printf("  files: history.txt, epochs.txt, scales.txt (%d redshifts), growth.txt (%d x %d "
          "rows)\n",
          p->output.n_redshifts, p->output.n_redshifts, r->n_k);
