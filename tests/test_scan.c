@@ -1213,9 +1213,10 @@ Test(scan, program_merge_refuses_torn_nan_missing_endless_and_overwriting_slices
   const char *a_bad[] = {JG_PROGRAM, "merge", merged, bad, parts[0], NULL};
 
   /* Cut in the middle of the last row (a kill or a full disk). */
+  const char cut = second[len - 7];
   second[len - 7] = '\0';
   write_file(bad, second);
-  second[len - 7] = '0';
+  second[len - 7] = cut;
   char message[256];
   snprintf(message, sizeof message, "%sthe last row is cut short", where);
   expect_merge_refused(dir, a_bad, message);
