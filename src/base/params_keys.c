@@ -144,7 +144,7 @@ const jg__param_spec jg__param_specs[] = {
     NUMBER("streaming.patch_multiple", streaming.patch_multiple, "", "1.0", "0 <= value <= 5",
            0, 0, 5, 0,
            "the local patch: the stream_b_power_patch column at |v_bc| = this times the rms"),
-    NUMBER("streaming.rel_tol", streaming.rel_tol, "", "1e-5", "1e-10 <= value <= 1e-3", 1e-10,
+    NUMBER("streaming.rel_tol", streaming.rel_tol, "", "1e-4", "1e-10 <= value <= 1e-3", 1e-10,
            0, 1e-3, 0,
            "relative tolerance of the streaming solves (their averages are ratios good to "
            "about 1e-4 by their quadrature; tighter costs time, not accuracy)"),
@@ -289,7 +289,7 @@ void jg_params_set_defaults(jg_params *p) {
   p->streaming.velocity_nodes = 16;
   p->streaming.direction_nodes = 8;
   p->streaming.patch_multiple = 1.0;
-  p->streaming.rel_tol = 1e-5;
+  p->streaming.rel_tol = 1e-4;
 }
 
 const jg_param_doc *jg_param_doc_at(int i) {
