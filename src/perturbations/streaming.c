@@ -487,14 +487,33 @@ static jg_status powers_batch(const jg_stream_model *sm, jg_perturb_workspace *w
   double *ks = malloc(sizeof(double) * (size_t)n_pairs);
   double *vs = malloc(sizeof(double) * (size_t)n_pairs);
   const double **from = malloc(sizeof *from * (size_t)n_pairs);
+  int *place = malloc(sizeof(int) * (size_t)n_pairs);
   jg_status st = JG_OK;
-  if (!real || !cplx || !ks || !vs || !from) st = JG_FAIL(err, JG_ENOMEM, "streaming: out of memory");
+  if (!real || !cplx || !ks || !vs || !from || !place)
+    st = JG_FAIL(err, JG_ENOMEM, "streaming: out of memory");
   if (st == JG_OK)
     st = solve_real(sm, w, k, nk, x_out, n_z, n_before, real, n_after > 0 ? at_start : NULL, err);
+  /* The pairs in increasing k v_par (insertion into place): a lockstep batch
+   * steps as its most demanding mode, the fastest advection, so modes of
+   * like advection share batches. place[pair] = its position. */
   for (int q = 0; st == JG_OK && q < n_pairs; q++) {
-    ks[q] = k[q / per_k];
-    vs[q] = v[q % per_k];
-    from[q] = at_start + (q / per_k) * n;
+    const double kv = k[q / per_k] * v[q % per_k];
+    int at = q;
+    while (at > 0 && ks[at - 1] * vs[at - 1] > kv) {
+      ks[at] = ks[at - 1], vs[at] = vs[at - 1], from[at] = from[at - 1];
+      at--;
+    }
+    ks[at] = k[q / per_k];
+    vs[at] = v[q % per_k];
+    from[at] = at_start + (q / per_k) * n;
+  }
+  for (int q = 0; st == JG_OK && q < n_pairs; q++) {
+    /* Ties keep their order, so the position is found by matching. */
+    const double kq = k[q / per_k], vq = v[q % per_k];
+    const double *fq = at_start + (q / per_k) * n;
+    int at = 0;
+    while (!(ks[at] == kq && vs[at] == vq && from[at] == fq)) at++;
+    place[q] = at;
   }
   if (st == JG_OK && n_after > 0)
     st = solve_complex(sm, w, ks, vs, n_pairs, from, x_out + n_before, n_after, cplx, err);
@@ -509,7 +528,7 @@ static jg_status powers_batch(const jg_stream_model *sm, jg_perturb_workspace *w
       if (i < n_before) continue;
       double sum[3] = {0.0, 0.0, 0.0}, sum_c = 0.0;
       for (int j = 0; j < per_k; j++) {
-        const double *y = cplx + ((size_t)(i - n_before) * n_pairs + b * per_k + j) * N;
+        const double *y = cplx + ((size_t)(i - n_before) * n_pairs + place[b * per_k + j]) * N;
         const double yb[2] = {y[M_B], y[n + M_B]}, yc[2] = {y[M_C], y[n + M_C]};
         sum[kind[j]] += weight[j] * squared(yb);
         if (kind[j] == 0) sum_c += weight[j] * squared(yc);
@@ -528,6 +547,7 @@ static jg_status powers_batch(const jg_stream_model *sm, jg_perturb_workspace *w
   free(ks);
   free(vs);
   free(from);
+  free(place);
   return st;
 }
 
