@@ -143,14 +143,19 @@ static void print_summary(const char *param_path, const char *dir, const jg_para
   if (p->streaming.rms_velocity_kms > 0.0) {
     printf("  with the streaming velocity (rms %g km/s from z = %g), beside the values above:\n",
            p->streaming.rms_velocity_kms, p->streaming.start_redshift);
-    printf("  %8s %11s %11s %13s %14s\n", "z", k_F, M_F, k_half, M_half);
+    char k_Fs[40], M_Fs[40], k_hs[40], M_hs[40];
+    snprintf(k_Fs, sizeof k_Fs, "k_F_stream[%s]", k_unit);
+    snprintf(M_Fs, sizeof M_Fs, "M_F_stream[%s]", m_unit);
+    snprintf(k_hs, sizeof k_hs, "k_half_stream[%s]", k_unit);
+    snprintf(M_hs, sizeof M_hs, "M_half_stream[%s]", m_unit);
+    printf("  %8s %18s %17s %20s %19s\n", "z", k_Fs, M_Fs, k_hs, M_hs);
     for (int i = 0; i < p->output.n_redshifts; i++) {
       const jg_scales_point *s = &r->scales[i];
-      printf("  %8.1f %11.4g %11.3e", s->z, s->k_filter_stream * k_factor,
+      printf("  %8.1f %18.4g %17.3e", s->z, s->k_filter_stream * k_factor,
              s->m_filter_stream * m_factor);
       if (s->half_stream_found)
-        printf(" %13.4g %14.3e\n", s->k_half_stream * k_factor, s->m_half_stream * m_factor);
-      else printf(" %13s %14s\n", "none", "-");
+        printf(" %20.4g %19.3e\n", s->k_half_stream * k_factor, s->m_half_stream * m_factor);
+      else printf(" %20s %19s\n", "none", "-");
     }
   }
   printf("  files: history.txt, epochs.txt, scales.txt (%d redshifts), growth.txt (%d x %d "
