@@ -10,9 +10,12 @@
 #include <math.h>
 #include <stdlib.h>
 #include <string.h>
+#include <sys/wait.h>
+#include <unistd.h>
 
 #include "jeansgrow/jeansgrow.h"
 #include "real_case.h"
+#include "tables.h"
 #include "support.h"
 
 TestSuite(streaming, .init = quiet_gsl);
@@ -361,4 +364,75 @@ Test(streaming, published_suppression_and_filtering_mass) {
   cr_assert(1.0 - pw[0].c_power > 0.02 && 1.0 - pw[0].c_power < 0.20, "c_power %g", pw[0].c_power);
   cr_assert(pw[0].b_power < pw[0].c_power);
   stream_close(&c);
+}
+
+/* ---- the program ------------------------------------------------------------------ */
+
+/* `run` with the issue's flow (30 km/s from z = 1000) writes the streaming
+ * columns for every k and redshift and the streamed scales: powers in
+ * (0, 1] below the start on k <= 1000 /Mpc where the flow only suppresses
+ * (measured on the reference grid; above, the ratio to the unstreamed
+ * oscillating gas may exceed 1), exactly 1 at and above the start, and the
+ * scales finite and below the unstreamed ones there. */
+Test(streaming, program_run_writes_the_streaming_columns) {
+  char dir[] = "/tmp/jg_streaming_XXXXXX";
+  cr_assert_not_null(mkdtemp(dir));
+  const char *args[] = {"run", JG_SOURCE_DIR "/params/reference.cfg", "-o", dir,
+                        "--set", "streaming.rms_velocity_kms=30.0", "--set",
+                        "streaming.start_redshift=1000.0", "--set", "perturbations.k_count=6",
+                        "--set", "perturbations.k_max=1000.0", NULL};
+  char out[128], errs[128], path[128];
+  snprintf(out, sizeof out, "%s/stdout", dir);
+  snprintf(errs, sizeof errs, "%s/stderr", dir);
+  const int status = child_wait(child_start(JG_PROGRAM, args, out, errs, 0));
+  cr_assert(WIFEXITED(status) && WEXITSTATUS(status) == 0, "run failed");
+  char *summary = read_text(out);
+  cr_assert(summary && strstr(summary, "with the streaming velocity (rms 30 km/s from z = 1000)"));
+  free(summary);
+  snprintf(path, sizeof path, "%s/growth.txt", dir);
+  char *text = read_text(path);
+  table g;
+  parse_table(text, &g);
+  const int cz = column_index(&g, "z"), ck = column_index(&g, "k[1/Mpc]");
+  const char *const names[] = {"stream_b_power", "stream_c_power", "stream_b_power_rms",
+                               "stream_b_power_patch"};
+  cr_assert_eq(g.n_rows, 6 * 8);
+  for (int c = 0; c < 4; c++) {
+    const int col = column_index(&g, names[c]);
+    cr_assert_geq(col, 0, "%s", names[c]);
+    for (int row = 0; row < g.n_rows; row++) {
+      const double v = cell(&g, row, col), z = cell(&g, row, cz);
+      if (z >= 1000.0) cr_assert_eq(v, 1.0, "%s at z = %g", names[c], z);
+      else cr_assert(v > 0.0 && v <= 1.0, "%s = %g at z = %g, k = %g", names[c], v, z, cell(&g, row, ck));
+    }
+  }
+  table_free(&g);
+  free(text);
+  snprintf(path, sizeof path, "%s/scales.txt", dir);
+  text = read_text(path);
+  table s;
+  parse_table(text, &s);
+  const int kf = column_index(&s, "k_F[1/Mpc]"), kfs = column_index(&s, "k_F_stream[1/Mpc]");
+  const int kh = column_index(&s, "k_half[1/Mpc]"), khs = column_index(&s, "k_half_stream[1/Mpc]");
+  cr_assert(kfs >= 0 && khs >= 0 && column_index(&s, "M_F_stream[Msun]") >= 0 &&
+            column_index(&s, "M_half_stream[Msun]") >= 0);
+  for (int row = 0; row < s.n_rows; row++) {
+    const double z = cell(&s, row, 0);
+    if (z >= 1000.0) {
+      cr_assert_eq(cell(&s, row, kfs), cell(&s, row, kf));
+      cr_assert_eq(cell(&s, row, khs), cell(&s, row, kh));
+    } else {
+      cr_assert(cell(&s, row, kfs) > 0.0 && cell(&s, row, kfs) < cell(&s, row, kf), "z = %g", z);
+      cr_assert(cell(&s, row, khs) > 0.0 && cell(&s, row, khs) < cell(&s, row, kh), "z = %g", z);
+    }
+  }
+  table_free(&s);
+  free(text);
+  const char *const files[] = {"history.txt", "epochs.txt", "scales.txt", "growth.txt", "stdout",
+                               "stderr"};
+  for (int i = 0; i < 6; i++) {
+    snprintf(path, sizeof path, "%s/%s", dir, files[i]);
+    remove(path);
+  }
+  rmdir(dir);
 }
