@@ -331,6 +331,35 @@ Test(null_error, scan) {
   jg_config_free(c);
 }
 
+Test(null_error, streaming) {
+  stages s;
+  stages_build(&s);
+  jg_streaming_settings bad = s.p.streaming;
+  bad.velocity_nodes = 0; /* outside the key table */
+  cr_assert_null(jg_stream_model_new(s.m, &bad, NULL));
+  cr_assert_null(jg_stream_model_new(NULL, &s.p.streaming, NULL));
+  cr_assert_null(jg_stream_model_new_flow(s.m, &bad, NULL, NULL, NULL));
+  jg_streaming_settings on = s.p.streaming;
+  on.rms_velocity_kms = 30.0;
+  jg_stream_model *sm = jg_stream_model_new(s.m, &on, NULL);
+  cr_assert_not_null(sm);
+  const double k = 100.0, z_bad = -5.0, v = 1.0;
+  jg_stream_state state;
+  jg_stream_power power;
+  double k2;
+  cr_assert_neq(jg_stream_solve(sm, s.w, k, &v, 1, &z_bad, 1, &state, NULL), JG_OK);
+  cr_assert_neq(jg_stream_powers(sm, s.w, &k, 1, &z_bad, 1, 1, &power, NULL), JG_OK);
+  cr_assert_neq(jg_stream_limit(sm, s.w, &z_bad, 1, &k2, NULL), JG_OK);
+  jg_stream_model_free(sm);
+  jg_scales_point sp[1];
+  cr_assert_neq(jg_scales_add_streaming(s.m, s.w, &bad, &z_bad, 1, sp, NULL), JG_OK);
+  jg_growth_grid *g = NULL;
+  cr_assert_eq(jg_growth_grid_compute(s.m, s.w, &k, 1, s.p.output.redshifts, 2, &g, NULL), JG_OK);
+  cr_assert_neq(jg_growth_grid_add_streaming(g, s.m, s.w, &bad, NULL), JG_OK);
+  jg_growth_grid_free(g);
+  stages_free(&s);
+}
+
 /* ---- end of null_error ---- */
 
 /* ---- the parameter object and the setters by key ---- */

@@ -634,6 +634,19 @@ static int medium_never_used(const void *ctx, double ln_a, jg_medium_coefficient
   return 1;
 }
 
+/* A medium a model can be built on (the streaming model needs one). */
+static int medium_still(const void *ctx, double ln_a, jg_medium_coefficients *out) {
+  (void)ctx, (void)ln_a;
+  memset(out, 0, sizeof *out);
+  out->dlnH_dlna = -1.5;
+  return 0;
+}
+
+static double still_hubble(const void *ctx, double ln_a) {
+  (void)ctx;
+  return exp(-0.5 * ln_a);
+}
+
 /* The stage that defends `key` builds with `value` put in; NULL when it
  * would build (the stage's message otherwise, in `err`). Only values
  * outside the range are given, so every stage fails at its first check,
@@ -672,6 +685,15 @@ static const char *stage_refusal(const char *key, double value, jg_error *err) {
     int n = 0;
     return jg_perturb_wavenumbers(&loaded.perturbations, k, &n, err) == JG_OK ? NULL
                                                                              : err->message;
+  }
+  if (strncmp(key, "streaming.", 10) == 0) {
+    jg_medium still = {medium_still, NULL, 0.0, -10.0, 0.0, 0.0, 1e30, 1.0};
+    jg_perturb_model *m = jg_perturb_model_new_medium(&still, &loaded.perturbations, NULL, err);
+    cr_assert_not_null(m, "%s", err->message);
+    jg_stream_model *sm = jg_stream_model_new_flow(m, &loaded.streaming, still_hubble, NULL, err);
+    cr_assert_null(sm, "%s = %.17g: the streaming model was built", key, value);
+    jg_perturb_model_free(m);
+    return err->message;
   }
   jg_medium medium = {medium_never_used, NULL, 0.0, -10.0, 0.0, 0.0, 1e30, 1.0};
   jg_perturb_model *m = jg_perturb_model_new_medium(&medium, &loaded.perturbations, NULL, err);

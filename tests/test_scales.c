@@ -479,8 +479,8 @@ Test(scales, report_row_in_h_units_is_the_default_row_converted) {
       converted += power != 0 && j == 0;
     }
   }
-  /* The README's scales columns: 7 wavenumbers and 8 masses. */
-  cr_expect_eq(converted, 15, "%d columns converted", converted);
+  /* The README's scales columns: 9 wavenumbers and 10 masses. */
+  cr_expect_eq(converted, 19, "%d columns converted", converted);
   cr_expect_null(jg_report_scales_column_name(JG_UNITS_MPC_H, n));
   real_close(&r);
 }

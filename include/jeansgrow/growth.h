@@ -24,6 +24,9 @@ typedef struct jg_growth_grid {
   double *D_ref;            /* [iz]: scale-independent growth D(z), D -> a early */
   double *f_ref;            /* [iz]: its rate d ln D / d ln a */
   char start[JG_MAX_PATH + 256]; /* where the perturbations started (jg_perturb_model_describe_start) */
+  /* [ik * n_z + iz]: the streaming averages (stream_results.h); NULL
+   * without streaming. */
+  struct jg_stream_power *stream;
 } jg_growth_grid;
 
 /* Solve every k of k[0..n_k) at every z of z[0..n_z), and (on a real

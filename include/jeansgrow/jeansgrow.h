@@ -26,6 +26,8 @@
 #include "jeansgrow/report.h"
 #include "jeansgrow/scales.h"
 #include "jeansgrow/scan.h"
+#include "jeansgrow/stream_results.h"
+#include "jeansgrow/streaming.h"
 #include "jeansgrow/table.h"
 #include "jeansgrow/thermal.h"
 #include "jeansgrow/universe.h"

@@ -196,11 +196,23 @@ typedef struct jg_output_settings {
   jg_mass_radius mass_radius;
 } jg_output_settings;
 
+/* The baryon-dark matter streaming velocity (group `streaming`; see
+ * streaming.h). */
+typedef struct jg_streaming_settings {
+  double rms_velocity_kms; /* 3-D rms of v_bc at start_redshift, km/s; 0: no streaming */
+  double start_redshift;   /* v_bc = 0 before, decaying as 1/a after */
+  int velocity_nodes;      /* Gauss-Hermite nodes of v_par >= 0 (Maxwellian average) */
+  int direction_nodes;     /* Gauss-Legendre nodes of mu in [0, 1] (fixed |v_bc|) */
+  double patch_multiple;   /* the local patch: |v_bc| = this times v_rms */
+  double rel_tol;          /* relative tolerance of the streaming solves */
+} jg_streaming_settings;
+
 typedef struct jg_params {
   jg_cosmology cosmology;
   jg_thermal_settings thermal;
   jg_perturb_settings perturbations;
   jg_output_settings output;
+  jg_streaming_settings streaming;
 } jg_params;
 
 /* Fill every field with its documented default. The three densities-and-h

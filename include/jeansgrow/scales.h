@@ -67,6 +67,13 @@ typedef struct jg_scales_point {
   double growth_rate_large;        /* d ln delta_m / d ln a at k = 0 */
   int has_heath;                   /* 1 when growth_heath is set (real history, w = -1) */
   double growth_heath;             /* Heath (1977) D(z), D -> a early */
+  /* With the streaming velocity (stream_results.h); the values above
+   * without it. */
+  double k_filter_stream;          /* of the averaged baryon power */
+  double m_filter_stream;          /* (4 pi/3) rho_m0 (2 pi/k)^3 */
+  int half_stream_found;
+  double k_half_stream;            /* sqrt(<P_b>/<P_c>) at half its k -> 0 value */
+  double m_half_stream;            /* (4 pi/3) rho_m0 (pi/k)^3 */
 } jg_scales_point;
 
 /* All scales at every redshift of z[0..n_z) (any order). Uses the workspace

@@ -173,6 +173,29 @@ const jg__param_spec jg__param_specs[] = {
       "radius of the sphere every mass of the run summary and the figures is quoted with: pi/k, "
       "or 2 pi/k (8 times the mass); the tables hold both"},
      JG__KIND_CHOICE, P_OFF(output.mass_radius), 0, 0, 0, 0, 0, 1, 0, 0, mass_radius_words, 0},
+
+    NUMBER("streaming.rms_velocity_kms", streaming.rms_velocity_kms, "km/s", "0.0",
+           "0 <= value <= 200", 0, 0, 200, 0,
+           "3-D rms baryon-dark matter relative velocity at streaming.start_redshift (about 30 "
+           "at z ~ 1020, Tseliakhovich & Hirata 2010, value from memory); 0: no streaming, "
+           "the classic results alone"),
+    NUMBER("streaming.start_redshift", streaming.start_redshift, "", "1020.0",
+           "10 <= value <= 1500", 10, 0, 1500, 0,
+           "the flow starts here (the baryons' kinematic release; Tseliakhovich & Hirata 2010 "
+           "quote the rms at z ~ 1020, value from memory) and decays as 1/a after"),
+    INTEGER("streaming.velocity_nodes", streaming.velocity_nodes, "16", "1 <= value <= 32", 1,
+            32,
+            "Gauss-Hermite nodes of the velocity along k, v_par >= 0 (the Maxwellian and "
+            "direction average; a rule of twice as many nodes, even in v_par)"),
+    INTEGER("streaming.direction_nodes", streaming.direction_nodes, "8", "1 <= value <= 32", 1,
+            32, "Gauss-Legendre nodes of mu in [0, 1] (direction averages at a fixed speed)"),
+    NUMBER("streaming.patch_multiple", streaming.patch_multiple, "", "1.0", "0 <= value <= 5",
+           0, 0, 5, 0,
+           "the local patch: the stream_b_power_patch column at |v_bc| = this times the rms"),
+    NUMBER("streaming.rel_tol", streaming.rel_tol, "", "1e-4", "1e-10 <= value <= 1e-3", 1e-10,
+           0, 1e-3, 0,
+           "relative tolerance of the streaming solves (their averages are ratios good to "
+           "about 1e-4 by their quadrature; tighter costs time, not accuracy)"),
 };
 
 const int jg__n_param_specs = (int)(sizeof jg__param_specs / sizeof jg__param_specs[0]);
@@ -280,7 +303,8 @@ const jg_param_rule *jg_param_rule_at(int i) {
   return &jg__param_rules[i].doc;
 }
 
-const char *const jg__param_groups[] = {"cosmology", "thermal", "perturbations", "output"};
+const char *const jg__param_groups[] = {"cosmology", "thermal", "perturbations", "output",
+                                        "streaming"};
 const int jg__n_param_groups = (int)(sizeof jg__param_groups / sizeof jg__param_groups[0]);
 
 static const double default_redshifts[] = {1100.0, 1000.0, 500.0, 200.0,
@@ -330,6 +354,13 @@ void jg_params_set_defaults(jg_params *p) {
   p->output.history_z_min = 0.0;
   p->output.units = JG_UNITS_MPC;
   p->output.mass_radius = JG_MASS_RADIUS_HALF_WAVELENGTH;
+
+  p->streaming.rms_velocity_kms = 0.0;
+  p->streaming.start_redshift = 1020.0;
+  p->streaming.velocity_nodes = 16;
+  p->streaming.direction_nodes = 8;
+  p->streaming.patch_multiple = 1.0;
+  p->streaming.rel_tol = 1e-4;
 }
 
 const jg_param_doc *jg_param_doc_at(int i) {

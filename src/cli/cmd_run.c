@@ -56,12 +56,16 @@ static jg_status compute_all(const jg_params *p, const jg_thermal *th, jg_pertur
   jg_status st = jg_epochs_compute(th, &r->epochs, err);
   if (st == JG_OK)
     st = jg_scales_compute(model, ws, p->output.redshifts, p->output.n_redshifts, r->scales, err);
+  if (st == JG_OK)
+    st = jg_scales_add_streaming(model, ws, &p->streaming, p->output.redshifts,
+                                 p->output.n_redshifts, r->scales, err);
   r->k = malloc(sizeof(double) * JG_MAX_WAVENUMBERS);
   if (!r->k) return JG_FAIL(err, JG_ENOMEM, "out of memory for the wavenumbers");
   if (st == JG_OK) st = jg_perturb_wavenumbers(&p->perturbations, r->k, &r->n_k, err);
   if (st == JG_OK)
     st = jg_growth_grid_compute(model, ws, r->k, r->n_k, p->output.redshifts,
                                 p->output.n_redshifts, &r->growth, err);
+  if (st == JG_OK) st = jg_growth_grid_add_streaming(r->growth, model, ws, &p->streaming, err);
   return st;
 }
 
@@ -160,6 +164,24 @@ static void print_summary(const char *param_path, const char *dir, const jg_para
   if (seen_flags & JG_FLAG_NEAR_FLUID_LIMIT)
     printf("  flags 4: k_F or k_half within ten mean free paths of the atoms: the gas is no "
            "longer a fluid there\n");
+  if (p->streaming.rms_velocity_kms > 0.0) {
+    printf("  with the streaming velocity (rms %g km/s from z = %g), beside the values above:\n",
+           p->streaming.rms_velocity_kms, p->streaming.start_redshift);
+    char k_Fs[40], M_Fs[40], k_hs[40], M_hs[40];
+    snprintf(k_Fs, sizeof k_Fs, "k_F_stream[%s]", k_unit);
+    snprintf(M_Fs, sizeof M_Fs, "M_F_stream[%s]", m_unit);
+    snprintf(k_hs, sizeof k_hs, "k_half_stream[%s]", k_unit);
+    snprintf(M_hs, sizeof M_hs, "M_half_stream[%s]", m_unit);
+    printf("  %8s %18s %17s %20s %19s\n", "z", k_Fs, M_Fs, k_hs, M_hs);
+    for (int i = 0; i < p->output.n_redshifts; i++) {
+      const jg_scales_point *s = &r->scales[i];
+      printf("  %8.1f %18.4g %17.3e", s->z, s->k_filter_stream * k_factor,
+             s->m_filter_stream * m_factor);
+      if (s->half_stream_found)
+        printf(" %20.4g %19.3e\n", s->k_half_stream * k_factor, s->m_half_stream * m_factor);
+      else printf(" %20s %19s\n", "none", "-");
+    }
+  }
   printf("  files: history.txt, epochs.txt, scales.txt (%d redshifts), growth.txt (%d x %d "
          "rows)\n",
          p->output.n_redshifts, p->output.n_redshifts, r->n_k);

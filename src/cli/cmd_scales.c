@@ -69,6 +69,9 @@ int cmd_scales(const cli_command *cmd, int argc, char **argv) {
   jg_status st = jg_scales_compute(r.model, r.ws, r.p.output.redshifts, r.p.output.n_redshifts,
                                    s, &err);
   if (st == JG_OK)
+    st = jg_scales_add_streaming(r.model, r.ws, &r.p.streaming, r.p.output.redshifts,
+                                 r.p.output.n_redshifts, s, &err);
+  if (st == JG_OK)
     st = jg_report_scales(jg_output_stream(r.out), &r.p, r.th, s, r.p.output.n_redshifts, &err);
   return run_end(&r, st, &err);
 }
@@ -87,6 +90,7 @@ int cmd_growth(const cli_command *cmd, int argc, char **argv) {
   if (st == JG_OK)
     st = jg_growth_grid_compute(r.model, r.ws, k, n_k, r.p.output.redshifts,
                                 r.p.output.n_redshifts, &g, &err);
+  if (st == JG_OK) st = jg_growth_grid_add_streaming(g, r.model, r.ws, &r.p.streaming, &err);
   if (st == JG_OK) st = jg_report_growth(jg_output_stream(r.out), &r.p, r.th, g, &err);
   jg_growth_grid_free(g);
   free(k);

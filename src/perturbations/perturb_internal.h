@@ -127,5 +127,11 @@ jg_status jg__pt_ros_solve_modes(const jg_perturb_model *m, jg_perturb_workspace
 /* The large-scale limit system, redshifts already checked and ordered. */
 jg_status jg__pt_ros_solve_limit(const jg_perturb_model *m, jg_perturb_workspace *w,
                                  const double *z, int n_z, jg_perturb_limit *out, jg_error *err);
+/* The coefficients at x and (dc not NULL) their slope in x, as the
+ * Rosenbrock path reads them; non-zero outside the medium. */
+int jg__pt_coefficients_and_slope(const jg_perturb_model *m, double x, jg_medium_coefficients *c,
+                                  jg_medium_coefficients *dc);
+/* Upper estimate of the fastest rate of the mode system at k^2. */
+double jg__pt_fastest_rate(const jg_perturb_model *m, const jg_medium_coefficients *c, double k2);
 
 #endif

@@ -303,3 +303,13 @@ jg_status jg_perturb_solve_many(const jg_perturb_model *m, jg_perturb_workspace 
   }
   return JG_OK;
 }
+
+/* For the streaming systems (streaming.c), which drive the same integrator
+ * with matrices of their own. */
+int jg__pt_coefficients_and_slope(const jg_perturb_model *m, double x, jg_medium_coefficients *c,
+                                  jg_medium_coefficients *dc) {
+  return coefficients_and_slope(m, x, c, dc);
+}
+double jg__pt_fastest_rate(const jg_perturb_model *m, const jg_medium_coefficients *c, double k2) {
+  return fastest_rate(m, c, k2);
+}

@@ -15,6 +15,7 @@ void jg_growth_grid_free(jg_growth_grid *g) {
   free(g->limit);
   free(g->D_ref);
   free(g->f_ref);
+  free(g->stream);
   free(g);
 }
 

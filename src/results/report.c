@@ -13,6 +13,7 @@
 #include <string.h>
 
 #include "jeansgrow/constants.h"
+#include "jeansgrow/streaming.h"
 #include "jeansgrow/table.h"
 #include "jeansgrow/validity.h"
 #include "report_tables.h"
@@ -239,6 +240,10 @@ jg_status jg_report_epochs(FILE *f, const jg_params *p, const jg_epochs *e, jg_e
   X("b_over_c_large", NONE)                                                                \
   X("delta_m_large", NONE)                                                                 \
   X("rate_m_large", NONE)                                                                  \
+  X("k_F_stream", WAVENUMBER)                                                              \
+  X("M_F_stream", MASS)                                                                    \
+  X("k_half_stream", WAVENUMBER)                                                           \
+  X("M_half_stream", MASS)                                                                  \
   X("flags", NONE)
 
 const char *const jg__report_scales_columns[][JG__REPORT_SCALES_COLUMNS] = {
@@ -272,7 +277,12 @@ _Static_assert(sizeof scales_quantities / sizeof scales_quantities[0] ==
       "M_half = (4 pi/3) rho_m0 (pi/k_half)^3; half_found = 0 when no crossing lies in the " \
       "accepted k range (k_half and M_half are then written as 0)",                          \
       "b_over_c_large, delta_m_large, rate_m_large: the k -> 0 limit: delta_b/delta_c, "     \
-      "delta_m per unit initial CDM contrast, and d ln delta_m / d ln a",                 \
+      "delta_m per unit initial CDM contrast, and d ln delta_m / d ln a",                    \
+      "k_F_stream, M_F_stream: with the streaming velocity (streaming.*), from the baryon "   \
+      "power averaged over direction and the Maxwellian, <P_b>(k)/P_b(k->0) = 1 - 2 "        \
+      "k^2/k_F_stream^2 (exact k^2 coefficient), mass as M_F; k_half_stream, M_half_stream: " \
+      "where sqrt(<P_b>/<P_c>) falls to half its k -> 0 value, mass as M_half (0 when no "   \
+      "crossing); all equal to k_F, M_F, k_half, M_half when streaming.rms_velocity_kms = 0",   \
       JG__REPORT_FLAGS_CONVENTION
 
 #define SCALES_UNITS_MPC "units: k comoving 1/Mpc, masses M_sun, temperatures K"
@@ -332,6 +342,10 @@ void jg_report_scales_row(const jg_thermal *th, const jg_scales_point *s, jg_out
                                      s->b_over_c_large,
                                      s->delta_m_large,
                                      s->growth_rate_large,
+                                     s->k_filter_stream,
+                                     s->m_filter_stream,
+                                     s->half_stream_found ? s->k_half_stream : 0.0,
+                                     s->half_stream_found ? s->m_half_stream : 0.0,
                                      jg_validity_scales_flags(th, s)};
   for (int i = 0; i < N_SCALES_COLUMNS; i++)
     row[i] = values[i] * unit_factor(scales_quantities[i], units, h);
@@ -368,6 +382,10 @@ jg_status jg_report_scales(FILE *f, const jg_params *p, const jg_thermal *th,
   X("rate_c", NONE)                                                                       \
   X("rate_b", NONE)                                                                       \
   X("rate_m", NONE)                                                                       \
+  X("stream_b_power", NONE)                                                               \
+  X("stream_c_power", NONE)                                                               \
+  X("stream_b_power_rms", NONE)                                                           \
+  X("stream_b_power_patch", NONE)                                                         \
   X("flags", NONE)                                                                        \
   X("D_ref", NONE)                                                                        \
   X("rate_ref", NONE)
@@ -388,6 +406,11 @@ const char *const jg__report_growth_columns[][N_GROWTH_COLUMNS] = {
       "b_over_m = delta_b/delta_m",                                                           \
       "suppression: b_over_c divided by its k -> 0 value at the same z (pressure alone)",     \
       "rate_x: d ln delta_x / d ln a",                                                        \
+      "stream_b_power, stream_c_power: with the streaming velocity (streaming.*), "            \
+      "<|delta|^2> over direction and the Maxwellian divided by |delta(v_bc = 0)|^2, baryons " \
+      "and dark matter; stream_b_power_rms, stream_b_power_patch: the baryons' direction "     \
+      "average at |v_bc| = v_rms and at streaming.patch_multiple v_rms; 1 above "              \
+      "streaming.start_redshift and when streaming.rms_velocity_kms = 0",                      \
       "D_ref, rate_ref: scale-independent growth D(z) of matter + dark energy without "       \
       "radiation (Heath 1977 integral for w = -1; its differential equation otherwise), "     \
       "D -> a early, and d ln D / d ln a, for reference (the same on every row of a redshift)", \
@@ -395,7 +418,7 @@ const char *const jg__report_growth_columns[][N_GROWTH_COLUMNS] = {
 
 #define GROWTH_UNITS_MPC "units: k comoving 1/Mpc"
 #define GROWTH_UNITS_MPC_H "units: k comoving h/Mpc (1/Mpc divided by h); h = cosmology.hubble_h"
-static const char *const growth_conventions[][8] = {
+static const char *const growth_conventions[][10] = {
     [JG_UNITS_MPC] = {GROWTH_CONVENTIONS, GROWTH_UNITS_MPC, NULL},
     [JG_UNITS_MPC_H] = {GROWTH_CONVENTIONS,
                         GROWTH_UNITS_MPC_H,
@@ -415,7 +438,7 @@ jg_status jg_report_growth(FILE *f, const jg_params *p, const jg_thermal *th,
    * are left out rather than filled. */
   const int n_columns = g->has_reference ? N_GROWTH_COLUMNS : N_GROWTH_COLUMNS - 2;
   /* The conventions plus the start line, which depends on the run. */
-  const char *conventions[8];
+  const char *conventions[12];
   int n_conv = 0;
   for (; growth_conventions[units][n_conv]; n_conv++)
     conventions[n_conv] = growth_conventions[units][n_conv];
@@ -438,11 +461,16 @@ void jg__report_growth_row(const jg_thermal *th, const jg_growth_grid *g, int ik
                            jg_output_units units, double h, double *row) {
   const double large = g->limit[iz].k0.b_over_c;
   const jg_perturb_point *pt = jg_growth_grid_at(g, ik, iz);
+  const jg_stream_power *streamed = g->stream ? &g->stream[(size_t)ik * g->n_z + iz] : NULL;
   const double values[N_GROWTH_COLUMNS] = {pt->z,        pt->k,        pt->delta_c,
                                            pt->delta_b,  pt->delta_m,  pt->delta_T,
                                            pt->b_over_c, pt->delta_b / pt->delta_m,
                                            pt->b_over_c / large,
                                            pt->growth_c, pt->growth_b, pt->growth_m,
+                                           streamed ? streamed->b_power : 1.0,
+                                           streamed ? streamed->c_power : 1.0,
+                                           streamed ? streamed->b_power_rms : 1.0,
+                                           streamed ? streamed->b_power_patch : 1.0,
                                            jg_validity_growth_flags(th, pt->z, pt->k, large),
                                            g->has_reference ? g->D_ref[iz] : 0.0,
                                            g->has_reference ? g->f_ref[iz] : 0.0};

@@ -9,17 +9,18 @@
 #include "jeansgrow/params.h"
 #include "jeansgrow/thermal.h"
 
-#define JG__REPORT_SCALES_COLUMNS 23
-#define JG__REPORT_SCALES_CONVENTIONS 10 /* lines, the terminating NULL included */
+#define JG__REPORT_SCALES_COLUMNS 27
+#define JG__REPORT_SCALES_CONVENTIONS 11 /* lines, the terminating NULL included */
 extern const char *const jg__report_scales_columns[][JG__REPORT_SCALES_COLUMNS];
 extern const char *const jg__report_scales_conventions[][JG__REPORT_SCALES_CONVENTIONS];
 
-/* The growth table's columns: z, k, ..., rate_m, flags, D_ref, rate_ref
- * (the last two left out where that universe has no reference growth). */
-#define JG__REPORT_GROWTH_COLUMNS 15
-#define JG__REPORT_GROWTH_SCAN_COLUMNS 12 /* k to flags: the scan's per-row columns */
+/* The growth table's columns: z, k, ..., rate_m, the four streaming
+ * powers, flags, D_ref, rate_ref (the last two left out where that universe
+ * has no reference growth). */
+#define JG__REPORT_GROWTH_COLUMNS 19
+#define JG__REPORT_GROWTH_SCAN_COLUMNS 16 /* k to flags: the scan's per-row columns */
 extern const char *const jg__report_growth_columns[][JG__REPORT_GROWTH_COLUMNS];
-#define JG__REPORT_SCAN_GROWTH_CONVENTIONS 9 /* the scan's epochs line, the growth lines, NULL */
+#define JG__REPORT_SCAN_GROWTH_CONVENTIONS 10 /* the scan's epochs line, the growth lines, NULL */
 extern const char *const jg__report_scan_growth_conventions[][JG__REPORT_SCAN_GROWTH_CONVENTIONS];
 /* Row (ik, iz) of the growth table, all JG__REPORT_GROWTH_COLUMNS values, in
  * `units` with the cosmology's h. */

@@ -447,6 +447,12 @@ jg_status jg_scales_compute(const jg_perturb_model *m, jg_perturb_workspace *w, 
     out[i].half_found = found[i];
     out[i].k_half = found[i] ? k_half[i] : 0.0;
     out[i].m_half = found[i] ? jg_scales_mass(m, k_half[i], 1.0) : 0.0;
+    /* Without streaming (jg_scales_add_streaming replaces them). */
+    out[i].k_filter_stream = out[i].k_filter_solved;
+    out[i].m_filter_stream = out[i].m_filter_solved;
+    out[i].half_stream_found = out[i].half_found;
+    out[i].k_half_stream = out[i].k_half;
+    out[i].m_half_stream = out[i].m_half;
   }
   return JG_OK;
 }

@@ -15,6 +15,7 @@
 #include "jeansgrow/jeans.h"
 #include "jeansgrow/perturb.h"
 #include "jeansgrow/report.h"
+#include "jeansgrow/stream_results.h"
 #include "jeansgrow/scales.h"
 #include "../results/report_tables.h"
 #include "../base/alloc.h" /* last: test builds route allocations through it */
@@ -140,6 +141,8 @@ static jg_status scales_evaluate(const jg_params *p, double *point_values,
   jg_status st = point_model_build(p, &pm, err);
   if (st == JG_OK) st = epoch_columns(pm.th, point_values, err);
   if (st == JG_OK) st = jg_scales_compute(pm.m, pm.w, p->output.redshifts, n_z, s, err);
+  if (st == JG_OK)
+    st = jg_scales_add_streaming(pm.m, pm.w, &p->streaming, p->output.redshifts, n_z, s, err);
   double row[SCALES_REDSHIFT_COLUMNS + 1];
   for (int j = 0; st == JG_OK && j < n_z; j++) {
     jg_report_scales_row(pm.th, &s[j], units, row);
@@ -197,6 +200,7 @@ static jg_status growth_evaluate(const jg_params *p, double *point_values,
   if (st == JG_OK) st = jg_perturb_wavenumbers(&p->perturbations, k, &n_k, err);
   if (st == JG_OK)
     st = jg_growth_grid_compute(pm.m, pm.w, k, n_k, p->output.redshifts, n_z, &g, err);
+  if (st == JG_OK) st = jg_growth_grid_add_streaming(g, pm.m, pm.w, &p->streaming, err);
   double row[JG__REPORT_GROWTH_COLUMNS];
   const double h = p->cosmology.hubble_h;
   for (int iz = 0; st == JG_OK && iz < n_z; iz++)
