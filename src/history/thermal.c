@@ -628,7 +628,7 @@ void jg_thermal_state_at(const jg_thermal *th, double z, jg_thermal_state *s) {
   s->x_HeII = he.x_HeII;
   s->x_HeIII = he.x_HeIII;
   s->compton_rate = jg__compton_rate(bg, s->T_rad, s->x_e);
-  s->mu = jg__mean_molecular_weight(bg->cosmology.helium_mass_fraction, s->x_e);
+  s->mu = jg_background_mean_molecular_weight(bg, s->x_e);
 }
 
 /* d tau / d ln a (per unit ln a, positive). */
