@@ -963,8 +963,9 @@ Test(scan, program_refuses_bad_grids_before_any_work) {
        "'cosmology.baryon_density' (did you mean 'cosmology.baryon_density_h2'?)\n"},
       {"perturbations.sound_speed=0:2:3", NULL,
        "jeansgrow: --vary perturbations.sound_speed=0:2:3: perturbations.sound_speed is not a "
-       "single number (its type: one of \"fluctuating\", \"isothermal\", \"adiabatic\"); only "
-       "number and integer keys can be varied (jeansgrow keys lists them)\n"},
+       "single number (its type: one of \"fluctuating\", \"isothermal\", \"adiabatic\", "
+       "\"effective_gamma\"); only number and integer keys can be varied (jeansgrow keys lists "
+       "them)\n"},
       {"output.redshifts=10:20:2", NULL,
        "jeansgrow: --vary output.redshifts=10:20:2: output.redshifts is not a single number (its "
        "type: list of numbers); only number and integer keys can be varied (jeansgrow keys lists "

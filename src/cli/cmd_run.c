@@ -131,11 +131,14 @@ static void print_summary(const char *param_path, const char *dir, const jg_para
     if (s->half_found) printf(" %13.4g %14.3e\n", s->k_half * k_factor, s->m_half * m_factor);
     else printf(" %13s %14s\n", "none", "-");
   }
+  static const char *const sound_speed_names[] = {"fluctuating", "isothermal", "adiabatic",
+                                                  "effective_gamma"};
   printf("  (isothermal Jeans mass; filtering mass (4 pi/3) rho_m (2 pi/k_F)^3 from the solved "
-         "perturbations; sound speed: %s)\n",
-         p->perturbations.sound_speed == JG_SOUND_SPEED_FLUCTUATING ? "fluctuating"
-         : p->perturbations.sound_speed == JG_SOUND_SPEED_ISOTHERMAL ? "isothermal"
-                                                                       : "adiabatic");
+         "perturbations; sound speed: %s%s)\n",
+         sound_speed_names[p->perturbations.sound_speed],
+         p->perturbations.sound_speed == JG_SOUND_SPEED_FLUCTUATING
+             ? (p->perturbations.ionisation_perturbation ? " with delta_xe" : " without delta_xe")
+             : "");
   printf("  files: history.txt, epochs.txt, scales.txt (%d redshifts), growth.txt (%d x %d "
          "rows)\n",
          p->output.n_redshifts, p->output.n_redshifts, r->n_k);

@@ -13,11 +13,10 @@
 
 /* The relaxation rate q_r of delta_xe reaches 1e20 per e-fold while
  * hydrogen is in Saha equilibrium; GSL's msbdf fails on such a rate at tight
- * tolerances. It is capped smoothly, q_r cap / (q_r + cap), with the source
- * terms, tabulated as ratios to q_r, scaled alike: the quasi-equilibrium
- * delta_xe is unchanged and only its lag behind the sources, ~ 1/q_r e-folds,
- * grows, to at most 1e-6 e-folds (measured effect on delta_b/delta_c: see
- * src/PHYSICS.md §9). */
+ * tolerances. It is capped smoothly, times cap / (q_r + cap), with the source
+ * terms scaled alike: the quasi-equilibrium delta_xe is unchanged and only
+ * its lag behind the sources, ~ 1/q_r e-folds, grows, to at most 1e-6
+ * e-folds (measured effect: src/PHYSICS.md §9). */
 #define PT_XE_RELAX_CAP 1.0e6
 #include "../base/alloc.h" /* last: test builds route allocations through it */
 
@@ -42,11 +41,10 @@ int jg__pt_thermal_medium_eval(const void *ctx, double ln_a, jg_medium_coefficie
 #define PT_VALUE(q) (c[4 * (q)] + u * (c[4 * (q) + 1] + u * (c[4 * (q) + 2] + u * c[4 * (q) + 3])))
   if (tm->effective_gamma) out->pressure_effective = PT_VALUE(Q_GAMMA_EFF) * out->pressure;
   if (tm->ionisation) {
-    const double q_r = exp(PT_VALUE(Q_XE_RELAX));
-    out->ionisation_relaxation = q_r;
-    out->ionisation_density = PT_VALUE(Q_XE_DENSITY) * q_r;
-    out->ionisation_temperature = PT_VALUE(Q_XE_TEMPERATURE) * q_r;
-    out->ionisation_expansion = PT_VALUE(Q_XE_EXPANSION) * q_r;
+    out->ionisation_relaxation = sinh(PT_VALUE(Q_XE_RELAX));
+    out->ionisation_density = sinh(PT_VALUE(Q_XE_DENSITY));
+    out->ionisation_temperature = sinh(PT_VALUE(Q_XE_TEMPERATURE));
+    out->ionisation_expansion = sinh(PT_VALUE(Q_XE_EXPANSION));
     out->heating_ionisation = PT_VALUE(Q_XE_HEATING) * out->relaxation;
     out->pressure_ionisation = PT_VALUE(Q_XE_PRESSURE) * out->pressure;
   }
@@ -78,15 +76,12 @@ void jg__pt_thermal_medium_slope(const thermal_medium *tm, double ln_a,
     dc->pressure_effective = PT_SLOPE(4 * Q_GAMMA_EFF) * c->pressure + g * dc->pressure;
   }
   if (tm->ionisation) {
-    const double q_r = c->ionisation_relaxation, dq_r = q_r * PT_SLOPE(4 * Q_XE_RELAX);
-    dc->ionisation_relaxation = dq_r;
-    const int ratio_of_qr[3] = {Q_XE_DENSITY, Q_XE_TEMPERATURE, Q_XE_EXPANSION};
-    double d_ratio[3];
-    for (int j = 0; j < 3; j++)
-      d_ratio[j] = PT_SLOPE(4 * ratio_of_qr[j]) * q_r + PT_VALUE(4 * ratio_of_qr[j]) * dq_r;
-    dc->ionisation_density = d_ratio[0];
-    dc->ionisation_temperature = d_ratio[1];
-    dc->ionisation_expansion = d_ratio[2];
+    /* asinh-tabulated: d sinh(v)/dx = cosh(v) dv/dx. */
+    dc->ionisation_relaxation = cosh(PT_VALUE(4 * Q_XE_RELAX)) * PT_SLOPE(4 * Q_XE_RELAX);
+    dc->ionisation_density = cosh(PT_VALUE(4 * Q_XE_DENSITY)) * PT_SLOPE(4 * Q_XE_DENSITY);
+    dc->ionisation_temperature =
+        cosh(PT_VALUE(4 * Q_XE_TEMPERATURE)) * PT_SLOPE(4 * Q_XE_TEMPERATURE);
+    dc->ionisation_expansion = cosh(PT_VALUE(4 * Q_XE_EXPANSION)) * PT_SLOPE(4 * Q_XE_EXPANSION);
     dc->heating_ionisation = PT_SLOPE(4 * Q_XE_HEATING) * c->relaxation +
                              PT_VALUE(4 * Q_XE_HEATING) * dc->relaxation;
     dc->pressure_ionisation = PT_SLOPE(4 * Q_XE_PRESSURE) * c->pressure +
@@ -126,10 +121,15 @@ static void thermal_coefficients(const jg_thermal *th, const thermal_medium *tm,
   if (tm->ionisation) {
     jg_ionisation_response ir;
     jg_thermal_ionisation_response(th, x, &ir);
-    q[Q_XE_RELAX] = ir.relaxation * PT_XE_RELAX_CAP / (ir.relaxation + PT_XE_RELAX_CAP);
-    q[Q_XE_DENSITY] = ir.density / ir.relaxation;
-    q[Q_XE_TEMPERATURE] = ir.temperature / ir.relaxation;
-    q[Q_XE_EXPANSION] = ir.expansion / ir.relaxation;
+    /* q_r turns negative where x_e (helium's electrons included) falls
+     * faster than hydrogen relaxes, and q_b, q_T, q_v change sign too: all
+     * four are tabulated as asinh, logarithmic in size, linear through 0. */
+    const double cap =
+        ir.relaxation > 0.0 ? PT_XE_RELAX_CAP / (ir.relaxation + PT_XE_RELAX_CAP) : 1.0;
+    q[Q_XE_RELAX] = asinh(cap * ir.relaxation);
+    q[Q_XE_DENSITY] = asinh(cap * ir.density);
+    q[Q_XE_TEMPERATURE] = asinh(cap * ir.temperature);
+    q[Q_XE_EXPANSION] = asinh(cap * ir.expansion);
     q[Q_XE_HEATING] = ir.heating / q[Q_RELAX];
     q[Q_XE_PRESSURE] = ir.pressure;
   }
@@ -163,11 +163,10 @@ thermal_medium *jg__pt_thermal_medium_new(const jg_thermal *th, double x_first,
       double q[N_Q];
       thermal_coefficients(th, tm, x[i], q);
       for (int k = 0; k < N_Q; k++) {
-        /* The rates p, d, r, q_r (power laws in a over decades) by their
-         * logarithms; e (negative), g (between 0 and 3/2) and the ratios as
-         * they are. */
-        const int logarithmic =
-            k < Q_EXPANSION || (k == Q_XE_RELAX && tm->ionisation);
+        /* The rates p, d, r (power laws in a over decades) by their
+         * logarithms; e (negative), g (between 0 and 3/2) and the rest as
+         * thermal_coefficients gives them. */
+        const int logarithmic = k < Q_EXPANSION;
         if (!isfinite(q[k]) || (logarithmic && !(q[k] > 0.0))) {
           st = JG_FAIL(err, JG_ENUMERIC,
                        "perturbations: coefficient %d of the medium is %g at z = %g (thermal "

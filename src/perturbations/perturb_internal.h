@@ -44,10 +44,9 @@ typedef struct thermal_medium {
   double *poly;          /* per interval: N_Q quantities x 4 polynomial coefficients */
 } thermal_medium;
 
-/* The tabulated quantities: ln p, ln d, ln r, e, g; gamma_eff; ln q_r and
- * the other delta_xe terms as ratios (q_b, q_T, q_v to q_r, h_x to r) and
- * w_x, which are of order one and smooth where the rates span twenty
- * decades. */
+/* The tabulated quantities: ln p, ln d, ln r, e, g; gamma_eff; asinh of the
+ * delta_xe terms q_r, q_b, q_T, q_v (signed, spanning decades); h_x / r and
+ * w_x (of order one). */
 enum {
   Q_PRESSURE = 0, Q_DRAG = 1, Q_RELAX = 2, Q_EXPANSION = 3, Q_GRAVITY = 4,
   Q_GAMMA_EFF = 5,

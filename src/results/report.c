@@ -86,7 +86,7 @@ static jg_output_units table_units(jg_output_units units) {
 static const char *const history_columns[] = {
     "z",        "x_e",      "x_HII", "x_HeII",            "x_HeIII",
     "T_gas[K]", "T_rad[K]", "mu",    "compton_rate[1/s]", "H[km/s/Mpc]",
-    "tau",      "visibility", "tau_drag"};
+    "tau",      "visibility", "tau_drag", "gamma_eff"};
 #define N_HISTORY_COLUMNS ((int)(sizeof history_columns / sizeof history_columns[0]))
 
 static const char *const history_conventions[] = {
@@ -97,6 +97,8 @@ static const char *const history_conventions[] = {
     "tau: Thomson optical depth from z = 0 back to z (no reionisation)",
     "visibility: (dtau/dz) exp(-tau), per unit redshift",
     "tau_drag: baryon drag depth, integrand of tau divided by R = 3 rho_b / (4 rho_gamma)",
+    "gamma_eff: 1 - (1/3) d ln T_gas / d ln a, the adiabatic index of the uniform sound speed "
+    "of large Boltzmann codes (perturbations.sound_speed = \"effective_gamma\")",
     NULL};
 
 static int descending(const void *a, const void *b) {
@@ -152,7 +154,8 @@ jg_status jg_report_history(FILE *f, const jg_params *p, const jg_thermal *th, j
                                      jg_background_hubble(bg, a) / JG_H100 * 100.0,
                                      jg_thermal_optical_depth(th, z[i]),
                                      jg_thermal_visibility(th, z[i]),
-                                     jg_thermal_drag_depth(th, z[i])};
+                                     jg_thermal_drag_depth(th, z[i]),
+                                     s.gamma_effective};
     st = jg_table_write_row(f, row, N_HISTORY_COLUMNS, history_columns, err);
   }
   free(z);
@@ -192,6 +195,20 @@ jg_status jg_report_epochs(FILE *f, const jg_params *p, const jg_epochs *e, jg_e
       fprintf(f, "%s\t%.10g\t%s\n", en.name, en.value * factor, unit[0] ? unit : "-");
   }
   return JG_OK;
+}
+
+/* ---- the effective_gamma model's index, in the scales and growth headers -- */
+
+/* One header line with gamma_eff(z) at each output redshift, for the
+ * "effective_gamma" sound speed (the other models' gamma is a constant the
+ * parameter lines already state). */
+static void write_effective_gamma(FILE *f, const jg_params *p, const double *z,
+                                  const double *gamma, int n) {
+  if (p->perturbations.sound_speed != JG_SOUND_SPEED_EFFECTIVE_GAMMA) return;
+  fputs("# gamma_eff(z) = 1 - (1/3) d ln T_gas / d ln a of the stored history, as z: gamma_eff:",
+        f);
+  for (int i = 0; i < n; i++) fprintf(f, " %.10g: %.6f%s", z[i], gamma[i], i + 1 < n ? "," : "");
+  fputc('\n', f);
 }
 
 /* ---- scales ------------------------------------------------------------- */
@@ -319,6 +336,15 @@ jg_status jg_report_scales(FILE *f, const jg_params *p, const jg_thermal *th,
   const char *const *columns = jg_report_scales_columns(units);
   jg_table_write_preamble(f, "Jeans, filtering and half-suppression scales", p,
                           jg_report_scales_conventions(units));
+  double z[JG_MAX_REDSHIFTS], gamma[JG_MAX_REDSHIFTS];
+  const int n_gamma = n < JG_MAX_REDSHIFTS ? n : JG_MAX_REDSHIFTS;
+  for (int i = 0; i < n_gamma; i++) {
+    jg_thermal_state st;
+    jg_thermal_state_at(th, s[i].z, &st);
+    z[i] = s[i].z;
+    gamma[i] = st.gamma_effective;
+  }
+  write_effective_gamma(f, p, z, gamma, n_gamma);
   jg_table_write_columns(f, columns, N_SCALES_COLUMNS);
   double row[N_SCALES_COLUMNS];
   for (int i = 0; i < n; i++) {
@@ -379,6 +405,10 @@ jg_status jg_report_growth(FILE *f, const jg_params *p, const jg_growth_grid *g,
    * are left out rather than filled. */
   const int n_columns = g->has_reference ? N_GROWTH_COLUMNS : N_GROWTH_COLUMNS - 2;
   jg_table_write_preamble(f, "linear growth by wavenumber", p, growth_conventions[units]);
+  double gamma[JG_MAX_REDSHIFTS];
+  const int n_gamma = g->n_z < JG_MAX_REDSHIFTS ? g->n_z : JG_MAX_REDSHIFTS;
+  for (int iz = 0; iz < n_gamma; iz++) gamma[iz] = g->limit[iz].gamma_uniform;
+  write_effective_gamma(f, p, g->z, gamma, n_gamma);
   jg_table_write_columns(f, columns, n_columns);
   for (int iz = 0; iz < g->n_z; iz++) {
     const double large = g->limit[iz].k0.b_over_c;
