@@ -461,10 +461,9 @@ static void rhs_limit(const jg_perturb_model *m, const jg_medium_coefficients *c
   f[u + 0] = y[u + 1];
   f[u + 1] = -hd * y[u + 1] + gravity1;
   f[u + 2] = y[u + 3];
-  f[u + 3] = -(hd + c->drag) * y[u + 3] + gravity1 - pK2 * pressure_source0;
-  if (m->effective_gamma)
-    f[u + 3] = -(hd + c->drag) * y[u + 3] + gravity1 -
-               c->pressure_effective * m->k_ref2 * y[M_B];
+  const double pressure0 = m->effective_gamma ? c->pressure_effective * m->k_ref2 * y[M_B]
+                                               : pK2 * pressure_source0;
+  f[u + 3] = -(hd + c->drag) * y[u + 3] + gravity1 - pressure0;
   if (m->ionisation) f[u + 3] -= c->pressure_ionisation * m->k_ref2 * y[M_X];
   /* Gnedin-Hui: J'' + (2 + e) J' = p D with D the total-matter contrast and
    * the isothermal sound speed. */
