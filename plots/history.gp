@@ -1,22 +1,39 @@
-# gnuplot script: ionisation and gas temperature from a `jeansgrow history` table.
-#   jeansgrow history params/reference.cfg -o history.txt
-#   gnuplot -e "table='history.txt'; out='history.png'" plots/history.gp
-if (!exists("table")) table = 'history.txt'
-if (!exists("out")) out = 'history.png'
-set terminal pngcairo size 900,700 font ",11"
-set output out
-set datafile separator "\t"
-set multiplot layout 2,1
-set logscale xy
-set xrange [10:8000] reverse
-set xlabel "redshift z"
-set grid
-set key bottom left
-set ylabel "free electrons per H nucleus"
-plot table using 1:2 with lines lw 2 title "x_e", \
-     table using 1:3 with lines dt 2 title "x_{HII}"
-set ylabel "temperature [K]"
-set key top right
-plot table using 1:6 with lines lw 2 title "T_{gas}", \
-     table using 1:7 with lines dt 2 title "T_{rad}"
-unset multiplot
+# Ionisation and gas temperature against redshift, from a `history` table.
+# Load plots/style.gp first. Columns named x_e_... or T_...[K] beyond the
+# standard ones (a heated or reionised history) are drawn too.
+figure = "the history figure"
+needed_columns = "z x_e x_HII T_gas T_rad"
+@need
+x_extras = ""
+T_extras = ""
+do for [i = 2:words(columns)] {
+  s = stem_of(word(columns, i))
+  if (s[1:4] eq "x_e_") { x_extras = x_extras." ".s }
+  if (s[1:2] eq "T_" && s ne "T_gas" && s ne "T_rad" && unit_of(i - 1) eq "K") { T_extras = T_extras." ".s }
+}
+do for [fmt in formats] {
+  @start_figure
+  set multiplot layout 2,1 title "Ionisation and temperature of the gas"
+  set logscale xy
+  set xrange [*:*] reverse
+  # 1 + z, so that the history down to z = 0 fits a log axis.
+  set key outside right top vertical
+  set rmargin at screen 0.74
+  set lmargin at screen 0.12
+  set format y "10^{%L}"
+  set xlabel ""
+  set ylabel "free electrons per H nucleus"
+  shade_offset = 1
+  @shade_invalid
+  set yrange [*:2]
+  plot table using (1 + $1):(column(col("x_e"))) with lines ls 1 title "x_e", \
+       table using (1 + $1):(column(col("x_HII"))) with lines ls 2 title "x_{HII}", \
+       for [e in x_extras] table using (1 + $1):(column(col(e))) with lines ls 3 title e noenhanced
+  set xlabel "1 + z"
+  set ylabel "temperature [K]"
+  set yrange [*:*]
+  plot table using (1 + $1):(column(col("T_gas"))) with lines ls 1 title "T_{gas}", \
+       table using (1 + $1):(column(col("T_rad"))) with lines ls 2 title "T_{rad}", \
+       for [e in T_extras] table using (1 + $1):(column(col(e))) with lines ls 3 title e noenhanced
+  unset multiplot
+}

@@ -1,26 +1,22 @@
-# gnuplot script: Jeans, filtering and half-suppression masses against
-# redshift, from a `jeansgrow scales` table.
-#   jeansgrow scales params/reference.cfg -o scales.txt
-#   gnuplot -e "table='scales.txt'; out='scales.png'" plots/scales.gp
-# Columns (see the README): 1 z, 5 M_J, 7 M_F, 9 M_half, 10 half_found,
-# 14 M_F_integral; masses in Msun, or Msun/h with output.units = "Mpc/h".
-if (!exists("table")) table = 'scales.txt'
-if (!exists("out")) out = 'scales.png'
-# The axis label takes its unit from the table's column line (the last '#'
-# line, "# z<TAB>T_gas[K]<TAB>..."), so it follows output.units.
-columns = system(sprintf("awk '/^#/ { line = $0; next } { exit } END { print line }' '%s'", table))
-unit_of(n) = (c = word(columns, n + 1), c[strstrt(c, "[") + 1 : strlen(c) - 1])
-set terminal pngcairo size 900,600 font ",11"
-set output out
-set datafile separator "\t"
-set logscale xy
-set xrange [*:*] reverse
-set xlabel "redshift z"
-set ylabel sprintf("mass [%s]", unit_of(5)) noenhanced
-set format y "10^{%L}"
-set grid
-set key top left
-plot table using 1:5 with linespoints lw 2 title "Jeans mass (isothermal)", \
-     table using 1:7 with linespoints lw 2 title "filtering mass, solved (2{/Symbol p}/k_F)", \
-     table using 1:14 with linespoints dt 2 title "filtering mass, Gnedin-Hui integral", \
-     table using 1:($10 > 0 ? $9 : 1/0) with linespoints lw 2 title "half-suppression mass"
+# Jeans, filtering and half-suppression wavenumbers against redshift, from
+# a `scales` table. Load plots/style.gp first.
+figure = "the wavenumber figure"
+needed_columns = "z k_J k_F k_half half_found k_F_integral"
+@need
+flags = col("flags")
+do for [fmt in formats] {
+  @start_figure
+  set logscale xy
+  set xrange [*:*] reverse
+  set xlabel "redshift z"
+  set ylabel sprintf("comoving wavenumber [%s]", unit_of(col("k_J"))) noenhanced
+  set title "Scales the gas follows: smaller k is larger scale"
+  @shade_invalid
+  plot table using 1:(column(col("k_J"))) with linespoints ls 1 title "k_J (isothermal Jeans)", \
+       table using 1:(column(col("k_F")) > 0 ? column(col("k_F")) : NaN) with linespoints ls 2 title "k_F, solved", \
+       table using 1:(column(col("k_F_integral"))) with linespoints ls 3 title "k_F, Gnedin-Hui integral", \
+       table using 1:(column(col("half_found")) > 0 ? column(col("k_half")) : NaN) with linespoints ls 4 title "k_{1/2}, half suppression", \
+       table using 1:(flags > 0 && column(flags) > 0 && column(col("k_F")) > 0 ? column(col("k_F")) : NaN) with points ls 20 title (flags > 0 ? "outside the stated validity (flags column)" : ""), \
+       table using 1:(flags > 0 && column(flags) > 0 && column(col("half_found")) > 0 ? column(col("k_half")) : NaN) with points ls 20 notitle, \
+       NaN with boxes fc rgb "#e4e4e4" fs solid title @shade_key
+}

@@ -8,7 +8,8 @@ set -eu
 cd "$(dirname "$0")/.."
 
 packages="build-essential cmake pkg-config libgsl-dev libconfig-dev libcriterion-dev
-  python3 python3-numpy python3-scipy python3-astropy gnuplot-nox
+  python3 python3-numpy python3-scipy python3-astropy python3-pytest python3-matplotlib
+  gnuplot-nox
   libopenmpi-dev openmpi-bin
   valgrind clang libclang-rt-14-dev"
 

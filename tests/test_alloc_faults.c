@@ -129,7 +129,7 @@ Test(alloc_faults, every_allocation_of_a_run) {
   char dir[64], out[128];
   make_folder(dir, sizeof dir);
   snprintf(out, sizeof out, "%s/results", dir);
-  const char *args[] = {"run", REFERENCE, SMALL, "-o", out, NULL};
+  const char *args[] = {"run", REFERENCE, SMALL, "--no-figures", "-o", out, NULL};
   walk(dir, args, out, "run");
   remove_folder(dir);
 }
@@ -138,7 +138,7 @@ Test(alloc_faults, every_allocation_of_a_scan) {
   char dir[64], out[128];
   make_folder(dir, sizeof dir);
   snprintf(out, sizeof out, "%s/scan.txt", dir);
-  const char *args[] = {"scan", REFERENCE, SMALL, "--vary", "cosmology.baryon_density_h2=0.02:0.03:2",
+  const char *args[] = {"scan", REFERENCE, "--no-figures", SMALL, "--vary", "cosmology.baryon_density_h2=0.02:0.03:2",
                         "--threads", "1", "-o", out, NULL};
   walk(dir, args, out, "scan");
   remove_folder(dir);

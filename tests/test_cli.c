@@ -703,7 +703,7 @@ Test(good_runs, run_reports_an_absent_epoch_as_none, .timeout = 120) {
   make_temp_dir(dir, sizeof dir);
   char folder[128];
   snprintf(folder, sizeof folder, "%s/results", dir);
-  const char *args[] = {"run", REFERENCE, "--set", "cosmology.baryon_density_h2=0.00001",
+  const char *args[] = {"run", REFERENCE, "--no-figures", "--set", "cosmology.baryon_density_h2=0.00001",
                         "--set", "perturbations.k_count=4", "-o", folder, NULL};
   run_result r;
   run(args, &r);
@@ -834,7 +834,7 @@ Test(good_runs, epochs_in_h_units_are_the_default_epochs_converted) {
 Test(good_runs, run_in_h_units_writes_and_summarises_in_h_units, .timeout = 120) {
   char dir[64];
   make_temp_dir(dir, sizeof dir);
-  const char *args[] = {"run", REFERENCE, "--set", "perturbations.k_count=8", "--set",
+  const char *args[] = {"run", REFERENCE, "--no-figures", "--set", "perturbations.k_count=8", "--set",
                         IN_H_UNITS, "-o", dir, NULL};
   run_result r;
   run(args, &r);
@@ -871,4 +871,158 @@ Test(good_runs, run_in_h_units_writes_and_summarises_in_h_units, .timeout = 120)
   }
   run_free(&r);
   remove_dir(dir);
+}
+
+/* The program's help states the order the commands take (PARAMFILE first,
+ * options after, as every command's usage says), and `history --help`
+ * names where the table ends instead of promising z = 0. */
+Test(good_runs, help_states_the_real_usage_order_and_the_history_end) {
+  const char *args[] = {"--help", NULL};
+  run_result r;
+  run(args, &r);
+  cr_assert(exited_with(&r, 0));
+  cr_expect(strncmp(r.out, "Usage: jeansgrow COMMAND PARAMFILE [options]\n", 45) == 0,
+            "--help printed: %.80s", r.out);
+  run_free(&r);
+  const char *history_args[] = {"history", "--help", NULL};
+  run(history_args, &r);
+  cr_assert(exited_with(&r, 0));
+  cr_expect(strstr(r.out, "output.history_z_min") != NULL, "history --help: %s", r.out);
+  cr_expect(strstr(r.out, "to z = 0") == NULL, "history --help still says z = 0: %s", r.out);
+  run_free(&r);
+}
+
+/* The scales header must not state an order between the two filtering
+ * wavenumbers that its own rows contradict: the Gnedin-Hui integral lies
+ * below the measured k_F with the isothermal sound speed, but above it at
+ * z = 10 in the default fluctuating model (511.07 against 505.97 /Mpc on
+ * the reference cosmology, measured with this program). */
+Test(good_runs, scales_header_claims_no_order_of_the_filtering_scales_its_rows_break,
+     .timeout = 120) {
+  const char *models[] = {"perturbations.sound_speed=\"isothermal\"",
+                          "perturbations.sound_speed=\"fluctuating\""};
+  for (int m = 0; m < 2; m++) {
+    const char *args[] = {"scales", REFERENCE, "--set", models[m], "--set",
+                          "output.redshifts=[100.0, 20.0, 10.0]", NULL};
+    run_result r;
+    run(args, &r);
+    cr_assert(exited_with(&r, 0), "%s", r.err);
+    table t;
+    parse_table(r.out, &t);
+    const int measured = column_index(&t, "k_F[1/Mpc]");
+    const int integral = column_index(&t, "k_F_integral[1/Mpc]");
+    cr_assert(measured >= 0 && integral >= 0);
+    cr_expect(strstr(t.header, "so it lies below k_F") == NULL, "%s", t.header);
+    cr_expect(strstr(t.header, "below k_F with the isothermal sound speed") != NULL);
+    for (int i = 0; i < t.n_rows; i++) {
+      const double ratio = cell(&t, i, integral) / cell(&t, i, measured);
+      if (m == 0) cr_expect(ratio < 1, "isothermal, z = %g: integral/measured = %g",
+                            cell(&t, i, 0), ratio);
+    }
+    if (m == 1)
+      cr_expect(cell(&t, 2, integral) > cell(&t, 2, measured),
+                "fluctuating, z = 10: the integral (%g) is expected above the measured k_F (%g)",
+                cell(&t, 2, integral), cell(&t, 2, measured));
+    table_free(&t);
+    run_free(&r);
+  }
+}
+
+/* The flags (include/jeansgrow/validity.h) appear exactly where their rules
+ * put them. Reference cosmology: the k -> 0 delta_b/delta_c is below 0.1 at
+ * z = 1000 and above it from z = 500 on (this program's scales table:
+ * 0.0073 and 0.17); the thermal model holds down to z = 20; the fluid
+ * limit: hydrogen atoms as hard spheres of the Bohr radius, sigma =
+ * 4 pi a_0^2 = 3.52e-20 m^2 (a_0 = 5.29177e-11 m, CODATA 2018), mean free
+ * path 1/(n_H sigma) with n_H(z) = n_H0 (1+z)^3, a wavelength of at least
+ * ten of them: k_max = 2 pi n_H0 (1+z)^2 sigma / 10 comoving, about
+ * 1.6e4 /Mpc at z = 10 and 180 /Mpc at z = 0 for n_H0 = 0.19 /m^3. */
+Test(good_runs, validity_flags_mark_exactly_the_rows_their_rules_name, .timeout = 120) {
+  const char *s_args[] = {"scales", REFERENCE, "--set", "output.redshifts=[1000.0, 500.0, 20.0, 10.0]",
+                          NULL};
+  run_result r;
+  run(s_args, &r);
+  cr_assert(exited_with(&r, 0), "%s", r.err);
+  table t;
+  parse_table(r.out, &t);
+  const int flags = column_index(&t, "flags"), large = column_index(&t, "b_over_c_large");
+  cr_assert(flags >= 0 && large >= 0, "no flags or b_over_c_large column");
+  cr_expect(strstr(t.header, "# flags: 0 inside the stated validity") != NULL);
+  cr_expect(strstr(t.header, "# validity: the thermal history (no heating, no reionisation) "
+                             "holds for z >= 20;") != NULL, "%s", t.header);
+  const double expected[] = {1, 0, 0, 2};
+  for (int i = 0; i < 4; i++)
+    cr_expect_eq(cell(&t, i, flags), expected[i], "z = %g: flags %g (b/c large %g)",
+                 cell(&t, i, 0), cell(&t, i, flags), cell(&t, i, large));
+  cr_expect(cell(&t, 0, large) < 0.1 && cell(&t, 1, large) > 0.1, "the rule's premise moved");
+  table_free(&t);
+  run_free(&r);
+
+  const char *g_args[] = {"growth", REFERENCE, "--set", "output.redshifts=[100.0, 10.0, 0.0]",
+                          "--set", "perturbations.k_values=[100.0, 1000.0, 10000.0, 30000.0]", NULL};
+  run(g_args, &r);
+  cr_assert(exited_with(&r, 0), "%s", r.err);
+  parse_table(r.out, &t);
+  const int gf = column_index(&t, "flags");
+  cr_assert(gf >= 0);
+  /* z = 100: nothing; z = 10: below the thermal model (2), and 3e4 /Mpc
+   * beyond the fluid limit (4); z = 0: 2, and every k from 1000 on is
+   * beyond the fluid limit (~180 /Mpc there), 100 /Mpc not. */
+  const double g_expected[] = {0, 0, 0, 0, 2, 2, 2, 6, 2, 6, 6, 6};
+  cr_assert_eq(t.n_rows, 12);
+  for (int i = 0; i < 12; i++)
+    cr_expect_eq(cell(&t, i, gf), g_expected[i], "z = %g, k = %g: flags %g, expected %g",
+                 cell(&t, i, 0), cell(&t, i, 1), cell(&t, i, gf), g_expected[i]);
+  table_free(&t);
+  run_free(&r);
+}
+
+/* The run summary quotes every mass in one radius convention and says
+ * which: by default pi/k (its M_F is the table's M_F_halfwave, its M_J the
+ * table's M_J); with output.mass_radius = "full_wavelength" 2 pi/k (M_F is
+ * the table's M_F, M_J and M_half eight times the table's). Flag legends
+ * appear for the flags present. */
+Test(good_runs, run_summary_speaks_one_mass_convention_and_explains_its_flags, .timeout = 120) {
+  for (int full = 0; full < 2; full++) {
+    char dir[64];
+    make_temp_dir(dir, sizeof dir);
+    const char *args[] = {"run", REFERENCE, "--no-figures", "--set", "perturbations.k_count=8",
+                          "--set", "output.redshifts=[1000.0, 100.0, 10.0]", "--set",
+                          full ? "output.mass_radius=\"full_wavelength\""
+                               : "output.mass_radius=\"half_wavelength\"",
+                          "-o", dir, NULL};
+    run_result r;
+    run(args, &r);
+    cr_assert(exited_with(&r, 0), "%s", r.err);
+    cr_expect(strstr(r.out, full ? "with R = 2 pi/k, the full wavelength (output.mass_radius = "
+                                   "\"full_wavelength\")"
+                                 : "with R = pi/k, half the wavelength (output.mass_radius = "
+                                   "\"half_wavelength\")") != NULL, "%s", r.out);
+    cr_expect(strstr(r.out, "flags 1: the gas has barely started") != NULL, "%s", r.out);
+    cr_expect(strstr(r.out, "flags 2: below z = 20") != NULL, "%s", r.out);
+    cr_expect(strstr(r.out, "flags 4:") == NULL, "%s", r.out);
+    char path[128];
+    snprintf(path, sizeof path, "%s/scales.txt", dir);
+    char *text = read_text(path);
+    cr_assert_not_null(text);
+    table t;
+    parse_table(text, &t);
+    /* The z = 100 line of the summary: z, T_gas, k_J, M_J, k_F, M_F, k_half, M_half, flags. */
+    const char *line = strstr(r.out, "\n     100.0 ");
+    cr_assert_not_null(line, "%s", r.out);
+    double z, T, kJ, MJ, kF, MF, kh, Mh;
+    int fl;
+    cr_assert_eq(sscanf(line, " %lf %lf %lf %lf %lf %lf %lf %lf %d", &z, &T, &kJ, &MJ, &kF, &MF,
+                        &kh, &Mh, &fl), 9, "%s", line);
+    const double factor = full ? 8.0 : 1.0;
+    assert_rel(MJ, factor * cell(&t, 1, column_index(&t, "M_J[Msun]")), 1e-3, "M_J");
+    assert_rel(MF, cell(&t, 1, column_index(&t, full ? "M_F[Msun]" : "M_F_halfwave[Msun]")), 1e-3,
+               "M_F");
+    assert_rel(Mh, factor * cell(&t, 1, column_index(&t, "M_half[Msun]")), 1e-3, "M_half");
+    cr_expect_eq(fl, 0);
+    table_free(&t);
+    free(text);
+    run_free(&r);
+    remove_dir(dir);
+  }
 }

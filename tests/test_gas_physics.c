@@ -154,7 +154,7 @@ Test(gas_physics, effective_gamma_in_history_and_growth_tables) {
   jg_growth_grid *g = NULL;
   cr_assert_eq(jg_growth_grid_compute(r.m, r.w, k, 1, z, 2, &g, &err), JG_OK, "%s", err.message);
   f = tmpfile();
-  cr_assert_eq(jg_report_growth(f, &p, g, &err), JG_OK, "%s", err.message);
+  cr_assert_eq(jg_report_growth(f, &p, r.th, g, &err), JG_OK, "%s", err.message);
   rewind(f);
   int found = 0;
   while (fgets(line, sizeof line, f)) {

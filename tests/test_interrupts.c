@@ -420,7 +420,7 @@ Test(special_outputs, a_symbolic_link_is_followed_and_kept) {
  * there (it would land in /dev), a full device is reported with its
  * reason (not "Success"), and --resume, which needs a checkpoint, is
  * refused. */
-#define SMALL_SCAN "scan", REFERENCE, "--vary", "cosmology.hubble_h=[0.6,0.7]", \
+#define SMALL_SCAN "scan", REFERENCE, "--no-figures", "--vary", "cosmology.hubble_h=[0.6,0.7]", \
     "--set=thermal.grid_points=1000", "--set=output.redshifts=[1000.0, 10.0]"
 
 Test(special_outputs, a_scan_keeps_no_checkpoint_beside_a_device) {
@@ -602,4 +602,44 @@ Test(interrupts, sigint_while_writing_keeps_the_previous_file) {
 }
 Test(interrupts, sigterm_while_writing_keeps_the_previous_file) {
   interrupt_history(SIGTERM, WHILE_WRITING);
+}
+
+/* `run` computes everything before it opens a file: an interrupt then must
+ * still say what happened (it once ended silently with status 130), and
+ * leave the folder as it was. A million-node history keeps it computing
+ * for seconds; the signal comes after 300 ms. */
+static void interrupt_run_while_computing(int sig) {
+  char dir[4096], err_path[4200], names[4096];
+  make_temp_folder(dir, sizeof dir);
+  snprintf(err_path, sizeof err_path, "%s/../%s.stderr", dir, strrchr(dir, '/') + 1);
+  const char *argv[] = {"", "run", REFERENCE, "--set=thermal.grid_points=1000000", "--no-figures",
+                        "-o", dir, NULL};
+  pid_t pid = start_program(argv, NULL, err_path, 0);
+  sleep_ms(300);
+  int status = 0;
+  const int finished = waitpid(pid, &status, WNOHANG) == pid;
+  if (!finished) {
+    cr_assert(kill(pid, sig) == 0, "kill: %s", strerror(errno));
+    status = child_wait(pid);
+  }
+  char *err = read_text(err_path);
+  unlink(err_path);
+  int n = list_folder(dir, names, sizeof names);
+  remove_folder(dir);
+  cr_assert(!finished, "run finished before it could be interrupted (status %d); stderr: %s",
+            status, err ? err : "");
+  cr_assert(WIFEXITED(status) && WEXITSTATUS(status) == 128 + sig,
+            "expected exit status %d after signal %d; stderr: %s", 128 + sig, sig, err ? err : "");
+  cr_assert(err && strcmp(err, "jeansgrow: interrupted; no table was written, the output folder "
+                               "is as it was\n") == 0,
+            "stderr: %s", err ? err : "(none)");
+  cr_assert(n == 0, "files left after the interrupt:%s", names);
+  free(err);
+}
+
+Test(interrupts, sigint_while_run_computes_says_so_and_writes_nothing) {
+  interrupt_run_while_computing(SIGINT);
+}
+Test(interrupts, sigterm_while_run_computes_says_so_and_writes_nothing) {
+  interrupt_run_while_computing(SIGTERM);
 }

@@ -109,7 +109,7 @@ static jg_status toy_evaluate(const jg_params *p, double *point_values, double *
 }
 
 static const jg_scan_evaluator toy = {"toy", 1, toy_point_columns, 2, toy_redshift_columns,
-                                      NULL, NULL, NULL, toy_evaluate, NULL};
+                                      NULL, NULL, NULL, toy_evaluate, NULL, JG_SCAN_ROWS_REDSHIFT};
 
 static void toy_params(jg_params *p) {
   jg_params_set_defaults(p);
@@ -303,7 +303,10 @@ Test(scan, invalid_axis_definitions_are_refused_with_the_reason) {
       {"cosmology.hubble_h=[0.6, seven]", "element 2 of the list is not a number ('seven')"},
       {"cosmology.hubble_h=[0.6, 0.7", "a list is written [V1, V2, ...]"},
       {"cosmology.hubble=0.6:0.8:3", "unknown key 'cosmology.hubble' (did you mean 'cosmology.hubble_h'?)"},
-      {"perturbations.sound_speed=0:1:2", "perturbations.sound_speed is not a single number"},
+      {"perturbations.sound_speed=0:1:2", "perturbations.sound_speed is word-valued: vary it "
+                                          "over a list of its words"},
+      {"perturbations.sound_speed=[isothermal, hot]", "element 2 of the list ('hot') is not a "
+                                                      "word perturbations.sound_speed takes"},
       {"output.redshifts=10:20:2", "output.redshifts is not a single number"},
       {"thermal.grid_points=1000:2000:4", "thermal.grid_points takes whole numbers only (got 1333.3333333333301) (value 2 of 4)"},
       {"cosmology.helium_mass_fraction=0.2:0.3:3", "cosmology.helium_mass_fraction is varied twice"},
@@ -737,7 +740,7 @@ static double seconds_now(void) {
 }
 
 #define SCAN_ARGS(out)                                                                   \
-  JG_PROGRAM, "scan", REFERENCE, "--vary", "cosmology.baryon_density_h2=0.01:0.04:4:log", \
+  JG_PROGRAM, "scan", REFERENCE, "--no-figures", "--vary", "cosmology.baryon_density_h2=0.01:0.04:4:log", \
       "--vary", "cosmology.hubble_h=[0.6,0.7]", "--set", COARSE, "--set",                  \
       "output.redshifts=[1000.0, 200.0, 50.0, 10.0]", "-o", out
 
@@ -797,7 +800,6 @@ Test(scan, program_on_two_mpi_ranks_writes_the_single_process_file) {
 #endif
 }
 
-#ifdef JG_TEST_MPIEXEC
 /* Lines in a file (0 if missing). */
 static int count_lines(const char *path) {
   char *t = read_text(path);
@@ -806,6 +808,8 @@ static int count_lines(const char *path) {
   free(t);
   return n;
 }
+
+#ifdef JG_TEST_MPIEXEC
 
 /* The pid of the process whose command line mentions `word` and whose
  * environment says it is MPI rank `rank`, or 0. */
@@ -851,7 +855,7 @@ Test(scan, program_silent_mpi_rank_ends_the_job_with_a_resumable_checkpoint, .ti
   path_in(out, sizeof out, dir, "silent.txt");
   snprintf(ck, sizeof ck, "%s.checkpoint", out);
 #define SILENT_ARGS(o)                                                                       \
-  JG_PROGRAM, "scan", REFERENCE, "--vary", "cosmology.hubble_h=0.6:0.8:100", "--set", COARSE, \
+  JG_PROGRAM, "scan", REFERENCE, "--no-figures", "--vary", "cosmology.hubble_h=0.6:0.8:100", "--set", COARSE, \
       "--set", "output.redshifts=[10.0]", "--threads", "1", "-o", o
   const char *a_mpi[] = {JG_TEST_MPIEXEC, JG_TEST_MPI_NP_FLAG, "2", SILENT_ARGS(out),
                          "--rank-timeout", "2", NULL};
@@ -900,7 +904,7 @@ Test(scan, program_killed_at_a_random_moment_then_resumed_writes_the_same_file) 
   path_in(out, sizeof out, dir, "resumed.txt");
   snprintf(ck, sizeof ck, "%s.checkpoint", out);
 #define KILL_ARGS(o)                                                                       \
-  JG_PROGRAM, "scan", REFERENCE, "--vary", "cosmology.baryon_density_h2=0.015:0.035:16",    \
+  JG_PROGRAM, "scan", REFERENCE, "--no-figures", "--vary", "cosmology.baryon_density_h2=0.015:0.035:16",    \
       "--vary", "cosmology.cdm_density_h2=[0.11,0.12,0.13]", "--set",                      \
       "output.redshifts=[1000.0, 200.0, 50.0, 10.0]", "--threads", "2", "-o", o
   const char *a_ref[] = {KILL_ARGS(ref), NULL};
@@ -962,14 +966,13 @@ Test(scan, program_refuses_bad_grids_before_any_work) {
        "jeansgrow: --vary cosmology.baryon_density=0.01:0.04:3: unknown key "
        "'cosmology.baryon_density' (did you mean 'cosmology.baryon_density_h2'?)\n"},
       {"perturbations.sound_speed=0:2:3", NULL,
-       "jeansgrow: --vary perturbations.sound_speed=0:2:3: perturbations.sound_speed is not a "
-       "single number (its type: one of \"fluctuating\", \"isothermal\", \"adiabatic\", "
-       "\"effective_gamma\"); only number and integer keys can be varied (jeansgrow keys lists "
-       "them)\n"},
+       "jeansgrow: --vary perturbations.sound_speed=0:2:3: perturbations.sound_speed is "
+       "word-valued: vary it over a list of its words, perturbations.sound_speed=[WORD1, WORD2, "
+       "...] (allowed: fluctuating, isothermal, adiabatic or effective_gamma)\n"},
       {"output.redshifts=10:20:2", NULL,
        "jeansgrow: --vary output.redshifts=10:20:2: output.redshifts is not a single number (its "
-       "type: list of numbers); only number and integer keys can be varied (jeansgrow keys lists "
-       "them)\n"},
+       "type: list of numbers); only number, integer and word-valued keys can be varied "
+       "(jeansgrow keys lists them)\n"},
       /* Only the last point is impossible: refused all the same, before any. */
       {"cosmology.de_w0=[-1.0,-3.0]", "cosmology.curvature_omega=-0.9",
        "jeansgrow: scan point 2 of 2 (cosmology.de_w0 = -3) is not a valid model: cosmology: H^2 "
@@ -979,9 +982,9 @@ Test(scan, program_refuses_bad_grids_before_any_work) {
        "cosmology.hubble_h must satisfy 0.1 <= value <= 5 (got 7)\n"},
   };
   for (size_t i = 0; i < sizeof cases / sizeof cases[0]; i++) {
-    const char *args[16] = {JG_PROGRAM, "scan", REFERENCE, "--vary", cases[i].vary, "--set",
-                            COARSE, "-o", out};
-    int n = 9;
+    const char *args[16] = {JG_PROGRAM, "scan", REFERENCE, "--no-figures", "--vary",
+                            cases[i].vary, "--set", COARSE, "-o", out};
+    int n = 10;
     if (cases[i].set) args[n++] = "--set", args[n++] = cases[i].set;
     args[n] = NULL;
     outcome o = run_program(dir, args);
@@ -992,7 +995,7 @@ Test(scan, program_refuses_bad_grids_before_any_work) {
     free(o.err);
   }
   /* No varied key at all. */
-  const char *none[] = {JG_PROGRAM, "scan", REFERENCE, "-o", out, NULL};
+  const char *none[] = {JG_PROGRAM, "scan", REFERENCE, "--no-figures", "-o", out, NULL};
   outcome o = run_program(dir, none);
   cr_expect_eq(exit_code(&o), 2);
   cr_expect(strstr(o.err, "nothing to vary"), "%s", o.err);
@@ -1011,7 +1014,7 @@ Test(scan, baryon_scan_reproduces_single_runs_point_by_point) {
   make_dir(dir, sizeof dir);
   path_in(out, sizeof out, dir, "baryons.txt");
   static const char *const values[] = {"0.018", "0.02237", "0.03"};
-  const char *args[] = {JG_PROGRAM, "scan", REFERENCE, "--vary",
+  const char *args[] = {JG_PROGRAM, "scan", REFERENCE, "--no-figures", "--vary",
                         "cosmology.baryon_density_h2=[0.018, 0.02237, 0.03]", "--set", COARSE,
                         "--set", "output.redshifts=[1000.0, 100.0]", "-o", out, NULL};
   outcome o = run_program(dir, args);
@@ -1078,7 +1081,7 @@ Test(scan, program_writes_an_absent_epoch_as_minus_one_and_computes_the_point) {
   char dir[64], out[128];
   make_dir(dir, sizeof dir);
   path_in(out, sizeof out, dir, "absent.txt");
-  const char *args[] = {JG_PROGRAM, "scan", REFERENCE, "--vary",
+  const char *args[] = {JG_PROGRAM, "scan", REFERENCE, "--no-figures", "--vary",
                         "cosmology.baryon_density_h2=[0.00001, 0.0224]", "--set", COARSE, "--set",
                         "output.redshifts=[100.0, 10.0]", "-o", out, NULL};
   outcome o = run_program(dir, args);
@@ -1272,7 +1275,7 @@ Test(scan, baryon_scan_reproduces_scales_tables_point_by_point) {
   path_in(out, sizeof out, dir, "scan.txt");
   path_in(single, sizeof single, dir, "scales.txt");
   static const char *const values[] = {"0.018", "0.03"};
-  const char *args[] = {JG_PROGRAM, "scan", REFERENCE, "--vary",
+  const char *args[] = {JG_PROGRAM, "scan", REFERENCE, "--no-figures", "--vary",
                         "cosmology.baryon_density_h2=[0.018, 0.03]", "--set", COARSE,
                         "--set", "output.redshifts=[500.0, 20.0]", "-o", out, NULL};
   outcome o = run_program(dir, args);
@@ -1330,7 +1333,7 @@ Test(scan, scan_in_h_units_is_the_default_scan_converted_point_by_point) {
   path_in(f_mpc, sizeof f_mpc, dir, "mpc.txt");
   path_in(f_h, sizeof f_h, dir, "h.txt");
 #define UNITS_SCAN_ARGS(out)                                                                  \
-  JG_PROGRAM, "scan", REFERENCE, "--vary", "cosmology.hubble_h=[0.6, 0.75]", "--set", COARSE, \
+  JG_PROGRAM, "scan", REFERENCE, "--no-figures", "--vary", "cosmology.hubble_h=[0.6, 0.75]", "--set", COARSE, \
       "--set", "output.redshifts=[500.0, 20.0]", "-o", out
   const char *a_mpc[] = {UNITS_SCAN_ARGS(f_mpc), NULL};
   const char *a_h[] = {UNITS_SCAN_ARGS(f_h), "--set", "output.units=\"Mpc/h\"", NULL};
@@ -1388,4 +1391,238 @@ Test(scan, fingerprint_follows_the_start_table_content) {
   cr_assert_str_eq(prints[0], prints[2], "the same table changed the fingerprint");
   remove(path);
   rmdir(dir);
+}
+
+/* ---- scans of the growth and epochs tables, and of word-valued keys ------ */
+
+/* The data rows of a table, in order. */
+static int data_lines(const char *text, const char **lines, int max) {
+  int n = 0;
+  for (const char *l = text; l && *l; l = strchr(l, '\n') ? strchr(l, '\n') + 1 : NULL)
+    if (*l != '#' && *l != '\n' && n < max) lines[n++] = l;
+  return n;
+}
+
+/* Fields [from, from + count) of a row as text, for an exact comparison. */
+static size_t fields_text(const char *line, int from, int count, const char **start) {
+  *start = skip_fields(line, from);
+  const char *end = *start;
+  for (int i = 0; i < count && end; i++) {
+    end += strcspn(end, "\t\n");
+    if (i + 1 < count && *end == '\t') end++;
+  }
+  return (size_t)(end - *start);
+}
+
+/* Run a scan (or any command writing `out`) that must succeed; its table. */
+static char *table_of_run(const char *dir, const char *const *args, const char *out) {
+  outcome o = run_program(dir, args);
+  cr_assert_eq(exit_code(&o), 0, "%s: %s", args[1], o.err);
+  free(o.err);
+  char *text = read_text(out);
+  cr_assert_not_null(text, "%s wrote no %s", args[1], out);
+  return text;
+}
+
+/* Every row of the single runs `singles[i]` (the command `single`, with
+ * `--set sets[i]`) must appear, in order, among the scan rows whose first
+ * column is point_values[i]: the scan's fields from scan_from compared
+ * with the single table's fields from 1 (after its z), `count` of them,
+ * character for character. */
+static void expect_scan_is_single_runs(const char *dir, const char *scan_text, const char *single,
+                                       const char *const *sets, const double *point_values,
+                                       int n_points, const char *const *extra, int scan_from,
+                                       int count, int rows_per_point) {
+  static const char *lines[4096], *single_lines[4096];
+  const int n = data_lines(scan_text, lines, 4096);
+  cr_assert_eq(n, n_points * rows_per_point, "scan rows: %d", n);
+  char out[160];
+  path_in(out, sizeof out, dir, "single.txt");
+  for (int i = 0; i < n_points; i++) {
+    const char *args[24] = {JG_PROGRAM, single, REFERENCE, "--set", sets[i]};
+    int a = 5;
+    for (int e = 0; extra[e]; e++) args[a++] = extra[e];
+    args[a++] = "-o";
+    args[a++] = out;
+    args[a] = NULL;
+    char *text = table_of_run(dir, args, out);
+    const int m = data_lines(text, single_lines, 4096);
+    cr_assert_eq(m, rows_per_point, "%s %s: %d rows", single, sets[i], m);
+    for (int r = 0; r < m; r++) {
+      const char *row = lines[i * rows_per_point + r];
+      cr_assert_eq(strtod(row, NULL), point_values[i], "scan row %d is not point %d", r, i);
+      const char *s0, *t0;
+      size_t sl = fields_text(single_lines[r], 1, count, &s0);
+      size_t tl = fields_text(row, scan_from, count, &t0);
+      cr_expect(sl == tl && strncmp(s0, t0, sl) == 0, "%s, row %d:\n scan   %.*s\n single %.*s",
+                sets[i], r, (int)tl, t0, (int)sl, s0);
+    }
+    free(text);
+  }
+}
+
+#define GROWTH_SCAN_SETTINGS                                                                  \
+  "--set", COARSE, "--set", "output.redshifts=[500.0, 20.0]", "--set",                        \
+      "perturbations.k_values=[10.0, 300.0, 3000.0]"
+
+/* A growth scan is the `growth` table of each point: its columns k to
+ * flags (12), for every redshift and wavenumber, after the varied key, z
+ * and the three epochs. */
+Test(scan, growth_scan_equals_growth_runs_point_by_point, .timeout = 120) {
+  char dir[64], out[128];
+  make_dir(dir, sizeof dir);
+  path_in(out, sizeof out, dir, "scan.txt");
+  const char *args[] = {JG_PROGRAM, "scan", REFERENCE, "--no-figures", "--table", "growth",
+                        "--vary", "cosmology.baryon_density_h2=[0.018, 0.03]",
+                        GROWTH_SCAN_SETTINGS, "-o", out, NULL};
+  char *text = table_of_run(dir, args, out);
+  cr_assert_eq(count_data_rows(text), 2 * 6);
+  cr_assert(strstr(text, "\n# cosmology.baryon_density_h2\tz\tz_star\tz_drag\tz_gas_decoupling\t"
+                         "k[1/Mpc]\tdelta_c\t"), "column line missing");
+  const char *sets[] = {"cosmology.baryon_density_h2=0.018", "cosmology.baryon_density_h2=0.03"};
+  const double values[] = {0.018, 0.03};
+  const char *extra[] = {GROWTH_SCAN_SETTINGS, NULL};
+  expect_scan_is_single_runs(dir, text, "growth", sets, values, 2, extra, 5, 12, 6);
+  free(text);
+  remove_dir(dir);
+}
+
+/* A scan over the three words of perturbations.sound_speed is the three
+ * single `scales` runs, its key column holding each word's number. */
+Test(scan, sound_speed_scan_equals_the_three_single_runs, .timeout = 120) {
+  char dir[64], out[128];
+  make_dir(dir, sizeof dir);
+  path_in(out, sizeof out, dir, "scan.txt");
+  const char *args[] = {JG_PROGRAM, "scan", REFERENCE, "--no-figures", "--vary",
+                        "perturbations.sound_speed=[fluctuating, \"isothermal\", adiabatic]",
+                        "--set", COARSE, "--set", "output.redshifts=[500.0, 20.0]", "-o", out,
+                        NULL};
+  char *text = table_of_run(dir, args, out);
+  cr_expect(strstr(text, "# scan vary: perturbations.sound_speed = [fluctuating, isothermal, "
+                         "adiabatic]\n"), "vary line");
+  cr_expect(strstr(text, "# scan words: the column perturbations.sound_speed holds 0 = "
+                         "fluctuating, 1 = isothermal, 2 = adiabatic, 3 = effective_gamma\n"),
+            "words line");
+  const char *sets[] = {"perturbations.sound_speed=\"fluctuating\"",
+                        "perturbations.sound_speed=\"isothermal\"",
+                        "perturbations.sound_speed=\"adiabatic\""};
+  const double values[] = {0, 1, 2};
+  const char *extra[] = {"--set", COARSE, "--set", "output.redshifts=[500.0, 20.0]", NULL};
+  expect_scan_is_single_runs(dir, text, "scales", sets, values, 3, extra, 5,
+                             jg_report_scales_column_count() - 1, 2);
+  free(text);
+  remove_dir(dir);
+}
+
+/* The epochs scan writes one row per point, no z, the `epochs` values in
+ * their order (the table prints %.10g, the scan %.10e: compared as numbers
+ * to the 1e-9 both keep). */
+Test(scan, epochs_scan_row_is_the_epochs_table) {
+  char dir[64], out[128], single[128];
+  make_dir(dir, sizeof dir);
+  path_in(out, sizeof out, dir, "scan.txt");
+  path_in(single, sizeof single, dir, "epochs.txt");
+  const char *args[] = {JG_PROGRAM, "scan", REFERENCE, "--no-figures", "--table", "epochs",
+                        "--vary", "cosmology.hubble_h=[0.7]", "-o", out, NULL};
+  const char *e_args[] = {JG_PROGRAM, "epochs", REFERENCE, "--set", "cosmology.hubble_h=0.7",
+                          "-o", single, NULL};
+  char *scan_text = table_of_run(dir, args, out), *epochs = table_of_run(dir, e_args, single);
+  table t;
+  parse_table(scan_text, &t);
+  cr_assert_eq(t.n_rows, 1);
+  cr_assert_eq(t.n_columns, 1 + jg_epochs_count());
+  int i = 1;
+  for (const char *l = epochs; l && *l; l = strchr(l, '\n') ? strchr(l, '\n') + 1 : NULL) {
+    if (*l == '#') continue;
+    char name[64];
+    double v;
+    cr_assert_eq(sscanf(l, "%63s %lf", name, &v), 2);
+    cr_expect(strncmp(t.columns[i], name, strlen(name)) == 0, "column %d: %s, epochs: %s", i,
+              t.columns[i], name);
+    assert_rel(cell(&t, 0, i), v, 1e-9, name);
+    i++;
+  }
+  cr_expect_eq(i, t.n_columns);
+  table_free(&t);
+  free(scan_text), free(epochs);
+  remove_dir(dir);
+}
+
+#define GROWTH_WORD_ARGS(o)                                                                  \
+  JG_PROGRAM, "scan", REFERENCE, "--no-figures", "--table", "growth", "--vary",              \
+      "perturbations.sound_speed=[isothermal, adiabatic]", "--vary",                         \
+      "cosmology.baryon_density_h2=0.015:0.03:3", GROWTH_SCAN_SETTINGS, "-o", o
+
+/* The guarantees of the scales scan hold for a growth scan over a word key:
+ * the same bytes on one and two threads, as slices merged, and on two MPI
+ * ranks when built with MPI. */
+Test(scan, growth_scan_of_a_word_key_is_the_same_on_threads_slices_and_ranks, .timeout = 240) {
+  char dir[64], f1[128], f2[128], merged[128], parts[2][128];
+  make_dir(dir, sizeof dir);
+  path_in(f1, sizeof f1, dir, "one.txt");
+  path_in(f2, sizeof f2, dir, "two.txt");
+  path_in(merged, sizeof merged, dir, "merged.txt");
+  const char *a1[] = {GROWTH_WORD_ARGS(f1), "--threads", "1", NULL};
+  const char *a2[] = {GROWTH_WORD_ARGS(f2), "--threads", "2", NULL};
+  char *t1 = table_of_run(dir, a1, f1), *t2 = table_of_run(dir, a2, f2);
+  cr_assert_str_eq(t1, t2);
+  cr_assert_eq(count_data_rows(t1), 6 * 2 * 3);
+  for (int i = 0; i < 2; i++) {
+    char name[32], part[8];
+    snprintf(name, sizeof name, "part%d.txt", i + 1);
+    snprintf(part, sizeof part, "%d/2", i + 1);
+    path_in(parts[i], sizeof parts[i], dir, name);
+    const char *a_part[] = {GROWTH_WORD_ARGS(parts[i]), "--part", part, NULL};
+    free(table_of_run(dir, a_part, parts[i]));
+  }
+  const char *a_merge[] = {JG_PROGRAM, "merge", merged, parts[1], parts[0], NULL};
+  char *tm = table_of_run(dir, a_merge, merged);
+  cr_assert_str_eq(tm, t1);
+  free(tm);
+#ifdef JG_TEST_MPIEXEC
+  char fm[128], mdir[64];
+  mpi_test_folder(mdir, sizeof mdir);
+  path_in(fm, sizeof fm, mdir, "mpi.txt");
+  const char *am[] = {JG_TEST_MPIEXEC, JG_TEST_MPI_NP_FLAG, "2", GROWTH_WORD_ARGS(fm), NULL};
+  char *tmpi = table_of_run(mdir, am, fm);
+  cr_assert_str_eq(tmpi, t1);
+  free(tmpi);
+  remove_dir(mdir);
+#endif
+  free(t1), free(t2);
+  remove_dir(dir);
+}
+
+/* Killed (SIGKILL) once its checkpoint holds a few points, a growth scan of
+ * a word key resumed with --resume writes the bytes of an uninterrupted
+ * run. */
+Test(scan, growth_scan_of_a_word_key_killed_then_resumed_writes_the_same_file, .timeout = 240) {
+  char dir[64], ref[128], out[128], ck[160];
+  make_dir(dir, sizeof dir);
+  path_in(ref, sizeof ref, dir, "reference.txt");
+  path_in(out, sizeof out, dir, "resumed.txt");
+  snprintf(ck, sizeof ck, "%s.checkpoint", out);
+#define RESUME_ARGS(o)                                                                        \
+  JG_PROGRAM, "scan", REFERENCE, "--no-figures", "--table", "growth", "--vary",                \
+      "perturbations.sound_speed=[isothermal, fluctuating]", "--vary",                         \
+      "cosmology.baryon_density_h2=0.015:0.03:12", GROWTH_SCAN_SETTINGS, "--threads", "1",     \
+      "-o", o
+  const char *a_ref[] = {RESUME_ARGS(ref), NULL};
+  char *t_ref = table_of_run(dir, a_ref, ref);
+  const char *a_run[] = {RESUME_ARGS(out), NULL};
+  pid_t pid = start(dir, a_run);
+  const double t0 = seconds_now();
+  /* The header line and at least three points recorded. */
+  while (count_lines(ck) < 4 && seconds_now() - t0 < 120) usleep(2000);
+  kill(pid, SIGKILL);
+  outcome o = finish(dir, pid);
+  free(o.err);
+  cr_assert(!exists(out), "the run finished before it was killed: make the grid larger");
+  const char *a_resume[] = {RESUME_ARGS(out), "--resume", NULL};
+  char *t_out = table_of_run(dir, a_resume, out);
+  cr_assert_str_eq(t_out, t_ref);
+  cr_assert(!exists(ck), "the checkpoint must go after success");
+  free(t_ref), free(t_out);
+  remove_dir(dir);
+#undef RESUME_ARGS
 }

@@ -430,7 +430,7 @@ static void run_one(const sweep_options *o, long index, int attempt, FILE *sink,
   FAIL_IF(st != JG_OK, "growth", "%s", err.message);
   st = jg_growth_grid_compute(m, w, k, n_k, z, n_z, &g, &err);
   FAIL_IF(st != JG_OK, "growth", "%s (%s)", err.message, jg_status_name(st));
-  st = jg_report_growth(sink, p, g, &err);
+  st = jg_report_growth(sink, p, th, g, &err);
   FAIL_IF(st != JG_OK, "growth", "table: %s", err.message);
   for (int ik = 0; ik < n_k; ik++)
     for (int iz = 0; iz < n_z; iz++) {

@@ -57,6 +57,26 @@ jg_status jg_error_set(jg_error *err, jg_status status, const char *file, int li
 
 #define JG_FAIL(err, status, ...) jg_error_set((err), (status), __FILE__, __LINE__, __VA_ARGS__)
 
+/*
+ * Error records: every `jg_error *err` argument of the library may be NULL.
+ * The function then fails exactly as it would with a record (same status,
+ * same NULL result, nothing leaked); only the message is not kept.
+ *
+ * GSL's error handler. GSL reports a failure by calling one process-wide
+ * handler, whose default prints a line and calls abort(). The handler
+ * belongs to the host, so the library never sets it; it does not rely on
+ * it either: every input that could make a GSL routine raise an error is
+ * checked first and refused with a jg_error, and the statuses GSL returns
+ * become jg_status values. A host that keeps GSL's default handler is
+ * therefore not aborted by bad input; only a failure inside GSL that no
+ * check foresaw could still abort it. A host that wants GSL never to abort
+ * calls jg_gsl_handler_off() once at start-up, before threads use GSL: it
+ * turns GSL's handler off for the whole process (gsl_set_error_handler_off),
+ * so every GSL failure comes back as a status and then as a jg_error. The
+ * jeansgrow program, its tests and the Python package do so.
+ */
+void jg_gsl_handler_off(void);
+
 #ifdef __cplusplus
 }
 #endif

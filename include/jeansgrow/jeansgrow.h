@@ -13,7 +13,9 @@
 #define JEANSGROW_JEANSGROW_H
 
 #include "jeansgrow/background.h"
+#include "jeansgrow/config.h"
 #include "jeansgrow/constants.h"
+#include "jeansgrow/embed_scan.h"
 #include "jeansgrow/epochs.h"
 #include "jeansgrow/error.h"
 #include "jeansgrow/growth.h"
@@ -25,6 +27,8 @@
 #include "jeansgrow/scan.h"
 #include "jeansgrow/table.h"
 #include "jeansgrow/thermal.h"
+#include "jeansgrow/universe.h"
+#include "jeansgrow/validity.h"
 #include "jeansgrow/version.h"
 
 #endif

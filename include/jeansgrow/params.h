@@ -107,6 +107,14 @@ typedef enum {
   JG_UNITS_MPC_H = 1 /* k in h/Mpc = (1/Mpc)/h, masses in M_sun/h = M_sun h, lengths in Mpc/h = Mpc h */
 } jg_output_units;
 
+/* The radius of the sphere a mass scale M = (4 pi/3) rho_m0 R^3 is quoted
+ * with, in the `run` summary and the figures (output.mass_radius); the
+ * tables carry both. */
+typedef enum {
+  JG_MASS_RADIUS_HALF_WAVELENGTH = 0, /* R = pi/k */
+  JG_MASS_RADIUS_FULL_WAVELENGTH = 1  /* R = 2 pi/k: 8 times the mass */
+} jg_mass_radius;
+
 /* What the commands report (group `output`). */
 typedef struct jg_output_settings {
   double redshifts[JG_MAX_REDSHIFTS]; /* requested redshifts, in file order */
@@ -115,6 +123,7 @@ typedef struct jg_output_settings {
   double history_z_max;/* first redshift of the history table (<= thermal.start_redshift) */
   double history_z_min;/* last redshift of the history table */
   jg_output_units units;
+  jg_mass_radius mass_radius;
 } jg_output_settings;
 
 typedef struct jg_params {
@@ -184,11 +193,33 @@ void jg_params_write_header(FILE *f, const jg_params *p);
  * keys, lists and words. */
 int jg_params_key_is_numeric(const char *key);
 
-/* Set the number or integer `key` to `value`. JG_EINVAL for an unknown key
- * (the nearest known key suggested), a key that is not a single number, or
- * a value that is not whole for an integer key; `p` is then unchanged. The
- * range is not checked here: call jg_params_validate afterwards. */
+/* The words a word-valued key takes, in the order of their numbers 0, 1,
+ * ... (NULL-terminated), or NULL when `key` is not word-valued. */
+const char *const *jg_params_key_words(const char *key);
+
+/* Set the number or integer `key` to `value`; a word-valued key takes the
+ * number of its word (jg_params_key_words). JG_EINVAL for an unknown key
+ * (the nearest known key suggested), a key that is not a single number or
+ * word, a value that is not whole for an integer key, or no word of that
+ * number; `p` is then unchanged. The range is not checked here: call
+ * jg_params_validate afterwards. */
 jg_status jg_params_set_number(jg_params *p, const char *key, double value, jg_error *err);
+/* Setters by key for the other kinds of value, with the loader's type
+ * checks and messages ("KEY must be ... (got ...)"), the range again left
+ * to jg_params_validate; `p` is unchanged on failure:
+ *   jg_params_set_text     a word key (perturbations.sound_speed: "isothermal")
+ *                          or a text or file-name key (taken as given);
+ *   jg_params_set_list     a list of numbers (n may be 0: the empty list);
+ *   jg_params_set_boolean  a key that takes true or false;
+ *   jg_params_set_value    any key from its value written as in a parameter
+ *                          file ("0.7", "\"isothermal\"", "[20.0, 10.0]",
+ *                          "true"): what --set KEY=VALUE does, messages
+ *                          starting "--set KEY=VALUE: ". */
+jg_status jg_params_set_text(jg_params *p, const char *key, const char *text, jg_error *err);
+jg_status jg_params_set_list(jg_params *p, const char *key, const double *values, int n,
+                             jg_error *err);
+jg_status jg_params_set_boolean(jg_params *p, const char *key, int value, jg_error *err);
+jg_status jg_params_set_value(jg_params *p, const char *key, const char *value, jg_error *err);
 
 /* One documented key: the loader, `jeansgrow keys` and the README table all
  * come from the same list. */

@@ -59,8 +59,10 @@ void jg_report_scales_row(const jg_thermal *th, const jg_scales_point *s, jg_out
                           double *row);
 
 /* Growth by wavenumber: one row per (z, k), redshifts in the requested
- * order, wavenumbers increasing. */
-jg_status jg_report_growth(FILE *f, const jg_params *p, const jg_growth_grid *g, jg_error *err);
+ * order, wavenumbers increasing; th is the history g was solved on (for
+ * the validity flags, include/jeansgrow/validity.h). */
+jg_status jg_report_growth(FILE *f, const jg_params *p, const jg_thermal *th,
+                           const jg_growth_grid *g, jg_error *err);
 
 #ifdef __cplusplus
 }

@@ -80,8 +80,11 @@ typedef struct jg_scan_axis {
                                  of 10^8 points holds no list): use jg_scan_axis_value */
 } jg_scan_axis;
 
-/* Value i (0 <= i < count) of an axis, whatever its spacing. */
+/* Value i (0 <= i < count) of an axis, whatever its spacing. An axis of a
+ * word-valued key (KEY=[WORD1, WORD2]) holds the words' numbers (their
+ * place in jg_params_key_words, which the table writes); its word: */
 double jg_scan_axis_value(const jg_scan_axis *ax, long long i);
+const char *jg_scan_axis_word(const jg_scan_axis *ax, long long i); /* NULL: not word-valued */
 
 /* Read the fields; change them only through the functions below. Start from
  * a zeroed struct (`jg_scan_grid g = {0};`), release with jg_scan_grid_clear. */
@@ -97,8 +100,11 @@ typedef struct jg_scan_grid {
  * NULL). Fails with JG_EINVAL, naming the text and what is allowed, for: bad
  * syntax, N < 1, FROM > TO, N = 1 with FROM != TO, non-positive bounds with
  * log spacing, non-finite numbers, an unknown key (nearest key suggested), a
- * key that is not a single number, a fractional value for an integer key, a
+ * key that is not a single number or word, a fractional value for an
+ * integer key, a range of a word-valued key or a word it does not take, a
  * key varied twice, too many axes or points. The grid is unchanged then.
+ * A word-valued key is varied over a list of its words, quoted or not:
+ * "perturbations.sound_speed=[fluctuating, isothermal]".
  */
 jg_status jg_scan_grid_parse(jg_scan_grid *g, const char *text, const char *origin,
                              jg_error *err);
@@ -153,6 +159,16 @@ void jg_scan_grid_clear(jg_scan_grid *g);
  * Column names follow the table convention `name[unit]` (no unit for
  * dimensionless columns) and must contain no tab or newline.
  */
+/* The rows a point writes (jg_scan_evaluator.rows). */
+typedef enum {
+  JG_SCAN_ROWS_REDSHIFT = 0,   /* one per output redshift, after a z column */
+  JG_SCAN_ROWS_WAVENUMBER = 1, /* one per (output redshift, wavenumber of the base parameters:
+                                  perturbations.k_values or the grid), z-major, after a z
+                                  column; the evaluator fills n_z x n_k rows of
+                                  n_redshift_columns, the first of them being k */
+  JG_SCAN_ROWS_POINT = 2       /* one per point, no z column, no per-redshift columns */
+} jg_scan_rows;
+
 typedef struct jg_scan_evaluator {
   const char *name;                          /* recorded in the header and the fingerprint */
   int n_point_columns;                       /* one value per grid point */
@@ -165,6 +181,7 @@ typedef struct jg_scan_evaluator {
   jg_status (*evaluate)(const jg_params *p, double *point_values, double *redshift_values,
                         void *workspace, const void *user, jg_error *err);
   const void *user;                          /* handed to evaluate as it is (may be NULL) */
+  jg_scan_rows rows;                         /* 0: one row per output redshift */
 } jg_scan_evaluator;
 
 /*
@@ -174,6 +191,24 @@ typedef struct jg_scan_evaluator {
  * jg_jeans_wavenumber and M_J[Msun] = jg_mass_half_wavelength(k_J).
  */
 const jg_scan_evaluator *jg_scan_evaluator_thermal(void);
+
+/*
+ * The growth evaluator (`jeansgrow scan --table growth`): per point z_star,
+ * z_drag, z_gas_decoupling as the scales evaluator; per output redshift and
+ * wavenumber (JG_SCAN_ROWS_WAVENUMBER) the columns of the `growth` table
+ * after its z (k, delta_c, ..., rate_m, flags; not the scale-independent
+ * D_ref and rate_ref), in `units`. A varied key may move the wavenumbers
+ * (k_min, k_max) but not their number (k_count).
+ */
+const jg_scan_evaluator *jg_scan_evaluator_growth(jg_output_units units);
+
+/*
+ * The epochs evaluator (`jeansgrow scan --table epochs`): one row per point
+ * (JG_SCAN_ROWS_POINT) with every value of the `epochs` table, named
+ * NAME[UNIT] in `units`; -1 for an epoch (or a value derived from one) the
+ * point's universe does not have.
+ */
+const jg_scan_evaluator *jg_scan_evaluator_epochs(jg_output_units units);
 
 /*
  * The evaluator of `jeansgrow scan`: per point z_star, z_drag,
@@ -218,7 +253,8 @@ void jg_scan_free(jg_scan *s);
 long long jg_scan_total_points(const jg_scan *s);  /* of the whole grid */
 long long jg_scan_first_point(const jg_scan *s);   /* first index of the slice */
 long long jg_scan_slice_points(const jg_scan *s);  /* points in the slice */
-int jg_scan_redshifts(const jg_scan *s);           /* rows per point */
+int jg_scan_redshifts(const jg_scan *s);           /* output redshifts per point */
+int jg_scan_rows_per_point(const jg_scan *s);      /* table rows per point */
 int jg_scan_values_per_point(const jg_scan *s);    /* doubles per evaluated point */
 const jg_scan_grid *jg_scan_grid_of(const jg_scan *s);
 /* 16 hex digits identifying the scan: the version, the base parameters, the

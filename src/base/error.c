@@ -1,8 +1,11 @@
 /* Status texts and the error record (see include/jeansgrow/error.h). */
 #include "jeansgrow/error.h"
 
+#include <gsl/gsl_errno.h>
 #include <stdarg.h>
 #include <stdio.h>
+
+#include "jeansgrow/version.h"
 
 const char *jg_strerror(jg_status status) {
   switch (status) {
@@ -51,4 +54,12 @@ jg_status jg_error_set(jg_error *err, jg_status status, const char *file, int li
   for (char *c = err->message; *c; c++)
     if ((unsigned char)*c < 0x20 || *c == 0x7f) *c = '?';
   return status;
+}
+
+void jg_gsl_handler_off(void) { gsl_set_error_handler_off(); }
+
+const char *jg_version(void) { return JG_VERSION_STRING; }
+
+int jg_version_number(void) {
+  return JG_VERSION_MAJOR * 10000 + JG_VERSION_MINOR * 100 + JG_VERSION_PATCH;
 }

@@ -29,6 +29,7 @@ static const char *const sound_speed_words[] = {"fluctuating", "isothermal", "ad
                                                  "effective_gamma", NULL};
 static const char *const stepper_words[] = {"msbdf+rk8pd", "msbdf", "rosenbrock", NULL};
 static const char *const units_words[] = {"Mpc", "Mpc/h", NULL};
+static const char *const mass_radius_words[] = {"half_wavelength", "full_wavelength", NULL};
 
 const jg__param_spec jg__param_specs[] = {
     REQUIRED_NUMBER("cosmology.hubble_h", cosmology.hubble_h, "", "0.1 <= value <= 5", 0.1, 0, 5, 0,
@@ -134,6 +135,11 @@ const jg__param_spec jg__param_specs[] = {
       "units of what is written: k in 1/Mpc, masses in Msun, comoving lengths in Mpc; or "
       "h/Mpc, Msun/h and Mpc/h with h = cosmology.hubble_h (inputs stay in 1/Mpc)"},
      JG__KIND_CHOICE, P_OFF(output.units), 0, 0, 0, 0, 0, 1, 0, 0, units_words, 0},
+    {{"output.mass_radius", "one of \"half_wavelength\", \"full_wavelength\"", "",
+      "\"half_wavelength\"", "half_wavelength or full_wavelength",
+      "radius of the sphere every mass of the run summary and the figures is quoted with: pi/k, "
+      "or 2 pi/k (8 times the mass); the tables hold both"},
+     JG__KIND_CHOICE, P_OFF(output.mass_radius), 0, 0, 0, 0, 0, 1, 0, 0, mass_radius_words, 0},
 };
 
 const int jg__n_param_specs = (int)(sizeof jg__param_specs / sizeof jg__param_specs[0]);
@@ -269,6 +275,7 @@ void jg_params_set_defaults(jg_params *p) {
   p->output.history_rows = 1000;
   p->output.history_z_min = 0.0;
   p->output.units = JG_UNITS_MPC;
+  p->output.mass_radius = JG_MASS_RADIUS_HALF_WAVELENGTH;
 }
 
 const jg_param_doc *jg_param_doc_at(int i) {

@@ -354,6 +354,11 @@ int jg_params_key_is_numeric(const char *key) {
   return s && (s->kind == JG__KIND_NUMBER || s->kind == JG__KIND_INTEGER);
 }
 
+const char *const *jg_params_key_words(const char *key) {
+  const jg__param_spec *s = key ? jg__find_spec(key) : NULL;
+  return s && s->kind == JG__KIND_CHOICE ? s->choices : NULL;
+}
+
 jg_status jg_params_set_number(jg_params *p, const char *key, double value, jg_error *err) {
   if (!p || !key) return JG_FAIL(err, JG_EINVAL, "jg_params_set_number: NULL argument");
   const jg__param_spec *s = jg__find_spec(key);
@@ -376,6 +381,15 @@ jg_status jg_params_set_number(jg_params *p, const char *key, double value, jg_e
       return JG_FAIL(err, JG_EINVAL, "%s takes whole numbers only (got %.17g)", key, value);
     *(int *)((char *)p + s->offset) = (int)value;
     return JG_OK;
+  case JG__KIND_CHOICE: {
+    int n = 0;
+    while (s->choices[n]) n++;
+    if (!(value == floor(value)) || value < 0 || value >= n)
+      return JG_FAIL(err, JG_EINVAL, "%s takes the numbers 0 to %d of its words %s (got %.17g)",
+                     key, n - 1, s->doc.allowed, value);
+    *(int *)((char *)p + s->offset) = (int)value;
+    return JG_OK;
+  }
   default:
     return JG_FAIL(err, JG_EINVAL, "%s is not a single number (its type: %s)", key, s->doc.type);
   }

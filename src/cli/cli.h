@@ -80,6 +80,7 @@ int cmd_epochs(const cli_command *cmd, int argc, char **argv);
 int cmd_keys(const cli_command *cmd, int argc, char **argv);
 int cmd_scan(const cli_command *cmd, int argc, char **argv);
 int cmd_merge(const cli_command *cmd, int argc, char **argv);
+int cmd_plot(const cli_command *cmd, int argc, char **argv);
 
 /* MPI for `jeansgrow scan` (src/cli/scan_mpi.c; the library knows no MPI).
  * scan_mpi_launcher_rank: this process's rank as an MPI launcher announces

@@ -6,6 +6,7 @@
  * was; each table is written to a temporary file and renamed into place.
  */
 #include <errno.h>
+#include <signal.h>
 #include <stdio.h>
 #include <stdlib.h>
 #include <string.h>
@@ -13,6 +14,7 @@
 #include <unistd.h>
 
 #include "cli.h"
+#include "figures.h"
 
 #define DEFAULT_RUN_FOLDER "jeansgrow-out"
 
@@ -73,7 +75,7 @@ static jg_status write_table(int which, FILE *f, const jg_params *p, const jg_th
   case FILE_SCALES:
     return jg_report_scales(f, p, th, r->scales, p->output.n_redshifts, err);
   default:
-    return jg_report_growth(f, p, r->growth, err);
+    return jg_report_growth(f, p, th, r->growth, err);
   }
 }
 
@@ -119,35 +121,84 @@ static void print_summary(const char *param_path, const char *dir, const jg_para
   snprintf(M_F, sizeof M_F, "M_F[%s]", m_unit);
   snprintf(k_half, sizeof k_half, "k_half[%s]", k_unit);
   snprintf(M_half, sizeof M_half, "M_half[%s]", m_unit);
-  printf("  %8s %10s %11s %11s %11s %11s %13s %14s\n", "z", "T_gas[K]", k_J, M_J, k_F, M_F,
-         k_half, M_half);
+  /* Every mass in one radius convention (output.mass_radius): the library
+   * gives the Jeans and half-suppression masses with radius pi/k and the
+   * filtering mass with both. */
+  const int full = p->output.mass_radius == JG_MASS_RADIUS_FULL_WAVELENGTH;
+  const double to_convention = full ? 8.0 : 1.0;
+  printf("  %8s %10s %11s %11s %11s %11s %13s %14s  %s\n", "z", "T_gas[K]", k_J, M_J, k_F, M_F,
+         k_half, M_half, "flags");
+  int seen_flags = 0;
   for (int i = 0; i < p->output.n_redshifts; i++) {
     const jg_scales_point *s = &r->scales[i];
     jg_thermal_state ts;
     jg_thermal_state_at(th, s->z, &ts);
+    const double m_filter = full ? s->m_filter_solved : s->m_filter_solved_half;
     printf("  %8.1f %10.4g %11.4g %11.3e %11.4g %11.3e", s->z, ts.T_gas,
-           s->k_jeans_isothermal * k_factor, s->m_jeans_isothermal * m_factor,
-           s->k_filter_solved * k_factor, s->m_filter_solved * m_factor);
-    if (s->half_found) printf(" %13.4g %14.3e\n", s->k_half * k_factor, s->m_half * m_factor);
-    else printf(" %13s %14s\n", "none", "-");
+           s->k_jeans_isothermal * k_factor, s->m_jeans_isothermal * to_convention * m_factor,
+           s->k_filter_solved * k_factor, m_filter * m_factor);
+    if (s->half_found)
+      printf(" %13.4g %14.3e", s->k_half * k_factor, s->m_half * to_convention * m_factor);
+    else printf(" %13s %14s", "none", "-");
+    const int flags = jg_validity_scales_flags(th, s);
+    seen_flags |= flags;
+    printf("  %d\n", flags);
   }
   static const char *const sound_speed_names[] = {"fluctuating", "isothermal", "adiabatic",
                                                   "effective_gamma"};
-  printf("  (isothermal Jeans mass; filtering mass (4 pi/3) rho_m (2 pi/k_F)^3 from the solved "
-         "perturbations; sound speed: %s%s)\n",
+  printf("  masses: (4 pi/3) rho_m R^3 with R = %s (output.mass_radius = \"%s\"); Jeans scale "
+         "isothermal; filtering scale from the solved perturbations; sound speed: %s%s\n",
+         full ? "2 pi/k, the full wavelength" : "pi/k, half the wavelength",
+         full ? "full_wavelength" : "half_wavelength",
          sound_speed_names[p->perturbations.sound_speed],
          p->perturbations.sound_speed == JG_SOUND_SPEED_FLUCTUATING
              ? (p->perturbations.ionisation_perturbation ? " with delta_xe" : " without delta_xe")
              : "");
+  if (seen_flags & JG_FLAG_GAS_NOT_STARTED)
+    printf("  flags 1: the gas has barely started (k -> 0 delta_b/delta_c < %g): k_F, k_half "
+           "and their masses describe a perturbation not yet there\n", JG_VALIDITY_GAS_STARTED);
+  if (seen_flags & JG_FLAG_BELOW_THERMAL_MODEL)
+    printf("  flags 2: below z = %g, where the thermal history (no heating, no reionisation) "
+           "stops being valid\n", jg_validity_thermal_z_min(th));
+  if (seen_flags & JG_FLAG_NEAR_FLUID_LIMIT)
+    printf("  flags 4: k_F or k_half within ten mean free paths of the atoms: the gas is no "
+           "longer a fluid there\n");
   printf("  files: history.txt, epochs.txt, scales.txt (%d redshifts), growth.txt (%d x %d "
          "rows)\n",
          p->output.n_redshifts, p->output.n_redshifts, r->n_k);
 }
 
+/* The figures of the folder's tables, or the line that says how to get
+ * them; a figure gnuplot could not draw is a failed run (exit 1). */
+static int draw_figures(const char *dir) {
+  if (!cli_figures_available()) {
+    cli_figures_print_hint(stdout, dir);
+    return EXIT_OK;
+  }
+  fflush(stdout);
+  const int drawn = cli_figures_for_folder(dir);
+  if (drawn < 0) return EXIT_RUN_FAILED;
+  printf("  figures: history, masses, scales, suppression, rates (.png for screens, .svg for "
+         "papers; jeansgrow plot %s draws them again)\n", dir);
+  return EXIT_OK;
+}
+
+enum { OPTION_NO_FIGURES = 1000 };
+
+static int run_option(int code, const char *arg, void *context) {
+  (void)arg;
+  if (code == OPTION_NO_FIGURES) *(int *)context = 0;
+  return -1;
+}
+
 int cmd_run(const cli_command *cmd, int argc, char **argv) {
   cli_options o;
   jg_params p;
-  int rc = cli_parse_options(cmd, argc, argv, &o);
+  int figures = 1;
+  static const struct option run_options[] = {{"no-figures", no_argument, NULL, OPTION_NO_FIGURES},
+                                              {NULL, 0, NULL, 0}};
+  const cli_extra_options extra = {run_options, run_option, NULL, &figures};
+  int rc = cli_parse_options_with(cmd, argc, argv, &o, &extra);
   if (rc < 0) rc = cli_load_params(&o, &p);
   if (rc >= 0) return rc;
   const char *dir = o.output_path ? o.output_path : DEFAULT_RUN_FOLDER;
@@ -156,6 +207,9 @@ int cmd_run(const cli_command *cmd, int argc, char **argv) {
     return EXIT_BAD_INPUT;
   }
   if ((rc = prepare_folder(dir)) >= 0) return rc;
+  /* The computation comes before any file is opened: without this an
+   * interrupt there would end the program silently. */
+  cli_protect_interrupts("jeansgrow: interrupted; no table was written, the output folder is as it was\n");
 
   jg_background *bg = NULL;
   jg_thermal *th = NULL;
@@ -189,11 +243,20 @@ int cmd_run(const cli_command *cmd, int argc, char **argv) {
     if (rc < 0) st = write_table(i, jg_output_stream(out[i]), &p, th, r, &err);
   }
   if (rc < 0 && st == JG_OK) {
+    /* All four tables or none: an interrupt between two renames would
+     * leave a folder mixing two runs. */
+    sigset_t block, saved;
+    sigemptyset(&block);
+    sigaddset(&block, SIGINT);
+    sigaddset(&block, SIGTERM);
+    sigprocmask(SIG_BLOCK, &block, &saved);
     for (int i = 0; i < N_RUN_FILES && rc < 0; i++) {
       int c = cli_commit_output(out[i]);
       out[i] = NULL;
       if (c != EXIT_OK) rc = c;
     }
+    cli_protect_interrupts("jeansgrow: interrupted after the tables were written\n");
+    sigprocmask(SIG_SETMASK, &saved, NULL);
   }
   for (int i = 0; i < N_RUN_FILES; i++)
     if (out[i]) cli_discard_output(out[i]);
@@ -201,6 +264,7 @@ int cmd_run(const cli_command *cmd, int argc, char **argv) {
   if (rc < 0) {
     print_summary(o.param_path, dir, &p, th, r);
     rc = EXIT_OK;
+    if (figures) rc = draw_figures(dir);
   }
   if (r) {
     jg_growth_grid_free(r->growth);

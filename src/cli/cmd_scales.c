@@ -87,7 +87,7 @@ int cmd_growth(const cli_command *cmd, int argc, char **argv) {
   if (st == JG_OK)
     st = jg_growth_grid_compute(r.model, r.ws, k, n_k, r.p.output.redshifts,
                                 r.p.output.n_redshifts, &g, &err);
-  if (st == JG_OK) st = jg_report_growth(jg_output_stream(r.out), &r.p, g, &err);
+  if (st == JG_OK) st = jg_report_growth(jg_output_stream(r.out), &r.p, r.th, g, &err);
   jg_growth_grid_free(g);
   free(k);
   return run_end(&r, st, &err);

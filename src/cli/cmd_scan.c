@@ -21,13 +21,18 @@
 #include <unistd.h>
 
 #include "cli.h"
+#include "figures.h"
 #include "../base/clock.h"
 
-/* The evaluator behind the table's columns, in the units the parameters
- * ask for. A later stage (growth) plugs in here with an evaluator of its own. */
-static const jg_scan_evaluator *scan_evaluator(const jg_params *p) {
-  return jg_scan_evaluator_scales(p->output.units);
-}
+/* The tables a scan can write (--table), each an evaluator in the units the
+ * parameters ask for. */
+static const struct {
+  const char *name;
+  const jg_scan_evaluator *(*evaluator)(jg_output_units units);
+} scan_tables[] = {{"scales", jg_scan_evaluator_scales},
+                   {"growth", jg_scan_evaluator_growth},
+                   {"epochs", jg_scan_evaluator_epochs}};
+#define N_SCAN_TABLES ((int)(sizeof scan_tables / sizeof scan_tables[0]))
 
 #define MAX_THREADS 4096
 
@@ -46,6 +51,8 @@ typedef struct scan_options {
   int part_index, part_count;
   int resume;
   double rank_timeout; /* seconds; 0: wait for ever */
+  int table;           /* index into scan_tables */
+  int figures;         /* draw the figures of the finished table */
 } scan_options;
 
 static void print_scan_help(const cli_command *cmd) {
@@ -54,7 +61,12 @@ static void print_scan_help(const cli_command *cmd) {
   printf("\nOptions:\n"
          "  --vary KEY=FROM:TO:N[:log]  vary a number key over N values, linear (default)\n"
          "                         or log spacing; repeat for a grid (first --vary slowest)\n"
-         "  --vary KEY=[V1,V2,...]  vary a key over the listed values\n"
+         "  --vary KEY=[V1,V2,...]  vary a key over the listed values (a word-valued key\n"
+         "                         over its words: perturbations.sound_speed=[isothermal,\n"
+         "                         adiabatic]; the column holds each word's number)\n"
+         "  --table scales|growth|epochs  the table written for every point (default\n"
+         "                         scales; growth: a row per redshift and wavenumber;\n"
+         "                         epochs: one row per point)\n"
          "                         (--vary replaces the scan.vary list of PARAMFILE)\n"
          "  --set KEY=VALUE        override a base parameter (libconfig syntax; repeatable)\n"
          "  --threads N            computing threads (default: all cores; 1 per MPI rank)\n"
@@ -64,7 +76,10 @@ static void print_scan_help(const cli_command *cmd) {
          "  --rank-timeout SECONDS under MPI, end the job (keeping OUTPUT.checkpoint for\n"
          "                         --resume) when a rank has sent nothing for SECONDS\n"
          "                         (default %.0f, at least 1; 0 waits for ever)\n"
-         "  -o, --output FILE      write the table to FILE (atomically) instead of stdout\n"
+         "  -o, --output FILE      write the table to FILE (atomically) instead of stdout;\n"
+         "                         the figures of a whole table go beside it (FILE without\n"
+         "                         .txt, then _NAME.png and .svg) when gnuplot is installed\n"
+         "  --no-figures           do not draw them\n"
          "  -h, --help             show this help\n", DEFAULT_RANK_TIMEOUT);
 }
 
@@ -120,6 +135,21 @@ static int handle_scan_option(int code, const char *arg, void *context) {
   case 'r':
     o->resume = 1;
     break;
+  case 'F':
+    o->figures = 0;
+    break;
+  case 'b': {
+    int found = -1;
+    for (int i = 0; i < N_SCAN_TABLES; i++)
+      if (strcmp(arg, scan_tables[i].name) == 0) found = i;
+    if (found < 0) {
+      fprintf(stderr, "jeansgrow scan: --table must be scales, growth or epochs (got '%s')\n",
+              arg);
+      return EXIT_BAD_INPUT;
+    }
+    o->table = found;
+    break;
+  }
   case 'T': {
     char *end;
     errno = 0;
@@ -144,11 +174,14 @@ static int parse_scan_options(const cli_command *cmd, int argc, char **argv, sca
   memset(o, 0, sizeof *o);
   o->part_index = o->part_count = 1;
   o->rank_timeout = DEFAULT_RANK_TIMEOUT;
+  o->figures = 1;
   static const struct option scan_opts[] = {{"vary", required_argument, NULL, 'v'},
                                             {"threads", required_argument, NULL, 't'},
                                             {"part", required_argument, NULL, 'p'},
                                             {"resume", no_argument, NULL, 'r'},
                                             {"rank-timeout", required_argument, NULL, 'T'},
+                                            {"table", required_argument, NULL, 'b'},
+                                            {"no-figures", no_argument, NULL, 'F'},
                                             {NULL, 0, NULL, 0}};
   const cli_extra_options extra = {scan_opts, handle_scan_option, print_scan_help, o};
   int rc = cli_parse_options_with(cmd, argc, argv, &o->common, &extra);
@@ -288,7 +321,8 @@ static int scan_prepare(const cli_command *cmd, int argc, char **argv, int write
     cli_discard_output(su->out);
     su->out = NULL;
   }
-  st = jg_scan_new(&su->params, &su->grid, scan_evaluator(&su->params), su->opt.part_index,
+  st = jg_scan_new(&su->params, &su->grid,
+                   scan_tables[su->opt.table].evaluator(su->params.output.units), su->opt.part_index,
                    su->opt.part_count, &su->scan, &err);
   if (st != JG_OK) {
     cli_report(&err);
@@ -347,12 +381,24 @@ static int scan_finish(scan_setup *su, double t0, int threads, int ranks) {
   if (ranks > 1) snprintf(where, sizeof where, "%d MPI ranks x %d thread%s", ranks, threads,
                           threads == 1 ? "" : "s");
   else snprintf(where, sizeof where, "%d thread%s", threads, threads == 1 ? "" : "s");
-  fprintf(stderr, "jeansgrow scan: %lld points x %d redshifts -> %s: %lld computed, %lld "
-          "resumed, %lld failed; %.1f s, %.2f points/s on %s\n", points, jg_scan_redshifts(s),
+  const int rows = jg_scan_rows_per_point(s);
+  fprintf(stderr, "jeansgrow scan: %lld points x %d %s -> %s: %lld computed, %lld "
+          "resumed, %lld failed; %.1f s, %.2f points/s on %s\n", points,
+          rows,
+          rows == jg_scan_redshifts(s) ? "redshifts" : rows == 1 ? "row" : "rows",
           su->opt.common.output_path ? su->opt.common.output_path : "stdout", points - resumed,
           resumed, failed, dt, rate, where);
   setup_release(su, 0);
-  return failed > 0 ? EXIT_RUN_FAILED : EXIT_OK;
+  rc = failed > 0 ? EXIT_RUN_FAILED : EXIT_OK;
+  /* Figures of the whole table, beside it (a slice waits for its merge). */
+  struct stat sb;
+  const char *path = su->opt.common.output_path;
+  if (su->opt.figures && path && su->opt.part_count == 1 && stat(path, &sb) == 0 &&
+      S_ISREG(sb.st_mode)) {
+    if (!cli_figures_available()) cli_figures_print_hint(stderr, path);
+    else if (cli_figures_for_table(path) < 0) rc = EXIT_RUN_FAILED;
+  }
+  return rc;
 }
 
 static int default_threads(int under_mpi) {

@@ -12,9 +12,12 @@ static const cli_command commands[] = {
     {"run", "The main job: history, epochs, scales and growth into one folder, with a summary",
      "PARAMFILE [--set KEY=VALUE]... [-o DIR]",
      "Writes DIR/history.txt, DIR/epochs.txt, DIR/scales.txt and DIR/growth.txt (DIR is\n"
-     "created if missing; default jeansgrow-out), each atomically, then prints a summary.",
+     "created if missing; default jeansgrow-out), each atomically, then prints a summary\n"
+     "and, when gnuplot is installed, draws the figures (history, masses, scales,\n"
+     "suppression, rates; each as .png and .svg) into DIR. --no-figures skips them.\n"
+     "Masses in the summary and figures use one radius (output.mass_radius).",
      OUTPUT_FOLDER, cmd_run},
-    {"history", "Ionisation and gas-temperature history from the start redshift to z = 0",
+    {"history", "Ionisation and gas-temperature history from the start redshift to output.history_z_min",
      "PARAMFILE [--set KEY=VALUE]... [-o FILE]",
      "Columns: z, x_e, x_HII, x_HeII, x_HeIII, T_gas[K], T_rad[K], mu, compton_rate[1/s],\n"
      "H[km/s/Mpc], tau, visibility, tau_drag, gamma_eff (see the README). Rows uniform in\n"
@@ -42,15 +45,23 @@ static const cli_command commands[] = {
      NULL, 0, cmd_keys},
     {"scan", "One table over a grid of parameter values, on threads, MPI ranks or job slices",
      "PARAMFILE --vary KEY=FROM:TO:N[:log] [--vary ...] [--set KEY=VALUE]... [--threads N]\n"
-     "       [--part I/N] [--resume] [-o FILE]",
+     "       [--table scales|growth|epochs] [--part I/N] [--resume] [--no-figures] [-o FILE]",
      "One row per grid point and output redshift: the varied values, z, z_star, z_drag,\n"
      "z_gas_decoupling (-1 where that universe has no such epoch), then every column\n"
      "of `jeansgrow scales` at that redshift\n"
      "(T_gas[K], x_e, k_J[1/Mpc], M_J[Msun], k_F[1/Mpc], M_F[Msun], k_half[1/Mpc], ...;\n"
      "h/Mpc and Msun/h with output.units = \"Mpc/h\", each point with its own h).\n"
-     "The grid may instead come from the scan.vary list of PARAMFILE. Under mpirun the\n"
-     "ranks share the points; the file is the same whatever the threads or ranks.",
+     "--table growth writes the growth table's columns per redshift and wavenumber,\n"
+     "--table epochs one row of epochs per point. The grid may instead come from the\n"
+     "scan.vary list of PARAMFILE. Under mpirun the ranks share the points; the file is\n"
+     "the same whatever the threads or ranks. Figures of the table are drawn beside it.",
      1, cmd_scan},
+    {"plot", "Draw the figures of a run folder or of one table (a scan's too) with gnuplot",
+     "DIR|TABLE",
+     "For a folder: the figures of its history.txt, scales.txt and growth.txt, as `run`\n"
+     "draws them. For a table: its figures beside it, named after it (a scan table:\n"
+     "each scale against the varied key, or maps for two varied keys).",
+     0, cmd_plot},
     {"merge", "Join the slice tables of a scan run with --part I/N into the whole table",
      "OUT PART_FILE...", "The slices must come from one scan (same fingerprint), all of them.",
      1, cmd_merge},
@@ -58,7 +69,7 @@ static const cli_command commands[] = {
 #define N_COMMANDS ((int)(sizeof commands / sizeof commands[0]))
 
 static void print_help(void) {
-  printf("Usage: jeansgrow COMMAND [options] PARAMFILE\n\n"
+  printf("Usage: jeansgrow COMMAND PARAMFILE [options]\n\n"
          "Jeans and filtering scales, and linear growth of baryon and dark-matter\n"
          "perturbations with gas pressure, after recombination.\n\nCommands:\n");
   for (int i = 0; i < N_COMMANDS; i++) printf("  %-9s %s\n", commands[i].name, commands[i].summary);
@@ -73,7 +84,7 @@ int main(int argc, char **argv) {
   if (argc < 2) {
     /* A usage error: one line on stderr, as for every other bad input, so
      * that a script sees it and stdout stays empty. */
-    fprintf(stderr, "jeansgrow: no command given (usage: jeansgrow COMMAND [options] PARAMFILE; "
+    fprintf(stderr, "jeansgrow: no command given (usage: jeansgrow COMMAND PARAMFILE [options]; "
                     "see jeansgrow --help)\n");
     return EXIT_BAD_INPUT;
   }

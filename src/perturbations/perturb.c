@@ -147,12 +147,12 @@ static double explicit_start(const jg_perturb_model *m) {
  * model; NULL with err filled on failure. */
 static jg_perturb_start_table *read_start_table(const jg_perturb_settings *s, jg_error *err) {
   const char *path = s->initial_table;
-  jg_perturb_start_table *t = jg_perturb_start_table_read(path, err);
+  jg_error table_err; /* the caller's record may be NULL */
+  jg_error_clear(&table_err);
+  jg_perturb_start_table *t = jg_perturb_start_table_read(path, &table_err);
   if (!t) {
     /* Name the key: the file's own message does not say where it came from. */
-    char why[JG_ERROR_MESSAGE_SIZE];
-    snprintf(why, sizeof why, "%s", err->message);
-    JG_FAIL(err, err->status, "perturbations.initial_table: %s", why);
+    JG_FAIL(err, table_err.status, "perturbations.initial_table: %s", table_err.message);
     return NULL;
   }
   if (s->sound_speed != JG_SOUND_SPEED_FLUCTUATING && jg_perturb_start_table_has_temperature(t)) {
@@ -172,8 +172,9 @@ static jg_perturb_start_table *read_start_table(const jg_perturb_settings *s, jg
 jg_status jg_perturb_check_start_table(const jg_perturb_settings *s, jg_error *err) {
   if (!s) return JG_FAIL(err, JG_EINVAL, "jg_perturb_check_start_table: NULL settings");
   if (!s->initial_table[0]) return JG_OK;
-  jg_perturb_start_table *t = read_start_table(s, err);
-  if (!t) return err->status;
+  jg_error local;
+  jg_perturb_start_table *t = read_start_table(s, err ? err : &local);
+  if (!t) return err ? err->status : local.status;
   jg_perturb_start_table_free(t);
   return JG_OK;
 }
@@ -187,8 +188,9 @@ static jg_status attach_start_table(jg_perturb_model *m, jg_error *err) {
                    "perturbations: give either a uniform start or perturbations.initial_table "
                    "(%s), not both",
                    path);
-  m->start_table = read_start_table(&m->settings, err);
-  if (!m->start_table) return err->status;
+  jg_error local;
+  m->start_table = read_start_table(&m->settings, err ? err : &local);
+  if (!m->start_table) return err ? err->status : local.status;
   double t_lo, t_hi;
   jg_perturb_start_table_range(m->start_table, &t_lo, &t_hi);
   if (t_hi < m->k_lo || t_lo > m->k_hi)
@@ -219,6 +221,22 @@ static jg_perturb_model *model_finish(jg_perturb_model *m, jg_error *err) {
   if (md->eval(md->ctx, m->x_init, &c) != 0) {
     JG_FAIL(err, JG_ENUMERIC, "perturbations: the medium cannot be evaluated at z_initial = %g",
             m->settings.z_initial);
+    jg_perturb_model_free(m);
+    return NULL;
+  }
+  /* A custom medium is a caller's input: out of its physical domain GSL's
+   * hypergeometric function below would raise an error (an abort under
+   * GSL's default handler), so it is refused here. */
+  if (!(c.baryon_fraction >= 0.0 && c.baryon_fraction < 1.0) || !(c.gravity >= 0.0) ||
+      !isfinite(c.gravity) || !(c.pressure >= 0.0) || !isfinite(c.pressure) ||
+      !(c.drag >= 0.0) || !isfinite(c.drag) || !(c.relaxation >= 0.0) ||
+      !isfinite(c.relaxation) || !isfinite(c.dlnH_dlna)) {
+    JG_FAIL(err, JG_EINVAL,
+            "perturbations: the medium at z_initial = %g is unphysical (baryon fraction %g "
+            "must lie in [0, 1); gravity %g, pressure %g, drag %g, relaxation %g must be "
+            "finite and >= 0; d ln H/d ln a %g finite)",
+            m->settings.z_initial, c.baryon_fraction, c.gravity, c.pressure, c.drag,
+            c.relaxation, c.dlnH_dlna);
     jg_perturb_model_free(m);
     return NULL;
   }

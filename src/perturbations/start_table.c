@@ -177,6 +177,8 @@ static jg_status read_rows(FILE *f, jg_perturb_start_table *t, jg_error *err) {
 }
 
 jg_perturb_start_table *jg_perturb_start_table_read(const char *path, jg_error *err) {
+  jg_error local; /* the helpers read the status back from the record */
+  if (!err) err = &local;
   if (!path || !path[0]) {
     JG_FAIL(err, JG_EINVAL, "jg_perturb_start_table_read: no file name given");
     return NULL;

@@ -14,6 +14,7 @@
 
 #include "jeansgrow/constants.h"
 #include "jeansgrow/table.h"
+#include "jeansgrow/validity.h"
 #include "report_tables.h"
 #include "../base/alloc.h" /* last: test builds route allocations through it */
 
@@ -81,6 +82,24 @@ static jg_output_units table_units(jg_output_units units) {
 #define NAME_IN_MPC_H(stem, q) stem SUFFIX_##q(MPC_H),
 #define QUANTITY_OF(stem, q) Q_##q,
 
+/* ---- validity ----------------------------------------------------------- */
+
+/* The preamble with one more convention line: the thermal history's
+ * lowest valid redshift, which depends on the history (figures shade what
+ * lies below it). */
+#define MAX_CONVENTIONS 16
+static void write_preamble_with_validity(FILE *f, const char *title, const jg_params *p,
+                                         const jg_thermal *th, const char *const *conventions) {
+  const char *lines[MAX_CONVENTIONS + 2];
+  char validity[256];
+  jg_validity_thermal_line(th, validity, sizeof validity);
+  int n = 0;
+  while (conventions && conventions[n] && n < MAX_CONVENTIONS) lines[n] = conventions[n], n++;
+  lines[n++] = validity;
+  lines[n] = NULL;
+  jg_table_write_preamble(f, title, p, lines);
+}
+
 /* ---- history ------------------------------------------------------------ */
 
 static const char *const history_columns[] = {
@@ -135,7 +154,8 @@ jg_status jg_report_history(FILE *f, const jg_params *p, const jg_thermal *th, j
   int n = 0;
   double *z = history_redshifts(p, &n);
   if (!z) return JG_FAIL(err, JG_ENOMEM, "out of memory for the history table");
-  jg_table_write_preamble(f, "ionisation and gas-temperature history", p, history_conventions);
+  write_preamble_with_validity(f, "ionisation and gas-temperature history", p, th,
+                               history_conventions);
   jg_table_write_columns(f, history_columns, N_HISTORY_COLUMNS);
   jg_status st = JG_OK;
   for (int i = 0; st == JG_OK && i < n; i++) {
@@ -235,7 +255,8 @@ static void write_effective_gamma(FILE *f, const jg_params *p, const double *z,
   X("k_F_b_over_c", WAVENUMBER)                                                            \
   X("b_over_c_large", NONE)                                                                \
   X("delta_m_large", NONE)                                                                 \
-  X("rate_m_large", NONE)
+  X("rate_m_large", NONE)                                                                  \
+  X("flags", NONE)
 
 const char *const jg__report_scales_columns[][JG__REPORT_SCALES_COLUMNS] = {
     [JG_UNITS_MPC] = {SCALES_COLUMNS(NAME_IN_MPC)},
@@ -259,15 +280,17 @@ _Static_assert(sizeof scales_quantities / sizeof scales_quantities[0] ==
       "(pi/k_F)^3 = M_F/8",                                                                  \
       "k_F_integral, M_F_integral: Gnedin & Hui (1998) integral over the isothermal k_J "    \
       "history from perturbations.z_initial (it counts pressure smoothing before the "       \
-      "baryons are released near z_drag, so it lies below k_F); _adiabatic: with gamma = "   \
-      "5/3",                                                                                 \
+      "baryons are released near z_drag: below k_F with the isothermal sound speed; with "   \
+      "the fluctuating or adiabatic model it can lie above k_F at low z); _adiabatic: with " \
+      "gamma = 5/3",                                                                         \
       "k_F_b_over_c: the same measurement on (delta_b/delta_c)(k) / "                        \
       "(delta_b/delta_c)(k->0)",                                                             \
       "k_half, M_half: where delta_b/delta_c has fallen to half of its k -> 0 value; "       \
       "M_half = (4 pi/3) rho_m0 (pi/k_half)^3; half_found = 0 when no crossing lies in the " \
       "accepted k range (k_half and M_half are then written as 0)",                          \
       "b_over_c_large, delta_m_large, rate_m_large: the k -> 0 limit: delta_b/delta_c, "     \
-      "delta_m per unit initial CDM contrast, and d ln delta_m / d ln a"
+      "delta_m per unit initial CDM contrast, and d ln delta_m / d ln a",                 \
+      JG__REPORT_FLAGS_CONVENTION
 
 #define SCALES_UNITS_MPC "units: k comoving 1/Mpc, masses M_sun, temperatures K"
 #define SCALES_UNITS_MPC_H                                                                   \
@@ -325,7 +348,8 @@ void jg_report_scales_row(const jg_thermal *th, const jg_scales_point *s, jg_out
                                      s->k_filter_solved_cdm,
                                      s->b_over_c_large,
                                      s->delta_m_large,
-                                     s->growth_rate_large};
+                                     s->growth_rate_large,
+                                     jg_validity_scales_flags(th, s)};
   for (int i = 0; i < N_SCALES_COLUMNS; i++)
     row[i] = values[i] * unit_factor(scales_quantities[i], units, h);
 }
@@ -334,8 +358,8 @@ jg_status jg_report_scales(FILE *f, const jg_params *p, const jg_thermal *th,
                            const jg_scales_point *s, int n, jg_error *err) {
   const jg_output_units units = p->output.units;
   const char *const *columns = jg_report_scales_columns(units);
-  jg_table_write_preamble(f, "Jeans, filtering and half-suppression scales", p,
-                          jg_report_scales_conventions(units));
+  write_preamble_with_validity(f, "Jeans, filtering and half-suppression scales", p, th,
+                               jg_report_scales_conventions(units));
   double z[JG_MAX_REDSHIFTS], gamma[JG_MAX_REDSHIFTS];
   const int n_gamma = n < JG_MAX_REDSHIFTS ? n : JG_MAX_REDSHIFTS;
   for (int i = 0; i < n_gamma; i++) {
@@ -370,12 +394,15 @@ jg_status jg_report_scales(FILE *f, const jg_params *p, const jg_thermal *th,
   X("rate_c", NONE)                                                                       \
   X("rate_b", NONE)                                                                       \
   X("rate_m", NONE)                                                                       \
+  X("flags", NONE)                                                                        \
   X("D_ref", NONE)                                                                        \
   X("rate_ref", NONE)
 
 static const quantity growth_quantities[] = {GROWTH_COLUMNS(QUANTITY_OF)};
-#define N_GROWTH_COLUMNS ((int)(sizeof growth_quantities / sizeof growth_quantities[0]))
-static const char *const growth_columns[][N_GROWTH_COLUMNS] = {
+#define N_GROWTH_COLUMNS JG__REPORT_GROWTH_COLUMNS
+_Static_assert(sizeof growth_quantities / sizeof growth_quantities[0] == JG__REPORT_GROWTH_COLUMNS,
+               "JG__REPORT_GROWTH_COLUMNS must match the column list");
+const char *const jg__report_growth_columns[][N_GROWTH_COLUMNS] = {
     [JG_UNITS_MPC] = {GROWTH_COLUMNS(NAME_IN_MPC)},
     [JG_UNITS_MPC_H] = {GROWTH_COLUMNS(NAME_IN_MPC_H)}};
 
@@ -389,42 +416,59 @@ static const char *const growth_columns[][N_GROWTH_COLUMNS] = {
       "rate_x: d ln delta_x / d ln a",                                                        \
       "D_ref, rate_ref: scale-independent growth D(z) of matter + dark energy without "       \
       "radiation (Heath 1977 integral for w = -1; its differential equation otherwise), "     \
-      "D -> a early, and d ln D / d ln a, for reference (the same on every row of a redshift)"
+      "D -> a early, and d ln D / d ln a, for reference (the same on every row of a redshift)", \
+      JG__REPORT_FLAGS_CONVENTION
 
-static const char *const growth_conventions[][7] = {
-    [JG_UNITS_MPC] = {GROWTH_CONVENTIONS, "units: k comoving 1/Mpc", NULL},
+#define GROWTH_UNITS_MPC "units: k comoving 1/Mpc"
+#define GROWTH_UNITS_MPC_H "units: k comoving h/Mpc (1/Mpc divided by h); h = cosmology.hubble_h"
+static const char *const growth_conventions[][8] = {
+    [JG_UNITS_MPC] = {GROWTH_CONVENTIONS, GROWTH_UNITS_MPC, NULL},
     [JG_UNITS_MPC_H] = {GROWTH_CONVENTIONS,
-                        "units: k comoving h/Mpc (1/Mpc divided by h); h = cosmology.hubble_h",
+                        GROWTH_UNITS_MPC_H,
                         NULL}};
+const char *const jg__report_scan_growth_conventions[][JG__REPORT_SCAN_GROWTH_CONVENTIONS] = {
+    [JG_UNITS_MPC] = {JG__REPORT_SCAN_EPOCHS_CONVENTION, GROWTH_CONVENTIONS, GROWTH_UNITS_MPC,
+                      NULL},
+    [JG_UNITS_MPC_H] = {JG__REPORT_SCAN_EPOCHS_CONVENTION, GROWTH_CONVENTIONS,
+                        GROWTH_UNITS_MPC_H, NULL}};
 
-jg_status jg_report_growth(FILE *f, const jg_params *p, const jg_growth_grid *g, jg_error *err) {
+jg_status jg_report_growth(FILE *f, const jg_params *p, const jg_thermal *th,
+                           const jg_growth_grid *g, jg_error *err) {
   const jg_output_units units = table_units(p->output.units);
   const double h = p->cosmology.hubble_h;
-  const char *const *columns = growth_columns[units];
+  const char *const *columns = jg__report_growth_columns[units];
   /* Without a real history there is no reference growth: its two columns
    * are left out rather than filled. */
   const int n_columns = g->has_reference ? N_GROWTH_COLUMNS : N_GROWTH_COLUMNS - 2;
-  jg_table_write_preamble(f, "linear growth by wavenumber", p, growth_conventions[units]);
+  write_preamble_with_validity(f, "linear growth by wavenumber", p, th, growth_conventions[units]);
   double gamma[JG_MAX_REDSHIFTS];
   const int n_gamma = g->n_z < JG_MAX_REDSHIFTS ? g->n_z : JG_MAX_REDSHIFTS;
   for (int iz = 0; iz < n_gamma; iz++) gamma[iz] = g->limit[iz].gamma_uniform;
   write_effective_gamma(f, p, g->z, gamma, n_gamma);
   jg_table_write_columns(f, columns, n_columns);
+  double row[N_GROWTH_COLUMNS];
   for (int iz = 0; iz < g->n_z; iz++) {
-    const double large = g->limit[iz].k0.b_over_c;
     for (int ik = 0; ik < g->n_k; ik++) {
-      const jg_perturb_point *pt = jg_growth_grid_at(g, ik, iz);
-      double row[N_GROWTH_COLUMNS] = {pt->z,        pt->k,        pt->delta_c,
-                                      pt->delta_b,  pt->delta_m,  pt->delta_T,
-                                      pt->b_over_c, pt->delta_b / pt->delta_m,
-                                      pt->b_over_c / large,
-                                      pt->growth_c, pt->growth_b, pt->growth_m,
-                                      g->has_reference ? g->D_ref[iz] : 0.0,
-                                      g->has_reference ? g->f_ref[iz] : 0.0};
-      for (int i = 0; i < n_columns; i++) row[i] *= unit_factor(growth_quantities[i], units, h);
+      jg__report_growth_row(th, g, ik, iz, units, h, row);
       jg_status st = jg_table_write_row(f, row, n_columns, columns, err);
       if (st != JG_OK) return st;
     }
   }
   return JG_OK;
+}
+
+void jg__report_growth_row(const jg_thermal *th, const jg_growth_grid *g, int ik, int iz,
+                           jg_output_units units, double h, double *row) {
+  const double large = g->limit[iz].k0.b_over_c;
+  const jg_perturb_point *pt = jg_growth_grid_at(g, ik, iz);
+  const double values[N_GROWTH_COLUMNS] = {pt->z,        pt->k,        pt->delta_c,
+                                           pt->delta_b,  pt->delta_m,  pt->delta_T,
+                                           pt->b_over_c, pt->delta_b / pt->delta_m,
+                                           pt->b_over_c / large,
+                                           pt->growth_c, pt->growth_b, pt->growth_m,
+                                           jg_validity_growth_flags(th, pt->z, pt->k, large),
+                                           g->has_reference ? g->D_ref[iz] : 0.0,
+                                           g->has_reference ? g->f_ref[iz] : 0.0};
+  for (int i = 0; i < N_GROWTH_COLUMNS; i++)
+    row[i] = values[i] * unit_factor(growth_quantities[i], table_units(units), h);
 }

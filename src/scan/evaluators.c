@@ -11,6 +11,7 @@
 
 #include "jeansgrow/background.h"
 #include "jeansgrow/epochs.h"
+#include "jeansgrow/growth.h"
 #include "jeansgrow/jeans.h"
 #include "jeansgrow/perturb.h"
 #include "jeansgrow/report.h"
@@ -91,7 +92,8 @@ static const jg_scan_evaluator thermal_evaluator = {
     NULL,
     NULL,
     thermal_evaluate,
-    NULL};
+    NULL,
+    JG_SCAN_ROWS_REDSHIFT};
 
 const jg_scan_evaluator *jg_scan_evaluator_thermal(void) { return &thermal_evaluator; }
 
@@ -103,6 +105,29 @@ const jg_scan_evaluator *jg_scan_evaluator_thermal(void) { return &thermal_evalu
 /* The evaluator carries its units itself, as its user data, rather than
  * reading p->output.units, so that its values always match its column
  * names. */
+/* A point's history and perturbation model, built and freed together. */
+typedef struct point_model {
+  jg_background *bg;
+  jg_thermal *th;
+  jg_perturb_model *m;
+  jg_perturb_workspace *w;
+} point_model;
+
+static jg_status point_model_build(const jg_params *p, point_model *pm, jg_error *err) {
+  pm->bg = jg_background_new(&p->cosmology, err);
+  pm->th = pm->bg ? jg_thermal_new(pm->bg, &p->thermal, err) : NULL;
+  pm->m = pm->th ? jg_perturb_model_new(pm->th, &p->perturbations, NULL, err) : NULL;
+  pm->w = pm->m ? jg_perturb_workspace_new(pm->m, err) : NULL;
+  return pm->w ? JG_OK : (err && err->status != JG_OK ? err->status : JG_ENUMERIC);
+}
+
+static void point_model_free(point_model *pm) {
+  jg_perturb_workspace_free(pm->w);
+  jg_perturb_model_free(pm->m);
+  jg_thermal_free(pm->th);
+  jg_background_free(pm->bg);
+}
+
 static jg_status scales_evaluate(const jg_params *p, double *point_values,
                                  double *redshift_values, void *workspace, const void *user,
                                  jg_error *err) {
@@ -111,44 +136,141 @@ static jg_status scales_evaluate(const jg_params *p, double *point_values,
   const int n_z = p->output.n_redshifts;
   jg_scales_point *s = malloc(sizeof *s * (size_t)n_z);
   if (!s) return JG_FAIL(err, JG_ENOMEM, "out of memory for the scales of a scan point");
-  jg_background *bg = jg_background_new(&p->cosmology, err);
-  jg_thermal *th = bg ? jg_thermal_new(bg, &p->thermal, err) : NULL;
-  jg_perturb_model *m = th ? jg_perturb_model_new(th, &p->perturbations, NULL, err) : NULL;
-  jg_perturb_workspace *w = m ? jg_perturb_workspace_new(m, err) : NULL;
-  jg_status st = w ? JG_OK : (err && err->status != JG_OK ? err->status : JG_ENUMERIC);
-  if (st == JG_OK) st = epoch_columns(th, point_values, err);
-  if (st == JG_OK) st = jg_scales_compute(m, w, p->output.redshifts, n_z, s, err);
+  point_model pm = {0};
+  jg_status st = point_model_build(p, &pm, err);
+  if (st == JG_OK) st = epoch_columns(pm.th, point_values, err);
+  if (st == JG_OK) st = jg_scales_compute(pm.m, pm.w, p->output.redshifts, n_z, s, err);
   double row[SCALES_REDSHIFT_COLUMNS + 1];
   for (int j = 0; st == JG_OK && j < n_z; j++) {
-    jg_report_scales_row(th, &s[j], units, row);
+    jg_report_scales_row(pm.th, &s[j], units, row);
     memcpy(redshift_values + (size_t)j * SCALES_REDSHIFT_COLUMNS, row + 1,
            sizeof(double) * SCALES_REDSHIFT_COLUMNS);
   }
-  jg_perturb_workspace_free(w);
-  jg_perturb_model_free(m);
-  jg_thermal_free(th);
-  jg_background_free(bg);
+  point_model_free(&pm);
   free(s);
   return st;
 }
 
 static const jg_output_units units_mpc = JG_UNITS_MPC, units_mpc_h = JG_UNITS_MPC_H;
 
-/* The report module owns the names and conventions. */
-static const jg_scan_evaluator scales_evaluators[] = {
-    [JG_UNITS_MPC] = {"scales (epochs; Jeans, filtering and half-suppression scales as jeansgrow "
-                      "scales)",
-                      JG_SCAN_THERMAL_POINT_COLUMNS, thermal_point_columns,
-                      SCALES_REDSHIFT_COLUMNS, jg__report_scales_columns[JG_UNITS_MPC] + 1,
-                      jg__report_scan_scales_conventions[JG_UNITS_MPC], NULL, NULL,
-                      scales_evaluate, &units_mpc},
-    [JG_UNITS_MPC_H] = {"scales (epochs; Jeans, filtering and half-suppression scales as "
-                        "jeansgrow scales), in h units",
-                        JG_SCAN_THERMAL_POINT_COLUMNS, thermal_point_columns,
-                        SCALES_REDSHIFT_COLUMNS, jg__report_scales_columns[JG_UNITS_MPC_H] + 1,
-                        jg__report_scan_scales_conventions[JG_UNITS_MPC_H], NULL, NULL,
-                        scales_evaluate, &units_mpc_h}};
+/* The pair of evaluators of one table, in 1/Mpc and in h units (both names
+ * enter the fingerprint); POINTS, ROWS and CONVENTIONS are macros of the
+ * units index. The report module owns the names and conventions. */
+#define UNITS_EVALUATORS(label, label_h, n_points, POINTS, n_rows, ROWS, CONVENTIONS, evaluate, \
+                         rows)                                                                 \
+  {[JG_UNITS_MPC] = {label, n_points, POINTS(JG_UNITS_MPC), n_rows, ROWS(JG_UNITS_MPC),         \
+                     CONVENTIONS(JG_UNITS_MPC), NULL, NULL, evaluate, &units_mpc, rows},       \
+   [JG_UNITS_MPC_H] = {label_h, n_points, POINTS(JG_UNITS_MPC_H), n_rows, ROWS(JG_UNITS_MPC_H), \
+                       CONVENTIONS(JG_UNITS_MPC_H), NULL, NULL, evaluate, &units_mpc_h, rows}}
+#define EPOCH_POINTS(u) thermal_point_columns
+#define SCALES_ROWS(u) (jg__report_scales_columns[u] + 1)
+#define SCALES_CONVENTIONS(u) jg__report_scan_scales_conventions[u]
+
+static const jg_scan_evaluator scales_evaluators[] = UNITS_EVALUATORS(
+    "scales (epochs; Jeans, filtering and half-suppression scales as jeansgrow scales)",
+    "scales (epochs; Jeans, filtering and half-suppression scales as jeansgrow scales), in h "
+    "units",
+    JG_SCAN_THERMAL_POINT_COLUMNS, EPOCH_POINTS, SCALES_REDSHIFT_COLUMNS, SCALES_ROWS,
+    SCALES_CONVENTIONS, scales_evaluate, JG_SCAN_ROWS_REDSHIFT);
 
 const jg_scan_evaluator *jg_scan_evaluator_scales(jg_output_units units) {
   return &scales_evaluators[units == JG_UNITS_MPC_H ? JG_UNITS_MPC_H : JG_UNITS_MPC];
+}
+
+/* ---- the growth evaluator: the `growth` table per point ---------------- */
+
+/* The scan's per-row growth columns: the table's k to flags (the scan
+ * writes z; D_ref and rate_ref do not depend on k). */
+static jg_status growth_evaluate(const jg_params *p, double *point_values,
+                                 double *redshift_values, void *workspace, const void *user,
+                                 jg_error *err) {
+  (void)workspace;
+  const jg_output_units units = *(const jg_output_units *)user;
+  const int n_z = p->output.n_redshifts;
+  double *k = malloc(sizeof(double) * JG_MAX_WAVENUMBERS);
+  if (!k) return JG_FAIL(err, JG_ENOMEM, "out of memory for the wavenumbers of a scan point");
+  int n_k = 0;
+  jg_growth_grid *g = NULL;
+  point_model pm = {0};
+  jg_status st = point_model_build(p, &pm, err);
+  if (st == JG_OK) st = epoch_columns(pm.th, point_values, err);
+  if (st == JG_OK) st = jg_perturb_wavenumbers(&p->perturbations, k, &n_k, err);
+  if (st == JG_OK)
+    st = jg_growth_grid_compute(pm.m, pm.w, k, n_k, p->output.redshifts, n_z, &g, err);
+  double row[JG__REPORT_GROWTH_COLUMNS];
+  const double h = p->cosmology.hubble_h;
+  for (int iz = 0; st == JG_OK && iz < n_z; iz++)
+    for (int ik = 0; ik < n_k; ik++) {
+      jg__report_growth_row(pm.th, g, ik, iz, units, h, row);
+      memcpy(redshift_values + ((size_t)iz * (size_t)n_k + (size_t)ik) *
+                                   JG__REPORT_GROWTH_SCAN_COLUMNS,
+             row + 1, sizeof(double) * JG__REPORT_GROWTH_SCAN_COLUMNS);
+    }
+  jg_growth_grid_free(g);
+  point_model_free(&pm);
+  free(k);
+  return st;
+}
+
+#define GROWTH_ROWS(u) (jg__report_growth_columns[u] + 1)
+#define GROWTH_CONVENTIONS(u) jg__report_scan_growth_conventions[u]
+static const jg_scan_evaluator growth_evaluators[] = UNITS_EVALUATORS(
+    "growth (epochs; the growth table by redshift and wavenumber)",
+    "growth (epochs; the growth table by redshift and wavenumber), in h units",
+    JG_SCAN_THERMAL_POINT_COLUMNS, EPOCH_POINTS, JG__REPORT_GROWTH_SCAN_COLUMNS, GROWTH_ROWS,
+    GROWTH_CONVENTIONS, growth_evaluate, JG_SCAN_ROWS_WAVENUMBER);
+
+const jg_scan_evaluator *jg_scan_evaluator_growth(jg_output_units units) {
+  return &growth_evaluators[units == JG_UNITS_MPC_H ? JG_UNITS_MPC_H : JG_UNITS_MPC];
+}
+
+/* ---- the epochs evaluator: the `epochs` table per point, one row ------- */
+
+/* The names of jg_epochs_entry in order, with their units as output.units
+ * writes them (tests/test_scan.c checks them against the entries). */
+static const char *const epochs_columns[][JG_EPOCH_COUNT] = {
+    [JG_UNITS_MPC] = {"z_star", "z_visibility_peak", "z_drag", "r_star[Mpc]", "r_drag[Mpc]",
+                      "theta_star_100", "z_eq", "k_eq[1/Mpc]", "age[Gyr]", "z_gas_decoupling",
+                      "x_e_z100", "T_gas_z100[K]"},
+    [JG_UNITS_MPC_H] = {"z_star", "z_visibility_peak", "z_drag", "r_star[Mpc/h]",
+                        "r_drag[Mpc/h]", "theta_star_100", "z_eq", "k_eq[h/Mpc]", "age[Gyr]",
+                        "z_gas_decoupling", "x_e_z100", "T_gas_z100[K]"}};
+
+static const char *const epochs_conventions[] = {
+    "one row per point: every value of jeansgrow epochs; -1 where the point's universe does "
+    "not have that epoch or the value derived from it (jeansgrow epochs says why)",
+    NULL};
+
+static jg_status epochs_evaluate(const jg_params *p, double *point_values,
+                                 double *redshift_values, void *workspace, const void *user,
+                                 jg_error *err) {
+  (void)workspace;
+  (void)redshift_values;
+  const jg_output_units units = *(const jg_output_units *)user;
+  jg_background *bg = jg_background_new(&p->cosmology, err);
+  jg_thermal *th = bg ? jg_thermal_new(bg, &p->thermal, err) : NULL;
+  jg_status st = th ? JG_OK : (err && err->status != JG_OK ? err->status : JG_ENUMERIC);
+  jg_epochs e;
+  if (st == JG_OK) st = jg_epochs_compute(th, &e, err);
+  for (int i = 0; st == JG_OK && i < JG_EPOCH_COUNT; i++) {
+    jg_epoch_entry en = jg_epochs_entry(&e, i);
+    double factor;
+    jg_report_unit(en.unit, units, p->cosmology.hubble_h, &factor);
+    point_values[i] = en.exists ? en.value * factor : JG__REPORT_SCAN_NO_EPOCH;
+  }
+  jg_thermal_free(th);
+  jg_background_free(bg);
+  return st;
+}
+
+#define EPOCHS_POINTS(u) epochs_columns[u]
+#define NO_ROWS(u) NULL
+#define EPOCHS_CONVENTIONS(u) epochs_conventions
+static const jg_scan_evaluator epochs_evaluators[] = UNITS_EVALUATORS(
+    "epochs (the epochs table, one row per point)",
+    "epochs (the epochs table, one row per point), in h units", JG_EPOCH_COUNT, EPOCHS_POINTS, 0,
+    NO_ROWS, EPOCHS_CONVENTIONS, epochs_evaluate, JG_SCAN_ROWS_POINT);
+
+const jg_scan_evaluator *jg_scan_evaluator_epochs(jg_output_units units) {
+  return &epochs_evaluators[units == JG_UNITS_MPC_H ? JG_UNITS_MPC_H : JG_UNITS_MPC];
 }

@@ -70,11 +70,16 @@ static jg_status check_axis(const jg_scan_grid *g, const jg_scan_axis *ax, const
   jg_error why;
   jg_error_clear(&why);
   jg_status st = JG_OK;
-  if (!jg_params_key_is_numeric(key)) {
+  const int words = jg_params_key_words(key) != NULL;
+  if (words && ax->spacing != JG_SCAN_LIST) {
+    st = JG_FAIL(err, JG_EINVAL, "%s%s is word-valued: vary it over a list of its words, "
+                 "%s=[WORD1, WORD2, ...] (allowed: %s)", pre, key, key,
+                 jg_param_doc_find(key)->allowed);
+  } else if (!words && !jg_params_key_is_numeric(key)) {
     jg_params_set_number(scratch, key, 0.0, &why);
     if (jg_param_doc_find(key))
-      st = JG_FAIL(err, JG_EINVAL, "%s%s; only number and integer keys can be varied "
-                   "(jeansgrow keys lists them)", pre, why.message);
+      st = JG_FAIL(err, JG_EINVAL, "%s%s; only number, integer and word-valued keys can be "
+                   "varied (jeansgrow keys lists them)", pre, why.message);
     else
       st = JG_FAIL(err, JG_EINVAL, "%s%s", pre, why.message);
   }
@@ -183,6 +188,19 @@ static const char *skip_space(const char *s) {
   return s;
 }
 
+/* The number of the word filling `text` (blanks and double quotes around
+ * it allowed) among `words`, or -1. */
+static int parse_word(const char *text, size_t n, const char *const *words) {
+  const char *s = text, *e = text + n;
+  while (s < e && isspace((unsigned char)*s)) s++;
+  while (e > s && isspace((unsigned char)e[-1])) e--;
+  if (e - s >= 2 && *s == '"' && e[-1] == '"') s++, e--;
+  for (int i = 0; words[i]; i++)
+    if (strlen(words[i]) == (size_t)(e - s) && strncmp(words[i], s, (size_t)(e - s)) == 0)
+      return i;
+  return -1;
+}
+
 /* A number filling `text` exactly (surrounding blanks allowed). */
 static int parse_number(const char *text, size_t n, double *out) {
   char buf[128];
@@ -230,7 +248,20 @@ jg_status jg_scan_grid_parse(jg_scan_grid *g, const char *text, const char *orig
         const char *comma = p;
         while (comma < close && *comma != ',') comma++;
         double x;
-        if (!parse_number(p, (size_t)(comma - p), &x)) {
+        const char *const *words = jg_params_key_words(key);
+        const int word = words ? parse_word(p, (size_t)(comma - p), words) : -1;
+        if (words && word < 0) {
+          const char *e0 = skip_space(p), *e1 = comma;
+          while (e1 > e0 && isspace((unsigned char)e1[-1])) e1--;
+          if (e1 < e0) e1 = e0;
+          st = JG_FAIL(err, JG_EINVAL, "%s: element %ld of the list ('%.*s') is not a word %s "
+                       "takes (%s)", where, n + 1, (int)(e1 - e0), e0, key,
+                       jg_param_doc_find(key)->allowed);
+          break;
+        }
+        if (words) {
+          x = word;
+        } else if (!parse_number(p, (size_t)(comma - p), &x)) {
           const char *e0 = skip_space(p), *e1 = comma;
           while (e1 > e0 && isspace((unsigned char)e1[-1])) e1--;
           if (e1 < e0) e1 = e0;
@@ -348,4 +379,13 @@ jg_status jg_scan_grid_read_file(jg_scan_grid *g, const char *path, jg_error *er
   jg_status st = jg_params_read_scan(path, add_file_axis, g, err);
   if (st != JG_OK) grid_truncate(g, n_before);
   return st;
+}
+
+const char *jg_scan_axis_word(const jg_scan_axis *ax, long long i) {
+  const char *const *words = jg_params_key_words(ax->key);
+  if (!words) return NULL;
+  const double v = jg_scan_axis_value(ax, i);
+  int n = 0;
+  while (words[n]) n++;
+  return v >= 0 && v < n && v == floor(v) ? words[(int)v] : NULL;
 }

@@ -35,11 +35,14 @@ static int column_name_ok(const char *name) {
 static jg_status check_evaluator(const jg_scan_evaluator *ev, jg_error *err) {
   if (!ev || !ev->evaluate || ev->n_point_columns < 0 || ev->n_redshift_columns < 0 ||
       ev->n_point_columns + ev->n_redshift_columns == 0 ||
+      (ev->rows == JG_SCAN_ROWS_POINT && ev->n_redshift_columns > 0) ||
+      (ev->rows == JG_SCAN_ROWS_WAVENUMBER && ev->n_redshift_columns < 1) ||
       (ev->n_point_columns && !ev->point_columns) ||
       (ev->n_redshift_columns && !ev->redshift_columns) ||
       (!ev->workspace_new) != (!ev->workspace_free))
     return JG_FAIL(err, JG_EINVAL, "scan evaluator: incomplete (needs evaluate, columns, and "
-                   "both workspace functions or neither)");
+                   "both workspace functions or neither; per-redshift columns unless one row "
+                   "per point, k first with one row per wavenumber)");
   for (int i = 0; i < ev->n_point_columns; i++)
     if (!column_name_ok(ev->point_columns[i]))
       return JG_FAIL(err, JG_EINVAL, "scan evaluator: point column %d has no usable name", i);
@@ -75,7 +78,8 @@ char *jg__scan_strdup(const char *s) {
 
 static jg_status build_columns(jg_scan *s, jg_error *err) {
   const jg_scan_evaluator *ev = s->ev;
-  s->n_columns = s->grid.n_axes + 1 + ev->n_point_columns + ev->n_redshift_columns;
+  const int has_z = ev->rows != JG_SCAN_ROWS_POINT;
+  s->n_columns = s->grid.n_axes + has_z + ev->n_point_columns + ev->n_redshift_columns;
   s->columns = calloc((size_t)s->n_columns, sizeof *s->columns);
   if (!s->columns) return JG_FAIL(err, JG_ENOMEM, "out of memory");
   int c = 0;
@@ -86,7 +90,7 @@ static jg_status build_columns(jg_scan *s, jg_error *err) {
     else snprintf(name, sizeof name, "%s", s->grid.axes[a].key);
     s->columns[c++] = jg__scan_strdup(name);
   }
-  s->columns[c++] = jg__scan_strdup("z");
+  if (has_z) s->columns[c++] = jg__scan_strdup("z");
   for (int i = 0; i < ev->n_point_columns; i++) s->columns[c++] = jg__scan_strdup(ev->point_columns[i]);
   for (int i = 0; i < ev->n_redshift_columns; i++)
     s->columns[c++] = jg__scan_strdup(ev->redshift_columns[i]);
@@ -110,8 +114,9 @@ void jg__scan_write_axis(FILE *f, const jg_scan_axis *ax) {
   if (ax->spacing == JG_SCAN_LIST) {
     fputc('[', f);
     for (int i = 0; i < ax->count; i++) {
+      const char *word = jg_scan_axis_word(ax, i);
       format_exact(a, sizeof a, jg_scan_axis_value(ax, i));
-      fprintf(f, "%s%s", i ? ", " : "", a);
+      fprintf(f, "%s%s", i ? ", " : "", word ? word : a);
     }
     fputc(']', f);
   } else {
@@ -184,7 +189,10 @@ void jg_scan_describe_point(const jg_scan *s, long long index, char *buf, size_t
   for (int a = 0; a < s->grid.n_axes && used < size; a++) {
     char num[64];
     format_exact(num, sizeof num, v[a]);
-    int w = snprintf(buf + used, size - used, "%s%s = %s", a ? ", " : "", s->grid.axes[a].key, num);
+    const char *const *words = jg_params_key_words(s->grid.axes[a].key);
+    const char *word = words ? words[(int)v[a]] : num;
+    int w = snprintf(buf + used, size - used, "%s%s = %s", a ? ", " : "", s->grid.axes[a].key,
+                     word);
     if (w < 0) break;
     used += (size_t)w;
   }
@@ -275,6 +283,21 @@ static jg_status validate_points(const jg_scan *s, jg_error *err) {
   return st;
 }
 
+/* The wavenumbers per redshift of a scan writing one row per wavenumber:
+ * those of the base parameters, whose number no axis may change. */
+static jg_status wavenumber_rows(jg_scan *s, const jg_scan_grid *grid, jg_error *err) {
+  for (int a = 0; a < grid->n_axes; a++)
+    if (strcmp(grid->axes[a].key, "perturbations.k_count") == 0)
+      return JG_FAIL(err, JG_EINVAL, "perturbations.k_count cannot be varied in a scan with a "
+                     "row per wavenumber (every point must have the same rows); vary k_min or "
+                     "k_max instead");
+  double *k = malloc(sizeof(double) * JG_MAX_WAVENUMBERS);
+  if (!k) return JG_FAIL(err, JG_ENOMEM, "out of memory for the wavenumbers");
+  jg_status st = jg_perturb_wavenumbers(&s->base.perturbations, k, &s->n_k, err);
+  free(k);
+  return st;
+}
+
 jg_status jg_scan_new(const jg_params *base, const jg_scan_grid *grid,
                       const jg_scan_evaluator *ev, int part_index, int part_count,
                       jg_scan **out, jg_error *err) {
@@ -305,7 +328,17 @@ jg_status jg_scan_new(const jg_params *base, const jg_scan_grid *grid,
   s->count = q + (i0 < r);
   s->first = i0 * q + (i0 < r ? i0 : r);
   s->n_z = base->output.n_redshifts;
-  s->n_values = ev->n_point_columns + s->n_z * ev->n_redshift_columns;
+  s->n_k = 1;
+  if (ev->rows == JG_SCAN_ROWS_WAVENUMBER) {
+    st = wavenumber_rows(s, grid, err);
+    if (st != JG_OK) {
+      jg_scan_free(s);
+      return st;
+    }
+  }
+  s->rows_per_point = ev->rows == JG_SCAN_ROWS_POINT ? 1 : s->n_z * s->n_k;
+  s->n_values = ev->n_point_columns + (ev->rows == JG_SCAN_ROWS_POINT ? 0 : s->rows_per_point) *
+                                          ev->n_redshift_columns;
   st = copy_grid(&s->grid, grid, err);
   if (st == JG_OK) st = build_columns(s, err);
   if (st == JG_OK) st = validate_points(s, err); /* first: it names a bad start table */
@@ -331,6 +364,7 @@ long long jg_scan_total_points(const jg_scan *s) { return s->total; }
 long long jg_scan_first_point(const jg_scan *s) { return s->first; }
 long long jg_scan_slice_points(const jg_scan *s) { return s->count; }
 int jg_scan_redshifts(const jg_scan *s) { return s->n_z; }
+int jg_scan_rows_per_point(const jg_scan *s) { return s->rows_per_point; }
 int jg_scan_values_per_point(const jg_scan *s) { return s->n_values; }
 const jg_scan_grid *jg_scan_grid_of(const jg_scan *s) { return &s->grid; }
 const char *jg_scan_fingerprint(const jg_scan *s) { return s->fingerprint; }
@@ -385,7 +419,7 @@ jg_status jg_scan_evaluate(const jg_scan *s, long long index, void *workspace, d
     if (isfinite(values[i])) continue;
     if (i < ev->n_point_columns)
       return JG_FAIL(err, JG_ENUMERIC, "%s is not finite (%g)", ev->point_columns[i], values[i]);
-    int j = (i - ev->n_point_columns) / ev->n_redshift_columns;
+    int j = (i - ev->n_point_columns) / ev->n_redshift_columns / s->n_k;
     int c = (i - ev->n_point_columns) % ev->n_redshift_columns;
     return JG_FAIL(err, JG_ENUMERIC, "%s is not finite (%g) at z = %g", ev->redshift_columns[c],
                    values[i], s->base.output.redshifts[j]);

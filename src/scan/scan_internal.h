@@ -20,6 +20,8 @@ struct jg_scan {
   int part_index, part_count;
   long long total, first, count;
   int n_z, n_values;
+  int n_k;            /* wavenumbers per redshift (JG_SCAN_ROWS_WAVENUMBER), else 1 */
+  int rows_per_point; /* table rows per point */
   char fingerprint[17];
   int n_columns;
   char **columns; /* the table's column names */

@@ -26,7 +26,7 @@ static char **scan_header_lines(const jg_scan *s, int *n_out) {
   const jg_scan_evaluator *ev = s->ev;
   int n_conv = 0;
   while (ev->conventions && ev->conventions[n_conv]) n_conv++;
-  int cap = 8 + s->grid.n_axes + n_conv;
+  int cap = 8 + 2 * s->grid.n_axes + n_conv;
   char **lines = calloc((size_t)cap + 1, sizeof *lines);
   if (!lines) return NULL;
   int n = 0;
@@ -40,13 +40,24 @@ static char **scan_header_lines(const jg_scan *s, int *n_out) {
   if (LINE_BEGIN()) {
     fprintf(f, "scan grid: %lld points (", s->total);
     for (int a = 0; a < s->grid.n_axes; a++) fprintf(f, "%s%d", a ? " x " : "", s->grid.axes[a].count);
-    fprintf(f, ", first key slowest), %d redshifts per point", s->n_z);
+    if (ev->rows == JG_SCAN_ROWS_POINT) fputs(", first key slowest), one row per point", f);
+    else if (ev->rows == JG_SCAN_ROWS_WAVENUMBER)
+      fprintf(f, ", first key slowest), %d redshifts x %d wavenumbers per point", s->n_z, s->n_k);
+    else fprintf(f, ", first key slowest), %d redshifts per point", s->n_z);
   }
   if (!LINE_END()) goto fail;
   for (int a = 0; a < s->grid.n_axes; a++) {
     if (LINE_BEGIN()) {
       fputs("scan vary: ", f);
       jg__scan_write_axis(f, &s->grid.axes[a]);
+    }
+    if (!LINE_END()) goto fail;
+    /* A table holds numbers: a word-valued key's column holds its word's number. */
+    const char *const *words = jg_params_key_words(s->grid.axes[a].key);
+    if (!words) continue;
+    if (LINE_BEGIN()) {
+      fprintf(f, "scan words: the column %s holds", s->grid.axes[a].key);
+      for (int w = 0; words[w]; w++) fprintf(f, "%s %d = %s", w ? "," : "", w, words[w]);
     }
     if (!LINE_END()) goto fail;
   }
@@ -57,9 +68,12 @@ static char **scan_header_lines(const jg_scan *s, int *n_out) {
     if (!LINE_END()) goto fail;
   }
   if (LINE_BEGIN()) {
-    fprintf(f, "scan evaluator: %s; columns: the varied keys, z, then per point:", ev->name);
+    fprintf(f, "scan evaluator: %s; columns: the varied keys, %sthen per point:", ev->name,
+            ev->rows == JG_SCAN_ROWS_POINT ? "" : "z, ");
     for (int i = 0; i < ev->n_point_columns; i++) fprintf(f, " %s", ev->point_columns[i]);
-    fputs("; per redshift:", f);
+    if (ev->rows != JG_SCAN_ROWS_POINT)
+      fputs(ev->rows == JG_SCAN_ROWS_WAVENUMBER ? "; per redshift and wavenumber:"
+                                                : "; per redshift:", f);
     for (int i = 0; i < ev->n_redshift_columns; i++) fprintf(f, " %s", ev->redshift_columns[i]);
   }
   if (!LINE_END()) goto fail;
@@ -87,6 +101,7 @@ jg_status jg_scan_write_table(const jg_scan *s, jg_scan_checkpoint *c, FILE *f, 
   if (c->done < s->count)
     return JG_FAIL(err, JG_EINVAL, "the scan is not finished: %lld of the %lld points of the "
                    "slice are missing", s->count - c->done, s->count);
+  const jg_scan_evaluator *ev = s->ev;
   int n_lines = 0;
   char **lines = scan_header_lines(s, &n_lines);
   double *values = malloc(sizeof(double) * (size_t)(s->n_values > 0 ? s->n_values : 1));
@@ -99,7 +114,12 @@ jg_status jg_scan_write_table(const jg_scan *s, jg_scan_checkpoint *c, FILE *f, 
     return JG_FAIL(err, JG_ENOMEM, "out of memory writing the scan table");
   }
   pthread_mutex_lock(&c->lock);
-  jg_table_write_preamble(f, "parameter scan, one row per grid point and output redshift",
+  jg_table_write_preamble(f,
+                          ev->rows == JG_SCAN_ROWS_POINT ? "parameter scan, one row per grid point"
+                          : ev->rows == JG_SCAN_ROWS_WAVENUMBER
+                              ? "parameter scan, one row per grid point, output redshift and "
+                                "wavenumber"
+                              : "parameter scan, one row per grid point and output redshift",
                           &s->base, (const char *const *)lines);
   fprintf(f, FAILED_COUNT_PREFIX "%lld\n", c->failed);
   jg_status st = JG_OK;
@@ -114,16 +134,17 @@ jg_status jg_scan_write_table(const jg_scan *s, jg_scan_checkpoint *c, FILE *f, 
     }
   }
   if (st == JG_OK) jg_table_write_columns(f, (const char *const *)s->columns, s->n_columns);
-  const jg_scan_evaluator *ev = s->ev;
   const int n_axes = s->grid.n_axes;
+  const int has_z = ev->rows != JG_SCAN_ROWS_POINT;
   for (long long i = s->first; st == JG_OK && i < s->first + s->count; i++) {
     st = jg__scan_fetch_record(c, i, &r, values, err);
     if (st != JG_OK || r.failed) continue;
     jg_scan_grid_values(&s->grid, i, row);
-    memcpy(row + n_axes + 1, values, sizeof(double) * (size_t)ev->n_point_columns);
-    for (int j = 0; st == JG_OK && j < s->n_z; j++) {
-      row[n_axes] = s->base.output.redshifts[j];
-      memcpy(row + n_axes + 1 + ev->n_point_columns,
+    memcpy(row + n_axes + has_z, values, sizeof(double) * (size_t)ev->n_point_columns);
+    /* Row j of the point: redshift j / n_k (n_k = 1 unless a row per wavenumber). */
+    for (int j = 0; st == JG_OK && j < s->rows_per_point; j++) {
+      if (has_z) row[n_axes] = s->base.output.redshifts[j / s->n_k];
+      memcpy(row + n_axes + has_z + ev->n_point_columns,
              values + ev->n_point_columns + (size_t)j * (size_t)ev->n_redshift_columns,
              sizeof(double) * (size_t)ev->n_redshift_columns);
       st = jg_table_write_row(f, row, s->n_columns, (const char *const *)s->columns, err);
@@ -222,7 +243,7 @@ static jg_status read_part(part_file *p, const char *path, jg_error *err) {
   st = jg_table_read_header(p->f, path, &lines, &n_lines, err);
   if (st != JG_OK) return st;
   long long expected_failures = -1;
-  int in_failures = 0, redshifts = 0;
+  int in_failures = 0, rows = 0;
   for (int k = 0; st == JG_OK && k + 1 < n_lines; k++) { /* the last is the column line */
     const char *line = lines[k];
     if (strncmp(line, "# " PART_PREFIX, strlen("# " PART_PREFIX)) == 0) {
@@ -234,8 +255,13 @@ static jg_status read_part(part_file *p, const char *path, jg_error *err) {
     if (strncmp(line, "# scan fingerprint: ", 20) == 0)
       snprintf(p->fingerprint, sizeof p->fingerprint, "%.16s", line + 20);
     if (strncmp(line, "# scan grid: ", 13) == 0) {
+      /* Rows per point, as the grid line states them (scan_header_lines). */
       const char *per = strstr(line, "), ");
-      if (per) redshifts = atoi(per + 3);
+      int n_z = 0, n_k = 0;
+      if (per && strncmp(per + 3, "one row per point", 17) == 0) rows = 1;
+      else if (per && sscanf(per + 3, "%d redshifts x %d wavenumbers", &n_z, &n_k) == 2)
+        rows = n_z * n_k;
+      else if (per) rows = atoi(per + 3);
     }
     if (strncmp(line, FAILED_COUNT_PREFIX, strlen(FAILED_COUNT_PREFIX)) == 0) {
       expected_failures = atoll(line + strlen(FAILED_COUNT_PREFIX));
@@ -271,11 +297,11 @@ static jg_status read_part(part_file *p, const char *path, jg_error *err) {
     return JG_FAIL(err, JG_EINVAL, "%s: lists %d failed points where its header announces %lld",
                    path, p->n_failures, expected_failures);
   long long points = p->last - p->first + 1;
-  if (redshifts > 0 && p->data_lines != (points - p->n_failures) * redshifts)
+  if (rows > 0 && p->data_lines != (points - p->n_failures) * rows)
     return JG_FAIL(err, JG_EINVAL, "%s: holds %lld rows where its %lld points (%d failed) with "
-                   "%d redshifts each make %lld; the file is incomplete or was edited", path,
-                   p->data_lines, points, p->n_failures, redshifts,
-                   (points - p->n_failures) * redshifts);
+                   "%d %s each make %lld; the file is incomplete or was edited", path,
+                   p->data_lines, points, p->n_failures, rows, rows == 1 ? "row" : "rows",
+                   (points - p->n_failures) * rows);
   if (fseeko(p->f, body, SEEK_SET) != 0)
     return JG_FAIL(err, JG_EIO, "%s: cannot read (%s)", path, strerror(errno));
   return JG_OK;

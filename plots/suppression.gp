@@ -1,0 +1,32 @@
+# delta_b/delta_c against wavenumber at each output redshift, from a
+# `growth` table, with k_F and k_1/2 of the `scales` table of the same run
+# marked (variable `scales`, default: scales.txt beside the table): k_1/2
+# where the curve reaches half its k -> 0 value, k_F at 1/e of it (where a
+# Gaussian filter exp(-k^2/k_F^2) puts it). Load plots/style.gp first.
+figure = "the suppression figure"
+needed_columns = "z k b_over_c"
+@need
+if (!exists("scales")) scales = table[1:strstrt(table, "growth.txt") > 0 ? strstrt(table, "growth.txt") - 1 : 0]."scales.txt"
+have_scales = system(sprintf("test -r '%s' && echo yes", scales)) eq "yes"
+if (have_scales) {
+  scales_columns = system(sprintf("awk '/^#/ { line = $0; next } { exit } END { print line }' '%s'", scales))
+  scol(stem) = sum [i = 2:words(scales_columns)] (stem_of(word(scales_columns, i)) eq stem ? i - 1 : 0)
+  do for [needed in "z k_F k_half half_found b_over_c_large"] {
+    if (scol(needed) == 0) { print sprintf("plots: %s has no column '%s' (needed for %s)", scales, needed, figure); exit status 1 }
+  }
+}
+zs = distinct(1)
+flags = col("flags")
+do for [fmt in formats] {
+  @start_figure
+  set logscale x
+  set xlabel sprintf("comoving wavenumber k [%s]", unit_of(col("k"))) noenhanced
+  set ylabel "{/Symbol d}_b / {/Symbol d}_c"
+  set title "Baryons behind the dark matter; marks: k_F (open), k_{1/2} (filled)"
+  set yrange [*:*]
+  set key title "z"
+  plot for [i = 1:words(zs)] table using 2:(at_z(1, real(word(zs, i)), column(col("b_over_c")))) with lines ls i title sprintf("%g", real(word(zs, i))), \
+       for [i = 1:(have_scales ? words(zs) : 0)] scales using (at_z(1, real(word(zs, i)), column(scol("k_half")))):(column(scol("half_found")) > 0 ? 0.5 * column(scol("b_over_c_large")) : NaN) with points ls i pt 7 ps 1.6 notitle, \
+       for [i = 1:(have_scales ? words(zs) : 0)] scales using (at_z(1, real(word(zs, i)), column(scol("k_F")) > 0 ? column(scol("k_F")) : NaN)):(exp(-1) * column(scol("b_over_c_large"))) with points ls i pt 6 ps 1.6 notitle, \
+       table using 2:(flags > 0 && column(flags) > 0 ? column(col("b_over_c")) : NaN) every 8 with points ls 20 title (flags > 0 ? "outside the stated validity (flags column)" : "")
+}

@@ -1,0 +1,241 @@
+/*
+ * Figures: gnuplot draws them from the tables, with the scripts of plots/
+ * compiled into the program (the shared style first, then the figure's
+ * script, on gnuplot's standard input). Each figure is drawn under a hidden
+ * name (.jgfig-PID-NAME) beside its table and renamed into place when
+ * gnuplot succeeded, so a figure is complete or absent, never half drawn.
+ */
+#include <dirent.h>
+#include <errno.h>
+#include <spawn.h>
+#include <stdint.h>
+#include <stdio.h>
+#include <stdlib.h>
+#include <string.h>
+#include <sys/stat.h>
+#include <sys/wait.h>
+#include <unistd.h>
+
+#include "cli.h"
+#include "figures.h"
+
+extern char **environ;
+
+#define GNUPLOT "gnuplot"
+#define TEMP_MARK ".jgfig-"
+#define PATH_SIZE 4352
+
+static const char *script_text(const char *name) {
+  for (int i = 0; i < cli_figure_script_count; i++)
+    if (strcmp(cli_figure_scripts[i].name, name) == 0) return cli_figure_scripts[i].text;
+  return NULL;
+}
+
+int cli_figures_available(void) {
+  const char *path = getenv("PATH");
+  if (!path) return 0;
+  char candidate[PATH_SIZE];
+  for (const char *p = path;; p++) {
+    const char *end = strchr(p, ':');
+    size_t n = end ? (size_t)(end - p) : strlen(p);
+    if (n > 0 && n + sizeof GNUPLOT + 1 < sizeof candidate) {
+      snprintf(candidate, sizeof candidate, "%.*s/" GNUPLOT, (int)n, p);
+      if (access(candidate, X_OK) == 0) return 1;
+    }
+    if (!end) return 0;
+    p = end;
+  }
+}
+
+void cli_figures_print_hint(FILE *f, const char *what) {
+  fprintf(f, "  figures: none (gnuplot is not installed; on Debian: apt-get install gnuplot-nox, "
+             "then jeansgrow plot %s)\n", what);
+}
+
+/* `name='value'` for gnuplot's -e, a quote in the value doubled as gnuplot
+ * reads it back. */
+static void append_variable(char *buf, size_t size, const char *name, const char *value) {
+  size_t used = strlen(buf);
+  used += (size_t)snprintf(buf + used, used < size ? size - used : 0, "%s='", name);
+  for (const char *c = value; *c && used + 4 < size; c++) {
+    if (*c == '\'') buf[used++] = '\'';
+    buf[used++] = *c;
+  }
+  if (used + 4 < size) {
+    memcpy(buf + used, "'; ", 4);
+  } else {
+    buf[size - 1] = '\0';
+  }
+}
+
+/* Run gnuplot with `variables` set on the style followed by `script`
+ * (gnuplot reads multi-line blocks from a file, not from a pipe); returns
+ * its exit status (-1 if it could not start). */
+static int run_gnuplot(const char *variables, const char *script) {
+  const char *tmpdir = getenv("TMPDIR");
+  char path[PATH_SIZE];
+  snprintf(path, sizeof path, "%s/jeansgrow-figure-XXXXXX", tmpdir && tmpdir[0] ? tmpdir : "/tmp");
+  int fd = mkstemp(path);
+  if (fd < 0) return -1;
+  FILE *f = fdopen(fd, "w");
+  int ok = f && fputs(script_text("style"), f) >= 0 && fputs("\n", f) >= 0 &&
+           fputs(script, f) >= 0;
+  if (f ? fclose(f) != 0 : close(fd) != 0) ok = 0;
+  pid_t pid;
+  /* posix_spawn takes char *const[]; it does not write to the strings. */
+  char program[] = GNUPLOT, set[] = "-e";
+  char *const argv[] = {program, set, (char *)(uintptr_t)variables, path, NULL};
+  int status = -1;
+  if (ok && posix_spawnp(&pid, GNUPLOT, NULL, NULL, argv, environ) == 0) {
+    int how;
+    while (waitpid(pid, &how, 0) < 0 && errno == EINTR) {
+    }
+    status = WIFEXITED(how) ? WEXITSTATUS(how) : -1;
+  }
+  unlink(path);
+  return status;
+}
+
+/* Rename (ok) or remove the files gnuplot wrote under `prefix` in `dir`. */
+static int settle_outputs(const char *dir, const char *prefix, int ok) {
+  DIR *d = opendir(dir);
+  if (!d) return 0;
+  int renamed = 0;
+  struct dirent *e;
+  const size_t n = strlen(prefix);
+  char from[PATH_SIZE], to[PATH_SIZE];
+  while ((e = readdir(d)) != NULL) {
+    if (strncmp(e->d_name, prefix, n) != 0) continue;
+    snprintf(from, sizeof from, "%s/%s", dir, e->d_name);
+    snprintf(to, sizeof to, "%s/%s", dir, e->d_name + n);
+    if (ok && rename(from, to) == 0) renamed++;
+    else unlink(from);
+  }
+  closedir(d);
+  return renamed;
+}
+
+/* Draw `script` from `table` into DIR/OUT_NAME.png and .svg (a scan script
+ * writes DIR/OUT_NAME_*.png and .svg); `more` holds further variables. */
+static int draw(const char *script, const char *table, const char *dir, const char *out_name,
+                const char *more) {
+  const char *text = script_text(script);
+  if (!text) return -1;
+  char prefix[64], out[PATH_SIZE], variables[3 * PATH_SIZE];
+  snprintf(prefix, sizeof prefix, TEMP_MARK "%ld-", (long)getpid());
+  snprintf(out, sizeof out, "%s/%s%s", dir, prefix, out_name);
+  variables[0] = '\0';
+  append_variable(variables, sizeof variables, "table", table);
+  append_variable(variables, sizeof variables, "out", out);
+  if (more) strncat(variables, more, sizeof variables - strlen(variables) - 1);
+  const int status = run_gnuplot(variables, text);
+  const int drawn = settle_outputs(dir, prefix, status == 0);
+  if (status == 0 && drawn > 0) return 1;
+  if (status < 0)
+    fprintf(stderr, "jeansgrow: figures: cannot run " GNUPLOT " for %s\n", table);
+  else
+    fprintf(stderr, "jeansgrow: figures: " GNUPLOT " could not draw %s from %s (exit status %d)\n",
+            out_name, table, status);
+  return -1;
+}
+
+static int readable(const char *path) { return access(path, R_OK) == 0; }
+
+int cli_figures_for_folder(const char *dir) {
+  static const struct {
+    const char *script, *table;
+  } figures[] = {{"history", "history.txt"},   {"masses", "scales.txt"},
+                 {"scales", "scales.txt"},     {"suppression", "growth.txt"},
+                 {"rates", "growth.txt"}};
+  int drawn = 0, failed = 0;
+  char table[PATH_SIZE], scales[PATH_SIZE], more[PATH_SIZE + 32];
+  snprintf(scales, sizeof scales, "%s/scales.txt", dir);
+  more[0] = '\0';
+  append_variable(more, sizeof more, "scales", scales);
+  for (size_t i = 0; i < sizeof figures / sizeof figures[0]; i++) {
+    snprintf(table, sizeof table, "%s/%s", dir, figures[i].table);
+    if (!readable(table)) continue;
+    const int r = draw(figures[i].script, table, dir, figures[i].script,
+                       strcmp(figures[i].table, "growth.txt") == 0 ? more : NULL);
+    if (r < 0) failed = 1;
+    else drawn += r;
+  }
+  return failed ? -1 : drawn;
+}
+
+/* The title of a table, from its first line "# jeansgrow VERSION: TITLE". */
+static int table_title(const char *path, char *title, size_t size) {
+  FILE *f = fopen(path, "r");
+  if (!f) return 0;
+  char line[512];
+  const int got = fgets(line, sizeof line, f) != NULL;
+  fclose(f);
+  const char *colon = got && strncmp(line, "# jeansgrow ", 12) == 0 ? strchr(line, ':') : NULL;
+  if (!colon) return 0;
+  snprintf(title, size, "%s", colon + 2);
+  title[strcspn(title, "\n")] = '\0';
+  return 1;
+}
+
+int cli_figures_for_table(const char *table) {
+  char title[512];
+  if (!table_title(table, title, sizeof title)) {
+    fprintf(stderr, "jeansgrow plot: %s is not a jeansgrow table\n", table);
+    return -1;
+  }
+  /* Beside the table, named after it. */
+  char dir[PATH_SIZE], stem[PATH_SIZE], name[PATH_SIZE + 32];
+  const char *slash = strrchr(table, '/');
+  snprintf(dir, sizeof dir, "%.*s", slash ? (int)(slash - table) : 1, slash ? table : ".");
+  if (slash == table) snprintf(dir, sizeof dir, "/");
+  snprintf(stem, sizeof stem, "%s", slash ? slash + 1 : table);
+  char *dot = strrchr(stem, '.');
+  if (dot && strcmp(dot, ".txt") == 0) *dot = '\0';
+  static const struct {
+    const char *title_start, *scripts[2];
+  } kinds[] = {{"ionisation and gas-temperature history", {"history", NULL}},
+               {"Jeans, filtering and half-suppression scales", {"masses", "scales"}},
+               {"linear growth by wavenumber", {"suppression", "rates"}},
+               {"parameter scan", {"scan", NULL}}};
+  for (size_t k = 0; k < sizeof kinds / sizeof kinds[0]; k++) {
+    if (strncmp(title, kinds[k].title_start, strlen(kinds[k].title_start)) != 0) continue;
+    int drawn = 0;
+    for (int s = 0; s < 2 && kinds[k].scripts[s]; s++) {
+      if (strcmp(kinds[k].scripts[s], "scan") == 0) snprintf(name, sizeof name, "%s", stem);
+      else snprintf(name, sizeof name, "%s_%s", stem, kinds[k].scripts[s]);
+      const int r = draw(kinds[k].scripts[s], table, dir, name, NULL);
+      if (r < 0) return -1;
+      drawn += r;
+    }
+    return drawn;
+  }
+  return 0;
+}
+
+int cmd_plot(const cli_command *cmd, int argc, char **argv) {
+  cli_options o;
+  int rc = cli_parse_options(cmd, argc, argv, &o);
+  if (rc >= 0) return rc;
+  if (o.n_overrides > 0) {
+    fprintf(stderr, "jeansgrow plot: --set has no meaning here (the tables hold their parameters)\n");
+    return EXIT_BAD_INPUT;
+  }
+  struct stat sb;
+  if (stat(o.param_path, &sb) != 0) {
+    fprintf(stderr, "jeansgrow plot: %s: %s\n", o.param_path, strerror(errno));
+    return EXIT_BAD_INPUT;
+  }
+  if (!cli_figures_available()) {
+    fprintf(stderr, "jeansgrow plot: gnuplot is not installed (on Debian: apt-get install "
+                    "gnuplot-nox)\n");
+    return EXIT_RUN_FAILED;
+  }
+  const int drawn = S_ISDIR(sb.st_mode) ? cli_figures_for_folder(o.param_path)
+                                        : cli_figures_for_table(o.param_path);
+  if (drawn < 0) return EXIT_RUN_FAILED;
+  if (drawn == 0) {
+    fprintf(stderr, "jeansgrow plot: %s holds no table that has a figure\n", o.param_path);
+    return EXIT_BAD_INPUT;
+  }
+  return EXIT_OK;
+}
