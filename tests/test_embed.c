@@ -393,8 +393,8 @@ Test(config, every_kind_of_value_is_set_by_key_with_the_loader_messages) {
   /* Refused values leave the object as it was, with the loader's words. */
   jg_params before = *p;
   cr_assert_eq(jg_config_set_text(c, "perturbations.sound_speed", "cold", &e), JG_ECONFIG);
-  cr_assert_str_eq(e.message, "perturbations.sound_speed must be one of fluctuating, isothermal "
-                              "or adiabatic (got \"cold\")");
+  cr_assert_str_eq(e.message, "perturbations.sound_speed must be one of fluctuating, isothermal, "
+                              "adiabatic or effective_gamma (got \"cold\")");
   cr_assert_eq(jg_config_set_list(c, "output.redshifts", (double[]){1.0, 2.0, 3.0}, -1, &e),
                JG_EINVAL);
   cr_assert_eq(jg_config_set_value(c, "cosmology.hubble", "0.7", &e), JG_ECONFIG);

@@ -597,7 +597,8 @@ static void expect_text_matches_range(const jg_param_doc *d, const jg_param_rang
   text = text ? text + strlen(", each ") : d->allowed;
   char left[64], op1[4], name[64], op2[4], right[64];
   if (sscanf(text, "%63s %3s %63s %3s %63[^ ,]", left, op1, name, op2, right) != 5) {
-    cr_expect(strstr(d->type, "one of") != NULL, "%s: allowed text '%s' not of the form A < x < B",
+    cr_expect(strstr(d->type, "one of") != NULL || strcmp(d->type, "boolean") == 0,
+              "%s: allowed text '%s' not of the form A < x < B",
               d->key, d->allowed);
     return;
   }
@@ -655,9 +656,12 @@ static const char *stage_refusal(const char *key, double value, jg_error *err) {
   jg_params_set_defaults(&loaded);
   jg_error_clear(err);
   int whole = strcmp(key, "perturbations.sound_speed") == 0 ||
-              strcmp(key, "perturbations.stepper") == 0;
+              strcmp(key, "perturbations.stepper") == 0 ||
+              strcmp(key, "perturbations.ionisation_perturbation") == 0;
   if (whole) {
     if (strcmp(key, "perturbations.stepper") == 0) loaded.perturbations.stepper = (int)value;
+    else if (strcmp(key, "perturbations.ionisation_perturbation") == 0)
+      loaded.perturbations.ionisation_perturbation = (int)value;
     else loaded.perturbations.sound_speed = (int)value;
   } else if (strcmp(key, "perturbations.k_values") == 0) {
     loaded.perturbations.n_k_values = 1;
@@ -740,11 +744,12 @@ Test(params, every_range_is_the_one_the_stages_check) {
     }
     expect_text_matches_range(d, &file);
     int is_word = strncmp(d->type, "one of", 6) == 0;
-    int whole = is_word || strcmp(d->type, "integer") == 0;
+    int is_boolean = strcmp(d->type, "boolean") == 0;
+    int whole = is_word || is_boolean || strcmp(d->type, "integer") == 0;
     double outside[2], inside[2];
     int n = probes(&file, whole, outside, inside);
     /* The loader's range, through a whole parameter set. */
-    for (int j = 0; j < n && !is_list && !is_word; j++) {
+    for (int j = 0; j < n && !is_list && !is_word && !is_boolean; j++) {
       jg_error err;
       char expected_start[160];
       snprintf(expected_start, sizeof expected_start, "%s must satisfy ", d->key);

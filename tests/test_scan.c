@@ -968,7 +968,7 @@ Test(scan, program_refuses_bad_grids_before_any_work) {
       {"perturbations.sound_speed=0:2:3", NULL,
        "jeansgrow: --vary perturbations.sound_speed=0:2:3: perturbations.sound_speed is "
        "word-valued: vary it over a list of its words, perturbations.sound_speed=[WORD1, WORD2, "
-       "...] (allowed: fluctuating, isothermal or adiabatic)\n"},
+       "...] (allowed: fluctuating, isothermal, adiabatic or effective_gamma)\n"},
       {"output.redshifts=10:20:2", NULL,
        "jeansgrow: --vary output.redshifts=10:20:2: output.redshifts is not a single number (its "
        "type: list of numbers); only number, integer and word-valued keys can be varied "
@@ -1502,7 +1502,8 @@ Test(scan, sound_speed_scan_equals_the_three_single_runs, .timeout = 120) {
   cr_expect(strstr(text, "# scan vary: perturbations.sound_speed = [fluctuating, isothermal, "
                          "adiabatic]\n"), "vary line");
   cr_expect(strstr(text, "# scan words: the column perturbations.sound_speed holds 0 = "
-                         "fluctuating, 1 = isothermal, 2 = adiabatic\n"), "words line");
+                         "fluctuating, 1 = isothermal, 2 = adiabatic, 3 = effective_gamma\n"),
+            "words line");
   const char *sets[] = {"perturbations.sound_speed=\"fluctuating\"",
                         "perturbations.sound_speed=\"isothermal\"",
                         "perturbations.sound_speed=\"adiabatic\""};

@@ -218,6 +218,10 @@ static int draw_all(rng *r, const sweep_options *o, double k_floor, drawn *d, ch
       set_text(d, key, "\"%s\"", words[rng_next(r) % (uint64_t)n]);
       continue;
     }
+    if (!strcmp(doc->type, "boolean")) {
+      set_text(d, key, "%s", rng_next(r) % 2 ? "true" : "false");
+      continue;
+    }
     if (!strcmp(key, "perturbations.initial_table") || !strcmp(key, "perturbations.k_values") ||
         !strcmp(key, "perturbations.initial_columns") ||
         !strcmp(key, "perturbations.initial_second_table") ||

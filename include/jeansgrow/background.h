@@ -60,6 +60,12 @@ double jg_background_omega_m_of_a(const jg_background *bg, double a);
 /* Hydrogen-nucleus number density, m^-3, and radiation temperature, K. */
 double jg_background_n_hydrogen(const jg_background *bg, double a);
 double jg_background_T_radiation(const jg_background *bg, double a);
+/* Mean molecular weight of the gas, the mass per free particle in units of
+ * the hydrogen-atom mass m_H, at x_e free electrons per hydrogen nucleus:
+ * mu = 1 / [(1 - Y)(1 + f_He + x_e)], with the true f_He of this background
+ * (the one definition every stage uses: thermal states, sound speeds, the
+ * perturbations' pressure). */
+double jg_background_mean_molecular_weight(const jg_background *bg, double x_e);
 /* Redshift of matter-radiation equality: 1 + z_eq = Omega_m / Omega_r. */
 double jg_background_z_equality(const jg_background *bg);
 

@@ -68,7 +68,10 @@ typedef struct jg_thermal_settings {
 typedef enum {
   JG_SOUND_SPEED_FLUCTUATING = 0, /* delta_T evolved (Naoz & Barkana 2005): scale dependent */
   JG_SOUND_SPEED_ISOTHERMAL = 1,  /* delta_T = 0: uniform, gamma = 1 */
-  JG_SOUND_SPEED_ADIABATIC = 2    /* delta_T = (2/3) delta_b: uniform, gamma = 5/3 */
+  JG_SOUND_SPEED_ADIABATIC = 2,   /* delta_T = (2/3) delta_b: uniform, gamma = 5/3 */
+  /* uniform, gamma_eff(z) = 1 - (1/3) d ln T_gas / d ln a of the stored
+   * history: the sound speed of large Boltzmann codes, for cross-checks */
+  JG_SOUND_SPEED_EFFECTIVE_GAMMA = 3
 } jg_sound_speed_model;
 
 /* How the perturbation equations are integrated. */
@@ -94,6 +97,10 @@ typedef struct jg_perturb_settings {
   double z_initial;      /* start of the integration */
   jg_sound_speed_model sound_speed;
   jg_perturb_stepper stepper;
+  /* 1: the fluctuating model evolves the perturbation of the free-electron
+   * fraction (delta_xe) and its feedback on delta_T and the pressure; 0: x_e
+   * unperturbed (the results of earlier versions) */
+  int ionisation_perturbation;
   double rel_tol;        /* relative tolerance of the integration */
   double abs_tol;        /* absolute tolerance (contrasts per unit initial CDM contrast) */
   /* Baryon start per wavenumber from a table (see jg_perturb_start_table in

@@ -17,11 +17,23 @@
  * The temperature equation is that of Naoz & Barkana (2005, MNRAS 362, 1047)
  * without photon perturbations.
  *
+ * With perturbations.ionisation_perturbation (fluctuating model on a real
+ * history) the free-electron fraction is perturbed too, delta_xe =
+ * delta x_e / x_e, from the linearised recombination rate (jg_ionisation_
+ * response in thermal.h, src/PHYSICS.md §7.1):
+ *   delta_xe' = -q_r delta_xe + q_b delta_b + q_T delta_T + q_v delta_b'
+ *   delta_T'  = (2/3) delta_b' - r delta_T + h_x delta_xe
+ * and the pressure term reads p k^2 (delta_b + delta_T + w_x delta_xe).
+ *
  * Sound-speed models (jg_sound_speed_model):
- *   fluctuating  delta_T evolved: state {delta_c, delta_c', delta_b, delta_b', delta_T};
+ *   fluctuating  delta_T evolved: state {delta_c, delta_c', delta_b, delta_b', delta_T
+ *                [, delta_xe]};
  *   isothermal   delta_T = 0 identically: delta_T is dropped from the state;
  *   adiabatic    delta_T = (2/3) delta_b identically: dropped from the state,
- *                the pressure term becomes (5/3) p k^2 delta_b.
+ *                the pressure term becomes (5/3) p k^2 delta_b;
+ *   effective_gamma  delta_T = (gamma_eff - 1) delta_b, gamma_eff(z) = 1 - (1/3)
+ *                d ln T_gas / d ln a of the stored history: the pressure term
+ *                is gamma_eff p k^2 delta_b (needs a thermal history).
  *
  * Initial conditions at z_initial: CDM on the growing mode of the Meszaros
  * (1974) equation in a radiation + matter background with the baryons not
@@ -85,6 +97,15 @@ typedef struct jg_medium_coefficients {
   double pressure;        /* p = (k_B T_gas/(mu m_H)) / (a H)^2, Mpc^2 (or test units^-2) */
   double drag;            /* d = nu_drag / H */
   double relaxation;      /* r = Gamma_C (T_rad / T_gas) / H */
+  /* Read only by the models that need a thermal history (the real-history
+   * medium fills them; a custom medium may leave them unset): */
+  double pressure_effective;    /* gamma_eff p ("effective_gamma" model) */
+  double ionisation_relaxation; /* the jg_ionisation_response terms (thermal.h) */
+  double ionisation_density;
+  double ionisation_temperature;
+  double ionisation_expansion;
+  double heating_ionisation;    /* coefficient of delta_xe in delta_T' */
+  double pressure_ionisation;   /* p x_e / (1 + f_He + x_e): pressure per unit delta_xe */
 } jg_medium_coefficients;
 
 /* Fill `out` at ln a; return 0 on success, non-zero if ln a is outside the
@@ -230,11 +251,12 @@ typedef struct jg_perturb_point {
   double delta_c;  /* per unit initial CDM contrast */
   double delta_b;
   double delta_m;  /* (1 - f_b) delta_c + f_b delta_b */
-  double delta_T;  /* 0 (isothermal), (2/3) delta_b (adiabatic), or evolved */
+  double delta_T;  /* 0 (isothermal), (gamma - 1) delta_b (uniform models), or evolved */
   double b_over_c; /* delta_b / delta_c */
   double growth_c; /* d ln delta / d ln a */
   double growth_b;
   double growth_m;
+  double delta_xe; /* delta x_e / x_e, evolved with the ionisation perturbation; else 0 */
 } jg_perturb_point;
 
 /* The large-scale limit and its k^2 coefficients at one redshift. */
@@ -244,6 +266,8 @@ typedef struct jg_perturb_limit {
   double dlnc_dk2;         /* d ln delta_c / d k^2 at k = 0 (baryon gravity feeds back) */
   double gh_inverse_kf2;   /* Gnedin-Hui integral 1/k_F^2 (Mpc^2), isothermal sound speed
                             * (gamma = 1); gamma = 5/3 multiplies it by 5/3 */
+  double gamma_uniform;    /* adiabatic index of a uniform model at this z (1, 5/3 or
+                            * gamma_eff); 0 for the fluctuating model */
 } jg_perturb_limit;
 
 /* Solve one wavenumber k (1/Mpc, or 0) from z_initial to every redshift of
@@ -287,7 +311,7 @@ typedef enum {
 } jg_perturb_system;
 
 /* Number of components of a system for this model's sound-speed model:
- * mode 5 (fluctuating) or 4; limit 11 or 10. */
+ * mode 6 (fluctuating with delta_xe), 5 (fluctuating) or 4; limit 6 more. */
 int jg_perturb_dimension(const jg_perturb_model *m, jg_perturb_system which);
 /* Right-hand side f = dy/d ln a and analytic Jacobian dfdy (row-major,
  * dimension^2) of a system at ln a, as the integrator sees them. The k^2

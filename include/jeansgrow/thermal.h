@@ -44,6 +44,11 @@ typedef struct jg_thermal_state {
   double T_rad;      /* K */
   double compton_rate; /* Gamma_C, s^-1 (the coefficient of T_rad - T_gas) */
   double mu;         /* mean molecular weight in units of m_H */
+  /* Effective adiabatic index of the uniform sound speed of large Boltzmann
+   * codes, c_s^2 = (k_B T_gas / (mu m_H)) (1 - (1/3) d ln T_gas / d ln a):
+   * 4/3 while the gas is locked to the radiation, 5/3 once it cools
+   * adiabatically (src/PHYSICS.md §7.2). */
+  double gamma_effective;
 } jg_thermal_state;
 
 /* Integrate the history for this background. Fails with JG_EINVAL for bad
@@ -62,6 +67,33 @@ void jg_thermal_state_at(const jg_thermal *th, double z, jg_thermal_state *s);
 /* Fast accessors for the perturbation right-hand sides, in ln a. */
 double jg_thermal_x_e(const jg_thermal *th, double ln_a);
 double jg_thermal_T_gas(const jg_thermal *th, double ln_a);
+
+/* d ln x_e / d ln a and d ln T_gas / d ln a at ln a (either pointer may be
+ * NULL): the derivatives of the stored splines, or a central difference of
+ * the equilibrium above the start redshift. */
+void jg_thermal_log_slopes(const jg_thermal *th, double ln_a, double *dlnxe_dlna,
+                           double *dlnT_dlna);
+
+/* How the free-electron fraction of a fluid element responds to its own
+ * density, temperature and expansion, linearised about the history at ln a
+ * (the Peebles / SSS rate of the recombination module; helium's electrons
+ * unperturbed), per Hubble time, for delta_xe = delta x_e / x_e:
+ *   delta_xe' = -relaxation delta_xe + density delta_b + temperature delta_T
+ *               + expansion delta_b'
+ * (' = d/d ln a; the local expansion rate is H (1 - delta_b'/3)), and what
+ * delta_xe does to the gas: the Compton term of delta_T' gains
+ * heating delta_xe, the pressure perturbation delta_b + delta_T gains
+ * pressure delta_xe (src/PHYSICS.md §7.1). */
+typedef struct jg_ionisation_response {
+  double relaxation;  /* -(1/H) d(dx_e/dt)/dx_e + d ln x_e / d ln a */
+  double density;     /* (1/(H x_e)) d(dx_e/dt)/d ln n_H */
+  double temperature; /* (1/(H x_e)) d(dx_e/dt)/d ln T_gas */
+  double expansion;   /* -(1/(3 H x_e)) d(dx_e/dt)/d ln H */
+  double heating;     /* (Gamma_C/H)(T_rad/T_gas - 1) d ln Gamma_C / d ln x_e */
+  double pressure;    /* -d ln mu / d ln x_e = x_e / (1 + f_He + x_e) */
+} jg_ionisation_response;
+void jg_thermal_ionisation_response(const jg_thermal *th, double ln_a,
+                                    jg_ionisation_response *out);
 
 /* Thomson optical depth from today back to z (no reionisation). */
 double jg_thermal_optical_depth(const jg_thermal *th, double z);

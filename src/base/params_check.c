@@ -197,6 +197,9 @@ static jg_status check_whole(const jg__locator *loc, const jg__param_spec *s, co
   if (s->kind == JG__KIND_CHOICE)
     return JG_FAIL(err, JG_ECONFIG, "%s%s must be one of %s (got choice number %.10g)", where,
                    name, s->doc.allowed, v);
+  if (s->kind == JG__KIND_BOOLEAN)
+    return JG_FAIL(err, JG_ECONFIG, "%s%s must be %s, stored as 0 or 1 (got %.10g)", where,
+                   name, s->doc.allowed, v);
   return JG_FAIL(err, JG_ECONFIG, "%s%s must satisfy %s (got %.10g)", where, name,
                  s->doc.allowed, v);
 }
@@ -209,6 +212,7 @@ static jg_status check_spec(const jg__locator *loc, const jg__param_spec *s, con
     return check_range(loc, s, s->doc.key, *jg__cnumber_at(p, s), for_stage, err);
   case JG__KIND_INTEGER:
   case JG__KIND_CHOICE:
+  case JG__KIND_BOOLEAN:
     return check_whole(loc, s, s->doc.key, *jg__cint_at(p, s->offset), err);
   case JG__KIND_TEXT:
   case JG__KIND_FILE: {

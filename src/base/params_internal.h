@@ -31,7 +31,9 @@ typedef enum {
   JG__KIND_TEXT,
   /* Text naming a file: a relative name written in a parameter file is taken
    * from that file's folder (one given with --set, from the current folder). */
-  JG__KIND_FILE
+  JG__KIND_FILE,
+  /* true or false, stored as the int 1 or 0 */
+  JG__KIND_BOOLEAN
 } jg__spec_kind;
 
 typedef struct jg__param_spec {

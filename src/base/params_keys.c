@@ -25,7 +25,8 @@
 #define INTEGER(key, field, def, allowed, lo, hi, meaning) \
   {{key, "integer", "", def, allowed, meaning}, JG__KIND_INTEGER, P_OFF(field), 0, 0, 0, 0, lo, hi, 0, 0, NULL, 0}
 
-static const char *const sound_speed_words[] = {"fluctuating", "isothermal", "adiabatic", NULL};
+static const char *const sound_speed_words[] = {"fluctuating", "isothermal", "adiabatic",
+                                                 "effective_gamma", NULL};
 static const char *const stepper_words[] = {"msbdf+rk8pd", "msbdf", "rosenbrock", NULL};
 static const char *const units_words[] = {"Mpc", "Mpc/h", NULL};
 static const char *const mass_radius_words[] = {"half_wavelength", "full_wavelength", NULL};
@@ -97,10 +98,18 @@ const jg__param_spec jg__param_specs[] = {
            "velocity, and above every output redshift", 0, 1, 1e5, 0,
            "redshift where the perturbations start: CDM on the Meszaros growing mode and "
            "baryons at rest, or as perturbations.initial_table gives them"),
-    {{"perturbations.sound_speed", "one of \"fluctuating\", \"isothermal\", \"adiabatic\"", "",
-      "\"fluctuating\"", "fluctuating, isothermal or adiabatic",
-      "gas pressure model: delta_T evolved (scale dependent), or uniform with gamma = 1 or 5/3"},
-     JG__KIND_CHOICE, P_OFF(perturbations.sound_speed), 0, 0, 0, 0, 0, 2, 0, 0, sound_speed_words, 0},
+    {{"perturbations.sound_speed",
+      "one of \"fluctuating\", \"isothermal\", \"adiabatic\", \"effective_gamma\"", "",
+      "\"fluctuating\"", "fluctuating, isothermal, adiabatic or effective_gamma",
+      "gas pressure model: delta_T evolved (scale dependent), or uniform with gamma = 1, 5/3 "
+      "or gamma_eff(z) = 1 - (1/3) d ln T_gas / d ln a (the uniform sound speed of large "
+      "Boltzmann codes)"},
+     JG__KIND_CHOICE, P_OFF(perturbations.sound_speed), 0, 0, 0, 0, 0, 3, 0, 0, sound_speed_words, 0},
+    {{"perturbations.ionisation_perturbation", "boolean", "", "true", "true or false",
+      "the fluctuating model also evolves the perturbation of the free-electron fraction "
+      "(faster recombination where the gas is denser), which feeds back on delta_T and the "
+      "pressure; false: x_e unperturbed, as in earlier versions"},
+     JG__KIND_BOOLEAN, P_OFF(perturbations.ionisation_perturbation), 0, 0, 0, 0, 0, 1, 0, 0, NULL, 0},
     {{"perturbations.stepper", "one of \"msbdf+rk8pd\", \"msbdf\", \"rosenbrock\"", "",
       "\"rosenbrock\"", "msbdf+rk8pd, msbdf or rosenbrock",
       "GSL steppers (the cross-check path): implicit msbdf while the drag and Compton rates "
@@ -338,6 +347,7 @@ void jg_params_set_defaults(jg_params *p) {
   p->perturbations.z_initial = 1.0e4;
   p->perturbations.sound_speed = JG_SOUND_SPEED_FLUCTUATING;
   p->perturbations.stepper = JG_PERTURB_STEPPER_ROSENBROCK;
+  p->perturbations.ionisation_perturbation = 1;
   p->perturbations.initial_table[0] = '\0';
   p->perturbations.initial_columns[0] = '\0';
   p->perturbations.initial_k_unit = JG_TABLE_K_PER_MPC;

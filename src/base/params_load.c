@@ -114,6 +114,12 @@ jg_status jg__read_setting(const char *where, const char *name, const jg__param_
     return JG_FAIL(err, JG_ECONFIG, "%s%s must be one of %s (got \"%s\")", where, name,
                    s->doc.allowed, word);
   }
+  case JG__KIND_BOOLEAN:
+    if (type != CONFIG_TYPE_BOOL)
+      return JG_FAIL(err, JG_ECONFIG, "%s%s must be true or false, unquoted (got %s)", where,
+                     name, jg__describe_value(set, got, sizeof got));
+    *(int *)at = config_setting_get_bool(set) ? 1 : 0;
+    return JG_OK;
   case JG__KIND_TEXT:
   case JG__KIND_FILE: {
     if (type != CONFIG_TYPE_STRING)
@@ -330,6 +336,9 @@ void jg_params_write_header(FILE *f, const jg_params *p) {
       break;
     case JG__KIND_CHOICE:
       fprintf(f, "\"%s\";\n", s->choices[*jg__cint_at(p, s->offset)]);
+      break;
+    case JG__KIND_BOOLEAN:
+      fprintf(f, "%s;\n", *jg__cint_at(p, s->offset) ? "true" : "false");
       break;
     case JG__KIND_TEXT:
     case JG__KIND_FILE: {

@@ -148,13 +148,16 @@ static void print_summary(const char *param_path, const char *dir, const jg_para
     seen_flags |= flags;
     printf("  %d\n", flags);
   }
+  static const char *const sound_speed_names[] = {"fluctuating", "isothermal", "adiabatic",
+                                                  "effective_gamma"};
   printf("  masses: (4 pi/3) rho_m R^3 with R = %s (output.mass_radius = \"%s\"); Jeans scale "
-         "isothermal; filtering scale from the solved perturbations; sound speed: %s\n",
+         "isothermal; filtering scale from the solved perturbations; sound speed: %s%s\n",
          full ? "2 pi/k, the full wavelength" : "pi/k, half the wavelength",
          full ? "full_wavelength" : "half_wavelength",
-         p->perturbations.sound_speed == JG_SOUND_SPEED_FLUCTUATING ? "fluctuating"
-         : p->perturbations.sound_speed == JG_SOUND_SPEED_ISOTHERMAL ? "isothermal"
-                                                                       : "adiabatic");
+         sound_speed_names[p->perturbations.sound_speed],
+         p->perturbations.sound_speed == JG_SOUND_SPEED_FLUCTUATING
+             ? (p->perturbations.ionisation_perturbation ? " with delta_xe" : " without delta_xe")
+             : "");
   if (seen_flags & JG_FLAG_GAS_NOT_STARTED)
     printf("  flags 1: the gas has barely started (k -> 0 delta_b/delta_c < %g): k_F, k_half "
            "and their masses describe a perturbation not yet there\n", JG_VALIDITY_GAS_STARTED);

@@ -20,8 +20,8 @@ static const cli_command commands[] = {
     {"history", "Ionisation and gas-temperature history from the start redshift to output.history_z_min",
      "PARAMFILE [--set KEY=VALUE]... [-o FILE]",
      "Columns: z, x_e, x_HII, x_HeII, x_HeIII, T_gas[K], T_rad[K], mu, compton_rate[1/s],\n"
-     "H[km/s/Mpc], tau, visibility, tau_drag (see the README). Rows uniform in ln(1+z),\n"
-     "output.history_rows of them, plus every output.redshifts value exactly.",
+     "H[km/s/Mpc], tau, visibility, tau_drag, gamma_eff (see the README). Rows uniform in\n"
+     "ln(1+z), output.history_rows of them, plus every output.redshifts value exactly.",
      1, cmd_history},
     {"epochs", "Derived epochs: decoupling, drag, sound horizons, equality, age, gas decoupling",
      "PARAMFILE [--set KEY=VALUE]... [-o FILE]",

@@ -106,6 +106,13 @@ double jg_background_T_radiation(const jg_background *bg, double a) {
   return bg->cosmology.cmb_temperature_K / a;
 }
 
+/* rho_b = n_H m_H / (1 - Y) (the masses counted in atoms, as n_H0 is) over
+ * n_H (1 + f_He + x_e) particles: nuclei of both kinds and free electrons. */
+double jg_background_mean_molecular_weight(const jg_background *bg, double x_e) {
+  return 1.0 / ((1.0 - bg->cosmology.helium_mass_fraction) *
+                (1.0 + bg->helium_to_hydrogen + x_e));
+}
+
 double jg_background_z_equality(const jg_background *bg) {
   return bg->omega_m / bg->omega_r - 1.0;
 }

@@ -35,7 +35,3 @@ double jg__gas_temperature_quasi_static(double T_rad, double hubble, double comp
 double jg__gas_temperature_dlna(double T_gas, double T_rad, double hubble, double compton_rate) {
   return -2.0 * T_gas + compton_rate / hubble * (T_rad - T_gas);
 }
-
-double jg__mean_molecular_weight(double helium_mass_fraction, double x_e) {
-  return 1.0 / ((1.0 - helium_mass_fraction) * (1.0 + x_e) + 0.25 * helium_mass_fraction);
-}

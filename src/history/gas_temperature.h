@@ -19,7 +19,4 @@ double jg__gas_temperature_quasi_static(double T_rad, double hubble, double comp
  * written where the Jacobian is built). */
 double jg__gas_temperature_dlna(double T_gas, double T_rad, double hubble, double compton_rate);
 
-/* Mean molecular weight in units of m_H, 1 / [(1 - Y)(1 + x_e) + Y/4]. */
-double jg__mean_molecular_weight(double helium_mass_fraction, double x_e);
-
 #endif

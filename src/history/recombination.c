@@ -255,4 +255,8 @@ void jg__peebles_rate_at(double x_p, double x_e, double dxe_dxp, double T_gas, d
   const double dB_dxp = alpha * n_H * (x_e + x_p * dxe_dxp) + beta_boltz;
   out->d_dxp = -dC_dxp * B - C * dB_dxp;
   out->d_dTgas = -C * case_b_slope(alpha, c_td_gas, T_gas) * n_H * x_e * x_p;
+  /* u = K n_H (1 - x_p) is proportional to n_H / H, and dC/du = -beta / denom^2. */
+  const double dC_dlnu = -beta * u / (denom * denom);
+  out->d_dlnnH = -dC_dlnu * B - C * alpha * n_H * x_e * x_p;
+  out->d_dlnH = dC_dlnu * B;
 }

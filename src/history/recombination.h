@@ -40,9 +40,12 @@ int jg__electrons_given_hydrogen(const jg_background *bg, double T_rad, double n
                                  double *x_e, double *dxe_dxp);
 
 /* The Peebles / Seager-Sasselov-Scott rate d x_p / dt (s^-1) and its
- * partial derivatives with respect to x_p (with x_e following) and T_gas. */
+ * partial derivatives with respect to x_p (with x_e following), T_gas, and
+ * (for the perturbed recombination) ln n_H and ln H at fixed fractions: a
+ * denser gas recombines faster, and a slower local expansion H traps more
+ * Lyman-alpha photons (C depends on n_H (1 - x_p) / H). */
 typedef struct jg__peebles_rate {
-  double dxp_dt, d_dxp, d_dTgas;
+  double dxp_dt, d_dxp, d_dTgas, d_dlnnH, d_dlnH;
 } jg__peebles_rate;
 void jg__peebles_rate_at(double x_p, double x_e, double dxe_dxp, double T_gas, double T_rad,
                          double n_H, double hubble, double fudge, jg__peebles_rate *out);

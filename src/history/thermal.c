@@ -608,6 +608,27 @@ double jg_thermal_x_e(const jg_thermal *th, double ln_a) { return stored_or_earl
 
 double jg_thermal_T_gas(const jg_thermal *th, double ln_a) { return stored_or_early(th, ln_a, 1); }
 
+/* Step of the central difference of the equilibrium above the stored grid:
+ * its error, ~ h^2/6 times the third derivative of ln T_gas or ln x_e (order
+ * one there), is ~ 2e-9. */
+#define THERMAL_EARLY_SLOPE_STEP 1.0e-4
+
+void jg_thermal_log_slopes(const jg_thermal *th, double ln_a, double *dlnxe_dlna,
+                           double *dlnT_dlna) {
+  if (ln_a < th->ln_a_start) {
+    double xe[2], xp, T[2];
+    for (int i = 0; i < 2; i++)
+      early_state(th, exp(ln_a + (i ? 1.0 : -1.0) * THERMAL_EARLY_SLOPE_STEP), &xe[i], &xp, &T[i]);
+    const double s = 0.5 / THERMAL_EARLY_SLOPE_STEP;
+    if (dlnxe_dlna) *dlnxe_dlna = (log(xe[1]) - log(xe[0])) * s;
+    if (dlnT_dlna) *dlnT_dlna = (log(T[1]) - log(T[0])) * s;
+    return;
+  }
+  ln_a = clamp_ln_a(ln_a);
+  if (dlnxe_dlna) *dlnxe_dlna = gsl_spline_eval_deriv(th->ln_xe, ln_a, NULL);
+  if (dlnT_dlna) *dlnT_dlna = gsl_spline_eval_deriv(th->ln_Tgas, ln_a, NULL);
+}
+
 void jg_thermal_state_at(const jg_thermal *th, double z, jg_thermal_state *s) {
   const jg_background *bg = th->bg;
   double ln_a = -log1p(z), a = exp(ln_a);
@@ -627,7 +648,33 @@ void jg_thermal_state_at(const jg_thermal *th, double z, jg_thermal_state *s) {
   s->x_HeII = he.x_HeII;
   s->x_HeIII = he.x_HeIII;
   s->compton_rate = jg__compton_rate(bg, s->T_rad, s->x_e);
-  s->mu = jg__mean_molecular_weight(bg->cosmology.helium_mass_fraction, s->x_e);
+  s->mu = jg_background_mean_molecular_weight(bg, s->x_e);
+  double dlnT_dlna;
+  jg_thermal_log_slopes(th, -log1p(z), NULL, &dlnT_dlna);
+  s->gamma_effective = 1.0 - dlnT_dlna / 3.0;
+}
+
+void jg_thermal_ionisation_response(const jg_thermal *th, double ln_a,
+                                    jg_ionisation_response *out) {
+  const jg_background *bg = th->bg;
+  const double a = exp(ln_a);
+  jg_thermal_state s;
+  jg_thermal_state_at(th, expm1(-ln_a), &s);
+  const double n_H = jg_background_n_hydrogen(bg, a), H = jg_background_hubble(bg, a);
+  double dlnxe_dlna;
+  jg_thermal_log_slopes(th, ln_a, &dlnxe_dlna, NULL);
+  /* dxe_dxp = 1: a change of x_p moves x_e by as much (helium unperturbed). */
+  jg__peebles_rate rate;
+  jg__peebles_rate_at(s.x_p, s.x_e, 1.0, s.T_gas, s.T_rad, n_H, H,
+                      th->settings.recombination_fudge, &rate);
+  const double per_x = 1.0 / (H * s.x_e);
+  out->relaxation = -rate.d_dxp / H + dlnxe_dlna;
+  out->density = rate.d_dlnnH * per_x;
+  out->temperature = s.T_gas * rate.d_dTgas * per_x;
+  out->expansion = -rate.d_dlnH * per_x / 3.0;
+  out->heating = jg__compton_rate_dxe(bg, s.T_rad, s.x_e) * s.x_e / H * (s.T_rad - s.T_gas) /
+                 s.T_gas;
+  out->pressure = (1.0 - bg->cosmology.helium_mass_fraction) * s.mu * s.x_e;
 }
 
 /* d tau / d ln a (per unit ln a, positive). */

@@ -10,6 +10,14 @@
 
 #include "jeansgrow/constants.h"
 #include "perturb_internal.h"
+
+/* The relaxation rate q_r of delta_xe reaches 1e20 per e-fold while
+ * hydrogen is in Saha equilibrium; GSL's msbdf fails on such a rate at tight
+ * tolerances. It is capped smoothly, times cap / (q_r + cap), with the source
+ * terms scaled alike: the quasi-equilibrium delta_xe is unchanged and only
+ * its lag behind the sources, ~ 1/q_r e-folds, grows, to at most 1e-6
+ * e-folds (measured effect: src/PHYSICS.md §9). */
+#define PT_XE_RELAX_CAP 1.0e6
 #include "../base/alloc.h" /* last: test builds route allocations through it */
 
 /* exp(v) for the small v of one table interval: the rates are
@@ -41,6 +49,17 @@ int jg__pt_thermal_medium_eval(const void *ctx, double ln_a, jg_medium_coefficie
   out->dlnH_dlna = c[12] + u * (c[13] + u * (c[14] + u * c[15]));
   out->gravity = c[16] + u * (c[17] + u * (c[18] + u * c[19]));
   out->baryon_fraction = tm->bg->baryon_fraction;
+#define PT_VALUE(q) (c[4 * (q)] + u * (c[4 * (q) + 1] + u * (c[4 * (q) + 2] + u * c[4 * (q) + 3])))
+  if (tm->effective_gamma) out->pressure_effective = PT_VALUE(Q_GAMMA_EFF) * out->pressure;
+  if (tm->ionisation) {
+    out->ionisation_relaxation = sinh(PT_VALUE(Q_XE_RELAX));
+    out->ionisation_density = sinh(PT_VALUE(Q_XE_DENSITY));
+    out->ionisation_temperature = sinh(PT_VALUE(Q_XE_TEMPERATURE));
+    out->ionisation_expansion = sinh(PT_VALUE(Q_XE_EXPANSION));
+    out->heating_ionisation = PT_VALUE(Q_XE_HEATING) * out->relaxation;
+    out->pressure_ionisation = PT_VALUE(Q_XE_PRESSURE) * out->pressure;
+  }
+#undef PT_VALUE
   return 0;
 }
 
@@ -60,6 +79,26 @@ void jg__pt_thermal_medium_slope(const thermal_medium *tm, double ln_a,
   dc->relaxation = c->relaxation * PT_SLOPE(8);
   dc->dlnH_dlna = PT_SLOPE(12);
   dc->gravity = PT_SLOPE(16);
+  /* The optional coefficients are products of a tabulated ratio and a
+   * rate: the product rule, with the ratio from its polynomial. */
+#define PT_VALUE(o) (q[(o)] + u * (q[(o) + 1] + u * (q[(o) + 2] + u * q[(o) + 3])))
+  if (tm->effective_gamma) {
+    const double g = PT_VALUE(4 * Q_GAMMA_EFF);
+    dc->pressure_effective = PT_SLOPE(4 * Q_GAMMA_EFF) * c->pressure + g * dc->pressure;
+  }
+  if (tm->ionisation) {
+    /* asinh-tabulated: d sinh(v)/dx = cosh(v) dv/dx. */
+    dc->ionisation_relaxation = cosh(PT_VALUE(4 * Q_XE_RELAX)) * PT_SLOPE(4 * Q_XE_RELAX);
+    dc->ionisation_density = cosh(PT_VALUE(4 * Q_XE_DENSITY)) * PT_SLOPE(4 * Q_XE_DENSITY);
+    dc->ionisation_temperature =
+        cosh(PT_VALUE(4 * Q_XE_TEMPERATURE)) * PT_SLOPE(4 * Q_XE_TEMPERATURE);
+    dc->ionisation_expansion = cosh(PT_VALUE(4 * Q_XE_EXPANSION)) * PT_SLOPE(4 * Q_XE_EXPANSION);
+    dc->heating_ionisation = PT_SLOPE(4 * Q_XE_HEATING) * c->relaxation +
+                             PT_VALUE(4 * Q_XE_HEATING) * dc->relaxation;
+    dc->pressure_ionisation = PT_SLOPE(4 * Q_XE_PRESSURE) * c->pressure +
+                              PT_VALUE(4 * Q_XE_PRESSURE) * dc->pressure;
+  }
+#undef PT_VALUE
 #undef PT_SLOPE
   dc->baryon_fraction = c->baryon_fraction;
 }
@@ -71,8 +110,10 @@ void jg__pt_thermal_medium_free(thermal_medium *tm) {
   free(tm);
 }
 
-/* The five coefficients, from the thermal history at one node. */
-static void thermal_coefficients(const jg_thermal *th, double x, double q[N_Q]) {
+/* The tabulated quantities, from the thermal history at one node (the
+ * optional ones only if the medium tabulates them, 0 otherwise). */
+static void thermal_coefficients(const jg_thermal *th, const thermal_medium *tm, double x,
+                                 double q[N_Q]) {
   const jg_background *bg = jg_thermal_background(th);
   double a = exp(x);
   jg_thermal_state s;
@@ -87,15 +128,35 @@ static void thermal_coefficients(const jg_thermal *th, double x, double q[N_Q]) 
   q[Q_RELAX] = s.compton_rate * (s.T_rad / s.T_gas) / H;
   q[Q_EXPANSION] = jg_background_dlnH_dlna(bg, a);
   q[Q_GRAVITY] = 1.5 * jg_background_omega_m_of_a(bg, a);
+  for (int k = Q_GAMMA_EFF; k < N_Q; k++) q[k] = 0.0;
+  if (tm->effective_gamma) q[Q_GAMMA_EFF] = s.gamma_effective;
+  if (tm->ionisation) {
+    jg_ionisation_response ir;
+    jg_thermal_ionisation_response(th, x, &ir);
+    /* q_r turns negative where x_e (helium's electrons included) falls
+     * faster than hydrogen relaxes, and q_b, q_T, q_v change sign too: all
+     * four are tabulated as asinh, logarithmic in size, linear through 0. */
+    const double cap =
+        ir.relaxation > 0.0 ? PT_XE_RELAX_CAP / (ir.relaxation + PT_XE_RELAX_CAP) : 1.0;
+    q[Q_XE_RELAX] = asinh(cap * ir.relaxation);
+    q[Q_XE_DENSITY] = asinh(cap * ir.density);
+    q[Q_XE_TEMPERATURE] = asinh(cap * ir.temperature);
+    q[Q_XE_EXPANSION] = asinh(cap * ir.expansion);
+    q[Q_XE_HEATING] = ir.heating / q[Q_RELAX];
+    q[Q_XE_PRESSURE] = ir.pressure;
+  }
 }
 
-thermal_medium *jg__pt_thermal_medium_new(const jg_thermal *th, double x_first, jg_error *err) {
+thermal_medium *jg__pt_thermal_medium_new(const jg_thermal *th, double x_first,
+                                          int effective_gamma, int ionisation, jg_error *err) {
   thermal_medium *tm = calloc(1, sizeof *tm);
   if (!tm) {
     JG_FAIL(err, JG_ENOMEM, "perturbations: out of memory for the coefficient tables");
     return NULL;
   }
   tm->bg = jg_thermal_background(th);
+  tm->effective_gamma = effective_gamma;
+  tm->ionisation = ionisation;
   tm->dx = 1.0 / PT_NODES_PER_EFOLD;
   tm->inv_dx = PT_NODES_PER_EFOLD;
   tm->n = (int)ceil(-x_first * PT_NODES_PER_EFOLD) + PT_MARGIN_NODES + 1;
@@ -113,10 +174,11 @@ thermal_medium *jg__pt_thermal_medium_new(const jg_thermal *th, double x_first, 
     for (int i = 0; i < n; i++) {
       x[i] = i == n - 1 ? 0.0 : tm->x0 + i * tm->dx;
       double q[N_Q];
-      thermal_coefficients(th, x[i], q);
+      thermal_coefficients(th, tm, x[i], q);
       for (int k = 0; k < N_Q; k++) {
         /* The rates p, d, r (power laws in a over decades) by their
-         * logarithms; e (negative) and g (between 0 and 3/2) as they are. */
+         * logarithms; e (negative), g (between 0 and 3/2) and the rest as
+         * thermal_coefficients gives them. */
         const int logarithmic = k < Q_EXPANSION;
         if (!isfinite(q[k]) || (logarithmic && !(q[k] > 0.0))) {
           st = JG_FAIL(err, JG_ENUMERIC,

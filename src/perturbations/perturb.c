@@ -112,7 +112,8 @@ static jg_status check_settings(const jg_perturb_settings *s, jg_error *err) {
   } keys[] = {{"perturbations.rel_tol", s->rel_tol},
               {"perturbations.abs_tol", s->abs_tol},
               {"perturbations.sound_speed", (double)(int)s->sound_speed},
-              {"perturbations.stepper", (double)(int)s->stepper}};
+              {"perturbations.stepper", (double)(int)s->stepper},
+              {"perturbations.ionisation_perturbation", (double)s->ionisation_perturbation}};
   for (size_t i = 0; i < sizeof keys / sizeof keys[0]; i++) {
     jg_status st = jg_params_check_value(keys[i].key, keys[i].value, err);
     if (st != JG_OK) return st;
@@ -136,7 +137,8 @@ static double explicit_start(const jg_perturb_model *m) {
     double x = fmin(m->x_init + i * PT_SWITCH_SEARCH_STEP, md->ln_a_max);
     jg_medium_coefficients c;
     if (md->eval(md->ctx, x, &c) != 0) return INFINITY; /* undefined: stay implicit */
-    if (!(c.drag < PT_EXPLICIT_RATE && c.relaxation < PT_EXPLICIT_RATE))
+    if (!(c.drag < PT_EXPLICIT_RATE && c.relaxation < PT_EXPLICIT_RATE) ||
+        (m->ionisation && !(c.ionisation_relaxation < PT_EXPLICIT_RATE)))
       start = fmin(x + PT_SWITCH_SEARCH_STEP, md->ln_a_max);
   }
   return start;
@@ -160,11 +162,13 @@ static jg_perturb_start_table *read_start_table(const jg_perturb_settings *s,
     return NULL;
   }
   if (s->sound_speed != JG_SOUND_SPEED_FLUCTUATING && jg_perturb_start_table_has_temperature(t)) {
+    static const char *const fixed[] = {"fluctuating", "isothermal", "adiabatic",
+                                        "effective_gamma"};
     JG_FAIL(err, JG_ECONFIG,
             "perturbations.initial_table: %s has a gas-temperature column, but "
             "perturbations.sound_speed = \"%s\" fixes delta_T (drop the column or use "
             "\"fluctuating\")",
-            path, s->sound_speed == JG_SOUND_SPEED_ADIABATIC ? "adiabatic" : "isothermal");
+            path, fixed[s->sound_speed]);
     jg_perturb_start_table_free(t);
     return NULL;
   }
@@ -253,7 +257,7 @@ static jg_perturb_model *model_finish(jg_perturb_model *m, jg_error *err) {
   }
   m->fluctuating = m->settings.sound_speed == JG_SOUND_SPEED_FLUCTUATING;
   m->gamma = m->settings.sound_speed == JG_SOUND_SPEED_ADIABATIC ? 5.0 / 3.0 : 1.0;
-  m->dim_mode = m->fluctuating ? 5 : 4;
+  m->dim_mode = m->fluctuating ? (m->ionisation ? 6 : 5) : 4;
   m->dim_limit = m->dim_mode + 6;
 
   jg_medium_coefficients c;
@@ -325,11 +329,19 @@ jg_perturb_model *jg_perturb_model_new_medium(const jg_medium *medium,
             medium->a_equality);
     return NULL;
   }
+  if (s->sound_speed == JG_SOUND_SPEED_EFFECTIVE_GAMMA) {
+    JG_FAIL(err, JG_EINVAL,
+            "perturbations.sound_speed = \"effective_gamma\" takes gamma_eff from a thermal "
+            "history; a custom medium has none");
+    return NULL;
+  }
   jg_perturb_model *m = calloc(1, sizeof *m);
   if (!m) {
     JG_FAIL(err, JG_ENOMEM, "perturbations: out of memory for the model");
     return NULL;
   }
+  /* A custom medium has no ionisation coefficients: delta_xe is a property
+   * of the real history. */
   m->medium = *medium;
   m->settings = *s;
   if (start) m->start = *start;
@@ -356,8 +368,10 @@ jg_perturb_model *jg_perturb_model_new(const jg_thermal *th, const jg_perturb_se
   if (start) m->start = *start;
   m->start_given = start != NULL;
   m->th = th;
+  m->effective_gamma = s->sound_speed == JG_SOUND_SPEED_EFFECTIVE_GAMMA;
+  m->ionisation = s->sound_speed == JG_SOUND_SPEED_FLUCTUATING && s->ionisation_perturbation;
   const double x_init = -log1p(s->z_initial);
-  m->owned = jg__pt_thermal_medium_new(th, x_init, err);
+  m->owned = jg__pt_thermal_medium_new(th, x_init, m->effective_gamma, m->ionisation, err);
   if (!m->owned) {
     free(m);
     return NULL;
@@ -455,9 +469,19 @@ static void rhs_mode(const jg_perturb_model *m, const jg_medium_coefficients *c,
   f[M_C] = y[M_CP];
   f[M_CP] = -hubble_drag * y[M_CP] + gravity;
   f[M_B] = y[M_BP];
+  if (m->effective_gamma) {
+    f[M_BP] = -(hubble_drag + c->drag) * y[M_BP] + gravity - c->pressure_effective * k2 * y[M_B];
+    return;
+  }
   double pressure_source = m->fluctuating ? y[M_B] + y[M_T] : m->gamma * y[M_B];
   f[M_BP] = -(hubble_drag + c->drag) * y[M_BP] + gravity - c->pressure * k2 * pressure_source;
   if (m->fluctuating) f[M_T] = (2.0 / 3.0) * y[M_BP] - c->relaxation * y[M_T];
+  if (m->ionisation) {
+    f[M_BP] -= c->pressure_ionisation * k2 * y[M_X];
+    f[M_T] += c->heating_ionisation * y[M_X];
+    f[M_X] = -c->ionisation_relaxation * y[M_X] + c->ionisation_density * y[M_B] +
+             c->ionisation_temperature * y[M_T] + c->ionisation_expansion * y[M_BP];
+  }
 }
 
 void jg__pt_jac_mode(const jg_perturb_model *m, const jg_medium_coefficients *c, double k2,
@@ -472,20 +496,30 @@ void jg__pt_jac_mode(const jg_perturb_model *m, const jg_medium_coefficients *c,
   JA(M_CP, M_B) = c->gravity * fb;
   JA(M_B, M_BP) = 1.0;
   JA(M_BP, M_C) = c->gravity * fc;
-  JA(M_BP, M_B) = c->gravity * fb - pk2 * (m->fluctuating ? 1.0 : m->gamma);
+  JA(M_BP, M_B) = m->effective_gamma ? c->gravity * fb - c->pressure_effective * k2
+                                     : c->gravity * fb - pk2 * (m->fluctuating ? 1.0 : m->gamma);
   JA(M_BP, M_BP) = -(hd + c->drag);
   if (m->fluctuating) {
     JA(M_BP, M_T) = -pk2;
     JA(M_T, M_BP) = 2.0 / 3.0;
     JA(M_T, M_T) = -c->relaxation;
   }
+  if (m->ionisation) {
+    JA(M_BP, M_X) = -c->pressure_ionisation * k2;
+    JA(M_T, M_X) = c->heating_ionisation;
+    JA(M_X, M_B) = c->ionisation_density;
+    JA(M_X, M_BP) = c->ionisation_expansion;
+    JA(M_X, M_T) = c->ionisation_temperature;
+    JA(M_X, M_X) = -c->ionisation_relaxation;
+  }
 #undef JA
 }
 
 /* Limit system: [k = 0 mode | K^2 d/dk^2 of delta_c, delta_c', delta_b, delta_b'
  * | K^2 J, K^2 J']. The k^2 derivative obeys the k = 0 equations plus the
- * source -p (delta_b + delta_T) of the k = 0 solution; the temperature
- * derivative is not needed at first order. */
+ * source -p (delta_b + delta_T [+ w_x delta_xe]) of the k = 0 solution (with
+ * the model's gamma p for the uniform ones); the derivatives of delta_T and
+ * delta_xe are not needed at first order. */
 static void rhs_limit(const jg_perturb_model *m, const jg_medium_coefficients *c,
                       const double *y, double *f) {
   const int u = m->dim_mode, j = u + 4;
@@ -497,7 +531,10 @@ static void rhs_limit(const jg_perturb_model *m, const jg_medium_coefficients *c
   f[u + 0] = y[u + 1];
   f[u + 1] = -hd * y[u + 1] + gravity1;
   f[u + 2] = y[u + 3];
-  f[u + 3] = -(hd + c->drag) * y[u + 3] + gravity1 - pK2 * pressure_source0;
+  const double pressure0 = m->effective_gamma ? c->pressure_effective * m->k_ref2 * y[M_B]
+                                               : pK2 * pressure_source0;
+  f[u + 3] = -(hd + c->drag) * y[u + 3] + gravity1 - pressure0;
+  if (m->ionisation) f[u + 3] -= c->pressure_ionisation * m->k_ref2 * y[M_X];
   /* Gnedin-Hui: J'' + (2 + e) J' = p D with D the total-matter contrast and
    * the isothermal sound speed. */
   const double D = fc * y[M_C] + fb * y[M_B];
@@ -520,8 +557,10 @@ void jg__pt_jac_limit(const jg_perturb_model *m, const jg_medium_coefficients *c
   JA(u + 3, u + 0) = c->gravity * fc;
   JA(u + 3, u + 2) = c->gravity * fb;
   JA(u + 3, u + 3) = -(hd + c->drag);
-  JA(u + 3, M_B) = -pK2 * (m->fluctuating ? 1.0 : m->gamma);
+  JA(u + 3, M_B) = m->effective_gamma ? -c->pressure_effective * m->k_ref2
+                                      : -pK2 * (m->fluctuating ? 1.0 : m->gamma);
   if (m->fluctuating) JA(u + 3, M_T) = -pK2;
+  if (m->ionisation) JA(u + 3, M_X) = -c->pressure_ionisation * m->k_ref2;
   JA(j + 0, j + 1) = 1.0;
   JA(j + 1, j + 1) = -hd;
   JA(j + 1, M_C) = pK2 * fc;
@@ -688,9 +727,31 @@ void jg__pt_initial_mode(const jg_perturb_model *m, const jg_perturb_start *star
   y[M_B] = start->density_ratio;
   y[M_BP] = start->velocity_ratio * cdm_rate;
   if (m->fluctuating) y[M_T] = start->temperature_ratio;
+  /* delta_xe starts in its quasi-equilibrium with the other components
+   * (d delta_xe / d ln a = 0). At our own start it would relax there within
+   * a tiny fraction of an e-fold anyway (q_r ~ 1e20 at z = 1e4); a start
+   * from another code's state near z = 1000, where q_r is far smaller,
+   * would otherwise carry the transient of a zero start into the results. */
+  if (m->ionisation) {
+    jg_medium_coefficients c;
+    y[M_X] = 0.0;
+    if (m->medium.eval(m->medium.ctx, m->x_init, &c) == 0 && c.ionisation_relaxation > 0.0)
+      y[M_X] = (c.ionisation_density * y[M_B] + c.ionisation_temperature * y[M_T] +
+                c.ionisation_expansion * y[M_BP]) /
+               c.ionisation_relaxation;
+  }
 }
 
 static double safe_ratio(double num, double den) { return den != 0.0 ? num / den : 0.0; }
+
+/* The adiabatic index of a uniform model at z; 0 for the fluctuating one. */
+static double uniform_gamma(const jg_perturb_model *m, double z) {
+  if (m->fluctuating) return 0.0;
+  if (!m->effective_gamma) return m->gamma;
+  jg_thermal_state s;
+  jg_thermal_state_at(m->th, z, &s);
+  return s.gamma_effective;
+}
 
 static void fill_point(const jg_perturb_model *m, double z, double k, double fb, const double *y,
                        jg_perturb_point *p) {
@@ -700,7 +761,8 @@ static void fill_point(const jg_perturb_model *m, double z, double k, double fb,
   p->delta_c = y[M_C];
   p->delta_b = y[M_B];
   p->delta_m = fc * y[M_C] + fb * y[M_B];
-  p->delta_T = m->fluctuating ? y[M_T] : (m->gamma - 1.0) * y[M_B];
+  p->delta_T = m->fluctuating ? y[M_T] : (uniform_gamma(m, z) - 1.0) * y[M_B];
+  p->delta_xe = m->ionisation ? y[M_X] : 0.0;
   p->b_over_c = safe_ratio(y[M_B], y[M_C]);
   p->growth_c = safe_ratio(y[M_CP], y[M_C]);
   p->growth_b = safe_ratio(y[M_BP], y[M_B]);
@@ -766,6 +828,7 @@ void jg__pt_emit_limit(const jg_perturb_model *m, double z, double k, double fb,
   l->dlnb_dk2 = safe_ratio(y[u + 2] / m->k_ref2, y[M_B]);
   l->dlnc_dk2 = safe_ratio(y[u + 0] / m->k_ref2, y[M_C]);
   l->gh_inverse_kf2 = safe_ratio(y[j + 0] / m->k_ref2, l->k0.delta_m);
+  l->gamma_uniform = uniform_gamma(m, z);
 }
 
 jg_status jg_perturb_solve(const jg_perturb_model *m, jg_perturb_workspace *w, double k,
@@ -785,7 +848,7 @@ jg_status jg_perturb_solve(const jg_perturb_model *m, jg_perturb_workspace *w, d
     st = jg_perturb_start_table_at(m->start_table, k, &start, err);
     if (st != JG_OK) return st;
   }
-  double y[5];
+  double y[PT_MAX_MODE_DIM];
   jg__pt_initial_mode(m, &start, y);
   return drive(m, w->drv_mode, k, "mode", y, m->dim_mode, z, n_z, w->order, jg__pt_emit_mode, out, err);
 }

@@ -30,21 +30,35 @@
 #define PT_MARGIN_NODES 8
 
 /* State layouts. */
-enum { M_C = 0, M_CP = 1, M_B = 2, M_BP = 3, M_T = 4 };
+enum { M_C = 0, M_CP = 1, M_B = 2, M_BP = 3, M_T = 4, M_X = 5 };
+/* Largest mode system (fluctuating with delta_xe). */
+#define PT_MAX_MODE_DIM 6
 
 /* ---- the real-history medium: coefficient tables (medium_table.c) ------ */
 
 typedef struct thermal_medium {
   const jg_background *bg;
+  int effective_gamma, ionisation; /* which of the optional coefficients are tabulated */
   double x0, dx, inv_dx; /* node i at x0 + i dx */
   int n;                 /* nodes */
   double *poly;          /* per interval: N_Q quantities x 4 polynomial coefficients */
   double *node_rate;     /* per interval: exp of the constant term of ln p, ln d, ln r */
 } thermal_medium;
 
-enum { Q_PRESSURE = 0, Q_DRAG = 1, Q_RELAX = 2, Q_EXPANSION = 3, Q_GRAVITY = 4, N_Q = 5 };
+/* The tabulated quantities: ln p, ln d, ln r, e, g; gamma_eff; asinh of the
+ * delta_xe terms q_r, q_b, q_T, q_v (signed, spanning decades); h_x / r and
+ * w_x (of order one). */
+enum {
+  Q_PRESSURE = 0, Q_DRAG = 1, Q_RELAX = 2, Q_EXPANSION = 3, Q_GRAVITY = 4,
+  Q_GAMMA_EFF = 5,
+  Q_XE_RELAX = 6, Q_XE_DENSITY = 7, Q_XE_TEMPERATURE = 8, Q_XE_EXPANSION = 9,
+  Q_XE_HEATING = 10, Q_XE_PRESSURE = 11,
+  N_Q = 12
+};
 
-thermal_medium *jg__pt_thermal_medium_new(const jg_thermal *th, double x_first, jg_error *err);
+/* effective_gamma, ionisation: tabulate those optional coefficients. */
+thermal_medium *jg__pt_thermal_medium_new(const jg_thermal *th, double x_first,
+                                          int effective_gamma, int ionisation, jg_error *err);
 void jg__pt_thermal_medium_free(thermal_medium *tm);
 int jg__pt_thermal_medium_eval(const void *ctx, double ln_a, jg_medium_coefficients *out);
 /* d/d ln a of the coefficients (c: the values at ln_a). */
@@ -67,6 +81,8 @@ struct jg_perturb_model {
   double k_lo, k_hi;       /* accepted wavenumbers */
   double k_ref2;           /* scale of the k^2-derivative and Gnedin-Hui components */
   int fluctuating;         /* delta_T in the state */
+  int ionisation;          /* delta_xe in the state (fluctuating, real history) */
+  int effective_gamma;     /* uniform pressure gamma_eff(z) p (real history) */
   double gamma;            /* uniform models: pressure on (gamma) delta_b */
   int dim_mode, dim_limit;
   double x_explicit;       /* ln a from which the explicit stepper takes over */

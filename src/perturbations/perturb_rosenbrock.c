@@ -72,10 +72,20 @@ static const pt_system_type system_limit_uniform = {"large-scale limit", dim_lim
                                                     start_limit, jg__pt_emit_limit,
                                                     {0, 0, 1, 1, 2, 2, 3, 3, 4, 4}};
 
+/* With the ionisation perturbation: delta_xe joins the gas group. */
+static const pt_system_type system_mode_ionisation = {"mode", dim_mode, matrix_mode, start_mode,
+                                                      jg__pt_emit_mode, {0, 0, 1, 1, 1, 1}};
+static const pt_system_type system_limit_ionisation = {"large-scale limit", dim_limit,
+                                                       matrix_limit, start_limit,
+                                                       jg__pt_emit_limit,
+                                                       {0, 0, 1, 1, 1, 1, 2, 2, 3, 3, 4, 4}};
+
 static const pt_system_type *mode_type(const jg_perturb_model *m) {
+  if (m->ionisation) return &system_mode_ionisation;
   return m->fluctuating ? &system_mode : &system_mode_uniform;
 }
 static const pt_system_type *limit_type(const jg_perturb_model *m) {
+  if (m->ionisation) return &system_limit_ionisation;
   return m->fluctuating ? &system_limit : &system_limit_uniform;
 }
 
@@ -88,9 +98,11 @@ static const pt_system_type *limit_type(const jg_perturb_model *m) {
 static double fastest_rate(const jg_perturb_model *m, const jg_medium_coefficients *c,
                            double k2) {
   double damping = fabs(2.0 + c->dlnH_dlna) + c->drag;
-  double sound = sqrt(c->pressure * k2 * (m->fluctuating ? 5.0 / 3.0 : m->gamma));
+  double sound = sqrt(c->pressure * k2 *
+                      (m->fluctuating || m->effective_gamma ? 5.0 / 3.0 : m->gamma));
   const double relaxation = m->fluctuating ? c->relaxation : 0.0;
-  const double relaxing = damping > relaxation ? damping : relaxation;
+  double relaxing = damping > relaxation ? damping : relaxation;
+  if (m->ionisation && c->ionisation_relaxation > relaxing) relaxing = c->ionisation_relaxation;
   return relaxing > sound + c->gravity ? relaxing : sound + c->gravity;
 }
 

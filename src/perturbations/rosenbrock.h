@@ -52,8 +52,9 @@
 #ifndef JG_PERTURBATIONS_ROSENBROCK_H
 #define JG_PERTURBATIONS_ROSENBROCK_H
 
-/* Largest system and batch. */
-#define PT_ROS_MAX_DIM 16
+/* Largest system and batch: the streaming k -> 0 system with delta_xe has
+ * 3 x 6 components. */
+#define PT_ROS_MAX_DIM 18
 #define PT_ROS_MAX_MODES 8
 
 /* The matrices of every mode of the batch at x: A[b * dim * dim ...]

@@ -106,7 +106,7 @@ static void write_preamble_with_validity(FILE *f, const char *title, const jg_pa
 static const char *const history_columns[] = {
     "z",        "x_e",      "x_HII", "x_HeII",            "x_HeIII",
     "T_gas[K]", "T_rad[K]", "mu",    "compton_rate[1/s]", "H[km/s/Mpc]",
-    "tau",      "visibility", "tau_drag"};
+    "tau",      "visibility", "tau_drag", "gamma_eff"};
 #define N_HISTORY_COLUMNS ((int)(sizeof history_columns / sizeof history_columns[0]))
 
 static const char *const history_conventions[] = {
@@ -117,6 +117,8 @@ static const char *const history_conventions[] = {
     "tau: Thomson optical depth from z = 0 back to z (no reionisation)",
     "visibility: (dtau/dz) exp(-tau), per unit redshift",
     "tau_drag: baryon drag depth, integrand of tau divided by R = 3 rho_b / (4 rho_gamma)",
+    "gamma_eff: 1 - (1/3) d ln T_gas / d ln a, the adiabatic index of the uniform sound speed "
+    "of large Boltzmann codes (perturbations.sound_speed = \"effective_gamma\")",
     NULL};
 
 static int descending(const void *a, const void *b) {
@@ -173,7 +175,8 @@ jg_status jg_report_history(FILE *f, const jg_params *p, const jg_thermal *th, j
                                      jg_background_hubble(bg, a) / JG_H100 * 100.0,
                                      jg_thermal_optical_depth(th, z[i]),
                                      jg_thermal_visibility(th, z[i]),
-                                     jg_thermal_drag_depth(th, z[i])};
+                                     jg_thermal_drag_depth(th, z[i]),
+                                     s.gamma_effective};
     st = jg_table_write_row(f, row, N_HISTORY_COLUMNS, history_columns, err);
   }
   free(z);
@@ -213,6 +216,20 @@ jg_status jg_report_epochs(FILE *f, const jg_params *p, const jg_epochs *e, jg_e
       fprintf(f, "%s\t%.10g\t%s\n", en.name, en.value * factor, unit[0] ? unit : "-");
   }
   return JG_OK;
+}
+
+/* ---- the effective_gamma model's index, in the scales and growth headers -- */
+
+/* One header line with gamma_eff(z) at each output redshift, for the
+ * "effective_gamma" sound speed (the other models' gamma is a constant the
+ * parameter lines already state). */
+static void write_effective_gamma(FILE *f, const jg_params *p, const double *z,
+                                  const double *gamma, int n) {
+  if (p->perturbations.sound_speed != JG_SOUND_SPEED_EFFECTIVE_GAMMA) return;
+  fputs("# gamma_eff(z) = 1 - (1/3) d ln T_gas / d ln a of the stored history, as z: gamma_eff:",
+        f);
+  for (int i = 0; i < n; i++) fprintf(f, " %.10g: %.6f%s", z[i], gamma[i], i + 1 < n ? "," : "");
+  fputc('\n', f);
 }
 
 /* ---- scales ------------------------------------------------------------- */
@@ -357,6 +374,15 @@ jg_status jg_report_scales(FILE *f, const jg_params *p, const jg_thermal *th,
   const char *const *columns = jg_report_scales_columns(units);
   write_preamble_with_validity(f, "Jeans, filtering and half-suppression scales", p, th,
                                jg_report_scales_conventions(units));
+  double z[JG_MAX_REDSHIFTS], gamma[JG_MAX_REDSHIFTS];
+  const int n_gamma = n < JG_MAX_REDSHIFTS ? n : JG_MAX_REDSHIFTS;
+  for (int i = 0; i < n_gamma; i++) {
+    jg_thermal_state st;
+    jg_thermal_state_at(th, s[i].z, &st);
+    z[i] = s[i].z;
+    gamma[i] = st.gamma_effective;
+  }
+  write_effective_gamma(f, p, z, gamma, n_gamma);
   jg_table_write_columns(f, columns, N_SCALES_COLUMNS);
   double row[N_SCALES_COLUMNS];
   for (int i = 0; i < n; i++) {
@@ -445,6 +471,10 @@ jg_status jg_report_growth(FILE *f, const jg_params *p, const jg_thermal *th,
   conventions[n_conv++] = g->start;
   conventions[n_conv] = NULL;
   write_preamble_with_validity(f, "linear growth by wavenumber", p, th, conventions);
+  double gamma[JG_MAX_REDSHIFTS];
+  const int n_gamma = g->n_z < JG_MAX_REDSHIFTS ? g->n_z : JG_MAX_REDSHIFTS;
+  for (int iz = 0; iz < n_gamma; iz++) gamma[iz] = g->limit[iz].gamma_uniform;
+  write_effective_gamma(f, p, g->z, gamma, n_gamma);
   jg_table_write_columns(f, columns, n_columns);
   double row[N_GROWTH_COLUMNS];
   for (int iz = 0; iz < g->n_z; iz++) {
