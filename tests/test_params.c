@@ -610,9 +610,11 @@ static const char *stage_refusal(const char *key, double value, jg_error *err) {
   jg_params_set_defaults(&loaded);
   jg_error_clear(err);
   int whole = strcmp(key, "perturbations.sound_speed") == 0 ||
-              strcmp(key, "perturbations.stepper") == 0;
+              strcmp(key, "perturbations.stepper") == 0 ||
+              strcmp(key, "thermal.reionisation") == 0;
   if (whole) {
     if (strcmp(key, "perturbations.stepper") == 0) loaded.perturbations.stepper = (int)value;
+    else if (strcmp(key, "thermal.reionisation") == 0) loaded.thermal.reionisation = (int)value;
     else loaded.perturbations.sound_speed = (int)value;
   } else if (strcmp(key, "perturbations.k_values") == 0) {
     loaded.perturbations.n_k_values = 1;

@@ -16,7 +16,13 @@
  * splines.
  *
  * Above thermal.start_redshift the history is Saha equilibrium and the
- * quasi-static temperature, evaluated directly. No reionisation.
+ * quasi-static temperature, evaluated directly.
+ *
+ * Reionisation (thermal.reionisation, off by default): the tanh model of
+ * hydrogen with He I and of He II, added to the recombination history's
+ * ionisation below its onset; with "tanh+heating" the gas is heated by the
+ * ionisation front and photo-heated in ionisation equilibrium
+ * (src/PHYSICS.md §11).
  *
  * Read-only after jg_thermal_new(): share one between threads freely.
  */
@@ -63,7 +69,7 @@ void jg_thermal_state_at(const jg_thermal *th, double z, jg_thermal_state *s);
 double jg_thermal_x_e(const jg_thermal *th, double ln_a);
 double jg_thermal_T_gas(const jg_thermal *th, double ln_a);
 
-/* Thomson optical depth from today back to z (no reionisation). */
+/* Thomson optical depth from today back to z (reionisation included). */
 double jg_thermal_optical_depth(const jg_thermal *th, double z);
 /* Visibility per unit redshift, g = (dtau/dz) exp(-tau). */
 double jg_thermal_visibility(const jg_thermal *th, double z);
@@ -73,6 +79,20 @@ double jg_thermal_drag_depth(const jg_thermal *th, double z);
 
 /* Highest redshift of the stored grid (thermal.start_redshift). */
 double jg_thermal_start_redshift(const jg_thermal *th);
+
+/* tau_reion: the Thomson optical depth of the electrons the reionisation
+ * model adds, from today to its onset (the residual ionisation left by
+ * recombination is not in it); 0 without reionisation. */
+double jg_thermal_reionisation_depth(const jg_thermal *th);
+/* The redshift above which the history is that of a universe without
+ * reionisation (the tanh models are below 2e-9 of their full value there);
+ * 0 without reionisation. */
+double jg_thermal_reionisation_onset(const jg_thermal *th);
+/* The optical and drag depths without the reionised electrons, from which
+ * z_star and z_drag are defined (as in the Planck analyses): exact above the
+ * onset of reionisation, the depths less tau_reion (at least 0) below it. */
+double jg_thermal_recombination_optical_depth(const jg_thermal *th, double z);
+double jg_thermal_recombination_drag_depth(const jg_thermal *th, double z);
 
 #ifdef __cplusplus
 }

@@ -94,7 +94,7 @@ static const char *const history_conventions[] = {
     "x_HII, x_HeII, x_HeIII: ionised hydrogen and helium per hydrogen nucleus",
     "mu: mean molecular weight in units of the hydrogen-atom mass",
     "compton_rate: Gamma_C, the coefficient of (T_rad - T_gas) in dT_gas/dt",
-    "tau: Thomson optical depth from z = 0 back to z (no reionisation)",
+    "tau: Thomson optical depth from z = 0 back to z (with reionisation if thermal.reionisation is on)",
     "visibility: (dtau/dz) exp(-tau), per unit redshift",
     "tau_drag: baryon drag depth, integrand of tau divided by R = 3 rho_b / (4 rho_gamma)",
     NULL};

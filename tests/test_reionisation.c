@@ -1,0 +1,179 @@
+/*
+ * Reionisation and photo-heating (src/history/reionisation.c, the history
+ * driver's use of it, the epochs tau_reion and z_reion): against the Planck
+ * 2018 optical depth, an independent quadrature of the tanh model, and the
+ * unheated history it must leave alone (src/PHYSICS.md §11, §10.8).
+ */
+#include <math.h>
+
+#include <criterion/criterion.h>
+#include <gsl/gsl_integration.h>
+
+#include "jeansgrow/background.h"
+#include "jeansgrow/constants.h"
+#include "jeansgrow/epochs.h"
+#include "jeansgrow/params.h"
+#include "jeansgrow/thermal.h"
+#include "support.h"
+
+typedef struct history {
+  jg_params p;
+  jg_background *bg;
+  jg_thermal *th;
+} history;
+
+/* The reference cosmology (Planck 2018, jg_params_set_defaults) with the
+ * given reionisation model. */
+static history open_history(int model) {
+  history h;
+  jg_params_set_defaults(&h.p);
+  h.p.thermal.reionisation = model;
+  jg_error err;
+  jg_error_clear(&err);
+  h.bg = jg_background_new(&h.p.cosmology, &err);
+  cr_assert_not_null(h.bg, "%s", err.message);
+  h.th = jg_thermal_new(h.bg, &h.p.thermal, &err);
+  cr_assert_not_null(h.th, "%s", err.message);
+  return h;
+}
+
+static void close_history(history *h) {
+  jg_thermal_free(h->th);
+  jg_background_free(h->bg);
+}
+
+static jg_epochs epochs_of(const history *h) {
+  jg_epochs e;
+  jg_error err;
+  jg_error_clear(&err);
+  cr_assert_eq(jg_epochs_compute(h->th, &e, &err), JG_OK, "%s", err.message);
+  return e;
+}
+
+TestSuite(reionisation, .init = quiet_gsl);
+
+/* Planck 2018 (A&A 641, A6, Table 2, TT,TE,EE+lowE+lensing): z_re = 7.67
+ * gives tau = 0.0544 with the tanh model of width 0.5 and helium doubly
+ * ionised at z = 3.5 (their convention; §10.8). 3 %: the published tau is a
+ * posterior mean over the chain, not the tau of the mean z_re, and their
+ * recombination history differs slightly; the model itself is the same. */
+Test(reionisation, planck2018_optical_depth) {
+  history h = open_history(JG_REIONISATION_TANH);
+  jg_epochs e = epochs_of(&h);
+  cr_assert(jg_epochs_entry(&e, JG_EPOCH_TAU_REION).exists);
+  assert_rel(e.tau_reion, 0.0544, 0.03, "tau_reion");
+  /* z_reion is where the ionised hydrogen fraction is 1/2: the tanh centre
+   * by construction, moved only by the residual ionisation of
+   * recombination (x_p ~ 2e-4 there shifts it by ~ 2e-4 / slope). */
+  assert_rel(e.z_reion, 7.67, 2e-4, "z_reion");
+  close_history(&h);
+}
+
+/* The model's electrons, written here from the published form (Planck
+ * 2018 §3.3; Lewis 2008 appendix B; from memory): (1 + f_He) s_h + f_He s_he. */
+typedef struct quadrature_case {
+  const history *h;
+} quadrature_case;
+
+static double added_depth_per_z(double z, void *p) {
+  const history *h = ((const quadrature_case *)p)->h;
+  const jg_thermal_settings *t = &h->p.thermal;
+  const double y = pow(1.0 + z, 1.5), y_re = pow(1.0 + t->reionisation_redshift, 1.5);
+  const double dy = 1.5 * sqrt(1.0 + t->reionisation_redshift) * t->reionisation_width;
+  const double s_h = 0.5 * (1.0 + tanh((y_re - y) / dy));
+  const double s_he =
+      0.5 * (1.0 + tanh((t->helium_reionisation_redshift - z) / t->helium_reionisation_width));
+  const double f_he = h->bg->helium_to_hydrogen;
+  const double a = 1.0 / (1.0 + z);
+  const double x = (1.0 + f_he) * s_h + f_he * s_he;
+  return x * jg_background_n_hydrogen(h->bg, a) * JG_SIGMA_THOMSON * JG_C_LIGHT /
+         (jg_background_hubble(h->bg, a) * (1.0 + z));
+}
+
+/* tau_reion against an adaptive quadrature in z of the model written above
+ * (derived, §10.8). 5e-4: the library adds the model's ionisation to the
+ * neutral part only, (1 + f_He - x_e,rec) s_h, so the residual x_e,rec
+ * ~ 2e-4 is missing here; the spline integral itself is good to 1e-7. */
+Test(reionisation, optical_depth_is_the_integral_of_the_model) {
+  history h = open_history(JG_REIONISATION_TANH);
+  quadrature_case q = {&h};
+  gsl_function F = {added_depth_per_z, &q};
+  gsl_integration_workspace *w = gsl_integration_workspace_alloc(1000);
+  double tau, abserr;
+  cr_assert_eq(gsl_integration_qag(&F, 0.0, 60.0, 0.0, 1e-10, 1000, GSL_INTEG_GAUSS61, w, &tau,
+                                   &abserr),
+               0);
+  gsl_integration_workspace_free(w);
+  assert_rel(jg_thermal_reionisation_depth(h.th), tau, 5e-4, "tau_reion against quadrature");
+  close_history(&h);
+}
+
+/* Above its onset the model changes nothing, and the epochs of
+ * recombination keep their definitions (tau = 1 and the drag depth = 1
+ * without the reionised electrons, as in the Planck analyses): the
+ * history with reionisation equals the history without it there. */
+Test(reionisation, history_above_the_onset_is_untouched) {
+  history none = open_history(JG_REIONISATION_NONE);
+  history heated = open_history(JG_REIONISATION_TANH_HEATED);
+  const double z_onset = jg_thermal_reionisation_onset(heated.th);
+  cr_assert(z_onset > 8.0 && z_onset < 15.0, "onset at z = %g", z_onset);
+  /* The stored splines are cubic: a change below the onset reaches a few
+   * nodes above it, decaying by ~0.27 per node (0.006 in ln a), hence 1e-6
+   * just above the onset and the exact values from 0.2 in ln(1+z) up. */
+  for (double z = z_onset * 1.01; z < 7000.0; z *= 1.1) {
+    const double tol = log1p(z) - log1p(z_onset) < 0.2 ? 1e-6 : 1e-12;
+    jg_thermal_state a, b;
+    jg_thermal_state_at(none.th, z, &a);
+    jg_thermal_state_at(heated.th, z, &b);
+    ASSERT_REL(b.x_e, a.x_e, tol, "x_e at z = %g", z);
+    ASSERT_REL(b.T_gas, a.T_gas, tol, "T_gas at z = %g", z);
+  }
+  jg_epochs e0 = epochs_of(&none), e1 = epochs_of(&heated);
+  assert_rel(e1.z_star, e0.z_star, 1e-7, "z_star");
+  assert_rel(e1.z_drag, e0.z_drag, 1e-7, "z_drag");
+  assert_rel(e1.z_visibility_peak, e0.z_visibility_peak, 1e-7, "z_visibility_peak");
+  assert_rel(e1.z_gas_decoupling, e0.z_gas_decoupling, 1e-9, "z_gas_decoupling");
+  cr_assert(!jg_epochs_entry(&e0, JG_EPOCH_TAU_REION).exists);
+  cr_assert(!jg_epochs_entry(&e0, JG_EPOCH_Z_REION).exists);
+  close_history(&none);
+  close_history(&heated);
+}
+
+/* Today, after both helium reionisations, every atom is ionised:
+ * x_e = 1 + 2 f_He, x_HeIII = f_He (exact, common practice, no source);
+ * 1e-6: the tanh tails and the residual neutral hydrogen. */
+Test(reionisation, fully_ionised_today) {
+  history h = open_history(JG_REIONISATION_TANH);
+  const double f_he = h.bg->helium_to_hydrogen;
+  jg_thermal_state s;
+  jg_thermal_state_at(h.th, 0.0, &s);
+  assert_rel(s.x_e, 1.0 + 2.0 * f_he, 1e-6, "x_e today");
+  assert_rel(s.x_p, 1.0, 1e-6, "x_HII today");
+  assert_rel(s.x_HeIII, f_he, 1e-6, "x_HeIII today");
+  cr_assert(s.x_HeII < 1e-6 * f_he, "x_HeII today = %g", s.x_HeII);
+  /* Between the two: hydrogen and He I ionised, He II not yet. */
+  jg_thermal_state_at(h.th, 5.5, &s);
+  assert_rel(s.x_e, 1.0 + f_he, 1e-3, "x_e at z = 5.5");
+  assert_rel(s.x_HeII, f_he, 1e-3, "x_HeII at z = 5.5");
+  close_history(&h);
+}
+
+/* The tanh model without heating leaves the gas cold (only the Compton
+ * coupling of the new electrons warms it towards T_rad); with heating the
+ * ionised gas is at ~1e4 K after reionisation, the temperature of the
+ * intergalactic medium measured from the Lyman-alpha forest at z ~ 2-6
+ * (common practice, no source; 5e3 to 3e4 K accepted: an order of
+ * magnitude check). */
+Test(reionisation, heating_brings_the_gas_to_ten_thousand_kelvin) {
+  history cold = open_history(JG_REIONISATION_TANH);
+  history hot = open_history(JG_REIONISATION_TANH_HEATED);
+  for (double z = 6.0; z >= 4.0; z -= 1.0) {
+    jg_thermal_state c, w;
+    jg_thermal_state_at(cold.th, z, &c);
+    jg_thermal_state_at(hot.th, z, &w);
+    cr_assert(c.T_gas < c.T_rad, "unheated T_gas = %g K at z = %g", c.T_gas, z);
+    cr_assert(w.T_gas > 5e3 && w.T_gas < 3e4, "heated T_gas = %g K at z = %g", w.T_gas, z);
+  }
+  close_history(&cold);
+  close_history(&hot);
+}
