@@ -13,7 +13,9 @@
 #include "jeansgrow/constants.h"
 #include "jeansgrow/epochs.h"
 #include "jeansgrow/params.h"
+#include "jeansgrow/scales.h"
 #include "jeansgrow/thermal.h"
+#include "real_case.h"
 #include "support.h"
 
 typedef struct history {
@@ -176,4 +178,43 @@ Test(reionisation, heating_brings_the_gas_to_ten_thousand_kelvin) {
   }
   close_history(&cold);
   close_history(&hot);
+}
+
+/* The filtering mass after reionisation: the halo mass below which halos
+ * lose their gas. With reionisation at z ~ 7-8 and photo-heating to ~1e4
+ * K, M_F (full-wavelength radius, Gnedin 2000, ApJ 542, 535) is ~1e8-1e9
+ * M_sun at z ~ 6 and grows towards ~1e10 M_sun by z ~ 0-3 (Gnedin 2000;
+ * Gnedin & Hui 1998, MNRAS 296, 44; orders of magnitude from memory).
+ * Accepted: 5e7 to 5e9 M_sun at z = 6, 1e9 to 1e11 at z = 0, and a mass
+ * that grows: a factor-of-ten check of the order of magnitude, as much as
+ * a recalled figure allows. Before reionisation (z = 10) the gas is cold and
+ * M_F is that of the dark ages, ~1e5-1e6 M_sun (§10.5). */
+Test(reionisation, filtering_mass_after_reionisation) {
+  jg_params p;
+  jg_params_set_defaults(&p);
+  p.thermal.reionisation = JG_REIONISATION_TANH_HEATED;
+  p.perturbations.k_count = 8;
+  real_case r;
+  real_case_open(&r, &p);
+  const double z[] = {10.0, 6.0, 0.0};
+  jg_scales_point sc[3];
+  jg_error err;
+  jg_error_clear(&err);
+  cr_assert_eq(jg_scales_compute(r.m, r.w, z, 3, sc, &err), JG_OK, "%s", err.message);
+  for (int i = 0; i < 3; i++)
+    cr_log_info("z = %g: M_F integral %.3e, measured %.3e M_sun", z[i],
+                sc[i].m_filter_integral_isothermal, sc[i].m_filter_solved);
+  cr_assert(sc[0].m_filter_integral_isothermal > 1e5 && sc[0].m_filter_integral_isothermal < 1e7,
+            "M_F(z = 10) = %g M_sun", sc[0].m_filter_integral_isothermal);
+  cr_assert(sc[1].m_filter_integral_isothermal > 5e7 && sc[1].m_filter_integral_isothermal < 5e9,
+            "M_F(z = 6) = %g M_sun", sc[1].m_filter_integral_isothermal);
+  cr_assert(sc[2].m_filter_integral_isothermal > 1e9 && sc[2].m_filter_integral_isothermal < 1e11,
+            "M_F(z = 0) = %g M_sun", sc[2].m_filter_integral_isothermal);
+  /* The measured filtering scale (fluctuating sound speed, delta_T relaxed
+   * by the heating) agrees with the integral to the same order. */
+  for (int i = 1; i < 3; i++)
+    cr_assert(sc[i].m_filter_solved > 0.3 * sc[i].m_filter_integral_isothermal &&
+                  sc[i].m_filter_solved < 3.0 * sc[i].m_filter_integral_isothermal,
+              "measured M_F(z = %g) = %g M_sun", z[i], sc[i].m_filter_solved);
+  real_case_close(&r);
 }

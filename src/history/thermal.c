@@ -733,6 +733,17 @@ double jg_thermal_start_redshift(const jg_thermal *th) { return th->settings.sta
 
 double jg_thermal_reionisation_depth(const jg_thermal *th) { return th->tau_reion; }
 
+double jg_thermal_heating_rate(const jg_thermal *th, double z) {
+  const double ln_a = -log1p(z);
+  if (!jg__reionisation_acts(&th->reion, ln_a)) return 0.0;
+  const double a = exp(ln_a);
+  jg__reionised r;
+  jg__reionisation_at(&th->reion, ln_a, &r);
+  return jg__photo_heating_dlna(&th->reion, &r, jg_thermal_x_e(th, ln_a),
+                                jg_thermal_T_gas(th, ln_a), jg_background_n_hydrogen(th->bg, a),
+                                jg_background_hubble(th->bg, a));
+}
+
 double jg_thermal_recombination_optical_depth(const jg_thermal *th, double z) {
   return fmax(jg_thermal_optical_depth(th, z) - th->tau_reion, 0.0);
 }
