@@ -5,6 +5,9 @@
  * unheated history it must leave alone (src/PHYSICS.md §11, §10.8).
  */
 #include <math.h>
+#include <stdio.h>
+#include <stdlib.h>
+#include <string.h>
 
 #include <criterion/criterion.h>
 #include <gsl/gsl_integration.h>
@@ -217,4 +220,113 @@ Test(reionisation, filtering_mass_after_reionisation) {
                   sc[i].m_filter_solved < 3.0 * sc[i].m_filter_integral_isothermal,
               "measured M_F(z = %g) = %g M_sun", z[i], sc[i].m_filter_solved);
   real_case_close(&r);
+}
+
+/* ---- the user's heating table (thermal.heating_table) ---- */
+
+/* Writes `length` bytes of `text` (0: up to its end) to a new file in a new
+ * folder; returns its path in `path`. */
+static void write_table(char path[256], const char *text, size_t length) {
+  char dir[] = "/tmp/jg_heating_table_XXXXXX";
+  cr_assert_not_null(mkdtemp(dir), "mkdtemp");
+  snprintf(path, 256, "%s/heating.txt", dir);
+  FILE *f = fopen(path, "w");
+  cr_assert_not_null(f);
+  fwrite(text, 1, length ? length : strlen(text), f);
+  fclose(f);
+}
+
+static void remove_table(const char *path) {
+  char dir[256];
+  snprintf(dir, sizeof dir, "%s", path);
+  *strrchr(dir, '/') = '\0';
+  remove(path);
+  remove(dir);
+}
+
+TestSuite(heating_table, .init = quiet_gsl);
+
+/* A constant heating rate per baryon Q in an Einstein-de Sitter universe
+ * with Compton heating negligible: dT/dt = -2 H T + Q_T with H = 2/(3t),
+ * Q_T = (2/3) Q / (k_B (1 - Y)(1 + f_He + x_e)), so
+ *   T(t) = (3/7) Q_T t + (T_1 - (3/7) Q_T t_1) (t_1/t)^(4/3)
+ * from T_1 at t_1 (derived, §10.8; T = (3/7) Q_T t once the start is
+ * forgotten). The universe: Omega_m = 1 (h = 0.5, omega_b + omega_c =
+ * 0.25), no neutrinos, T_cmb = 1 K (radiation 5.5e-6 of the matter today,
+ * the Compton rate ~1e-6 of H below z = 3), helium-free. 1e-4: the
+ * radiation (2e-5 of H at z = 3), the residual x_e changing by ~1e-5 and
+ * the history's tolerance. */
+Test(heating_table, constant_heating_in_einstein_de_sitter) {
+  char path[256];
+  const double Q_eV = 1e-17, z_top = 3.0;
+  write_table(path, "# z   heating [eV/s per baryon]\n0.0  1e-17\n3.0  1e-17\n", 0);
+  jg_params p;
+  jg_params_set_defaults(&p);
+  p.cosmology.hubble_h = 0.5;
+  p.cosmology.baryon_density_h2 = 0.05;
+  p.cosmology.cdm_density_h2 = 0.2;
+  p.cosmology.cmb_temperature_K = 1.0;
+  p.cosmology.neutrino_number_eff = 0.0;
+  p.cosmology.helium_mass_fraction = 0.0;
+  snprintf(p.thermal.heating_table, sizeof p.thermal.heating_table, "%s", path);
+  jg_error err;
+  jg_error_clear(&err);
+  jg_background *bg = jg_background_new(&p.cosmology, &err);
+  cr_assert_not_null(bg, "%s", err.message);
+  jg_thermal *th = jg_thermal_new(bg, &p.thermal, &err);
+  cr_assert_not_null(th, "%s", err.message);
+  const double H0 = 0.5 * JG_H100;
+  const double t1 = 2.0 / (3.0 * H0) * pow(1.0 + z_top, -1.5);
+  jg_thermal_state s1, s;
+  jg_thermal_state_at(th, z_top, &s1);
+  for (double z = 2.0; z >= 0.0; z -= 1.0) {
+    jg_thermal_state_at(th, z, &s);
+    const double Q_T = (2.0 / 3.0) * Q_eV * JG_ELECTRON_VOLT / (JG_K_BOLTZMANN * (1.0 + s.x_e));
+    const double t = 2.0 / (3.0 * H0) * pow(1.0 + z, -1.5);
+    const double expected = 3.0 / 7.0 * Q_T * t + (s1.T_gas - 3.0 / 7.0 * Q_T * t1) *
+                                                      pow(t1 / t, 4.0 / 3.0);
+    ASSERT_REL(s.T_gas, expected, 1e-4, "T_gas at z = %g (T_1 = %g K)", z, s1.T_gas);
+  }
+  /* Above the table nothing changes: no heating there. */
+  jg_thermal_state_at(th, 2.0 * z_top, &s);
+  cr_assert(s.T_gas < s.T_rad, "T_gas = %g K above the table", s.T_gas);
+  jg_thermal_free(th);
+  jg_background_free(bg);
+  remove_table(path);
+}
+
+/* Bad tables are refused before any work, naming the file and the line
+ * (common practice, no source: the project's rule for bad input). */
+Test(heating_table, bad_tables_are_refused_with_their_line) {
+  static const struct {
+    const char *text, *message;
+    size_t length; /* 0: the text up to its end */
+  } cases[] = {
+      {"0 1e-20\n2 1e-20\n1 1e-20\n", ":3: z = 1 does not increase (the row before has 2)", 0},
+      {"0 1e-20\n1 nan\n", ":2: value 2 ('nan') is not a finite number", 0},
+      {"# heating\n0 1e-20\n1\n", ":3: 1 value(s) on a row", 0},
+      {"0 1e-20\n2000 1e-20\n", ":2: z = 2000 must satisfy 0 <= z <= 1000", 0},
+      {"0 -1e-20\n1 1e-20\n", ":1: heating rate -1e-20 eV/s must be >= 0", 0},
+      {"0 1e-20\n1 one\n", ":2: 'one' is not a number", 0},
+      {"0 1e-20\n\x7f" "ELF\x01\x00\x00\n", ":2: a zero byte (not a text table)", 15},
+      {"0 1e-20\n", ": 1 data row(s); at least two are needed", 0},
+  };
+  for (size_t i = 0; i < sizeof cases / sizeof cases[0]; i++) {
+    char path[256];
+    write_table(path, cases[i].text, cases[i].length);
+    jg_params p;
+    jg_params_set_defaults(&p);
+    snprintf(p.thermal.heating_table, sizeof p.thermal.heating_table, "%s", path);
+    jg_error err;
+    jg_error_clear(&err);
+    jg_background *bg = jg_background_new(&p.cosmology, &err);
+    jg_thermal *th = jg_thermal_new(bg, &p.thermal, &err);
+    cr_assert_null(th, "case %zu accepted", i);
+    cr_assert_eq(err.status, JG_ECONFIG, "case %zu: %s", i, err.message);
+    cr_assert_not_null(strstr(err.message, "thermal.heating_table: "), "%s", err.message);
+    cr_assert_not_null(strstr(err.message, path), "%s", err.message);
+    cr_assert_not_null(strstr(err.message, cases[i].message), "case %zu: %s", i, err.message);
+    jg_background_free(bg);
+    remove_table(path);
+  }
 }

@@ -219,8 +219,8 @@ static int draw_all(rng *r, const sweep_options *o, double k_floor, drawn *d, ch
       set_text(d, key, "\"%s\"", words[rng_next(r) % (uint64_t)n]);
       continue;
     }
-    if (!strcmp(key, "perturbations.initial_table") || !strcmp(key, "perturbations.k_values"))
-      continue; /* a file (tests/test_perturb.c) and the grid's list twin (the grid is drawn) */
+    if (!strcmp(doc->type, "quoted file name") || !strcmp(key, "perturbations.k_values"))
+      continue; /* files (their own tests) and the grid's list twin (the grid is drawn) */
     bound lo, hi;
     if (!parse_range(doc->allowed, &lo, &hi)) {
       snprintf(why, why_size, "%s: cannot read the range '%s'", key, doc->allowed);

@@ -60,6 +60,8 @@ typedef struct jg_thermal_settings {
   double helium_reionisation_width;    /* its width Delta z */
   double reionisation_temperature_K;   /* temperature the gas is heated to as it is ionised */
   double ionising_spectral_index;      /* alpha of J_nu ~ nu^-alpha beyond 13.6 eV */
+  /* Heating per baryon against z from a file (README, "Heating table"); empty: none. */
+  char heating_table[JG_MAX_PATH];
 } jg_thermal_settings;
 
 /* The reionisation of the intergalactic gas (thermal.reionisation). */

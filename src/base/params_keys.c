@@ -96,6 +96,12 @@ const jg__param_spec jg__param_specs[] = {
            "0 <= value <= 5", 0, 0, 5, 0,
            "tanh+heating: alpha of the ionising spectrum J_nu ~ nu^-alpha; each photo-ionisation "
            "of the residual H I leaves 13.6 eV / (alpha + 2) as heat"),
+    {{"thermal.heating_table", "quoted file name", "", "\"\"",
+      "empty, or a readable table (see the README); at most 1023 bytes",
+      "heating rate per baryon against z, added to the gas-temperature equation below the "
+      "table's top (a relative name in a parameter file from that file's folder, one given "
+      "with --set from the current folder); empty: none"},
+     JG__KIND_FILE, P_OFF(thermal.heating_table), 0, 0, 0, 0, 0, 0, 0, 0, NULL, JG_MAX_PATH},
 
     NUMBER("perturbations.k_min", perturbations.k_min, "1/Mpc", "1.0", "1 <= value <= 1e5",
            JG_PARAMS_K_LOWEST, 0, JG_PARAMS_K_HIGHEST, 0,
@@ -274,6 +280,7 @@ void jg_params_set_defaults(jg_params *p) {
   p->thermal.helium_reionisation_width = 0.5;
   p->thermal.reionisation_temperature_K = 2.0e4;
   p->thermal.ionising_spectral_index = 1.5;
+  p->thermal.heating_table[0] = '\0';
 
   p->perturbations.k_min = 1.0;
   p->perturbations.k_max = 5000.0;

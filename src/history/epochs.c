@@ -178,12 +178,13 @@ jg_status jg_epochs_compute(const jg_thermal *th, jg_epochs *e, jg_error *err) {
     st = find_crossing(th, temperature_ratio, 0.9, z_onset, z_top, "z_gas_decoupling",
                        "T_gas / T_rad", &e->z_gas_decoupling, &gas,
                        e->reason[JG_EPOCH_Z_GAS_DECOUPLING], err);
-  if (st == JG_OK && z_onset > 0.0)
+  const int reionised = jg_thermal_reionisation_depth(th) > 0.0; /* not a heating table alone */
+  if (st == JG_OK && reionised)
     st = find_crossing(th, ionised_hydrogen, 0.5, 0.0, z_onset, "z_reion",
                        "the ionised hydrogen fraction", &e->z_reion, &reion,
                        e->reason[JG_EPOCH_Z_REION], err);
   if (st != JG_OK) return st;
-  if (z_onset > 0.0) {
+  if (reionised) {
     e->tau_reion = jg_thermal_reionisation_depth(th);
     if (!reion) set_absent(e, JG_EPOCH_Z_REION, &e->z_reion, NULL);
   } else {

@@ -9,11 +9,13 @@
 
 #include <stdbool.h>
 
+#include "heating_table.h"
 #include "jeansgrow/background.h"
 #include "jeansgrow/params.h"
 
 /* The model, prepared once from the settings. */
 typedef struct jg__reionisation {
+  bool active;            /* a reionisation model or a heating table */
   int model;              /* a jg_reionisation_model */
   double y_re, dy;        /* hydrogen tanh centre and width in y = (1+z)^(3/2) */
   double z_he, dz_he;     /* helium double ionisation, centre and width in z */
@@ -21,6 +23,8 @@ typedef struct jg__reionisation {
   double ln_a_onset;      /* above this redshift the model changes nothing */
   double T_front;         /* K, thermal.reionisation_temperature_K */
   double heat_per_ionisation; /* J, 13.6 eV / (alpha + 2) */
+  double hydrogen_fraction;   /* 1 - Y: hydrogen nuclei per baryon (per m_H of gas) */
+  jg__heating_table table;    /* thermal.heating_table (n = 0: none); owned by the history */
 } jg__reionisation;
 
 /* The ln a ranges where the model's fractions move (within TAIL widths of
@@ -28,12 +32,14 @@ typedef struct jg__reionisation {
  * reionisation. The history grid is refined there. */
 void jg__reionisation_fronts(const jg__reionisation *m, double ranges[2][2]);
 
+/* `table` (may be NULL or empty) is kept by value: its arrays stay the
+ * caller's. */
 void jg__reionisation_init(jg__reionisation *m, const jg_thermal_settings *s,
-                           const jg_background *bg);
+                           const jg_background *bg, const jg__heating_table *table);
 
 /* Does the model act at ln a (below its onset redshift)? */
 static inline bool jg__reionisation_acts(const jg__reionisation *m, double ln_a) {
-  return m->model != JG_REIONISATION_NONE && ln_a > m->ln_a_onset;
+  return m->active && ln_a > m->ln_a_onset;
 }
 
 /* The fractions reionised at ln a: hydrogen with He I (s_h) and helium's
@@ -49,12 +55,13 @@ void jg__reionisation_at(const jg__reionisation *m, double ln_a, jg__reionised *
 double jg__reionised_electrons(const jg__reionisation *m, const jg__reionised *r, double x_e);
 double jg__reionised_hydrogen(const jg__reionised *r, double x_p);
 
-/* The heating of the tanh+heating model, d T_gas / d ln a (K): the front
- * (T_front d s_h / d ln a) and the photo-heating of the residual H I in
- * photo-ionisation equilibrium less the recombination cooling, in the
- * reionised gas (fraction s_h), for all free electrons x_e at hydrogen
- * density n_H (m^-3) and Hubble rate H (1/s). Zero for the other models. */
-double jg__photo_heating_dlna(const jg__reionisation *m, const jg__reionised *r, double x_e,
-                              double T_gas, double n_H, double hubble);
+/* The heating, d T_gas / d ln a (K), at ln a: with "tanh+heating" the
+ * front (T_front d s_h / d ln a) and the photo-heating of the residual H I
+ * in photo-ionisation equilibrium less the recombination cooling, in the
+ * reionised gas (fraction s_h); plus the heating table's rate; for all
+ * free electrons x_e at hydrogen density n_H (m^-3) and Hubble rate H
+ * (1/s). */
+double jg__photo_heating_dlna(const jg__reionisation *m, const jg__reionised *r, double ln_a,
+                              double x_e, double T_gas, double n_H, double hubble);
 
 #endif

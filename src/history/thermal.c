@@ -32,6 +32,7 @@
 #include <gsl/gsl_spline.h>
 #include <math.h>
 #include <stdbool.h>
+#include <stdio.h>
 #include <stdlib.h>
 #include <string.h>
 
@@ -54,6 +55,7 @@ struct jg_thermal {
   double drag_reion;    /* and their drag depth */
   double z_onset;       /* reionisation acts below this redshift (0: no model) */
   jg__reionisation reion;
+  jg__heating_table heating; /* thermal.heating_table (n = 0: none) */
 };
 
 /* ------------------------------------------------------------------------ */
@@ -120,9 +122,10 @@ static int local_state_reionised(const history_system *sys, double x, double x_p
   return st;
 }
 
-/* The model's heating, d T_gas / d ln a at T_gas. */
-static double heating_dlna(const history_system *sys, const local_state *s, double T_gas) {
-  return jg__photo_heating_dlna(&sys->reion, &s->reion, s->x_e_all, T_gas, s->n_H, s->H);
+/* The heating, d T_gas / d ln a at ln a = x and T_gas. */
+static double heating_dlna(const history_system *sys, const local_state *s, double x,
+                           double T_gas) {
+  return jg__photo_heating_dlna(&sys->reion, &s->reion, x, s->x_e_all, T_gas, s->n_H, s->H);
 }
 
 /* dx_p/d ln a (and dT_gas/d ln a when the gas temperature is integrated:
@@ -142,7 +145,7 @@ static inline int rhs_history(int dim, bool reionised, double x, const double y[
   f[0] = r.dxp_dt / s.H;
   if (dim == 2) {
     f[1] = jg__gas_temperature_dlna(y[1], s.T_rad, s.H, s.compton);
-    if (s.reionising) f[1] += heating_dlna(sys, &s, y[1]);
+    if (s.reionising) f[1] += heating_dlna(sys, &s, x, y[1]);
   }
   return GSL_SUCCESS;
 }
@@ -206,7 +209,7 @@ static inline int jac_history_temperature(bool reionised, double x, const double
   dfdy[1 * 2 + 1] = -2.0 - s.compton / s.H;
   if (s.reionising) { /* msbdf's Newton iteration needs only a fair slope */
     const double dT = 1e-6 * y[1];
-    dfdy[1 * 2 + 1] += (heating_dlna(sys, &s, y[1] + dT) - heating_dlna(sys, &s, y[1] - dT)) /
+    dfdy[1 * 2 + 1] += (heating_dlna(sys, &s, x, y[1] + dT) - heating_dlna(sys, &s, x, y[1] - dT)) /
                        (2.0 * dT);
   }
   gsl_odeiv2_system self = {reionised ? rhs_reionised : rhs_hydrogen_temperature, NULL, 2,
@@ -235,6 +238,7 @@ void jg_thermal_free(jg_thermal *th) {
   gsl_spline_free(th->ln_Tgas);
   gsl_spline_free(th->tau);
   gsl_spline_free(th->tau_drag);
+  jg__heating_table_free(&th->heating);
   free(th->ln_a);
   free(th);
 }
@@ -512,7 +516,7 @@ static jg_status integrate_history(history_run *r, double x_start, jg_error *err
       &ode_h, gsl_odeiv2_step_msbdf, HISTORY_FIRST_STEP, set->abs_tol, set->rel_tol);
   gsl_odeiv2_driver *drv_ht = gsl_odeiv2_driver_alloc_y_new(
       &ode_ht, gsl_odeiv2_step_msbdf, HISTORY_FIRST_STEP, set->abs_tol, set->rel_tol);
-  const bool reionising = r->sys.reion.model != JG_REIONISATION_NONE;
+  const bool reionising = r->sys.reion.active;
   gsl_odeiv2_driver *drv_re =
       reionising ? gsl_odeiv2_driver_alloc_y_new(&ode_re, gsl_odeiv2_step_msbdf,
                                                  HISTORY_FIRST_STEP, set->abs_tol, set->rel_tol)
@@ -578,7 +582,10 @@ static int compare_doubles(const void *a, const void *b) {
 
 static jg_status build_grid(jg_thermal *th, const history_run *r, int uniform, jg_error *err) {
   const double start = th->ln_a_start;
-  const double places[] = {start, r->x_handover, r->x_weak, 0.0};
+  /* The onset of reionisation or heating is a kink where a heating table
+   * starts with a rate above zero; without either it repeats the end. */
+  const double places[] = {start, r->x_handover, r->x_weak, 0.0,
+                           r->sys.reion.active ? r->sys.reion.ln_a_onset : 0.0};
   const int n_places = (int)(sizeof places / sizeof places[0]);
   int graded_per_side = 0;
   for (double offset = GRADED_FINEST; offset < GRADED_WIDTH; offset *= GRADED_RATIO)
@@ -596,7 +603,8 @@ static jg_status build_grid(jg_thermal *th, const history_run *r, int uniform, j
   th->ln_a[uniform - 1] = 0.0;
   for (int p = 0; p < n_places; p++) {
     const double at = places[p];
-    if (p == 1 || p == 2) {
+    if (p == 4 && at == 0.0) continue;
+    if (p == 1 || p == 2 || p == 4) {
       if (!(at > start && at < 0.0)) continue; /* no such switch inside the grid */
       th->ln_a[n++] = at;
     }
@@ -634,7 +642,7 @@ static jg_status build_grid(jg_thermal *th, const history_run *r, int uniform, j
  * the electrons reionisation adds (0 where it does not act). */
 static jg_status fill_nodes(const history_run *r, const jg_thermal *th, double *x_e, double *x_p,
                             double *T_gas, double *added, jg_error *err) {
-  const bool reionising = r->sys.reion.model != JG_REIONISATION_NONE;
+  const bool reionising = r->sys.reion.active;
   size_t j = 0;
   for (int i = 0; i < th->n; i++) {
     const double x = th->ln_a[i];
@@ -689,12 +697,20 @@ jg_thermal *jg_thermal_new(const jg_background *bg, const jg_thermal_settings *s
   th->ln_a_start = -log1p(settings->start_redshift);
   history_run run = {bg, settings, {bg, settings->recombination_fudge, 0.0, {0}}, 0.0, 0.0,
                      NULL, 0, 0, 0};
-  jg__reionisation_init(&run.sys.reion, settings, bg);
+  jg_status st = JG_OK;
+  if (settings->heating_table[0] &&
+      (st = jg__heating_table_read(settings->heating_table, &th->heating, err)) != JG_OK) {
+    /* Name the key: the file's own message does not say where it came from. */
+    char why[JG_ERROR_MESSAGE_SIZE];
+    snprintf(why, sizeof why, "%s", err->message);
+    JG_FAIL(err, st, "thermal.heating_table: %s", why);
+    jg_thermal_free(th);
+    return NULL;
+  }
+  jg__reionisation_init(&run.sys.reion, settings, bg, &th->heating);
   th->reion = run.sys.reion;
-  th->z_onset = settings->reionisation == JG_REIONISATION_NONE
-                    ? 0.0
-                    : z_of_ln_a(run.sys.reion.ln_a_onset);
-  jg_status st = integrate_history(&run, th->ln_a_start, err);
+  th->z_onset = run.sys.reion.active ? z_of_ln_a(run.sys.reion.ln_a_onset) : 0.0;
+  st = integrate_history(&run, th->ln_a_start, err);
   if (st == JG_OK) st = build_grid(th, &run, settings->grid_points, err);
   const int n = st == JG_OK ? th->n : 0;
   double *work = NULL;
@@ -739,7 +755,7 @@ double jg_thermal_heating_rate(const jg_thermal *th, double z) {
   const double a = exp(ln_a);
   jg__reionised r;
   jg__reionisation_at(&th->reion, ln_a, &r);
-  return jg__photo_heating_dlna(&th->reion, &r, jg_thermal_x_e(th, ln_a),
+  return jg__photo_heating_dlna(&th->reion, &r, ln_a, jg_thermal_x_e(th, ln_a),
                                 jg_thermal_T_gas(th, ln_a), jg_background_n_hydrogen(th->bg, a),
                                 jg_background_hubble(th->bg, a));
 }
