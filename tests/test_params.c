@@ -661,7 +661,7 @@ Test(params, every_range_is_the_one_the_stages_check) {
   static const char *const loader_only[] = {
       "perturbations.z_initial", "perturbations.initial_table", "output.redshifts",
       "output.history_rows",     "output.history_z_min",        "output.units",
-      "thermal.heating_table", NULL};
+      "thermal.heating_table",   "thermal.ionisation_table", NULL};
   const jg_param_doc *d;
   int stage_keys = 0;
   for (int i = 0; (d = jg_param_doc_at(i)) != NULL; i++) {

@@ -330,3 +330,103 @@ Test(heating_table, bad_tables_are_refused_with_their_line) {
     remove_table(path);
   }
 }
+
+/* ---- the user's ionisation table (thermal.ionisation_table) ---- */
+
+/* Writes the reference history from z_top to 0 as an ionisation table of
+ * `rows` rows uniform in ln(1+z), with or without its temperature. */
+static void write_own_history(char path[256], const jg_thermal *th, double z_top, int rows,
+                              int with_temperature) {
+  char dir[] = "/tmp/jg_ionisation_table_XXXXXX";
+  cr_assert_not_null(mkdtemp(dir), "mkdtemp");
+  snprintf(path, 256, "%s/history.txt", dir);
+  FILE *f = fopen(path, "w");
+  cr_assert_not_null(f);
+  fputs("# z  x_e  T_gas[K]\n", f);
+  for (int i = 0; i < rows; i++) {
+    const double z = expm1(log1p(z_top) * i / (rows - 1));
+    jg_thermal_state s;
+    jg_thermal_state_at(th, z, &s);
+    if (with_temperature)
+      fprintf(f, "%.17g %.17g %.17g\n", z, s.x_e, s.T_gas);
+    else
+      fprintf(f, "%.17g %.17g\n", z, s.x_e);
+  }
+  fclose(f);
+}
+
+TestSuite(ionisation_table, .init = quiet_gsl);
+
+/* Round trip: our own history written as an ionisation table (x_e and
+ * T_gas, 20000 rows from z = 1500, 17 digits) and read back gives the same
+ * history (derived: the table is the history, so only the interpolation of
+ * the table, Steffen's method with rows 3.7e-4 apart in ln(1+z), and that of
+ * the second stored grid separate them). Measured: x_e 1.7e-9, T_gas
+ * 1.4e-8; without the temperature column T_gas is integrated again from the
+ * table's x_e, from the table's top instead of where H/Gamma_C reaches
+ * thermal.quasi_static_limit, 4.4e-6. Tolerances: about five times these. */
+Test(ionisation_table, own_history_round_trip) {
+  history ref = open_history(JG_REIONISATION_NONE);
+  for (int with_T = 1; with_T >= 0; with_T--) {
+    char path[256];
+    write_own_history(path, ref.th, 1500.0, 20000, with_T);
+    jg_params p = ref.p;
+    snprintf(p.thermal.ionisation_table, sizeof p.thermal.ionisation_table, "%s", path);
+    jg_error err;
+    jg_error_clear(&err);
+    jg_thermal *th = jg_thermal_new(ref.bg, &p.thermal, &err);
+    cr_assert_not_null(th, "%s", err.message);
+    double worst_x = 0.0, worst_T = 0.0;
+    for (double z = 0.0; z < 3000.0; z = z * 1.07 + 0.01) {
+      jg_thermal_state a, b;
+      jg_thermal_state_at(ref.th, z, &a);
+      jg_thermal_state_at(th, z, &b);
+      worst_x = fmax(worst_x, fabs(b.x_e / a.x_e - 1.0));
+      worst_T = fmax(worst_T, fabs(b.T_gas / a.T_gas - 1.0));
+    }
+    cr_log_info("round trip (temperature column %d): x_e %.2e, T_gas %.2e", with_T, worst_x,
+                worst_T);
+    cr_assert(worst_x < 1e-8, "x_e differs by %g", worst_x);
+    cr_assert(worst_T < (with_T ? 1e-7 : 2e-5), "T_gas differs by %g", worst_T);
+    jg_epochs e0 = epochs_of(&ref);
+    history h = {p, ref.bg, th};
+    jg_epochs e1 = epochs_of(&h);
+    assert_rel(e1.z_star, e0.z_star, 1e-9, "z_star (above the table)");
+    assert_rel(e1.z_drag, e0.z_drag, 1e-6, "z_drag");
+    cr_assert(!jg_epochs_entry(&e1, JG_EPOCH_TAU_REION).exists);
+    jg_thermal_free(th);
+    remove_table(path);
+  }
+  close_history(&ref);
+}
+
+/* Bad ionisation tables are refused before any work, naming the line. */
+Test(ionisation_table, bad_tables_are_refused_with_their_line) {
+  static const struct {
+    const char *text, *message;
+  } cases[] = {
+      {"0 1.16\n20 0.0002\n10 0.0002\n", ":3: z = 10 does not increase (the row before has 20)"},
+      {"0 1.16 3\n10 0.0002\n", ":2: 2 values on this row, 3 on the first"},
+      {"0 1.5\n10 0.0002\n", ":1: x_e = 1.5 must satisfy 0 < x_e <= 1.1"},
+      {"0 1.16\n10 0\n", ":2: x_e = 0 must satisfy 0 < x_e <= 1.1"},
+      {"0 1.16 -3\n10 0.0002 20\n", ":1: T_gas = -3 K must be > 0"},
+      {"0 1.16\n9000 1.16\n", ":2: z = 9000 must satisfy 0 <= z <= 8000"},
+  };
+  for (size_t i = 0; i < sizeof cases / sizeof cases[0]; i++) {
+    char path[256];
+    write_table(path, cases[i].text, 0);
+    jg_params p;
+    jg_params_set_defaults(&p);
+    snprintf(p.thermal.ionisation_table, sizeof p.thermal.ionisation_table, "%s", path);
+    jg_error err;
+    jg_error_clear(&err);
+    jg_background *bg = jg_background_new(&p.cosmology, &err);
+    jg_thermal *th = jg_thermal_new(bg, &p.thermal, &err);
+    cr_assert_null(th, "case %zu accepted", i);
+    cr_assert_eq(err.status, JG_ECONFIG, "case %zu: %s", i, err.message);
+    cr_assert_not_null(strstr(err.message, "thermal.ionisation_table: "), "%s", err.message);
+    cr_assert_not_null(strstr(err.message, cases[i].message), "case %zu: %s", i, err.message);
+    jg_background_free(bg);
+    remove_table(path);
+  }
+}

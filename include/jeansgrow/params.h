@@ -62,6 +62,9 @@ typedef struct jg_thermal_settings {
   double ionising_spectral_index;      /* alpha of J_nu ~ nu^-alpha beyond 13.6 eV */
   /* Heating per baryon against z from a file (README, "Heating table"); empty: none. */
   char heating_table[JG_MAX_PATH];
+  /* x_e (and optionally T_gas) against z from a file, replacing the computed
+   * ones below its top (README, "Ionisation table"); empty: none. */
+  char ionisation_table[JG_MAX_PATH];
 } jg_thermal_settings;
 
 /* The reionisation of the intergalactic gas (thermal.reionisation). */

@@ -88,9 +88,11 @@ double jg_thermal_reionisation_depth(const jg_thermal *th);
  * reionisation (the tanh models are below 2e-9 of their full value there);
  * 0 without reionisation. */
 double jg_thermal_reionisation_onset(const jg_thermal *th);
-/* The astrophysical heating of the gas at z, d T_gas / d ln a in K (0
- * without heating): the term the T_gas equation adds to the expansion and
- * Compton terms. */
+/* The astrophysical heating gains of the gas at z, d T_gas / d ln a in K
+ * (0 without heating; >= 0): the heating table, the ionisation front and
+ * the photo-ionisation heating, without the recombination cooling that the
+ * T_gas equation subtracts. The perturbations relax delta_T at this rate
+ * over T_gas. */
 double jg_thermal_heating_rate(const jg_thermal *th, double z);
 /* The optical and drag depths without the reionised electrons, from which
  * z_star and z_drag are defined (as in the Planck analyses): exact above the

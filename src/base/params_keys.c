@@ -102,6 +102,12 @@ const jg__param_spec jg__param_specs[] = {
       "table's top (a relative name in a parameter file from that file's folder, one given "
       "with --set from the current folder); empty: none"},
      JG__KIND_FILE, P_OFF(thermal.heating_table), 0, 0, 0, 0, 0, 0, 0, 0, NULL, JG_MAX_PATH},
+    {{"thermal.ionisation_table", "quoted file name", "", "\"\"",
+      "empty, or a readable table (see the README); at most 1023 bytes",
+      "x_e (and optionally T_gas) against z, replacing the computed ones below the table's "
+      "top (a relative name in a parameter file from that file's folder, one given with --set "
+      "from the current folder); empty: none"},
+     JG__KIND_FILE, P_OFF(thermal.ionisation_table), 0, 0, 0, 0, 0, 0, 0, 0, NULL, JG_MAX_PATH},
 
     NUMBER("perturbations.k_min", perturbations.k_min, "1/Mpc", "1.0", "1 <= value <= 1e5",
            JG_PARAMS_K_LOWEST, 0, JG_PARAMS_K_HIGHEST, 0,
@@ -281,6 +287,7 @@ void jg_params_set_defaults(jg_params *p) {
   p->thermal.reionisation_temperature_K = 2.0e4;
   p->thermal.ionising_spectral_index = 1.5;
   p->thermal.heating_table[0] = '\0';
+  p->thermal.ionisation_table[0] = '\0';
 
   p->perturbations.k_min = 1.0;
   p->perturbations.k_max = 5000.0;

@@ -37,10 +37,12 @@
 static const double TAIL = 15.0;
 
 void jg__reionisation_init(jg__reionisation *m, const jg_thermal_settings *s,
-                           const jg_background *bg, const jg__heating_table *table) {
+                           const jg_background *bg, const jg__z_table *table,
+                           const jg__z_table *ionisation) {
   m->model = s->reionisation;
-  m->table = table ? *table : (jg__heating_table){0};
-  m->active = m->model != JG_REIONISATION_NONE || m->table.n > 0;
+  m->table = *table;
+  m->ionisation = *ionisation;
+  m->active = m->model != JG_REIONISATION_NONE || m->table.n > 0 || m->ionisation.n > 0;
   m->hydrogen_fraction = 1.0 - bg->cosmology.helium_mass_fraction;
   m->y_re = pow(1.0 + s->reionisation_redshift, 1.5);
   m->dy = 1.5 * sqrt(1.0 + s->reionisation_redshift) * s->reionisation_width;
@@ -49,10 +51,11 @@ void jg__reionisation_init(jg__reionisation *m, const jg_thermal_settings *s,
   m->f_he = bg->helium_to_hydrogen;
   const double z_h = pow(m->y_re + TAIL * m->dy, 2.0 / 3.0) - 1.0;
   const double z_he = m->z_he + TAIL * m->dz_he;
-  /* The earliest of the tanh tails and the heating table's top. */
+  /* The earliest of the tanh tails and the tables' tops. */
   const double z_model = m->model != JG_REIONISATION_NONE ? fmax(z_h, z_he) : 0.0;
   const double z_table = m->table.n > 0 ? expm1(m->table.ln_1pz[m->table.n - 1]) : 0.0;
-  m->ln_a_onset = -log1p(fmax(z_model, z_table));
+  const double z_ion = m->ionisation.n > 0 ? expm1(m->ionisation.ln_1pz[m->ionisation.n - 1]) : 0.0;
+  m->ln_a_onset = -log1p(fmax(fmax(z_model, z_table), z_ion));
   m->T_front = s->reionisation_temperature_K;
   m->heat_per_ionisation = JG_E_ION_HYDROGEN / (s->ionising_spectral_index + 2.0);
 }
@@ -92,24 +95,39 @@ double jg__reionised_hydrogen(const jg__reionised *r, double x_p) {
   return x_p + (1.0 - x_p) * r->s_h;
 }
 
-double jg__photo_heating_dlna(const jg__reionisation *m, const jg__reionised *r, double ln_a,
-                              double x_e, double T_gas, double n_H, double hubble) {
+/* The heating split into gains (table, front, photo-ionisation) and the
+ * recombination cooling, d T_gas / d ln a in K. */
+static void heating_parts(const jg__reionisation *m, const jg__reionised *r, double ln_a,
+                          double x_e, double T_gas, double n_H, double hubble, double *gain,
+                          double *loss) {
   /* The table's rate per baryon into temperature: (2/3) rate / k_B per
    * particle, n_b / n_particles = 1 / ((1 - Y)(1 + f_He + x_e)). */
-  const double particles_per_h = 1.0 + m->f_he + x_e;
-  const double table = m->table.n > 0 ? (2.0 / 3.0) * jg__heating_table_rate(&m->table, -ln_a) /
-                                            (JG_K_BOLTZMANN * m->hydrogen_fraction *
-                                             particles_per_h * hubble)
-                                      : 0.0;
-  if (m->model != JG_REIONISATION_TANH_HEATED) return table;
-  const double front = m->T_front * r->ds_h_dlna;
-  const double carried = JG_K_BOLTZMANN * T_gas * (0.684 - 0.0416 * log(T_gas / 1.0e4));
-  const double per_recombination = m->heat_per_ionisation - carried;
+  const double per_energy = (2.0 / 3.0) / (JG_K_BOLTZMANN * (1.0 + m->f_he + x_e) * hubble);
+  *gain = m->table.n > 0
+              ? per_energy * jg__heating_table_rate(&m->table, -ln_a) / m->hydrogen_fraction
+              : 0.0;
+  *loss = 0.0;
+  if (m->model != JG_REIONISATION_TANH_HEATED) return;
   /* The ionising background shines only in the reionised gas: the
    * recombinations it balances are those of the model's ionised hydrogen
    * (s_h), not of the residual ionisation left by recombination, which
    * would otherwise be photo-heated from the onset on. Per H nucleus, 1/s. */
   const double recombinations = jg__case_b_coefficient(T_gas, 1.0) * n_H * x_e * r->s_h;
-  return table + front + (2.0 / 3.0) * recombinations * per_recombination /
-                             (JG_K_BOLTZMANN * particles_per_h * hubble);
+  const double carried = JG_K_BOLTZMANN * T_gas * (0.684 - 0.0416 * log(T_gas / 1.0e4));
+  *gain += m->T_front * r->ds_h_dlna + per_energy * recombinations * m->heat_per_ionisation;
+  *loss = per_energy * recombinations * carried;
+}
+
+double jg__photo_heating_dlna(const jg__reionisation *m, const jg__reionised *r, double ln_a,
+                              double x_e, double T_gas, double n_H, double hubble) {
+  double gain, loss;
+  heating_parts(m, r, ln_a, x_e, T_gas, n_H, hubble, &gain, &loss);
+  return gain - loss;
+}
+
+double jg__heating_gain_dlna(const jg__reionisation *m, const jg__reionised *r, double ln_a,
+                             double x_e, double T_gas, double n_H, double hubble) {
+  double gain, loss;
+  heating_parts(m, r, ln_a, x_e, T_gas, n_H, hubble, &gain, &loss);
+  return gain;
 }

@@ -9,7 +9,7 @@
 
 #include <stdbool.h>
 
-#include "heating_table.h"
+#include "redshift_table.h"
 #include "jeansgrow/background.h"
 #include "jeansgrow/params.h"
 
@@ -24,7 +24,8 @@ typedef struct jg__reionisation {
   double T_front;         /* K, thermal.reionisation_temperature_K */
   double heat_per_ionisation; /* J, 13.6 eV / (alpha + 2) */
   double hydrogen_fraction;   /* 1 - Y: hydrogen nuclei per baryon (per m_H of gas) */
-  jg__heating_table table;    /* thermal.heating_table (n = 0: none); owned by the history */
+  jg__z_table table;          /* thermal.heating_table (n = 0: none); owned by the history */
+  jg__z_table ionisation;     /* thermal.ionisation_table (n = 0: none); owned by the history */
 } jg__reionisation;
 
 /* The ln a ranges where the model's fractions move (within TAIL widths of
@@ -32,10 +33,11 @@ typedef struct jg__reionisation {
  * reionisation. The history grid is refined there. */
 void jg__reionisation_fronts(const jg__reionisation *m, double ranges[2][2]);
 
-/* `table` (may be NULL or empty) is kept by value: its arrays stay the
- * caller's. */
+/* `table` and `ionisation` (heating and ionisation tables, each may be
+ * empty) are kept by value: their arrays stay the caller's. */
 void jg__reionisation_init(jg__reionisation *m, const jg_thermal_settings *s,
-                           const jg_background *bg, const jg__heating_table *table);
+                           const jg_background *bg, const jg__z_table *table,
+                           const jg__z_table *ionisation);
 
 /* Does the model act at ln a (below its onset redshift)? */
 static inline bool jg__reionisation_acts(const jg__reionisation *m, double ln_a) {
@@ -63,5 +65,8 @@ double jg__reionised_hydrogen(const jg__reionised *r, double x_p);
  * (1/s). */
 double jg__photo_heating_dlna(const jg__reionisation *m, const jg__reionised *r, double ln_a,
                               double x_e, double T_gas, double n_H, double hubble);
+/* Its gains alone (without the recombination cooling), >= 0. */
+double jg__heating_gain_dlna(const jg__reionisation *m, const jg__reionised *r, double ln_a,
+                             double x_e, double T_gas, double n_H, double hubble);
 
 #endif

@@ -55,7 +55,8 @@ struct jg_thermal {
   double drag_reion;    /* and their drag depth */
   double z_onset;       /* reionisation acts below this redshift (0: no model) */
   jg__reionisation reion;
-  jg__heating_table heating; /* thermal.heating_table (n = 0: none) */
+  jg__z_table heating;    /* thermal.heating_table (n = 0: none) */
+  jg__z_table ionisation; /* thermal.ionisation_table (n = 0: none) */
 };
 
 /* ------------------------------------------------------------------------ */
@@ -77,18 +78,25 @@ typedef struct local_state {
   bool reionising;
   jg__reionised reion;
   double x_e_all, x_p_all;
+  double x_e_base; /* the recombination history's x_e, or the ionisation table's */
 } local_state;
 
-/* Below the onset of reionisation: every free electron in the Compton rate
- * (d x_e_all / d x_e = 1 - s_h folded into its derivative). */
-static void add_reionisation(const history_system *sys, double x,
-                                                       double x_p, local_state *s) {
+/* Below the onset of reionisation (or of a table): every free electron in
+ * the Compton rate (d x_e_all / d x_e = 1 - s_h folded into its
+ * derivative; 0 where the ionisation table, which x_p does not move, gives
+ * x_e). */
+static void add_reionisation(const history_system *sys, double x, double x_p, local_state *s) {
+  const jg__z_table *table = &sys->reion.ionisation;
+  const bool tabulated = table->n > 0 && jg__z_table_covers(table, -x);
+  s->x_e_base = tabulated ? jg__ionisation_table_value(table, 0, -x) : s->x_e;
+  const double x_p_base = tabulated ? fmin(s->x_e_base, 1.0) : x_p;
   jg__reionisation_at(&sys->reion, x, &s->reion);
-  s->x_e_all = jg__reionised_electrons(&sys->reion, &s->reion, s->x_e);
-  s->x_p_all = jg__reionised_hydrogen(&s->reion, x_p);
+  s->x_e_all = jg__reionised_electrons(&sys->reion, &s->reion, s->x_e_base);
+  s->x_p_all = jg__reionised_hydrogen(&s->reion, x_p_base);
   s->compton = jg__compton_rate(sys->bg, s->T_rad, s->x_e_all);
-  s->dcompton_dxe =
-      jg__compton_rate_dxe(sys->bg, s->T_rad, s->x_e_all) * (1.0 - s->reion.s_h);
+  s->dcompton_dxe = tabulated ? 0.0
+                              : jg__compton_rate_dxe(sys->bg, s->T_rad, s->x_e_all) *
+                                    (1.0 - s->reion.s_h);
 }
 
 static int local_state_at(const history_system *sys, double x, double x_p, local_state *s) {
@@ -238,7 +246,8 @@ void jg_thermal_free(jg_thermal *th) {
   gsl_spline_free(th->ln_Tgas);
   gsl_spline_free(th->tau);
   gsl_spline_free(th->tau_drag);
-  jg__heating_table_free(&th->heating);
+  jg__z_table_free(&th->heating);
+  jg__z_table_free(&th->ionisation);
   free(th->ln_a);
   free(th);
 }
@@ -527,7 +536,15 @@ static jg_status integrate_history(history_run *r, double x_start, jg_error *err
   double x = r->x_handover, x_e;
   double y[2] = {saha_hydrogen_at(r->bg, x, &x_e), 0.0};
   const bool weak_at_handover = r->x_weak == r->x_handover;
-  const double x_quasi_static_end = reionising ? fmax(r->sys.reion.ln_a_onset, x) : 0.0;
+  /* Phase 3 is split at the onset of the models; phase 2 (quasi-static
+   * T_gas) ends there when something heats the gas or sets x_e, and else
+   * runs to its own end: a plain tanh model only adds electrons, and the
+   * nodes take the quasi-static T_gas with all of them. */
+  const jg__reionisation *m = &r->sys.reion;
+  const double x_split = reionising ? fmax(m->ln_a_onset, x) : 0.0;
+  const bool heated = m->model == JG_REIONISATION_TANH_HEATED || m->table.n > 0 ||
+                      m->ionisation.n > 0;
+  const double x_quasi_static_end = heated ? x_split : 0.0;
   if (st == JG_OK && !weak_at_handover)
     st = run_phase(r, drv_h, "hydrogen recombination", x_quasi_static_end, &x, y, err);
   r->first_integrated_T = r->n_spans;
@@ -540,9 +557,8 @@ static jg_status integrate_history(history_run *r, double x_start, jg_error *err
       /* With reionisation a step ends at its onset, so that the steps above
        * it (and the nodes filled from them) are those without it; below,
        * the system with reionisation takes over. */
-      if (x < x_quasi_static_end)
-        st = run_phase(r, drv_ht, "hydrogen and gas temperature", x_quasi_static_end, &x, y,
-                       err);
+      if (x < x_split)
+        st = run_phase(r, drv_ht, "hydrogen and gas temperature", x_split, &x, y, err);
       if (st == JG_OK && x < 0.0)
         st = run_phase(r, reionising ? drv_re : drv_ht,
                        reionising ? "reionisation and gas temperature"
@@ -672,10 +688,22 @@ static jg_status fill_nodes(const history_run *r, const jg_thermal *th, double *
     if (ls.reionising) {
       x_e[i] = ls.x_e_all;
       x_p[i] = ls.x_p_all;
-      added[i] = ls.x_e_all - ls.x_e;
+      added[i] = ls.x_e_all - ls.x_e_base;
     }
     T_gas[i] = integrated_T ? value_in_step(s, 1, x)
                             : jg__gas_temperature_quasi_static(ls.T_rad, ls.H, ls.compton);
+  }
+  /* The ionisation table replaces x_e also in the Saha era it may reach
+   * into, and its temperature column the computed T_gas. */
+  const jg__z_table *table = &r->sys.reion.ionisation;
+  for (int i = 0; table->n > 0 && i < th->n; i++) {
+    const double x = th->ln_a[i];
+    if (!jg__z_table_covers(table, -x)) continue;
+    if (x <= r->x_handover) {
+      x_e[i] = jg__ionisation_table_value(table, 0, -x);
+      x_p[i] = fmin(x_e[i], 1.0);
+    }
+    if (table->columns > 1) T_gas[i] = jg__ionisation_table_value(table, 1, -x);
   }
   return JG_OK;
 }
@@ -707,7 +735,17 @@ jg_thermal *jg_thermal_new(const jg_background *bg, const jg_thermal_settings *s
     jg_thermal_free(th);
     return NULL;
   }
-  jg__reionisation_init(&run.sys.reion, settings, bg, &th->heating);
+  if (st == JG_OK && settings->ionisation_table[0] &&
+      (st = jg__ionisation_table_read(settings->ionisation_table, settings->start_redshift,
+                                      (1.0 + 2.0 * bg->helium_to_hydrogen) * (1.0 + 1e-9),
+                                      &th->ionisation, err)) != JG_OK) {
+    char why[JG_ERROR_MESSAGE_SIZE];
+    snprintf(why, sizeof why, "%s", err->message);
+    JG_FAIL(err, st, "thermal.ionisation_table: %s", why);
+    jg_thermal_free(th);
+    return NULL;
+  }
+  jg__reionisation_init(&run.sys.reion, settings, bg, &th->heating, &th->ionisation);
   th->reion = run.sys.reion;
   th->z_onset = run.sys.reion.active ? z_of_ln_a(run.sys.reion.ln_a_onset) : 0.0;
   st = integrate_history(&run, th->ln_a_start, err);
@@ -755,7 +793,7 @@ double jg_thermal_heating_rate(const jg_thermal *th, double z) {
   const double a = exp(ln_a);
   jg__reionised r;
   jg__reionisation_at(&th->reion, ln_a, &r);
-  return jg__photo_heating_dlna(&th->reion, &r, ln_a, jg_thermal_x_e(th, ln_a),
+  return jg__heating_gain_dlna(&th->reion, &r, ln_a, jg_thermal_x_e(th, ln_a),
                                 jg_thermal_T_gas(th, ln_a), jg_background_n_hydrogen(th->bg, a),
                                 jg_background_hubble(th->bg, a));
 }

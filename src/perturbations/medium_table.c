@@ -73,7 +73,7 @@ static void thermal_coefficients(const jg_thermal *th, double x, double q[N_Q]) 
   q[Q_PRESSURE] = cT2 / (aH_mpc * aH_mpc);
   q[Q_DRAG] = n_e * JG_SIGMA_THOMSON * JG_C_LIGHT / (R * H);
   /* Heating per particle taken uniform (its own perturbation neglected):
-   * it relaxes delta_T as Compton does, at the rate heating / T_gas
+   * it relaxes delta_T as Compton does, at the rate (heating gains) / T_gas
    * (src/PHYSICS.md §11). Zero without heating. */
   q[Q_RELAX] = s.compton_rate * (s.T_rad / s.T_gas) / H + jg_thermal_heating_rate(th, s.z) / s.T_gas;
   q[Q_EXPANSION] = jg_background_dlnH_dlna(bg, a);
