@@ -244,6 +244,32 @@ static void remove_table(const char *path) {
   remove(dir);
 }
 
+/* The history refuses a heating table (ionisation = 0) or an ionisation
+ * table (1) holding `length` bytes of `text` (0: all of it) with
+ * JG_ECONFIG, naming the key, the file and `message` (its line). */
+static void assert_table_refused(int ionisation, const char *text, size_t length,
+                                 const char *message) {
+  char path[256];
+  write_table(path, text, length);
+  jg_params p;
+  jg_params_set_defaults(&p);
+  char *key = ionisation ? p.thermal.ionisation_table : p.thermal.heating_table;
+  snprintf(key, JG_MAX_PATH, "%s", path);
+  jg_error err;
+  jg_error_clear(&err);
+  jg_background *bg = jg_background_new(&p.cosmology, &err);
+  jg_thermal *th = jg_thermal_new(bg, &p.thermal, &err);
+  cr_assert_null(th, "accepted: %s", text);
+  cr_assert_eq(err.status, JG_ECONFIG, "%s", err.message);
+  cr_assert_not_null(strstr(err.message, ionisation ? "thermal.ionisation_table: "
+                                                    : "thermal.heating_table: "),
+                     "%s", err.message);
+  cr_assert_not_null(strstr(err.message, path), "%s", err.message);
+  cr_assert_not_null(strstr(err.message, message), "%s", err.message);
+  jg_background_free(bg);
+  remove_table(path);
+}
+
 TestSuite(heating_table, .init = quiet_gsl);
 
 /* A constant heating rate per baryon Q in an Einstein-de Sitter universe
@@ -311,24 +337,8 @@ Test(heating_table, bad_tables_are_refused_with_their_line) {
       {"0 1e-20\n\x7f" "ELF\x01\x00\x00\n", ":2: a zero byte (not a text table)", 15},
       {"0 1e-20\n", ": 1 data row(s); at least two are needed", 0},
   };
-  for (size_t i = 0; i < sizeof cases / sizeof cases[0]; i++) {
-    char path[256];
-    write_table(path, cases[i].text, cases[i].length);
-    jg_params p;
-    jg_params_set_defaults(&p);
-    snprintf(p.thermal.heating_table, sizeof p.thermal.heating_table, "%s", path);
-    jg_error err;
-    jg_error_clear(&err);
-    jg_background *bg = jg_background_new(&p.cosmology, &err);
-    jg_thermal *th = jg_thermal_new(bg, &p.thermal, &err);
-    cr_assert_null(th, "case %zu accepted", i);
-    cr_assert_eq(err.status, JG_ECONFIG, "case %zu: %s", i, err.message);
-    cr_assert_not_null(strstr(err.message, "thermal.heating_table: "), "%s", err.message);
-    cr_assert_not_null(strstr(err.message, path), "%s", err.message);
-    cr_assert_not_null(strstr(err.message, cases[i].message), "case %zu: %s", i, err.message);
-    jg_background_free(bg);
-    remove_table(path);
-  }
+  for (size_t i = 0; i < sizeof cases / sizeof cases[0]; i++)
+    assert_table_refused(0, cases[i].text, cases[i].length, cases[i].message);
 }
 
 /* ---- the user's ionisation table (thermal.ionisation_table) ---- */
@@ -412,21 +422,6 @@ Test(ionisation_table, bad_tables_are_refused_with_their_line) {
       {"0 1.16 -3\n10 0.0002 20\n", ":1: T_gas = -3 K must be > 0"},
       {"0 1.16\n9000 1.16\n", ":2: z = 9000 must satisfy 0 <= z <= 8000"},
   };
-  for (size_t i = 0; i < sizeof cases / sizeof cases[0]; i++) {
-    char path[256];
-    write_table(path, cases[i].text, 0);
-    jg_params p;
-    jg_params_set_defaults(&p);
-    snprintf(p.thermal.ionisation_table, sizeof p.thermal.ionisation_table, "%s", path);
-    jg_error err;
-    jg_error_clear(&err);
-    jg_background *bg = jg_background_new(&p.cosmology, &err);
-    jg_thermal *th = jg_thermal_new(bg, &p.thermal, &err);
-    cr_assert_null(th, "case %zu accepted", i);
-    cr_assert_eq(err.status, JG_ECONFIG, "case %zu: %s", i, err.message);
-    cr_assert_not_null(strstr(err.message, "thermal.ionisation_table: "), "%s", err.message);
-    cr_assert_not_null(strstr(err.message, cases[i].message), "case %zu: %s", i, err.message);
-    jg_background_free(bg);
-    remove_table(path);
-  }
+  for (size_t i = 0; i < sizeof cases / sizeof cases[0]; i++)
+    assert_table_refused(1, cases[i].text, 0, cases[i].message);
 }

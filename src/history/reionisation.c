@@ -65,11 +65,15 @@ void jg__reionisation_fronts(const jg__reionisation *m, double ranges[2][2]) {
     ranges[0][0] = ranges[0][1] = ranges[1][0] = ranges[1][1] = 0.0;
     return;
   }
-  const double y_low = m->y_re - TAIL * m->dy;
+  /* From the onset (TAIL widths before the centre) to AFTER widths past
+   * it: beyond, the fraction still missing (e^-2u < 5e-5) changes x_e by
+   * too little for the spline to need more than the uniform nodes. */
+  const double AFTER = 5.0;
+  const double y_low = m->y_re - AFTER * m->dy;
   ranges[0][0] = -log1p(pow(m->y_re + TAIL * m->dy, 2.0 / 3.0) - 1.0);
   ranges[0][1] = y_low > 1.0 ? -log(pow(y_low, 2.0 / 3.0)) : 0.0;
   ranges[1][0] = -log1p(m->z_he + TAIL * m->dz_he);
-  ranges[1][1] = m->z_he - TAIL * m->dz_he > 0.0 ? -log1p(m->z_he - TAIL * m->dz_he) : 0.0;
+  ranges[1][1] = m->z_he - AFTER * m->dz_he > 0.0 ? -log1p(m->z_he - AFTER * m->dz_he) : 0.0;
 }
 
 void jg__reionisation_at(const jg__reionisation *m, double ln_a, jg__reionised *r) {

@@ -28,9 +28,10 @@ typedef struct jg__reionisation {
   jg__z_table ionisation;     /* thermal.ionisation_table (n = 0: none); owned by the history */
 } jg__reionisation;
 
-/* The ln a ranges where the model's fractions move (within TAIL widths of
- * the hydrogen and the helium tanh, cut at today); both empty without
- * reionisation. The history grid is refined there. */
+/* The ln a ranges where the model's fractions grow from nothing (the
+ * hydrogen and the helium tanh from their onset to 5 widths past their
+ * centre, cut at today); both empty without reionisation. The history grid
+ * is refined there: [0] for hydrogen, [1] for helium. */
 void jg__reionisation_fronts(const jg__reionisation *m, double ranges[2][2]);
 
 /* `table` and `ionisation` (heating and ionisation tables, each may be

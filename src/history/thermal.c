@@ -586,10 +586,12 @@ static jg_status integrate_history(history_run *r, double x_start, jg_error *err
  * per node), whatever the uniform spacing. */
 static const double GRADED_FINEST = 1e-6, GRADED_RATIO = 1.5, GRADED_WIDTH = 0.05;
 /* Node spacing in ln a across the reionisation fronts: the tanh tails grow
- * like exp(2 u), about e^36 per unit ln a at z_re = 7.67 and Delta z = 0.5,
- * and a cubic spline through an exponential of rate q errs by ~ (q h)^4/384:
- * 4e-6 with the default uniform spacing (0.006), 7e-8 at 0.002. */
-static const double FRONT_SPACING = 0.002;
+ * like exp(2 u), about e^36 per unit ln a for hydrogen at z_re = 7.67 and
+ * Delta z = 0.5 (a tanh in (1+z)^1.5), e^18 for helium at 3.5 and 0.5 (a
+ * tanh in z), and a cubic spline through an exponential of rate q errs by
+ * ~ (q h)^4/384: 4e-6 with the default uniform spacing (0.006), 7e-8 at
+ * 0.002 for hydrogen and 0.004 for helium. */
+static const double FRONT_SPACING[2] = {0.002, 0.004};
 
 static int compare_doubles(const void *a, const void *b) {
   double x = *(const double *)a, y = *(const double *)b;
@@ -610,7 +612,7 @@ static jg_status build_grid(jg_thermal *th, const history_run *r, int uniform, j
   jg__reionisation_fronts(&r->sys.reion, fronts);
   int front_nodes = 0;
   for (int f = 0; f < 2; f++)
-    front_nodes += (int)ceil((fronts[f][1] - fronts[f][0]) / FRONT_SPACING);
+    front_nodes += (int)ceil((fronts[f][1] - fronts[f][0]) / FRONT_SPACING[f]);
   const int capacity = uniform + n_places * (2 * graded_per_side + 1) + front_nodes;
   th->ln_a = malloc(sizeof(double) * (size_t)capacity);
   if (!th->ln_a) return JG_FAIL(err, JG_ENOMEM, "out of memory for the thermal history");
@@ -630,7 +632,7 @@ static jg_status build_grid(jg_thermal *th, const history_run *r, int uniform, j
     }
   }
   for (int f = 0; f < 2; f++)
-    for (double x = fronts[f][0]; x < fronts[f][1] && n < capacity; x += FRONT_SPACING)
+    for (double x = fronts[f][0]; x < fronts[f][1] && n < capacity; x += FRONT_SPACING[f])
       if (x > start) th->ln_a[n++] = x;
   /* The uniform nodes are in order already: sort the few graded ones and
    * merge, dropping nodes that (nearly) repeat one (the spline needs strictly
