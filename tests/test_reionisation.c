@@ -16,6 +16,7 @@
 #include "jeansgrow/constants.h"
 #include "jeansgrow/epochs.h"
 #include "jeansgrow/params.h"
+#include "jeansgrow/perturb.h"
 #include "jeansgrow/scales.h"
 #include "jeansgrow/thermal.h"
 #include "real_case.h"
@@ -424,4 +425,73 @@ Test(ionisation_table, bad_tables_are_refused_with_their_line) {
   };
   for (size_t i = 0; i < sizeof cases / sizeof cases[0]; i++)
     assert_table_refused(1, cases[i].text, 0, cases[i].message);
+}
+
+/* ---- a temperature step: Gnedin & Hui in closed form ---- */
+
+/* Einstein-de Sitter, baryon gravity negligible (f_b = 0), no drag, the
+ * isothermal sound speed of gas heated at a_t from (practically) nothing to
+ * a constant temperature, as by an instantaneous reionisation: p = 0 before
+ * a_t, and p = (3/2) C a / a_t after (c_s^2 fixed and (aH)^2 ~ 1/a), so
+ * 1/k_J^2 = C a / a_t. */
+typedef struct step_medium {
+  double C, a_t;
+} step_medium;
+
+static int step_eval(const void *ctx, double ln_a, jg_medium_coefficients *c) {
+  const step_medium *g = ctx;
+  const double a = exp(ln_a);
+  c->dlnH_dlna = -1.5;
+  c->gravity = 1.5;
+  c->baryon_fraction = 0.0;
+  c->pressure = a > g->a_t ? 1.5 * g->C * a / g->a_t : 0.0;
+  c->drag = 0.0;
+  c->relaxation = 0.0;
+  return 0;
+}
+
+/* The Gnedin & Hui (1998, MNRAS 296, 44) integral in EdS (§7.4),
+ * 1/k_F^2 = (3/a) int da' (1 - sqrt(a'/a)) / k_J^2(a'), for this history
+ * (derived, §10.8): with x = a_t/a,
+ *   1/k_F^2 = (3 C / x) [1/10 - x^2/2 + (2/5) x^(5/2)],
+ *   (k_F/k_J)^2 = 1 / (3 [1/10 - x^2/2 + (2/5) x^(5/2)]) -> 10/3 long after.
+ * Their assumptions hold here (baryons on the dark matter from the start,
+ * no drag, isothermal, EdS), so the measured k_F (the k^2 coefficient of
+ * the solved delta_b) and the integral must both give it: 1e-6, the
+ * accuracy the existing two-phase test reaches with these tolerances. */
+Test(reionisation, temperature_step_gnedin_hui_closed_form) {
+  step_medium g = {1e-2, 1e-2};
+  jg_medium md = {step_eval, &g, 0.0, -40.0, 10.0, 0.0, 1e30, 1.0};
+  jg_perturb_settings s;
+  memset(&s, 0, sizeof s);
+  s.z_initial = 1.0 / 1e-4 - 1.0;
+  s.sound_speed = JG_SOUND_SPEED_ISOTHERMAL;
+  s.rel_tol = 1e-11;
+  s.abs_tol = 1e-14;
+  jg_perturb_start start = {1.0, 1.0, 0.0};
+  jg_error err;
+  jg_error_clear(&err);
+  jg_perturb_model *m = jg_perturb_model_new_medium(&md, &s, &start, &err);
+  cr_assert_not_null(m, "%s", err.message);
+  jg_perturb_workspace *w = jg_perturb_workspace_new(m, &err);
+  cr_assert_not_null(w, "%s", err.message);
+  const double x[] = {0.5, 0.1, 0.01};
+  double z[3];
+  for (int i = 0; i < 3; i++) z[i] = x[i] / g.a_t - 1.0;
+  jg_scales_point sc[3];
+  cr_assert_eq(jg_scales_compute(m, w, z, 3, sc, &err), JG_OK, "%s", err.message);
+  for (int i = 0; i < 3; i++) {
+    const double bracket = 0.1 - 0.5 * x[i] * x[i] + 0.4 * pow(x[i], 2.5);
+    const double inverse_kf2 = 3.0 * g.C / x[i] * bracket;
+    const double kj = sqrt(x[i] / g.C);
+    ASSERT_REL(sc[i].k_jeans_isothermal, kj, 1e-12, "k_J at x = %g", x[i]);
+    ASSERT_REL(1.0 / (sc[i].k_filter_solved * sc[i].k_filter_solved), inverse_kf2, 1e-6,
+               "measured 1/k_F^2 at x = %g", x[i]);
+    ASSERT_REL(1.0 / (sc[i].k_filter_integral_isothermal * sc[i].k_filter_integral_isothermal),
+               inverse_kf2, 1e-6, "Gnedin-Hui integral 1/k_F^2 at x = %g", x[i]);
+    ASSERT_REL(sc[i].k_filter_solved / kj, 1.0 / sqrt(3.0 * bracket), 1e-6, "k_F/k_J at x = %g",
+               x[i]);
+  }
+  jg_perturb_workspace_free(w);
+  jg_perturb_model_free(m);
 }
