@@ -49,7 +49,8 @@ static jg_status parse_numbers(const char *path, int line_no, char *line, double
       return JG_FAIL(err, JG_ECONFIG, "%s:%d: '%.40s' is not a number", path, line_no, tok);
     if (!isfinite(x) || errno == ERANGE)
       return JG_FAIL(err, JG_ECONFIG, "%s:%d: value %d ('%.40s') is %s", path, line_no, *n + 1,
-                     tok, isfinite(x) ? "beyond the range of double precision" : "not a finite number");
+                     tok,
+                     isfinite(x) ? "beyond the range of double precision" : "not a finite number");
     v[(*n)++] = x;
   }
   return JG_OK;

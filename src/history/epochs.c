@@ -165,12 +165,12 @@ jg_status jg_epochs_compute(const jg_thermal *th, jg_epochs *e, jg_error *err) {
    * again and the visibility has a second peak: the decoupling and the
    * recombination peak are searched above it. */
   const double z_onset = jg_thermal_reionisation_onset(th);
-  jg_status st = find_crossing(th, jg_thermal_recombination_optical_depth, 1.0, 1.0, z_top, "z_star",
-                               "the Thomson optical depth", &e->z_star, &star,
+  jg_status st = find_crossing(th, jg_thermal_recombination_optical_depth, 1.0, 1.0, z_top,
+                               "z_star", "the Thomson optical depth", &e->z_star, &star,
                                e->reason[JG_EPOCH_Z_STAR], err);
   if (st == JG_OK)
-    st = find_crossing(th, jg_thermal_recombination_drag_depth, 1.0, 1.0, z_top, "z_drag", "the drag depth",
-                       &e->z_drag, &drag, e->reason[JG_EPOCH_Z_DRAG], err);
+    st = find_crossing(th, jg_thermal_recombination_drag_depth, 1.0, 1.0, z_top, "z_drag",
+                       "the drag depth", &e->z_drag, &drag, e->reason[JG_EPOCH_Z_DRAG], err);
   if (st == JG_OK)
     st = visibility_peak(th, z_onset, z_top, &e->z_visibility_peak, &peak,
                          e->reason[JG_EPOCH_Z_VISIBILITY_PEAK], err);
@@ -188,8 +188,9 @@ jg_status jg_epochs_compute(const jg_thermal *th, jg_epochs *e, jg_error *err) {
     e->tau_reion = jg_thermal_reionisation_depth(th);
     if (!reion) set_absent(e, JG_EPOCH_Z_REION, &e->z_reion, NULL);
   } else {
-    set_absent(e, JG_EPOCH_TAU_REION, &e->tau_reion, "no reionisation (thermal.reionisation)");
-    set_absent(e, JG_EPOCH_Z_REION, &e->z_reion, "no reionisation (thermal.reionisation)");
+    const char *why = "no reionisation model: thermal.reionisation is none";
+    set_absent(e, JG_EPOCH_TAU_REION, &e->tau_reion, "%s", why);
+    set_absent(e, JG_EPOCH_Z_REION, &e->z_reion, "%s", why);
   }
   /* The searches wrote their own reasons. */
   if (!star) set_absent(e, JG_EPOCH_Z_STAR, &e->z_star, NULL);

@@ -75,7 +75,8 @@ static void thermal_coefficients(const jg_thermal *th, double x, double q[N_Q]) 
   /* Heating per particle taken uniform (its own perturbation neglected):
    * it relaxes delta_T as Compton does, at the rate (heating gains) / T_gas
    * (src/PHYSICS.md §11). Zero without heating. */
-  q[Q_RELAX] = s.compton_rate * (s.T_rad / s.T_gas) / H + jg_thermal_heating_rate(th, s.z) / s.T_gas;
+  q[Q_RELAX] =
+      s.compton_rate * (s.T_rad / s.T_gas) / H + jg_thermal_heating_rate(th, s.z) / s.T_gas;
   q[Q_EXPANSION] = jg_background_dlnH_dlna(bg, a);
   q[Q_GRAVITY] = 1.5 * jg_background_omega_m_of_a(bg, a);
 }
