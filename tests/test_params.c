@@ -657,11 +657,13 @@ static const char *stage_refusal(const char *key, double value, jg_error *err) {
   jg_error_clear(err);
   int whole = strcmp(key, "perturbations.sound_speed") == 0 ||
               strcmp(key, "perturbations.stepper") == 0 ||
-              strcmp(key, "perturbations.ionisation_perturbation") == 0;
+              strcmp(key, "perturbations.ionisation_perturbation") == 0 ||
+              strcmp(key, "thermal.reionisation") == 0;
   if (whole) {
     if (strcmp(key, "perturbations.stepper") == 0) loaded.perturbations.stepper = (int)value;
     else if (strcmp(key, "perturbations.ionisation_perturbation") == 0)
       loaded.perturbations.ionisation_perturbation = (int)value;
+    else if (strcmp(key, "thermal.reionisation") == 0) loaded.thermal.reionisation = (int)value;
     else loaded.perturbations.sound_speed = (int)value;
   } else if (strcmp(key, "perturbations.k_values") == 0) {
     loaded.perturbations.n_k_values = 1;
@@ -722,7 +724,8 @@ Test(params, every_range_is_the_one_the_stages_check) {
       "perturbations.initial_gauge", "perturbations.initial_second_table",
       "perturbations.initial_second_redshift", "output.redshifts",
       "output.history_rows",     "output.history_z_min",        "output.units",
-      "output.mass_radius", NULL};
+      "output.mass_radius",
+      "thermal.heating_table",   "thermal.ionisation_table", NULL};
   const jg_param_doc *d;
   int stage_keys = 0;
   for (int i = 0; (d = jg_param_doc_at(i)) != NULL; i++) {

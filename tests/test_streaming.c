@@ -3,7 +3,7 @@
  * src/results/stream_results.c): quadrature rules, the analytic phase
  * rotation, the identities at zero velocity, the conjugate symmetry, the
  * small-k law, node doubling, the 1-D average against the 2-D one, and
- * published values (src/PHYSICS.md §7.8, §10.8). Each check names its source.
+ * published values (src/PHYSICS.md §7.8, §10.9). Each check names its source.
  */
 #include <gsl/gsl_eigen.h>
 #include <gsl/gsl_sf_gamma.h>

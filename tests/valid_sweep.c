@@ -36,6 +36,7 @@
  */
 #include <errno.h>
 #include <math.h>
+#include <stdbool.h>
 #include <pthread.h>
 #include <stdarg.h>
 #include <stdint.h>
@@ -222,11 +223,10 @@ static int draw_all(rng *r, const sweep_options *o, double k_floor, drawn *d, ch
       set_text(d, key, "%s", rng_next(r) % 2 ? "true" : "false");
       continue;
     }
-    if (!strcmp(key, "perturbations.initial_table") || !strcmp(key, "perturbations.k_values") ||
+    if (!strcmp(doc->type, "quoted file name") || !strcmp(key, "perturbations.k_values") ||
         !strcmp(key, "perturbations.initial_columns") ||
-        !strcmp(key, "perturbations.initial_second_table") ||
         !strcmp(key, "perturbations.initial_second_redshift"))
-      continue; /* a file and its layout (tests/test_perturb.c), and the grid's list twin
+      continue; /* files and a table's layout (their own tests), and the grid's list twin
                  * (the grid is drawn) */
     bound lo, hi;
     if (!parse_range(doc->allowed, &lo, &hi)) {
@@ -401,7 +401,11 @@ static void run_one(const sweep_options *o, long index, int attempt, FILE *sink,
     const jg_scales_point *q = &s[i];
     jg_thermal_state ts;
     jg_thermal_state_at(th, z[i], &ts);
-    FAIL_IF(!finite_positive(ts.T_gas) || ts.T_gas > ts.T_rad * slack, "scales",
+    /* Photo-heating lifts the gas above T_rad, below the onset of
+     * reionisation only. */
+    const bool heated = p->thermal.reionisation == JG_REIONISATION_TANH_HEATED &&
+                        z[i] < jg_thermal_reionisation_onset(th);
+    FAIL_IF(!finite_positive(ts.T_gas) || (!heated && ts.T_gas > ts.T_rad * slack), "scales",
             "z = %g: T_gas = %g K, T_rad = %g K (need 0 < T_gas <= T_rad)", z[i], ts.T_gas,
             ts.T_rad);
     FAIL_IF(!finite_positive(ts.x_e) || ts.x_e > x_e_max * slack, "scales",

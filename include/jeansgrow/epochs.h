@@ -28,6 +28,8 @@ enum {
   JG_EPOCH_Z_GAS_DECOUPLING,
   JG_EPOCH_X_E_Z100,
   JG_EPOCH_T_GAS_Z100,
+  JG_EPOCH_TAU_REION,
+  JG_EPOCH_Z_REION,
   JG_EPOCH_COUNT
 };
 
@@ -46,6 +48,9 @@ typedef struct jg_epochs {
   double z_gas_decoupling; /* T_gas / T_rad = 0.9 */
   double x_e_z100;         /* residual ionisation at z = 100 */
   double T_gas_z100;       /* gas temperature at z = 100, K */
+  double tau_reion;        /* Thomson optical depth of the reionised electrons (absent without
+                              reionisation) */
+  double z_reion;          /* where the ionised hydrogen fraction reaches one half on its way up */
   /* Bit i set: entry i does not exist in this universe; its value is 0 and
    * reason[i] says why in one line. An absent z_star makes r_star and
    * theta_star_100 absent, an absent z_drag r_drag. */

@@ -62,7 +62,27 @@ typedef struct jg_thermal_settings {
   double rel_tol;            /* relative tolerance of the stiff integration */
   double abs_tol;            /* absolute tolerance (x_p and T_gas in K) */
   int grid_points;           /* stored-history nodes uniform in ln a (plus graded ones) */
+  /* Reionisation and photo-heating (src/PHYSICS.md §12); off by default. */
+  int reionisation;          /* a jg_reionisation_model */
+  double reionisation_redshift;        /* z where the tanh model has ionised half the hydrogen */
+  double reionisation_width;           /* its width Delta z */
+  double helium_reionisation_redshift; /* z of the second helium ionisation (He II -> He III) */
+  double helium_reionisation_width;    /* its width Delta z */
+  double reionisation_temperature_K;   /* temperature the gas is heated to as it is ionised */
+  double ionising_spectral_index;      /* alpha of J_nu ~ nu^-alpha beyond 13.6 eV */
+  /* Heating per baryon against z from a file (README, "Heating table"); empty: none. */
+  char heating_table[JG_MAX_PATH];
+  /* x_e (and optionally T_gas) against z from a file, replacing the computed
+   * ones below its top (README, "Ionisation table"); empty: none. */
+  char ionisation_table[JG_MAX_PATH];
 } jg_thermal_settings;
+
+/* The reionisation of the intergalactic gas (thermal.reionisation). */
+typedef enum {
+  JG_REIONISATION_NONE = 0,  /* no reionisation: the history of a universe without stars */
+  JG_REIONISATION_TANH = 1,  /* ionised fraction a tanh in (1+z)^(3/2); temperature unheated */
+  JG_REIONISATION_TANH_HEATED = 2 /* the same, with photo-heating of the ionised gas */
+} jg_reionisation_model;
 
 /* How the gas pressure responds to a density fluctuation. */
 typedef enum {

@@ -16,7 +16,13 @@
  * splines.
  *
  * Above thermal.start_redshift the history is Saha equilibrium and the
- * quasi-static temperature, evaluated directly. No reionisation.
+ * quasi-static temperature, evaluated directly.
+ *
+ * Reionisation (thermal.reionisation, off by default): the tanh model of
+ * hydrogen with He I and of He II, added to the recombination history's
+ * ionisation below its onset; with "tanh+heating" the gas is heated by the
+ * ionisation front and photo-heated in ionisation equilibrium
+ * (src/PHYSICS.md §12).
  *
  * Read-only after jg_thermal_new(): share one between threads freely.
  */
@@ -95,7 +101,7 @@ typedef struct jg_ionisation_response {
 void jg_thermal_ionisation_response(const jg_thermal *th, double ln_a,
                                     jg_ionisation_response *out);
 
-/* Thomson optical depth from today back to z (no reionisation). */
+/* Thomson optical depth from today back to z (reionisation included). */
 double jg_thermal_optical_depth(const jg_thermal *th, double z);
 /* Visibility per unit redshift, g = (dtau/dz) exp(-tau). */
 double jg_thermal_visibility(const jg_thermal *th, double z);
@@ -105,6 +111,26 @@ double jg_thermal_drag_depth(const jg_thermal *th, double z);
 
 /* Highest redshift of the stored grid (thermal.start_redshift). */
 double jg_thermal_start_redshift(const jg_thermal *th);
+
+/* tau_reion: the Thomson optical depth of the electrons the reionisation
+ * model adds, from today to its onset (the residual ionisation left by
+ * recombination is not in it); 0 without reionisation. */
+double jg_thermal_reionisation_depth(const jg_thermal *th);
+/* The redshift above which the history is that of a universe without
+ * reionisation (the tanh models are below 2e-9 of their full value there);
+ * 0 without reionisation. */
+double jg_thermal_reionisation_onset(const jg_thermal *th);
+/* The astrophysical heating gains of the gas at z, d T_gas / d ln a in K
+ * (0 without heating; >= 0): the heating table, the ionisation front and
+ * the photo-ionisation heating, without the recombination cooling that the
+ * T_gas equation subtracts. The perturbations relax delta_T at this rate
+ * over T_gas. */
+double jg_thermal_heating_rate(const jg_thermal *th, double z);
+/* The optical and drag depths without the reionised electrons, from which
+ * z_star and z_drag are defined (as in the Planck analyses): exact above the
+ * onset of reionisation, the depths less tau_reion (at least 0) below it. */
+double jg_thermal_recombination_optical_depth(const jg_thermal *th, double z);
+double jg_thermal_recombination_drag_depth(const jg_thermal *th, double z);
 
 #ifdef __cplusplus
 }

@@ -33,6 +33,7 @@ static const char *const mass_radius_words[] = {"half_wavelength", "full_wavelen
 static const char *const table_k_unit_words[] = {"1/Mpc", "h/Mpc", NULL};
 static const char *const table_separator_words[] = {"blanks", "commas", NULL};
 static const char *const table_gauge_words[] = {"newtonian", "synchronous", NULL};
+static const char *const reionisation_words[] = {"none", "tanh", "tanh+heating", NULL};
 
 const jg__param_spec jg__param_specs[] = {
     REQUIRED_NUMBER("cosmology.hubble_h", cosmology.hubble_h, "", "0.1 <= value <= 5", 0.1, 0, 5, 0,
@@ -76,6 +77,42 @@ const jg__param_spec jg__param_specs[] = {
             1000000,
             "nodes of the stored history uniform in ln a (about 160 more are graded around the "
             "phase switches and the ends)"),
+    {{"thermal.reionisation", "one of \"none\", \"tanh\", \"tanh+heating\"", "", "\"none\"",
+      "none, tanh or tanh+heating",
+      "reionisation of H and He: none; the ionised fraction a tanh in (1+z)^(3/2) (ionisation "
+      "only); or the same with the gas photo-heated (README, \"Reionisation and heating\")"},
+     JG__KIND_CHOICE, P_OFF(thermal.reionisation), 0, 0, 0, 0, 0, 2, 0, 0, reionisation_words, 0},
+    NUMBER("thermal.reionisation_redshift", thermal.reionisation_redshift, "", "7.67",
+           "2 <= value <= 30", 2, 0, 30, 0,
+           "redshift where half the hydrogen (and He I) is reionised (Planck 2018: 7.67)"),
+    NUMBER("thermal.reionisation_width", thermal.reionisation_width, "", "0.5",
+           "0.05 <= value <= 5", 0.05, 0, 5, 0,
+           "width Delta z of the hydrogen reionisation tanh"),
+    NUMBER("thermal.helium_reionisation_redshift", thermal.helium_reionisation_redshift, "", "3.5",
+           "0.5 <= value <= 10", 0.5, 0, 10, 0,
+           "redshift where half the helium is doubly ionised"),
+    NUMBER("thermal.helium_reionisation_width", thermal.helium_reionisation_width, "", "0.5",
+           "0.05 <= value <= 5", 0.05, 0, 5, 0,
+           "width Delta z of the helium double-ionisation tanh"),
+    NUMBER("thermal.reionisation_temperature_K", thermal.reionisation_temperature_K, "K",
+           "20000.0", "1000 <= value <= 100000", 1000, 0, 1e5, 0,
+           "tanh+heating: temperature the gas is heated to as it is ionised"),
+    NUMBER("thermal.ionising_spectral_index", thermal.ionising_spectral_index, "", "1.5",
+           "0 <= value <= 5", 0, 0, 5, 0,
+           "tanh+heating: alpha of the ionising spectrum J_nu ~ nu^-alpha; each photo-ionisation "
+           "of the residual H I leaves 13.6 eV / (alpha + 2) as heat"),
+    {{"thermal.heating_table", "quoted file name", "", "\"\"",
+      "empty, or a readable table (see the README); at most 1023 bytes",
+      "heating rate per baryon against z, added to the gas-temperature equation below the "
+      "table's top (a relative name in a parameter file from that file's folder, one given "
+      "with --set from the current folder); empty: none"},
+     JG__KIND_FILE, P_OFF(thermal.heating_table), 0, 0, 0, 0, 0, 0, 0, 0, NULL, JG_MAX_PATH},
+    {{"thermal.ionisation_table", "quoted file name", "", "\"\"",
+      "empty, or a readable table (see the README); at most 1023 bytes",
+      "x_e (and optionally T_gas) against z, replacing the computed ones below the table's "
+      "top (a relative name in a parameter file from that file's folder, one given with --set "
+      "from the current folder); empty: none"},
+     JG__KIND_FILE, P_OFF(thermal.ionisation_table), 0, 0, 0, 0, 0, 0, 0, 0, NULL, JG_MAX_PATH},
 
     NUMBER("perturbations.k_min", perturbations.k_min, "1/Mpc", "1.0", "1 <= value <= 1e5",
            JG_PARAMS_K_LOWEST, 0, JG_PARAMS_K_HIGHEST, 0,
@@ -339,6 +376,15 @@ void jg_params_set_defaults(jg_params *p) {
   p->thermal.rel_tol = 1e-10;
   p->thermal.abs_tol = 1e-12;
   p->thermal.grid_points = 1500;
+  p->thermal.reionisation = JG_REIONISATION_NONE;
+  p->thermal.reionisation_redshift = 7.67;
+  p->thermal.reionisation_width = 0.5;
+  p->thermal.helium_reionisation_redshift = 3.5;
+  p->thermal.helium_reionisation_width = 0.5;
+  p->thermal.reionisation_temperature_K = 2.0e4;
+  p->thermal.ionising_spectral_index = 1.5;
+  p->thermal.heating_table[0] = '\0';
+  p->thermal.ionisation_table[0] = '\0';
 
   p->perturbations.k_min = 1.0;
   p->perturbations.k_max = 5000.0;

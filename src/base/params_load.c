@@ -12,6 +12,7 @@
 #include <string.h>
 #include <sys/stat.h>
 
+#include "number_rows.h"
 #include "params_internal.h"
 #include "alloc.h" /* last: test builds route allocations through it */
 
@@ -348,7 +349,15 @@ void jg_params_write_header(FILE *f, const jg_params *p) {
         if (*c == '"' || *c == '\\') fputc('\\', f);
         fputc(*c, f);
       }
-      fputs("\";\n", f);
+      fputs("\";", f);
+      /* Which table was read, not only its name: a checksum of its bytes,
+       * as a comment that reads back as one. */
+      const char *path = (const char *)p + s->offset;
+      uint64_t sum;
+      long bytes;
+      if (s->kind == JG__KIND_FILE && *path && jg__file_checksum(path, &sum, &bytes))
+        fprintf(f, " // %ld bytes, FNV-1a 64 %016llx", bytes, (unsigned long long)sum);
+      fputc('\n', f);
       break;
     }
     case JG__KIND_NUMBER_LIST: {

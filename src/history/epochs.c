@@ -1,8 +1,9 @@
 /*
  * Derived epochs: photon decoupling (tau = 1, the Planck definition of z_star),
  * the visibility peak, the end of baryon drag (tau_drag = 1), the sound
- * horizons there, equality, the age, and the gas decoupling redshift where
- * T_gas / T_rad falls to 0.9.
+ * horizons there, equality, the age, the gas decoupling redshift where
+ * T_gas / T_rad falls to 0.9, and with reionisation its optical depth and
+ * the redshift where half the hydrogen is ionised again.
  */
 #include "jeansgrow/epochs.h"
 
@@ -84,6 +85,12 @@ static jg_status find_crossing(const jg_thermal *th, z_function f, double level,
   return JG_OK;
 }
 
+static double ionised_hydrogen(const jg_thermal *th, double z) {
+  jg_thermal_state s;
+  jg_thermal_state_at(th, z, &s);
+  return s.x_p;
+}
+
 static double temperature_ratio(const jg_thermal *th, double z) {
   jg_thermal_state s;
   jg_thermal_state_at(th, z, &s);
@@ -106,15 +113,15 @@ static double minus_visibility(double z, void *p) {
  * baryons are scarce, tau climbs slowly and reaches 1 well above the peak
  * (omega_b h^2 = 0.001 with T_cmb = 5 K puts z_star ~20 % above it), and a
  * bracket that does not enclose the minimum is refused by GSL. */
-static jg_status visibility_peak(const jg_thermal *th, double z_top, double *z, int *found,
-                                 char reason[JG_EPOCH_REASON_SIZE], jg_error *err) {
+static jg_status visibility_peak(const jg_thermal *th, double z_low, double z_top, double *z,
+                                 int *found, char reason[JG_EPOCH_REASON_SIZE], jg_error *err) {
   history_ref ref = {th};
   gsl_function F = {minus_visibility, &ref};
-  const double span = log1p(z_top);
+  const double base = log1p(z_low), span = log1p(z_top) - base;
   int best = 0;
   double best_g = -1.0;
   for (int i = 0; i < VISIBILITY_SAMPLES; i++) {
-    double g = jg_thermal_visibility(th, expm1(span * i / (VISIBILITY_SAMPLES - 1)));
+    double g = jg_thermal_visibility(th, expm1(base + span * i / (VISIBILITY_SAMPLES - 1)));
     if (g > best_g) best_g = g, best = i;
   }
   *found = 0;
@@ -122,14 +129,14 @@ static jg_status visibility_peak(const jg_thermal *th, double z_top, double *z, 
     return JG_FAIL(err, JG_ENUMERIC, "visibility peak: the visibility is not finite");
   if (best == 0 || best == VISIBILITY_SAMPLES - 1) {
     snprintf(reason, JG_EPOCH_REASON_SIZE,
-             "the visibility has no maximum between z = 0 and z = %g; it is largest at z = %g",
-             z_top, best == 0 ? 0.0 : z_top);
+             "the visibility has no maximum between z = %g and z = %g; it is largest at z = %g",
+             z_low, z_top, best == 0 ? z_low : z_top);
     return JG_OK;
   }
   *found = 1;
-  double lo = expm1(span * (best - 1) / (VISIBILITY_SAMPLES - 1));
-  double hi = expm1(span * (best + 1) / (VISIBILITY_SAMPLES - 1));
-  double guess = expm1(span * best / (VISIBILITY_SAMPLES - 1));
+  double lo = expm1(base + span * (best - 1) / (VISIBILITY_SAMPLES - 1));
+  double hi = expm1(base + span * (best + 1) / (VISIBILITY_SAMPLES - 1));
+  double guess = expm1(base + span * best / (VISIBILITY_SAMPLES - 1));
   gsl_min_fminimizer *m = gsl_min_fminimizer_alloc(gsl_min_fminimizer_brent);
   if (!m) return JG_FAIL(err, JG_ENOMEM, "out of memory");
   int status = gsl_min_fminimizer_set(m, &F, guess, lo, hi);
@@ -153,21 +160,38 @@ jg_status jg_epochs_compute(const jg_thermal *th, jg_epochs *e, jg_error *err) {
   const double z_top = jg_thermal_start_redshift(th);
   e->absent = 0;
   for (int i = 0; i < JG_EPOCH_COUNT; i++) e->reason[i][0] = '\0';
-  int star = 0, drag = 0, peak = 0, gas = 0;
-  jg_status st = find_crossing(th, jg_thermal_optical_depth, 1.0, 1.0, z_top, "z_star",
-                               "the Thomson optical depth", &e->z_star, &star,
+  int star = 0, drag = 0, peak = 0, gas = 0, reion = 0;
+  /* Below the onset of reionisation the gas may be heated above T_rad
+   * again and the visibility has a second peak: the decoupling and the
+   * recombination peak are searched above it. */
+  const double z_onset = jg_thermal_reionisation_onset(th);
+  jg_status st = find_crossing(th, jg_thermal_recombination_optical_depth, 1.0, 1.0, z_top,
+                               "z_star", "the Thomson optical depth", &e->z_star, &star,
                                e->reason[JG_EPOCH_Z_STAR], err);
   if (st == JG_OK)
-    st = find_crossing(th, jg_thermal_drag_depth, 1.0, 1.0, z_top, "z_drag", "the drag depth",
-                       &e->z_drag, &drag, e->reason[JG_EPOCH_Z_DRAG], err);
+    st = find_crossing(th, jg_thermal_recombination_drag_depth, 1.0, 1.0, z_top, "z_drag",
+                       "the drag depth", &e->z_drag, &drag, e->reason[JG_EPOCH_Z_DRAG], err);
   if (st == JG_OK)
-    st = visibility_peak(th, z_top, &e->z_visibility_peak, &peak,
+    st = visibility_peak(th, z_onset, z_top, &e->z_visibility_peak, &peak,
                          e->reason[JG_EPOCH_Z_VISIBILITY_PEAK], err);
   if (st == JG_OK)
-    st = find_crossing(th, temperature_ratio, 0.9, 0.0, z_top, "z_gas_decoupling",
+    st = find_crossing(th, temperature_ratio, 0.9, z_onset, z_top, "z_gas_decoupling",
                        "T_gas / T_rad", &e->z_gas_decoupling, &gas,
                        e->reason[JG_EPOCH_Z_GAS_DECOUPLING], err);
+  const int reionised = jg_thermal_reionisation_depth(th) > 0.0; /* not a heating table alone */
+  if (st == JG_OK && reionised)
+    st = find_crossing(th, ionised_hydrogen, 0.5, 0.0, z_onset, "z_reion",
+                       "the ionised hydrogen fraction", &e->z_reion, &reion,
+                       e->reason[JG_EPOCH_Z_REION], err);
   if (st != JG_OK) return st;
+  if (reionised) {
+    e->tau_reion = jg_thermal_reionisation_depth(th);
+    if (!reion) set_absent(e, JG_EPOCH_Z_REION, &e->z_reion, NULL);
+  } else {
+    const char *why = "no reionisation model: thermal.reionisation is none";
+    set_absent(e, JG_EPOCH_TAU_REION, &e->tau_reion, "%s", why);
+    set_absent(e, JG_EPOCH_Z_REION, &e->z_reion, "%s", why);
+  }
   /* The searches wrote their own reasons. */
   if (!star) set_absent(e, JG_EPOCH_Z_STAR, &e->z_star, NULL);
   if (!drag) set_absent(e, JG_EPOCH_Z_DRAG, &e->z_drag, NULL);
@@ -234,6 +258,11 @@ jg_epoch_entry jg_epochs_entry(const jg_epochs *e, int i) {
       EPOCH(X_E_Z100, "x_e_z100", "", "free electrons per hydrogen nucleus at z = 100",
             e->x_e_z100),
       EPOCH(T_GAS_Z100, "T_gas_z100", "K", "gas temperature at z = 100", e->T_gas_z100),
+      EPOCH(TAU_REION, "tau_reion", "",
+            "Thomson optical depth of the electrons reionisation adds, today to its onset",
+            e->tau_reion),
+      EPOCH(Z_REION, "z_reion", "", "ionised hydrogen fraction = 1/2 (reionisation)",
+            e->z_reion),
   };
 #undef EPOCH
   _Static_assert(sizeof table / sizeof table[0] == JG_EPOCH_COUNT, "one entry per JG_EPOCH_");

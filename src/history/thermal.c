@@ -19,7 +19,10 @@
  * always includes the helium electrons.
  *
  * Optical depth and drag depth are integrated from the splines
- * (gsl_spline_eval_integ), from today backwards; there is no reionisation.
+ * (gsl_spline_eval_integ), from today backwards. Reionisation
+ * (reionisation.c) adds its ionisation to the stored x_e and x_p and, with
+ * heating, its heating to the T_gas equation, below its onset redshift only;
+ * switched off it is never evaluated.
  */
 #include "jeansgrow/thermal.h"
 
@@ -28,12 +31,14 @@
 #include <gsl/gsl_spline.h>
 #include <math.h>
 #include <stdbool.h>
+#include <stdio.h>
 #include <stdlib.h>
 #include <string.h>
 
 #include "gas_temperature.h"
 #include "jeansgrow/constants.h"
 #include "recombination.h"
+#include "reionisation.h"
 #include "../base/alloc.h" /* last: test builds route allocations through it */
 
 struct jg_thermal {
@@ -45,6 +50,12 @@ struct jg_thermal {
   gsl_spline *ln_xe, *ln_xp, *ln_Tgas;
   gsl_spline *tau;      /* optical depth from today back to the node */
   gsl_spline *tau_drag; /* drag depth, same */
+  double tau_reion;     /* optical depth of the electrons reionisation adds */
+  double drag_reion;    /* and their drag depth */
+  double z_onset;       /* reionisation acts below this redshift (0: no model) */
+  jg__reionisation reion;
+  jg__z_table heating;    /* thermal.heating_table (n = 0: none) */
+  jg__z_table ionisation; /* thermal.ionisation_table (n = 0: none) */
 };
 
 /* ------------------------------------------------------------------------ */
@@ -54,12 +65,38 @@ typedef struct history_system {
   const jg_background *bg;
   double fudge;
   double T_gas_quasi_static; /* phase 2: filled by the right-hand side */
+  jg__reionisation reion;
 } history_system;
 
+/* x_e and dxe_dxp are the recombination history's (the Peebles rate takes
+ * them); the Compton rate and the heating see every free electron,
+ * reionised ones included (x_e_all, x_p_all: set only while reionising). */
 typedef struct local_state {
   double a, H, T_rad, n_H;
   double x_e, dxe_dxp, compton, dcompton_dxe;
+  bool reionising;
+  jg__reionised reion;
+  double x_e_all, x_p_all;
+  double x_e_base; /* the recombination history's x_e, or the ionisation table's */
 } local_state;
+
+/* Below the onset of reionisation (or of a table): every free electron in
+ * the Compton rate (d x_e_all / d x_e = 1 - s_h folded into its
+ * derivative; 0 where the ionisation table, which x_p does not move, gives
+ * x_e). */
+static void add_reionisation(const history_system *sys, double x, double x_p, local_state *s) {
+  const jg__z_table *table = &sys->reion.ionisation;
+  const bool tabulated = table->n > 0 && jg__z_table_covers(table, -x);
+  s->x_e_base = tabulated ? jg__ionisation_table_value(table, 0, -x) : s->x_e;
+  const double x_p_base = tabulated ? fmin(s->x_e_base, 1.0) : x_p;
+  jg__reionisation_at(&sys->reion, x, &s->reion);
+  s->x_e_all = jg__reionised_electrons(&sys->reion, &s->reion, s->x_e_base);
+  s->x_p_all = jg__reionised_hydrogen(&s->reion, x_p_base);
+  s->compton = jg__compton_rate(sys->bg, s->T_rad, s->x_e_all);
+  s->dcompton_dxe = tabulated ? 0.0
+                              : jg__compton_rate_dxe(sys->bg, s->T_rad, s->x_e_all) *
+                                    (1.0 - s->reion.s_h);
+}
 
 static int local_state_at(const history_system *sys, double x, double x_p, local_state *s) {
   if (!isfinite(x_p)) return GSL_EBADFUNC;
@@ -78,14 +115,34 @@ static int local_state_at(const history_system *sys, double x, double x_p, local
     return GSL_EBADFUNC;
   s->compton = jg__compton_rate(sys->bg, s->T_rad, s->x_e);
   s->dcompton_dxe = jg__compton_rate_dxe(sys->bg, s->T_rad, s->x_e);
+  s->reionising = false;
   return GSL_SUCCESS;
 }
 
+/* The state with reionisation where it acts (the last leg of phase 3 and
+ * the nodes below the onset). */
+static int local_state_reionised(const history_system *sys, double x, double x_p,
+                                 local_state *s) {
+  int st = local_state_at(sys, x, x_p, s);
+  s->reionising = st == GSL_SUCCESS && jg__reionisation_acts(&sys->reion, x);
+  if (s->reionising) add_reionisation(sys, x, x_p, s);
+  return st;
+}
+
+/* The heating, d T_gas / d ln a at ln a = x and T_gas. */
+static double heating_dlna(const history_system *sys, const local_state *s, double x,
+                           double T_gas) {
+  return jg__photo_heating_dlna(&sys->reion, &s->reion, x, s->x_e_all, T_gas, s->n_H, s->H);
+}
+
 /* dx_p/d ln a (and dT_gas/d ln a when the gas temperature is integrated:
- * dim 2, y = {x_p, T_gas}; dim 1, y = {x_p}, T_gas quasi-static). */
-static int rhs_history(int dim, double x, const double y[], double f[], history_system *sys) {
+ * dim 2, y = {x_p, T_gas}; dim 1, y = {x_p}, T_gas quasi-static). Inlined
+ * with constant arguments: the systems without reionisation carry none of
+ * its code. */
+static inline int rhs_history(int dim, bool reionised, double x, const double y[], double f[],
+                              history_system *sys) {
   local_state s;
-  int st = local_state_at(sys, x, y[0], &s);
+  int st = reionised ? local_state_reionised(sys, x, y[0], &s) : local_state_at(sys, x, y[0], &s);
   if (st != GSL_SUCCESS) return st;
   if (dim == 2 && !isfinite(y[1])) return GSL_EBADFUNC;
   if (dim == 2 && !(y[1] > 0)) return GSL_EDOM;
@@ -93,18 +150,26 @@ static int rhs_history(int dim, double x, const double y[], double f[], history_
   jg__peebles_rate r;
   jg__peebles_rate_at(y[0], s.x_e, s.dxe_dxp, T_gas, s.T_rad, s.n_H, s.H, sys->fudge, &r);
   f[0] = r.dxp_dt / s.H;
-  if (dim == 2) f[1] = jg__gas_temperature_dlna(y[1], s.T_rad, s.H, s.compton);
+  if (dim == 2) {
+    f[1] = jg__gas_temperature_dlna(y[1], s.T_rad, s.H, s.compton);
+    if (s.reionising) f[1] += heating_dlna(sys, &s, x, y[1]);
+  }
   return GSL_SUCCESS;
 }
 
 /* Phase 2: y = {x_p}, T_gas quasi-static. */
 static int rhs_hydrogen(double x, const double y[], double f[], void *params) {
-  return rhs_history(1, x, y, f, params);
+  return rhs_history(1, false, x, y, f, params);
 }
 
 /* Phase 3: y = {x_p, T_gas}. */
 static int rhs_hydrogen_temperature(double x, const double y[], double f[], void *params) {
-  return rhs_history(2, x, y, f, params);
+  return rhs_history(2, false, x, y, f, params);
+}
+
+/* Phase 3 below the onset of reionisation. */
+static int rhs_reionised(double x, const double y[], double f[], void *params) {
+  return rhs_history(2, true, x, y, f, params);
 }
 
 /* The explicit x-dependence (dfdt) by a central difference of the
@@ -137,11 +202,11 @@ static int jac_hydrogen(double x, const double y[], double *dfdy, double dfdt[],
   return explicit_derivative(&self, x, y, dfdt);
 }
 
-static int jac_hydrogen_temperature(double x, const double y[], double *dfdy, double dfdt[],
-                                    void *params) {
+static inline int jac_history_temperature(bool reionised, double x, const double y[],
+                                          double *dfdy, double dfdt[], void *params) {
   history_system *sys = params;
   local_state s;
-  int st = local_state_at(sys, x, y[0], &s);
+  int st = reionised ? local_state_reionised(sys, x, y[0], &s) : local_state_at(sys, x, y[0], &s);
   if (st != GSL_SUCCESS) return st;
   jg__peebles_rate r;
   jg__peebles_rate_at(y[0], s.x_e, s.dxe_dxp, y[1], s.T_rad, s.n_H, s.H, sys->fudge, &r);
@@ -149,8 +214,24 @@ static int jac_hydrogen_temperature(double x, const double y[], double *dfdy, do
   dfdy[0 * 2 + 1] = r.d_dTgas / s.H;
   dfdy[1 * 2 + 0] = s.dcompton_dxe * s.dxe_dxp / s.H * (s.T_rad - y[1]);
   dfdy[1 * 2 + 1] = -2.0 - s.compton / s.H;
-  gsl_odeiv2_system self = {rhs_hydrogen_temperature, NULL, 2, params};
+  if (s.reionising) { /* msbdf's Newton iteration needs only a fair slope */
+    const double dT = 1e-6 * y[1];
+    dfdy[1 * 2 + 1] += (heating_dlna(sys, &s, x, y[1] + dT) - heating_dlna(sys, &s, x, y[1] - dT)) /
+                       (2.0 * dT);
+  }
+  gsl_odeiv2_system self = {reionised ? rhs_reionised : rhs_hydrogen_temperature, NULL, 2,
+                            params};
   return explicit_derivative(&self, x, y, dfdt);
+}
+
+static int jac_hydrogen_temperature(double x, const double y[], double *dfdy, double dfdt[],
+                                    void *params) {
+  return jac_history_temperature(false, x, y, dfdy, dfdt, params);
+}
+
+static int jac_reionised(double x, const double y[], double *dfdy, double dfdt[],
+                         void *params) {
+  return jac_history_temperature(true, x, y, dfdy, dfdt, params);
 }
 
 /* ------------------------------------------------------------------------ */
@@ -164,6 +245,8 @@ void jg_thermal_free(jg_thermal *th) {
   gsl_spline_free(th->ln_Tgas);
   gsl_spline_free(th->tau);
   gsl_spline_free(th->tau_drag);
+  jg__z_table_free(&th->heating);
+  jg__z_table_free(&th->ionisation);
   free(th->ln_a);
   free(th);
 }
@@ -209,6 +292,34 @@ static jg_status integrate_depths(jg_thermal *th, const double *x_e, jg_error *e
     if (st == JG_OK) st = build_spline(&th->tau_drag, th->ln_a, drag, n, err);
   }
   gsl_spline_free(s_tau);
+  gsl_spline_free(s_drag);
+  free(dtau);
+  return st;
+}
+
+/* tau_reion: the optical depth of the electrons reionisation adds, from
+ * today to its onset (the recombination history's own electrons are not in
+ * it: the number CMB analyses quote). */
+static jg_status integrate_reionisation_depth(jg_thermal *th, const double *added,
+                                              jg_error *err) {
+  const int n = th->n;
+  double *dtau = malloc(sizeof(double) * (size_t)n * 2);
+  if (!dtau) return JG_FAIL(err, JG_ENOMEM, "out of memory for the reionisation optical depth");
+  double *ddrag = dtau + n;
+  for (int i = 0; i < n; i++) {
+    const double a = exp(th->ln_a[i]);
+    dtau[i] = added[i] * jg_background_n_hydrogen(th->bg, a) * JG_SIGMA_THOMSON * JG_C_LIGHT /
+              jg_background_hubble(th->bg, a);
+    ddrag[i] = dtau[i] / (th->bg->R_coefficient * a);
+  }
+  gsl_spline *s = NULL, *s_drag = NULL;
+  jg_status st = build_spline(&s, th->ln_a, dtau, n, err);
+  if (st == JG_OK) st = build_spline(&s_drag, th->ln_a, ddrag, n, err);
+  if (st == JG_OK) {
+    th->tau_reion = gsl_spline_eval_integ(s, th->ln_a[0], 0.0, NULL);
+    th->drag_reion = gsl_spline_eval_integ(s_drag, th->ln_a[0], 0.0, NULL);
+  }
+  gsl_spline_free(s);
   gsl_spline_free(s_drag);
   free(dtau);
   return st;
@@ -350,11 +461,12 @@ static double weak_coupling_in_step(double x, void *p) {
   return weak_coupling_excess(c->r, x, value_in_step(c->s, 0, x));
 }
 
-/* Integrate one phase from (*x, y) to today, keeping every step. Phase 2
- * (dimension 1) stops where the Compton coupling becomes weak and leaves
- * *x and y[0] there. */
-static jg_status run_phase(history_run *r, gsl_odeiv2_driver *d, const char *stage, double *x,
-                           double y[2], jg_error *err) {
+/* Integrate one phase from (*x, y) to x_end, keeping every step. Phase 2
+ * (dimension 1) stops where the Compton coupling becomes weak, or at x_end
+ * (where reionisation may start to heat the gas: the temperature is
+ * integrated from there), and leaves *x and y[0] there. */
+static jg_status run_phase(history_run *r, gsl_odeiv2_driver *d, const char *stage,
+                           double x_end, double *x, double y[2], jg_error *err) {
   const gsl_odeiv2_system *sys = d->sys;
   const size_t dim = sys->dimension;
   step_span s;
@@ -363,15 +475,15 @@ static jg_status run_phase(history_run *r, gsl_odeiv2_driver *d, const char *sta
   if (sys->function(s.x0, s.y0, s.f0, sys->params) != GSL_SUCCESS)
     return unusable_state(s.x0, y[0], err);
   gsl_odeiv2_driver_reset_hstart(d, HISTORY_FIRST_STEP);
-  while (*x < 0.0) {
+  while (*x < x_end) {
     if (d->h > HISTORY_MAX_STEP) d->h = HISTORY_MAX_STEP;
     const double x_from = *x, h_tried = d->h;
-    int st = gsl_odeiv2_evolve_apply(d->e, d->c, d->s, sys, x, 0.0, &d->h, y);
+    int st = gsl_odeiv2_evolve_apply(d->e, d->c, d->s, sys, x, x_end, &d->h, y);
     if (st != GSL_SUCCESS)
       return JG_FAIL(err, JG_ENUMERIC,
                      "thermal history (%s): stiff integration failed between z = %.3f and "
                      "z = %.3f (%s)",
-                     stage, z_of_ln_a(x_from), z_of_ln_a(fmin(x_from + h_tried, 0.0)),
+                     stage, z_of_ln_a(x_from), z_of_ln_a(fmin(x_from + h_tried, x_end)),
                      gsl_strerror(st));
     s.x1 = *x;
     memcpy(s.y1, y, dim * sizeof *y);
@@ -395,6 +507,7 @@ static jg_status run_phase(history_run *r, gsl_odeiv2_driver *d, const char *sta
     memcpy(s.y0, s.y1, sizeof s.y0);
     memcpy(s.f0, s.f1, sizeof s.f0);
   }
+  if (dim == 1 && x_end < 0.0) r->x_weak = x_end;
   return JG_OK;
 }
 
@@ -405,18 +518,34 @@ static jg_status integrate_history(history_run *r, double x_start, jg_error *err
   if (st != JG_OK || r->x_handover >= 0.0) return st;
   gsl_odeiv2_system ode_h = {rhs_hydrogen, jac_hydrogen, 1, &r->sys};
   gsl_odeiv2_system ode_ht = {rhs_hydrogen_temperature, jac_hydrogen_temperature, 2, &r->sys};
+  gsl_odeiv2_system ode_re = {rhs_reionised, jac_reionised, 2, &r->sys};
   const jg_thermal_settings *set = r->settings;
   gsl_odeiv2_driver *drv_h = gsl_odeiv2_driver_alloc_y_new(
       &ode_h, gsl_odeiv2_step_msbdf, HISTORY_FIRST_STEP, set->abs_tol, set->rel_tol);
   gsl_odeiv2_driver *drv_ht = gsl_odeiv2_driver_alloc_y_new(
       &ode_ht, gsl_odeiv2_step_msbdf, HISTORY_FIRST_STEP, set->abs_tol, set->rel_tol);
-  if (!drv_h || !drv_ht) st = JG_FAIL(err, JG_ENOMEM, "out of memory for the ODE drivers");
+  const bool reionising = r->sys.reion.active;
+  gsl_odeiv2_driver *drv_re =
+      reionising ? gsl_odeiv2_driver_alloc_y_new(&ode_re, gsl_odeiv2_step_msbdf,
+                                                 HISTORY_FIRST_STEP, set->abs_tol, set->rel_tol)
+                 : NULL;
+  if (!drv_h || !drv_ht || (reionising && !drv_re))
+    st = JG_FAIL(err, JG_ENOMEM, "out of memory for the ODE drivers");
 
   double x = r->x_handover, x_e;
   double y[2] = {saha_hydrogen_at(r->bg, x, &x_e), 0.0};
   const bool weak_at_handover = r->x_weak == r->x_handover;
+  /* Phase 3 is split at the onset of the models; phase 2 (quasi-static
+   * T_gas) ends there when something heats the gas or sets x_e, and else
+   * runs to its own end: a plain tanh model only adds electrons, and the
+   * nodes take the quasi-static T_gas with all of them. */
+  const jg__reionisation *m = &r->sys.reion;
+  const double x_split = reionising ? fmax(m->ln_a_onset, x) : 0.0;
+  const bool heated = m->model == JG_REIONISATION_TANH_HEATED || m->table.n > 0 ||
+                      m->ionisation.n > 0;
+  const double x_quasi_static_end = heated ? x_split : 0.0;
   if (st == JG_OK && !weak_at_handover)
-    st = run_phase(r, drv_h, "hydrogen recombination", &x, y, err);
+    st = run_phase(r, drv_h, "hydrogen recombination", x_quasi_static_end, &x, y, err);
   r->first_integrated_T = r->n_spans;
   if (st == JG_OK && x < 0.0) {
     local_state ls;
@@ -424,11 +553,21 @@ static jg_status integrate_history(history_run *r, double x_start, jg_error *err
       st = unusable_state(x, y[0], err);
     } else {
       y[1] = jg__gas_temperature_quasi_static(ls.T_rad, ls.H, ls.compton);
-      st = run_phase(r, drv_ht, "hydrogen and gas temperature", &x, y, err);
+      /* With reionisation a step ends at its onset, so that the steps above
+       * it (and the nodes filled from them) are those without it; below,
+       * the system with reionisation takes over. */
+      if (x < x_split)
+        st = run_phase(r, drv_ht, "hydrogen and gas temperature", x_split, &x, y, err);
+      if (st == JG_OK && x < 0.0)
+        st = run_phase(r, reionising ? drv_re : drv_ht,
+                       reionising ? "reionisation and gas temperature"
+                                  : "hydrogen and gas temperature",
+                       0.0, &x, y, err);
     }
   }
   if (drv_h) gsl_odeiv2_driver_free(drv_h); /* GSL's free does not take NULL */
   if (drv_ht) gsl_odeiv2_driver_free(drv_ht);
+  if (drv_re) gsl_odeiv2_driver_free(drv_re);
   return st;
 }
 
@@ -445,6 +584,13 @@ static jg_status integrate_history(history_run *r, double x_start, jg_error *err
  * scales with the finest spacing and still dies away (ratio^2 x 0.27 < 1
  * per node), whatever the uniform spacing. */
 static const double GRADED_FINEST = 1e-6, GRADED_RATIO = 1.5, GRADED_WIDTH = 0.05;
+/* Node spacing in ln a across the reionisation fronts: the tanh tails grow
+ * like exp(2 u), about e^36 per unit ln a for hydrogen at z_re = 7.67 and
+ * Delta z = 0.5 (a tanh in (1+z)^1.5), e^18 for helium at 3.5 and 0.5 (a
+ * tanh in z), and a cubic spline through an exponential of rate q errs by
+ * ~ (q h)^4/384: 4e-6 with the default uniform spacing (0.006), 7e-8 at
+ * 0.002 for hydrogen and 0.004 for helium. */
+static const double FRONT_SPACING[2] = {0.002, 0.004};
 
 static int compare_doubles(const void *a, const void *b) {
   double x = *(const double *)a, y = *(const double *)b;
@@ -453,12 +599,20 @@ static int compare_doubles(const void *a, const void *b) {
 
 static jg_status build_grid(jg_thermal *th, const history_run *r, int uniform, jg_error *err) {
   const double start = th->ln_a_start;
-  const double places[] = {start, r->x_handover, r->x_weak, 0.0};
+  /* The onset of reionisation or heating is a kink where a heating table
+   * starts with a rate above zero; without either it repeats the end. */
+  const double places[] = {start, r->x_handover, r->x_weak, 0.0,
+                           r->sys.reion.active ? r->sys.reion.ln_a_onset : 0.0};
   const int n_places = (int)(sizeof places / sizeof places[0]);
   int graded_per_side = 0;
   for (double offset = GRADED_FINEST; offset < GRADED_WIDTH; offset *= GRADED_RATIO)
     graded_per_side++;
-  const int capacity = uniform + n_places * (2 * graded_per_side + 1);
+  double fronts[2][2];
+  jg__reionisation_fronts(&r->sys.reion, fronts);
+  int front_nodes = 0;
+  for (int f = 0; f < 2; f++)
+    front_nodes += (int)ceil((fronts[f][1] - fronts[f][0]) / FRONT_SPACING[f]);
+  const int capacity = uniform + n_places * (2 * graded_per_side + 1) + front_nodes;
   th->ln_a = malloc(sizeof(double) * (size_t)capacity);
   if (!th->ln_a) return JG_FAIL(err, JG_ENOMEM, "out of memory for the thermal history");
   int n = 0;
@@ -466,7 +620,8 @@ static jg_status build_grid(jg_thermal *th, const history_run *r, int uniform, j
   th->ln_a[uniform - 1] = 0.0;
   for (int p = 0; p < n_places; p++) {
     const double at = places[p];
-    if (p == 1 || p == 2) {
+    if (p == 4 && at == 0.0) continue;
+    if (p == 1 || p == 2 || p == 4) {
       if (!(at > start && at < 0.0)) continue; /* no such switch inside the grid */
       th->ln_a[n++] = at;
     }
@@ -475,6 +630,9 @@ static jg_status build_grid(jg_thermal *th, const history_run *r, int uniform, j
       if (at + offset < 0.0) th->ln_a[n++] = at + offset;
     }
   }
+  for (int f = 0; f < 2; f++)
+    for (double x = fronts[f][0]; x < fronts[f][1] && n < capacity; x += FRONT_SPACING[f])
+      if (x > start) th->ln_a[n++] = x;
   /* The uniform nodes are in order already: sort the few graded ones and
    * merge, dropping nodes that (nearly) repeat one (the spline needs strictly
    * increasing abscissae). */
@@ -497,13 +655,16 @@ static jg_status build_grid(jg_thermal *th, const history_run *r, int uniform, j
   return JG_OK;
 }
 
-/* Node values: Saha up to the hand-over, then the kept steps. */
+/* Node values: Saha up to the hand-over, then the kept steps; `added` gets
+ * the electrons reionisation adds (0 where it does not act). */
 static jg_status fill_nodes(const history_run *r, const jg_thermal *th, double *x_e, double *x_p,
-                            double *T_gas, jg_error *err) {
+                            double *T_gas, double *added, jg_error *err) {
+  const bool reionising = r->sys.reion.active;
   size_t j = 0;
   for (int i = 0; i < th->n; i++) {
     const double x = th->ln_a[i];
     local_state ls;
+    added[i] = 0.0;
     if (x <= r->x_handover) {
       x_p[i] = saha_hydrogen_at(r->bg, x, &x_e[i]);
       if (!isfinite(x_p[i]))
@@ -520,11 +681,30 @@ static jg_status fill_nodes(const history_run *r, const jg_thermal *th, double *
     while (j + 1 < end && r->spans[j].x1 < x) j++;
     const step_span *s = &r->spans[j];
     x_p[i] = value_in_step(s, 0, x);
-    if (local_state_at(&r->sys, x, x_p[i], &ls) != GSL_SUCCESS)
+    const int st = reionising ? local_state_reionised(&r->sys, x, x_p[i], &ls)
+                              : local_state_at(&r->sys, x, x_p[i], &ls);
+    if (st != GSL_SUCCESS)
       return unusable_state(x, x_p[i], err);
     x_e[i] = ls.x_e;
+    if (ls.reionising) {
+      x_e[i] = ls.x_e_all;
+      x_p[i] = ls.x_p_all;
+      added[i] = ls.x_e_all - ls.x_e_base;
+    }
     T_gas[i] = integrated_T ? value_in_step(s, 1, x)
                             : jg__gas_temperature_quasi_static(ls.T_rad, ls.H, ls.compton);
+  }
+  /* The ionisation table replaces x_e also in the Saha era it may reach
+   * into, and its temperature column the computed T_gas. */
+  const jg__z_table *table = &r->sys.reion.ionisation;
+  for (int i = 0; table->n > 0 && i < th->n; i++) {
+    const double x = th->ln_a[i];
+    if (!jg__z_table_covers(table, -x)) continue;
+    if (x <= r->x_handover) {
+      x_e[i] = jg__ionisation_table_value(table, 0, -x);
+      x_p[i] = fmin(x_e[i], 1.0);
+    }
+    if (table->columns > 1) T_gas[i] = jg__ionisation_table_value(table, 1, -x);
   }
   return JG_OK;
 }
@@ -544,16 +724,40 @@ jg_thermal *jg_thermal_new(const jg_background *bg, const jg_thermal_settings *s
   th->bg = bg;
   th->settings = *settings;
   th->ln_a_start = -log1p(settings->start_redshift);
-  history_run run = {bg, settings, {bg, settings->recombination_fudge, 0.0}, 0.0, 0.0,
+  history_run run = {bg, settings, {bg, settings->recombination_fudge, 0.0, {0}}, 0.0, 0.0,
                      NULL, 0, 0, 0};
-  jg_status st = integrate_history(&run, th->ln_a_start, err);
+  jg_status st = JG_OK;
+  if (settings->heating_table[0] &&
+      (st = jg__heating_table_read(settings->heating_table, &th->heating, err)) != JG_OK) {
+    /* Name the key: the file's own message does not say where it came from. */
+    char why[JG_ERROR_MESSAGE_SIZE];
+    snprintf(why, sizeof why, "%s", err->message);
+    JG_FAIL(err, st, "thermal.heating_table: %s", why);
+    jg_thermal_free(th);
+    return NULL;
+  }
+  if (st == JG_OK && settings->ionisation_table[0] &&
+      (st = jg__ionisation_table_read(settings->ionisation_table, settings->start_redshift,
+                                      (1.0 + 2.0 * bg->helium_to_hydrogen) * (1.0 + 1e-9),
+                                      &th->ionisation, err)) != JG_OK) {
+    char why[JG_ERROR_MESSAGE_SIZE];
+    snprintf(why, sizeof why, "%s", err->message);
+    JG_FAIL(err, st, "thermal.ionisation_table: %s", why);
+    jg_thermal_free(th);
+    return NULL;
+  }
+  jg__reionisation_init(&run.sys.reion, settings, bg, &th->heating, &th->ionisation);
+  th->reion = run.sys.reion;
+  th->z_onset = run.sys.reion.active ? z_of_ln_a(run.sys.reion.ln_a_onset) : 0.0;
+  st = integrate_history(&run, th->ln_a_start, err);
   if (st == JG_OK) st = build_grid(th, &run, settings->grid_points, err);
   const int n = st == JG_OK ? th->n : 0;
   double *work = NULL;
-  if (st == JG_OK && !(work = malloc(sizeof(double) * (size_t)n * 3)))
+  if (st == JG_OK && !(work = malloc(sizeof(double) * (size_t)n * 4)))
     st = JG_FAIL(err, JG_ENOMEM, "out of memory for the thermal history");
   double *x_e = work, *x_p = work ? work + n : NULL, *T_gas = work ? work + 2 * n : NULL;
-  if (st == JG_OK) st = fill_nodes(&run, th, x_e, x_p, T_gas, err);
+  double *added = work ? work + 3 * n : NULL;
+  if (st == JG_OK) st = fill_nodes(&run, th, x_e, x_p, T_gas, added, err);
   free(run.spans);
 
   if (st == JG_OK) {
@@ -568,6 +772,8 @@ jg_thermal *jg_thermal_new(const jg_background *bg, const jg_thermal_settings *s
     free(tmp);
   }
   if (st == JG_OK) st = integrate_depths(th, x_e, err);
+  if (st == JG_OK && settings->reionisation != JG_REIONISATION_NONE)
+    st = integrate_reionisation_depth(th, added, err);
   free(work);
   if (st != JG_OK) {
     jg_thermal_free(th);
@@ -579,6 +785,29 @@ jg_thermal *jg_thermal_new(const jg_background *bg, const jg_thermal_settings *s
 const jg_background *jg_thermal_background(const jg_thermal *th) { return th->bg; }
 
 double jg_thermal_start_redshift(const jg_thermal *th) { return th->settings.start_redshift; }
+
+double jg_thermal_reionisation_depth(const jg_thermal *th) { return th->tau_reion; }
+
+double jg_thermal_heating_rate(const jg_thermal *th, double z) {
+  const double ln_a = -log1p(z);
+  if (!jg__reionisation_acts(&th->reion, ln_a)) return 0.0;
+  const double a = exp(ln_a);
+  jg__reionised r;
+  jg__reionisation_at(&th->reion, ln_a, &r);
+  return jg__heating_gain_dlna(&th->reion, &r, ln_a, jg_thermal_x_e(th, ln_a),
+                                jg_thermal_T_gas(th, ln_a), jg_background_n_hydrogen(th->bg, a),
+                                jg_background_hubble(th->bg, a));
+}
+
+double jg_thermal_recombination_optical_depth(const jg_thermal *th, double z) {
+  return fmax(jg_thermal_optical_depth(th, z) - th->tau_reion, 0.0);
+}
+
+double jg_thermal_recombination_drag_depth(const jg_thermal *th, double z) {
+  return fmax(jg_thermal_drag_depth(th, z) - th->drag_reion, 0.0);
+}
+
+double jg_thermal_reionisation_onset(const jg_thermal *th) { return th->z_onset; }
 
 /* Above the stored grid: equilibrium values, evaluated directly. */
 static void early_state(const jg_thermal *th, double a, double *x_e, double *x_p,
@@ -647,11 +876,25 @@ void jg_thermal_state_at(const jg_thermal *th, double z, jg_thermal_state *s) {
   jg__helium_saha_at(bg, s->T_rad, jg_background_n_hydrogen(bg, a), s->x_e, &he);
   s->x_HeII = he.x_HeII;
   s->x_HeIII = he.x_HeIII;
+  if (jg__reionisation_acts(&th->reion, ln_a)) {
+    /* The model ionises the helium left neutral once (with hydrogen) and
+     * then a second time; the Saha fractions at these temperatures are
+     * nil. */
+    jg__reionised r;
+    jg__reionisation_at(&th->reion, ln_a, &r);
+    const double f_he = th->reion.f_he;
+    s->x_HeIII += (f_he - s->x_HeIII) * r.s_he;
+    s->x_HeII = fmax(f_he - s->x_HeIII - (f_he - s->x_HeII - s->x_HeIII) * (1.0 - r.s_h), 0.0);
+  }
   s->compton_rate = jg__compton_rate(bg, s->T_rad, s->x_e);
   s->mu = jg_background_mean_molecular_weight(bg, s->x_e);
   double dlnT_dlna;
   jg_thermal_log_slopes(th, -log1p(z), NULL, &dlnT_dlna);
-  s->gamma_effective = 1.0 - dlnT_dlna / 3.0;
+  /* Where heating raises T_gas (d ln T/d ln a > 0, only with a heating or
+   * reionisation model) the formula falls below 1 and, past d ln T/d ln a = 3,
+   * gives a negative pressure: an instability no gas has. It is held at 1,
+   * the isothermal response of gas whose temperature the heating fixes. */
+  s->gamma_effective = fmax(1.0 - dlnT_dlna / 3.0, 1.0);
 }
 
 void jg_thermal_ionisation_response(const jg_thermal *th, double ln_a,

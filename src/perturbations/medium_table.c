@@ -125,7 +125,11 @@ static void thermal_coefficients(const jg_thermal *th, const thermal_medium *tm,
   double R = bg->R_coefficient * a;
   q[Q_PRESSURE] = cT2 / (aH_mpc * aH_mpc);
   q[Q_DRAG] = n_e * JG_SIGMA_THOMSON * JG_C_LIGHT / (R * H);
-  q[Q_RELAX] = s.compton_rate * (s.T_rad / s.T_gas) / H;
+  /* Heating per particle taken uniform (its own perturbation neglected):
+   * it relaxes delta_T as Compton does, at the rate (heating gains) / T_gas
+   * (src/PHYSICS.md §12). Zero without heating. */
+  q[Q_RELAX] =
+      s.compton_rate * (s.T_rad / s.T_gas) / H + jg_thermal_heating_rate(th, s.z) / s.T_gas;
   q[Q_EXPANSION] = jg_background_dlnH_dlna(bg, a);
   q[Q_GRAVITY] = 1.5 * jg_background_omega_m_of_a(bg, a);
   for (int k = Q_GAMMA_EFF; k < N_Q; k++) q[k] = 0.0;

@@ -95,7 +95,7 @@ static void write_preamble_with_validity(FILE *f, const char *title, const jg_pa
   char validity[256];
   jg_validity_thermal_line(th, validity, sizeof validity);
   int n = 0;
-  while (conventions && conventions[n] && n < MAX_CONVENTIONS) lines[n] = conventions[n], n++;
+  while (conventions && n < MAX_CONVENTIONS && conventions[n]) lines[n] = conventions[n], n++;
   lines[n++] = validity;
   lines[n] = NULL;
   jg_table_write_preamble(f, title, p, lines);
@@ -114,11 +114,12 @@ static const char *const history_conventions[] = {
     "x_HII, x_HeII, x_HeIII: ionised hydrogen and helium per hydrogen nucleus",
     "mu: mean molecular weight in units of the hydrogen-atom mass",
     "compton_rate: Gamma_C, the coefficient of (T_rad - T_gas) in dT_gas/dt",
-    "tau: Thomson optical depth from z = 0 back to z (no reionisation)",
+    "tau: Thomson optical depth from z = 0 back to z (with reionisation if thermal.reionisation is on)",
     "visibility: (dtau/dz) exp(-tau), per unit redshift",
     "tau_drag: baryon drag depth, integrand of tau divided by R = 3 rho_b / (4 rho_gamma)",
     "gamma_eff: 1 - (1/3) d ln T_gas / d ln a, the adiabatic index of the uniform sound speed "
-    "of large Boltzmann codes (perturbations.sound_speed = \"effective_gamma\")",
+    "of large Boltzmann codes (perturbations.sound_speed = \"effective_gamma\"), held at 1 "
+    "where a heating model raises T_gas",
     NULL};
 
 static int descending(const void *a, const void *b) {
@@ -464,7 +465,7 @@ jg_status jg_report_growth(FILE *f, const jg_params *p, const jg_thermal *th,
    * are left out rather than filled. */
   const int n_columns = g->has_reference ? N_GROWTH_COLUMNS : N_GROWTH_COLUMNS - 2;
   /* The conventions plus the start line, which depends on the run. */
-  const char *conventions[12];
+  const char *conventions[MAX_CONVENTIONS + 1] = {0};
   int n_conv = 0;
   for (; growth_conventions[units][n_conv]; n_conv++)
     conventions[n_conv] = growth_conventions[units][n_conv];

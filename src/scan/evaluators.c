@@ -235,10 +235,11 @@ const jg_scan_evaluator *jg_scan_evaluator_growth(jg_output_units units) {
 static const char *const epochs_columns[][JG_EPOCH_COUNT] = {
     [JG_UNITS_MPC] = {"z_star", "z_visibility_peak", "z_drag", "r_star[Mpc]", "r_drag[Mpc]",
                       "theta_star_100", "z_eq", "k_eq[1/Mpc]", "age[Gyr]", "z_gas_decoupling",
-                      "x_e_z100", "T_gas_z100[K]"},
+                      "x_e_z100", "T_gas_z100[K]", "tau_reion", "z_reion"},
     [JG_UNITS_MPC_H] = {"z_star", "z_visibility_peak", "z_drag", "r_star[Mpc/h]",
                         "r_drag[Mpc/h]", "theta_star_100", "z_eq", "k_eq[h/Mpc]", "age[Gyr]",
-                        "z_gas_decoupling", "x_e_z100", "T_gas_z100[K]"}};
+                        "z_gas_decoupling", "x_e_z100", "T_gas_z100[K]", "tau_reion",
+                        "z_reion"}};
 
 static const char *const epochs_conventions[] = {
     "one row per point: every value of jeansgrow epochs; -1 where the point's universe does "

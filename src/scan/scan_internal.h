@@ -11,6 +11,7 @@
 #include <stdio.h>
 
 #include "jeansgrow/scan.h"
+#include "../base/hash.h" /* jg__fnv1a */
 
 /* A scan: read-only after jg_scan_new. */
 struct jg_scan {
@@ -63,16 +64,5 @@ void jg__scan_write_axis(FILE *f, const jg_scan_axis *ax);
 /* strdup through the allocation hook (NULL when out of memory). */
 char *jg__scan_strdup(const char *s);
 
-/* Hashing: FNV-1a, 64 bits. It guards against torn lines and tells scans
- * apart; it is not meant to resist deliberate forgery. */
-#define JG__FNV_OFFSET 0xcbf29ce484222325ULL
-static inline uint64_t jg__fnv1a(uint64_t h, const void *data, size_t n) {
-  const unsigned char *p = data;
-  for (size_t i = 0; i < n; i++) {
-    h ^= p[i];
-    h *= 0x100000001b3ULL;
-  }
-  return h;
-}
 
 #endif

@@ -174,8 +174,9 @@ class Universe:
             _call(_lib.jg_universe_new, params._handle, ctypes.byref(handle))
         except InputError as e:
             # A cosmology refused as a whole: named by its file, as the
-            # program does.
-            if params.path is not None:
+            # program does; a history refusal (a thermal key or one of its
+            # tables) names its key and file itself.
+            if params.path is not None and not e.message.startswith("thermal."):
                 raise error_for(1, "%s: %s" % (params.path, e.message)) from None
             raise
         self._handle = handle
