@@ -164,6 +164,21 @@ Test(reionisation, fully_ionised_today) {
   close_history(&h);
 }
 
+/* The history holds to z = 0 only with the first sources' heating in it:
+ * the validity flag 2 (below the thermal model) starts at z = 20 without
+ * heating or with the unheated tanh, nowhere with photo-heating
+ * (src/PHYSICS.md §11; z ~ 20 as the start of cosmic dawn: common
+ * practice, no source). */
+Test(reionisation, heated_history_holds_to_today) {
+  const int models[] = {JG_REIONISATION_NONE, JG_REIONISATION_TANH, JG_REIONISATION_TANH_HEATED};
+  const double lowest[] = {20.0, 20.0, 0.0};
+  for (int i = 0; i < 3; i++) {
+    history h = open_history(models[i]);
+    cr_expect_eq(jg_thermal_lowest_valid_redshift(h.th), lowest[i], "model %d", models[i]);
+    close_history(&h);
+  }
+}
+
 /* The tanh model without heating leaves the gas cold (only the Compton
  * coupling of the new electrons warms it towards T_rad); with heating the
  * ionised gas is at ~1e4 K after reionisation, the temperature of the

@@ -126,6 +126,12 @@ double jg_thermal_reionisation_onset(const jg_thermal *th);
  * T_gas equation subtracts. The perturbations relax delta_T at this rate
  * over T_gas. */
 double jg_thermal_heating_rate(const jg_thermal *th, double z);
+/* The lowest redshift the history's own assumptions hold down to: 0 when
+ * it includes the heating of the first sources (thermal.reionisation =
+ * "tanh+heating", a heating table, or an ionisation table with a
+ * temperature column), else 20, where the first stars start to heat and
+ * ionise the gas (common practice, no source). */
+double jg_thermal_lowest_valid_redshift(const jg_thermal *th);
 /* The optical and drag depths without the reionised electrons, from which
  * z_star and z_drag are defined (as in the Planck analyses): exact above the
  * onset of reionisation, the depths less tau_reion (at least 0) below it. */

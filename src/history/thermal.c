@@ -809,6 +809,17 @@ double jg_thermal_recombination_drag_depth(const jg_thermal *th, double z) {
 
 double jg_thermal_reionisation_onset(const jg_thermal *th) { return th->z_onset; }
 
+/* Below z ~ 20 the first stars heat and ionise the gas (common practice, no
+ * source: the usual start of cosmic dawn); a history without their heating
+ * stops holding there. */
+#define LOWEST_REDSHIFT_WITHOUT_HEATING 20.0
+
+double jg_thermal_lowest_valid_redshift(const jg_thermal *th) {
+  const int heated = th->settings.reionisation == JG_REIONISATION_TANH_HEATED ||
+                     th->heating.n > 0 || (th->ionisation.n > 0 && th->ionisation.columns == 2);
+  return heated ? 0.0 : LOWEST_REDSHIFT_WITHOUT_HEATING;
+}
+
 /* Above the stored grid: equilibrium values, evaluated directly. */
 static void early_state(const jg_thermal *th, double a, double *x_e, double *x_p,
                         double *T_gas) {

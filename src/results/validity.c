@@ -10,9 +10,6 @@
 #include "jeansgrow/background.h"
 #include "jeansgrow/constants.h"
 
-/* Below z ~ 20 the first stars heat and ionise the gas; the history here
- * has neither (common practice, no source: the usual start of cosmic dawn). */
-#define THERMAL_Z_MIN_WITHOUT_HEATING 20.0
 
 /* A fluid needs many collisions per wavelength; ten mean free paths per
  * wavelength is the margin used (common practice, no source). */
@@ -23,8 +20,7 @@
 #define RYDBERG_ENERGY (13.605693122994 * JG_ELECTRON_VOLT)
 
 double jg_validity_thermal_z_min(const jg_thermal *th) {
-  (void)th; /* one thermal model so far; heating models will set their own limit */
-  return THERMAL_Z_MIN_WITHOUT_HEATING;
+  return jg_thermal_lowest_valid_redshift(th);
 }
 
 double jg_validity_fluid_k_max(const jg_thermal *th, double z) {
@@ -60,6 +56,11 @@ int jg_validity_growth_flags(const jg_thermal *th, double z, double k, double b_
 
 
 void jg_validity_thermal_line(const jg_thermal *th, char *buf, size_t size) {
-  snprintf(buf, size, "validity: the thermal history (no heating, no reionisation) holds for "
-           "z >= %g; rows below are flagged 2", jg_validity_thermal_z_min(th));
+  const double z_min = jg_validity_thermal_z_min(th);
+  if (z_min > 0.0)
+    snprintf(buf, size, "validity: the thermal history (no heating, no reionisation) holds for "
+             "z >= %g; rows below are flagged 2", z_min);
+  else
+    snprintf(buf, size, "validity: the thermal history includes the heating of the first sources "
+             "and holds to z = 0 within its model's assumptions; no row is flagged 2");
 }
