@@ -15,23 +15,28 @@
 #include "hash.h"
 #include "alloc.h" /* last: test builds route allocations through it */
 
-#define ROW_LINE_MAX 4096
-
-/* One line into buf, without its newline: its length, -1 at the end of the
- * file, -2 for a line longer than ROW_LINE_MAX, -3 for a zero byte. */
-static int read_line(FILE *f, char buf[ROW_LINE_MAX + 1], uint64_t *h) {
+int jg__read_table_line(FILE *f, char *buf, uint64_t *h) {
   int n = 0, c;
   while ((c = getc(f)) != EOF) {
     const unsigned char byte = (unsigned char)c;
     *h = jg__fnv1a(*h, &byte, 1);
     if (c == '\n') break;
     if (c == '\0') return -3;
-    if (n == ROW_LINE_MAX) return -2;
+    if (n == JG__TABLE_LINE_MAX) return -2;
     buf[n++] = (char)c;
   }
   if (c == EOF && n == 0) return -1;
   buf[n] = '\0';
   return n;
+}
+
+jg_status jg__table_line_check(const char *path, int line_no, int len, jg_error *err) {
+  if (len == -2)
+    return JG_FAIL(err, JG_ECONFIG, "%s:%d: line longer than %d bytes", path, line_no,
+                   JG__TABLE_LINE_MAX);
+  if (len == -3)
+    return JG_FAIL(err, JG_ECONFIG, "%s:%d: a zero byte (not a text table)", path, line_no);
+  return JG_OK;
 }
 
 static jg_status parse_numbers(const char *path, int line_no, char *line, double *v, int *n,
@@ -60,18 +65,14 @@ jg_status jg__read_number_rows(const char *path, jg__row_fn take, void *user, ui
                                jg_error *err) {
   FILE *f = fopen(path, "r");
   if (!f) return JG_FAIL(err, JG_ECONFIG, "cannot read %s: %s", path, strerror(errno));
-  char line[ROW_LINE_MAX + 1];
+  char line[JG__TABLE_LINE_MAX + 1];
   uint64_t h = JG__FNV_OFFSET;
   int line_no = 0, len;
   jg_status st = JG_OK;
-  while (st == JG_OK && (len = read_line(f, line, &h)) != -1) {
+  while (st == JG_OK && (len = jg__read_table_line(f, line, &h)) != -1) {
     line_no++;
-    if (len == -2) {
-      st = JG_FAIL(err, JG_ECONFIG, "%s:%d: line longer than %d bytes", path, line_no,
-                   ROW_LINE_MAX);
-    } else if (len == -3) {
-      st = JG_FAIL(err, JG_ECONFIG, "%s:%d: a zero byte (not a text table)", path, line_no);
-    } else {
+    st = jg__table_line_check(path, line_no, len, err);
+    if (st == JG_OK) {
       char *first = line + strspn(line, " \t\r");
       if (*first == '\0' || *first == '#') continue;
       double v[JG__ROW_VALUES_MAX];

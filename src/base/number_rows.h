@@ -6,8 +6,23 @@
 #define JEANSGROW_SRC_NUMBER_ROWS_H
 
 #include <stdint.h>
+#include <stdio.h>
 
 #include "jeansgrow/error.h"
+
+/* Longest line of a text table; a longer one is an error, never cut. */
+#define JG__TABLE_LINE_MAX 4096
+
+/* One line of a text table into buf (JG__TABLE_LINE_MAX + 1 bytes), without
+ * its newline, read byte by byte so that a device or a binary file cannot
+ * make it grow without bound; every byte goes into the FNV-1a hash *h
+ * (hash.h). Returns the length, -1 at the end of the file, -2 for a line
+ * longer than JG__TABLE_LINE_MAX, -3 for a zero byte. */
+int jg__read_table_line(FILE *f, char *buf, uint64_t *h);
+
+/* JG_OK for a line jg__read_table_line returned (len >= 0), else the
+ * complaint about line `line_no` of `path` (too long, or a binary file). */
+jg_status jg__table_line_check(const char *path, int line_no, int len, jg_error *err);
 
 /* Most values on a row. */
 #define JG__ROW_VALUES_MAX 8

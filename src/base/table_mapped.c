@@ -13,31 +13,8 @@
 
 #include "jeansgrow/table.h"
 
-/* Longest line read; a longer one is an error, never silently cut. */
-#define MAPPED_LINE_MAX 4096
-
-/* FNV-1a, 64 bits: a checksum of the file's bytes for the table headers
- * (a content check, not a cryptographic one). */
-#define FNV_OFFSET 0xcbf29ce484222325ULL
-#define FNV_PRIME 0x100000001b3ULL
-
-/* One line into buf (without its newline), read byte by byte so that a
- * device or a binary file cannot make it grow without bound: returns the
- * length, -1 at the end of the file, -2 for a line longer than
- * MAPPED_LINE_MAX, -3 for a zero byte. */
-static int read_line(FILE *f, char buf[MAPPED_LINE_MAX + 1], unsigned long long *hash) {
-  int n = 0, c;
-  while ((c = getc(f)) != EOF) {
-    *hash = (*hash ^ (unsigned char)c) * FNV_PRIME;
-    if (c == '\n') break;
-    if (c == '\0') return -3;
-    if (n == MAPPED_LINE_MAX) return -2;
-    buf[n++] = (char)c;
-  }
-  if (c == EOF && n == 0) return -1;
-  buf[n] = '\0';
-  return n;
-}
+#include "hash.h"
+#include "number_rows.h"
 
 /* The next cell of `*s`, cut in place; NULL at the end of the row. With
  * commas, blanks around a cell are dropped and an empty cell is returned
@@ -105,17 +82,14 @@ static jg_status parse_row(const char *path, int line_no, char *text, const jg_c
 
 static jg_status read_rows(FILE *f, const char *path, const jg_column_map *map,
                            jg_table_separator sep, int min_cells, jg_table_row_fn row, void *user,
-                           unsigned long long *hash, jg_error *err) {
-  char line[MAPPED_LINE_MAX + 1];
+                           uint64_t *hash, jg_error *err) {
+  char line[JG__TABLE_LINE_MAX + 1];
   int line_no = 0, len, first_cells = -1;
   double values[JG_N_COLUMN_KINDS];
-  while ((len = read_line(f, line, hash)) != -1) {
+  while ((len = jg__read_table_line(f, line, hash)) != -1) {
     line_no++;
-    if (len == -2)
-      return JG_FAIL(err, JG_ECONFIG, "%s:%d: line longer than %d bytes", path, line_no,
-                     MAPPED_LINE_MAX);
-    if (len == -3)
-      return JG_FAIL(err, JG_ECONFIG, "%s:%d: a zero byte (not a text table)", path, line_no);
+    jg_status line_ok = jg__table_line_check(path, line_no, len, err);
+    if (line_ok != JG_OK) return line_ok;
     char *first = line + strspn(line, " \t\r");
     if (*first == '\0' || *first == '#') continue;
     int cells = 0;
@@ -145,7 +119,7 @@ jg_status jg_table_read_mapped(const char *path, const jg_column_map *map,
   if (!f) return JG_FAIL(err, JG_ECONFIG, "cannot read %s: %s", path, strerror(errno));
   struct stat info;
   jg_status st = JG_OK;
-  unsigned long long hash = FNV_OFFSET;
+  uint64_t hash = JG__FNV_OFFSET;
   if (fstat(fileno(f), &info) == 0 && S_ISDIR(info.st_mode))
     st = JG_FAIL(err, JG_ECONFIG, "%s is a folder, not a table", path);
   if (st == JG_OK)
