@@ -28,12 +28,12 @@ do for [fmt in formats] {
   set yrange [*:2]
   plot table using (1 + $1):(column(col("x_e"))) with lines ls 1 title "x_e", \
        table using (1 + $1):(column(col("x_HII"))) with lines ls 2 title "x_{HII}", \
-       for [e in x_extras] table using (1 + $1):(column(col(e))) with lines ls 3 title e noenhanced
+       for [e in x_extras] table using (1 + $1):(words(x_extras) > 0 ? column(col(e)) : NaN) with lines ls 3 title e noenhanced
   set xlabel "1 + z"
   set ylabel "temperature [K]"
   set yrange [*:*]
   plot table using (1 + $1):(column(col("T_gas"))) with lines ls 1 title "T_{gas}", \
        table using (1 + $1):(column(col("T_rad"))) with lines ls 2 title "T_{rad}", \
-       for [e in T_extras] table using (1 + $1):(column(col(e))) with lines ls 3 title e noenhanced
+       for [e in T_extras] table using (1 + $1):(words(T_extras) > 0 ? column(col(e)) : NaN) with lines ls 3 title e noenhanced
   unset multiplot
 }

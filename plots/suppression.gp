@@ -28,5 +28,5 @@ do for [fmt in formats] {
   plot for [i = 1:words(zs)] table using 2:(at_z(1, real(word(zs, i)), column(col("b_over_c")))) with lines ls i title sprintf("%g", real(word(zs, i))), \
        for [i = 1:(have_scales ? words(zs) : 0)] scales using (at_z(1, real(word(zs, i)), column(scol("k_half")))):(column(scol("half_found")) > 0 ? 0.5 * column(scol("b_over_c_large")) : NaN) with points ls i pt 7 ps 1.6 notitle, \
        for [i = 1:(have_scales ? words(zs) : 0)] scales using (at_z(1, real(word(zs, i)), column(scol("k_F")) > 0 ? column(scol("k_F")) : NaN)):(exp(-1) * column(scol("b_over_c_large"))) with points ls i pt 6 ps 1.6 notitle, \
-       table using 2:(flags > 0 && column(flags) > 0 ? column(col("b_over_c")) : NaN) every 8 with points ls 20 title (flags > 0 ? "outside the stated validity (flags column)" : "")
+       table using 2:(flags > 0 && column(flags) > 0 ? column(col("b_over_c")) : NaN) every 8 with points ls 20 title (flags > 0 ? "flagged (flags column)" : "")
 }
