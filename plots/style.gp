@@ -36,7 +36,7 @@ if (mass_radius eq "") mass_radius = "half_wavelength"
 # (the streamed power ratios are 1 without streaming).
 streaming_rms_text = header_value("streaming.rms_velocity_kms")
 streaming_rms = streaming_rms_text eq "" ? 0 : real(streaming_rms_text)
-streaming_note = streaming_rms > 0 ? sprintf("streaming velocity %g km/s rms at z = %s", streaming_rms, header_value("streaming.start_redshift")) : "with the streaming velocity"
+streaming_note = streaming_rms > 0 ? sprintf("streaming velocity: %g km/s rms at z = %s", streaming_rms, header_value("streaming.start_redshift")) : "streaming velocity on"
 twin_differs(n, twin) = n > 0 ? system(sprintf("awk -F'\t' '!/^#/ && $%d != %s { print 1; exit }' '%s'", n, twin, table)) eq "1" : 0
 twin_expression(w) = col(w) > 0 ? sprintf("$%d", col(w)) : w
 detect_streaming = "streaming = streaming_rms > 0; do for [i = 1:words(stream_twins):2] { if (!streaming) { streaming = twin_differs(col(word(stream_twins, i)), twin_expression(word(stream_twins, i + 1))) } }"
