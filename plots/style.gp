@@ -29,6 +29,18 @@ z_valid = z_valid_text eq "" ? 0 : real(z_valid_text)
 mass_radius = header_value("output.mass_radius")
 if (mass_radius eq "") mass_radius = "half_wavelength"
 
+# Streaming (the baryon-dark matter relative velocity) is on when the
+# header says streaming.rms_velocity_kms > 0, or, for a table whose header
+# was cut, when a streamed column differs from its unstreamed twin on some
+# row. stream_twins: pairs "STREAMED TWIN", TWIN a column name or a number
+# (the streamed power ratios are 1 without streaming).
+streaming_rms_text = header_value("streaming.rms_velocity_kms")
+streaming_rms = streaming_rms_text eq "" ? 0 : real(streaming_rms_text)
+streaming_note = streaming_rms > 0 ? sprintf("streaming velocity: %g km/s rms at z = %s", streaming_rms, header_value("streaming.start_redshift")) : "streaming velocity on"
+twin_differs(n, twin) = n > 0 ? system(sprintf("awk -F'\t' '!/^#/ && $%d != %s { print 1; exit }' '%s'", n, twin, table)) eq "1" : 0
+twin_expression(w) = col(w) > 0 ? sprintf("$%d", col(w)) : w
+detect_streaming = "streaming = streaming_rms > 0; do for [i = 1:words(stream_twins):2] { if (!streaming) { streaming = twin_differs(col(word(stream_twins, i)), twin_expression(word(stream_twins, i + 1))) } }"
+
 set datafile separator "\t"
 set grid lc rgb "#d0d0d0"
 set border lw 1.5
@@ -46,7 +58,7 @@ set style line 20 lc rgb "#808080" pt 6 ps 2.2 lw 1.5
 # reversed z axis: from z_valid to the right edge; shade_offset 1 for 1 + z).
 shade_offset = 0
 shade_invalid = "if (z_valid > 0) { set obj 1 rect from first z_valid + shade_offset, graph 0 to graph 1, graph 1 behind fc rgb '#e4e4e4' fs solid noborder } else { unset obj 1 }"
-shade_key = "(z_valid > 0 ? sprintf('below z = %g: thermal model not valid', z_valid) : '')"
+shade_key = "(z_valid > 0 ? sprintf('z < %g: no valid thermal model', z_valid) : '')"
 formats = "png svg"
 # The distinct values of column n, in the order they first appear.
 distinct(n) = system(sprintf("awk -F'\t' '!/^#/ && !seen[$%d]++ { print $%d }' '%s'", n, n, table))

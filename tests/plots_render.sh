@@ -1,7 +1,8 @@
 #!/bin/sh
-# The figures: every figure of a small `run` (in 1/Mpc and in h/Mpc units)
-# and of small scans (one varied key, two keys, a growth and an epochs
-# table) is a PNG of the size the style asks for and an SVG that parses;
+# The figures: every figure of a small `run` (in 1/Mpc and in h/Mpc units,
+# with the streaming velocity, with a photo-heated reionisation) and of
+# small scans (one varied key, two keys, a growth and an epochs table) is a
+# PNG of the size the style asks for and an SVG that parses;
 # the axes name the units of their table; `jeansgrow plot` draws them again;
 # a table without a needed column stops the script with one clear line;
 # without gnuplot `run` still writes its tables and says how to get them.
@@ -78,6 +79,72 @@ sed 's/^# output.mass_radius = .*/# output.mass_radius = "full_wavelength";/' \
 check_label masses "$work/full.txt" title \
   "Masses at the mean matter density, sphere of radius 2{/Symbol p}/k (full wavelength)"
 
+# gnuplot_value SCRIPT TABLE EXPRESSION: what gnuplot prints for EXPRESSION
+# after SCRIPT drew TABLE (GPVAL_DATA_Y_MAX: the highest value of its last
+# plot, which must be one the figure means to draw).
+gnuplot_value() {
+  "$gnuplot" -e "table='$2'; out='$work/value'" "$src/plots/style.gp" "$src/plots/$1.gp" \
+    -e "print $3" 2>&1
+}
+# column_max TABLE EXPRESSION: the largest value of a Python EXPRESSION of the
+# row r (a dict by column name without unit) over the table's rows.
+column_max() {
+  "$python" - "$1" "$2" <<'PY'
+import sys
+names, rows = None, []
+for line in open(sys.argv[1]):
+    if line.startswith("#"):
+        names = [w.split("[")[0] for w in line[2:].rstrip("\n").split("\t")]
+    else:
+        rows.append(dict(zip(names, map(float, line.split("\t")))))
+print(repr(max(eval(sys.argv[2], {"sqrt": __import__("math").sqrt}, {"r": r}) for r in rows)))
+PY
+}
+# same_value A B: two numbers equal to 1e-9 relative.
+same_value() {
+  "$python" -c "import sys; a, b = float(sys.argv[1]), float(sys.argv[2]); sys.exit(abs(a - b) > 1e-9 * abs(b))" "$1" "$2"
+}
+
+# With the streaming velocity on: every figure, the streamed scales and
+# masses beside the unstreamed ones (the masses all with radius pi/k: the
+# table gives M_F_stream with 2 pi/k, so drawn unconverted it would top the
+# figure), and the suppression figure's second panel, the rms ratio
+# |delta_b/delta_c| sqrt(stream_b_power/stream_c_power).
+"$program" run "$src/params/reference.cfg" --set streaming.rms_velocity_kms=30.0 \
+  --set perturbations.k_count=4 --set 'output.redshifts=[50.0, 10.0]' -o "$work/stream" >/dev/null
+for name in history masses scales suppression rates; do check_figure "$work/stream/$name"; done
+check_label scales "$work/stream/scales.txt" title \
+  "Scales the gas follows; streaming velocity: 30 km/s rms at z = 1020.0"
+check_label scales "$work/Mpc/scales.txt" title "Scales the gas follows: smaller k is larger scale"
+check_label suppression "$work/stream/growth.txt" title \
+  "averaged over v_{bc} (streaming velocity: 30 km/s rms at z = 1020.0)"
+drawn=$(gnuplot_value masses "$work/stream/scales.txt" GPVAL_DATA_Y_MAX)
+expected=$(column_max "$work/stream/scales.txt" \
+  "max(r['M_J'], r['M_F_halfwave'], r['M_F_integral_halfwave'], r['M_half'], r['M_F_stream'] / 8, r['M_half_stream'])")
+same_value "$drawn" "$expected" || fail "mass figure with streaming tops at $drawn, the table at $expected"
+drawn=$(gnuplot_value suppression "$work/stream/growth.txt" GPVAL_DATA_Y_MAX)
+expected=$(column_max "$work/stream/growth.txt" "abs(r['b_over_c']) * sqrt(r['stream_b_power'] / r['stream_c_power'])")
+same_value "$drawn" "$expected" || fail "streamed suppression panel tops at $drawn, the table at $expected"
+# A header without the streaming key: the streamed columns that differ
+# from their twins still say that streaming is on.
+grep -v '^# streaming.rms_velocity_kms = ' "$work/stream/scales.txt" >"$work/noheader.txt"
+check_label scales "$work/noheader.txt" title "Scales the gas follows; streaming velocity on"
+
+# A reionised, photo-heated history to z = 0: every figure; the temperature
+# axis reaches above the photo-heated gas (1e4 K and the table's highest
+# T_gas) and the reionisation redshift is marked.
+"$program" run "$src/params/reference.cfg" --set 'thermal.reionisation="tanh+heating"' \
+  --set perturbations.k_count=4 --set 'output.redshifts=[20.0, 0.0]' -o "$work/heated" >/dev/null
+for name in history masses scales suppression rates; do check_figure "$work/heated/$name"; done
+top=$(gnuplot_value history "$work/heated/history.txt" GPVAL_Y_MAX)
+hottest=$(column_max "$work/heated/history.txt" "r['T_gas']")
+"$python" -c "import sys; sys.exit(not float(sys.argv[1]) >= max(1e4, float(sys.argv[2])))" "$top" "$hottest" ||
+  fail "history temperature axis ends at $top K, below the gas ($hottest K) or 1e4 K"
+case $(gnuplot_value history "$work/heated/history.txt" '"" ; show arrow 1') in
+  *"from (8.67000, graph 0, 0)"*) ;;
+  *) fail "the heated history figure does not mark 1 + z_reion = 8.67" ;;
+esac
+
 # A table that lacks a column the figure needs: one line naming both.
 awk -F'\t' 'BEGIN { OFS = "\t" } /^#/ && !/^# z\t/ { print; next } { NF = 8; print }' \
   "$work/Mpc/scales.txt" >"$work/cut.txt"
@@ -123,4 +190,4 @@ if PATH=/nonexistent "$program" plot "$work/bare" 2>"$work/bare.err"; then
   fail "plot without gnuplot succeeded"
 fi
 grep -q "gnuplot is not installed" "$work/bare.err" || fail "plot without gnuplot: $(cat "$work/bare.err")"
-echo "plots: run, plot and scan figures rendered and checked (PNG size, SVG parse, labels, missing columns, no gnuplot)"
+echo "plots: run, plot and scan figures rendered and checked (PNG size, SVG parse, labels, streaming, heated history, missing columns, no gnuplot)"
