@@ -12,7 +12,7 @@
 figure = "the suppression figure"
 needed_columns = "z k b_over_c"
 @need
-if (!exists("scales")) scales = table[1:strstrt(table, "growth.txt") > 0 ? strstrt(table, "growth.txt") - 1 : 0]."scales.txt"
+if (!exists("scales")) scales = system(sprintf("dirname '%s'", table))."/scales.txt"
 have_scales = system(sprintf("test -r '%s' && echo yes", scales)) eq "yes"
 if (have_scales) {
   scales_columns = system(sprintf("awk '/^#/ { line = $0; next } { exit } END { print line }' '%s'", scales))
