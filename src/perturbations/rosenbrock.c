@@ -218,8 +218,11 @@ ROS_INLINE int integrate(const pt_ros_problem *p, pt_ros_work *w, double x0, dou
     if (p->group[i] < 0 || p->group[i] >= n) return PT_ROS_BAD_INPUT;
 
   double x = x0, rate0 = 0.0, rate1 = 0.0, rate_s = 0.0;
+  /* The matrices at both ends of the step: swapped, not copied, when a
+   * step is accepted. */
+  double *A0 = w->A0, *dA0 = w->dA0, *A1 = w->A1, *dA1 = w->dA1;
   w->stats.matrix_evals++;
-  if (p->matrices(p->ctx, x, w->A0, w->dA0, &rate0) != 0) return PT_ROS_UNDEFINED;
+  if (p->matrices(p->ctx, x, A0, dA0, &rate0) != 0) return PT_ROS_UNDEFINED;
   for (int i = 0; i < len; i++) w->own_peak[i] = 0.0;
   update_peaks(p, w, y, n);
 
@@ -257,7 +260,7 @@ ROS_INLINE int integrate(const pt_ros_problem *p, pt_ros_work *w, double x0, dou
     int singular = 0;
     for (int b = 0; b < modes && !singular; b++) {
       double *M = w->LU + (size_t)b * n * n;
-      const double *A = w->A0 + (size_t)b * n * n;
+      const double *A = A0 + (size_t)b * n * n;
       for (int i = 0; i < n * n; i++) M[i] = -A[i];
       for (int i = 0; i < n; i++) M[i * n + i] += fac;
       singular = !lu_factor(M, n, w->pivot + b * n);
@@ -266,8 +269,8 @@ ROS_INLINE int integrate(const pt_ros_problem *p, pt_ros_work *w, double x0, dou
       *x_fail = x;
       return PT_ROS_SINGULAR;
     }
-    mat_vec(w->A0, y, w->f0, n, modes);
-    mat_vec(w->dA0, y, w->fx0, n, modes);
+    mat_vec(A0, y, w->f0, n, modes);
+    mat_vec(dA0, y, w->fx0, n, modes);
 
     /* Stage 1. */
     for (int i = 0; i < len; i++) U1[i] = w->f0[i] + h * D1 * w->fx0[i];
@@ -298,16 +301,16 @@ ROS_INLINE int integrate(const pt_ros_problem *p, pt_ros_work *w, double x0, dou
     solve_all(w, n, modes, U4);
     /* Stage 5, at the end of the step (matrices kept for the next step). */
     w->stats.matrix_evals++;
-    if (p->matrices(p->ctx, x_new, w->A1, w->dA1, &rate1) != 0) goto undefined;
+    if (p->matrices(p->ctx, x_new, A1, dA1, &rate1) != 0) goto undefined;
     for (int i = 0; i < len; i++)
       w->ytmp[i] = y[i] + A51 * U1[i] + A52 * U2[i] + A53 * U3[i] + A54 * U4[i];
-    mat_vec(w->A1, w->ytmp, U5, n, modes);
+    mat_vec(A1, w->ytmp, U5, n, modes);
     for (int i = 0; i < len; i++)
       U5[i] += ih * (C51 * U1[i] + C52 * U2[i] + C53 * U3[i] + C54 * U4[i]);
     solve_all(w, n, modes, U5);
     /* Stage 6 from the embedded solution; U6 is the error estimate. */
     for (int i = 0; i < len; i++) w->ytmp[i] += U5[i];
-    mat_vec(w->A1, w->ytmp, U6, n, modes);
+    mat_vec(A1, w->ytmp, U6, n, modes);
     for (int i = 0; i < len; i++)
       U6[i] += ih * (C61 * U1[i] + C62 * U2[i] + C63 * U3[i] + C64 * U4[i] + C65 * U5[i]);
     solve_all(w, n, modes, U6);
@@ -359,9 +362,9 @@ ROS_INLINE int integrate(const pt_ros_problem *p, pt_ros_work *w, double x0, dou
       /* Hermite data: derivatives at both ends (f1 into U1, y''0 into U2,
        * y''1 into U3; the stage values are no longer needed). */
       double *f1 = U1, *ydd0 = U2, *ydd1 = U3;
-      mat_vec(w->A1, w->ynew, f1, n, modes);
-      second_derivative(w->A0, w->dA0, y, w->f0, ydd0, n, modes, U4);
-      second_derivative(w->A1, w->dA1, w->ynew, f1, ydd1, n, modes, U4);
+      mat_vec(A1, w->ynew, f1, n, modes);
+      second_derivative(A0, dA0, y, w->f0, ydd0, n, modes, U4);
+      second_derivative(A1, dA1, w->ynew, f1, ydd1, n, modes, U4);
       while (next < n_out && x_out[next] <= x_new) {
         if (x_out[next] == x_new) {
           p->emit(p->ctx, next++, w->ynew);
@@ -383,8 +386,9 @@ ROS_INLINE int integrate(const pt_ros_problem *p, pt_ros_work *w, double x0, dou
     }
     memcpy(y, w->ynew, sizeof(double) * (size_t)len);
     update_peaks(p, w, y, n);
-    memcpy(w->A0, w->A1, sizeof(double) * (size_t)len * n);
-    memcpy(w->dA0, w->dA1, sizeof(double) * (size_t)len * n);
+    double *swap = A0;
+    A0 = A1, A1 = swap;
+    swap = dA0, dA0 = dA1, dA1 = swap;
     rate0 = rate1;
     x = x_new;
     /* A step cut to an output says nothing against the longer one. */
