@@ -109,30 +109,6 @@ ROS_INLINE int lu_factor(double *a, int n, int *piv) {
   return 1;
 }
 
-/* lu_factor swaps whole rows, multipliers included (P A = L U): all the
- * interchanges come first, then the two triangular solves. */
-ROS_INLINE void lu_solve(const double *a, int n, const int *piv, double *b) {
-  for (int k = 0; k < n; k++)
-    if (piv[k] != k) {
-      double t = b[k];
-      b[k] = b[piv[k]];
-      b[piv[k]] = t;
-    }
-  /* Row by row (the same operations in the same order as column by
-   * column): a short dot product, which compilers do not turn into
-   * strided vector code that costs more than it saves at n = 5. */
-  for (int i = 1; i < n; i++) {
-    double s = b[i];
-    for (int k = 0; k < i; k++) s -= a[i * n + k] * b[k];
-    b[i] = s;
-  }
-  for (int i = n - 1; i >= 0; i--) {
-    double s = b[i];
-    for (int j = i + 1; j < n; j++) s -= a[i * n + j] * b[j];
-    b[i] = s / a[i * n + i];
-  }
-}
-
 /* out = A v for every mode. */
 ROS_INLINE void mat_vec(const double *A, const double *v, double *out, int n, int modes) {
   for (int b = 0; b < modes; b++) {
@@ -147,10 +123,43 @@ ROS_INLINE void mat_vec(const double *A, const double *v, double *out, int n, in
   }
 }
 
-/* One stage: solve (1/(h gamma) - A0) U = rhs per mode, in place in rhs. */
+/* lu_factor swaps whole rows, multipliers included (P A = L U): all the
+ * interchanges come first, then the two triangular solves. One stage: solve
+ * (1/(h gamma) - A0) U = rhs for every mode, in place in rhs. Row by row
+ * (the same operations in the same order as column by column): a short dot
+ * product, which compilers do not turn into strided vector code that costs
+ * more than it saves at n = 5. The modes are taken in turn within each row,
+ * not one after the other: each row's dot product waits on the rows before
+ * it, so a single mode's solve is a chain of dependent operations, and the
+ * other modes' rows give the processor independent work meanwhile. Each
+ * mode's arithmetic and its order are those of a solve on its own. */
 ROS_INLINE void solve_all(pt_ros_work *w, int n, int modes, double *rhs) {
-  for (int b = 0; b < modes; b++)
-    lu_solve(w->LU + (size_t)b * n * n, n, w->pivot + b * n, rhs + b * n);
+  for (int b = 0; b < modes; b++) {
+    const int *piv = w->pivot + b * n;
+    double *x = rhs + b * n;
+    for (int k = 0; k < n; k++)
+      if (piv[k] != k) {
+        double t = x[k];
+        x[k] = x[piv[k]];
+        x[piv[k]] = t;
+      }
+  }
+  for (int i = 1; i < n; i++)
+    for (int b = 0; b < modes; b++) {
+      const double *a = w->LU + (size_t)b * n * n;
+      double *x = rhs + b * n;
+      double s = x[i];
+      for (int k = 0; k < i; k++) s -= a[i * n + k] * x[k];
+      x[i] = s;
+    }
+  for (int i = n - 1; i >= 0; i--)
+    for (int b = 0; b < modes; b++) {
+      const double *a = w->LU + (size_t)b * n * n;
+      double *x = rhs + b * n;
+      double s = x[i];
+      for (int j = i + 1; j < n; j++) s -= a[i * n + j] * x[j];
+      x[i] = s / a[i * n + i];
+    }
 }
 
 /* y'' = A' y + A (A y) for the quintic Hermite interpolant. */
