@@ -83,29 +83,34 @@ static const double E31 = -0.6762803392801253e+00, E32 = 0.6087714651680015e+01,
  * per-step paths. */
 ROS_INLINE double larger(double a, double b) { return a > b ? a : b; }
 
-/* LU with partial pivoting of an n x n row-major matrix; 0 if singular. */
-ROS_INLINE int lu_factor(double *a, int n, int *piv) {
-  for (int k = 0; k < n; k++) {
-    int p = k;
-    double best = fabs(a[k * n + k]);
-    for (int i = k + 1; i < n; i++)
-      if (fabs(a[i * n + k]) > best) best = fabs(a[i * n + k]), p = i;
-    if (!(best > 0.0)) return 0;
-    piv[k] = p;
-    if (p != k)
-      for (int j = 0; j < n; j++) {
-        double t = a[k * n + j];
-        a[k * n + j] = a[p * n + j];
-        a[p * n + j] = t;
+/* LU with partial pivoting of the n x n row-major matrices of every mode;
+ * 0 if one is singular. Column by column, the modes in turn within each
+ * column, for the reason given at solve_all; each mode's arithmetic and its
+ * order are those of a factorisation on its own. */
+ROS_INLINE int lu_factor_all(double *lu, int *pivot, int n, int modes) {
+  for (int k = 0; k < n; k++)
+    for (int b = 0; b < modes; b++) {
+      double *a = lu + (size_t)b * n * n;
+      int p = k;
+      double best = fabs(a[k * n + k]);
+      for (int i = k + 1; i < n; i++)
+        if (fabs(a[i * n + k]) > best) best = fabs(a[i * n + k]), p = i;
+      if (!(best > 0.0)) return 0;
+      pivot[b * n + k] = p;
+      if (p != k)
+        for (int j = 0; j < n; j++) {
+          double t = a[k * n + j];
+          a[k * n + j] = a[p * n + j];
+          a[p * n + j] = t;
+        }
+      const double inv = 1.0 / a[k * n + k];
+      for (int i = k + 1; i < n; i++) {
+        double l = a[i * n + k] * inv;
+        if (l == 0.0) continue;
+        a[i * n + k] = l;
+        for (int j = k + 1; j < n; j++) a[i * n + j] -= l * a[k * n + j];
       }
-    const double inv = 1.0 / a[k * n + k];
-    for (int i = k + 1; i < n; i++) {
-      double l = a[i * n + k] * inv;
-      if (l == 0.0) continue;
-      a[i * n + k] = l;
-      for (int j = k + 1; j < n; j++) a[i * n + j] -= l * a[k * n + j];
     }
-  }
   return 1;
 }
 
@@ -266,15 +271,13 @@ ROS_INLINE int integrate(const pt_ros_problem *p, pt_ros_work *w, double x0, dou
     const double ih = 1.0 / h, fac = 1.0 / (h * GAMMA);
 
     /* Factorise (1/(h gamma)) I - A0 per mode; f0 = A0 y, fx0 = A0' y. */
-    int singular = 0;
-    for (int b = 0; b < modes && !singular; b++) {
+    for (int b = 0; b < modes; b++) {
       double *M = w->LU + (size_t)b * n * n;
       const double *A = A0 + (size_t)b * n * n;
       for (int i = 0; i < n * n; i++) M[i] = -A[i];
       for (int i = 0; i < n; i++) M[i * n + i] += fac;
-      singular = !lu_factor(M, n, w->pivot + b * n);
     }
-    if (singular) {
+    if (!lu_factor_all(w->LU, w->pivot, n, modes)) {
       *x_fail = x;
       return PT_ROS_SINGULAR;
     }
