@@ -69,7 +69,7 @@ static const double E31 = -0.6762803392801253e+00, E32 = 0.6087714651680015e+01,
 
 /* The helpers below are inlined into a copy of the integrator per common
  * dimension (see jg__ros_integrate), so that their loops over n are
- * unrolled for n = 4, 5, 6, 8, 10, 11, 12, 18; the arithmetic and its order
+ * unrolled for n = 4, 5, 6, 8, 10, 11, 12; the arithmetic and its order
  * are the same in every copy (tests/test_integrator.c compares each copy
  * with jg__ros_integrate_generic to the last bit). */
 #if defined(__GNUC__)
@@ -425,7 +425,6 @@ int jg__ros_integrate(const pt_ros_problem *p, pt_ros_work *w, double x0, double
     case 10: return integrate(p, w, x0, y, x_out, n_out, x_fail, 10);
     case 11: return integrate(p, w, x0, y, x_out, n_out, x_fail, 11);
     case 12: return integrate(p, w, x0, y, x_out, n_out, x_fail, 12);
-    case 18: return integrate(p, w, x0, y, x_out, n_out, x_fail, 18);
     default: return jg__ros_integrate_generic(p, w, x0, y, x_out, n_out, x_fail);
   }
 }
