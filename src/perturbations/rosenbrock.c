@@ -69,8 +69,9 @@ static const double E31 = -0.6762803392801253e+00, E32 = 0.6087714651680015e+01,
 
 /* The helpers below are inlined into a copy of the integrator per common
  * dimension (see jg__ros_integrate), so that their loops over n are
- * unrolled for n = 4, 5, 10, 11; the arithmetic and its order are the same
- * in every copy. */
+ * unrolled for n = 4, 5, 6, 8, 10, 11, 12; the arithmetic and its order
+ * are the same in every copy (tests/test_integrator.c compares each copy
+ * with jg__ros_integrate_generic to the last bit). */
 #if defined(__GNUC__)
 #define ROS_INLINE static inline __attribute__((always_inline))
 #else
@@ -82,54 +83,35 @@ static const double E31 = -0.6762803392801253e+00, E32 = 0.6087714651680015e+01,
  * per-step paths. */
 ROS_INLINE double larger(double a, double b) { return a > b ? a : b; }
 
-/* LU with partial pivoting of an n x n row-major matrix; 0 if singular. */
-ROS_INLINE int lu_factor(double *a, int n, int *piv) {
-  for (int k = 0; k < n; k++) {
-    int p = k;
-    double best = fabs(a[k * n + k]);
-    for (int i = k + 1; i < n; i++)
-      if (fabs(a[i * n + k]) > best) best = fabs(a[i * n + k]), p = i;
-    if (!(best > 0.0)) return 0;
-    piv[k] = p;
-    if (p != k)
-      for (int j = 0; j < n; j++) {
-        double t = a[k * n + j];
-        a[k * n + j] = a[p * n + j];
-        a[p * n + j] = t;
-      }
-    const double inv = 1.0 / a[k * n + k];
-    for (int i = k + 1; i < n; i++) {
-      double l = a[i * n + k] * inv;
-      if (l == 0.0) continue;
-      a[i * n + k] = l;
-      for (int j = k + 1; j < n; j++) a[i * n + j] -= l * a[k * n + j];
-    }
-  }
-  return 1;
-}
-
-/* lu_factor swaps whole rows, multipliers included (P A = L U): all the
- * interchanges come first, then the two triangular solves. */
-ROS_INLINE void lu_solve(const double *a, int n, const int *piv, double *b) {
+/* LU with partial pivoting of the n x n row-major matrices of every mode;
+ * 0 if one is singular. Column by column, the modes in turn within each
+ * column, for the reason given at solve_all; each mode's arithmetic and its
+ * order are those of a factorisation on its own. */
+ROS_INLINE int lu_factor_all(double *lu, int *pivot, int n, int modes) {
   for (int k = 0; k < n; k++)
-    if (piv[k] != k) {
-      double t = b[k];
-      b[k] = b[piv[k]];
-      b[piv[k]] = t;
+    for (int b = 0; b < modes; b++) {
+      double *a = lu + (size_t)b * n * n;
+      int p = k;
+      double best = fabs(a[k * n + k]);
+      for (int i = k + 1; i < n; i++)
+        if (fabs(a[i * n + k]) > best) best = fabs(a[i * n + k]), p = i;
+      if (!(best > 0.0)) return 0;
+      pivot[b * n + k] = p;
+      if (p != k)
+        for (int j = 0; j < n; j++) {
+          double t = a[k * n + j];
+          a[k * n + j] = a[p * n + j];
+          a[p * n + j] = t;
+        }
+      const double inv = 1.0 / a[k * n + k];
+      for (int i = k + 1; i < n; i++) {
+        double l = a[i * n + k] * inv;
+        if (l == 0.0) continue;
+        a[i * n + k] = l;
+        for (int j = k + 1; j < n; j++) a[i * n + j] -= l * a[k * n + j];
+      }
     }
-  /* Row by row (the same operations in the same order as column by
-   * column): a short dot product, which compilers do not turn into
-   * strided vector code that costs more than it saves at n = 5. */
-  for (int i = 1; i < n; i++) {
-    double s = b[i];
-    for (int k = 0; k < i; k++) s -= a[i * n + k] * b[k];
-    b[i] = s;
-  }
-  for (int i = n - 1; i >= 0; i--) {
-    double s = b[i];
-    for (int j = i + 1; j < n; j++) s -= a[i * n + j] * b[j];
-    b[i] = s / a[i * n + i];
-  }
+  return 1;
 }
 
 /* out = A v for every mode. */
@@ -146,10 +128,43 @@ ROS_INLINE void mat_vec(const double *A, const double *v, double *out, int n, in
   }
 }
 
-/* One stage: solve (1/(h gamma) - A0) U = rhs per mode, in place in rhs. */
+/* lu_factor swaps whole rows, multipliers included (P A = L U): all the
+ * interchanges come first, then the two triangular solves. One stage: solve
+ * (1/(h gamma) - A0) U = rhs for every mode, in place in rhs. Row by row
+ * (the same operations in the same order as column by column): a short dot
+ * product, which compilers do not turn into strided vector code that costs
+ * more than it saves at n = 5. The modes are taken in turn within each row,
+ * not one after the other: each row's dot product waits on the rows before
+ * it, so a single mode's solve is a chain of dependent operations, and the
+ * other modes' rows give the processor independent work meanwhile. Each
+ * mode's arithmetic and its order are those of a solve on its own. */
 ROS_INLINE void solve_all(pt_ros_work *w, int n, int modes, double *rhs) {
-  for (int b = 0; b < modes; b++)
-    lu_solve(w->LU + (size_t)b * n * n, n, w->pivot + b * n, rhs + b * n);
+  for (int b = 0; b < modes; b++) {
+    const int *piv = w->pivot + b * n;
+    double *x = rhs + b * n;
+    for (int k = 0; k < n; k++)
+      if (piv[k] != k) {
+        double t = x[k];
+        x[k] = x[piv[k]];
+        x[piv[k]] = t;
+      }
+  }
+  for (int i = 1; i < n; i++)
+    for (int b = 0; b < modes; b++) {
+      const double *a = w->LU + (size_t)b * n * n;
+      double *x = rhs + b * n;
+      double s = x[i];
+      for (int k = 0; k < i; k++) s -= a[i * n + k] * x[k];
+      x[i] = s;
+    }
+  for (int i = n - 1; i >= 0; i--)
+    for (int b = 0; b < modes; b++) {
+      const double *a = w->LU + (size_t)b * n * n;
+      double *x = rhs + b * n;
+      double s = x[i];
+      for (int j = i + 1; j < n; j++) s -= a[i * n + j] * x[j];
+      x[i] = s / a[i * n + i];
+    }
 }
 
 /* y'' = A' y + A (A y) for the quintic Hermite interpolant. */
@@ -217,8 +232,11 @@ ROS_INLINE int integrate(const pt_ros_problem *p, pt_ros_work *w, double x0, dou
     if (p->group[i] < 0 || p->group[i] >= n) return PT_ROS_BAD_INPUT;
 
   double x = x0, rate0 = 0.0, rate1 = 0.0, rate_s = 0.0;
+  /* The matrices at both ends of the step: swapped, not copied, when a
+   * step is accepted. */
+  double *A0 = w->A0, *dA0 = w->dA0, *A1 = w->A1, *dA1 = w->dA1;
   w->stats.matrix_evals++;
-  if (p->matrices(p->ctx, x, w->A0, w->dA0, &rate0) != 0) return PT_ROS_UNDEFINED;
+  if (p->matrices(p->ctx, x, A0, dA0, &rate0) != 0) return PT_ROS_UNDEFINED;
   for (int i = 0; i < len; i++) w->own_peak[i] = 0.0;
   update_peaks(p, w, y, n);
 
@@ -253,20 +271,18 @@ ROS_INLINE int integrate(const pt_ros_problem *p, pt_ros_work *w, double x0, dou
     const double ih = 1.0 / h, fac = 1.0 / (h * GAMMA);
 
     /* Factorise (1/(h gamma)) I - A0 per mode; f0 = A0 y, fx0 = A0' y. */
-    int singular = 0;
-    for (int b = 0; b < modes && !singular; b++) {
+    for (int b = 0; b < modes; b++) {
       double *M = w->LU + (size_t)b * n * n;
-      const double *A = w->A0 + (size_t)b * n * n;
+      const double *A = A0 + (size_t)b * n * n;
       for (int i = 0; i < n * n; i++) M[i] = -A[i];
       for (int i = 0; i < n; i++) M[i * n + i] += fac;
-      singular = !lu_factor(M, n, w->pivot + b * n);
     }
-    if (singular) {
+    if (!lu_factor_all(w->LU, w->pivot, n, modes)) {
       *x_fail = x;
       return PT_ROS_SINGULAR;
     }
-    mat_vec(w->A0, y, w->f0, n, modes);
-    mat_vec(w->dA0, y, w->fx0, n, modes);
+    mat_vec(A0, y, w->f0, n, modes);
+    mat_vec(dA0, y, w->fx0, n, modes);
 
     /* Stage 1. */
     for (int i = 0; i < len; i++) U1[i] = w->f0[i] + h * D1 * w->fx0[i];
@@ -297,16 +313,16 @@ ROS_INLINE int integrate(const pt_ros_problem *p, pt_ros_work *w, double x0, dou
     solve_all(w, n, modes, U4);
     /* Stage 5, at the end of the step (matrices kept for the next step). */
     w->stats.matrix_evals++;
-    if (p->matrices(p->ctx, x_new, w->A1, w->dA1, &rate1) != 0) goto undefined;
+    if (p->matrices(p->ctx, x_new, A1, dA1, &rate1) != 0) goto undefined;
     for (int i = 0; i < len; i++)
       w->ytmp[i] = y[i] + A51 * U1[i] + A52 * U2[i] + A53 * U3[i] + A54 * U4[i];
-    mat_vec(w->A1, w->ytmp, U5, n, modes);
+    mat_vec(A1, w->ytmp, U5, n, modes);
     for (int i = 0; i < len; i++)
       U5[i] += ih * (C51 * U1[i] + C52 * U2[i] + C53 * U3[i] + C54 * U4[i]);
     solve_all(w, n, modes, U5);
     /* Stage 6 from the embedded solution; U6 is the error estimate. */
     for (int i = 0; i < len; i++) w->ytmp[i] += U5[i];
-    mat_vec(w->A1, w->ytmp, U6, n, modes);
+    mat_vec(A1, w->ytmp, U6, n, modes);
     for (int i = 0; i < len; i++)
       U6[i] += ih * (C61 * U1[i] + C62 * U2[i] + C63 * U3[i] + C64 * U4[i] + C65 * U5[i]);
     solve_all(w, n, modes, U6);
@@ -358,9 +374,9 @@ ROS_INLINE int integrate(const pt_ros_problem *p, pt_ros_work *w, double x0, dou
       /* Hermite data: derivatives at both ends (f1 into U1, y''0 into U2,
        * y''1 into U3; the stage values are no longer needed). */
       double *f1 = U1, *ydd0 = U2, *ydd1 = U3;
-      mat_vec(w->A1, w->ynew, f1, n, modes);
-      second_derivative(w->A0, w->dA0, y, w->f0, ydd0, n, modes, U4);
-      second_derivative(w->A1, w->dA1, w->ynew, f1, ydd1, n, modes, U4);
+      mat_vec(A1, w->ynew, f1, n, modes);
+      second_derivative(A0, dA0, y, w->f0, ydd0, n, modes, U4);
+      second_derivative(A1, dA1, w->ynew, f1, ydd1, n, modes, U4);
       while (next < n_out && x_out[next] <= x_new) {
         if (x_out[next] == x_new) {
           p->emit(p->ctx, next++, w->ynew);
@@ -382,8 +398,9 @@ ROS_INLINE int integrate(const pt_ros_problem *p, pt_ros_work *w, double x0, dou
     }
     memcpy(y, w->ynew, sizeof(double) * (size_t)len);
     update_peaks(p, w, y, n);
-    memcpy(w->A0, w->A1, sizeof(double) * (size_t)len * n);
-    memcpy(w->dA0, w->dA1, sizeof(double) * (size_t)len * n);
+    double *swap = A0;
+    A0 = A1, A1 = swap;
+    swap = dA0, dA0 = dA1, dA1 = swap;
     rate0 = rate1;
     x = x_new;
     /* A step cut to an output says nothing against the longer one. */
@@ -403,8 +420,16 @@ int jg__ros_integrate(const pt_ros_problem *p, pt_ros_work *w, double x0, double
   switch (p->dim) { /* the perturbation systems' dimensions */
     case 4: return integrate(p, w, x0, y, x_out, n_out, x_fail, 4);
     case 5: return integrate(p, w, x0, y, x_out, n_out, x_fail, 5);
+    case 6: return integrate(p, w, x0, y, x_out, n_out, x_fail, 6);
+    case 8: return integrate(p, w, x0, y, x_out, n_out, x_fail, 8);
     case 10: return integrate(p, w, x0, y, x_out, n_out, x_fail, 10);
     case 11: return integrate(p, w, x0, y, x_out, n_out, x_fail, 11);
-    default: return integrate(p, w, x0, y, x_out, n_out, x_fail, p->dim);
+    case 12: return integrate(p, w, x0, y, x_out, n_out, x_fail, 12);
+    default: return jg__ros_integrate_generic(p, w, x0, y, x_out, n_out, x_fail);
   }
+}
+
+int jg__ros_integrate_generic(const pt_ros_problem *p, pt_ros_work *w, double x0, double *y,
+                              const double *x_out, int n_out, double *x_fail) {
+  return integrate(p, w, x0, y, x_out, n_out, x_fail, p->dim);
 }

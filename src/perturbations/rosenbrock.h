@@ -117,6 +117,11 @@ typedef struct pt_ros_work {
  * Returns PT_ROS_OK or a failure code, with *x_fail the x reached. */
 int jg__ros_integrate(const pt_ros_problem *p, pt_ros_work *w, double x0, double *y,
                      const double *x_out, int n_out, double *x_fail);
+/* The same with the dimension a run-time value (the copy every dimension
+ * without its own compiled copy takes): the reference the compiled copies
+ * must match bit for bit. */
+int jg__ros_integrate_generic(const pt_ros_problem *p, pt_ros_work *w, double x0, double *y,
+                              const double *x_out, int n_out, double *x_fail);
 
 /* The quintic Hermite interpolation limit: above this h * rate, outputs come
  * from the stages' continuous extension. */
