@@ -140,6 +140,14 @@ Test(null_error, history) {
   jg_thermal_settings t = s.p.thermal;
   t.grid_points = 0;
   cr_assert_null(jg_thermal_new(s.bg, &t, NULL));
+  jg_thermal_settings missing_table = s.p.thermal;
+  snprintf(missing_table.heating_table, sizeof missing_table.heating_table,
+           "/nonexistent/heating.txt");
+  cr_assert_null(jg_thermal_new(s.bg, &missing_table, NULL));
+  missing_table = s.p.thermal;
+  snprintf(missing_table.ionisation_table, sizeof missing_table.ionisation_table,
+           "/nonexistent/ionisation.txt");
+  cr_assert_null(jg_thermal_new(s.bg, &missing_table, NULL));
   /* Absent epochs are not failures: the success path, where the search
    * for each epoch reads its own status back. */
   cr_assert_eq(jg_epochs_compute(s.th, &(jg_epochs){0}, NULL), JG_OK);

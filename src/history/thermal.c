@@ -712,22 +712,21 @@ jg_thermal *jg_thermal_new(const jg_background *bg, const jg_thermal_settings *s
   history_run run = {bg, settings, {bg, settings->recombination_fudge, 0.0, {0}}, 0.0, 0.0,
                      NULL, 0, 0, 0};
   jg_status st = JG_OK;
-  if (settings->heating_table[0] &&
-      (st = jg__heating_table_read(settings->heating_table, &th->heating, err)) != JG_OK) {
-    /* Name the key: the file's own message does not say where it came from. */
-    char why[JG_ERROR_MESSAGE_SIZE];
-    snprintf(why, sizeof why, "%s", err->message);
-    JG_FAIL(err, st, "thermal.heating_table: %s", why);
-    jg_thermal_free(th);
-    return NULL;
+  /* The tables' own messages name the file and line; the key is added, as
+   * they do not say where the file name came from. */
+  jg_error table_err;
+  jg_error_clear(&table_err);
+  const char *table_key = "thermal.heating_table";
+  if (settings->heating_table[0])
+    st = jg__heating_table_read(settings->heating_table, &th->heating, &table_err);
+  if (st == JG_OK && settings->ionisation_table[0]) {
+    table_key = "thermal.ionisation_table";
+    st = jg__ionisation_table_read(settings->ionisation_table, settings->start_redshift,
+                                   (1.0 + 2.0 * bg->helium_to_hydrogen) * (1.0 + 1e-9),
+                                   &th->ionisation, &table_err);
   }
-  if (st == JG_OK && settings->ionisation_table[0] &&
-      (st = jg__ionisation_table_read(settings->ionisation_table, settings->start_redshift,
-                                      (1.0 + 2.0 * bg->helium_to_hydrogen) * (1.0 + 1e-9),
-                                      &th->ionisation, err)) != JG_OK) {
-    char why[JG_ERROR_MESSAGE_SIZE];
-    snprintf(why, sizeof why, "%s", err->message);
-    JG_FAIL(err, st, "thermal.ionisation_table: %s", why);
+  if (st != JG_OK) {
+    JG_FAIL(err, st, "%s: %s", table_key, table_err.message);
     jg_thermal_free(th);
     return NULL;
   }
