@@ -120,6 +120,8 @@ void jg__pt_jac_mode(const jg_perturb_model *m, const jg_medium_coefficients *c,
                      double *J, int ld, int off);
 void jg__pt_jac_limit(const jg_perturb_model *m, const jg_medium_coefficients *c, double *J);
 void jg__pt_initial_mode(const jg_perturb_model *m, const jg_perturb_start *start, double *y);
+/* perturbations.initial_table read and attached to the model (start.c). */
+jg_status jg__pt_attach_start_table(jg_perturb_model *m, jg_error *err);
 /* Store one result: out[index] of the system's result type. */
 typedef void (*emit_fn)(const jg_perturb_model *m, double z, double k, double fb,
                         const double *y, void *out, int index);
