@@ -79,6 +79,61 @@ static const double E31 = -0.6762803392801253e+00, E32 = 0.6087714651680015e+01,
 #define ROS_INLINE static inline
 #endif
 
+/* The operations on one row of the batch (M modes side by side, M fixed in
+ * each compiled copy). GCC unrolls the plain loops of a full batch into
+ * scalar code, unsure that the rows do not overlap (they never do: distinct
+ * rows of the workspace's arrays); for a full batch they are written with
+ * GNU C vector types instead, which it maps onto the widest registers the
+ * copy is compiled for. The same operations in the same order either way. */
+#if defined(__GNUC__) && PT_ROS_MAX_MODES == 8
+#define ROS_ROWS 1
+typedef double ros_row __attribute__((vector_size(8 * sizeof(double))));
+/* (Through memcpy: the rows need not be aligned to the vector's size; and
+ * no vector crosses a function boundary, whose convention depends on the
+ * processor.) */
+#define ROW_OPERATION(expression, y, a, x)                                   \
+  do {                                                                       \
+    ros_row vy_, va_, vx_;                                                   \
+    memcpy(&vy_, (y), sizeof vy_);                                           \
+    memcpy(&va_, (a), sizeof va_);                                           \
+    memcpy(&vx_, (x), sizeof vx_);                                           \
+    vy_ = (expression);                                                      \
+    memcpy((y), &vy_, sizeof vy_);                                           \
+  } while (0)
+#else
+#define ROS_ROWS 0
+#endif
+
+ROS_INLINE void row_subtract_product(double *restrict y, const double *restrict a,
+                                     const double *restrict x, const int M) {
+#if ROS_ROWS
+  if (M == PT_ROS_MAX_MODES) {
+    ROW_OPERATION(vy_ - va_ * vx_, y, a, x);
+    return;
+  }
+#endif
+  for (int b = 0; b < M; b++) y[b] -= a[b] * x[b];
+}
+ROS_INLINE void row_add_product(double *restrict y, const double *restrict a,
+                                const double *restrict x, const int M) {
+#if ROS_ROWS
+  if (M == PT_ROS_MAX_MODES) {
+    ROW_OPERATION(vy_ + va_ * vx_, y, a, x);
+    return;
+  }
+#endif
+  for (int b = 0; b < M; b++) y[b] += a[b] * x[b];
+}
+ROS_INLINE void row_multiply(double *restrict y, const double *restrict a, const int M) {
+#if ROS_ROWS
+  if (M == PT_ROS_MAX_MODES) {
+    ROW_OPERATION(vy_ * va_, y, a, a);
+    return;
+  }
+#endif
+  for (int b = 0; b < M; b++) y[b] *= a[b];
+}
+
 /* The larger of two numbers that are not NaN. fmax() is a library call
  * unless NaN handling is switched off for the whole build: too dear on the
  * per-step paths. */
@@ -91,23 +146,42 @@ int jg__ros_entry_positions(int dim, const unsigned char *pattern, int *position
   return n;
 }
 
+/* Compiled twice where the compiler can (x86-64 with GNU C, outside the
+ * sanitizer builds), for the baseline processor and for AVX2, picked when
+ * the program loads: the loops over the modes then do four modes per
+ * instruction instead of two. The arithmetic is the same (no fused
+ * multiply-add: AVX2 alone does not bring it), so the results do not
+ * depend on the processor. */
+#if defined(__GNUC__) && defined(__x86_64__) && !defined(__SANITIZE_ADDRESS__) && \
+    !defined(JG_NO_TARGET_CLONES)
+#define ROS_CLONES __attribute__((target_clones("avx2", "default")))
+#else
+#define ROS_CLONES
+#endif
+
+ROS_CLONES
 void jg__ros_gather(int n_entries, const int *position, int n_modes, const double *B0,
                     const double *B1, const double *s1, const double *B2, const double *s2,
                     double *restrict A) {
+#if ROS_ROWS
+  if (n_modes == PT_ROS_MAX_MODES) { /* a full batch: whole rows at once */
+    ros_row r1 = {0}, r2 = {0};
+    if (B1) memcpy(&r1, s1, sizeof r1);
+    if (B2) memcpy(&r2, s2, sizeof r2);
+    for (int e = 0; e < n_entries; e++) {
+      const int at = position[e];
+      const double b1 = B1 ? B1[at] : 0.0, b2 = B2 ? B2[at] : 0.0;
+      ros_row a = B0[at] + r1 * b1 + r2 * b2;
+      memcpy(A + (size_t)e * n_modes, &a, sizeof a);
+    }
+    return;
+  }
+#endif
   for (int e = 0; e < n_entries; e++) {
     const int at = position[e];
     const double b0 = B0[at], b1 = B1 ? B1[at] : 0.0, b2 = B2 ? B2[at] : 0.0;
     double *restrict a = A + (size_t)e * n_modes;
-    /* Most entries are the same for every mode (only the pressure and the
-     * advection terms differ). */
-    if (b1 == 0.0 && b2 == 0.0)
-      for (int b = 0; b < n_modes; b++) a[b] = b0;
-    else if (b2 == 0.0)
-      for (int b = 0; b < n_modes; b++) a[b] = b0 + s1[b] * b1;
-    else if (b1 == 0.0)
-      for (int b = 0; b < n_modes; b++) a[b] = b0 + s2[b] * b2;
-    else
-      for (int b = 0; b < n_modes; b++) a[b] = b0 + s1[b] * b1 + s2[b] * b2;
+    for (int b = 0; b < n_modes; b++) a[b] = b0 + (B1 ? s1[b] * b1 : 0.0) + (B2 ? s2[b] * b2 : 0.0);
   }
 }
 
@@ -176,12 +250,12 @@ ROS_INLINE int factorise(pt_ros_work *w, const double *A, double fac, int n, con
     for (int r = w->l_col_start[k]; r < w->l_col_start[k + 1]; r++) {
       const int i = w->l_col_rows[r];
       double *restrict l = LU + (i * n + k) * M;
-      for (int b = 0; b < M; b++) l[b] *= inverse[b];
+      row_multiply(l, inverse, M);
       for (int c = w->u_row_start[k]; c < w->u_row_start[k + 1]; c++) {
         const int j = w->u_row_cols[c];
         double *restrict target = LU + (i * n + j) * M;
         const double *restrict u = LU + (k * n + j) * M;
-        for (int b = 0; b < M; b++) target[b] -= l[b] * u[b];
+        row_subtract_product(target, l, u, M);
       }
     }
   }
@@ -198,7 +272,7 @@ ROS_INLINE void solve_all(const pt_ros_work *w, int n, const int M, double *rest
       const int k = w->l_row_cols[c];
       const double *restrict l = LU + (i * n + k) * M;
       const double *restrict xk = x + k * M;
-      for (int b = 0; b < M; b++) xi[b] -= l[b] * xk[b];
+      row_subtract_product(xi, l, xk, M);
     }
   }
   for (int i = n - 1; i >= 0; i--) {
@@ -207,10 +281,10 @@ ROS_INLINE void solve_all(const pt_ros_work *w, int n, const int M, double *rest
       const int j = w->u_row_cols[c];
       const double *restrict u = LU + (i * n + j) * M;
       const double *restrict xj = x + j * M;
-      for (int b = 0; b < M; b++) xi[b] -= u[b] * xj[b];
+      row_subtract_product(xi, u, xj, M);
     }
     const double *restrict inverse = w->inverse_pivot + i * M;
-    for (int b = 0; b < M; b++) xi[b] *= inverse[b];
+    row_multiply(xi, inverse, M);
   }
 }
 
@@ -222,7 +296,7 @@ ROS_INLINE void mat_vec(const pt_ros_work *w, const double *restrict A, const do
     const double *restrict a = A + e * M;
     const double *restrict ve = v + w->entry_col[e] * M;
     double *restrict o = out + w->entry_row[e] * M;
-    for (int b = 0; b < M; b++) o[b] += a[b] * ve[b];
+    row_add_product(o, a, ve, M);
   }
 }
 
@@ -492,19 +566,6 @@ undefined:
   *x_fail = x;
   return PT_ROS_UNDEFINED;
 }
-
-/* Compiled twice where the compiler can (x86-64 with GNU C, outside the
- * sanitizer builds), for the baseline processor and for AVX2, picked when
- * the program loads: the loops over the modes then do four modes per
- * instruction instead of two. The arithmetic is the same (no fused
- * multiply-add: AVX2 alone does not bring it), so the results do not
- * depend on the processor. */
-#if defined(__GNUC__) && defined(__x86_64__) && !defined(__SANITIZE_ADDRESS__) && \
-    !defined(JG_NO_TARGET_CLONES)
-#define ROS_CLONES __attribute__((target_clones("avx2", "default")))
-#else
-#define ROS_CLONES
-#endif
 
 ROS_CLONES
 int jg__ros_integrate(const pt_ros_problem *p, pt_ros_work *w, double x0, double *y,
