@@ -213,20 +213,23 @@ static int coefficients_and_slope(const jg_perturb_model *m, double x, jg_medium
 
 /* The matrices of the batch: A is affine in k^2 (the pressure terms), so
  * A(k^2) = A(0) + k^2 (A(1) - A(0)), two matrices per x for the whole
- * batch; and affine in the coefficients, so dA/dx = A(c') - A(c = 0). */
+ * batch (one, built at its k^2, for a lone mode); and affine in the
+ * coefficients, so dA/dx = A(c') - A(c = 0). */
 static int ros_matrices(void *ctx, double x, double *A, double *dA, double *rate) {
   ros_run *r = ctx;
   const jg_perturb_model *m = r->m;
   jg_medium_coefficients c, dc = {0};
   if (coefficients_and_slope(m, x, &c, dA ? &dc : NULL) != 0) return 1;
-  const int nn = r->dim * r->dim, k_dependent = r->type->k_dependent;
+  const int nn = r->dim * r->dim;
+  const int by_parts = r->type->k_dependent && r->n_modes > 1;
+  const double k2 = by_parts ? 0.0 : r->k2[0];
   double B0[PT_ROS_MAX_ENTRIES], B1[PT_ROS_MAX_ENTRIES];
-  r->type->matrix(m, &c, 0.0, B0);
-  if (k_dependent) {
+  r->type->matrix(m, &c, k2, B0);
+  if (by_parts) {
     r->type->matrix(m, &c, 1.0, B1);
     for (int i = 0; i < nn; i++) B1[i] -= B0[i];
   }
-  jg__ros_gather(r->n_entries, r->position, r->n_modes, B0, k_dependent ? B1 : NULL, r->k2, NULL,
+  jg__ros_gather(r->n_entries, r->position, r->n_modes, B0, by_parts ? B1 : NULL, r->k2, NULL,
                  NULL, A);
   /* The rates grow with k^2: the batch's largest k bounds them all. */
   if (rate) *rate = fastest_rate(m, &c, r->k2_max);
@@ -239,13 +242,13 @@ static int ros_matrices(void *ctx, double x, double *A, double *dA, double *rate
       r->type->matrix(m, &zero, 0.0, r->A_zero);
       r->zero_fb = c.baryon_fraction;
     }
-    r->type->matrix(m, &dc, 0.0, B0);
-    if (k_dependent) {
+    r->type->matrix(m, &dc, k2, B0);
+    if (by_parts) {
       r->type->matrix(m, &dc, 1.0, B1);
       for (int i = 0; i < nn; i++) B1[i] -= B0[i];
     }
     for (int i = 0; i < nn; i++) B0[i] -= r->A_zero[i];
-    jg__ros_gather(r->n_entries, r->position, r->n_modes, B0, k_dependent ? B1 : NULL, r->k2,
+    jg__ros_gather(r->n_entries, r->position, r->n_modes, B0, by_parts ? B1 : NULL, r->k2,
                    NULL, NULL, dA);
   }
   return 0;

@@ -177,6 +177,17 @@ void jg__ros_gather(int n_entries, const int *position, int n_modes, const doubl
     return;
   }
 #endif
+  if (n_modes == 1 && !B1 && !B2) { /* a lone mode at its own k, the limit system */
+    for (int e = 0; e < n_entries; e++) A[e] = B0[position[e]];
+    return;
+  }
+  if (!B1 && !B2) { /* one matrix for every mode */
+    for (int e = 0; e < n_entries; e++) {
+      const double b0 = B0[position[e]];
+      for (int b = 0; b < n_modes; b++) A[(size_t)e * n_modes + b] = b0;
+    }
+    return;
+  }
   for (int e = 0; e < n_entries; e++) {
     const int at = position[e];
     const double b0 = B0[at], b1 = B1 ? B1[at] : 0.0, b2 = B2 ? B2[at] : 0.0;
@@ -342,7 +353,8 @@ ROS_INLINE void update_peaks(const pt_ros_problem *p, pt_ros_work *w, const doub
     memcpy(w->peak, w->own_peak, sizeof(double) * (size_t)(n * M));
     return;
   }
-  double group_peak[PT_ROS_MAX_LEN] = {0.0};
+  double group_peak[PT_ROS_MAX_LEN];
+  for (int i = 0; i < n * M; i++) group_peak[i] = 0.0;
   for (int i = 0; i < n; i++)
     for (int b = 0; b < M; b++) {
       double *g = group_peak + p->group[i] * M + b;
