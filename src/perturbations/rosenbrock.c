@@ -152,7 +152,7 @@ int jg__ros_entry_positions(int dim, const unsigned char *pattern, int *position
  * instruction instead of two. The arithmetic is the same (no fused
  * multiply-add: AVX2 alone does not bring it), so the results do not
  * depend on the processor. */
-#if defined(__GNUC__) && defined(__x86_64__) && !defined(__SANITIZE_ADDRESS__) && \
+#if defined(__GNUC__) && !defined(__clang__) && defined(__x86_64__) && !defined(__SANITIZE_ADDRESS__) && \
     !defined(JG_NO_TARGET_CLONES)
 #define ROS_CLONES __attribute__((target_clones("avx2", "default")))
 #else
