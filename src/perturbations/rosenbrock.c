@@ -146,7 +146,7 @@ int jg__ros_entry_positions(int dim, const unsigned char *pattern, int *position
   return n;
 }
 
-/* Compiled twice where the compiler can (x86-64 with GNU C, outside the
+/* Compiled twice where the compiler can (x86-64 with GCC, outside the
  * sanitizer builds), for the baseline processor and for AVX2, picked when
  * the program loads: the loops over the modes then do four modes per
  * instruction instead of two. The arithmetic is the same (no fused
