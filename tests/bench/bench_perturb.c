@@ -33,8 +33,9 @@
  * valgrind --tool=callgrind.
  *
  * Usage: bench_perturb [DIR]
- *   Writes DIR/perturb_coefficients.txt (the medium coefficients on a grid
- *   of 500 nodes per e-fold: what the SciPy comparison interpolates),
+ *   Writes DIR/perturb_coefficients.txt (the medium coefficients, delta_xe
+ *   terms included, on the nodes of the model's table: what the SciPy
+ *   comparison interpolates),
  *   DIR/perturb_reference.txt (the tight reference: delta_c and
  *   delta_b/delta_c for the 16 modes) and DIR/perturb_c_ladder.txt (this
  *   solver's error and cost per tolerance). tests/bench/scipy_perturb.py DIR
@@ -42,6 +43,9 @@
  *   Jacobian) over the same ladder and writes DIR/perturb_scipy_ladder.txt;
  *   run bench_perturb DIR again to print the comparison. Nothing here
  *   asserts a time.
+ * Usage: bench_perturb --coefficients PARAMFILE DIR
+ *   Writes only DIR/perturb_coefficients.txt, for the model of PARAMFILE
+ *   (tests/bench/scipy_growth.py, which times the whole program).
  */
 #include <gsl/gsl_errno.h>
 #include <math.h>
