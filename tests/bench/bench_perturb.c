@@ -33,8 +33,9 @@
  * valgrind --tool=callgrind.
  *
  * Usage: bench_perturb [DIR]
- *   Writes DIR/perturb_coefficients.txt (the medium coefficients on a grid
- *   of 500 nodes per e-fold: what the SciPy comparison interpolates),
+ *   Writes DIR/perturb_coefficients.txt (the medium coefficients, delta_xe
+ *   terms included, on the nodes of the model's table: what the SciPy
+ *   comparison interpolates),
  *   DIR/perturb_reference.txt (the tight reference: delta_c and
  *   delta_b/delta_c for the 16 modes) and DIR/perturb_c_ladder.txt (this
  *   solver's error and cost per tolerance). tests/bench/scipy_perturb.py DIR
@@ -42,6 +43,9 @@
  *   Jacobian) over the same ladder and writes DIR/perturb_scipy_ladder.txt;
  *   run bench_perturb DIR again to print the comparison. Nothing here
  *   asserts a time.
+ * Usage: bench_perturb --coefficients PARAMFILE DIR
+ *   Writes only DIR/perturb_coefficients.txt, for the model of PARAMFILE
+ *   (tests/bench/scipy_growth.py, which times the whole program).
  */
 #include <gsl/gsl_errno.h>
 #include <math.h>
@@ -189,13 +193,70 @@ static int read_scipy_ladder(const char *path, ladder_row *rows, int max, char *
   return n;
 }
 
+/* DIR/perturb_coefficients.txt: the medium coefficients of the model on the
+ * nodes of its table (ln a from ln_a_min to 0, 500 per e-fold), every one
+ * the equations read, the delta_xe terms included; what the SciPy scripts
+ * (tests/bench/scipy_equations.py) interpolate. The delta_xe columns are 0
+ * when the model has no delta_xe (the meta line says which). */
+static int write_coefficients(const char *dir, const jg_perturb_settings *s,
+                              const jg_perturb_model *m) {
+  char path[4096];
+  snprintf(path, sizeof path, "%s/perturb_coefficients.txt", dir);
+  FILE *f = fopen(path, "w");
+  if (!f) {
+    fprintf(stderr, "bench_perturb: cannot write %s\n", path);
+    return 1;
+  }
+  const jg_medium *md = jg_perturb_model_medium(m);
+  const int fluctuating = s->sound_speed == JG_SOUND_SPEED_FLUCTUATING;
+  const int ionisation = fluctuating && s->ionisation_perturbation;
+  fprintf(f, "# medium coefficients, on the nodes of the model's table (500 per e-fold)\n");
+  fprintf(f, "# z_initial %.17g a_equality %.17g rel_tol %.17g abs_tol %.17g fluctuating %d "
+          "ionisation %d\n", s->z_initial, md->a_equality, s->rel_tol, s->abs_tol, fluctuating,
+          ionisation);
+  fprintf(f, "# ln_a\tdlnH_dlna\tgravity\tbaryon_fraction\tpressure[Mpc^2]\tdrag\trelaxation"
+          "\tionisation_relaxation\tionisation_density\tionisation_temperature"
+          "\tionisation_expansion\theating_ionisation\tpressure_ionisation[Mpc^2]\n");
+  const int intervals = (int)lround(-md->ln_a_min * 500.0);
+  for (int i = 0; i <= intervals; i++) {
+    const double x = i == intervals ? md->ln_a_max
+                                    : md->ln_a_min + i * (md->ln_a_max - md->ln_a_min) / intervals;
+    jg_medium_coefficients c = {0};
+    md->eval(md->ctx, x, &c);
+    if (!ionisation)
+      c.ionisation_relaxation = c.ionisation_density = c.ionisation_temperature =
+          c.ionisation_expansion = c.heating_ionisation = c.pressure_ionisation = 0.0;
+    fprintf(f, "%.17g\t%.17g\t%.17g\t%.17g\t%.17g\t%.17g\t%.17g\t%.17g\t%.17g\t%.17g\t%.17g\t%.17g"
+            "\t%.17g\n", x, c.dlnH_dlna, c.gravity, c.baryon_fraction, c.pressure, c.drag,
+            c.relaxation, c.ionisation_relaxation, c.ionisation_density,
+            c.ionisation_temperature, c.ionisation_expansion, c.heating_ionisation,
+            c.pressure_ionisation);
+  }
+  if (fclose(f) != 0) {
+    fprintf(stderr, "bench_perturb: cannot write %s\n", path);
+    return 1;
+  }
+  return 0;
+}
+
 int main(int argc, char **argv) {
   gsl_set_error_handler_off();
-  const char *dir = argc > 1 ? argv[1] : ".";
+  /* --coefficients PARAMFILE DIR: only the coefficient table of that
+   * parameter file's model (tests/bench/scipy_growth.py), then stop. */
+  const int coefficients_only = argc > 1 && strcmp(argv[1], "--coefficients") == 0;
+  if (coefficients_only && argc != 4) {
+    fprintf(stderr, "usage: bench_perturb [DIR] | bench_perturb --coefficients PARAMFILE DIR\n");
+    return 2;
+  }
+  const char *dir = coefficients_only ? argv[3] : argc > 1 ? argv[1] : ".";
   jg_params p;
   jg_params_set_defaults(&p);
   jg_error err;
   jg_error_clear(&err);
+  if (coefficients_only && jg_params_load(argv[2], NULL, 0, &p, &err) != JG_OK) {
+    fprintf(stderr, "bench_perturb: %s\n", err.message);
+    return 2;
+  }
   jg_background *bg = jg_background_new(&p.cosmology, &err);
   jg_thermal *th = bg ? jg_thermal_new(bg, &p.thermal, &err) : NULL;
   if (!th) {
@@ -205,6 +266,14 @@ int main(int argc, char **argv) {
   double t0 = now();
   jg_perturb_model *m = jg_perturb_model_new(th, &p.perturbations, NULL, &err);
   double t_model = now() - t0;
+  if (coefficients_only) {
+    if (!m) fprintf(stderr, "bench_perturb: %s\n", err.message);
+    const int bad = !m || write_coefficients(dir, &p.perturbations, m);
+    jg_perturb_model_free(m);
+    jg_thermal_free(th);
+    jg_background_free(bg);
+    return bad;
+  }
   jg_perturb_workspace *w = m ? jg_perturb_workspace_new(m, &err) : NULL;
   if (!w) {
     fprintf(stderr, "bench_perturb: %s\n", err.message);
@@ -346,28 +415,8 @@ int main(int argc, char **argv) {
 
   /* Files for the SciPy comparison. */
   char path[4096];
-  snprintf(path, sizeof path, "%s/perturb_coefficients.txt", dir);
-  FILE *f = fopen(path, "w");
-  if (!f) {
-    fprintf(stderr, "bench_perturb: cannot write %s\n", path);
-    return 1;
-  }
-  const jg_medium *md = jg_perturb_model_medium(m);
-  const double x_init = -log1p(p.perturbations.z_initial);
-  fprintf(f, "# medium coefficients of the reference cosmology, 500 nodes per e-fold\n");
-  fprintf(f, "# z_initial %.17g a_equality %.17g rel_tol %.17g abs_tol %.17g\n",
-          p.perturbations.z_initial, md->a_equality, p.perturbations.rel_tol,
-          p.perturbations.abs_tol);
-  fprintf(f, "# ln_a\tdlnH_dlna\tgravity\tbaryon_fraction\tpressure[Mpc^2]\tdrag\trelaxation\n");
-  const int nodes = (int)ceil(-x_init * 500.0) + 5;
-  for (int i = 0; i <= nodes; i++) {
-    double x = x_init - 2.0 / 500.0 + i * (-x_init + 2.0 / 500.0) / nodes;
-    jg_medium_coefficients c;
-    md->eval(md->ctx, x, &c);
-    fprintf(f, "%.17g\t%.17g\t%.17g\t%.17g\t%.17g\t%.17g\t%.17g\n", x, c.dlnH_dlna, c.gravity,
-            c.baryon_fraction, c.pressure, c.drag, c.relaxation);
-  }
-  fclose(f);
+  if (write_coefficients(dir, &p.perturbations, m)) return 1;
+  FILE *f;
 
   /* The same work: 16 modes, the tight reference, then the ladder, on the
    * GSL path. */

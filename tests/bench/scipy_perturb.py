@@ -2,22 +2,17 @@
 """SciPy solution of the same perturbation equations as src/perturbations/perturb.c, for
 the same-work comparison of tests/bench/bench_perturb.c.
 
-Reads DIR/perturb_coefficients.txt (the C medium coefficients on a grid of
-500 nodes per e-fold) and interpolates them the same way as the C tables:
-natural cubic splines of ln p, ln d, ln r, and of e and g. Solves the
-fluctuating-sound-speed system y = {delta_c, delta_c', delta_b, delta_b',
-delta_T} in x = ln a with scipy.integrate.solve_ivp, implicit method 'BDF'
-with the analytic Jacobian (or 'LSODA' with --method LSODA), from z_initial to z = 10 with the same 7 output
-redshifts and the same 16 modes as DIR/perturb_reference.txt. Initial
-conditions: CDM on the Meszaros growing mode with smooth baryons,
-2F1(alpha, beta; 1; -y) from scipy.special.hyp2f1 (independent of the C
-code's Pfaff-transformed GSL evaluation), baryons at rest.
+The equations, their coefficients (DIR/perturb_coefficients.txt) and the
+start are those of tests/bench/scipy_equations.py: the default model, the
+fluctuating sound speed with delta_xe. Solved in x = ln a with
+scipy.integrate.solve_ivp, implicit method 'BDF' with the analytic Jacobian
+(or 'LSODA' with --method LSODA), from z_initial to z = 10 with the same 7
+output redshifts and the same 16 modes as DIR/perturb_reference.txt.
 
 A careful SciPy solution: the right-hand side and the Jacobian evaluate the
 spline with plain Python arithmetic on the spline's per-interval polynomials
-(CubicSpline.__call__ costs several microseconds of array handling per
-scalar call), checked against CubicSpline itself below. What remains is the
-cost of solve_ivp's own step.
+(checked against CubicSpline). What remains is the cost of solve_ivp's own
+step.
 
 Equal nominal tolerances are not equal accuracy, so the script runs the
 tolerance ladder of DIR/perturb_c_ladder.txt (abs_tol = rel_tol / 100) and
@@ -39,7 +34,6 @@ Usage: /usr/bin/python3 tests/bench/scipy_perturb.py DIR [--repeats N] [--no-rad
                                                      [--method BDF|LSODA]
 """
 import argparse
-import math
 import os
 import sys
 import time
@@ -47,86 +41,17 @@ import time
 import numpy as np
 import scipy
 from scipy.integrate import solve_ivp
-from scipy.interpolate import CubicSpline
-from scipy.special import hyp2f1
+
+from scipy_equations import Coefficients
 
 REF_RTOL = 1e-12
 ABS_PER_REL = 1e-2
 
 
-def load(d):
-    with open(f"{d}/perturb_coefficients.txt") as f:
-        f.readline()
-        words = f.readline().split()
-    meta = {words[i]: float(words[i + 1]) for i in range(1, len(words) - 1, 2)}
-    tab = np.loadtxt(f"{d}/perturb_coefficients.txt")
+def load_results(d):
     ref = np.loadtxt(f"{d}/perturb_reference.txt")
     ladder = np.atleast_2d(np.loadtxt(f"{d}/perturb_c_ladder.txt"))
-    return meta, tab, ref, ladder
-
-
-def make_coefficients(tab):
-    """Scalar evaluation of the natural cubic splines of e, g, ln p, ln d,
-    ln r on the (uniform) table grid: one index computation and five Horner
-    sums in Python floats."""
-    x = tab[:, 0]
-    cols = np.column_stack([tab[:, 1], tab[:, 2], np.log(tab[:, 4]), np.log(tab[:, 5]),
-                            np.log(tab[:, 6])])
-    spl = CubicSpline(x, cols, bc_type="natural")
-    # spl.c[m, i, q]: coefficient of (x - x_i)^(3 - m) on interval i.
-    poly = [tuple(float(v) for v in spl.c[:, i, :].T.ravel()) for i in range(len(x) - 1)]
-    xb = [float(v) for v in x]
-    x0, inv_h, last = xb[0], (len(x) - 1) / (xb[-1] - xb[0]), len(x) - 2
-    exp = math.exp
-
-    def coeffs(xx):
-        i = int((xx - x0) * inv_h)
-        i = 0 if i < 0 else (last if i > last else i)
-        t = xx - xb[i]
-        c = poly[i]
-        e = ((c[0] * t + c[1]) * t + c[2]) * t + c[3]
-        g = ((c[4] * t + c[5]) * t + c[6]) * t + c[7]
-        lp = ((c[8] * t + c[9]) * t + c[10]) * t + c[11]
-        ld = ((c[12] * t + c[13]) * t + c[14]) * t + c[15]
-        lr = ((c[16] * t + c[17]) * t + c[18]) * t + c[19]
-        return e, g, exp(lp), exp(ld), exp(lr)
-
-    # The fast path must be the same interpolant as CubicSpline.
-    for xx in np.linspace(x[0], x[-1], 1001):
-        e, g, lp, ld, lr = spl(xx)
-        fast = coeffs(float(xx))
-        want = (e, g, math.exp(lp), math.exp(ld), math.exp(lr))
-        for a, b in zip(fast, want):
-            if abs(a - b) > 1e-12 * abs(b):
-                raise SystemExit(f"spline evaluation differs at x = {xx}: {fast} vs {want}")
-    return coeffs
-
-
-def make_system(coeffs, fb, k2):
-    fc = 1.0 - fb
-
-    def fun(xx, y):
-        e, g, p, dr, r = coeffs(xx)
-        grav = g * (fc * y[0] + fb * y[2])
-        return np.array([
-            y[1],
-            -(2.0 + e) * y[1] + grav,
-            y[3],
-            -(2.0 + e + dr) * y[3] + grav - p * k2 * (y[2] + y[4]),
-            (2.0 / 3.0) * y[3] - r * y[4],
-        ])
-
-    def jac(xx, y):
-        e, g, p, dr, r = coeffs(xx)
-        pk2 = p * k2
-        return np.array([
-            [0.0, 1.0, 0.0, 0.0, 0.0],
-            [g * fc, -(2.0 + e), g * fb, 0.0, 0.0],
-            [0.0, 0.0, 0.0, 1.0, 0.0],
-            [g * fc, 0.0, g * fb - pk2, -(2.0 + e + dr), -pk2],
-            [0.0, 0.0, 0.0, 2.0 / 3.0, -r],
-        ])
-    return fun, jac
+    return ref, ladder
 
 
 def main():
@@ -143,25 +68,16 @@ def main():
     print(f"Python {sys.version.split()[0]}, NumPy {np.__version__}, SciPy {scipy.__version__}; "
           f"{env}")
 
-    meta, tab, ref, c_ladder = load(d)
-    fb = float(tab[0, 3])
-    coeffs = make_coefficients(tab)
-
-    # Meszaros growing mode with a smooth share f_b of the matter.
-    x0 = -math.log1p(meta["z_initial"])
-    y_eq = math.exp(x0) / meta["a_equality"]
-    s = math.sqrt(0.25 + 6.0 * (1.0 - fb))
-    al, be = 0.5 * (0.5 + s), 0.5 * (0.5 - s)
-    D = hyp2f1(al, be, 1.0, -y_eq)
-    dD = -al * be * hyp2f1(al + 1.0, be + 1.0, 2.0, -y_eq)
-    y0 = np.array([1.0, y_eq * dD / D, 0.0, 0.0, 0.0])
+    medium = Coefficients(d)
+    ref, c_ladder = load_results(d)
+    x0, y0 = medium.initial_state()
 
     ks = np.unique(ref[:, 0])
     zs = np.unique(ref[:, 1])[::-1]  # descending redshift = ascending ln a
     xs = -np.log1p(zs)
     # ref rows per mode, in the order of zs
     ref_of = {k: np.array([ref[(ref[:, 0] == k) & (ref[:, 1] == z)][0] for z in zs]) for k in ks}
-    systems = {k: make_system(coeffs, fb, k * k) for k in ks}
+    systems = {k: medium.system(k) for k in ks}
 
     def solve_all(method, rtol):
         """All modes once: (seconds, worst b/c error, worst delta_c error, evaluations)."""
