@@ -42,8 +42,14 @@ typedef struct thermal_medium {
   double x0, dx, inv_dx; /* node i at x0 + i dx */
   int n;                 /* nodes */
   double *poly;          /* per interval: N_Q quantities x 4 polynomial coefficients */
-  double *node_rate;     /* per interval: exp of the constant term of ln p, ln d, ln r */
+  double *node_rate;     /* per interval: PT_NODE_VALUES, the values at its first node */
 } thermal_medium;
+
+/* node_rate per interval: p, d, r (exp of the constant terms of their
+ * polynomials), then sinh and cosh of the constant terms of the four
+ * asinh-tabulated quantities (q_r, q_b, q_T, q_v and sqrt(1 + q^2)). */
+#define PT_NODE_RATES 3
+#define PT_NODE_VALUES (PT_NODE_RATES + 2 * 4)
 
 /* The tabulated quantities: ln p, ln d, ln r, e, g; gamma_eff; asinh of the
  * delta_xe terms q_r, q_b, q_T, q_v (signed, spanning decades); h_x / r and
