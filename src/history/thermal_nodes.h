@@ -8,8 +8,9 @@
 
 #include "jeansgrow/thermal.h"
 
-/* At ln a (z = expm1(-ln_a)): the state of jg_thermal_state_at and, if
- * response is not NULL, the response of jg_thermal_ionisation_response,
+/* At ln a (z = expm1(-ln_a)): the state of jg_thermal_state_at but for
+ * helium's ionisation fractions (left 0: the tables do not read them) and,
+ * if response is not NULL, the response of jg_thermal_ionisation_response,
  * from one look-up of each stored spline (values and slopes together).
  * cursor: NULL, or a gsl_interp_accel zeroed before the first of a run of
  * calls, which then finds the grid interval of each next ln a at once. */

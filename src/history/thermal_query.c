@@ -116,9 +116,10 @@ void jg_thermal_log_slopes(const jg_thermal *th, double ln_a, double *dlnxe_dlna
 
 /* The state at z, ln_a = -ln(1 + z) (the caller passes whichever of the two
  * it holds exactly), and d ln x_e / d ln a if asked, with the splines looked
- * up through cursor (may be NULL). */
+ * up through cursor (may be NULL); helium's ionisation fractions only if
+ * asked (0 otherwise). */
 static void state_at(const jg_thermal *th, double z, double ln_a, gsl_interp_accel *cursor,
-                     jg_thermal_state *s, double *dlnxe_dlna) {
+                     bool helium, jg_thermal_state *s, double *dlnxe_dlna) {
   const jg_background *bg = th->bg;
   const double a = exp(ln_a);
   memset(s, 0, sizeof *s);
@@ -136,11 +137,13 @@ static void state_at(const jg_thermal *th, double z, double ln_a, gsl_interp_acc
     dlnT_dlna = gsl_spline_eval_deriv(th->ln_Tgas, ln_a, cursor);
     if (dlnxe_dlna) *dlnxe_dlna = gsl_spline_eval_deriv(th->ln_xe, ln_a, cursor);
   }
-  jg__helium_saha he;
-  jg__helium_saha_at(bg, s->T_rad, jg_background_n_hydrogen(bg, a), s->x_e, &he);
-  s->x_HeII = he.x_HeII;
-  s->x_HeIII = he.x_HeIII;
-  if (jg__reionisation_acts(&th->reion, ln_a)) {
+  if (helium) {
+    jg__helium_saha he;
+    jg__helium_saha_at(bg, s->T_rad, jg_background_n_hydrogen(bg, a), s->x_e, &he);
+    s->x_HeII = he.x_HeII;
+    s->x_HeIII = he.x_HeIII;
+  }
+  if (helium && jg__reionisation_acts(&th->reion, ln_a)) {
     /* The model ionises the helium left neutral once (with hydrogen) and
      * then a second time; the Saha fractions at these temperatures are
      * nil. */
@@ -160,13 +163,13 @@ static void state_at(const jg_thermal *th, double z, double ln_a, gsl_interp_acc
 }
 
 void jg_thermal_state_at(const jg_thermal *th, double z, jg_thermal_state *s) {
-  state_at(th, z, -log1p(z), NULL, s, NULL);
+  state_at(th, z, -log1p(z), NULL, true, s, NULL);
 }
 
 void jg__thermal_state_and_response(const jg_thermal *th, double ln_a, gsl_interp_accel *cursor,
                                     jg_thermal_state *s, jg_ionisation_response *out) {
   double dlnxe_dlna;
-  state_at(th, expm1(-ln_a), ln_a, cursor, s, out ? &dlnxe_dlna : NULL);
+  state_at(th, expm1(-ln_a), ln_a, cursor, false, s, out ? &dlnxe_dlna : NULL);
   if (!out) return;
   const jg_background *bg = th->bg;
   const double a = exp(ln_a);
@@ -187,7 +190,7 @@ void jg__thermal_state_and_response(const jg_thermal *th, double ln_a, gsl_inter
 
 void jg_thermal_ionisation_response(const jg_thermal *th, double ln_a,
                                     jg_ionisation_response *out) {
-  jg_thermal_state s;
+  jg_thermal_state s; /* the response does not read helium's fractions */
   jg__thermal_state_and_response(th, ln_a, NULL, &s, out);
 }
 

@@ -270,7 +270,8 @@ thermal_medium *jg__pt_thermal_medium_new(const jg_thermal *th, double x_first,
         if (logarithmic) stored[k] = q[k];
         if (signed_logarithmic) {
           stored[PT_NODE_RATES + 2 * (k - Q_XE_RELAX)] = q[k];
-          stored[PT_NODE_RATES + 2 * (k - Q_XE_RELAX) + 1] = hypot(1.0, q[k]);
+          const double a = fabs(q[k]); /* q^2 would overflow only past 1e154 */
+          stored[PT_NODE_RATES + 2 * (k - Q_XE_RELAX) + 1] = a < 1e150 ? sqrt(1.0 + a * a) : a;
         }
       }
       if (st != JG_OK) break;
