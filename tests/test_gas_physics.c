@@ -540,7 +540,8 @@ static void medium_against_direct(const jg_thermal *th, const thermal_medium *tm
  * 9e-14 of the largest slope (GSL's derivative of its spline against the
  * tables' polynomial). The bounds, 1e-13, 1e-13 and 1e-12, leave room for
  * other compilers and stay 1000 times below the tables' own interpolation
- * error (1e-10, src/perturbations/perturb_internal.h). */
+ * error (1e-10 on smooth stretches, more across the history's kinks:
+ * src/perturbations/perturb_internal.h). */
 Test(gas_physics, coefficient_tables_match_their_direct_evaluation) {
   jg_params p;
   jg_params_set_defaults(&p);
