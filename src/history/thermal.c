@@ -268,14 +268,10 @@ static jg_status integrate_depths(jg_thermal *th, const double *x_e, jg_error *e
   jg_status st = build_spline(&s_tau, th->ln_a, dtau, n, err);
   if (st == JG_OK) st = build_spline(&s_drag, th->ln_a, ddrag, n, err);
   if (st == JG_OK) {
-    /* Walking the grid interval by interval: a cursor finds each interval
-     * at once instead of by bisection (the same interval, the same sum). */
-    gsl_interp_accel cursor = {0, 0, 0};
     tau[n - 1] = drag[n - 1] = 0.0;
     for (int i = n - 2; i >= 0; i--) {
-      tau[i] = tau[i + 1] + gsl_spline_eval_integ(s_tau, th->ln_a[i], th->ln_a[i + 1], &cursor);
-      drag[i] =
-          drag[i + 1] + gsl_spline_eval_integ(s_drag, th->ln_a[i], th->ln_a[i + 1], &cursor);
+      tau[i] = tau[i + 1] + gsl_spline_eval_integ(s_tau, th->ln_a[i], th->ln_a[i + 1], NULL);
+      drag[i] = drag[i + 1] + gsl_spline_eval_integ(s_drag, th->ln_a[i], th->ln_a[i + 1], NULL);
     }
     st = build_spline(&th->tau, th->ln_a, tau, n, err);
     if (st == JG_OK) st = build_spline(&th->tau_drag, th->ln_a, drag, n, err);

@@ -13,7 +13,8 @@
  * if response is not NULL, the response of jg_thermal_ionisation_response,
  * from one look-up of each stored spline (values and slopes together).
  * cursor: NULL, or a gsl_interp_accel zeroed before the first of a run of
- * calls, which then finds the grid interval of each next ln a at once. */
+ * calls at increasing ln a: the five look-ups of one call, and the calls
+ * that fall in the interval of the last, then find it without a search. */
 void jg__thermal_state_and_response(const jg_thermal *th, double ln_a, gsl_interp_accel *cursor,
                                     jg_thermal_state *s, jg_ionisation_response *response);
 
