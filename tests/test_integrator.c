@@ -23,7 +23,7 @@ static int nonautonomous(void *ctx, double x, double *A, double *dA, double *rat
   (void)ctx;
   A[0] = -1.0, A[1] = x, A[2] = 0.0, A[3] = -2.0;
   if (dA) dA[0] = 0.0, dA[1] = 1.0, dA[2] = 0.0, dA[3] = 0.0;
-  *rate = 2.0;
+  if (rate) *rate = 2.0;
   return 0;
 }
 static double nonautonomous_y1(double x) { return exp(-x) * (2.0 - (1.0 + x) * exp(-x)); }
@@ -43,7 +43,7 @@ static int prothero_robinson(void *ctx, double x, double *A, double *dA, double 
     memset(dA, 0, 9 * sizeof *dA);
     dA[0] = -L, dA[1] = L;
   }
-  *rate = L;
+  if (rate) *rate = L;
   return 0;
 }
 
@@ -64,7 +64,7 @@ static pt_ros_work work;
 static double fixed_step_error(pt_ros_matrices_fn f, int dim, double h, int component,
                                double exact) {
   collected c = {0};
-  pt_ros_problem p = {dim, 1, f, collect, &c, NULL, 1e9, 1e9, h, h, 1000000};
+  pt_ros_problem p = {dim, 1, f, collect, &c, NULL, 1e9, 1e9, h, h, 1000000, NULL, NULL};
   double y[3] = {1.0, 1.0, 0.0}, x_end = 2.0, x_fail;
   int st = jg__ros_integrate(&p, &work, 0.0, y, &x_end, 1, &x_fail);
   cr_assert_eq(st, PT_ROS_OK, "h = %g: code %d at x = %g", h, st, x_fail);
@@ -107,7 +107,8 @@ Test(integrator, dense_output_accurate_and_free) {
     const int n = counts[t];
     for (int i = 0; i < n; i++) x_out[i] = 3.0 * (i + 1) / n;
     memset(&c, 0, sizeof c);
-    pt_ros_problem p = {2, 1, nonautonomous, collect, &c, NULL, 1e-10, 1e-12, 1e-3, 0.5, 100000};
+    pt_ros_problem p = {2, 1, nonautonomous, collect, &c, NULL, 1e-10, 1e-12, 1e-3, 0.5, 100000,
+                        NULL, NULL};
     double y[2] = {1.0, 1.0}, x_fail;
     const long before = work.stats.steps;
     cr_assert_eq(jg__ros_integrate(&p, &work, 0.0, y, x_out, n, &x_fail), PT_ROS_OK);
@@ -140,7 +141,7 @@ Test(integrator, stiff_dense_output_accurate_and_free) {
     for (int i = 0; i < n; i++) x_out[i] = 3.0 * (i + 1) / n;
     memset(&c, 0, sizeof c);
     pt_ros_problem p = {3, 1, prothero_robinson, collect, &c, NULL, 1e-8, 1e-10, 1e-3, 0.5,
-                        100000};
+                        100000, NULL, NULL};
     double y[3] = {1.0, 1.0, 0.0}, x_fail;
     const long before = work.stats.steps;
     cr_assert_eq(jg__ros_integrate(&p, &work, 0.0, y, x_out, n, &x_fail), PT_ROS_OK);
@@ -157,7 +158,8 @@ Test(integrator, stiff_dense_output_accurate_and_free) {
     const double x_mid = 1.0 + 0.5 * h; /* inside the step from x = 1 */
     double xs[2] = {x_mid, 2.0};
     collected fixed = {0};
-    pt_ros_problem p = {3, 1, prothero_robinson, collect, &fixed, NULL, 1e9, 1e9, h, h, 1000000};
+    pt_ros_problem p = {3, 1, prothero_robinson, collect, &fixed, NULL, 1e9, 1e9, h, h, 1000000,
+                        NULL, NULL};
     double y[3] = {1.0, 1.0, 0.0}, x_fail;
     cr_assert_eq(jg__ros_integrate(&p, &work, 0.0, y, xs, 2, &x_fail), PT_ROS_OK);
     e[r] = fabs(fixed.y[0][0] - cos(x_mid));
@@ -373,7 +375,7 @@ Test(integrator, batch_with_a_bad_k_names_it) {
   real_case_close(&r);
 }
 
-/* ---- the per-dimension compiled copies ------------------------------------- */
+/* ---- the per-batch-size compiled copies and the sparse kernel ---------------- */
 
 typedef struct any_dim_outputs {
   int len;
@@ -383,30 +385,39 @@ typedef struct any_dim_outputs {
 /* A linear system of any dimension n (a made-up demo, not physics): decay
  * rates from 0.5 to ~5e4 on the diagonal, falling as e^{-4x} (stiff at
  * first, not at the end), and couplings that differ per mode, so that every
- * part of the integrator (LU with pivoting, rejected steps, both
- * interpolants, grouped error scales) takes part. A(x) = D e^{-4x} +
- * C (1 + x). */
+ * part of the integrator (the factorisation with fill-in, rejected steps,
+ * both interpolants, grouped error scales) takes part. A(x) = D e^{-4x} +
+ * C (1 + x); non-zero on the diagonal, next to it and at j = i + 3 mod n. */
 typedef struct any_dim {
   int n, modes;
+  const unsigned char *pattern; /* the entries written (NULL: all) */
   any_dim_outputs *out;
 } any_dim;
 static int any_dim_matrices(void *ctx, double x, double *A, double *dA, double *rate) {
   const any_dim *s = ctx;
-  const int n = s->n;
+  const int n = s->n, M = s->modes;
   double fastest = 0.0;
-  for (int b = 0; b < s->modes; b++)
-    for (int i = 0; i < n; i++)
-      for (int j = 0; j < n; j++) {
+  int e = 0;
+  for (int i = 0; i < n; i++)
+    for (int j = 0; j < n; j++) {
+      if (s->pattern && !s->pattern[i * n + j]) continue;
+      for (int b = 0; b < M; b++) {
         const double decay = i == j ? -0.5 * pow(10.0, 5.0 * i / n) * (1.0 + 0.3 * b) : 0.0;
         const double coupling = abs(i - j) == 1 ? sin(1.0 + i + 2.0 * j + 3.0 * b)
                                 : j == (i + 3) % n ? 0.1 * cos(i + b) : 0.0;
-        const int at = (b * n + i) * n + j;
-        A[at] = decay * exp(-4.0 * x) + coupling * (1.0 + x);
-        if (dA) dA[at] = -4.0 * decay * exp(-4.0 * x) + coupling;
+        A[e * M + b] = decay * exp(-4.0 * x) + coupling * (1.0 + x);
+        if (dA) dA[e * M + b] = -4.0 * decay * exp(-4.0 * x) + coupling;
         fastest = fmax(fastest, fabs(decay) * exp(-4.0 * x) + 2.0 * (1.0 + x));
       }
-  *rate = fastest;
+      e++;
+    }
+  if (rate) *rate = fastest;
   return 0;
+}
+static void any_dim_pattern(int n, unsigned char *pattern) {
+  for (int i = 0; i < n; i++)
+    for (int j = 0; j < n; j++)
+      pattern[i * n + j] = i == j || abs(i - j) == 1 || j == (i + 3) % n;
 }
 
 static void any_dim_collect(void *ctx, int index, const double *y) {
@@ -414,44 +425,99 @@ static void any_dim_collect(void *ctx, int index, const double *y) {
   memcpy(c->y[index], y, sizeof(double) * (size_t)c->len);
 }
 
-/* jg__ros_integrate runs a copy compiled for each dimension the
- * perturbation systems use (rosenbrock.c): each must give the generic
- * copy's results to the last bit (the same arithmetic in the same order;
- * a compiler that reordered or fused it would show here), with the same
- * steps and rejections. */
-Test(integrator, compiled_copies_match_the_generic_one_exactly) {
-  static const int dims[] = {4, 5, 6, 8, 10, 11, 12};
-  static any_dim_outputs fast, generic;
-  static pt_ros_work work_generic;
-  enum { N_OUT = 40, MODES = 3 };
+/* One solve of the demo system; returns the end state in y. */
+static void any_dim_solve(int n, int modes, const unsigned char *pattern, int generic,
+                          pt_ros_work *w, any_dim_outputs *out, double *y) {
+  enum { N_OUT = 40 };
   double x_out[N_OUT];
   for (int i = 0; i < N_OUT; i++) x_out[i] = 0.02 + 3.0 * i / N_OUT;
-  for (size_t d = 0; d < sizeof dims / sizeof *dims; d++) {
-    const int n = dims[d];
-    any_dim s = {n, MODES, &fast};
-    int group[PT_ROS_MAX_DIM];
-    for (int i = 0; i < n; i++) group[i] = i / 3;
-    memset(&fast, 0, sizeof fast);
-    memset(&generic, 0, sizeof generic);
-    fast.len = generic.len = n * MODES;
-    pt_ros_problem p = {n, MODES, any_dim_matrices, any_dim_collect, &s, group,
-                        1e-9, 1e-12, 0.5, 0.5, 100000};
-    double y_fast[PT_ROS_MAX_MODES * PT_ROS_MAX_DIM], y_generic[PT_ROS_MAX_MODES * PT_ROS_MAX_DIM];
-    for (int i = 0; i < n * MODES; i++) y_fast[i] = y_generic[i] = 1.0 + 0.25 * cos(i);
-    double fail_fast, fail_generic;
-    memset(&work.stats, 0, sizeof work.stats);
-    memset(&work_generic.stats, 0, sizeof work_generic.stats);
-    cr_assert_eq(jg__ros_integrate(&p, &work, 0.0, y_fast, x_out, N_OUT, &fail_fast), PT_ROS_OK,
-                 "dimension %d", n);
-    s.out = &generic;
-    cr_assert_eq(jg__ros_integrate_generic(&p, &work_generic, 0.0, y_generic, x_out, N_OUT,
-                                           &fail_generic),
-                 PT_ROS_OK, "dimension %d", n);
-    cr_assert_gt(work.stats.rejected, 0, "dimension %d: no rejected step tried", n);
-    cr_assert_eq(work.stats.steps, work_generic.stats.steps, "dimension %d", n);
-    cr_assert_eq(work.stats.rejected, work_generic.stats.rejected, "dimension %d", n);
-    cr_assert(memcmp(y_fast, y_generic, sizeof(double) * (size_t)(n * MODES)) == 0,
-              "dimension %d: end states differ", n);
-    cr_assert(memcmp(fast.y, generic.y, sizeof fast.y) == 0, "dimension %d: outputs differ", n);
+  any_dim s = {n, modes, pattern, out};
+  int group[PT_ROS_MAX_DIM];
+  for (int i = 0; i < n; i++) group[i] = i / 3;
+  memset(out, 0, sizeof *out);
+  out->len = n * modes;
+  pt_ros_problem p = {n, modes, any_dim_matrices, any_dim_collect, &s, group,
+                      1e-9, 1e-12, 0.5, 0.5, 100000, pattern, NULL};
+  for (int i = 0; i < n * modes; i++) y[i] = 1.0 + 0.25 * cos(i);
+  double fail;
+  memset(&w->stats, 0, sizeof w->stats);
+  const int code = generic ? jg__ros_integrate_generic(&p, w, 0.0, y, x_out, N_OUT, &fail)
+                           : jg__ros_integrate(&p, w, 0.0, y, x_out, N_OUT, &fail);
+  cr_assert_eq(code, PT_ROS_OK, "dimension %d, %d modes: code %d at x = %g", n, modes, code, fail);
+}
+
+/* jg__ros_integrate runs a copy compiled for each common batch size
+ * (rosenbrock.c): each must give the generic copy's results to the last
+ * bit (the same arithmetic in the same order; a compiler that reordered or
+ * fused it would show here), with the same steps and rejections. */
+Test(integrator, compiled_copies_match_the_generic_one_exactly) {
+  static const int dims[] = {4, 6, 12, 18}, batch[] = {1, PT_ROS_MAX_MODES};
+  static any_dim_outputs fast, generic;
+  static pt_ros_work work_generic;
+  for (size_t d = 0; d < sizeof dims / sizeof *dims; d++)
+    for (size_t m = 0; m < sizeof batch / sizeof *batch; m++) {
+      const int n = dims[d], modes = batch[m];
+      unsigned char pattern[PT_ROS_MAX_ENTRIES];
+      any_dim_pattern(n, pattern);
+      double y_fast[PT_ROS_MAX_LEN], y_generic[PT_ROS_MAX_LEN];
+      any_dim_solve(n, modes, pattern, 0, &work, &fast, y_fast);
+      any_dim_solve(n, modes, pattern, 1, &work_generic, &generic, y_generic);
+      cr_assert_gt(work.stats.rejected, 0, "dimension %d: no rejected step tried", n);
+      cr_assert_eq(work.stats.steps, work_generic.stats.steps, "dimension %d", n);
+      cr_assert_eq(work.stats.rejected, work_generic.stats.rejected, "dimension %d", n);
+      cr_assert(memcmp(y_fast, y_generic, sizeof(double) * (size_t)(n * modes)) == 0,
+                "dimension %d, %d modes: end states differ", n, modes);
+      cr_assert(memcmp(fast.y, generic.y, sizeof fast.y) == 0,
+                "dimension %d, %d modes: outputs differ", n, modes);
+    }
+}
+
+/* The pattern decides which entries are worked on, not the result: the
+ * entries it leaves out are zeros, which add nothing to a product or an
+ * elimination (x - 0 y = x exactly), so the same system given as a full
+ * matrix must give the same numbers to the last bit. */
+Test(integrator, sparse_pattern_gives_the_dense_result_exactly) {
+  static any_dim_outputs sparse, dense;
+  static pt_ros_work work_dense;
+  const int n = 11, modes = 3;
+  unsigned char pattern[PT_ROS_MAX_ENTRIES];
+  any_dim_pattern(n, pattern);
+  double y_sparse[PT_ROS_MAX_LEN], y_dense[PT_ROS_MAX_LEN];
+  any_dim_solve(n, modes, pattern, 0, &work, &sparse, y_sparse);
+  any_dim_solve(n, modes, NULL, 0, &work_dense, &dense, y_dense);
+  cr_assert_eq(work.stats.steps, work_dense.stats.steps);
+  cr_assert_eq(work.stats.rejected, work_dense.stats.rejected);
+  for (int i = 0; i < n * modes; i++)
+    cr_assert(y_sparse[i] == y_dense[i], "component %d: %.17g against %.17g", i, y_sparse[i],
+              y_dense[i]);
+  for (int o = 0; o < 40; o++)
+    for (int i = 0; i < n * modes; i++)
+      cr_assert(sparse.y[o][i] == dense.y[o][i], "output %d component %d", o, i);
+}
+
+/* Without row interchanges a step matrix can have a zero pivot where one
+ * with interchanges would not: y'' = y (A = [[0, 1], [1, 0]]) with
+ * 1/(h gamma) = 1 gives (1/(h gamma)) I - A = [[1, -1], [-1, 1]], singular
+ * at the second pivot. The step must be refused and retried shorter, and
+ * the solution still be right: y = cosh x + sinh x = e^x (analytic). */
+static int swap_matrices(void *ctx, double x, double *A, double *dA, double *rate) {
+  (void)ctx, (void)x;
+  const double a[4] = {0.0, 1.0, 1.0, 0.0};
+  for (int i = 0; i < 4; i++) {
+    A[i] = a[i];
+    if (dA) dA[i] = 0.0;
   }
+  if (rate) *rate = 1.0;
+  return 0;
+}
+Test(integrator, zero_pivot_step_is_retried_shorter) {
+  collected c = {0};
+  const double h = 4.0; /* gamma = 1/4 in RODAS: 1/(h gamma) = 1 */
+  pt_ros_problem p = {2, 1, swap_matrices, collect, &c, NULL, 1e-10, 1e-12, h, h, 100000, NULL, NULL};
+  double y[3] = {1.0, 1.0, 0.0}, x_end = 6.0, x_fail;
+  memset(&work.stats, 0, sizeof work.stats);
+  cr_assert_eq(jg__ros_integrate(&p, &work, 0.0, y, &x_end, 1, &x_fail), PT_ROS_OK);
+  cr_assert_gt(work.stats.rejected, 0, "the singular first step was not refused");
+  ASSERT_REL(y[0], exp(6.0), 1e-8, "y(6)");
+  ASSERT_REL(y[1], exp(6.0), 1e-8, "y'(6)");
 }

@@ -161,6 +161,9 @@ jg_status jg__pt_ros_solve_limit(const jg_perturb_model *m, jg_perturb_workspace
  * Rosenbrock path reads them; non-zero outside the medium. */
 int jg__pt_coefficients_and_slope(const jg_perturb_model *m, double x, jg_medium_coefficients *c,
                                   jg_medium_coefficients *dc);
+/* Coefficients with every field non-zero and distinct: a system's matrix
+ * built from them shows which entries can be non-zero. */
+void jg__pt_structural_coefficients(jg_medium_coefficients *c);
 /* Upper estimate of the fastest rate of the mode system at k^2. */
 double jg__pt_fastest_rate(const jg_perturb_model *m, const jg_medium_coefficients *c, double k2);
 

@@ -23,6 +23,8 @@ typedef struct pt_system_type {
                  double *A);
   void (*start)(const jg_perturb_model *m, double k, double *y, jg_error *err, jg_status *st);
   emit_fn read_out;
+  int k_dependent; /* A depends on k (through k^2, affinely); the limit system does not */
+  const unsigned char *group_scaled; /* see pt_ros_problem */
   /* Error-scale groups of the components (see rosenbrock.h), indexed by
    * component; room for the largest system. */
   int group[PT_ROS_MAX_DIM];
@@ -57,28 +59,41 @@ static void start_limit(const jg_perturb_model *m, double k, double *y, jg_error
   jg__pt_initial_mode(m, &m->start, y);
 }
 
-/* Groups: CDM {delta_c, delta_c'}, gas {delta_b, delta_b', delta_T}; in the
- * limit system (fluctuating layout; the uniform models have no delta_T and
- * shift the rest down by one, see limit_groups) also the k^2 derivatives
- * of CDM and gas and the Gnedin-Hui pair. */
+/* Error-scale groups (rosenbrock.h): CDM {delta_c, delta_c'}, gas
+ * {delta_b, delta_b', delta_T, delta_xe}; in the limit system (the mode
+ * layout first; the uniform models have no delta_T) the k^2 derivatives of
+ * CDM and gas join the CDM and gas groups, and the Gnedin-Hui pair the CDM
+ * group: scaled by the Jeans wavenumber at the start they are of the order
+ * of the contrasts once grown (perturb.c), and they start at zero, where a
+ * group of their own would ask relative accuracy of the first 1e-26 (some
+ * 150 steps of 1e-5 e-folds at the start, measured).
+ *
+ * delta_T and delta_xe are measured against their group's size, not their
+ * own (`group_scaled`): the gas sees them only through the pressure and
+ * the heating, as a fraction of delta_b, so the same relative error of that
+ * fraction as of delta_b is all delta_b/delta_c needs. Tight to their own
+ * size, the slaved delta_xe of recombination (1 % of delta_b) set the
+ * step there (measured: 25 % fewer steps without, the largest
+ * delta_b/delta_c error of tests/test_integrator.c unchanged). */
+static const unsigned char temperature_scaled[PT_ROS_MAX_DIM] = {0, 0, 0, 0, 1};
+static const unsigned char gas_scaled[PT_ROS_MAX_DIM] = {0, 0, 0, 0, 1, 1};
 static const pt_system_type system_mode = {"mode", dim_mode, matrix_mode, start_mode, jg__pt_emit_mode,
-                                           {0, 0, 1, 1, 1}};
+                                           1, temperature_scaled, {0, 0, 1, 1, 1}};
 static const pt_system_type system_mode_uniform = {"mode", dim_mode, matrix_mode, start_mode,
-                                                   jg__pt_emit_mode, {0, 0, 1, 1}};
+                                                   jg__pt_emit_mode, 1, NULL, {0, 0, 1, 1}};
 static const pt_system_type system_limit = {"large-scale limit", dim_limit, matrix_limit,
-                                            start_limit, jg__pt_emit_limit,
-                                            {0, 0, 1, 1, 1, 2, 2, 3, 3, 4, 4}};
+                                            start_limit, jg__pt_emit_limit, 0, temperature_scaled,
+                                            {0, 0, 1, 1, 1, 0, 0, 1, 1, 0, 0}};
 static const pt_system_type system_limit_uniform = {"large-scale limit", dim_limit, matrix_limit,
-                                                    start_limit, jg__pt_emit_limit,
-                                                    {0, 0, 1, 1, 2, 2, 3, 3, 4, 4}};
-
-/* With the ionisation perturbation: delta_xe joins the gas group. */
+                                                    start_limit, jg__pt_emit_limit, 0, NULL,
+                                                    {0, 0, 1, 1, 0, 0, 1, 1, 0, 0}};
 static const pt_system_type system_mode_ionisation = {"mode", dim_mode, matrix_mode, start_mode,
-                                                      jg__pt_emit_mode, {0, 0, 1, 1, 1, 1}};
+                                                      jg__pt_emit_mode, 1, gas_scaled,
+                                                      {0, 0, 1, 1, 1, 1}};
 static const pt_system_type system_limit_ionisation = {"large-scale limit", dim_limit,
                                                        matrix_limit, start_limit,
-                                                       jg__pt_emit_limit,
-                                                       {0, 0, 1, 1, 1, 1, 2, 2, 3, 3, 4, 4}};
+                                                       jg__pt_emit_limit, 0, gas_scaled,
+                                                       {0, 0, 1, 1, 1, 1, 0, 0, 1, 1, 0, 0}};
 
 static const pt_system_type *mode_type(const jg_perturb_model *m) {
   if (m->ionisation) return &system_mode_ionisation;
@@ -135,16 +150,42 @@ typedef struct ros_run {
   const jg_perturb_model *m;
   const pt_system_type *type;
   int dim, n_modes;
-  double k[PT_ROS_MAX_MODES], k2[PT_ROS_MAX_MODES];
+  double k[PT_ROS_MAX_MODES], k2[PT_ROS_MAX_MODES], k2_max;
   const double *z;     /* requested redshifts, in the caller's order */
   const int *order;    /* the n-th output is z[order[n]] */
   void *out[PT_ROS_MAX_MODES]; /* each mode's results, indexed like z */
   int undefined_output; /* the medium could not be read at an output */
-  /* A at zero coefficients (the constant part of the affine A) per mode, for
-   * the baryon fraction zero_fb (NaN: not yet built). */
+  /* The system's pattern and its entries' positions (integrator layout). */
+  unsigned char pattern[PT_ROS_MAX_ENTRIES];
+  int n_entries, position[PT_ROS_MAX_ENTRIES];
+  /* A at zero coefficients (the constant part of the affine A), for the
+   * baryon fraction zero_fb (NaN: not yet built). */
   double zero_fb;
-  double A_zero[PT_ROS_MAX_MODES * PT_ROS_MAX_DIM * PT_ROS_MAX_DIM];
+  double A_zero[PT_ROS_MAX_ENTRIES];
 } ros_run;
+
+/* Coefficients with every field non-zero and no two alike, so that an
+ * entry of a system's matrix built from them is non-zero wherever the
+ * system can make it non-zero (its sparsity pattern). */
+void jg__pt_structural_coefficients(jg_medium_coefficients *c) {
+  const jg_medium_coefficients distinct = {
+      .dlnH_dlna = 1.1, .gravity = 1.3, .baryon_fraction = 0.17, .pressure = 1.7, .drag = 1.9,
+      .relaxation = 2.3, .pressure_effective = 2.9, .ionisation_relaxation = 3.1,
+      .ionisation_density = 3.7, .ionisation_temperature = 4.1, .ionisation_expansion = 4.3,
+      .heating_ionisation = 4.7, .pressure_ionisation = 5.3};
+  *c = distinct;
+}
+
+/* Which entries of a system's matrix can be non-zero (at k^2 = 1, where
+ * every pressure term is present). */
+static void system_pattern(const jg_perturb_model *m, const pt_system_type *type, int dim,
+                           unsigned char *pattern) {
+  jg_medium_coefficients c;
+  jg__pt_structural_coefficients(&c);
+  double A[PT_ROS_MAX_ENTRIES];
+  type->matrix(m, &c, 1.0, A);
+  for (int i = 0; i < dim * dim; i++) pattern[i] = A[i] != 0.0;
+}
 
 /* Coefficients at x and, if dc, their slope: exact for the tabulated
  * history, a central difference for a custom medium. */
@@ -170,35 +211,45 @@ static int coefficients_and_slope(const jg_perturb_model *m, double x, jg_medium
   return 0;
 }
 
+/* The matrices of the batch: A is affine in k^2 (the pressure terms), so
+ * A(k^2) = A(0) + k^2 (A(1) - A(0)), two matrices per x for the whole
+ * batch (one, built at its k^2, for a lone mode); and affine in the
+ * coefficients, so dA/dx = A(c') - A(c = 0). */
 static int ros_matrices(void *ctx, double x, double *A, double *dA, double *rate) {
   ros_run *r = ctx;
   const jg_perturb_model *m = r->m;
-  jg_medium_coefficients c, dc;
+  jg_medium_coefficients c, dc = {0};
   if (coefficients_and_slope(m, x, &c, dA ? &dc : NULL) != 0) return 1;
   const int nn = r->dim * r->dim;
-  double fastest = 0.0;
-  for (int b = 0; b < r->n_modes; b++) {
-    r->type->matrix(m, &c, r->k2[b], A + (size_t)b * nn);
-    const double rate_b = fastest_rate(m, &c, r->k2[b]);
-    if (rate_b > fastest) fastest = rate_b;
+  const int by_parts = r->type->k_dependent && r->n_modes > 1;
+  const double k2 = by_parts ? 0.0 : r->k2[0];
+  double B0[PT_ROS_MAX_ENTRIES], B1[PT_ROS_MAX_ENTRIES];
+  r->type->matrix(m, &c, k2, B0);
+  if (by_parts) {
+    r->type->matrix(m, &c, 1.0, B1);
+    for (int i = 0; i < nn; i++) B1[i] -= B0[i];
   }
-  *rate = fastest;
+  jg__ros_gather(r->n_entries, r->position, r->n_modes, B0, by_parts ? B1 : NULL, r->k2, NULL,
+                 NULL, A);
+  /* The rates grow with k^2: the batch's largest k bounds them all. */
+  if (rate) *rate = fastest_rate(m, &c, r->k2_max);
   if (dA) {
-    /* A is affine in the coefficients: dA/dx = A(c') - A(0). A(0) depends on
-     * k and the baryon fraction alone: built once per solve. */
+    /* A(c = 0) depends on the baryon fraction alone (not on k^2: every
+     * pressure is zero): built once per solve. */
     if (!(c.baryon_fraction == r->zero_fb)) {
       jg_medium_coefficients zero = {0};
       zero.baryon_fraction = c.baryon_fraction;
-      for (int b = 0; b < r->n_modes; b++)
-        r->type->matrix(m, &zero, r->k2[b], r->A_zero + (size_t)b * nn);
+      r->type->matrix(m, &zero, 0.0, r->A_zero);
       r->zero_fb = c.baryon_fraction;
     }
-    for (int b = 0; b < r->n_modes; b++) {
-      double *d = dA + (size_t)b * nn;
-      const double *d0 = r->A_zero + (size_t)b * nn;
-      r->type->matrix(m, &dc, r->k2[b], d);
-      for (int i = 0; i < nn; i++) d[i] -= d0[i];
+    r->type->matrix(m, &dc, k2, B0);
+    if (by_parts) {
+      r->type->matrix(m, &dc, 1.0, B1);
+      for (int i = 0; i < nn; i++) B1[i] -= B0[i];
     }
+    for (int i = 0; i < nn; i++) B0[i] -= r->A_zero[i];
+    jg__ros_gather(r->n_entries, r->position, r->n_modes, B0, by_parts ? B1 : NULL, r->k2,
+                   NULL, NULL, dA);
   }
   return 0;
 }
@@ -220,7 +271,6 @@ static const char *ros_failure(int code) {
     case PT_ROS_UNDEFINED: return "medium undefined";
     case PT_ROS_TOO_MANY: return "too many steps";
     case PT_ROS_TOO_SMALL: return "step size underflow (non-finite state)";
-    case PT_ROS_SINGULAR: return "singular step matrix";
     default: return "bad integrator input";
   }
 }
@@ -239,11 +289,14 @@ static jg_status ros_solve(const jg_perturb_model *m, jg_perturb_workspace *w,
   r.z = z;
   r.order = w->order;
   r.zero_fb = NAN;
+  system_pattern(m, type, r.dim, r.pattern);
+  r.n_entries = jg__ros_entry_positions(r.dim, r.pattern, r.position);
   double y[PT_ROS_MAX_MODES * PT_ROS_MAX_DIM];
   for (int b = 0; b < n; b++) {
     jg_status st = JG_OK;
     r.k[b] = k[b];
     r.k2[b] = k[b] * k[b];
+    if (r.k2[b] > r.k2_max) r.k2_max = r.k2[b];
     r.out[b] = out[b];
     type->start(m, k[b], y + b * r.dim, err, &st);
     if (st != JG_OK) return st;
@@ -252,7 +305,7 @@ static jg_status ros_solve(const jg_perturb_model *m, jg_perturb_workspace *w,
   const pt_ros_problem p = {r.dim, n, ros_matrices, ros_emit, &r, type->group,
                             PT_ROS_TOLERANCE_SCALE * m->settings.rel_tol,
                             PT_ROS_TOLERANCE_SCALE * m->settings.abs_tol, PT_ROS_FIRST_STEP, PT_ROS_MAX_STEP,
-                            PT_MAX_STEPS};
+                            PT_MAX_STEPS, r.pattern, type->group_scaled};
   const pt_ros_stats before = w->ros->stats;
   double x_fail;
   int code = jg__ros_integrate(&p, w->ros, m->x_init, y, w->x_out, n_z, &x_fail);

@@ -68,111 +68,256 @@ static const double E31 = -0.6762803392801253e+00, E32 = 0.6087714651680015e+01,
 #define SHRINK_MIN 0.2
 
 /* The helpers below are inlined into a copy of the integrator per common
- * dimension (see jg__ros_integrate), so that their loops over n are
- * unrolled for n = 4, 5, 6, 8, 10, 11, 12; the arithmetic and its order
- * are the same in every copy (tests/test_integrator.c compares each copy
- * with jg__ros_integrate_generic to the last bit). */
+ * batch size (see jg__ros_integrate), so that their loops over the modes
+ * have a length known when compiling (8: vector arithmetic; 1: no loop);
+ * the arithmetic and its order are the same in every copy
+ * (tests/test_integrator.c compares each copy with
+ * jg__ros_integrate_generic to the last bit). */
 #if defined(__GNUC__)
 #define ROS_INLINE static inline __attribute__((always_inline))
 #else
 #define ROS_INLINE static inline
 #endif
 
+/* The operations on one row of the batch (M modes side by side, M fixed in
+ * each compiled copy). GCC unrolls the plain loops of a full batch into
+ * scalar code, unsure that the rows do not overlap (they never do: distinct
+ * rows of the workspace's arrays); for a full batch they are written with
+ * GNU C vector types instead, which it maps onto the widest registers the
+ * copy is compiled for. The same operations in the same order either way. */
+#if defined(__GNUC__) && PT_ROS_MAX_MODES == 8
+#define ROS_ROWS 1
+typedef double ros_row __attribute__((vector_size(8 * sizeof(double))));
+/* (Through memcpy: the rows need not be aligned to the vector's size; and
+ * no vector crosses a function boundary, whose convention depends on the
+ * processor.) */
+#define ROW_OPERATION(expression, y, a, x)                                   \
+  do {                                                                       \
+    ros_row vy_, va_, vx_;                                                   \
+    memcpy(&vy_, (y), sizeof vy_);                                           \
+    memcpy(&va_, (a), sizeof va_);                                           \
+    memcpy(&vx_, (x), sizeof vx_);                                           \
+    vy_ = (expression);                                                      \
+    memcpy((y), &vy_, sizeof vy_);                                           \
+  } while (0)
+#else
+#define ROS_ROWS 0
+#endif
+
+ROS_INLINE void row_subtract_product(double *restrict y, const double *restrict a,
+                                     const double *restrict x, const int M) {
+#if ROS_ROWS
+  if (M == PT_ROS_MAX_MODES) {
+    ROW_OPERATION(vy_ - va_ * vx_, y, a, x);
+    return;
+  }
+#endif
+  for (int b = 0; b < M; b++) y[b] -= a[b] * x[b];
+}
+ROS_INLINE void row_add_product(double *restrict y, const double *restrict a,
+                                const double *restrict x, const int M) {
+#if ROS_ROWS
+  if (M == PT_ROS_MAX_MODES) {
+    ROW_OPERATION(vy_ + va_ * vx_, y, a, x);
+    return;
+  }
+#endif
+  for (int b = 0; b < M; b++) y[b] += a[b] * x[b];
+}
+ROS_INLINE void row_multiply(double *restrict y, const double *restrict a, const int M) {
+#if ROS_ROWS
+  if (M == PT_ROS_MAX_MODES) {
+    ROW_OPERATION(vy_ * va_, y, a, a);
+    return;
+  }
+#endif
+  for (int b = 0; b < M; b++) y[b] *= a[b];
+}
+
 /* The larger of two numbers that are not NaN. fmax() is a library call
  * unless NaN handling is switched off for the whole build: too dear on the
  * per-step paths. */
 ROS_INLINE double larger(double a, double b) { return a > b ? a : b; }
 
-/* LU with partial pivoting of the n x n row-major matrices of every mode;
- * 0 if one is singular. Column by column, the modes in turn within each
- * column, for the reason given at solve_all; each mode's arithmetic and its
- * order are those of a factorisation on its own. */
-ROS_INLINE int lu_factor_all(double *lu, int *pivot, int n, int modes) {
+int jg__ros_entry_positions(int dim, const unsigned char *pattern, int *position) {
+  int n = 0;
+  for (int i = 0; i < dim * dim; i++)
+    if (!pattern || pattern[i]) position[n++] = i;
+  return n;
+}
+
+/* Compiled twice where the compiler can (x86-64 with GNU C, outside the
+ * sanitizer builds), for the baseline processor and for AVX2, picked when
+ * the program loads: the loops over the modes then do four modes per
+ * instruction instead of two. The arithmetic is the same (no fused
+ * multiply-add: AVX2 alone does not bring it), so the results do not
+ * depend on the processor. */
+#if defined(__GNUC__) && !defined(__clang__) && defined(__x86_64__) && !defined(__SANITIZE_ADDRESS__) && \
+    !defined(JG_NO_TARGET_CLONES)
+#define ROS_CLONES __attribute__((target_clones("avx2", "default")))
+#else
+#define ROS_CLONES
+#endif
+
+ROS_CLONES
+void jg__ros_gather(int n_entries, const int *position, int n_modes, const double *B0,
+                    const double *B1, const double *s1, const double *B2, const double *s2,
+                    double *restrict A) {
+#if ROS_ROWS
+  if (n_modes == PT_ROS_MAX_MODES) { /* a full batch: whole rows at once */
+    ros_row r1 = {0}, r2 = {0};
+    if (B1) memcpy(&r1, s1, sizeof r1);
+    if (B2) memcpy(&r2, s2, sizeof r2);
+    for (int e = 0; e < n_entries; e++) {
+      const int at = position[e];
+      const double b1 = B1 ? B1[at] : 0.0, b2 = B2 ? B2[at] : 0.0;
+      ros_row a = B0[at] + r1 * b1 + r2 * b2;
+      memcpy(A + (size_t)e * n_modes, &a, sizeof a);
+    }
+    return;
+  }
+#endif
+  if (n_modes == 1 && !B1 && !B2) { /* a lone mode at its own k, the limit system */
+    for (int e = 0; e < n_entries; e++) A[e] = B0[position[e]];
+    return;
+  }
+  if (!B1 && !B2) { /* one matrix for every mode */
+    for (int e = 0; e < n_entries; e++) {
+      const double b0 = B0[position[e]];
+      for (int b = 0; b < n_modes; b++) A[(size_t)e * n_modes + b] = b0;
+    }
+    return;
+  }
+  for (int e = 0; e < n_entries; e++) {
+    const int at = position[e];
+    const double b0 = B0[at], b1 = B1 ? B1[at] : 0.0, b2 = B2 ? B2[at] : 0.0;
+    double *restrict a = A + (size_t)e * n_modes;
+    for (int b = 0; b < n_modes; b++) a[b] = b0 + (B1 ? s1[b] * b1 : 0.0) + (B2 ? s2[b] * b2 : 0.0);
+  }
+}
+
+/* The structure of a solve: the entries of A, the fill pattern of the
+ * factors of (1/(h gamma)) I - A without row interchanges (the diagonal is
+ * always there), and the index lists the factorisation and the solves walk.
+ * Once per solve: O(dim^3) with dim <= 18. */
+static void find_structure(const pt_ros_problem *p, pt_ros_work *w) {
+  const int n = p->dim;
+  unsigned char fill[PT_ROS_MAX_ENTRIES];
+  int position[PT_ROS_MAX_ENTRIES];
+  w->n_entries = jg__ros_entry_positions(n, p->pattern, position);
+  memset(fill, 0, sizeof fill);
+  for (int i = 0; i < n; i++) w->diagonal_entry[i] = -1, fill[i * n + i] = 1;
+  for (int e = 0; e < w->n_entries; e++) {
+    const int i = position[e] / n, j = position[e] % n;
+    w->entry_row[e] = i, w->entry_col[e] = j;
+    if (i == j) w->diagonal_entry[i] = e;
+    fill[position[e]] = 1;
+  }
   for (int k = 0; k < n; k++)
-    for (int b = 0; b < modes; b++) {
-      double *a = lu + (size_t)b * n * n;
-      int p = k;
-      double best = fabs(a[k * n + k]);
-      for (int i = k + 1; i < n; i++)
-        if (fabs(a[i * n + k]) > best) best = fabs(a[i * n + k]), p = i;
-      if (!(best > 0.0)) return 0;
-      pivot[b * n + k] = p;
-      if (p != k)
-        for (int j = 0; j < n; j++) {
-          double t = a[k * n + j];
-          a[k * n + j] = a[p * n + j];
-          a[p * n + j] = t;
-        }
-      const double inv = 1.0 / a[k * n + k];
-      for (int i = k + 1; i < n; i++) {
-        double l = a[i * n + k] * inv;
-        if (l == 0.0) continue;
-        a[i * n + k] = l;
-        for (int j = k + 1; j < n; j++) a[i * n + j] -= l * a[k * n + j];
-      }
-    }
-  return 1;
+    for (int i = k + 1; i < n; i++)
+      if (fill[i * n + k])
+        for (int j = k + 1; j < n; j++)
+          if (fill[k * n + j]) fill[i * n + j] = 1;
+  w->n_factor = 0;
+  for (int i = 0; i < n * n; i++)
+    if (fill[i]) w->factor_position[w->n_factor++] = i;
+  int lc = 0, ur = 0, lr = 0;
+  for (int k = 0; k < n; k++) {
+    w->l_col_start[k] = lc, w->u_row_start[k] = ur, w->l_row_start[k] = lr;
+    for (int i = k + 1; i < n; i++)
+      if (fill[i * n + k]) w->l_col_rows[lc++] = i;
+    for (int j = k + 1; j < n; j++)
+      if (fill[k * n + j]) w->u_row_cols[ur++] = j;
+    for (int j = 0; j < k; j++)
+      if (fill[k * n + j]) w->l_row_cols[lr++] = j;
+  }
+  w->l_col_start[n] = lc, w->u_row_start[n] = ur, w->l_row_start[n] = lr;
 }
 
-/* out = A v for every mode. */
-ROS_INLINE void mat_vec(const double *A, const double *v, double *out, int n, int modes) {
-  for (int b = 0; b < modes; b++) {
-    const double *Ab = A + (size_t)b * n * n;
-    const double *vb = v + b * n;
-    double *ob = out + b * n;
-    for (int i = 0; i < n; i++) {
-      double s = 0.0;
-      for (int j = 0; j < n; j++) s += Ab[i * n + j] * vb[j];
-      ob[i] = s;
+/* Factorise (1/(h gamma)) I - A for every mode on the fill pattern, without
+ * row interchanges (rosenbrock.h); 0 if a pivot falls below
+ * PT_ROS_PIVOT_FLOOR times its diagonal before elimination, or is not
+ * finite. */
+ROS_INLINE int factorise(pt_ros_work *w, const double *A, double fac, int n, const int M) {
+  double *restrict LU = w->LU;
+  for (int q = 0; q < w->n_factor; q++)
+    for (int b = 0; b < M; b++) LU[w->factor_position[q] * M + b] = 0.0;
+  for (int e = 0; e < w->n_entries; e++) {
+    double *restrict d = LU + (w->entry_row[e] * n + w->entry_col[e]) * M;
+    for (int b = 0; b < M; b++) d[b] = -A[e * M + b];
+  }
+  for (int i = 0; i < n; i++)
+    for (int b = 0; b < M; b++) LU[(i * n + i) * M + b] += fac;
+  int fine = 1;
+  for (int k = 0; k < n; k++) {
+    const double *restrict pivot = LU + (k * n + k) * M;
+    double *restrict inverse = w->inverse_pivot + k * M;
+    const int de = w->diagonal_entry[k];
+    for (int b = 0; b < M; b++) {
+      const double diagonal = fac + (de >= 0 ? fabs(A[de * M + b]) : 0.0);
+      fine &= fabs(pivot[b]) >= PT_ROS_PIVOT_FLOOR * diagonal;
+      inverse[b] = 1.0 / pivot[b];
     }
+    for (int r = w->l_col_start[k]; r < w->l_col_start[k + 1]; r++) {
+      const int i = w->l_col_rows[r];
+      double *restrict l = LU + (i * n + k) * M;
+      row_multiply(l, inverse, M);
+      for (int c = w->u_row_start[k]; c < w->u_row_start[k + 1]; c++) {
+        const int j = w->u_row_cols[c];
+        double *restrict target = LU + (i * n + j) * M;
+        const double *restrict u = LU + (k * n + j) * M;
+        row_subtract_product(target, l, u, M);
+      }
+    }
+  }
+  return fine;
+}
+
+/* One stage: solve (1/(h gamma) - A0) U = rhs for every mode, in place in
+ * rhs, with the factors (forward, then backward substitution). */
+ROS_INLINE void solve_all(const pt_ros_work *w, int n, const int M, double *restrict x) {
+  const double *restrict LU = w->LU;
+  for (int i = 1; i < n; i++) {
+    double *restrict xi = x + i * M;
+    for (int c = w->l_row_start[i]; c < w->l_row_start[i + 1]; c++) {
+      const int k = w->l_row_cols[c];
+      const double *restrict l = LU + (i * n + k) * M;
+      const double *restrict xk = x + k * M;
+      row_subtract_product(xi, l, xk, M);
+    }
+  }
+  for (int i = n - 1; i >= 0; i--) {
+    double *restrict xi = x + i * M;
+    for (int c = w->u_row_start[i]; c < w->u_row_start[i + 1]; c++) {
+      const int j = w->u_row_cols[c];
+      const double *restrict u = LU + (i * n + j) * M;
+      const double *restrict xj = x + j * M;
+      row_subtract_product(xi, u, xj, M);
+    }
+    const double *restrict inverse = w->inverse_pivot + i * M;
+    row_multiply(xi, inverse, M);
   }
 }
 
-/* lu_factor swaps whole rows, multipliers included (P A = L U): all the
- * interchanges come first, then the two triangular solves. One stage: solve
- * (1/(h gamma) - A0) U = rhs for every mode, in place in rhs. Row by row
- * (the same operations in the same order as column by column): a short dot
- * product, which compilers do not turn into strided vector code that costs
- * more than it saves at n = 5. The modes are taken in turn within each row,
- * not one after the other: each row's dot product waits on the rows before
- * it, so a single mode's solve is a chain of dependent operations, and the
- * other modes' rows give the processor independent work meanwhile. Each
- * mode's arithmetic and its order are those of a solve on its own. */
-ROS_INLINE void solve_all(pt_ros_work *w, int n, int modes, double *rhs) {
-  for (int b = 0; b < modes; b++) {
-    const int *piv = w->pivot + b * n;
-    double *x = rhs + b * n;
-    for (int k = 0; k < n; k++)
-      if (piv[k] != k) {
-        double t = x[k];
-        x[k] = x[piv[k]];
-        x[piv[k]] = t;
-      }
+/* out = A v for every mode, over the entries. */
+ROS_INLINE void mat_vec(const pt_ros_work *w, const double *restrict A, const double *restrict v,
+                        double *restrict out, int n, const int M) {
+  for (int i = 0; i < n * M; i++) out[i] = 0.0;
+  for (int e = 0; e < w->n_entries; e++) {
+    const double *restrict a = A + e * M;
+    const double *restrict ve = v + w->entry_col[e] * M;
+    double *restrict o = out + w->entry_row[e] * M;
+    row_add_product(o, a, ve, M);
   }
-  for (int i = 1; i < n; i++)
-    for (int b = 0; b < modes; b++) {
-      const double *a = w->LU + (size_t)b * n * n;
-      double *x = rhs + b * n;
-      double s = x[i];
-      for (int k = 0; k < i; k++) s -= a[i * n + k] * x[k];
-      x[i] = s;
-    }
-  for (int i = n - 1; i >= 0; i--)
-    for (int b = 0; b < modes; b++) {
-      const double *a = w->LU + (size_t)b * n * n;
-      double *x = rhs + b * n;
-      double s = x[i];
-      for (int j = i + 1; j < n; j++) s -= a[i * n + j] * x[j];
-      x[i] = s / a[i * n + i];
-    }
 }
 
 /* y'' = A' y + A (A y) for the quintic Hermite interpolant. */
-ROS_INLINE void second_derivative(const double *A, const double *dA, const double *y,
-                              const double *f, double *out, int n, int modes, double *tmp) {
-  mat_vec(dA, y, out, n, modes);
-  mat_vec(A, f, tmp, n, modes);
-  for (int i = 0; i < n * modes; i++) out[i] += tmp[i];
+ROS_INLINE void second_derivative(const pt_ros_work *w, const double *A, const double *dA,
+                                  const double *y, const double *f, double *out, int n,
+                                  const int M, double *tmp) {
+  mat_vec(w, dA, y, out, n, M);
+  mat_vec(w, A, f, tmp, n, M);
+  for (int i = 0; i < n * M; i++) out[i] += tmp[i];
 }
 
 static int all_finite(const double *v, int len) {
@@ -181,22 +326,42 @@ static int all_finite(const double *v, int len) {
   return 1;
 }
 
+/* Between the caller's layout (mode after mode) and the integrator's
+ * (component after component, the modes innermost). */
+ROS_INLINE void by_component(const double *by_mode, double *out, int n, const int M) {
+  for (int b = 0; b < M; b++)
+    for (int i = 0; i < n; i++) out[i * M + b] = by_mode[b * n + i];
+}
+ROS_INLINE void by_mode(const double *by_component, double *out, int n, const int M) {
+  for (int b = 0; b < M; b++)
+    for (int i = 0; i < n; i++) out[b * n + i] = by_component[i * M + b];
+}
+
+ROS_INLINE void emit_output(const pt_ros_problem *p, pt_ros_work *w, int index, const double *v,
+                            int n, const int M) {
+  by_mode(v, w->by_mode, n, M);
+  p->emit(p->ctx, index, w->by_mode);
+}
+
 /* The largest |y_i| so far per component, and per group of components
  * (p->group, numbers 0 .. n - 1; the absolute tolerance's reference). y is
  * finite here (a non-finite step is rejected before). */
-ROS_INLINE void update_peaks(const pt_ros_problem *p, pt_ros_work *w, const double *y,
-                             const int n) {
-  for (int i = 0; i < n * p->n_modes; i++) w->own_peak[i] = larger(w->own_peak[i], fabs(y[i]));
+ROS_INLINE void update_peaks(const pt_ros_problem *p, pt_ros_work *w, const double *y, const int n,
+                             const int M) {
+  for (int i = 0; i < n * M; i++) w->own_peak[i] = larger(w->own_peak[i], fabs(y[i]));
   if (!p->group) {
-    memcpy(w->peak, w->own_peak, sizeof(double) * (size_t)(n * p->n_modes));
+    memcpy(w->peak, w->own_peak, sizeof(double) * (size_t)(n * M));
     return;
   }
-  for (int b = 0; b < p->n_modes; b++) {
-    double group_peak[PT_ROS_MAX_DIM] = {0.0};
-    const double *own = w->own_peak + b * n;
-    for (int i = 0; i < n; i++) group_peak[p->group[i]] = larger(group_peak[p->group[i]], own[i]);
-    for (int i = 0; i < n; i++) w->peak[b * n + i] = group_peak[p->group[i]];
-  }
+  double group_peak[PT_ROS_MAX_LEN];
+  for (int i = 0; i < n * M; i++) group_peak[i] = 0.0;
+  for (int i = 0; i < n; i++)
+    for (int b = 0; b < M; b++) {
+      double *g = group_peak + p->group[i] * M + b;
+      *g = larger(*g, w->own_peak[i * M + b]);
+    }
+  for (int i = 0; i < n; i++)
+    for (int b = 0; b < M; b++) w->peak[i * M + b] = group_peak[p->group[i] * M + b];
 }
 
 /* Outputs x_out[next ..] inside the stiff step (x, x + h) from the method's
@@ -204,9 +369,10 @@ ROS_INLINE void update_peaks(const pt_ros_problem *p, pt_ros_work *w, const doub
  * neither is needed any more); returns the next output's index. Kept out of
  * line: it runs on few steps. */
 static int stiff_outputs(const pt_ros_problem *p, pt_ros_work *w, double x, double h,
-                         const double *y, const double *x_out, int next, int n_out, int len) {
-  double(*U)[PT_ROS_MAX_MODES * PT_ROS_MAX_DIM] = w->U;
+                         const double *x_out, int next, int n_out, int n, int M) {
+  double(*U)[PT_ROS_MAX_LEN] = w->U;
   double *q1 = U[5], *q2 = w->ytmp;
+  const int len = n * M;
   for (int i = 0; i < len; i++) {
     q1[i] = E21 * U[0][i] + E22 * U[1][i] + E23 * U[2][i] + E24 * U[3][i] + E25 * U[4][i];
     q2[i] = E31 * U[0][i] + E32 * U[1][i] + E33 * U[2][i] + E34 * U[3][i] + E35 * U[4][i];
@@ -214,34 +380,39 @@ static int stiff_outputs(const pt_ros_problem *p, pt_ros_work *w, double x, doub
   while (next < n_out && x_out[next] < x + h) {
     const double t = (x_out[next] - x) / h;
     for (int i = 0; i < len; i++)
-      w->yout[i] = (1.0 - t) * y[i] + t * (w->ynew[i] + (1.0 - t) * (q1[i] + t * q2[i]));
-    p->emit(p->ctx, next++, w->yout);
+      w->yout[i] = (1.0 - t) * w->y[i] + t * (w->ynew[i] + (1.0 - t) * (q1[i] + t * q2[i]));
+    by_mode(w->yout, w->by_mode, n, M);
+    p->emit(p->ctx, next++, w->by_mode);
   }
   return next;
 }
 
-ROS_INLINE int integrate(const pt_ros_problem *p, pt_ros_work *w, double x0, double *y,
-                        const double *x_out, int n_out, double *x_fail, const int n) {
-  const int modes = p->n_modes, len = n * modes;
+ROS_INLINE int integrate(const pt_ros_problem *p, pt_ros_work *w, double x0, double *y_caller,
+                         const double *x_out, int n_out, double *x_fail, const int M) {
+  const int n = p->dim, len = n * M;
   *x_fail = x0;
-  if (n < 1 || n > PT_ROS_MAX_DIM || modes < 1 || modes > PT_ROS_MAX_MODES || n_out < 1)
+  if (n < 1 || n > PT_ROS_MAX_DIM || M < 1 || M > PT_ROS_MAX_MODES || M != p->n_modes ||
+      n_out < 1)
     return PT_ROS_BAD_INPUT;
   for (int i = 0; i < n_out; i++)
     if (!(x_out[i] >= (i ? x_out[i - 1] : x0))) return PT_ROS_BAD_INPUT;
   for (int i = 0; p->group && i < n; i++)
     if (p->group[i] < 0 || p->group[i] >= n) return PT_ROS_BAD_INPUT;
+  find_structure(p, w);
+  double *y = w->y;
+  by_component(y_caller, y, n, M);
 
-  double x = x0, rate0 = 0.0, rate1 = 0.0, rate_s = 0.0;
+  double x = x0, rate0 = 0.0, rate1 = 0.0;
   /* The matrices at both ends of the step: swapped, not copied, when a
    * step is accepted. */
   double *A0 = w->A0, *dA0 = w->dA0, *A1 = w->A1, *dA1 = w->dA1;
   w->stats.matrix_evals++;
   if (p->matrices(p->ctx, x, A0, dA0, &rate0) != 0) return PT_ROS_UNDEFINED;
   for (int i = 0; i < len; i++) w->own_peak[i] = 0.0;
-  update_peaks(p, w, y, n);
+  update_peaks(p, w, y, n, M);
 
   int next = 0;
-  while (next < n_out && x_out[next] == x) p->emit(p->ctx, next++, y);
+  while (next < n_out && x_out[next] == x) emit_output(p, w, next++, y, n, M);
   double h = fmin(p->h_start, p->h_max);
   const double x_end = x_out[n_out - 1];
   long attempts = 0;
@@ -271,78 +442,78 @@ ROS_INLINE int integrate(const pt_ros_problem *p, pt_ros_work *w, double x0, dou
     const double ih = 1.0 / h, fac = 1.0 / (h * GAMMA);
 
     /* Factorise (1/(h gamma)) I - A0 per mode; f0 = A0 y, fx0 = A0' y. */
-    for (int b = 0; b < modes; b++) {
-      double *M = w->LU + (size_t)b * n * n;
-      const double *A = A0 + (size_t)b * n * n;
-      for (int i = 0; i < n * n; i++) M[i] = -A[i];
-      for (int i = 0; i < n; i++) M[i * n + i] += fac;
+    if (!factorise(w, A0, fac, n, M)) {
+      w->stats.rejected++;
+      h *= 0.25;
+      continue;
     }
-    if (!lu_factor_all(w->LU, w->pivot, n, modes)) {
-      *x_fail = x;
-      return PT_ROS_SINGULAR;
-    }
-    mat_vec(A0, y, w->f0, n, modes);
-    mat_vec(dA0, y, w->fx0, n, modes);
+    mat_vec(w, A0, y, w->f0, n, M);
+    mat_vec(w, dA0, y, w->fx0, n, M);
 
     /* Stage 1. */
     for (int i = 0; i < len; i++) U1[i] = w->f0[i] + h * D1 * w->fx0[i];
-    solve_all(w, n, modes, U1);
+    solve_all(w, n, M, U1);
     /* Stage 2. */
     w->stats.matrix_evals++;
-    if (p->matrices(p->ctx, x + C2 * h, w->As, NULL, &rate_s) != 0) goto undefined;
+    if (p->matrices(p->ctx, x + C2 * h, w->As, NULL, NULL) != 0) goto undefined;
     for (int i = 0; i < len; i++) w->ytmp[i] = y[i] + A21 * U1[i];
-    mat_vec(w->As, w->ytmp, U2, n, modes);
+    mat_vec(w, w->As, w->ytmp, U2, n, M);
     for (int i = 0; i < len; i++) U2[i] += ih * C21 * U1[i] + h * D2 * w->fx0[i];
-    solve_all(w, n, modes, U2);
+    solve_all(w, n, M, U2);
     /* Stage 3. */
     w->stats.matrix_evals++;
-    if (p->matrices(p->ctx, x + C3 * h, w->As, NULL, &rate_s) != 0) goto undefined;
+    if (p->matrices(p->ctx, x + C3 * h, w->As, NULL, NULL) != 0) goto undefined;
     for (int i = 0; i < len; i++) w->ytmp[i] = y[i] + A31 * U1[i] + A32 * U2[i];
-    mat_vec(w->As, w->ytmp, U3, n, modes);
+    mat_vec(w, w->As, w->ytmp, U3, n, M);
     for (int i = 0; i < len; i++)
       U3[i] += ih * (C31 * U1[i] + C32 * U2[i]) + h * D3 * w->fx0[i];
-    solve_all(w, n, modes, U3);
+    solve_all(w, n, M, U3);
     /* Stage 4. */
     w->stats.matrix_evals++;
-    if (p->matrices(p->ctx, x + C4 * h, w->As, NULL, &rate_s) != 0) goto undefined;
+    if (p->matrices(p->ctx, x + C4 * h, w->As, NULL, NULL) != 0) goto undefined;
     for (int i = 0; i < len; i++)
       w->ytmp[i] = y[i] + A41 * U1[i] + A42 * U2[i] + A43 * U3[i];
-    mat_vec(w->As, w->ytmp, U4, n, modes);
+    mat_vec(w, w->As, w->ytmp, U4, n, M);
     for (int i = 0; i < len; i++)
       U4[i] += ih * (C41 * U1[i] + C42 * U2[i] + C43 * U3[i]) + h * D4 * w->fx0[i];
-    solve_all(w, n, modes, U4);
+    solve_all(w, n, M, U4);
     /* Stage 5, at the end of the step (matrices kept for the next step). */
     w->stats.matrix_evals++;
     if (p->matrices(p->ctx, x_new, A1, dA1, &rate1) != 0) goto undefined;
     for (int i = 0; i < len; i++)
       w->ytmp[i] = y[i] + A51 * U1[i] + A52 * U2[i] + A53 * U3[i] + A54 * U4[i];
-    mat_vec(A1, w->ytmp, U5, n, modes);
+    mat_vec(w, A1, w->ytmp, U5, n, M);
     for (int i = 0; i < len; i++)
       U5[i] += ih * (C51 * U1[i] + C52 * U2[i] + C53 * U3[i] + C54 * U4[i]);
-    solve_all(w, n, modes, U5);
+    solve_all(w, n, M, U5);
     /* Stage 6 from the embedded solution; U6 is the error estimate. */
     for (int i = 0; i < len; i++) w->ytmp[i] += U5[i];
-    mat_vec(A1, w->ytmp, U6, n, modes);
+    mat_vec(w, A1, w->ytmp, U6, n, M);
     for (int i = 0; i < len; i++)
       U6[i] += ih * (C61 * U1[i] + C62 * U2[i] + C63 * U3[i] + C64 * U4[i] + C65 * U5[i]);
-    solve_all(w, n, modes, U6);
+    solve_all(w, n, M, U6);
     for (int i = 0; i < len; i++) w->ynew[i] = w->ytmp[i] + U6[i];
 
     /* Error: RMS over the components, largest over the modes, of the
      * filtered estimate (I - h gamma A0)^-1 U6 (rosenbrock.h). */
     for (int i = 0; i < len; i++) w->err_est[i] = fac * U6[i];
-    solve_all(w, n, modes, w->err_est);
-    double err = 0.0;
-    for (int b = 0; b < modes; b++) {
-      double sum = 0.0;
-      for (int i = b * n; i < (b + 1) * n; i++) {
-        double peak = w->peak[i] > 0.0 ? w->peak[i] : 1.0;
-        double scale = p->rel_tol * larger(fabs(y[i]), fabs(w->ynew[i])) + p->abs_tol * peak;
-        double e = w->err_est[i] / scale;
-        sum += e * e;
+    solve_all(w, n, M, w->err_est);
+    double sum[PT_ROS_MAX_MODES] = {0.0};
+    for (int i = 0; i < n; i++)
+      for (int b = 0; b < M; b++) {
+        const int at = i * M + b;
+        const double peak = w->peak[at] > 0.0 ? w->peak[at] : 1.0;
+        const double size = p->group_scaled && p->group_scaled[i]
+                                ? peak
+                                : larger(fabs(y[at]), fabs(w->ynew[at]));
+        const double scale = p->rel_tol * size + p->abs_tol * peak;
+        const double e = w->err_est[at] / scale;
+        sum[b] += e * e;
       }
+    double err = 0.0;
+    for (int b = 0; b < M; b++) {
       /* (NaN carried on: the test below rejects it.) */
-      const double mode_err = sqrt(sum / n);
+      const double mode_err = sqrt(sum[b] / n);
       if (!(mode_err <= err)) err = mode_err;
     }
     if (!isfinite(err) || !all_finite(w->ynew, len)) {
@@ -351,15 +522,6 @@ ROS_INLINE int integrate(const pt_ros_problem *p, pt_ros_work *w, double x0, dou
       continue;
     }
     double grow = err > 0.0 ? SAFETY * pow(err, -0.25) : GROW_MAX;
-#ifdef PT_ROS_DEBUG
-    {
-      int worst = 0; double we = 0;
-      for (int i = 0; i < len; i++) { double pk = w->peak[i] > 0.0 ? w->peak[i] : 1.0;
-        double e = fabs(w->err_est[i]) / (p->rel_tol * fmax(fabs(y[i]), fabs(w->ynew[i])) + p->abs_tol * pk);
-        if (e > we) we = e, worst = i; }
-      fprintf(stderr, "x %.6f h %.3e err %.3e worst %d y %.3e e %.3e\n", x, h, err, worst, y[worst], w->err_est[worst]);
-    }
-#endif
     if (err > 1.0) {
       w->stats.rejected++;
       h *= fmax(SHRINK_MIN, grow);
@@ -369,17 +531,17 @@ ROS_INLINE int integrate(const pt_ros_problem *p, pt_ros_work *w, double x0, dou
     /* Accepted: outputs inside (x, x_new] from an interpolant. */
     w->stats.steps++;
     if (next < n_out && x_out[next] < x_new && h * rate0 > PT_ROS_DENSE_LIMIT)
-      next = stiff_outputs(p, w, x, h, y, x_out, next, n_out, len);
+      next = stiff_outputs(p, w, x, h, x_out, next, n_out, n, M);
     if (next < n_out && x_out[next] <= x_new) {
       /* Hermite data: derivatives at both ends (f1 into U1, y''0 into U2,
        * y''1 into U3; the stage values are no longer needed). */
       double *f1 = U1, *ydd0 = U2, *ydd1 = U3;
-      mat_vec(A1, w->ynew, f1, n, modes);
-      second_derivative(A0, dA0, y, w->f0, ydd0, n, modes, U4);
-      second_derivative(A1, dA1, w->ynew, f1, ydd1, n, modes, U4);
+      mat_vec(w, A1, w->ynew, f1, n, M);
+      second_derivative(w, A0, dA0, y, w->f0, ydd0, n, M, U4);
+      second_derivative(w, A1, dA1, w->ynew, f1, ydd1, n, M, U4);
       while (next < n_out && x_out[next] <= x_new) {
         if (x_out[next] == x_new) {
-          p->emit(p->ctx, next++, w->ynew);
+          emit_output(p, w, next++, w->ynew, n, M);
           continue;
         }
         const double t = (x_out[next] - x) / h, t2 = t * t, t3 = t2 * t, t4 = t3 * t,
@@ -393,11 +555,11 @@ ROS_INLINE int integrate(const pt_ros_problem *p, pt_ros_work *w, double x0, dou
         for (int i = 0; i < len; i++)
           w->yout[i] = H0 * y[i] + h * H1 * w->f0[i] + h * h * H2 * ydd0[i] + H3 * w->ynew[i] +
                        h * H4 * f1[i] + h * h * H5 * ydd1[i];
-        p->emit(p->ctx, next++, w->yout);
+        emit_output(p, w, next++, w->yout, n, M);
       }
     }
     memcpy(y, w->ynew, sizeof(double) * (size_t)len);
-    update_peaks(p, w, y, n);
+    update_peaks(p, w, y, n, M);
     double *swap = A0;
     A0 = A1, A1 = swap;
     swap = dA0, dA0 = dA1, dA1 = swap;
@@ -407,29 +569,28 @@ ROS_INLINE int integrate(const pt_ros_problem *p, pt_ros_work *w, double x0, dou
     h = fmin(h * fmin(GROW_MAX, grow), p->h_max);
     if (cut) h = fmax(h, fmin(h_free, p->h_max));
   }
+  by_mode(y, y_caller, n, M);
   *x_fail = x;
   return PT_ROS_OK;
 
 undefined:
+  by_mode(y, y_caller, n, M);
   *x_fail = x;
   return PT_ROS_UNDEFINED;
 }
 
+ROS_CLONES
 int jg__ros_integrate(const pt_ros_problem *p, pt_ros_work *w, double x0, double *y,
                       const double *x_out, int n_out, double *x_fail) {
-  switch (p->dim) { /* the perturbation systems' dimensions */
-    case 4: return integrate(p, w, x0, y, x_out, n_out, x_fail, 4);
-    case 5: return integrate(p, w, x0, y, x_out, n_out, x_fail, 5);
-    case 6: return integrate(p, w, x0, y, x_out, n_out, x_fail, 6);
-    case 8: return integrate(p, w, x0, y, x_out, n_out, x_fail, 8);
-    case 10: return integrate(p, w, x0, y, x_out, n_out, x_fail, 10);
-    case 11: return integrate(p, w, x0, y, x_out, n_out, x_fail, 11);
-    case 12: return integrate(p, w, x0, y, x_out, n_out, x_fail, 12);
+  switch (p->n_modes) { /* a lone mode, and the full batches of a k grid */
+    case 1: return integrate(p, w, x0, y, x_out, n_out, x_fail, 1);
+    case PT_ROS_MAX_MODES: return integrate(p, w, x0, y, x_out, n_out, x_fail, PT_ROS_MAX_MODES);
     default: return jg__ros_integrate_generic(p, w, x0, y, x_out, n_out, x_fail);
   }
 }
 
+ROS_CLONES
 int jg__ros_integrate_generic(const pt_ros_problem *p, pt_ros_work *w, double x0, double *y,
                               const double *x_out, int n_out, double *x_fail) {
-  return integrate(p, w, x0, y, x_out, n_out, x_fail, p->dim);
+  return integrate(p, w, x0, y, x_out, n_out, x_fail, p->n_modes);
 }

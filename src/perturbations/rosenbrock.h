@@ -35,7 +35,11 @@
  * its group, relative to the group's size, not to the CDM contrast (a gas
  * contrast that stays tiny, as at k ~ 1e5, keeps its relative accuracy; a
  * temperature fluctuation slaved to it far below it is not resolved for its
- * own sake).
+ * own sake). A component the problem marks `group_scaled` is measured with
+ * peak_i in place of its own size in the rel_tol term: for a component the
+ * others see only as a fraction of its group (the gas temperature and
+ * ionisation contrasts in the gas pressure), its relative accuracy is
+ * worth no more than that of the group it feeds.
  *
  * Outputs never shorten steps. A point x_out inside an accepted step is
  * read off the quintic Hermite interpolant through y, y' = A y and y'' =
@@ -47,6 +51,23 @@
  * extension of order 3, built from the stages, is used instead (it damps
  * as the stages do).
  *
+ * Linear algebra: A is sparse (the perturbation systems couple each
+ * component to a few others: 17 of the 36 entries of the default mode
+ * system), so the problem states which entries may be non-zero (`pattern`)
+ * and the integrator works on those alone: the matrix-vector products run
+ * over the entries, and the step matrix is factorised on its fill pattern,
+ * found once per solve. The modes of a batch are stored side by side
+ * (entry by entry, component by component, the modes innermost), so that
+ * every operation of the factorisation, the solves and the products is one
+ * short loop over the modes, which the compiler turns into vector
+ * arithmetic. The factorisation has no row interchanges (they would differ
+ * from mode to mode): the step matrix (1/(h gamma)) I - A is dominated by
+ * its diagonal for the physical couplings (the gas's pressure and drag
+ * enlarge later pivots, they do not cancel them), and a pivot that has
+ * fallen below PT_ROS_PIVOT_FLOOR times its row's diagonal before
+ * elimination rejects the step, which is retried shorter (h -> 0 makes the
+ * matrix diagonal).
+ *
  * The workspace has fixed-size arrays: nothing is allocated while solving.
  */
 #ifndef JG_PERTURBATIONS_ROSENBROCK_H
@@ -56,14 +77,19 @@
  * 3 x 6 components. */
 #define PT_ROS_MAX_DIM 18
 #define PT_ROS_MAX_MODES 8
+#define PT_ROS_MAX_ENTRIES (PT_ROS_MAX_DIM * PT_ROS_MAX_DIM)
+#define PT_ROS_MAX_LEN (PT_ROS_MAX_MODES * PT_ROS_MAX_DIM)
 
-/* The matrices of every mode of the batch at x: A[b * dim * dim ...]
- * (row-major); when dA is not NULL also dA/dx; *rate: an upper estimate of
- * the largest |eigenvalue| over the modes (for the choice between dense
- * output and a step cut to the output). Return non-zero if x is outside the
- * coefficients' domain. */
+/* The matrices of every mode of the batch at x, in the integrator's layout:
+ * A[e * n_modes + b] is entry e of mode b, the entries e being the
+ * non-zeros of the problem's pattern in row-major order (every entry, row
+ * by row, without a pattern); when dA is not NULL also dA/dx alike; when
+ * rate is not NULL, *rate: an upper estimate of the largest |eigenvalue|
+ * over the modes (for the choice between dense output and a step cut to the
+ * output). Return non-zero if x is outside the coefficients' domain. */
 typedef int (*pt_ros_matrices_fn)(void *ctx, double x, double *A, double *dA, double *rate);
-/* One output: y holds n_modes states of dim components, at x_out[index]. */
+/* One output: y holds n_modes states of dim components, mode after mode, at
+ * x_out[index]. */
 typedef void (*pt_ros_emit_fn)(void *ctx, int index, const double *y);
 
 typedef struct pt_ros_problem {
@@ -77,11 +103,18 @@ typedef struct pt_ros_problem {
   double h_start; /* first trial step */
   double h_max;   /* no step longer */
   long max_steps; /* accepted + rejected, before giving up */
+  /* dim x dim, row-major: non-zero where an entry of A (or dA/dx) may be
+   * non-zero for some x and mode (NULL: every entry) */
+  const unsigned char *pattern;
+  /* dim entries (NULL: none): 1 where a component's error is measured
+   * against rel_tol times its group's peak instead of its own size (see
+   * above) */
+  const unsigned char *group_scaled;
 } pt_ros_problem;
 
 typedef struct pt_ros_stats {
   long steps;        /* accepted */
-  long rejected;     /* by the error test, or non-finite */
+  long rejected;     /* by the error test, a small pivot, or non-finite */
   long matrix_evals; /* calls of the matrices function */
 } pt_ros_stats;
 
@@ -89,39 +122,68 @@ enum {
   PT_ROS_OK = 0,
   PT_ROS_UNDEFINED = 1,  /* the matrices function refused an x */
   PT_ROS_TOO_MANY = 2,   /* max_steps reached */
-  PT_ROS_TOO_SMALL = 3,  /* step below the rounding of x (non-finite values) */
-  PT_ROS_SINGULAR = 4,   /* the step matrix could not be factorised */
+  PT_ROS_TOO_SMALL = 3,  /* step below the rounding of x (non-finite values, or a step matrix
+                            that cannot be factorised) */
   PT_ROS_BAD_INPUT = 5   /* dimension or batch too large, outputs not increasing */
 };
 
+/* A pivot below this fraction of its row's diagonal before elimination
+ * rejects the step (see above). */
+#define PT_ROS_PIVOT_FLOOR 1.0e-8
+
 typedef struct pt_ros_work {
-  double A0[PT_ROS_MAX_MODES * PT_ROS_MAX_DIM * PT_ROS_MAX_DIM];  /* at x_n */
-  double dA0[PT_ROS_MAX_MODES * PT_ROS_MAX_DIM * PT_ROS_MAX_DIM];
-  double A1[PT_ROS_MAX_MODES * PT_ROS_MAX_DIM * PT_ROS_MAX_DIM];  /* at x_n + h */
-  double dA1[PT_ROS_MAX_MODES * PT_ROS_MAX_DIM * PT_ROS_MAX_DIM];
-  double As[PT_ROS_MAX_MODES * PT_ROS_MAX_DIM * PT_ROS_MAX_DIM];  /* inner stages */
-  double LU[PT_ROS_MAX_MODES * PT_ROS_MAX_DIM * PT_ROS_MAX_DIM];
-  int pivot[PT_ROS_MAX_MODES * PT_ROS_MAX_DIM];
-  double U[6][PT_ROS_MAX_MODES * PT_ROS_MAX_DIM];
-  double f0[PT_ROS_MAX_MODES * PT_ROS_MAX_DIM], fx0[PT_ROS_MAX_MODES * PT_ROS_MAX_DIM];
-  double ytmp[PT_ROS_MAX_MODES * PT_ROS_MAX_DIM], ynew[PT_ROS_MAX_MODES * PT_ROS_MAX_DIM];
-  double peak[PT_ROS_MAX_MODES * PT_ROS_MAX_DIM];
-  double own_peak[PT_ROS_MAX_MODES * PT_ROS_MAX_DIM];
-  double yout[PT_ROS_MAX_MODES * PT_ROS_MAX_DIM];
-  double err_est[PT_ROS_MAX_MODES * PT_ROS_MAX_DIM]; /* filtered error estimate */
+  /* The matrices' entries, [entry][mode]: at x_n, at x_n + h, at the inner
+   * stages. */
+  double A0[PT_ROS_MAX_MODES * PT_ROS_MAX_ENTRIES], dA0[PT_ROS_MAX_MODES * PT_ROS_MAX_ENTRIES];
+  double A1[PT_ROS_MAX_MODES * PT_ROS_MAX_ENTRIES], dA1[PT_ROS_MAX_MODES * PT_ROS_MAX_ENTRIES];
+  double As[PT_ROS_MAX_MODES * PT_ROS_MAX_ENTRIES];
+  /* The factors of the step matrix, [i * dim + j][mode] (the fill pattern's
+   * positions only), and the pivots' inverses [i][mode]. */
+  double LU[PT_ROS_MAX_MODES * PT_ROS_MAX_ENTRIES];
+  double inverse_pivot[PT_ROS_MAX_LEN];
+  /* Vectors, [component][mode]. */
+  double U[6][PT_ROS_MAX_LEN];
+  double y[PT_ROS_MAX_LEN], f0[PT_ROS_MAX_LEN], fx0[PT_ROS_MAX_LEN];
+  double ytmp[PT_ROS_MAX_LEN], ynew[PT_ROS_MAX_LEN], yout[PT_ROS_MAX_LEN];
+  double peak[PT_ROS_MAX_LEN], own_peak[PT_ROS_MAX_LEN];
+  double err_est[PT_ROS_MAX_LEN]; /* filtered error estimate */
+  double by_mode[PT_ROS_MAX_LEN]; /* an output, mode after mode, for emit */
+  /* The structure, found at the start of each solve: the entries' rows and
+   * columns, the positions of the factors' pattern, and the elimination's
+   * index lists (rows i > k of L's column k; columns j > i of U's row i;
+   * columns k < i of L's row i), each list of index i in [start[i],
+   * start[i + 1]). */
+  int n_entries, n_factor;
+  int entry_row[PT_ROS_MAX_ENTRIES], entry_col[PT_ROS_MAX_ENTRIES];
+  int diagonal_entry[PT_ROS_MAX_DIM]; /* entry of A_ii, or -1 */
+  int factor_position[PT_ROS_MAX_ENTRIES];
+  int l_col_start[PT_ROS_MAX_DIM + 1], l_col_rows[PT_ROS_MAX_ENTRIES];
+  int u_row_start[PT_ROS_MAX_DIM + 1], u_row_cols[PT_ROS_MAX_ENTRIES];
+  int l_row_start[PT_ROS_MAX_DIM + 1], l_row_cols[PT_ROS_MAX_ENTRIES];
   pt_ros_stats stats; /* accumulated over every solve with this workspace */
 } pt_ros_work;
 
-/* Integrate y (n_modes x dim, in place) from x0 through the increasing
- * outputs x_out[0..n_out), calling emit at each; the last output is the end.
- * Returns PT_ROS_OK or a failure code, with *x_fail the x reached. */
+/* Integrate y (n_modes states of dim components, mode after mode; in place)
+ * from x0 through the increasing outputs x_out[0..n_out), calling emit at
+ * each; the last output is the end. Returns PT_ROS_OK or a failure code,
+ * with *x_fail the x reached. */
 int jg__ros_integrate(const pt_ros_problem *p, pt_ros_work *w, double x0, double *y,
-                     const double *x_out, int n_out, double *x_fail);
-/* The same with the dimension a run-time value (the copy every dimension
+                      const double *x_out, int n_out, double *x_fail);
+/* The same with the batch size a run-time value (the copy every batch size
  * without its own compiled copy takes): the reference the compiled copies
  * must match bit for bit. */
 int jg__ros_integrate_generic(const pt_ros_problem *p, pt_ros_work *w, double x0, double *y,
                               const double *x_out, int n_out, double *x_fail);
+
+/* The positions i * dim + j of the entries of a pattern (NULL: every
+ * entry), in the layout's order; returns their number. */
+int jg__ros_entry_positions(int dim, const unsigned char *pattern, int *position);
+/* Entries of every mode's matrix in the layout of pt_ros_matrices_fn, for
+ * matrices affine in per-mode numbers: A_b = B0 + s1[b] B1 + s2[b] B2, the
+ * B dense dim x dim row-major (B1, B2 may be NULL, then s1, s2 unused). */
+void jg__ros_gather(int n_entries, const int *position, int n_modes, const double *B0,
+                    const double *B1, const double *s1, const double *B2, const double *s2,
+                    double *A);
 
 /* The quintic Hermite interpolation limit: above this h * rate, outputs come
  * from the stages' continuous extension. */

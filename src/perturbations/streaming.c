@@ -221,6 +221,9 @@ typedef struct stream_run {
   double k2[PT_ROS_MAX_MODES], kv[PT_ROS_MAX_MODES]; /* k^2 and k v_par / v_rms */
   double *states;      /* [output][mode][dim] */
   int undefined_output;
+  /* The system's sparsity pattern and its entries' positions. */
+  unsigned char pattern[PT_ROS_MAX_ENTRIES];
+  int n_entries, position[PT_ROS_MAX_ENTRIES];
 } stream_run;
 
 /* Error-scale groups: CDM and gas of each block (real and imaginary part;
@@ -232,22 +235,23 @@ static void stream_groups(const stream_run *r, int *group) {
   }
 }
 
-/* The matrix of one mode from the mode matrix M (n x n) of its k^2:
- * `drift` the advection per unit k v_par / v_rms (or its slope). */
-static void stream_matrix(const stream_run *r, const double *M, int b, double drift, double *A) {
+/* One part of the matrices, dense (dim x dim): the mode matrix M (n x n;
+ * NULL: none) on every block's diagonal, and the advection of the baryon
+ * components at `drift` per unit of the mode's k v_par / v_rms (complex
+ * system) or per unit k_ref (limit system). */
+static void stream_matrix(const stream_run *r, const double *M, double drift, double *A) {
   const jg_perturb_model *m = r->sm->m;
   const int n = r->n, N = r->dim;
   memset(A, 0, sizeof(double) * (size_t)N * N);
-  for (int blk = 0; blk < N / n; blk++)
+  for (int blk = 0; M && blk < N / n; blk++)
     for (int i = 0; i < n; i++)
       memcpy(A + (size_t)(blk * n + i) * N + blk * n, M + (size_t)i * n, sizeof(double) * n);
-  if (r->sys == SYS_REAL) return;
+  if (r->sys == SYS_REAL || drift == 0.0) return;
   for (int i = M_B; i < n; i++) { /* the baryon components, advected */
     if (r->sys == SYS_COMPLEX) {
       /* Re' gains A Im, Im' gains -A Re, with A = k v_par drift. */
-      const double s = r->kv[b] * drift;
-      A[(size_t)i * N + n + i] = s;
-      A[(size_t)(n + i) * N + i] = -s;
+      A[(size_t)i * N + n + i] = drift;
+      A[(size_t)(n + i) * N + i] = -drift;
     } else {
       /* u1' = M0 u1 - s P y0, y2' = M0 y2 + s P u1 (scaled by k_ref). */
       const double s = sqrt(m->k_ref2) * drift;
@@ -257,44 +261,73 @@ static void stream_matrix(const stream_run *r, const double *M, int b, double dr
   }
 }
 
-/* The mode matrix at k^2 and (dc not NULL) its slope, A being affine in the
- * coefficients: dM/dx = M(c') - M(0). */
-static void mode_matrices(const jg_perturb_model *m, const jg_medium_coefficients *c,
-                          const jg_medium_coefficients *dc, double k2, double *M, double *dM) {
-  const int n = m->dim_mode;
-  memset(M, 0, sizeof(double) * (size_t)n * n);
-  jg__pt_jac_mode(m, c, k2, M, n, 0);
-  if (!dc) return;
-  jg_medium_coefficients zero = {0};
-  zero.baryon_fraction = c->baryon_fraction;
-  double M_zero[PT_ROS_MAX_DIM * PT_ROS_MAX_DIM] = {0};
-  memset(dM, 0, sizeof(double) * (size_t)n * n);
-  jg__pt_jac_mode(m, dc, k2, dM, n, 0);
-  jg__pt_jac_mode(m, &zero, k2, M_zero, n, 0);
-  for (int i = 0; i < n * n; i++) dM[i] -= M_zero[i];
+/* The three parts of a streaming matrix, A_b = B0 + k_b^2 B1 + kv_b B2,
+ * from the coefficients c and the drift (the mode matrix is affine in
+ * k^2); B1 only where the system depends on k, B2 only where it advects. */
+static void stream_parts(const stream_run *r, const jg_medium_coefficients *c, double drift,
+                         const double *M_zero, double *B0, double *B1, double *B2) {
+  const jg_perturb_model *m = r->sm->m;
+  const int n = r->n;
+  double M0[PT_ROS_MAX_ENTRIES] = {0}, M1[PT_ROS_MAX_ENTRIES] = {0};
+  jg__pt_jac_mode(m, c, 0.0, M0, n, 0);
+  if (r->sys != SYS_LIMIT) {
+    jg__pt_jac_mode(m, c, 1.0, M1, n, 0);
+    for (int i = 0; i < n * n; i++) M1[i] -= M0[i];
+    stream_matrix(r, M1, 0.0, B1);
+  }
+  if (M_zero)
+    for (int i = 0; i < n * n; i++) M0[i] -= M_zero[i];
+  stream_matrix(r, M0, 0.0, B0);
+  if (r->sys != SYS_REAL) stream_matrix(r, NULL, drift, B2);
 }
 
 static int stream_matrices(void *ctx, double x, double *A, double *dA, double *rate) {
   stream_run *r = ctx;
   const jg_stream_model *sm = r->sm;
-  jg_medium_coefficients c, dc;
+  jg_medium_coefficients c, dc = {0};
   if (jg__pt_coefficients_and_slope(sm->m, x, &c, dA ? &dc : NULL) != 0) return 1;
   const double drift = r->sys == SYS_REAL ? 0.0 : jg_stream_drift(sm, x);
-  /* v_bc / (a H) with v_bc ~ 1/a: its slope is -(2 + d ln H / d ln a) times it. */
-  const double drift_slope = -(2.0 + c.dlnH_dlna) * drift;
-  const int nn = r->dim * r->dim;
-  double fastest = 0.0, M[PT_ROS_MAX_DIM * PT_ROS_MAX_DIM], dM[PT_ROS_MAX_DIM * PT_ROS_MAX_DIM];
-  for (int b = 0; b < r->modes; b++) {
-    const double k2 = r->sys == SYS_LIMIT ? 0.0 : r->k2[b];
-    /* Modes of one k (the velocity nodes) share their mode matrices. */
-    if (b == 0 || k2 != r->k2[b - 1]) mode_matrices(sm->m, &c, dA ? &dc : NULL, k2, M, dM);
-    stream_matrix(r, M, b, drift, A + (size_t)b * nn);
-    if (dA) stream_matrix(r, dM, b, drift_slope, dA + (size_t)b * nn);
-    const double advection = r->sys == SYS_COMPLEX ? fabs(r->kv[b] * drift) : 0.0;
-    fastest = fmax(fastest, jg__pt_fastest_rate(sm->m, &c, k2) + advection);
+  const int k_dependent = r->sys != SYS_LIMIT, advected = r->sys != SYS_REAL;
+  /* The limit system's advection is per unit k_ref (in its matrix). */
+  const double unit[PT_ROS_MAX_MODES] = {1, 1, 1, 1, 1, 1, 1, 1};
+  const double *advection = r->sys == SYS_COMPLEX ? r->kv : unit;
+  double B0[PT_ROS_MAX_ENTRIES], B1[PT_ROS_MAX_ENTRIES], B2[PT_ROS_MAX_ENTRIES];
+  stream_parts(r, &c, drift, NULL, B0, B1, B2);
+  jg__ros_gather(r->n_entries, r->position, r->modes, B0, k_dependent ? B1 : NULL, r->k2,
+                 advected ? B2 : NULL, advection, A);
+  if (rate) {
+    double fastest = 0.0;
+    for (int b = 0; b < r->modes; b++) {
+      const double k2 = r->sys == SYS_LIMIT ? 0.0 : r->k2[b];
+      const double advecting = r->sys == SYS_COMPLEX ? fabs(r->kv[b] * drift) : 0.0;
+      fastest = fmax(fastest, jg__pt_fastest_rate(sm->m, &c, k2) + advecting);
+    }
+    *rate = fastest;
   }
-  *rate = fastest;
+  if (dA) {
+    /* Slopes: the mode matrix is affine in the coefficients, dM/dx =
+     * M(c') - M(0); v_bc / (a H) with v_bc ~ 1/a: the drift's slope is
+     * -(2 + d ln H / d ln a) times it. */
+    jg_medium_coefficients zero = {0};
+    zero.baryon_fraction = c.baryon_fraction;
+    double M_zero[PT_ROS_MAX_ENTRIES] = {0};
+    jg__pt_jac_mode(sm->m, &zero, 0.0, M_zero, r->n, 0);
+    stream_parts(r, &dc, -(2.0 + c.dlnH_dlna) * drift, M_zero, B0, B1, B2);
+    jg__ros_gather(r->n_entries, r->position, r->modes, B0, k_dependent ? B1 : NULL, r->k2,
+                   advected ? B2 : NULL, advection, dA);
+  }
   return 0;
+}
+
+/* Which entries of the run's matrices can be non-zero. */
+static void stream_pattern(stream_run *r) {
+  jg_medium_coefficients c;
+  jg__pt_structural_coefficients(&c);
+  double B0[PT_ROS_MAX_ENTRIES], B1[PT_ROS_MAX_ENTRIES] = {0}, B2[PT_ROS_MAX_ENTRIES] = {0};
+  stream_parts(r, &c, 1.0, NULL, B0, B1, B2);
+  for (int i = 0; i < r->dim * r->dim; i++)
+    r->pattern[i] = B0[i] != 0.0 || B1[i] != 0.0 || B2[i] != 0.0;
+  r->n_entries = jg__ros_entry_positions(r->dim, r->pattern, r->position);
 }
 
 static void stream_emit(void *ctx, int index, const double *y) {
@@ -314,9 +347,10 @@ static jg_status stream_integrate(stream_run *r, jg_perturb_workspace *w, double
   const jg_perturb_model *m = r->sm->m;
   int group[PT_ROS_MAX_DIM];
   stream_groups(r, group);
+  stream_pattern(r);
   const pt_ros_problem p = {r->dim, r->modes, stream_matrices, stream_emit, r, group,
                             r->sm->s.rel_tol, m->settings.abs_tol, 1.0e-4, r->sys == SYS_COMPLEX ? STREAM_MAX_STEP : 0.05,
-                            PT_MAX_STEPS};
+                            PT_MAX_STEPS, r->pattern, NULL};
   double x_fail;
   const int code = jg__ros_integrate(&p, w->ros, x0, y, x_out, n_out, &x_fail);
   if (code != PT_ROS_OK)
