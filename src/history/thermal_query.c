@@ -19,6 +19,7 @@
 #include "recombination.h"
 #include "reionisation.h"
 #include "thermal_internal.h"
+#include "thermal_nodes.h"
 #include "../base/alloc.h" /* last: test builds route allocations through it */
 
 const jg_background *jg_thermal_background(const jg_thermal *th) { return th->bg; }
@@ -92,15 +93,20 @@ double jg_thermal_T_gas(const jg_thermal *th, double ln_a) { return stored_or_ea
  * one there), is ~ 2e-9. */
 #define THERMAL_EARLY_SLOPE_STEP 1.0e-4
 
+static void early_log_slopes(const jg_thermal *th, double ln_a, double *dlnxe_dlna,
+                             double *dlnT_dlna) {
+  double xe[2], xp, T[2];
+  for (int i = 0; i < 2; i++)
+    early_state(th, exp(ln_a + (i ? 1.0 : -1.0) * THERMAL_EARLY_SLOPE_STEP), &xe[i], &xp, &T[i]);
+  const double s = 0.5 / THERMAL_EARLY_SLOPE_STEP;
+  if (dlnxe_dlna) *dlnxe_dlna = (log(xe[1]) - log(xe[0])) * s;
+  if (dlnT_dlna) *dlnT_dlna = (log(T[1]) - log(T[0])) * s;
+}
+
 void jg_thermal_log_slopes(const jg_thermal *th, double ln_a, double *dlnxe_dlna,
                            double *dlnT_dlna) {
   if (ln_a < th->ln_a_start) {
-    double xe[2], xp, T[2];
-    for (int i = 0; i < 2; i++)
-      early_state(th, exp(ln_a + (i ? 1.0 : -1.0) * THERMAL_EARLY_SLOPE_STEP), &xe[i], &xp, &T[i]);
-    const double s = 0.5 / THERMAL_EARLY_SLOPE_STEP;
-    if (dlnxe_dlna) *dlnxe_dlna = (log(xe[1]) - log(xe[0])) * s;
-    if (dlnT_dlna) *dlnT_dlna = (log(T[1]) - log(T[0])) * s;
+    early_log_slopes(th, ln_a, dlnxe_dlna, dlnT_dlna);
     return;
   }
   ln_a = clamp_ln_a(ln_a);
@@ -108,25 +114,36 @@ void jg_thermal_log_slopes(const jg_thermal *th, double ln_a, double *dlnxe_dlna
   if (dlnT_dlna) *dlnT_dlna = gsl_spline_eval_deriv(th->ln_Tgas, ln_a, NULL);
 }
 
-void jg_thermal_state_at(const jg_thermal *th, double z, jg_thermal_state *s) {
+/* The state at z, ln_a = -ln(1 + z) (the caller passes whichever of the two
+ * it holds exactly), and d ln x_e / d ln a if asked, with the splines looked
+ * up through cursor (may be NULL); helium's ionisation fractions only if
+ * asked (0 otherwise). */
+static void state_at(const jg_thermal *th, double z, double ln_a, gsl_interp_accel *cursor,
+                     bool helium, jg_thermal_state *s, double *dlnxe_dlna) {
   const jg_background *bg = th->bg;
-  double ln_a = -log1p(z), a = exp(ln_a);
+  const double a = exp(ln_a);
   memset(s, 0, sizeof *s);
   s->z = z;
   s->T_rad = jg_background_T_radiation(bg, a);
+  double dlnT_dlna;
   if (ln_a < th->ln_a_start) {
     early_state(th, a, &s->x_e, &s->x_p, &s->T_gas);
+    early_log_slopes(th, ln_a, dlnxe_dlna, &dlnT_dlna);
   } else {
     ln_a = clamp_ln_a(ln_a);
-    s->x_e = exp(gsl_spline_eval(th->ln_xe, ln_a, NULL));
-    s->x_p = exp(gsl_spline_eval(th->ln_xp, ln_a, NULL));
-    s->T_gas = exp(gsl_spline_eval(th->ln_Tgas, ln_a, NULL));
+    s->x_e = exp(gsl_spline_eval(th->ln_xe, ln_a, cursor));
+    s->x_p = exp(gsl_spline_eval(th->ln_xp, ln_a, cursor));
+    s->T_gas = exp(gsl_spline_eval(th->ln_Tgas, ln_a, cursor));
+    dlnT_dlna = gsl_spline_eval_deriv(th->ln_Tgas, ln_a, cursor);
+    if (dlnxe_dlna) *dlnxe_dlna = gsl_spline_eval_deriv(th->ln_xe, ln_a, cursor);
   }
-  jg__helium_saha he;
-  jg__helium_saha_at(bg, s->T_rad, jg_background_n_hydrogen(bg, a), s->x_e, &he);
-  s->x_HeII = he.x_HeII;
-  s->x_HeIII = he.x_HeIII;
-  if (jg__reionisation_acts(&th->reion, ln_a)) {
+  if (helium) {
+    jg__helium_saha he;
+    jg__helium_saha_at(bg, s->T_rad, jg_background_n_hydrogen(bg, a), s->x_e, &he);
+    s->x_HeII = he.x_HeII;
+    s->x_HeIII = he.x_HeIII;
+  }
+  if (helium && jg__reionisation_acts(&th->reion, ln_a)) {
     /* The model ionises the helium left neutral once (with hydrogen) and
      * then a second time; the Saha fractions at these temperatures are
      * nil. */
@@ -138,8 +155,6 @@ void jg_thermal_state_at(const jg_thermal *th, double z, jg_thermal_state *s) {
   }
   s->compton_rate = jg__compton_rate(bg, s->T_rad, s->x_e);
   s->mu = jg_background_mean_molecular_weight(bg, s->x_e);
-  double dlnT_dlna;
-  jg_thermal_log_slopes(th, -log1p(z), NULL, &dlnT_dlna);
   /* Where heating raises T_gas (d ln T/d ln a > 0, only with a heating or
    * reionisation model) the formula falls below 1 and, past d ln T/d ln a = 3,
    * gives a negative pressure: an instability no gas has. It is held at 1,
@@ -147,27 +162,36 @@ void jg_thermal_state_at(const jg_thermal *th, double z, jg_thermal_state *s) {
   s->gamma_effective = fmax(1.0 - dlnT_dlna / 3.0, 1.0);
 }
 
-void jg_thermal_ionisation_response(const jg_thermal *th, double ln_a,
-                                    jg_ionisation_response *out) {
+void jg_thermal_state_at(const jg_thermal *th, double z, jg_thermal_state *s) {
+  state_at(th, z, -log1p(z), NULL, true, s, NULL);
+}
+
+void jg__thermal_state_and_response(const jg_thermal *th, double ln_a, gsl_interp_accel *cursor,
+                                    jg_thermal_state *s, jg_ionisation_response *out) {
+  double dlnxe_dlna;
+  state_at(th, expm1(-ln_a), ln_a, cursor, false, s, out ? &dlnxe_dlna : NULL);
+  if (!out) return;
   const jg_background *bg = th->bg;
   const double a = exp(ln_a);
-  jg_thermal_state s;
-  jg_thermal_state_at(th, expm1(-ln_a), &s);
   const double n_H = jg_background_n_hydrogen(bg, a), H = jg_background_hubble(bg, a);
-  double dlnxe_dlna;
-  jg_thermal_log_slopes(th, ln_a, &dlnxe_dlna, NULL);
   /* dxe_dxp = 1: a change of x_p moves x_e by as much (helium unperturbed). */
   jg__peebles_rate rate;
-  jg__peebles_rate_at(s.x_p, s.x_e, 1.0, s.T_gas, s.T_rad, n_H, H,
+  jg__peebles_rate_at(s->x_p, s->x_e, 1.0, s->T_gas, s->T_rad, n_H, H,
                       th->settings.recombination_fudge, &rate);
-  const double per_x = 1.0 / (H * s.x_e);
+  const double per_x = 1.0 / (H * s->x_e);
   out->relaxation = -rate.d_dxp / H + dlnxe_dlna;
   out->density = rate.d_dlnnH * per_x;
-  out->temperature = s.T_gas * rate.d_dTgas * per_x;
+  out->temperature = s->T_gas * rate.d_dTgas * per_x;
   out->expansion = -rate.d_dlnH * per_x / 3.0;
-  out->heating = jg__compton_rate_dxe(bg, s.T_rad, s.x_e) * s.x_e / H * (s.T_rad - s.T_gas) /
-                 s.T_gas;
-  out->pressure = (1.0 - bg->cosmology.helium_mass_fraction) * s.mu * s.x_e;
+  out->heating = jg__compton_rate_dxe(bg, s->T_rad, s->x_e) * s->x_e / H *
+                 (s->T_rad - s->T_gas) / s->T_gas;
+  out->pressure = (1.0 - bg->cosmology.helium_mass_fraction) * s->mu * s->x_e;
+}
+
+void jg_thermal_ionisation_response(const jg_thermal *th, double ln_a,
+                                    jg_ionisation_response *out) {
+  jg_thermal_state s; /* the response does not read helium's fractions */
+  jg__thermal_state_and_response(th, ln_a, NULL, &s, out);
 }
 
 /* d tau / d ln a (per unit ln a, positive). */

@@ -3,13 +3,12 @@
  * equations tabulated once per model from the thermal history (see the
  * "Speed" note in perturb.c), and their slopes for the Rosenbrock path.
  */
-#include <gsl/gsl_errno.h>
-#include <gsl/gsl_spline.h>
 #include <math.h>
 #include <stdlib.h>
 
 #include "jeansgrow/constants.h"
 #include "perturb_internal.h"
+#include "../history/thermal_nodes.h"
 
 /* The relaxation rate q_r of delta_xe reaches 1e20 per e-fold while
  * hydrogen is in Saha equilibrium; GSL's msbdf fails on such a rate at tight
@@ -33,6 +32,38 @@ static inline double exp_small(double v) {
          v * (1.0 / 720 + v * (1.0 / 5040 + v * (1.0 / 40320 + v * (1.0 / 362880)))))))));
 }
 
+/* sinh and cosh of c0 + v for the small v of one table interval, from
+ * sinh(c0) and cosh(c0) stored per node: sinh(c0 + v) = sinh(c0) cosh(v) +
+ * cosh(c0) sinh(v), the same sum with the roles swapped for cosh. Up to
+ * |v| = 1/16 the series of sinh(v) to v^9 and of cosh(v) to v^8 leave less
+ * than 3e-19 relative; beyond, sinh and cosh themselves: past the table's
+ * ends, and in ~1 % of the look-ups through hydrogen recombination, where
+ * the asinh of a delta_xe rate moves by up to ~50 per e-fold (longer series
+ * for them cost more in the other 99 % than they save). Exact to rounding,
+ * as sinh(c0 + v) is: where the sum cancels, near a sign change of the
+ * coefficient, both err by ~1e-16 absolute. */
+typedef struct sinh_cosh {
+  double sinh, cosh;
+} sinh_cosh;
+
+static inline sinh_cosh sinh_cosh_near(double c0, double sinh_c0, double cosh_c0, double v) {
+  if (!(fabs(v) <= 0.0625)) return (sinh_cosh){sinh(c0 + v), cosh(c0 + v)};
+  const double v2 = v * v;
+  const double sh =
+      v * (1.0 + v2 * (1.0 / 6) * (1.0 + v2 * (1.0 / 20) * (1.0 + v2 * (1.0 / 42) *
+          (1.0 + v2 * (1.0 / 72)))));
+  const double ch =
+      1.0 + v2 * 0.5 * (1.0 + v2 * (1.0 / 12) * (1.0 + v2 * (1.0 / 30) * (1.0 + v2 * (1.0 / 56))));
+  return (sinh_cosh){sinh_c0 * ch + cosh_c0 * sh, cosh_c0 * ch + sinh_c0 * sh};
+}
+
+/* Quantity q of the interval (polynomial c, stored values e0) at offset u. */
+static inline sinh_cosh tabulated_sinh(const double *c, const double *e0, int q, double u) {
+  const double *k = c + 4 * q;
+  const double *stored = e0 + PT_NODE_RATES + 2 * (q - Q_XE_RELAX);
+  return sinh_cosh_near(k[0], stored[0], stored[1], u * (k[1] + u * (k[2] + u * k[3])));
+}
+
 int jg__pt_thermal_medium_eval(const void *ctx, double ln_a, jg_medium_coefficients *out) {
   const thermal_medium *tm = ctx;
   double t = (ln_a - tm->x0) * tm->inv_dx;
@@ -42,7 +73,7 @@ int jg__pt_thermal_medium_eval(const void *ctx, double ln_a, jg_medium_coefficie
   if (i > tm->n - 2) i = tm->n - 2;
   double u = ln_a - (tm->x0 + i * tm->dx);
   const double *c = tm->poly + (size_t)i * 4 * N_Q;
-  const double *e0 = tm->node_rate + (size_t)i * 3;
+  const double *e0 = tm->node_rate + (size_t)i * PT_NODE_VALUES;
   out->pressure = e0[0] * exp_small(u * (c[1] + u * (c[2] + u * c[3])));
   out->drag = e0[1] * exp_small(u * (c[5] + u * (c[6] + u * c[7])));
   out->relaxation = e0[2] * exp_small(u * (c[9] + u * (c[10] + u * c[11])));
@@ -52,10 +83,10 @@ int jg__pt_thermal_medium_eval(const void *ctx, double ln_a, jg_medium_coefficie
 #define PT_VALUE(q) (c[4 * (q)] + u * (c[4 * (q) + 1] + u * (c[4 * (q) + 2] + u * c[4 * (q) + 3])))
   if (tm->effective_gamma) out->pressure_effective = PT_VALUE(Q_GAMMA_EFF) * out->pressure;
   if (tm->ionisation) {
-    out->ionisation_relaxation = sinh(PT_VALUE(Q_XE_RELAX));
-    out->ionisation_density = sinh(PT_VALUE(Q_XE_DENSITY));
-    out->ionisation_temperature = sinh(PT_VALUE(Q_XE_TEMPERATURE));
-    out->ionisation_expansion = sinh(PT_VALUE(Q_XE_EXPANSION));
+    out->ionisation_relaxation = tabulated_sinh(c, e0, Q_XE_RELAX, u).sinh;
+    out->ionisation_density = tabulated_sinh(c, e0, Q_XE_DENSITY, u).sinh;
+    out->ionisation_temperature = tabulated_sinh(c, e0, Q_XE_TEMPERATURE, u).sinh;
+    out->ionisation_expansion = tabulated_sinh(c, e0, Q_XE_EXPANSION, u).sinh;
     out->heating_ionisation = PT_VALUE(Q_XE_HEATING) * out->relaxation;
     out->pressure_ionisation = PT_VALUE(Q_XE_PRESSURE) * out->pressure;
   }
@@ -73,6 +104,7 @@ void jg__pt_thermal_medium_slope(const thermal_medium *tm, double ln_a,
   if (i > tm->n - 2) i = tm->n - 2;
   double u = ln_a - (tm->x0 + i * tm->dx);
   const double *q = tm->poly + (size_t)i * 4 * N_Q;
+  const double *e0 = tm->node_rate + (size_t)i * PT_NODE_VALUES;
 #define PT_SLOPE(o) (q[(o) + 1] + u * (2.0 * q[(o) + 2] + 3.0 * u * q[(o) + 3]))
   dc->pressure = c->pressure * PT_SLOPE(0);
   dc->drag = c->drag * PT_SLOPE(4);
@@ -88,11 +120,14 @@ void jg__pt_thermal_medium_slope(const thermal_medium *tm, double ln_a,
   }
   if (tm->ionisation) {
     /* asinh-tabulated: d sinh(v)/dx = cosh(v) dv/dx. */
-    dc->ionisation_relaxation = cosh(PT_VALUE(4 * Q_XE_RELAX)) * PT_SLOPE(4 * Q_XE_RELAX);
-    dc->ionisation_density = cosh(PT_VALUE(4 * Q_XE_DENSITY)) * PT_SLOPE(4 * Q_XE_DENSITY);
+    dc->ionisation_relaxation =
+        tabulated_sinh(q, e0, Q_XE_RELAX, u).cosh * PT_SLOPE(4 * Q_XE_RELAX);
+    dc->ionisation_density =
+        tabulated_sinh(q, e0, Q_XE_DENSITY, u).cosh * PT_SLOPE(4 * Q_XE_DENSITY);
     dc->ionisation_temperature =
-        cosh(PT_VALUE(4 * Q_XE_TEMPERATURE)) * PT_SLOPE(4 * Q_XE_TEMPERATURE);
-    dc->ionisation_expansion = cosh(PT_VALUE(4 * Q_XE_EXPANSION)) * PT_SLOPE(4 * Q_XE_EXPANSION);
+        tabulated_sinh(q, e0, Q_XE_TEMPERATURE, u).cosh * PT_SLOPE(4 * Q_XE_TEMPERATURE);
+    dc->ionisation_expansion =
+        tabulated_sinh(q, e0, Q_XE_EXPANSION, u).cosh * PT_SLOPE(4 * Q_XE_EXPANSION);
     dc->heating_ionisation = PT_SLOPE(4 * Q_XE_HEATING) * c->relaxation +
                              PT_VALUE(4 * Q_XE_HEATING) * dc->relaxation;
     dc->pressure_ionisation = PT_SLOPE(4 * Q_XE_PRESSURE) * c->pressure +
@@ -111,13 +146,15 @@ void jg__pt_thermal_medium_free(thermal_medium *tm) {
 }
 
 /* The tabulated quantities, from the thermal history at one node (the
- * optional ones only if the medium tabulates them, 0 otherwise). */
+ * optional ones only if the medium tabulates them, 0 otherwise); cursor
+ * follows the nodes through the history's grid. */
 static void thermal_coefficients(const jg_thermal *th, const thermal_medium *tm, double x,
-                                 double q[N_Q]) {
+                                 gsl_interp_accel *cursor, double q[N_Q]) {
   const jg_background *bg = jg_thermal_background(th);
   double a = exp(x);
   jg_thermal_state s;
-  jg_thermal_state_at(th, 1.0 / a - 1.0, &s);
+  jg_ionisation_response ir;
+  jg__thermal_state_and_response(th, x, cursor, &s, tm->ionisation ? &ir : NULL);
   double H = jg_background_hubble(bg, a);
   double aH_mpc = a * H * JG_MPC; /* comoving: (k/a) c_T / H with k in 1/Mpc */
   double cT2 = JG_K_BOLTZMANN * s.T_gas / (s.mu * JG_M_HYDROGEN_ATOM);
@@ -135,19 +172,45 @@ static void thermal_coefficients(const jg_thermal *th, const thermal_medium *tm,
   for (int k = Q_GAMMA_EFF; k < N_Q; k++) q[k] = 0.0;
   if (tm->effective_gamma) q[Q_GAMMA_EFF] = s.gamma_effective;
   if (tm->ionisation) {
-    jg_ionisation_response ir;
-    jg_thermal_ionisation_response(th, x, &ir);
-    /* q_r turns negative where x_e (helium's electrons included) falls
-     * faster than hydrogen relaxes, and q_b, q_T, q_v change sign too: all
-     * four are tabulated as asinh, logarithmic in size, linear through 0. */
     const double cap =
         ir.relaxation > 0.0 ? PT_XE_RELAX_CAP / (ir.relaxation + PT_XE_RELAX_CAP) : 1.0;
-    q[Q_XE_RELAX] = asinh(cap * ir.relaxation);
-    q[Q_XE_DENSITY] = asinh(cap * ir.density);
-    q[Q_XE_TEMPERATURE] = asinh(cap * ir.temperature);
-    q[Q_XE_EXPANSION] = asinh(cap * ir.expansion);
+    q[Q_XE_RELAX] = cap * ir.relaxation;
+    q[Q_XE_DENSITY] = cap * ir.density;
+    q[Q_XE_TEMPERATURE] = cap * ir.temperature;
+    q[Q_XE_EXPANSION] = cap * ir.expansion;
     q[Q_XE_HEATING] = ir.heating / q[Q_RELAX];
     q[Q_XE_PRESSURE] = ir.pressure;
+  }
+}
+
+/* Second derivatives M of the natural cubic splines through (x_i, y_i) for
+ * N_Q ordinates on the same abscissae, as GSL's cspline computes them (the
+ * same equations for c = M/2 and the same L D L^T elimination as
+ * gsl_linalg_solve_symm_tridiag, so the same numbers), the elimination done
+ * once for all. y[k * n + i], M likewise; work: 2 n doubles. */
+static void natural_spline_curvatures(const double *x, const double *y, int n, double *M,
+                                      double *work) {
+  const int m = n - 2; /* interior nodes: the unknowns */
+  double *alpha = work, *gamma = work + n;
+  for (int k = 0; k < N_Q; k++) M[k * n] = M[k * n + n - 1] = 0.0;
+  if (m < 1) return;
+  /* diag_i = 2 (h_i + h_{i+1}), offdiag_i = h_{i+1}, for interior node i + 1. */
+  alpha[0] = 2.0 * ((x[2] - x[1]) + (x[1] - x[0]));
+  for (int i = 1; i < m; i++) {
+    gamma[i - 1] = (x[i + 1] - x[i]) / alpha[i - 1];
+    alpha[i] = 2.0 * ((x[i + 2] - x[i + 1]) + (x[i + 1] - x[i])) - (x[i + 1] - x[i]) * gamma[i - 1];
+  }
+  for (int k = 0; k < N_Q; k++) {
+    const double *yk = y + (size_t)k * n;
+    double *c = M + (size_t)k * n + 1; /* c[i]: interior node i + 1, first z then c */
+    for (int i = 0; i < m; i++) {
+      const double h_i = x[i + 1] - x[i], h_next = x[i + 2] - x[i + 1];
+      const double g = 3.0 * ((yk[i + 2] - yk[i + 1]) * (1.0 / h_next) - (yk[i + 1] - yk[i]) * (1.0 / h_i));
+      c[i] = i == 0 ? g : g - gamma[i - 1] * c[i - 1];
+    }
+    for (int i = 0; i < m; i++) c[i] = c[i] / alpha[i];
+    for (int i = m - 2; i >= 0; i--) c[i] = c[i] - gamma[i] * c[i + 1];
+    for (int i = 0; i < m; i++) c[i] *= 2.0;
   }
 }
 
@@ -166,24 +229,30 @@ thermal_medium *jg__pt_thermal_medium_new(const jg_thermal *th, double x_first,
   tm->n = (int)ceil(-x_first * PT_NODES_PER_EFOLD) + PT_MARGIN_NODES + 1;
   tm->x0 = -(tm->n - 1) * tm->dx;
   const int n = tm->n;
-  double *x = malloc(sizeof(double) * (size_t)n * (1 + N_Q));
+  /* x, the N_Q ordinates, their curvatures, the elimination's two rows */
+  double *x = malloc(sizeof(double) * (size_t)n * (3 + 2 * N_Q));
   tm->poly = malloc(sizeof(double) * (size_t)(n - 1) * 4 * N_Q);
-  tm->node_rate = malloc(sizeof(double) * (size_t)(n - 1) * 3);
-  gsl_spline *sp = gsl_spline_alloc(gsl_interp_cspline, (size_t)n);
+  tm->node_rate = malloc(sizeof(double) * (size_t)(n - 1) * PT_NODE_VALUES);
   jg_status st = JG_OK;
-  if (!x || !tm->poly || !tm->node_rate || !sp)
+  if (!x || !tm->poly || !tm->node_rate)
     st = JG_FAIL(err, JG_ENOMEM, "perturbations: out of memory for the coefficient tables");
   if (st == JG_OK) {
     double *lq = x + n; /* lq[q * n + i] */
+    double *curv = lq + (size_t)N_Q * n, *work = curv + (size_t)N_Q * n;
+    gsl_interp_accel cursor = {0, 0, 0};
     for (int i = 0; i < n; i++) {
       x[i] = i == n - 1 ? 0.0 : tm->x0 + i * tm->dx;
       double q[N_Q];
-      thermal_coefficients(th, tm, x[i], q);
+      thermal_coefficients(th, tm, x[i], &cursor, q);
       for (int k = 0; k < N_Q; k++) {
         /* The rates p, d, r (power laws in a over decades) by their
-         * logarithms; e (negative), g (between 0 and 3/2) and the rest as
-         * thermal_coefficients gives them. */
+         * logarithms; q_r turns negative where x_e (helium's electrons
+         * included) falls faster than hydrogen relaxes, and q_b, q_T, q_v
+         * change sign too: all four by their asinh, logarithmic in size,
+         * linear through 0; e (negative), g (between 0 and 3/2) and the
+         * rest as thermal_coefficients gives them. */
         const int logarithmic = k < Q_EXPANSION;
+        const int signed_logarithmic = k >= Q_XE_RELAX && k <= Q_XE_EXPANSION;
         if (!isfinite(q[k]) || (logarithmic && !(q[k] > 0.0))) {
           st = JG_FAIL(err, JG_ENUMERIC,
                        "perturbations: coefficient %d of the medium is %g at z = %g (thermal "
@@ -191,34 +260,38 @@ thermal_medium *jg__pt_thermal_medium_new(const jg_thermal *th, double x_first,
                        k, q[k], exp(-x[i]) - 1.0);
           break;
         }
-        lq[k * n + i] = logarithmic ? log(q[k]) : q[k];
+        lq[k * n + i] = logarithmic ? log(q[k]) : signed_logarithmic ? asinh(q[k]) : q[k];
+        /* What a look-up at the node gives, kept so that one between nodes
+         * needs no exp or sinh of the node's term: the rate itself, and for
+         * the asinh-tabulated ones sinh and cosh of asinh(q), q itself and
+         * sqrt(1 + q^2). */
+        if (i == n - 1) continue;
+        double *stored = tm->node_rate + (size_t)i * PT_NODE_VALUES;
+        if (logarithmic) stored[k] = q[k];
+        if (signed_logarithmic) {
+          stored[PT_NODE_RATES + 2 * (k - Q_XE_RELAX)] = q[k];
+          const double a = fabs(q[k]); /* q^2 would overflow only past 1e154 */
+          stored[PT_NODE_RATES + 2 * (k - Q_XE_RELAX) + 1] = a < 1e150 ? sqrt(1.0 + a * a) : a;
+        }
       }
       if (st != JG_OK) break;
     }
+    if (st == JG_OK) natural_spline_curvatures(x, lq, n, curv, work);
     for (int k = 0; st == JG_OK && k < N_Q; k++) {
-      const double *yk = lq + k * n;
-      if (gsl_spline_init(sp, x, yk, (size_t)n) != GSL_SUCCESS) {
-        st = JG_FAIL(err, JG_ENUMERIC, "perturbations: cannot build the coefficient splines");
-        break;
-      }
-      /* Per-interval polynomial of GSL's natural cubic spline, from the
+      const double *yk = lq + (size_t)k * n, *Mk = curv + (size_t)k * n;
+      /* Per-interval polynomial of the natural cubic spline, from the
        * second derivatives at the nodes: y_i + b u + (M_i/2) u^2 +
        * (M_{i+1} - M_i)/(6h) u^3, b = (y_{i+1} - y_i)/h - h (2 M_i + M_{i+1})/6. */
-      double M_prev = gsl_spline_eval_deriv2(sp, x[0], NULL);
       for (int i = 0; i < n - 1; i++) {
         double h = x[i + 1] - x[i];
-        double M_next = (i + 1 == n - 1) ? 0.0 : gsl_spline_eval_deriv2(sp, x[i + 1], NULL);
         double *c = tm->poly + (size_t)i * 4 * N_Q + 4 * k;
         c[0] = yk[i];
-        c[1] = (yk[i + 1] - yk[i]) / h - h * (2.0 * M_prev + M_next) / 6.0;
-        c[2] = 0.5 * M_prev;
-        c[3] = (M_next - M_prev) / (6.0 * h);
-        if (k < Q_EXPANSION) tm->node_rate[(size_t)i * 3 + k] = exp(yk[i]);
-        M_prev = M_next;
+        c[1] = (yk[i + 1] - yk[i]) / h - h * (2.0 * Mk[i] + Mk[i + 1]) / 6.0;
+        c[2] = 0.5 * Mk[i];
+        c[3] = (Mk[i + 1] - Mk[i]) / (6.0 * h);
       }
     }
   }
-  gsl_spline_free(sp);
   free(x);
   if (st != JG_OK) {
     jg__pt_thermal_medium_free(tm);
@@ -226,4 +299,3 @@ thermal_medium *jg__pt_thermal_medium_new(const jg_thermal *th, double x_first,
   }
   return tm;
 }
-

@@ -1,9 +1,11 @@
 /*
  * Benchmark (not a test): the cost of one full ionisation and gas-temperature
- * history on the reference cosmology, and of the derived epochs, as the
- * median of many repeats; then the history again on denser stored grids, to
- * show what the node count costs now that the integration no longer stops at
- * every node. Prints per-item costs and ratios; asserts nothing.
+ * history on the reference cosmology, of the derived epochs and of the
+ * perturbations' coefficient tables built from the history (the default
+ * model, with the delta_xe terms), as the median of many repeats; then the
+ * history again on denser stored grids, to show what the node count costs
+ * now that the integration no longer stops at every node. Prints per-item
+ * costs and ratios; asserts nothing.
  *
  *   bench_history [REPEATS]
  */
@@ -56,6 +58,28 @@ static int time_history(const jg_params *p, int repeats, double *t_history, doub
   return 0;
 }
 
+/* Median seconds of the perturbation model (its coefficient tables) on one
+ * history. */
+static int time_tables(const jg_params *p, int repeats, double *t_tables, double *scratch) {
+  jg_error err;
+  jg_error_clear(&err);
+  jg_background *bg = jg_background_new(&p->cosmology, &err);
+  jg_thermal *th = bg ? jg_thermal_new(bg, &p->thermal, &err) : NULL;
+  int failed = th == NULL;
+  for (int r = 0; !failed && r < repeats; r++) {
+    double t0 = now_seconds();
+    jg_perturb_model *m = jg_perturb_model_new(th, &p->perturbations, NULL, &err);
+    scratch[r] = now_seconds() - t0;
+    failed = m == NULL;
+    jg_perturb_model_free(m);
+  }
+  if (failed) fprintf(stderr, "bench_history: %s\n", err.message);
+  else *t_tables = median(scratch, repeats);
+  jg_thermal_free(th);
+  jg_background_free(bg);
+  return failed;
+}
+
 int main(int argc, char **argv) {
   gsl_set_error_handler_off();
   int repeats = argc > 1 ? atoi(argv[1]) : 51;
@@ -74,6 +98,10 @@ int main(int argc, char **argv) {
   printf("epochs (z_star, z_drag, sound horizons, age, ...):      median %.3f ms\n",
          1e3 * t_epochs);
   printf("(z_star = %.2f as a sanity check)\n", e.z_star);
+  double t_tables;
+  if (time_tables(&p, repeats, &t_tables, scratch)) return 1;
+  printf("perturbation coefficient tables (default model):      median %.3f ms\n",
+         1e3 * t_tables);
   const int grids[] = {4000, 16000};
   for (size_t i = 0; i < sizeof grids / sizeof grids[0]; i++) {
     jg_params dense = p;
