@@ -221,9 +221,13 @@ typedef struct stream_run {
   double k2[PT_ROS_MAX_MODES], kv[PT_ROS_MAX_MODES]; /* k^2 and k v_par / v_rms */
   double *states;      /* [output][mode][dim] */
   int undefined_output;
-  /* The system's sparsity pattern and its entries' positions. */
+  /* The system's sparsity pattern, and for each of its entries where it
+   * comes from: the mode matrix's entry `source` (row-major n x n) of its
+   * diagonal block, or (source -1) the advection, `advection` per unit
+   * drift and k v_par / v_rms. */
   unsigned char pattern[PT_ROS_MAX_ENTRIES];
-  int n_entries, position[PT_ROS_MAX_ENTRIES];
+  int n_entries, source[PT_ROS_MAX_ENTRIES], in_order[PT_ROS_MAX_ENTRIES];
+  double advection[PT_ROS_MAX_ENTRIES];
 } stream_run;
 
 /* Error-scale groups: CDM and gas of each block (real and imaginary part;
@@ -262,23 +266,30 @@ static void stream_matrix(const stream_run *r, const double *M, double drift, do
 }
 
 /* The three parts of a streaming matrix, A_b = B0 + k_b^2 B1 + kv_b B2,
- * from the coefficients c and the drift (the mode matrix is affine in
- * k^2); B1 only where the system depends on k, B2 only where it advects. */
+ * entry by entry of the pattern, from the coefficients c and the drift
+ * (the mode matrix is affine in k^2; M_zero, when given, is subtracted
+ * from its k^2 = 0 part: the slope's constant term). */
 static void stream_parts(const stream_run *r, const jg_medium_coefficients *c, double drift,
                          const double *M_zero, double *B0, double *B1, double *B2) {
   const jg_perturb_model *m = r->sm->m;
   const int n = r->n;
-  double M0[PT_ROS_MAX_ENTRIES] = {0}, M1[PT_ROS_MAX_ENTRIES] = {0};
+  /* (Zeroed over n x n only: the arrays have room for the largest system.) */
+  double M0[PT_ROS_MAX_ENTRIES], M1[PT_ROS_MAX_ENTRIES];
+  memset(M0, 0, sizeof(double) * (size_t)(n * n));
+  memset(M1, 0, sizeof(double) * (size_t)(n * n));
   jg__pt_jac_mode(m, c, 0.0, M0, n, 0);
   if (r->sys != SYS_LIMIT) {
     jg__pt_jac_mode(m, c, 1.0, M1, n, 0);
     for (int i = 0; i < n * n; i++) M1[i] -= M0[i];
-    stream_matrix(r, M1, 0.0, B1);
   }
   if (M_zero)
     for (int i = 0; i < n * n; i++) M0[i] -= M_zero[i];
-  stream_matrix(r, M0, 0.0, B0);
-  if (r->sys != SYS_REAL) stream_matrix(r, NULL, drift, B2);
+  for (int e = 0; e < r->n_entries; e++) {
+    const int s = r->source[e];
+    B0[e] = s >= 0 ? M0[s] : 0.0;
+    B1[e] = s >= 0 ? M1[s] : 0.0;
+    B2[e] = s >= 0 ? 0.0 : r->advection[e] * drift;
+  }
 }
 
 static int stream_matrices(void *ctx, double x, double *A, double *dA, double *rate) {
@@ -293,7 +304,7 @@ static int stream_matrices(void *ctx, double x, double *A, double *dA, double *r
   const double *advection = r->sys == SYS_COMPLEX ? r->kv : unit;
   double B0[PT_ROS_MAX_ENTRIES], B1[PT_ROS_MAX_ENTRIES], B2[PT_ROS_MAX_ENTRIES];
   stream_parts(r, &c, drift, NULL, B0, B1, B2);
-  jg__ros_gather(r->n_entries, r->position, r->modes, B0, k_dependent ? B1 : NULL, r->k2,
+  jg__ros_gather(r->n_entries, r->in_order, r->modes, B0, k_dependent ? B1 : NULL, r->k2,
                  advected ? B2 : NULL, advection, A);
   if (rate) {
     double fastest = 0.0;
@@ -310,24 +321,41 @@ static int stream_matrices(void *ctx, double x, double *A, double *dA, double *r
      * -(2 + d ln H / d ln a) times it. */
     jg_medium_coefficients zero = {0};
     zero.baryon_fraction = c.baryon_fraction;
-    double M_zero[PT_ROS_MAX_ENTRIES] = {0};
+    double M_zero[PT_ROS_MAX_ENTRIES];
+    memset(M_zero, 0, sizeof(double) * (size_t)(r->n * r->n));
     jg__pt_jac_mode(sm->m, &zero, 0.0, M_zero, r->n, 0);
     stream_parts(r, &dc, -(2.0 + c.dlnH_dlna) * drift, M_zero, B0, B1, B2);
-    jg__ros_gather(r->n_entries, r->position, r->modes, B0, k_dependent ? B1 : NULL, r->k2,
+    jg__ros_gather(r->n_entries, r->in_order, r->modes, B0, k_dependent ? B1 : NULL, r->k2,
                    advected ? B2 : NULL, advection, dA);
   }
   return 0;
 }
 
-/* Which entries of the run's matrices can be non-zero. */
+/* Which entries of the run's matrices can be non-zero, and where each comes
+ * from (see stream_run), from the dense matrices at coefficients that are
+ * all non-zero: the blocks of the mode matrix at k^2 = 1, the advection at
+ * unit drift. */
 static void stream_pattern(stream_run *r) {
+  const int n = r->n, N = r->dim;
   jg_medium_coefficients c;
   jg__pt_structural_coefficients(&c);
-  double B0[PT_ROS_MAX_ENTRIES], B1[PT_ROS_MAX_ENTRIES] = {0}, B2[PT_ROS_MAX_ENTRIES] = {0};
-  stream_parts(r, &c, 1.0, NULL, B0, B1, B2);
-  for (int i = 0; i < r->dim * r->dim; i++)
-    r->pattern[i] = B0[i] != 0.0 || B1[i] != 0.0 || B2[i] != 0.0;
-  r->n_entries = jg__ros_entry_positions(r->dim, r->pattern, r->position);
+  double M[PT_ROS_MAX_ENTRIES] = {0}, blocks[PT_ROS_MAX_ENTRIES], advecting[PT_ROS_MAX_ENTRIES];
+  jg__pt_jac_mode(r->sm->m, &c, 1.0, M, n, 0);
+  stream_matrix(r, M, 0.0, blocks);
+  stream_matrix(r, NULL, 1.0, advecting);
+  r->n_entries = 0;
+  for (int i = 0; i < N; i++)
+    for (int j = 0; j < N; j++) {
+      const int at = i * N + j;
+      r->pattern[at] = blocks[at] != 0.0 || advecting[at] != 0.0;
+      if (!r->pattern[at]) continue;
+      const int e = r->n_entries++;
+      r->in_order[e] = e;
+      /* The advection couples different blocks, the mode matrix sits in
+       * the diagonal ones: never both. */
+      r->source[e] = i / n == j / n ? (i % n) * n + j % n : -1;
+      r->advection[e] = advecting[at];
+    }
 }
 
 static void stream_emit(void *ctx, int index, const double *y) {
