@@ -695,6 +695,56 @@ Test(good_runs, run_writes_four_tables_and_a_summary, .timeout = 120) {
   remove_dir(dir);
 }
 
+/* The data lines (not the comments) of a table file. */
+static char *data_lines(const char *path) {
+  char *text = read_text(path);
+  if (!text) return NULL;
+  char *out = calloc(strlen(text) + 1, 1), *o = out;
+  for (char *line = text; *line;) {
+    char *end = strchr(line, '\n');
+    size_t n = end ? (size_t)(end - line) + 1 : strlen(line);
+    if (line[0] != '#') memcpy(o, line, n), o += n;
+    line += n;
+  }
+  free(text);
+  return out;
+}
+
+/* `run` computes the growth grid on a second thread beside the scales when
+ * there are two cores: its tables must be those of `growth` and `scales`,
+ * which run on one, to the last digit. */
+Test(good_runs, run_tables_equal_the_single_commands, .timeout = 120) {
+  char dir[64];
+  make_temp_dir(dir, sizeof dir);
+  char folder[128], growth[128], scales[128];
+  snprintf(folder, sizeof folder, "%s/results", dir);
+  snprintf(growth, sizeof growth, "%s/growth.txt", dir);
+  snprintf(scales, sizeof scales, "%s/scales.txt", dir);
+  const char *run_args[] = {"run", REFERENCE, "--set", "perturbations.k_count=20", "--no-figures",
+                            "-o", folder, NULL};
+  const char *growth_args[] = {"growth", REFERENCE, "--set", "perturbations.k_count=20",
+                               "-o", growth, NULL};
+  const char *scales_args[] = {"scales", REFERENCE, "-o", scales, NULL};
+  const char *const *all[] = {run_args, growth_args, scales_args};
+  for (int i = 0; i < 3; i++) {
+    run_result r;
+    run(all[i], &r);
+    cr_assert(exited_with(&r, 0), "%s failed: %s", all[i][0], r.err);
+    run_free(&r);
+  }
+  const char *names[2] = {"growth.txt", "scales.txt"}, *single[2] = {growth, scales};
+  for (int i = 0; i < 2; i++) {
+    char path[192];
+    snprintf(path, sizeof path, "%s/%s", folder, names[i]);
+    char *a = data_lines(path), *b = data_lines(single[i]);
+    cr_assert(a && b && a[0], "%s missing", names[i]);
+    cr_expect(strcmp(a, b) == 0, "%s of run differs from the single command's", names[i]);
+    free(a);
+    free(b);
+  }
+  remove_dir(dir);
+}
+
 /* With Omega_b h^2 = 1e-5 the optical depth stays below 1 back to the start
  * (tests/test_epochs.c, absent_epochs): `run` succeeds, its summary says
  * "none" with the reason, and epochs.txt comments the missing lines out. */

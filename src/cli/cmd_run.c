@@ -6,6 +6,7 @@
  * was; each table is written to a temporary file and renamed into place.
  */
 #include <errno.h>
+#include <pthread.h>
 #include <signal.h>
 #include <stdio.h>
 #include <stdlib.h>
@@ -51,21 +52,73 @@ typedef struct run_results {
   int n_k;
 } run_results;
 
+/* The growth grid, on a thread of its own beside the scales (see
+ * compute_all): its own workspace, its own error record. */
+typedef struct growth_job {
+  const jg_params *p;
+  const jg_perturb_model *model;
+  run_results *r;
+  jg_status status;
+  jg_error err;
+} growth_job;
+
+static jg_status compute_growth(growth_job *job, jg_perturb_workspace *ws) {
+  const jg_params *p = job->p;
+  run_results *r = job->r;
+  jg_status st = jg_growth_grid_compute(job->model, ws, r->k, r->n_k, p->output.redshifts,
+                                        p->output.n_redshifts, &r->growth, &job->err);
+  if (st == JG_OK)
+    st = jg_growth_grid_add_streaming(r->growth, job->model, ws, &p->streaming, &job->err);
+  return st;
+}
+
+static void *growth_thread(void *arg) {
+  growth_job *job = arg;
+  jg_perturb_workspace *ws = jg_perturb_workspace_new(job->model, &job->err);
+  job->status = ws ? compute_growth(job, ws) : job->err.status;
+  jg_perturb_workspace_free(ws);
+  return NULL;
+}
+
+/* Two cores or more: the growth grid runs on a second thread while this one
+ * does the epochs and the scales (about 60 % and 40 % of the work at the
+ * reference parameters). Both read the model and the history, which are
+ * read-only once built, and write their own results; a batch of wavenumbers
+ * gives the same numbers on any thread, so the tables do not depend on it.
+ * The second thread takes no interrupts (they stay with this one, whose
+ * handler removes the temporary files). */
 static jg_status compute_all(const jg_params *p, const jg_thermal *th, jg_perturb_model *model,
                              jg_perturb_workspace *ws, run_results *r, jg_error *err) {
-  jg_status st = jg_epochs_compute(th, &r->epochs, err);
+  r->k = malloc(sizeof(double) * JG_MAX_WAVENUMBERS);
+  if (!r->k) return JG_FAIL(err, JG_ENOMEM, "out of memory for the wavenumbers");
+  jg_status st = jg_perturb_wavenumbers(&p->perturbations, r->k, &r->n_k, err);
+  if (st != JG_OK) return st;
+  growth_job job = {p, model, r, JG_OK, {0}};
+  jg_error_clear(&job.err);
+  pthread_t worker;
+  int parallel = sysconf(_SC_NPROCESSORS_ONLN) > 1;
+  if (parallel) {
+    sigset_t interrupts, saved;
+    sigemptyset(&interrupts);
+    sigaddset(&interrupts, SIGINT);
+    sigaddset(&interrupts, SIGTERM);
+    pthread_sigmask(SIG_BLOCK, &interrupts, &saved);
+    parallel = pthread_create(&worker, NULL, growth_thread, &job) == 0;
+    pthread_sigmask(SIG_SETMASK, &saved, NULL);
+  }
+  st = jg_epochs_compute(th, &r->epochs, err);
   if (st == JG_OK)
     st = jg_scales_compute(model, ws, p->output.redshifts, p->output.n_redshifts, r->scales, err);
   if (st == JG_OK)
     st = jg_scales_add_streaming(model, ws, &p->streaming, p->output.redshifts,
                                  p->output.n_redshifts, r->scales, err);
-  r->k = malloc(sizeof(double) * JG_MAX_WAVENUMBERS);
-  if (!r->k) return JG_FAIL(err, JG_ENOMEM, "out of memory for the wavenumbers");
-  if (st == JG_OK) st = jg_perturb_wavenumbers(&p->perturbations, r->k, &r->n_k, err);
-  if (st == JG_OK)
-    st = jg_growth_grid_compute(model, ws, r->k, r->n_k, p->output.redshifts,
-                                p->output.n_redshifts, &r->growth, err);
-  if (st == JG_OK) st = jg_growth_grid_add_streaming(r->growth, model, ws, &p->streaming, err);
+  if (parallel) pthread_join(worker, NULL);
+  else if (st == JG_OK) job.status = compute_growth(&job, ws);
+  /* The first failure in the order of the sequential run is the one told. */
+  if (st == JG_OK && job.status != JG_OK) {
+    *err = job.err;
+    st = job.status;
+  }
   return st;
 }
 
