@@ -273,29 +273,23 @@ ROS_INLINE int factorise(pt_ros_work *w, const double *A, double fac, int n, con
   return fine;
 }
 
+/* x_i -= sum over the listed columns j of row i of LU_ij x_j (the columns
+ * of row i in [start[i], start[i + 1]) of `columns`). */
+ROS_INLINE void subtract_known(const pt_ros_work *w, const int *start, const int *columns, int i,
+                               int n, const int M, double *restrict x) {
+  for (int c = start[i]; c < start[i + 1]; c++) {
+    const int j = columns[c];
+    row_subtract_product(x + i * M, w->LU + (i * n + j) * M, x + j * M, M);
+  }
+}
+
 /* One stage: solve (1/(h gamma) - A0) U = rhs for every mode, in place in
  * rhs, with the factors (forward, then backward substitution). */
 ROS_INLINE void solve_all(const pt_ros_work *w, int n, const int M, double *restrict x) {
-  const double *restrict LU = w->LU;
-  for (int i = 1; i < n; i++) {
-    double *restrict xi = x + i * M;
-    for (int c = w->l_row_start[i]; c < w->l_row_start[i + 1]; c++) {
-      const int k = w->l_row_cols[c];
-      const double *restrict l = LU + (i * n + k) * M;
-      const double *restrict xk = x + k * M;
-      row_subtract_product(xi, l, xk, M);
-    }
-  }
+  for (int i = 1; i < n; i++) subtract_known(w, w->l_row_start, w->l_row_cols, i, n, M, x);
   for (int i = n - 1; i >= 0; i--) {
-    double *restrict xi = x + i * M;
-    for (int c = w->u_row_start[i]; c < w->u_row_start[i + 1]; c++) {
-      const int j = w->u_row_cols[c];
-      const double *restrict u = LU + (i * n + j) * M;
-      const double *restrict xj = x + j * M;
-      row_subtract_product(xi, u, xj, M);
-    }
-    const double *restrict inverse = w->inverse_pivot + i * M;
-    row_multiply(xi, inverse, M);
+    subtract_known(w, w->u_row_start, w->u_row_cols, i, n, M, x);
+    row_multiply(x + i * M, w->inverse_pivot + i * M, M);
   }
 }
 
