@@ -216,20 +216,22 @@ static int coefficients_and_slope(const jg_perturb_model *m, double x, jg_medium
  * A(k^2) = A(0) + k^2 (A(1) - A(0)), two matrices per x for the whole
  * batch (one, built at its k^2, for a lone mode); and affine in the
  * coefficients, so dA/dx = A(c') - A(c = 0). */
+static void matrix_parts(const ros_run *r, const jg_medium_coefficients *c, int by_parts,
+                         double *B0, double *B1) {
+  r->type->matrix(r->m, c, by_parts ? 0.0 : r->k2[0], B0);
+  if (!by_parts) return;
+  r->type->matrix(r->m, c, 1.0, B1);
+  for (int i = 0; i < r->dim * r->dim; i++) B1[i] -= B0[i];
+}
+
 static int ros_matrices(void *ctx, double x, double *A, double *dA, double *rate) {
   ros_run *r = ctx;
   const jg_perturb_model *m = r->m;
   jg_medium_coefficients c, dc = {0};
   if (coefficients_and_slope(m, x, &c, dA ? &dc : NULL) != 0) return 1;
-  const int nn = r->dim * r->dim;
   const int by_parts = r->type->k_dependent && r->n_modes > 1;
-  const double k2 = by_parts ? 0.0 : r->k2[0];
   double B0[PT_ROS_MAX_ENTRIES], B1[PT_ROS_MAX_ENTRIES];
-  r->type->matrix(m, &c, k2, B0);
-  if (by_parts) {
-    r->type->matrix(m, &c, 1.0, B1);
-    for (int i = 0; i < nn; i++) B1[i] -= B0[i];
-  }
+  matrix_parts(r, &c, by_parts, B0, B1);
   jg__ros_gather(r->n_entries, r->position, r->n_modes, B0, by_parts ? B1 : NULL, r->k2, NULL,
                  NULL, A);
   /* The rates grow with k^2: the batch's largest k bounds them all. */
@@ -243,12 +245,8 @@ static int ros_matrices(void *ctx, double x, double *A, double *dA, double *rate
       r->type->matrix(m, &zero, 0.0, r->A_zero);
       r->zero_fb = c.baryon_fraction;
     }
-    r->type->matrix(m, &dc, k2, B0);
-    if (by_parts) {
-      r->type->matrix(m, &dc, 1.0, B1);
-      for (int i = 0; i < nn; i++) B1[i] -= B0[i];
-    }
-    for (int i = 0; i < nn; i++) B0[i] -= r->A_zero[i];
+    matrix_parts(r, &dc, by_parts, B0, B1);
+    for (int i = 0; i < r->dim * r->dim; i++) B0[i] -= r->A_zero[i];
     jg__ros_gather(r->n_entries, r->position, r->n_modes, B0, by_parts ? B1 : NULL, r->k2,
                    NULL, NULL, dA);
   }
@@ -271,7 +269,8 @@ static const char *ros_failure(int code) {
   switch (code) {
     case PT_ROS_UNDEFINED: return "medium undefined";
     case PT_ROS_TOO_MANY: return "too many steps";
-    case PT_ROS_TOO_SMALL: return "step size underflow (non-finite state)";
+    case PT_ROS_TOO_SMALL:
+      return "step size underflow (non-finite state, or no step matrix that factorises)";
     default: return "bad integrator input";
   }
 }

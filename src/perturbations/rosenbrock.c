@@ -181,13 +181,6 @@ void jg__ros_gather(int n_entries, const int *position, int n_modes, const doubl
     for (int e = 0; e < n_entries; e++) A[e] = B0[position[e]];
     return;
   }
-  if (!B1 && !B2) { /* one matrix for every mode */
-    for (int e = 0; e < n_entries; e++) {
-      const double b0 = B0[position[e]];
-      for (int b = 0; b < n_modes; b++) A[(size_t)e * n_modes + b] = b0;
-    }
-    return;
-  }
   for (int e = 0; e < n_entries; e++) {
     const int at = position[e];
     const double b0 = B0[at], b1 = B1 ? B1[at] : 0.0, b2 = B2 ? B2[at] : 0.0;
@@ -375,8 +368,7 @@ static int stiff_outputs(const pt_ros_problem *p, pt_ros_work *w, double x, doub
     const double t = (x_out[next] - x) / h;
     for (int i = 0; i < len; i++)
       w->yout[i] = (1.0 - t) * w->y[i] + t * (w->ynew[i] + (1.0 - t) * (q1[i] + t * q2[i]));
-    by_mode(w->yout, w->by_mode, n, M);
-    p->emit(p->ctx, next++, w->by_mode);
+    emit_output(p, w, next++, w->yout, n, M);
   }
   return next;
 }

@@ -300,7 +300,8 @@ static int stream_matrices(void *ctx, double x, double *A, double *dA, double *r
   const double drift = r->sys == SYS_REAL ? 0.0 : jg_stream_drift(sm, x);
   const int k_dependent = r->sys != SYS_LIMIT, advected = r->sys != SYS_REAL;
   /* The limit system's advection is per unit k_ref (in its matrix). */
-  const double unit[PT_ROS_MAX_MODES] = {1, 1, 1, 1, 1, 1, 1, 1};
+  double unit[PT_ROS_MAX_MODES];
+  for (int b = 0; b < PT_ROS_MAX_MODES; b++) unit[b] = 1.0;
   const double *advection = r->sys == SYS_COMPLEX ? r->kv : unit;
   double B0[PT_ROS_MAX_ENTRIES], B1[PT_ROS_MAX_ENTRIES], B2[PT_ROS_MAX_ENTRIES];
   stream_parts(r, &c, drift, NULL, B0, B1, B2);
