@@ -392,7 +392,11 @@ typedef struct any_dim {
   int n, modes;
   const unsigned char *pattern; /* the entries written (NULL: all) */
   any_dim_outputs *out;
+  int distinct; /* lanes from this one on repeat the mode before (0: every lane its own) */
 } any_dim;
+static int any_dim_mode(const any_dim *s, int lane) {
+  return s->distinct > 0 && lane >= s->distinct ? s->distinct - 1 : lane;
+}
 static int any_dim_matrices(void *ctx, double x, double *A, double *dA, double *rate) {
   const any_dim *s = ctx;
   const int n = s->n, M = s->modes;
@@ -401,12 +405,13 @@ static int any_dim_matrices(void *ctx, double x, double *A, double *dA, double *
   for (int i = 0; i < n; i++)
     for (int j = 0; j < n; j++) {
       if (s->pattern && !s->pattern[i * n + j]) continue;
-      for (int b = 0; b < M; b++) {
+      for (int lane = 0; lane < M; lane++) {
+        const int b = any_dim_mode(s, lane);
         const double decay = i == j ? -0.5 * pow(10.0, 5.0 * i / n) * (1.0 + 0.3 * b) : 0.0;
         const double coupling = abs(i - j) == 1 ? sin(1.0 + i + 2.0 * j + 3.0 * b)
                                 : j == (i + 3) % n ? 0.1 * cos(i + b) : 0.0;
-        A[e * M + b] = decay * exp(-4.0 * x) + coupling * (1.0 + x);
-        if (dA) dA[e * M + b] = -4.0 * decay * exp(-4.0 * x) + coupling;
+        A[e * M + lane] = decay * exp(-4.0 * x) + coupling * (1.0 + x);
+        if (dA) dA[e * M + lane] = -4.0 * decay * exp(-4.0 * x) + coupling;
         fastest = fmax(fastest, fabs(decay) * exp(-4.0 * x) + 2.0 * (1.0 + x));
       }
       e++;
@@ -425,25 +430,31 @@ static void any_dim_collect(void *ctx, int index, const double *y) {
   memcpy(c->y[index], y, sizeof(double) * (size_t)c->len);
 }
 
-/* One solve of the demo system; returns the end state in y. */
-static void any_dim_solve(int n, int modes, const unsigned char *pattern, int generic,
-                          pt_ros_work *w, any_dim_outputs *out, double *y) {
+/* One solve of the demo system (the lanes from `distinct` on copies of the
+ * mode before; 0: none); returns the end state in y. */
+static void any_dim_solve_lanes(int n, int modes, int distinct, const unsigned char *pattern,
+                                int generic, pt_ros_work *w, any_dim_outputs *out, double *y) {
   enum { N_OUT = 40 };
   double x_out[N_OUT];
   for (int i = 0; i < N_OUT; i++) x_out[i] = 0.02 + 3.0 * i / N_OUT;
-  any_dim s = {n, modes, pattern, out};
+  any_dim s = {n, modes, pattern, out, distinct};
   int group[PT_ROS_MAX_DIM];
   for (int i = 0; i < n; i++) group[i] = i / 3;
   memset(out, 0, sizeof *out);
   out->len = n * modes;
   pt_ros_problem p = {n, modes, any_dim_matrices, any_dim_collect, &s, group,
                       1e-9, 1e-12, 0.5, 0.5, 100000, pattern, NULL};
-  for (int i = 0; i < n * modes; i++) y[i] = 1.0 + 0.25 * cos(i);
+  for (int lane = 0; lane < modes; lane++)
+    for (int i = 0; i < n; i++) y[lane * n + i] = 1.0 + 0.25 * cos(any_dim_mode(&s, lane) * n + i);
   double fail;
   memset(&w->stats, 0, sizeof w->stats);
   const int code = generic ? jg__ros_integrate_generic(&p, w, 0.0, y, x_out, N_OUT, &fail)
                            : jg__ros_integrate(&p, w, 0.0, y, x_out, N_OUT, &fail);
   cr_assert_eq(code, PT_ROS_OK, "dimension %d, %d modes: code %d at x = %g", n, modes, code, fail);
+}
+static void any_dim_solve(int n, int modes, const unsigned char *pattern, int generic,
+                          pt_ros_work *w, any_dim_outputs *out, double *y) {
+  any_dim_solve_lanes(n, modes, 0, pattern, generic, w, out, y);
 }
 
 /* jg__ros_integrate runs a copy compiled for each common batch size
@@ -451,7 +462,7 @@ static void any_dim_solve(int n, int modes, const unsigned char *pattern, int ge
  * bit (the same arithmetic in the same order; a compiler that reordered or
  * fused it would show here), with the same steps and rejections. */
 Test(integrator, compiled_copies_match_the_generic_one_exactly) {
-  static const int dims[] = {4, 6, 12, 18}, batch[] = {1, PT_ROS_MAX_MODES};
+  static const int dims[] = {4, 6, 12, 18}, batch[] = {1, PT_ROS_HALF_BATCH, PT_ROS_MAX_MODES};
   static any_dim_outputs fast, generic;
   static pt_ros_work work_generic;
   for (size_t d = 0; d < sizeof dims / sizeof *dims; d++)
@@ -470,6 +481,32 @@ Test(integrator, compiled_copies_match_the_generic_one_exactly) {
       cr_assert(memcmp(fast.y, generic.y, sizeof fast.y) == 0,
                 "dimension %d, %d modes: outputs differ", n, modes);
     }
+}
+
+/* A batch of a size without a compiled copy is padded to one with copies of
+ * its last mode (jg__ros_lanes): the padded batch must give its real modes
+ * the unpadded batch's numbers to the last bit, with the same steps (the
+ * copies repeat the largest error, they never raise it). */
+Test(integrator, padding_with_copies_changes_nothing) {
+  static any_dim_outputs padded, plain;
+  static pt_ros_work work_plain;
+  for (int modes = 2; modes < PT_ROS_MAX_MODES; modes++) {
+    const int n = 6, lanes = jg__ros_lanes(modes);
+    if (lanes == modes) continue;
+    cr_assert(lanes > modes && lanes <= PT_ROS_MAX_MODES);
+    unsigned char pattern[PT_ROS_MAX_ENTRIES];
+    any_dim_pattern(n, pattern);
+    double y_padded[PT_ROS_MAX_LEN], y_plain[PT_ROS_MAX_LEN];
+    any_dim_solve_lanes(n, lanes, modes, pattern, 0, &work, &padded, y_padded);
+    any_dim_solve_lanes(n, modes, 0, pattern, 1, &work_plain, &plain, y_plain);
+    cr_assert_eq(work.stats.steps, work_plain.stats.steps, "%d modes in %d lanes", modes, lanes);
+    cr_assert_eq(work.stats.rejected, work_plain.stats.rejected, "%d modes", modes);
+    cr_assert(memcmp(y_padded, y_plain, sizeof(double) * (size_t)(n * modes)) == 0,
+              "%d modes in %d lanes: end states differ", modes, lanes);
+    for (int o = 0; o < 40; o++)
+      cr_assert(memcmp(padded.y[o], plain.y[o], sizeof(double) * (size_t)(n * modes)) == 0,
+                "%d modes in %d lanes: output %d differs", modes, lanes, o);
+  }
 }
 
 /* The pattern decides which entries are worked on, not the result: the

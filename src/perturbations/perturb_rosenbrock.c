@@ -150,7 +150,9 @@ static double fastest_rate(const jg_perturb_model *m, const jg_medium_coefficien
 typedef struct ros_run {
   const jg_perturb_model *m;
   const pt_system_type *type;
-  int dim, n_modes;
+  int dim;
+  int n_modes, n_lanes; /* the modes asked for; the integrator's lanes, the ones beyond
+                           n_modes copies of the last mode (jg__ros_lanes) */
   double k[PT_ROS_MAX_MODES], k2[PT_ROS_MAX_MODES], k2_max;
   const double *z;     /* requested redshifts, in the caller's order */
   const int *order;    /* the n-th output is z[order[n]] */
@@ -229,10 +231,10 @@ static int ros_matrices(void *ctx, double x, double *A, double *dA, double *rate
   const jg_perturb_model *m = r->m;
   jg_medium_coefficients c, dc = {0};
   if (coefficients_and_slope(m, x, &c, dA ? &dc : NULL) != 0) return 1;
-  const int by_parts = r->type->k_dependent && r->n_modes > 1;
+  const int by_parts = r->type->k_dependent && r->n_lanes > 1;
   double B0[PT_ROS_MAX_ENTRIES], B1[PT_ROS_MAX_ENTRIES];
   matrix_parts(r, &c, by_parts, B0, B1);
-  jg__ros_gather(r->n_entries, r->position, r->n_modes, B0, by_parts ? B1 : NULL, r->k2, NULL,
+  jg__ros_gather(r->n_entries, r->position, r->n_lanes, B0, by_parts ? B1 : NULL, r->k2, NULL,
                  NULL, A);
   /* The rates grow with k^2: the batch's largest k bounds them all. */
   if (rate) *rate = fastest_rate(m, &c, r->k2_max);
@@ -247,7 +249,7 @@ static int ros_matrices(void *ctx, double x, double *A, double *dA, double *rate
     }
     matrix_parts(r, &dc, by_parts, B0, B1);
     for (int i = 0; i < r->dim * r->dim; i++) B0[i] -= r->A_zero[i];
-    jg__ros_gather(r->n_entries, r->position, r->n_modes, B0, by_parts ? B1 : NULL, r->k2,
+    jg__ros_gather(r->n_entries, r->position, r->n_lanes, B0, by_parts ? B1 : NULL, r->k2,
                    NULL, NULL, dA);
   }
   return 0;
@@ -286,23 +288,29 @@ static jg_status ros_solve(const jg_perturb_model *m, jg_perturb_workspace *w,
   r.type = type;
   r.dim = type->dimension(m);
   r.n_modes = n;
+  r.n_lanes = jg__ros_lanes(n);
   r.z = z;
   r.order = w->order;
   r.zero_fb = NAN;
   system_pattern(m, type, r.dim, r.pattern);
   r.n_entries = jg__ros_entry_positions(r.dim, r.pattern, r.position);
   double y[PT_ROS_MAX_MODES * PT_ROS_MAX_DIM];
-  for (int b = 0; b < n; b++) {
+  for (int b = 0; b < r.n_lanes; b++) {
     jg_status st = JG_OK;
-    r.k[b] = k[b];
-    r.k2[b] = k[b] * k[b];
+    const int mode = b < n ? b : n - 1;
+    r.k[b] = k[mode];
+    r.k2[b] = k[mode] * k[mode];
     if (r.k2[b] > r.k2_max) r.k2_max = r.k2[b];
-    r.out[b] = out[b];
-    type->start(m, k[b], y + b * r.dim, err, &st);
+    if (b < n) {
+      r.out[b] = out[b];
+      type->start(m, k[b], y + b * r.dim, err, &st);
+    } else {
+      memcpy(y + b * r.dim, y + mode * r.dim, sizeof(double) * (size_t)r.dim);
+    }
     if (st != JG_OK) return st;
   }
   for (int i = 0; i < n_z; i++) w->x_out[i] = -log1p(z[w->order[i]]);
-  const pt_ros_problem p = {r.dim, n, ros_matrices, ros_emit, &r, type->group,
+  const pt_ros_problem p = {r.dim, r.n_lanes, ros_matrices, ros_emit, &r, type->group,
                             PT_ROS_TOLERANCE_SCALE * m->settings.rel_tol,
                             PT_ROS_TOLERANCE_SCALE * m->settings.abs_tol, PT_ROS_FIRST_STEP, PT_ROS_MAX_STEP,
                             PT_MAX_STEPS, r.pattern, type->group_scaled};

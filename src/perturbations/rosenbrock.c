@@ -82,55 +82,56 @@ static const double E31 = -0.6762803392801253e+00, E32 = 0.6087714651680015e+01,
 /* The operations on one row of the batch (M modes side by side, M fixed in
  * each compiled copy). GCC unrolls the plain loops of a full batch into
  * scalar code, unsure that the rows do not overlap (they never do: distinct
- * rows of the workspace's arrays); for a full batch they are written with
- * GNU C vector types instead, which it maps onto the widest registers the
- * copy is compiled for. The same operations in the same order either way. */
+ * rows of the workspace's arrays); for the batch sizes with a compiled copy
+ * (4 and 8 modes) they are written with GNU C vector types instead, which it
+ * maps onto the widest registers the copy is compiled for. The same
+ * operations in the same order either way. */
 #if defined(__GNUC__) && PT_ROS_MAX_MODES == 8
 #define ROS_ROWS 1
 typedef double ros_row __attribute__((vector_size(8 * sizeof(double))));
+typedef double ros_half_row __attribute__((vector_size(4 * sizeof(double))));
 /* (Through memcpy: the rows need not be aligned to the vector's size; and
  * no vector crosses a function boundary, whose convention depends on the
  * processor.) */
-#define ROW_OPERATION(expression, y, a, x)                                   \
+#define ROW_OPERATION_AS(type, expression, y, a, x)                          \
   do {                                                                       \
-    ros_row vy_, va_, vx_;                                                   \
+    type vy_, va_, vx_;                                                      \
     memcpy(&vy_, (y), sizeof vy_);                                           \
     memcpy(&va_, (a), sizeof va_);                                           \
     memcpy(&vx_, (x), sizeof vx_);                                           \
     vy_ = (expression);                                                      \
     memcpy((y), &vy_, sizeof vy_);                                           \
   } while (0)
+/* The row operation as a vector for the two compiled batch sizes (returns
+ * from the calling function), else nothing: the plain loop follows. */
+#define ROW_OPERATION(expression, y, a, x, M)                                \
+  do {                                                                       \
+    if ((M) == PT_ROS_MAX_MODES) {                                           \
+      ROW_OPERATION_AS(ros_row, expression, y, a, x);                        \
+      return;                                                                \
+    }                                                                        \
+    if ((M) == PT_ROS_HALF_BATCH) {                                          \
+      ROW_OPERATION_AS(ros_half_row, expression, y, a, x);                   \
+      return;                                                                \
+    }                                                                        \
+  } while (0)
 #else
 #define ROS_ROWS 0
+#define ROW_OPERATION(expression, y, a, x, M) ((void)0)
 #endif
 
 ROS_INLINE void row_subtract_product(double *restrict y, const double *restrict a,
                                      const double *restrict x, const int M) {
-#if ROS_ROWS
-  if (M == PT_ROS_MAX_MODES) {
-    ROW_OPERATION(vy_ - va_ * vx_, y, a, x);
-    return;
-  }
-#endif
+  ROW_OPERATION(vy_ - va_ * vx_, y, a, x, M);
   for (int b = 0; b < M; b++) y[b] -= a[b] * x[b];
 }
 ROS_INLINE void row_add_product(double *restrict y, const double *restrict a,
                                 const double *restrict x, const int M) {
-#if ROS_ROWS
-  if (M == PT_ROS_MAX_MODES) {
-    ROW_OPERATION(vy_ + va_ * vx_, y, a, x);
-    return;
-  }
-#endif
+  ROW_OPERATION(vy_ + va_ * vx_, y, a, x, M);
   for (int b = 0; b < M; b++) y[b] += a[b] * x[b];
 }
 ROS_INLINE void row_multiply(double *restrict y, const double *restrict a, const int M) {
-#if ROS_ROWS
-  if (M == PT_ROS_MAX_MODES) {
-    ROW_OPERATION(vy_ * va_, y, a, a);
-    return;
-  }
-#endif
+  ROW_OPERATION(vy_ * va_, y, a, a, M);
   for (int b = 0; b < M; b++) y[b] *= a[b];
 }
 
@@ -164,18 +165,28 @@ void jg__ros_gather(int n_entries, const int *position, int n_modes, const doubl
                     const double *B1, const double *s1, const double *B2, const double *s2,
                     double *restrict A) {
 #if ROS_ROWS
-  if (n_modes == PT_ROS_MAX_MODES) { /* a full batch: whole rows at once */
-    ros_row r1 = {0}, r2 = {0};
-    if (B1) memcpy(&r1, s1, sizeof r1);
-    if (B2) memcpy(&r2, s2, sizeof r2);
-    for (int e = 0; e < n_entries; e++) {
-      const int at = position[e];
-      const double b1 = B1 ? B1[at] : 0.0, b2 = B2 ? B2[at] : 0.0;
-      ros_row a = B0[at] + r1 * b1 + r2 * b2;
-      memcpy(A + (size_t)e * n_modes, &a, sizeof a);
-    }
+  /* The batch sizes with a compiled copy: whole rows at once. */
+#define GATHER_ROWS(type)                                                    \
+  do {                                                                       \
+    type r1 = {0}, r2 = {0};                                                 \
+    if (B1) memcpy(&r1, s1, sizeof r1);                                      \
+    if (B2) memcpy(&r2, s2, sizeof r2);                                      \
+    for (int e = 0; e < n_entries; e++) {                                    \
+      const int at = position[e];                                            \
+      const double b1 = B1 ? B1[at] : 0.0, b2 = B2 ? B2[at] : 0.0;           \
+      type a = B0[at] + r1 * b1 + r2 * b2;                                   \
+      memcpy(A + (size_t)e * n_modes, &a, sizeof a);                         \
+    }                                                                        \
+  } while (0)
+  if (n_modes == PT_ROS_MAX_MODES) {
+    GATHER_ROWS(ros_row);
     return;
   }
+  if (n_modes == PT_ROS_HALF_BATCH) {
+    GATHER_ROWS(ros_half_row);
+    return;
+  }
+#undef GATHER_ROWS
 #endif
   if (n_modes == 1 && !B1 && !B2) { /* a lone mode at its own k, the limit system */
     for (int e = 0; e < n_entries; e++) A[e] = B0[position[e]];
@@ -568,8 +579,9 @@ undefined:
 ROS_CLONES
 int jg__ros_integrate(const pt_ros_problem *p, pt_ros_work *w, double x0, double *y,
                       const double *x_out, int n_out, double *x_fail) {
-  switch (p->n_modes) { /* a lone mode, and the full batches of a k grid */
+  switch (p->n_modes) { /* a lone mode, and the batch sizes ros_lanes pads to */
     case 1: return integrate(p, w, x0, y, x_out, n_out, x_fail, 1);
+    case PT_ROS_HALF_BATCH: return integrate(p, w, x0, y, x_out, n_out, x_fail, PT_ROS_HALF_BATCH);
     case PT_ROS_MAX_MODES: return integrate(p, w, x0, y, x_out, n_out, x_fail, PT_ROS_MAX_MODES);
     default: return jg__ros_integrate_generic(p, w, x0, y, x_out, n_out, x_fail);
   }

@@ -79,6 +79,20 @@
 #define PT_ROS_MAX_MODES 8
 #define PT_ROS_MAX_ENTRIES (PT_ROS_MAX_DIM * PT_ROS_MAX_DIM)
 #define PT_ROS_MAX_LEN (PT_ROS_MAX_MODES * PT_ROS_MAX_DIM)
+/* The batch sizes with a copy of the integrator compiled for them (vector
+ * arithmetic over the modes): 1, PT_ROS_HALF_BATCH and PT_ROS_MAX_MODES.
+ * Any other size runs the generic copy, several times slower per mode. */
+#define PT_ROS_HALF_BATCH 4
+
+/* The lanes to give a batch of n modes (1 <= n <= PT_ROS_MAX_MODES): n
+ * rounded up to a compiled batch size. The caller fills the extra lanes
+ * with copies of a mode of the batch and ignores their outputs: a copy
+ * changes nothing for the others (the step is accepted on the largest
+ * error over the modes, which a copy repeats, and each lane's arithmetic
+ * is its own), while the batch runs the compiled copy. */
+static inline int jg__ros_lanes(int n) {
+  return n <= 1 ? 1 : n <= PT_ROS_HALF_BATCH ? PT_ROS_HALF_BATCH : PT_ROS_MAX_MODES;
+}
 
 /* The matrices of every mode of the batch at x, in the integrator's layout:
  * A[e * n_modes + b] is entry e of mode b, the entries e being the
