@@ -26,6 +26,7 @@
 #include "rosenbrock.h"
 
 #include <math.h>
+#include <stdint.h>
 #include <string.h>
 
 /* RODAS (Hairer & Wanner 1996), method coefficients. */
@@ -130,6 +131,21 @@ ROS_INLINE void row_add_product(double *restrict y, const double *restrict a,
   ROW_OPERATION(vy_ + va_ * vx_, y, a, x, M);
   for (int b = 0; b < M; b++) y[b] += a[b] * x[b];
 }
+/* y = a x + 0: the first term of a sum that starts at zero (the same
+ * number, signed zeros included, as 0 + a x). */
+ROS_INLINE void row_start_product(double *restrict y, const double *restrict a,
+                                  const double *restrict x, const int M) {
+  ROW_OPERATION(va_ * vx_ + 0.0, y, a, x, M);
+  for (int b = 0; b < M; b++) y[b] = a[b] * x[b] + 0.0;
+}
+ROS_INLINE void row_negate(double *restrict y, const double *restrict a, const int M) {
+  ROW_OPERATION(-va_, y, a, a, M);
+  for (int b = 0; b < M; b++) y[b] = -a[b];
+}
+ROS_INLINE void row_add_number(double *restrict y, double number, const int M) {
+  ROW_OPERATION(vy_ + number, y, y, y, M);
+  for (int b = 0; b < M; b++) y[b] += number;
+}
 ROS_INLINE void row_multiply(double *restrict y, const double *restrict a, const int M) {
   ROW_OPERATION(vy_ * va_, y, a, a, M);
   for (int b = 0; b < M; b++) y[b] *= a[b];
@@ -200,11 +216,12 @@ void jg__ros_gather(int n_entries, const int *position, int n_modes, const doubl
   }
 }
 
-/* The structure of a solve: the entries of A, the fill pattern of the
- * factors of (1/(h gamma)) I - A without row interchanges (the diagonal is
- * always there), and the index lists the factorisation and the solves walk.
- * Once per solve: O(dim^3) with dim <= 18. */
-static void find_structure(const pt_ros_problem *p, pt_ros_work *w) {
+/* The structure of a solve for a batch of M modes: the entries of A, the
+ * fill pattern of the factors of (1/(h gamma)) I - A without row
+ * interchanges (the diagonal is always there), and the lists of row
+ * operations the factorisation, the solves and the products walk
+ * (rosenbrock.h). Once per solve: O(dim^3) with dim <= 18. */
+static void find_structure(const pt_ros_problem *p, pt_ros_work *w, int M) {
   const int n = p->dim;
   unsigned char fill[PT_ROS_MAX_ENTRIES];
   int position[PT_ROS_MAX_ENTRIES];
@@ -213,10 +230,25 @@ static void find_structure(const pt_ros_problem *p, pt_ros_work *w) {
   for (int i = 0; i < n; i++) w->diagonal_entry[i] = -1, fill[i * n + i] = 1;
   for (int e = 0; e < w->n_entries; e++) {
     const int i = position[e] / n, j = position[e] % n;
-    w->entry_row[e] = i, w->entry_col[e] = j;
+    w->entry_factor[e] = position[e] * M;
     if (i == j) w->diagonal_entry[i] = e;
     fill[position[e]] = 1;
   }
+  /* The product's terms: each row's first, then the others in order. */
+  int n_terms = 0, row_has[PT_ROS_MAX_DIM] = {0};
+  for (int pass = 0; pass < 2; pass++)
+    for (int e = 0; e < w->n_entries; e++) {
+      const int i = position[e] / n, first = e == 0 || position[e - 1] / n != i;
+      if (first != (pass == 0)) continue;
+      w->product_entry[n_terms] = e * M;
+      w->product_out[n_terms] = i * M;
+      w->product_in[n_terms++] = (position[e] % n) * M;
+      row_has[i] = 1;
+      if (first) w->n_row_starts = n_terms;
+    }
+  w->n_empty_rows = 0;
+  for (int i = 0; i < n; i++)
+    if (!row_has[i]) w->empty_row[w->n_empty_rows++] = i * M;
   for (int k = 0; k < n; k++)
     for (int i = k + 1; i < n; i++)
       if (fill[i * n + k])
@@ -224,18 +256,43 @@ static void find_structure(const pt_ros_problem *p, pt_ros_work *w) {
           if (fill[k * n + j]) fill[i * n + j] = 1;
   w->n_factor = 0;
   for (int i = 0; i < n * n; i++)
-    if (fill[i]) w->factor_position[w->n_factor++] = i;
-  int lc = 0, ur = 0, lr = 0;
+    if (fill[i]) w->factor_position[w->n_factor++] = i * M;
+  for (int i = 0; i < n; i++) w->diagonal_factor[i] = (i * n + i) * M;
+  int n_scaled = 0, n_updates = 0;
   for (int k = 0; k < n; k++) {
-    w->l_col_start[k] = lc, w->u_row_start[k] = ur, w->l_row_start[k] = lr;
-    for (int i = k + 1; i < n; i++)
-      if (fill[i * n + k]) w->l_col_rows[lc++] = i;
-    for (int j = k + 1; j < n; j++)
-      if (fill[k * n + j]) w->u_row_cols[ur++] = j;
-    for (int j = 0; j < k; j++)
-      if (fill[k * n + j]) w->l_row_cols[lr++] = j;
+    w->pivot_start[k] = n_scaled;
+    for (int i = k + 1; i < n; i++) {
+      if (!fill[i * n + k]) continue;
+      w->update_start[n_scaled] = n_updates;
+      w->scaled[n_scaled++] = (i * n + k) * M;
+      for (int j = k + 1; j < n; j++)
+        if (fill[k * n + j]) {
+          w->update_target[n_updates] = (i * n + j) * M;
+          w->update_source[n_updates++] = (k * n + j) * M;
+        }
+    }
   }
-  w->l_col_start[n] = lc, w->u_row_start[n] = ur, w->l_row_start[n] = lr;
+  w->pivot_start[n] = n_scaled;
+  w->update_start[n_scaled] = n_updates;
+  w->n_forward = 0;
+  for (int i = 1; i < n; i++)
+    for (int j = 0; j < i; j++)
+      if (fill[i * n + j]) {
+        w->forward_target[w->n_forward] = i * M;
+        w->forward_factor[w->n_forward] = (i * n + j) * M;
+        w->forward_source[w->n_forward++] = j * M;
+      }
+  int n_backward = 0;
+  for (int r = 0; r < n; r++) {
+    const int i = n - 1 - r;
+    for (int j = i + 1; j < n; j++)
+      if (fill[i * n + j]) {
+        w->backward_target[n_backward] = i * M;
+        w->backward_factor[n_backward] = (i * n + j) * M;
+        w->backward_source[n_backward++] = j * M;
+      }
+    w->backward_end[r] = n_backward;
+  }
 }
 
 /* Factorise (1/(h gamma)) I - A for every mode on the fill pattern, without
@@ -245,54 +302,45 @@ static void find_structure(const pt_ros_problem *p, pt_ros_work *w) {
 ROS_INLINE int factorise(pt_ros_work *w, const double *A, double fac, int n, const int M) {
   double *restrict LU = w->LU;
   for (int q = 0; q < w->n_factor; q++)
-    for (int b = 0; b < M; b++) LU[w->factor_position[q] * M + b] = 0.0;
-  for (int e = 0; e < w->n_entries; e++) {
-    double *restrict d = LU + (w->entry_row[e] * n + w->entry_col[e]) * M;
-    for (int b = 0; b < M; b++) d[b] = -A[e * M + b];
-  }
-  for (int i = 0; i < n; i++)
-    for (int b = 0; b < M; b++) LU[(i * n + i) * M + b] += fac;
+    for (int b = 0; b < M; b++) LU[w->factor_position[q] + b] = 0.0;
+  for (int e = 0; e < w->n_entries; e++) row_negate(LU + w->entry_factor[e], A + e * M, M);
+  for (int i = 0; i < n; i++) row_add_number(LU + w->diagonal_factor[i], fac, M);
   int fine = 1;
   for (int k = 0; k < n; k++) {
-    const double *restrict pivot = LU + (k * n + k) * M;
+    const double *restrict pivot = LU + w->diagonal_factor[k];
     double *restrict inverse = w->inverse_pivot + k * M;
     const int de = w->diagonal_entry[k];
-    for (int b = 0; b < M; b++) {
-      const double diagonal = fac + (de >= 0 ? fabs(A[de * M + b]) : 0.0);
-      fine &= fabs(pivot[b]) >= PT_ROS_PIVOT_FLOOR * diagonal;
-      inverse[b] = 1.0 / pivot[b];
+    if (de >= 0) {
+      const double *restrict a_kk = A + de * M;
+      for (int b = 0; b < M; b++)
+        fine &= fabs(pivot[b]) >= PT_ROS_PIVOT_FLOOR * (fac + fabs(a_kk[b]));
+    } else {
+      for (int b = 0; b < M; b++) fine &= fabs(pivot[b]) >= PT_ROS_PIVOT_FLOOR * (fac + 0.0);
     }
-    for (int r = w->l_col_start[k]; r < w->l_col_start[k + 1]; r++) {
-      const int i = w->l_col_rows[r];
-      double *restrict l = LU + (i * n + k) * M;
+    for (int b = 0; b < M; b++) inverse[b] = 1.0 / pivot[b];
+    for (int s = w->pivot_start[k]; s < w->pivot_start[k + 1]; s++) {
+      double *restrict l = LU + w->scaled[s];
       row_multiply(l, inverse, M);
-      for (int c = w->u_row_start[k]; c < w->u_row_start[k + 1]; c++) {
-        const int j = w->u_row_cols[c];
-        double *restrict target = LU + (i * n + j) * M;
-        const double *restrict u = LU + (k * n + j) * M;
-        row_subtract_product(target, l, u, M);
-      }
+      for (int u = w->update_start[s]; u < w->update_start[s + 1]; u++)
+        row_subtract_product(LU + w->update_target[u], l, LU + w->update_source[u], M);
     }
   }
   return fine;
 }
 
-/* x_i -= sum over the listed columns j of row i of LU_ij x_j (the columns
- * of row i in [start[i], start[i + 1]) of `columns`). */
-ROS_INLINE void subtract_known(const pt_ros_work *w, const int *start, const int *columns, int i,
-                               int n, const int M, double *restrict x) {
-  for (int c = start[i]; c < start[i + 1]; c++) {
-    const int j = columns[c];
-    row_subtract_product(x + i * M, w->LU + (i * n + j) * M, x + j * M, M);
-  }
-}
-
 /* One stage: solve (1/(h gamma) - A0) U = rhs for every mode, in place in
  * rhs, with the factors (forward, then backward substitution). */
 ROS_INLINE void solve_all(const pt_ros_work *w, int n, const int M, double *restrict x) {
-  for (int i = 1; i < n; i++) subtract_known(w, w->l_row_start, w->l_row_cols, i, n, M, x);
-  for (int i = n - 1; i >= 0; i--) {
-    subtract_known(w, w->u_row_start, w->u_row_cols, i, n, M, x);
+  const double *restrict LU = w->LU;
+  for (int o = 0; o < w->n_forward; o++)
+    row_subtract_product(x + w->forward_target[o], LU + w->forward_factor[o],
+                         x + w->forward_source[o], M);
+  int o = 0;
+  for (int r = 0; r < n; r++) {
+    for (; o < w->backward_end[r]; o++)
+      row_subtract_product(x + w->backward_target[o], LU + w->backward_factor[o],
+                           x + w->backward_source[o], M);
+    const int i = n - 1 - r;
     row_multiply(x + i * M, w->inverse_pivot + i * M, M);
   }
 }
@@ -300,13 +348,14 @@ ROS_INLINE void solve_all(const pt_ros_work *w, int n, const int M, double *rest
 /* out = A v for every mode, over the entries. */
 ROS_INLINE void mat_vec(const pt_ros_work *w, const double *restrict A, const double *restrict v,
                         double *restrict out, int n, const int M) {
-  for (int i = 0; i < n * M; i++) out[i] = 0.0;
-  for (int e = 0; e < w->n_entries; e++) {
-    const double *restrict a = A + e * M;
-    const double *restrict ve = v + w->entry_col[e] * M;
-    double *restrict o = out + w->entry_row[e] * M;
-    row_add_product(o, a, ve, M);
-  }
+  (void)n;
+  for (int r = 0; r < w->n_empty_rows; r++)
+    for (int b = 0; b < M; b++) out[w->empty_row[r] + b] = 0.0;
+  int t = 0;
+  for (; t < w->n_row_starts; t++)
+    row_start_product(out + w->product_out[t], A + w->product_entry[t], v + w->product_in[t], M);
+  for (; t < w->n_entries; t++)
+    row_add_product(out + w->product_out[t], A + w->product_entry[t], v + w->product_in[t], M);
 }
 
 /* y'' = A' y + A (A y) for the quintic Hermite interpolant. */
@@ -318,10 +367,18 @@ ROS_INLINE void second_derivative(const pt_ros_work *w, const double *A, const d
   for (int i = 0; i < n * M; i++) out[i] += tmp[i];
 }
 
-static int all_finite(const double *v, int len) {
-  for (int i = 0; i < len; i++)
-    if (!isfinite(v[i])) return 0;
-  return 1;
+/* No infinity or NaN among v[0 .. len): read off the exponent bits (all
+ * ones for both), so that the loop has no early exit and runs as vector
+ * arithmetic. */
+ROS_INLINE int all_finite(const double *v, int len) {
+  const uint64_t exponent = UINT64_C(0x7ff0000000000000);
+  int bad = 0;
+  for (int i = 0; i < len; i++) {
+    uint64_t bits;
+    memcpy(&bits, v + i, sizeof bits);
+    bad |= (bits & exponent) == exponent;
+  }
+  return !bad;
 }
 
 /* Between the caller's layout (mode after mode) and the integrator's
@@ -362,6 +419,42 @@ ROS_INLINE void update_peaks(const pt_ros_problem *p, pt_ros_work *w, const doub
     for (int b = 0; b < M; b++) w->peak[i * M + b] = group_peak[p->group[i] * M + b];
 }
 
+/* The step's error: the root mean square over the components of the
+ * filtered estimate w->err_est against its scale (rosenbrock.h), the
+ * largest over the modes; NaN if any mode's is. The loop over the modes is
+ * innermost, with the per-component choices hoisted, so that it runs as
+ * vector arithmetic. */
+ROS_INLINE double error_norm(const pt_ros_problem *p, const pt_ros_work *w, const double *y,
+                             int n, const int M) {
+  const double rel_tol = p->rel_tol, abs_tol = p->abs_tol;
+  double sum[PT_ROS_MAX_MODES] = {0.0};
+  for (int i = 0; i < n; i++) {
+    const double *restrict peak_i = w->peak + i * M, *restrict err_i = w->err_est + i * M;
+    const double *restrict before = y + i * M, *restrict after = w->ynew + i * M;
+    if (p->group_scaled && p->group_scaled[i]) {
+      for (int b = 0; b < M; b++) {
+        const double peak = peak_i[b] > 0.0 ? peak_i[b] : 1.0;
+        const double e = err_i[b] / (rel_tol * peak + abs_tol * peak);
+        sum[b] += e * e;
+      }
+    } else {
+      for (int b = 0; b < M; b++) {
+        const double peak = peak_i[b] > 0.0 ? peak_i[b] : 1.0;
+        const double size = larger(fabs(before[b]), fabs(after[b]));
+        const double e = err_i[b] / (rel_tol * size + abs_tol * peak);
+        sum[b] += e * e;
+      }
+    }
+  }
+  double err = 0.0;
+  for (int b = 0; b < M; b++) {
+    /* (NaN carried on: the caller rejects it.) */
+    const double mode_err = sqrt(sum[b] / n);
+    if (!(mode_err <= err)) err = mode_err;
+  }
+  return err;
+}
+
 /* Outputs x_out[next ..] inside the stiff step (x, x + h) from the method's
  * own continuous extension, from the stages (q1 into U[5], q2 into ytmp;
  * neither is needed any more); returns the next output's index. Kept out of
@@ -395,7 +488,7 @@ ROS_INLINE int integrate(const pt_ros_problem *p, pt_ros_work *w, double x0, dou
     if (!(x_out[i] >= (i ? x_out[i - 1] : x0))) return PT_ROS_BAD_INPUT;
   for (int i = 0; p->group && i < n; i++)
     if (p->group[i] < 0 || p->group[i] >= n) return PT_ROS_BAD_INPUT;
-  find_structure(p, w);
+  find_structure(p, w, M);
   double *y = w->y;
   by_component(y_caller, y, n, M);
 
@@ -491,28 +584,10 @@ ROS_INLINE int integrate(const pt_ros_problem *p, pt_ros_work *w, double x0, dou
     solve_all(w, n, M, U6);
     for (int i = 0; i < len; i++) w->ynew[i] = w->ytmp[i] + U6[i];
 
-    /* Error: RMS over the components, largest over the modes, of the
-     * filtered estimate (I - h gamma A0)^-1 U6 (rosenbrock.h). */
+    /* Error: the filtered estimate (I - h gamma A0)^-1 U6 (rosenbrock.h). */
     for (int i = 0; i < len; i++) w->err_est[i] = fac * U6[i];
     solve_all(w, n, M, w->err_est);
-    double sum[PT_ROS_MAX_MODES] = {0.0};
-    for (int i = 0; i < n; i++)
-      for (int b = 0; b < M; b++) {
-        const int at = i * M + b;
-        const double peak = w->peak[at] > 0.0 ? w->peak[at] : 1.0;
-        const double size = p->group_scaled && p->group_scaled[i]
-                                ? peak
-                                : larger(fabs(y[at]), fabs(w->ynew[at]));
-        const double scale = p->rel_tol * size + p->abs_tol * peak;
-        const double e = w->err_est[at] / scale;
-        sum[b] += e * e;
-      }
-    double err = 0.0;
-    for (int b = 0; b < M; b++) {
-      /* (NaN carried on: the test below rejects it.) */
-      const double mode_err = sqrt(sum[b] / n);
-      if (!(mode_err <= err)) err = mode_err;
-    }
+    const double err = error_norm(p, w, y, n, M);
     if (!isfinite(err) || !all_finite(w->ynew, len)) {
       w->stats.rejected++;
       h *= 0.25;

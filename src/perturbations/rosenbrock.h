@@ -162,18 +162,39 @@ typedef struct pt_ros_work {
   double peak[PT_ROS_MAX_LEN], own_peak[PT_ROS_MAX_LEN];
   double err_est[PT_ROS_MAX_LEN]; /* filtered error estimate */
   double by_mode[PT_ROS_MAX_LEN]; /* an output, mode after mode, for emit */
-  /* The structure, found at the start of each solve: the entries' rows and
-   * columns, the positions of the factors' pattern, and the elimination's
-   * index lists (rows i > k of L's column k; columns j > i of U's row i;
-   * columns k < i of L's row i), each list of index i in [start[i],
-   * start[i + 1]). */
+  /* The structure, found at the start of each solve (find_structure) and
+   * kept as flat lists of row operations, every position an offset in
+   * doubles into the batch's arrays (a component's or an entry's index
+   * times the batch size), so that the loops per stage only walk lists:
+   * - the matrix-vector product: its terms A_e v[in] added into out[row],
+   *   each row's first term first (it starts the row: out = A_e v + 0, the
+   *   same number as 0 + A_e v without clearing the row first), the rows
+   *   without a term cleared;
+   * - the entries of A: their place in the factors, the diagonal's;
+   * - the factorisation: for pivot k, the places l of L's column k
+   *   ([pivot_start[k], pivot_start[k + 1]) of scaled), and for each l the
+   *   updates LU[target] -= LU[l] LU[source] ([update_start[l-index],
+   *   update_start[l-index + 1]) of update_target, update_source);
+   * - the forward substitution: x[target] -= LU[factor] x[source], in
+   *   order; the backward one the same, row n - 1 first, each row's
+   *   operations in [backward_end[r - 1], backward_end[r]) followed by the
+   *   row's multiplication by its inverse pivot. */
   int n_entries, n_factor;
-  int entry_row[PT_ROS_MAX_ENTRIES], entry_col[PT_ROS_MAX_ENTRIES];
+  int n_row_starts, product_entry[PT_ROS_MAX_ENTRIES], product_out[PT_ROS_MAX_ENTRIES],
+      product_in[PT_ROS_MAX_ENTRIES];
+  int n_empty_rows, empty_row[PT_ROS_MAX_DIM];
+  int entry_factor[PT_ROS_MAX_ENTRIES];
   int diagonal_entry[PT_ROS_MAX_DIM]; /* entry of A_ii, or -1 */
+  int diagonal_factor[PT_ROS_MAX_DIM];
   int factor_position[PT_ROS_MAX_ENTRIES];
-  int l_col_start[PT_ROS_MAX_DIM + 1], l_col_rows[PT_ROS_MAX_ENTRIES];
-  int u_row_start[PT_ROS_MAX_DIM + 1], u_row_cols[PT_ROS_MAX_ENTRIES];
-  int l_row_start[PT_ROS_MAX_DIM + 1], l_row_cols[PT_ROS_MAX_ENTRIES];
+  int pivot_start[PT_ROS_MAX_DIM + 1], scaled[PT_ROS_MAX_ENTRIES];
+  int update_start[PT_ROS_MAX_ENTRIES + 1];
+  int update_target[PT_ROS_MAX_DIM * PT_ROS_MAX_ENTRIES],
+      update_source[PT_ROS_MAX_DIM * PT_ROS_MAX_ENTRIES];
+  int n_forward, forward_target[PT_ROS_MAX_ENTRIES], forward_factor[PT_ROS_MAX_ENTRIES],
+      forward_source[PT_ROS_MAX_ENTRIES];
+  int backward_end[PT_ROS_MAX_DIM], backward_target[PT_ROS_MAX_ENTRIES],
+      backward_factor[PT_ROS_MAX_ENTRIES], backward_source[PT_ROS_MAX_ENTRIES];
   pt_ros_stats stats; /* accumulated over every solve with this workspace */
 } pt_ros_work;
 
