@@ -410,9 +410,13 @@ static jg_status solve_real(const jg_stream_model *sm, jg_perturb_workspace *w, 
                             int nk, const double *x_out, int n_z, int n_before, double *real,
                             double *at_start, jg_error *err) {
   const jg_perturb_model *m = sm->m;
-  stream_run r = {.sm = sm, .sys = SYS_REAL, .n = m->dim_mode, .dim = m->dim_mode, .modes = nk};
+  /* (Padded to a compiled batch size with copies of the last mode, whose
+   * results are dropped: jg__ros_lanes.) */
+  const int lanes = jg__ros_lanes(nk);
+  stream_run r = {.sm = sm, .sys = SYS_REAL, .n = m->dim_mode, .dim = m->dim_mode, .modes = lanes};
   const int n = m->dim_mode;
   double y[PT_ROS_MAX_MODES * PT_ROS_MAX_DIM];
+  for (int b = nk; b < lanes; b++) r.k2[b] = k[nk - 1] * k[nk - 1];
   for (int b = 0; b < nk; b++) {
     r.k2[b] = k[b] * k[b];
     jg_perturb_start start = m->start;
@@ -422,20 +426,21 @@ static jg_status solve_real(const jg_stream_model *sm, jg_perturb_workspace *w, 
     }
     jg__pt_initial_mode(m, &start, y + b * n);
   }
+  for (int b = nk; b < lanes; b++) memcpy(y + b * n, y + (nk - 1) * n, sizeof(double) * n);
   /* The start joins the outputs at its place (unless not wanted). */
   const int with_start = at_start != NULL, n_xs = n_z + with_start;
   double xs[JG_MAX_REDSHIFTS + 1];
   for (int i = 0, j = 0; i < n_xs; i++)
     xs[i] = with_start && i == n_before ? sm->x_start : x_out[j++];
-  double *states = malloc(sizeof(double) * (size_t)n_xs * nk * n);
+  double *states = malloc(sizeof(double) * (size_t)n_xs * lanes * n);
   if (!states) return JG_FAIL(err, JG_ENOMEM, "streaming: out of memory");
   r.states = states;
   jg_status st = stream_integrate(&r, w, m->x_init, y, xs, n_xs, k[0], err);
   if (st == JG_OK) {
-    const size_t per = (size_t)nk * n;
+    const size_t per = (size_t)nk * n, stride = (size_t)lanes * n;
     for (int i = 0, j = 0; i < n_xs; i++) {
-      if (with_start && i == n_before) memcpy(at_start, states + i * per, sizeof(double) * per);
-      else memcpy(real + (size_t)(j++) * per, states + i * per, sizeof(double) * per);
+      if (with_start && i == n_before) memcpy(at_start, states + i * stride, sizeof(double) * per);
+      else memcpy(real + (size_t)(j++) * per, states + i * stride, sizeof(double) * per);
     }
   }
   free(states);
@@ -455,11 +460,12 @@ static jg_status solve_complex(const jg_stream_model *sm, jg_perturb_workspace *
   jg_status st = JG_OK;
   for (int first = 0; st == JG_OK && first < n_pairs; first += PT_ROS_MAX_MODES) {
     const int modes = n_pairs - first < PT_ROS_MAX_MODES ? n_pairs - first : PT_ROS_MAX_MODES;
-    stream_run r = {.sm = sm, .sys = SYS_COMPLEX, .n = n, .dim = N, .modes = modes,
+    const int lanes = jg__ros_lanes(modes); /* the extra lanes copy the last pair */
+    stream_run r = {.sm = sm, .sys = SYS_COMPLEX, .n = n, .dim = N, .modes = lanes,
                     .states = states};
     double y[PT_ROS_MAX_MODES * PT_ROS_MAX_DIM];
-    for (int b = 0; b < modes; b++) {
-      const int q = first + b;
+    for (int b = 0; b < lanes; b++) {
+      const int q = first + (b < modes ? b : modes - 1);
       r.k2[b] = k[q] * k[q];
       r.kv[b] = k[q] * v_rel[q];
       memcpy(y + b * N, from[q], sizeof(double) * n);
@@ -468,7 +474,7 @@ static jg_status solve_complex(const jg_stream_model *sm, jg_perturb_workspace *
     st = stream_integrate(&r, w, sm->x_start, y, x_after, n_after, k[first], err);
     for (int i = 0; st == JG_OK && i < n_after; i++)
       for (int b = 0; b < modes; b++)
-        memcpy(out + ((size_t)i * n_pairs + first + b) * N, states + ((size_t)i * modes + b) * N,
+        memcpy(out + ((size_t)i * n_pairs + first + b) * N, states + ((size_t)i * lanes + b) * N,
                sizeof(double) * N);
   }
   free(states);
