@@ -375,6 +375,45 @@ Test(integrator, batch_with_a_bad_k_names_it) {
   real_case_close(&r);
 }
 
+/* The growth grid on several threads: the same numbers to the last bit as
+ * on one (the batches come from the k list alone, whoever solves them),
+ * with a partial last batch; and with bad wavenumbers in two batches, the
+ * failure told is the first in the list's order, as on one thread. */
+Test(integrator, growth_grid_on_threads_is_the_single_thread_grid) {
+  real_case r;
+  open_rosenbrock(&r);
+  enum { NK = 37 };
+  double k[NK];
+  for (int i = 0; i < NK; i++) k[i] = 2.0 * pow(2500.0, (double)i / (NK - 1));
+  const double z[3] = {1000.0, 100.0, 10.0};
+  jg_growth_grid *one = NULL, *three = NULL;
+  jg_error err;
+  jg_error_clear(&err);
+  cr_assert_eq(jg_growth_grid_compute(r.m, r.w, k, NK, z, 3, &one, &err), JG_OK, "%s",
+               err.message);
+  cr_assert_eq(jg_growth_grid_compute_threads(r.m, r.w, k, NK, z, 3, 3, &three, &err), JG_OK,
+               "%s", err.message);
+  cr_assert(memcmp(one->points, three->points, sizeof(jg_perturb_point) * NK * 3) == 0,
+            "the grid depends on the number of threads");
+  jg_growth_grid_free(one);
+  jg_growth_grid_free(three);
+
+  k[12] = 3e5; /* the second batch */
+  k[30] = 4e5; /* the fourth */
+  jg_error err_one, err_threads;
+  jg_error_clear(&err_one);
+  jg_error_clear(&err_threads);
+  cr_assert_neq(jg_growth_grid_compute(r.m, r.w, k, NK, z, 3, &one, &err_one), JG_OK);
+  cr_assert_neq(jg_growth_grid_compute_threads(r.m, r.w, k, NK, z, 3, 4, &three, &err_threads),
+                JG_OK);
+  cr_assert_null(three);
+  cr_assert(strstr(err_one.message, "k = 300000") != NULL, "%s", err_one.message);
+  cr_assert_str_eq(err_threads.message, err_one.message);
+  cr_assert_eq(jg_growth_grid_compute_threads(r.m, r.w, k, NK, z, 3, 0, &three, &err_threads),
+               JG_EINVAL);
+  real_case_close(&r);
+}
+
 /* ---- the per-batch-size compiled copies and the sparse kernel ---------------- */
 
 typedef struct any_dim_outputs {

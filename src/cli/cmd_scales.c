@@ -1,5 +1,6 @@
 /* `jeansgrow scales` and `jeansgrow growth`: the perturbation stage as tables. */
 #include <stdlib.h>
+#include <unistd.h>
 
 #include "cli.h"
 
@@ -87,9 +88,12 @@ int cmd_growth(const cli_command *cmd, int argc, char **argv) {
   jg_growth_grid *g = NULL;
   jg_status st = k ? jg_perturb_wavenumbers(&r.p.perturbations, k, &n_k, &err)
                    : JG_FAIL(&err, JG_ENOMEM, "out of memory for the wavenumbers");
+  /* Every core: the grid does not depend on the number of threads. */
+  long cores = sysconf(_SC_NPROCESSORS_ONLN);
+  const int threads = cores < 1 ? 1 : cores > JG_GROWTH_MAX_THREADS ? JG_GROWTH_MAX_THREADS : (int)cores;
   if (st == JG_OK)
-    st = jg_growth_grid_compute(r.model, r.ws, k, n_k, r.p.output.redshifts,
-                                r.p.output.n_redshifts, &g, &err);
+    st = jg_growth_grid_compute_threads(r.model, r.ws, k, n_k, r.p.output.redshifts,
+                                        r.p.output.n_redshifts, threads, &g, &err);
   if (st == JG_OK) st = jg_growth_grid_add_streaming(g, r.model, r.ws, &r.p.streaming, &err);
   if (st == JG_OK) st = jg_report_growth(jg_output_stream(r.out), &r.p, r.th, g, &err);
   jg_growth_grid_free(g);
