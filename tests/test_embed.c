@@ -226,6 +226,15 @@ Test(null_error, results) {
   jg_growth_grid *g = NULL;
   cr_assert_neq(jg_growth_grid_compute(s.m, s.w, (double[]){1e9}, 1, z_bad, 1, &g, NULL), JG_OK);
   cr_assert_null(g);
+  cr_assert_neq(jg_growth_grid_compute_threads(s.m, s.w, (double[]){1.0}, 1, s.p.output.redshifts,
+                                               1, 0, &g, NULL),
+                JG_OK);
+  double k_bad[17];
+  for (int i = 0; i < 17; i++) k_bad[i] = i == 12 ? 1e9 : 1.0 + i;
+  cr_assert_neq(jg_growth_grid_compute_threads(s.m, s.w, k_bad, 17, s.p.output.redshifts, 1, 2,
+                                               &g, NULL),
+                JG_OK);
+  cr_assert_null(g);
   /* The reports refuse what is not finite. */
   FILE *sink = tmpfile();
   jg_params no_end = s.p;

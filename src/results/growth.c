@@ -95,7 +95,7 @@ static jg_status solve_on_threads(const jg_perturb_model *m, jg_perturb_workspac
   solve_shared_batches(&s, w); /* the caller's thread takes its share */
   for (int i = 0; i < started; i++) pthread_join(helper[i], NULL);
   pthread_mutex_destroy(&s.lock);
-  if (s.status != JG_OK) *err = s.err;
+  if (s.status != JG_OK && err) *err = s.err;
   return s.status;
 }
 
