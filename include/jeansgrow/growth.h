@@ -36,12 +36,12 @@ typedef struct jg_growth_grid {
 jg_status jg_growth_grid_compute(const jg_perturb_model *m, jg_perturb_workspace *w,
                                  const double *k, int n_k, const double *z, int n_z,
                                  jg_growth_grid **out, jg_error *err);
-/* The same with the wavenumbers shared out among `threads` threads (1 to
+/* The same with the work shared out among `threads` threads (1 to
  * JG_GROWTH_MAX_THREADS; this one and threads - 1 it starts, each of those
- * with a workspace of its own; m is only read): the batches of
- * JG_PERTURB_BATCH consecutive wavenumbers are formed from the k list
- * alone, so the grid is the same to the last bit whatever the number of
- * threads, and a failure is the one the single-thread call reports. */
+ * with a workspace of its own; m is only read): the k -> 0 reference and
+ * the batches of JG_PERTURB_BATCH consecutive wavenumbers, formed from the
+ * k list alone, so the grid is the same to the last bit whatever the number
+ * of threads, and a failure is the one the single-thread call reports. */
 #define JG_GROWTH_MAX_THREADS 256
 jg_status jg_growth_grid_compute_threads(const jg_perturb_model *m, jg_perturb_workspace *w,
                                          const double *k, int n_k, const double *z, int n_z,
