@@ -17,8 +17,12 @@
 typedef struct pt_system_type {
   const char *stage; /* for messages */
   int (*dimension)(const jg_perturb_model *m);
-  /* A (dim x dim, row-major, every entry written); A is affine in the
-   * coefficients, which the slope dA/dx relies on (see ros_matrices). */
+  /* A (dim x dim, row-major); A is affine in the coefficients, which the
+   * slope dA/dx relies on (see ros_matrices). It writes the same entries at
+   * every call, whatever the coefficients and k^2, and leaves the others as
+   * they were: only the pattern's entries are ever read, so the matrices
+   * need no clearing per call (system_structure checks that every entry of
+   * the pattern is written). */
   void (*matrix)(const jg_perturb_model *m, const jg_medium_coefficients *c, double k2,
                  double *A);
   void (*start)(const jg_perturb_model *m, double k, double *y, jg_error *err, jg_status *st);
@@ -35,7 +39,6 @@ static int dim_limit(const jg_perturb_model *m) { return m->dim_limit; }
 
 static void matrix_mode(const jg_perturb_model *m, const jg_medium_coefficients *c, double k2,
                         double *A) {
-  memset(A, 0, sizeof(double) * (size_t)m->dim_mode * m->dim_mode);
   jg__pt_jac_mode(m, c, k2, A, m->dim_mode, 0);
 }
 
@@ -161,6 +164,13 @@ typedef struct ros_run {
   /* The system's pattern and its entries' positions (integrator layout). */
   unsigned char pattern[PT_ROS_MAX_ENTRIES];
   int n_entries, position[PT_ROS_MAX_ENTRIES];
+  /* The k^2 part A(1) - A(0) of the batch's matrices, dense: only the
+   * positions k2_position[0..n_k2_entries) of the entries that depend on
+   * k^2 (the pressure terms) are written per call; every other entry of
+   * the pattern is built alike at k^2 = 0 and 1, so its difference is
+   * exactly 0 and stays the 0 it was set to once per solve. */
+  int n_k2_entries, k2_position[PT_ROS_MAX_ENTRIES];
+  double k2_part[PT_ROS_MAX_ENTRIES];
   /* A at zero coefficients (the constant part of the affine A), for the
    * baryon fraction zero_fb (NaN: not yet built). */
   double zero_fb;
@@ -179,15 +189,38 @@ void jg__pt_structural_coefficients(jg_medium_coefficients *c) {
   *c = distinct;
 }
 
-/* Which entries of a system's matrix can be non-zero (at k^2 = 1, where
- * every pressure term is present). */
-static void system_pattern(const jg_perturb_model *m, const pt_system_type *type, int dim,
-                           unsigned char *pattern) {
+/* The structure of the run's system, found once per solve: which entries
+ * of its matrix can be non-zero (at k^2 = 1, where every pressure term is
+ * present), their positions, and which of them change with k^2. The
+ * matrices of the steps are built without clearing (pt_system_type), so an
+ * entry of the pattern that some call did not write would keep a value
+ * from an earlier x: the matrix is built once more, at zero coefficients
+ * and k^2 = 0 (where a write that depended on a value would be skipped),
+ * into entries marked NaN, and the position of an entry of the pattern
+ * left unwritten there is returned (-1: none). */
+static int system_structure(ros_run *r) {
+  const int n = r->dim * r->dim;
   jg_medium_coefficients c;
   jg__pt_structural_coefficients(&c);
-  double A[PT_ROS_MAX_ENTRIES];
-  type->matrix(m, &c, 1.0, A);
-  for (int i = 0; i < dim * dim; i++) pattern[i] = A[i] != 0.0;
+  double A[PT_ROS_MAX_ENTRIES], A_no_k2[PT_ROS_MAX_ENTRIES];
+  for (int i = 0; i < n; i++) A[i] = A_no_k2[i] = NAN;
+  r->type->matrix(r->m, &c, 1.0, A);
+  r->type->matrix(r->m, &c, 0.0, A_no_k2);
+  for (int i = 0; i < n; i++) r->pattern[i] = !isnan(A[i]) && A[i] != 0.0;
+  r->n_entries = jg__ros_entry_positions(r->dim, r->pattern, r->position);
+  /* (The coefficients are distinct and non-zero: an entry with a k^2 term
+   * differs here.) */
+  r->n_k2_entries = 0;
+  for (int e = 0; e < r->n_entries; e++)
+    if (A[r->position[e]] != A_no_k2[r->position[e]])
+      r->k2_position[r->n_k2_entries++] = r->position[e];
+  for (int i = 0; i < n; i++) r->k2_part[i] = 0.0;
+  const jg_medium_coefficients zero = {0};
+  for (int i = 0; i < n; i++) A[i] = NAN;
+  r->type->matrix(r->m, &zero, 0.0, A);
+  for (int i = 0; i < n; i++)
+    if (r->pattern[i] && isnan(A[i])) return i;
+  return -1;
 }
 
 /* Coefficients at x and, if dc, their slope: exact for the tabulated
@@ -216,14 +249,18 @@ static int coefficients_and_slope(const jg_perturb_model *m, double x, jg_medium
 
 /* The matrices of the batch: A is affine in k^2 (the pressure terms), so
  * A(k^2) = A(0) + k^2 (A(1) - A(0)), two matrices per x for the whole
- * batch (one, built at its k^2, for a lone mode); and affine in the
- * coefficients, so dA/dx = A(c') - A(c = 0). */
-static void matrix_parts(const ros_run *r, const jg_medium_coefficients *c, int by_parts,
-                         double *B0, double *B1) {
+ * batch (one, built at its k^2, for a lone mode): B0 = A(0) and, for a
+ * batch, r->k2_part = A(1) - A(0). A is affine in the coefficients too, so
+ * dA/dx = A(c') - A(c = 0). */
+static void matrix_parts(ros_run *r, const jg_medium_coefficients *c, int by_parts, double *B0) {
   r->type->matrix(r->m, c, by_parts ? 0.0 : r->k2[0], B0);
   if (!by_parts) return;
+  double B1[PT_ROS_MAX_ENTRIES];
   r->type->matrix(r->m, c, 1.0, B1);
-  for (int i = 0; i < r->dim * r->dim; i++) B1[i] -= B0[i];
+  for (int e = 0; e < r->n_k2_entries; e++) {
+    const int at = r->k2_position[e];
+    r->k2_part[at] = B1[at] - B0[at];
+  }
 }
 
 static int ros_matrices(void *ctx, double x, double *A, double *dA, double *rate) {
@@ -232,10 +269,10 @@ static int ros_matrices(void *ctx, double x, double *A, double *dA, double *rate
   jg_medium_coefficients c, dc = {0};
   if (coefficients_and_slope(m, x, &c, dA ? &dc : NULL) != 0) return 1;
   const int by_parts = r->type->k_dependent && r->n_lanes > 1;
-  double B0[PT_ROS_MAX_ENTRIES], B1[PT_ROS_MAX_ENTRIES];
-  matrix_parts(r, &c, by_parts, B0, B1);
-  jg__ros_gather(r->n_entries, r->position, r->n_lanes, B0, by_parts ? B1 : NULL, r->k2, NULL,
-                 NULL, A);
+  double B0[PT_ROS_MAX_ENTRIES];
+  matrix_parts(r, &c, by_parts, B0);
+  jg__ros_gather(r->n_entries, r->position, r->n_lanes, B0, by_parts ? r->k2_part : NULL, r->k2,
+                 NULL, NULL, A);
   /* The rates grow with k^2: the batch's largest k bounds them all. */
   if (rate) *rate = fastest_rate(m, &c, r->k2_max);
   if (dA) {
@@ -247,10 +284,10 @@ static int ros_matrices(void *ctx, double x, double *A, double *dA, double *rate
       r->type->matrix(m, &zero, 0.0, r->A_zero);
       r->zero_fb = c.baryon_fraction;
     }
-    matrix_parts(r, &dc, by_parts, B0, B1);
-    for (int i = 0; i < r->dim * r->dim; i++) B0[i] -= r->A_zero[i];
-    jg__ros_gather(r->n_entries, r->position, r->n_lanes, B0, by_parts ? B1 : NULL, r->k2,
-                   NULL, NULL, dA);
+    matrix_parts(r, &dc, by_parts, B0);
+    for (int e = 0; e < r->n_entries; e++) B0[r->position[e]] -= r->A_zero[r->position[e]];
+    jg__ros_gather(r->n_entries, r->position, r->n_lanes, B0, by_parts ? r->k2_part : NULL,
+                   r->k2, NULL, NULL, dA);
   }
   return 0;
 }
@@ -292,8 +329,12 @@ static jg_status ros_solve(const jg_perturb_model *m, jg_perturb_workspace *w,
   r.z = z;
   r.order = w->order;
   r.zero_fb = NAN;
-  system_pattern(m, type, r.dim, r.pattern);
-  r.n_entries = jg__ros_entry_positions(r.dim, r.pattern, r.position);
+  const int unwritten = system_structure(&r);
+  if (unwritten >= 0)
+    return JG_FAIL(err, JG_ENUMERIC,
+                   "perturbations (%s, k = %g /Mpc): the matrix function leaves entry (%d, %d) "
+                   "of its pattern unwritten at zero coefficients",
+                   type->stage, k[0], unwritten / r.dim, unwritten % r.dim);
   double y[PT_ROS_MAX_MODES * PT_ROS_MAX_DIM];
   for (int b = 0; b < r.n_lanes; b++) {
     jg_status st = JG_OK;
