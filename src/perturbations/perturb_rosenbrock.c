@@ -172,9 +172,13 @@ typedef struct ros_run {
   int n_k2_entries, k2_position[PT_ROS_MAX_ENTRIES];
   double k2_part[PT_ROS_MAX_ENTRIES];
   /* A at zero coefficients (the constant part of the affine A), for the
-   * baryon fraction zero_fb (NaN: not yet built). */
+   * baryon fraction zero_fb (NaN: not yet built), and the positions of its
+   * entries of the pattern that are not +0 (subtracting +0 changes no
+   * number, not even a zero's sign; -0 would turn -0 into +0, so those
+   * are kept). */
   double zero_fb;
   double A_zero[PT_ROS_MAX_ENTRIES];
+  int n_constant_entries, constant_position[PT_ROS_MAX_ENTRIES];
 } ros_run;
 
 /* Coefficients with every field non-zero and no two alike, so that an
@@ -266,7 +270,9 @@ static void matrix_parts(ros_run *r, const jg_medium_coefficients *c, int by_par
 static int ros_matrices(void *ctx, double x, double *A, double *dA, double *rate) {
   ros_run *r = ctx;
   const jg_perturb_model *m = r->m;
-  jg_medium_coefficients c, dc = {0};
+  jg_medium_coefficients c, dc;
+  /* (The slope's fields the medium does not give stay 0.) */
+  if (dA) dc = (jg_medium_coefficients){0};
   if (coefficients_and_slope(m, x, &c, dA ? &dc : NULL) != 0) return 1;
   const int by_parts = r->type->k_dependent && r->n_lanes > 1;
   double B0[PT_ROS_MAX_ENTRIES];
@@ -283,9 +289,16 @@ static int ros_matrices(void *ctx, double x, double *A, double *dA, double *rate
       zero.baryon_fraction = c.baryon_fraction;
       r->type->matrix(m, &zero, 0.0, r->A_zero);
       r->zero_fb = c.baryon_fraction;
+      r->n_constant_entries = 0;
+      for (int e = 0; e < r->n_entries; e++) {
+        const int at = r->position[e];
+        if (r->A_zero[at] != 0.0 || signbit(r->A_zero[at]))
+          r->constant_position[r->n_constant_entries++] = at;
+      }
     }
     matrix_parts(r, &dc, by_parts, B0);
-    for (int e = 0; e < r->n_entries; e++) B0[r->position[e]] -= r->A_zero[r->position[e]];
+    for (int e = 0; e < r->n_constant_entries; e++)
+      B0[r->constant_position[e]] -= r->A_zero[r->constant_position[e]];
     jg__ros_gather(r->n_entries, r->position, r->n_lanes, B0, by_parts ? r->k2_part : NULL,
                    r->k2, NULL, NULL, dA);
   }
