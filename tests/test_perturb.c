@@ -612,11 +612,12 @@ static double random_coefficient(unsigned *seed) {
 
 /* The Rosenbrock path builds a batch's matrices without clearing them and
  * takes A(k^2 = 1) - A(0) only at the entries that differ between the two
- * with the structural coefficients (perturb_rosenbrock.c): that rests on
- * the mode matrix writing the same entries whatever the coefficients and
- * k^2, and on every entry without a k^2 term coming out the same bits at
- * k^2 = 0 and 1, so that the difference skipped is exactly +0 (common
- * practice, no source). */
+ * with the structural coefficients, A(1) there from
+ * jg__pt_jac_mode_k2_terms (perturb_rosenbrock.c): that rests on the mode
+ * matrix writing the same entries whatever the coefficients and k^2, on
+ * every other entry coming out the same bits at k^2 = 0 and 1, so that the
+ * difference skipped is exactly +0, and on the k^2 terms alone being the
+ * matrix's bits (common practice, no source). */
 Test(perturb, mode_matrix_writes_fixed_entries_and_separates_its_k2_terms) {
   const struct {
     jg_sound_speed_model model;
@@ -652,9 +653,11 @@ Test(perturb, mode_matrix_writes_fixed_entries_and_separates_its_k2_terms) {
                          &c.pressure_ionisation};
       for (size_t f = 0; f < sizeof field / sizeof field[0]; f++)
         *field[f] = random_coefficient(&seed);
-      double A0[256], A1[256];
+      double A0[256], A1[256], terms[256];
       marked_mode_matrix(r.m, &c, 0.0, n, A0);
       marked_mode_matrix(r.m, &c, 1.0, n, A1);
+      for (int i = 0; i < n * n; i++) terms[i] = NAN;
+      jg__pt_jac_mode_k2_terms(r.m, &c, 1.0, terms, n, 0);
       for (int i = 0; i < n * n; i++) {
         cr_assert_eq(!isnan(A0[i]), !isnan(S0[i]), "case %zu: entry %d written at k^2 = 0 "
                      "with some coefficients only", ci, i);
@@ -664,6 +667,10 @@ Test(perturb, mode_matrix_writes_fixed_entries_and_separates_its_k2_terms) {
           cr_assert(memcmp(&A0[i], &A1[i], sizeof A0[i]) == 0,
                     "case %zu: entry %d has no k^2 term with the structural coefficients but "
                     "%.17g at k^2 = 0, %.17g at 1", ci, i, A0[i], A1[i]);
+        else if (!isnan(S1[i]))
+          cr_assert(memcmp(&terms[i], &A1[i], sizeof A1[i]) == 0,
+                    "case %zu: k^2 term %d alone %.17g, in the matrix %.17g", ci, i, terms[i],
+                    A1[i]);
       }
     }
     real_close(&r);

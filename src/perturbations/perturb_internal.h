@@ -130,6 +130,11 @@ struct jg_perturb_workspace {
 
 void jg__pt_jac_mode(const jg_perturb_model *m, const jg_medium_coefficients *c, double k2,
                      double *J, int ld, int off);
+/* The entries of that block with a k^2 term (the pressure's) alone, the
+ * same numbers as jg__pt_jac_mode writes there: where only the part that
+ * changes with k^2 is wanted (a batch's A(1) - A(0), perturb_rosenbrock.c). */
+void jg__pt_jac_mode_k2_terms(const jg_perturb_model *m, const jg_medium_coefficients *c,
+                              double k2, double *J, int ld, int off);
 void jg__pt_jac_limit(const jg_perturb_model *m, const jg_medium_coefficients *c, double *J);
 void jg__pt_initial_mode(const jg_perturb_model *m, const jg_perturb_start *start, double *y);
 /* perturbations.initial_table read and attached to the model (start.c). */

@@ -27,7 +27,11 @@ typedef struct pt_system_type {
                  double *A);
   void (*start)(const jg_perturb_model *m, double k, double *y, jg_error *err, jg_status *st);
   emit_fn read_out;
-  int k_dependent; /* A depends on k (through k^2, affinely); the limit system does not */
+  /* The entries of A with a k^2 term alone, the same numbers as matrix
+   * writes there (A depends on k through k^2, affinely); NULL where A does
+   * not depend on k (the limit system). */
+  void (*k2_terms)(const jg_perturb_model *m, const jg_medium_coefficients *c, double k2,
+                   double *A);
   const unsigned char *group_scaled; /* see pt_ros_problem */
   /* Error-scale groups of the components (see rosenbrock.h), indexed by
    * component; room for the largest system. */
@@ -40,6 +44,11 @@ static int dim_limit(const jg_perturb_model *m) { return m->dim_limit; }
 static void matrix_mode(const jg_perturb_model *m, const jg_medium_coefficients *c, double k2,
                         double *A) {
   jg__pt_jac_mode(m, c, k2, A, m->dim_mode, 0);
+}
+
+static void k2_terms_mode(const jg_perturb_model *m, const jg_medium_coefficients *c,
+                          double k2, double *A) {
+  jg__pt_jac_mode_k2_terms(m, c, k2, A, m->dim_mode, 0);
 }
 
 static void matrix_limit(const jg_perturb_model *m, const jg_medium_coefficients *c, double k2,
@@ -81,21 +90,22 @@ static void start_limit(const jg_perturb_model *m, double k, double *y, jg_error
 static const unsigned char temperature_scaled[PT_ROS_MAX_DIM] = {0, 0, 0, 0, 1};
 static const unsigned char gas_scaled[PT_ROS_MAX_DIM] = {0, 0, 0, 0, 1, 1};
 static const pt_system_type system_mode = {"mode", dim_mode, matrix_mode, start_mode, jg__pt_emit_mode,
-                                           1, temperature_scaled, {0, 0, 1, 1, 1}};
+                                           k2_terms_mode, temperature_scaled, {0, 0, 1, 1, 1}};
 static const pt_system_type system_mode_uniform = {"mode", dim_mode, matrix_mode, start_mode,
-                                                   jg__pt_emit_mode, 1, NULL, {0, 0, 1, 1}};
+                                                   jg__pt_emit_mode, k2_terms_mode, NULL,
+                                                   {0, 0, 1, 1}};
 static const pt_system_type system_limit = {"large-scale limit", dim_limit, matrix_limit,
-                                            start_limit, jg__pt_emit_limit, 0, temperature_scaled,
+                                            start_limit, jg__pt_emit_limit, NULL, temperature_scaled,
                                             {0, 0, 1, 1, 1, 0, 0, 1, 1, 0, 0}};
 static const pt_system_type system_limit_uniform = {"large-scale limit", dim_limit, matrix_limit,
-                                                    start_limit, jg__pt_emit_limit, 0, NULL,
+                                                    start_limit, jg__pt_emit_limit, NULL, NULL,
                                                     {0, 0, 1, 1, 0, 0, 1, 1, 0, 0}};
 static const pt_system_type system_mode_ionisation = {"mode", dim_mode, matrix_mode, start_mode,
-                                                      jg__pt_emit_mode, 1, gas_scaled,
+                                                      jg__pt_emit_mode, k2_terms_mode, gas_scaled,
                                                       {0, 0, 1, 1, 1, 1}};
 static const pt_system_type system_limit_ionisation = {"large-scale limit", dim_limit,
                                                        matrix_limit, start_limit,
-                                                       jg__pt_emit_limit, 0, gas_scaled,
+                                                       jg__pt_emit_limit, NULL, gas_scaled,
                                                        {0, 0, 1, 1, 1, 1, 0, 0, 1, 1, 0, 0}};
 
 static const pt_system_type *mode_type(const jg_perturb_model *m) {
@@ -200,8 +210,9 @@ void jg__pt_structural_coefficients(jg_medium_coefficients *c) {
  * entry of the pattern that some call did not write would keep a value
  * from an earlier x: the matrix is built once more, at zero coefficients
  * and k^2 = 0 (where a write that depended on a value would be skipped),
- * into entries marked NaN, and the position of an entry of the pattern
- * left unwritten there is returned (-1: none). */
+ * into entries marked NaN; and a batch's k^2 part comes from k2_terms, which
+ * must write every entry that changes with k^2 as the matrix does. The
+ * position of an entry where either fails is returned (-1: none). */
 static int system_structure(ros_run *r) {
   const int n = r->dim * r->dim;
   jg_medium_coefficients c;
@@ -219,6 +230,14 @@ static int system_structure(ros_run *r) {
     if (A[r->position[e]] != A_no_k2[r->position[e]])
       r->k2_position[r->n_k2_entries++] = r->position[e];
   for (int i = 0; i < n; i++) r->k2_part[i] = 0.0;
+  if (r->type->k2_terms) {
+    double terms[PT_ROS_MAX_ENTRIES];
+    for (int i = 0; i < n; i++) terms[i] = NAN;
+    r->type->k2_terms(r->m, &c, 1.0, terms);
+    for (int e = 0; e < r->n_k2_entries; e++)
+      if (memcmp(&terms[r->k2_position[e]], &A[r->k2_position[e]], sizeof A[0]) != 0)
+        return r->k2_position[e];
+  }
   const jg_medium_coefficients zero = {0};
   for (int i = 0; i < n; i++) A[i] = NAN;
   r->type->matrix(r->m, &zero, 0.0, A);
@@ -260,7 +279,7 @@ static void matrix_parts(ros_run *r, const jg_medium_coefficients *c, int by_par
   r->type->matrix(r->m, c, by_parts ? 0.0 : r->k2[0], B0);
   if (!by_parts) return;
   double B1[PT_ROS_MAX_ENTRIES];
-  r->type->matrix(r->m, c, 1.0, B1);
+  r->type->k2_terms(r->m, c, 1.0, B1);
   for (int e = 0; e < r->n_k2_entries; e++) {
     const int at = r->k2_position[e];
     r->k2_part[at] = B1[at] - B0[at];
@@ -274,7 +293,7 @@ static int ros_matrices(void *ctx, double x, double *A, double *dA, double *rate
   /* (The slope's fields the medium does not give stay 0.) */
   if (dA) dc = (jg_medium_coefficients){0};
   if (coefficients_and_slope(m, x, &c, dA ? &dc : NULL) != 0) return 1;
-  const int by_parts = r->type->k_dependent && r->n_lanes > 1;
+  const int by_parts = r->type->k2_terms && r->n_lanes > 1;
   double B0[PT_ROS_MAX_ENTRIES];
   matrix_parts(r, &c, by_parts, B0);
   jg__ros_gather(r->n_entries, r->position, r->n_lanes, B0, by_parts ? r->k2_part : NULL, r->k2,
@@ -342,12 +361,12 @@ static jg_status ros_solve(const jg_perturb_model *m, jg_perturb_workspace *w,
   r.z = z;
   r.order = w->order;
   r.zero_fb = NAN;
-  const int unwritten = system_structure(&r);
-  if (unwritten >= 0)
+  const int inconsistent = system_structure(&r);
+  if (inconsistent >= 0)
     return JG_FAIL(err, JG_ENUMERIC,
-                   "perturbations (%s, k = %g /Mpc): the matrix function leaves entry (%d, %d) "
-                   "of its pattern unwritten at zero coefficients",
-                   type->stage, k[0], unwritten / r.dim, unwritten % r.dim);
+                   "perturbations (%s, k = %g /Mpc): internal error: the system's matrix is not "
+                   "written the same way at every call at entry (%d, %d)",
+                   type->stage, k[0], inconsistent / r.dim, inconsistent % r.dim);
   double y[PT_ROS_MAX_MODES * PT_ROS_MAX_DIM];
   for (int b = 0; b < r.n_lanes; b++) {
     jg_status st = JG_OK;
