@@ -73,9 +73,10 @@ thermal_medium *jg__pt_thermal_medium_new(const jg_thermal *th, double x_first,
                                           int effective_gamma, int ionisation, jg_error *err);
 void jg__pt_thermal_medium_free(thermal_medium *tm);
 int jg__pt_thermal_medium_eval(const void *ctx, double ln_a, jg_medium_coefficients *out);
-/* d/d ln a of the coefficients (c: the values at ln_a). */
-void jg__pt_thermal_medium_slope(const thermal_medium *tm, double ln_a,
-                                 const jg_medium_coefficients *c, jg_medium_coefficients *dc);
+/* The coefficients c at ln_a, as jg__pt_thermal_medium_eval gives them, and
+ * their d/d ln a dc; non-zero where the eval would refuse ln_a. */
+int jg__pt_thermal_medium_eval_and_slope(const thermal_medium *tm, double ln_a,
+                                         jg_medium_coefficients *c, jg_medium_coefficients *dc);
 
 /* ---- model and workspace ----------------------------------------------- */
 

@@ -251,12 +251,10 @@ static int system_structure(ros_run *r) {
 static int coefficients_and_slope(const jg_perturb_model *m, double x, jg_medium_coefficients *c,
                                   jg_medium_coefficients *dc) {
   const jg_medium *md = &m->medium;
+  /* (The tables give both from one look-up.) */
+  if (dc && m->owned) return jg__pt_thermal_medium_eval_and_slope(m->owned, x, c, dc);
   if (md->eval(md->ctx, x, c) != 0) return 1;
   if (!dc) return 0;
-  if (m->owned) {
-    jg__pt_thermal_medium_slope(m->owned, x, c, dc);
-    return 0;
-  }
   jg_medium_coefficients cp, cm;
   if (md->eval(md->ctx, x + PT_SLOPE_STEP, &cp) != 0 || md->eval(md->ctx, x - PT_SLOPE_STEP, &cm))
     return 1;
