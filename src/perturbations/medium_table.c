@@ -88,8 +88,9 @@ static inline int locate(const thermal_medium *tm, double ln_a, medium_interval 
  * slopes need the cosh: kept rather than computed twice at one ln a).
  * Forced inline: gcc called it from both users, and the plain look-up then
  * paid for the call and the cosh it does not need. */
-static inline __attribute__((always_inline)) void values_at(const thermal_medium *tm, const medium_interval *at,
-                             jg_medium_coefficients *out, sinh_cosh xe[4]) {
+static inline __attribute__((always_inline)) void
+values_at(const thermal_medium *tm, const medium_interval *at, jg_medium_coefficients *out,
+          sinh_cosh xe[4]) {
   const double *c = at->c, *e0 = at->e0, u = at->u;
   out->pressure = e0[0] * exp_small(u * (c[1] + u * (c[2] + u * c[3])));
   out->drag = e0[1] * exp_small(u * (c[5] + u * (c[6] + u * c[7])));
@@ -146,10 +147,8 @@ int jg__pt_thermal_medium_eval_and_slope(const thermal_medium *tm, double ln_a,
     /* asinh-tabulated: d sinh(v)/dx = cosh(v) dv/dx. */
     dc->ionisation_relaxation = xe[0].cosh * PT_SLOPE(4 * Q_XE_RELAX);
     dc->ionisation_density = xe[1].cosh * PT_SLOPE(4 * Q_XE_DENSITY);
-    dc->ionisation_temperature =
-        xe[2].cosh * PT_SLOPE(4 * Q_XE_TEMPERATURE);
-    dc->ionisation_expansion =
-        xe[3].cosh * PT_SLOPE(4 * Q_XE_EXPANSION);
+    dc->ionisation_temperature = xe[2].cosh * PT_SLOPE(4 * Q_XE_TEMPERATURE);
+    dc->ionisation_expansion = xe[3].cosh * PT_SLOPE(4 * Q_XE_EXPANSION);
     dc->heating_ionisation = PT_SLOPE(4 * Q_XE_HEATING) * c->relaxation +
                              PT_VALUE(4 * Q_XE_HEATING) * dc->relaxation;
     dc->pressure_ionisation = PT_SLOPE(4 * Q_XE_PRESSURE) * c->pressure +
