@@ -483,9 +483,14 @@ static void medium_against_direct(const jg_thermal *th, const thermal_medium *tm
         v[k] = gsl_spline_eval(sp[k], at, acc);
         d[k] = gsl_spline_eval_deriv(sp[k], at, acc);
       }
-      jg_medium_coefficients c, dc;
-      cr_assert_eq(jg__pt_thermal_medium_eval(tm, at, &c), 0);
-      jg__pt_thermal_medium_slope(tm, at, &c, &dc);
+      /* (Zeroed: the fields a medium does not tabulate stay 0 in both.) */
+      jg_medium_coefficients c = {0}, dc = {0}, c_alone = {0};
+      cr_assert_eq(jg__pt_thermal_medium_eval_and_slope(tm, at, &c, &dc), 0);
+      /* The values that come with the slope are the look-up's own, to the
+       * last bit (the Rosenbrock path reads both in one step). */
+      cr_assert_eq(jg__pt_thermal_medium_eval(tm, at, &c_alone), 0);
+      cr_assert(memcmp(&c, &c_alone, sizeof c) == 0, "values with the slope differ at ln a = %.17g",
+                at);
       /* value (tabulated variable), old read-out, new read-out, old slope, new slope */
       double t[][5] = {
           {v[Q_PRESSURE], exp(v[Q_PRESSURE]), c.pressure, exp(v[Q_PRESSURE]) * d[Q_PRESSURE], dc.pressure},

@@ -19,6 +19,7 @@
 #include "jeansgrow/perturb.h"
 #include "real_case.h"
 #include "support.h"
+#include "../src/perturbations/perturb_internal.h"
 
 TestSuite(perturb, .init = quiet_gsl);
 TestSuite(start_table, .init = quiet_gsl);
@@ -585,6 +586,91 @@ Test(perturb, jacobian_matches_finite_differences) {
                       zs[zi], i, j, J[i * n + j], fd);
           }
         }
+      }
+    }
+    real_close(&r);
+  }
+}
+
+/* The mode matrix at k^2 into entries marked NaN, so that those it does
+ * not write stay NaN. */
+static void marked_mode_matrix(const jg_perturb_model *m, const jg_medium_coefficients *c,
+                               double k2, int n, double *A) {
+  for (int i = 0; i < n * n; i++) A[i] = NAN;
+  jg__pt_jac_mode(m, c, k2, A, n, 0);
+}
+
+/* 0, or +-10^u with u uniform in [-6, 6]: coefficients of both signs, zero
+ * and sizes far apart. */
+static double random_coefficient(unsigned *seed) {
+  *seed = *seed * 1103515245u + 12345u;
+  const unsigned r = *seed >> 8;
+  if (r % 8 == 0) return 0.0;
+  const double u = -6.0 + 12.0 * (double)(r % 100000) / 99999.0;
+  return (r & 0x80000u ? -1.0 : 1.0) * pow(10.0, u);
+}
+
+/* The Rosenbrock path builds a batch's matrices without clearing them and
+ * takes A(k^2 = 1) - A(0) only at the entries that differ between the two
+ * with the structural coefficients, A(1) there from
+ * jg__pt_jac_mode_k2_terms (perturb_rosenbrock.c): that rests on the mode
+ * matrix writing the same entries whatever the coefficients and k^2, on
+ * every other entry coming out the same bits at k^2 = 0 and 1, so that the
+ * difference skipped is exactly +0, and on the k^2 terms alone being the
+ * matrix's bits (common practice, no source). */
+Test(perturb, mode_matrix_writes_fixed_entries_and_separates_its_k2_terms) {
+  const struct {
+    jg_sound_speed_model model;
+    int ionisation;
+  } cases[] = {{JG_SOUND_SPEED_FLUCTUATING, 1},
+               {JG_SOUND_SPEED_FLUCTUATING, 0},
+               {JG_SOUND_SPEED_ISOTHERMAL, 0},
+               {JG_SOUND_SPEED_ADIABATIC, 0},
+               {JG_SOUND_SPEED_EFFECTIVE_GAMMA, 0}};
+  unsigned seed = 2026u;
+  for (size_t ci = 0; ci < sizeof cases / sizeof cases[0]; ci++) {
+    jg_params d;
+    jg_params_set_defaults(&d);
+    d.perturbations.sound_speed = cases[ci].model;
+    d.perturbations.ionisation_perturbation = cases[ci].ionisation;
+    real_case r;
+    real_open(&r, &d.perturbations);
+    const int n = jg_perturb_dimension(r.m, JG_PERTURB_SYSTEM_MODE);
+    jg_medium_coefficients structural;
+    jg__pt_structural_coefficients(&structural);
+    double S0[256], S1[256];
+    marked_mode_matrix(r.m, &structural, 0.0, n, S0);
+    marked_mode_matrix(r.m, &structural, 1.0, n, S1);
+    int k2_terms = 0;
+    for (int i = 0; i < n * n; i++) k2_terms += !isnan(S1[i]) && S1[i] != S0[i];
+    cr_assert(k2_terms >= 1, "case %zu: no pressure term found", ci);
+    for (int trial = 0; trial < 200; trial++) {
+      jg_medium_coefficients c;
+      double *field[] = {&c.dlnH_dlna, &c.gravity, &c.baryon_fraction, &c.pressure, &c.drag,
+                         &c.relaxation, &c.pressure_effective, &c.ionisation_relaxation,
+                         &c.ionisation_density, &c.ionisation_temperature,
+                         &c.ionisation_expansion, &c.heating_ionisation,
+                         &c.pressure_ionisation};
+      for (size_t f = 0; f < sizeof field / sizeof field[0]; f++)
+        *field[f] = random_coefficient(&seed);
+      double A0[256], A1[256], terms[256];
+      marked_mode_matrix(r.m, &c, 0.0, n, A0);
+      marked_mode_matrix(r.m, &c, 1.0, n, A1);
+      for (int i = 0; i < n * n; i++) terms[i] = NAN;
+      jg__pt_jac_mode_k2_terms(r.m, &c, 1.0, terms, n, 0);
+      for (int i = 0; i < n * n; i++) {
+        cr_assert_eq(!isnan(A0[i]), !isnan(S0[i]), "case %zu: entry %d written at k^2 = 0 "
+                     "with some coefficients only", ci, i);
+        cr_assert_eq(!isnan(A1[i]), !isnan(S1[i]), "case %zu: entry %d written at k^2 = 1 "
+                     "with some coefficients only", ci, i);
+        if (!isnan(S1[i]) && S1[i] == S0[i])
+          cr_assert(memcmp(&A0[i], &A1[i], sizeof A0[i]) == 0,
+                    "case %zu: entry %d has no k^2 term with the structural coefficients but "
+                    "%.17g at k^2 = 0, %.17g at 1", ci, i, A0[i], A1[i]);
+        else if (!isnan(S1[i]))
+          cr_assert(memcmp(&terms[i], &A1[i], sizeof A1[i]) == 0,
+                    "case %zu: k^2 term %d alone %.17g, in the matrix %.17g", ci, i, terms[i],
+                    A1[i]);
       }
     }
     real_close(&r);

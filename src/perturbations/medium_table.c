@@ -64,16 +64,34 @@ static inline sinh_cosh tabulated_sinh(const double *c, const double *e0, int q,
   return sinh_cosh_near(k[0], stored[0], stored[1], u * (k[1] + u * (k[2] + u * k[3])));
 }
 
-int jg__pt_thermal_medium_eval(const void *ctx, double ln_a, jg_medium_coefficients *out) {
-  const thermal_medium *tm = ctx;
+/* The table interval holding ln_a: its polynomials, its node's stored
+ * values and the offset u from that node. */
+typedef struct medium_interval {
+  const double *c, *e0;
+  double u;
+} medium_interval;
+
+static inline int locate(const thermal_medium *tm, double ln_a, medium_interval *at) {
   double t = (ln_a - tm->x0) * tm->inv_dx;
   if (!(t > -1.0e6 && t < 1.0e9)) return 1; /* NaN or absurdly far off */
   int i = (int)t;
   if (i < 0) i = 0;
   if (i > tm->n - 2) i = tm->n - 2;
-  double u = ln_a - (tm->x0 + i * tm->dx);
-  const double *c = tm->poly + (size_t)i * 4 * N_Q;
-  const double *e0 = tm->node_rate + (size_t)i * PT_NODE_VALUES;
+  at->u = ln_a - (tm->x0 + i * tm->dx);
+  at->c = tm->poly + (size_t)i * 4 * N_Q;
+  at->e0 = tm->node_rate + (size_t)i * PT_NODE_VALUES;
+  return 0;
+}
+
+/* The coefficients in the interval; with ionisation, xe receives sinh and
+ * cosh of the four asinh-tabulated quantities, Q_XE_RELAX onwards (their
+ * slopes need the cosh: kept rather than computed twice at one ln a).
+ * Forced inline: gcc called it from both users, and the plain look-up then
+ * paid for the call and the cosh it does not need. */
+static inline __attribute__((always_inline)) void
+values_at(const thermal_medium *tm, const medium_interval *at, jg_medium_coefficients *out,
+          sinh_cosh xe[4]) {
+  const double *c = at->c, *e0 = at->e0, u = at->u;
   out->pressure = e0[0] * exp_small(u * (c[1] + u * (c[2] + u * c[3])));
   out->drag = e0[1] * exp_small(u * (c[5] + u * (c[6] + u * c[7])));
   out->relaxation = e0[2] * exp_small(u * (c[9] + u * (c[10] + u * c[11])));
@@ -83,28 +101,35 @@ int jg__pt_thermal_medium_eval(const void *ctx, double ln_a, jg_medium_coefficie
 #define PT_VALUE(q) (c[4 * (q)] + u * (c[4 * (q) + 1] + u * (c[4 * (q) + 2] + u * c[4 * (q) + 3])))
   if (tm->effective_gamma) out->pressure_effective = PT_VALUE(Q_GAMMA_EFF) * out->pressure;
   if (tm->ionisation) {
-    out->ionisation_relaxation = tabulated_sinh(c, e0, Q_XE_RELAX, u).sinh;
-    out->ionisation_density = tabulated_sinh(c, e0, Q_XE_DENSITY, u).sinh;
-    out->ionisation_temperature = tabulated_sinh(c, e0, Q_XE_TEMPERATURE, u).sinh;
-    out->ionisation_expansion = tabulated_sinh(c, e0, Q_XE_EXPANSION, u).sinh;
+    for (int q = 0; q < 4; q++) xe[q] = tabulated_sinh(c, e0, Q_XE_RELAX + q, u);
+    out->ionisation_relaxation = xe[0].sinh;
+    out->ionisation_density = xe[1].sinh;
+    out->ionisation_temperature = xe[2].sinh;
+    out->ionisation_expansion = xe[3].sinh;
     out->heating_ionisation = PT_VALUE(Q_XE_HEATING) * out->relaxation;
     out->pressure_ionisation = PT_VALUE(Q_XE_PRESSURE) * out->pressure;
   }
 #undef PT_VALUE
+}
+
+int jg__pt_thermal_medium_eval(const void *ctx, double ln_a, jg_medium_coefficients *out) {
+  const thermal_medium *tm = ctx;
+  medium_interval at;
+  if (locate(tm, ln_a, &at) != 0) return 1;
+  sinh_cosh unused[4];
+  values_at(tm, &at, out, unused);
   return 0;
 }
 
 /* d/d ln a of the coefficients, from the same polynomials (exact for the
- * tabulated medium; c holds the values at ln_a). */
-void jg__pt_thermal_medium_slope(const thermal_medium *tm, double ln_a,
-                                 const jg_medium_coefficients *c, jg_medium_coefficients *dc) {
-  double t = (ln_a - tm->x0) * tm->inv_dx;
-  int i = (int)t;
-  if (i < 0) i = 0;
-  if (i > tm->n - 2) i = tm->n - 2;
-  double u = ln_a - (tm->x0 + i * tm->dx);
-  const double *q = tm->poly + (size_t)i * 4 * N_Q;
-  const double *e0 = tm->node_rate + (size_t)i * PT_NODE_VALUES;
+ * tabulated medium). */
+int jg__pt_thermal_medium_eval_and_slope(const thermal_medium *tm, double ln_a,
+                                         jg_medium_coefficients *c, jg_medium_coefficients *dc) {
+  medium_interval at;
+  if (locate(tm, ln_a, &at) != 0) return 1;
+  sinh_cosh xe[4];
+  values_at(tm, &at, c, xe);
+  const double *q = at.c, u = at.u;
 #define PT_SLOPE(o) (q[(o) + 1] + u * (2.0 * q[(o) + 2] + 3.0 * u * q[(o) + 3]))
   dc->pressure = c->pressure * PT_SLOPE(0);
   dc->drag = c->drag * PT_SLOPE(4);
@@ -120,14 +145,10 @@ void jg__pt_thermal_medium_slope(const thermal_medium *tm, double ln_a,
   }
   if (tm->ionisation) {
     /* asinh-tabulated: d sinh(v)/dx = cosh(v) dv/dx. */
-    dc->ionisation_relaxation =
-        tabulated_sinh(q, e0, Q_XE_RELAX, u).cosh * PT_SLOPE(4 * Q_XE_RELAX);
-    dc->ionisation_density =
-        tabulated_sinh(q, e0, Q_XE_DENSITY, u).cosh * PT_SLOPE(4 * Q_XE_DENSITY);
-    dc->ionisation_temperature =
-        tabulated_sinh(q, e0, Q_XE_TEMPERATURE, u).cosh * PT_SLOPE(4 * Q_XE_TEMPERATURE);
-    dc->ionisation_expansion =
-        tabulated_sinh(q, e0, Q_XE_EXPANSION, u).cosh * PT_SLOPE(4 * Q_XE_EXPANSION);
+    dc->ionisation_relaxation = xe[0].cosh * PT_SLOPE(4 * Q_XE_RELAX);
+    dc->ionisation_density = xe[1].cosh * PT_SLOPE(4 * Q_XE_DENSITY);
+    dc->ionisation_temperature = xe[2].cosh * PT_SLOPE(4 * Q_XE_TEMPERATURE);
+    dc->ionisation_expansion = xe[3].cosh * PT_SLOPE(4 * Q_XE_EXPANSION);
     dc->heating_ionisation = PT_SLOPE(4 * Q_XE_HEATING) * c->relaxation +
                              PT_VALUE(4 * Q_XE_HEATING) * dc->relaxation;
     dc->pressure_ionisation = PT_SLOPE(4 * Q_XE_PRESSURE) * c->pressure +
@@ -136,6 +157,7 @@ void jg__pt_thermal_medium_slope(const thermal_medium *tm, double ln_a,
 #undef PT_VALUE
 #undef PT_SLOPE
   dc->baryon_fraction = c->baryon_fraction;
+  return 0;
 }
 
 void jg__pt_thermal_medium_free(thermal_medium *tm) {

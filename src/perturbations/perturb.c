@@ -384,36 +384,52 @@ static void rhs_mode(const jg_perturb_model *m, const jg_medium_coefficients *c,
   }
 }
 
+/* Rows/columns off .. off + dim_mode - 1 of J (leading dimension ld). */
+#define JA(i, j) J[(size_t)(off + (i)) * ld + off + (j)]
+
+/* The block's entries with a k^2 term (the pressure's): one definition for
+ * the whole block and for a batch's k^2 part alone, so that both give the
+ * same bits. Inlined into jg__pt_jac_mode, which runs at every step (a call
+ * there cost more than these entries). */
+static inline void mode_k2_terms(const jg_perturb_model *m, const jg_medium_coefficients *c,
+                                 double k2, double *J, int ld, int off) {
+  const double fb = c->baryon_fraction, pk2 = c->pressure * k2;
+  JA(M_BP, M_B) = m->effective_gamma ? c->gravity * fb - c->pressure_effective * k2
+                                     : c->gravity * fb - pk2 * (m->fluctuating ? 1.0 : m->gamma);
+  if (m->fluctuating) JA(M_BP, M_T) = -pk2;
+  if (m->ionisation) JA(M_BP, M_X) = -c->pressure_ionisation * k2;
+}
+
+void jg__pt_jac_mode_k2_terms(const jg_perturb_model *m, const jg_medium_coefficients *c,
+                              double k2, double *J, int ld, int off) {
+  mode_k2_terms(m, c, k2, J, ld, off);
+}
+
 void jg__pt_jac_mode(const jg_perturb_model *m, const jg_medium_coefficients *c, double k2,
                      double *J, int ld, int off) {
-  /* Block of the mode equations at rows/columns off .. off + dim_mode - 1. */
   const double fb = c->baryon_fraction, fc = 1.0 - fb;
-  const double hd = 2.0 + c->dlnH_dlna, pk2 = c->pressure * k2;
-#define JA(i, j) J[(size_t)(off + (i)) * ld + off + (j)]
+  const double hd = 2.0 + c->dlnH_dlna;
   JA(M_C, M_CP) = 1.0;
   JA(M_CP, M_C) = c->gravity * fc;
   JA(M_CP, M_CP) = -hd;
   JA(M_CP, M_B) = c->gravity * fb;
   JA(M_B, M_BP) = 1.0;
   JA(M_BP, M_C) = c->gravity * fc;
-  JA(M_BP, M_B) = m->effective_gamma ? c->gravity * fb - c->pressure_effective * k2
-                                     : c->gravity * fb - pk2 * (m->fluctuating ? 1.0 : m->gamma);
+  mode_k2_terms(m, c, k2, J, ld, off);
   JA(M_BP, M_BP) = -(hd + c->drag);
   if (m->fluctuating) {
-    JA(M_BP, M_T) = -pk2;
     JA(M_T, M_BP) = 2.0 / 3.0;
     JA(M_T, M_T) = -c->relaxation;
   }
   if (m->ionisation) {
-    JA(M_BP, M_X) = -c->pressure_ionisation * k2;
     JA(M_T, M_X) = c->heating_ionisation;
     JA(M_X, M_B) = c->ionisation_density;
     JA(M_X, M_BP) = c->ionisation_expansion;
     JA(M_X, M_T) = c->ionisation_temperature;
     JA(M_X, M_X) = -c->ionisation_relaxation;
   }
-#undef JA
 }
+#undef JA
 
 /* Limit system: [k = 0 mode | K^2 d/dk^2 of delta_c, delta_c', delta_b, delta_b'
  * | K^2 J, K^2 J']. The k^2 derivative obeys the k = 0 equations plus the

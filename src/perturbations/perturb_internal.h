@@ -73,9 +73,10 @@ thermal_medium *jg__pt_thermal_medium_new(const jg_thermal *th, double x_first,
                                           int effective_gamma, int ionisation, jg_error *err);
 void jg__pt_thermal_medium_free(thermal_medium *tm);
 int jg__pt_thermal_medium_eval(const void *ctx, double ln_a, jg_medium_coefficients *out);
-/* d/d ln a of the coefficients (c: the values at ln_a). */
-void jg__pt_thermal_medium_slope(const thermal_medium *tm, double ln_a,
-                                 const jg_medium_coefficients *c, jg_medium_coefficients *dc);
+/* The coefficients c at ln_a, as jg__pt_thermal_medium_eval gives them, and
+ * their d/d ln a dc; non-zero where the eval would refuse ln_a. */
+int jg__pt_thermal_medium_eval_and_slope(const thermal_medium *tm, double ln_a,
+                                         jg_medium_coefficients *c, jg_medium_coefficients *dc);
 
 /* ---- model and workspace ----------------------------------------------- */
 
@@ -130,6 +131,11 @@ struct jg_perturb_workspace {
 
 void jg__pt_jac_mode(const jg_perturb_model *m, const jg_medium_coefficients *c, double k2,
                      double *J, int ld, int off);
+/* The entries of that block with a k^2 term (the pressure's) alone, the
+ * same numbers as jg__pt_jac_mode writes there: where only the part that
+ * changes with k^2 is wanted (a batch's A(1) - A(0), perturb_rosenbrock.c). */
+void jg__pt_jac_mode_k2_terms(const jg_perturb_model *m, const jg_medium_coefficients *c,
+                              double k2, double *J, int ld, int off);
 void jg__pt_jac_limit(const jg_perturb_model *m, const jg_medium_coefficients *c, double *J);
 void jg__pt_initial_mode(const jg_perturb_model *m, const jg_perturb_start *start, double *y);
 /* perturbations.initial_table read and attached to the model (start.c). */

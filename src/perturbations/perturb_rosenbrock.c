@@ -17,13 +17,21 @@
 typedef struct pt_system_type {
   const char *stage; /* for messages */
   int (*dimension)(const jg_perturb_model *m);
-  /* A (dim x dim, row-major, every entry written); A is affine in the
-   * coefficients, which the slope dA/dx relies on (see ros_matrices). */
+  /* A (dim x dim, row-major); A is affine in the coefficients, which the
+   * slope dA/dx relies on (see ros_matrices). It writes the same entries at
+   * every call, whatever the coefficients and k^2, and leaves the others as
+   * they were: only the pattern's entries are ever read, so the matrices
+   * need no clearing per call (system_structure checks that every entry of
+   * the pattern is written). */
   void (*matrix)(const jg_perturb_model *m, const jg_medium_coefficients *c, double k2,
                  double *A);
   void (*start)(const jg_perturb_model *m, double k, double *y, jg_error *err, jg_status *st);
   emit_fn read_out;
-  int k_dependent; /* A depends on k (through k^2, affinely); the limit system does not */
+  /* The entries of A with a k^2 term alone, the same numbers as matrix
+   * writes there (A depends on k through k^2, affinely); NULL where A does
+   * not depend on k (the limit system). */
+  void (*k2_terms)(const jg_perturb_model *m, const jg_medium_coefficients *c, double k2,
+                   double *A);
   const unsigned char *group_scaled; /* see pt_ros_problem */
   /* Error-scale groups of the components (see rosenbrock.h), indexed by
    * component; room for the largest system. */
@@ -35,8 +43,12 @@ static int dim_limit(const jg_perturb_model *m) { return m->dim_limit; }
 
 static void matrix_mode(const jg_perturb_model *m, const jg_medium_coefficients *c, double k2,
                         double *A) {
-  memset(A, 0, sizeof(double) * (size_t)m->dim_mode * m->dim_mode);
   jg__pt_jac_mode(m, c, k2, A, m->dim_mode, 0);
+}
+
+static void k2_terms_mode(const jg_perturb_model *m, const jg_medium_coefficients *c,
+                          double k2, double *A) {
+  jg__pt_jac_mode_k2_terms(m, c, k2, A, m->dim_mode, 0);
 }
 
 static void matrix_limit(const jg_perturb_model *m, const jg_medium_coefficients *c, double k2,
@@ -78,21 +90,22 @@ static void start_limit(const jg_perturb_model *m, double k, double *y, jg_error
 static const unsigned char temperature_scaled[PT_ROS_MAX_DIM] = {0, 0, 0, 0, 1};
 static const unsigned char gas_scaled[PT_ROS_MAX_DIM] = {0, 0, 0, 0, 1, 1};
 static const pt_system_type system_mode = {"mode", dim_mode, matrix_mode, start_mode, jg__pt_emit_mode,
-                                           1, temperature_scaled, {0, 0, 1, 1, 1}};
+                                           k2_terms_mode, temperature_scaled, {0, 0, 1, 1, 1}};
 static const pt_system_type system_mode_uniform = {"mode", dim_mode, matrix_mode, start_mode,
-                                                   jg__pt_emit_mode, 1, NULL, {0, 0, 1, 1}};
+                                                   jg__pt_emit_mode, k2_terms_mode, NULL,
+                                                   {0, 0, 1, 1}};
 static const pt_system_type system_limit = {"large-scale limit", dim_limit, matrix_limit,
-                                            start_limit, jg__pt_emit_limit, 0, temperature_scaled,
+                                            start_limit, jg__pt_emit_limit, NULL, temperature_scaled,
                                             {0, 0, 1, 1, 1, 0, 0, 1, 1, 0, 0}};
 static const pt_system_type system_limit_uniform = {"large-scale limit", dim_limit, matrix_limit,
-                                                    start_limit, jg__pt_emit_limit, 0, NULL,
+                                                    start_limit, jg__pt_emit_limit, NULL, NULL,
                                                     {0, 0, 1, 1, 0, 0, 1, 1, 0, 0}};
 static const pt_system_type system_mode_ionisation = {"mode", dim_mode, matrix_mode, start_mode,
-                                                      jg__pt_emit_mode, 1, gas_scaled,
+                                                      jg__pt_emit_mode, k2_terms_mode, gas_scaled,
                                                       {0, 0, 1, 1, 1, 1}};
 static const pt_system_type system_limit_ionisation = {"large-scale limit", dim_limit,
                                                        matrix_limit, start_limit,
-                                                       jg__pt_emit_limit, 0, gas_scaled,
+                                                       jg__pt_emit_limit, NULL, gas_scaled,
                                                        {0, 0, 1, 1, 1, 1, 0, 0, 1, 1, 0, 0}};
 
 static const pt_system_type *mode_type(const jg_perturb_model *m) {
@@ -161,10 +174,21 @@ typedef struct ros_run {
   /* The system's pattern and its entries' positions (integrator layout). */
   unsigned char pattern[PT_ROS_MAX_ENTRIES];
   int n_entries, position[PT_ROS_MAX_ENTRIES];
+  /* The k^2 part A(1) - A(0) of the batch's matrices, dense: only the
+   * positions k2_position[0..n_k2_entries) of the entries that depend on
+   * k^2 (the pressure terms) are written per call; every other entry of
+   * the pattern is built alike at k^2 = 0 and 1, so its difference is
+   * exactly 0 and stays the 0 it was set to once per solve. */
+  int n_k2_entries, k2_position[PT_ROS_MAX_ENTRIES];
+  double k2_part[PT_ROS_MAX_ENTRIES];
   /* A at zero coefficients (the constant part of the affine A), for the
-   * baryon fraction zero_fb (NaN: not yet built). */
+   * baryon fraction zero_fb (NaN: not yet built), and the positions of its
+   * entries of the pattern that are not +0 (subtracting +0 changes no
+   * number, not even a zero's sign; -0 would turn -0 into +0, so those
+   * are kept). */
   double zero_fb;
   double A_zero[PT_ROS_MAX_ENTRIES];
+  int n_constant_entries, constant_position[PT_ROS_MAX_ENTRIES];
 } ros_run;
 
 /* Coefficients with every field non-zero and no two alike, so that an
@@ -179,15 +203,47 @@ void jg__pt_structural_coefficients(jg_medium_coefficients *c) {
   *c = distinct;
 }
 
-/* Which entries of a system's matrix can be non-zero (at k^2 = 1, where
- * every pressure term is present). */
-static void system_pattern(const jg_perturb_model *m, const pt_system_type *type, int dim,
-                           unsigned char *pattern) {
+/* The structure of the run's system, found once per solve: which entries
+ * of its matrix can be non-zero (at k^2 = 1, where every pressure term is
+ * present), their positions, and which of them change with k^2. The
+ * matrices of the steps are built without clearing (pt_system_type), so an
+ * entry of the pattern that some call did not write would keep a value
+ * from an earlier x: the matrix is built once more, at zero coefficients
+ * and k^2 = 0 (where a write that depended on a value would be skipped),
+ * into entries marked NaN; and a batch's k^2 part comes from k2_terms, which
+ * must write every entry that changes with k^2 as the matrix does. The
+ * position of an entry where either fails is returned (-1: none). */
+static int system_structure(ros_run *r) {
+  const int n = r->dim * r->dim;
   jg_medium_coefficients c;
   jg__pt_structural_coefficients(&c);
-  double A[PT_ROS_MAX_ENTRIES];
-  type->matrix(m, &c, 1.0, A);
-  for (int i = 0; i < dim * dim; i++) pattern[i] = A[i] != 0.0;
+  double A[PT_ROS_MAX_ENTRIES], A_no_k2[PT_ROS_MAX_ENTRIES];
+  for (int i = 0; i < n; i++) A[i] = A_no_k2[i] = NAN;
+  r->type->matrix(r->m, &c, 1.0, A);
+  r->type->matrix(r->m, &c, 0.0, A_no_k2);
+  for (int i = 0; i < n; i++) r->pattern[i] = !isnan(A[i]) && A[i] != 0.0;
+  r->n_entries = jg__ros_entry_positions(r->dim, r->pattern, r->position);
+  /* (The coefficients are distinct and non-zero: an entry with a k^2 term
+   * differs here.) */
+  r->n_k2_entries = 0;
+  for (int e = 0; e < r->n_entries; e++)
+    if (A[r->position[e]] != A_no_k2[r->position[e]])
+      r->k2_position[r->n_k2_entries++] = r->position[e];
+  for (int i = 0; i < n; i++) r->k2_part[i] = 0.0;
+  if (r->type->k2_terms) {
+    double terms[PT_ROS_MAX_ENTRIES];
+    for (int i = 0; i < n; i++) terms[i] = NAN;
+    r->type->k2_terms(r->m, &c, 1.0, terms);
+    for (int e = 0; e < r->n_k2_entries; e++)
+      if (memcmp(&terms[r->k2_position[e]], &A[r->k2_position[e]], sizeof A[0]) != 0)
+        return r->k2_position[e];
+  }
+  const jg_medium_coefficients zero = {0};
+  for (int i = 0; i < n; i++) A[i] = NAN;
+  r->type->matrix(r->m, &zero, 0.0, A);
+  for (int i = 0; i < n; i++)
+    if (r->pattern[i] && isnan(A[i])) return i;
+  return -1;
 }
 
 /* Coefficients at x and, if dc, their slope: exact for the tabulated
@@ -195,12 +251,10 @@ static void system_pattern(const jg_perturb_model *m, const pt_system_type *type
 static int coefficients_and_slope(const jg_perturb_model *m, double x, jg_medium_coefficients *c,
                                   jg_medium_coefficients *dc) {
   const jg_medium *md = &m->medium;
+  /* (The tables give both from one look-up.) */
+  if (dc && m->owned) return jg__pt_thermal_medium_eval_and_slope(m->owned, x, c, dc);
   if (md->eval(md->ctx, x, c) != 0) return 1;
   if (!dc) return 0;
-  if (m->owned) {
-    jg__pt_thermal_medium_slope(m->owned, x, c, dc);
-    return 0;
-  }
   jg_medium_coefficients cp, cm;
   if (md->eval(md->ctx, x + PT_SLOPE_STEP, &cp) != 0 || md->eval(md->ctx, x - PT_SLOPE_STEP, &cm))
     return 1;
@@ -216,26 +270,32 @@ static int coefficients_and_slope(const jg_perturb_model *m, double x, jg_medium
 
 /* The matrices of the batch: A is affine in k^2 (the pressure terms), so
  * A(k^2) = A(0) + k^2 (A(1) - A(0)), two matrices per x for the whole
- * batch (one, built at its k^2, for a lone mode); and affine in the
- * coefficients, so dA/dx = A(c') - A(c = 0). */
-static void matrix_parts(const ros_run *r, const jg_medium_coefficients *c, int by_parts,
-                         double *B0, double *B1) {
+ * batch (one, built at its k^2, for a lone mode): B0 = A(0) and, for a
+ * batch, r->k2_part = A(1) - A(0). A is affine in the coefficients too, so
+ * dA/dx = A(c') - A(c = 0). */
+static void matrix_parts(ros_run *r, const jg_medium_coefficients *c, int by_parts, double *B0) {
   r->type->matrix(r->m, c, by_parts ? 0.0 : r->k2[0], B0);
   if (!by_parts) return;
-  r->type->matrix(r->m, c, 1.0, B1);
-  for (int i = 0; i < r->dim * r->dim; i++) B1[i] -= B0[i];
+  double B1[PT_ROS_MAX_ENTRIES];
+  r->type->k2_terms(r->m, c, 1.0, B1);
+  for (int e = 0; e < r->n_k2_entries; e++) {
+    const int at = r->k2_position[e];
+    r->k2_part[at] = B1[at] - B0[at];
+  }
 }
 
 static int ros_matrices(void *ctx, double x, double *A, double *dA, double *rate) {
   ros_run *r = ctx;
   const jg_perturb_model *m = r->m;
-  jg_medium_coefficients c, dc = {0};
+  jg_medium_coefficients c, dc;
+  /* (The slope's fields the medium does not give stay 0.) */
+  if (dA) dc = (jg_medium_coefficients){0};
   if (coefficients_and_slope(m, x, &c, dA ? &dc : NULL) != 0) return 1;
-  const int by_parts = r->type->k_dependent && r->n_lanes > 1;
-  double B0[PT_ROS_MAX_ENTRIES], B1[PT_ROS_MAX_ENTRIES];
-  matrix_parts(r, &c, by_parts, B0, B1);
-  jg__ros_gather(r->n_entries, r->position, r->n_lanes, B0, by_parts ? B1 : NULL, r->k2, NULL,
-                 NULL, A);
+  const int by_parts = r->type->k2_terms && r->n_lanes > 1;
+  double B0[PT_ROS_MAX_ENTRIES];
+  matrix_parts(r, &c, by_parts, B0);
+  jg__ros_gather(r->n_entries, r->position, r->n_lanes, B0, by_parts ? r->k2_part : NULL, r->k2,
+                 NULL, NULL, A);
   /* The rates grow with k^2: the batch's largest k bounds them all. */
   if (rate) *rate = fastest_rate(m, &c, r->k2_max);
   if (dA) {
@@ -246,11 +306,18 @@ static int ros_matrices(void *ctx, double x, double *A, double *dA, double *rate
       zero.baryon_fraction = c.baryon_fraction;
       r->type->matrix(m, &zero, 0.0, r->A_zero);
       r->zero_fb = c.baryon_fraction;
+      r->n_constant_entries = 0;
+      for (int e = 0; e < r->n_entries; e++) {
+        const int at = r->position[e];
+        if (r->A_zero[at] != 0.0 || signbit(r->A_zero[at]))
+          r->constant_position[r->n_constant_entries++] = at;
+      }
     }
-    matrix_parts(r, &dc, by_parts, B0, B1);
-    for (int i = 0; i < r->dim * r->dim; i++) B0[i] -= r->A_zero[i];
-    jg__ros_gather(r->n_entries, r->position, r->n_lanes, B0, by_parts ? B1 : NULL, r->k2,
-                   NULL, NULL, dA);
+    matrix_parts(r, &dc, by_parts, B0);
+    for (int e = 0; e < r->n_constant_entries; e++)
+      B0[r->constant_position[e]] -= r->A_zero[r->constant_position[e]];
+    jg__ros_gather(r->n_entries, r->position, r->n_lanes, B0, by_parts ? r->k2_part : NULL,
+                   r->k2, NULL, NULL, dA);
   }
   return 0;
 }
@@ -292,8 +359,12 @@ static jg_status ros_solve(const jg_perturb_model *m, jg_perturb_workspace *w,
   r.z = z;
   r.order = w->order;
   r.zero_fb = NAN;
-  system_pattern(m, type, r.dim, r.pattern);
-  r.n_entries = jg__ros_entry_positions(r.dim, r.pattern, r.position);
+  const int inconsistent = system_structure(&r);
+  if (inconsistent >= 0)
+    return JG_FAIL(err, JG_ENUMERIC,
+                   "perturbations (%s, k = %g /Mpc): internal error: the system's matrix is not "
+                   "written the same way at every call at entry (%d, %d)",
+                   type->stage, k[0], inconsistent / r.dim, inconsistent % r.dim);
   double y[PT_ROS_MAX_MODES * PT_ROS_MAX_DIM];
   for (int b = 0; b < r.n_lanes; b++) {
     jg_status st = JG_OK;
