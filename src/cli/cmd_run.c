@@ -25,6 +25,10 @@
 enum { FILE_HISTORY, FILE_EPOCHS, FILE_SCALES, FILE_GROWTH, N_RUN_FILES };
 static const char *const run_file_names[N_RUN_FILES] = {"history.txt", "epochs.txt",
                                                         "scales.txt", "growth.txt"};
+/* The pieces formatted apart: one per file, and the second half of the
+ * growth table's rows, which goes into growth.txt after the first. */
+enum { PART_GROWTH_TAIL = N_RUN_FILES, N_TABLE_PARTS };
+static int file_of_part(int part) { return part < N_RUN_FILES ? part : FILE_GROWTH; }
 
 /* Make sure the folder exists (create one level) and can be written, before
  * any long work. */
@@ -61,11 +65,12 @@ typedef struct run_results {
   jg_growth_grid *growth;
   double *k;
   int n_k;
-  table_text tables[N_RUN_FILES];
+  table_text tables[N_TABLE_PARTS];
 } run_results;
 
 static jg_status write_table(int which, FILE *f, const jg_params *p, const jg_thermal *th,
                              const run_results *r, jg_error *err) {
+  const int n_growth_rows = r->growth ? r->growth->n_z * r->growth->n_k : 0;
   switch (which) {
   case FILE_HISTORY:
     return jg_report_history(f, p, th, err);
@@ -73,8 +78,11 @@ static jg_status write_table(int which, FILE *f, const jg_params *p, const jg_th
     return jg_report_epochs(f, p, &r->epochs, err);
   case FILE_SCALES:
     return jg_report_scales(f, p, th, r->scales, p->output.n_redshifts, err);
+  case FILE_GROWTH:
+    jg_report_growth_header(f, p, th, r->growth);
+    return jg_report_growth_rows(f, p, th, r->growth, 0, n_growth_rows / 2, err);
   default:
-    return jg_report_growth(f, p, th, r->growth, err);
+    return jg_report_growth_rows(f, p, th, r->growth, n_growth_rows / 2, n_growth_rows, err);
   }
 }
 
@@ -83,23 +91,26 @@ static jg_status write_table(int which, FILE *f, const jg_params *p, const jg_th
  * it has them, and only copied into their files at the end. */
 static void format_table(int which, const jg_params *p, const jg_thermal *th, run_results *r) {
   table_text *t = &r->tables[which];
+  const char *name = run_file_names[file_of_part(which)];
   jg_error_clear(&t->err);
   t->text = NULL;
   t->size = 0;
   FILE *f = open_memstream(&t->text, &t->size);
   if (!f) {
     t->text = NULL;
-    t->status = JG_FAIL(&t->err, JG_ENOMEM, "out of memory for %s", run_file_names[which]);
+    t->status = JG_FAIL(&t->err, JG_ENOMEM, "out of memory for %s", name);
     return;
   }
   t->status = write_table(which, f, p, th, r, &t->err);
   const int failed = ferror(f);
   if ((fclose(f) != 0 || failed) && t->status == JG_OK)
-    t->status = JG_FAIL(&t->err, JG_ENOMEM, "out of memory for %s", run_file_names[which]);
+    t->status = JG_FAIL(&t->err, JG_ENOMEM, "out of memory for %s", name);
 }
 
-/* The growth grid and its table, on a thread of its own beside the scales
- * (see compute_all): its own workspace, its own error records. */
+/* The growth grid and half of its table, on a thread of its own beside the
+ * scales (see compute_all): its own workspace, its own error records. It
+ * says when the grid is done, so that the other half can be formatted
+ * meanwhile. */
 typedef struct growth_job {
   const jg_params *p;
   const jg_thermal *th;
@@ -107,6 +118,9 @@ typedef struct growth_job {
   run_results *r;
   jg_status status;
   jg_error err;
+  pthread_mutex_t lock;
+  pthread_cond_t grid_ready;
+  int grid_done;
 } growth_job;
 
 static jg_status compute_growth(growth_job *job, jg_perturb_workspace *ws) {
@@ -116,15 +130,20 @@ static jg_status compute_growth(growth_job *job, jg_perturb_workspace *ws) {
                                         p->output.n_redshifts, &r->growth, &job->err);
   if (st == JG_OK)
     st = jg_growth_grid_add_streaming(r->growth, job->model, ws, &p->streaming, &job->err);
-  if (st == JG_OK) format_table(FILE_GROWTH, p, job->th, r);
   return st;
 }
 
 static void *growth_thread(void *arg) {
   growth_job *job = arg;
   jg_perturb_workspace *ws = jg_perturb_workspace_new(job->model, &job->err);
-  job->status = ws ? compute_growth(job, ws) : job->err.status;
+  const jg_status st = ws ? compute_growth(job, ws) : job->err.status;
   jg_perturb_workspace_free(ws);
+  pthread_mutex_lock(&job->lock);
+  job->status = st;
+  job->grid_done = 1;
+  pthread_cond_signal(&job->grid_ready);
+  pthread_mutex_unlock(&job->lock);
+  if (st == JG_OK) format_table(PART_GROWTH_TAIL, job->p, job->th, job->r);
   return NULL;
 }
 
@@ -136,22 +155,24 @@ static int usable_cores(void) {
   return (int)sysconf(_SC_NPROCESSORS_ONLN);
 }
 
-/* Two cores or more: the growth grid and its table run on a second thread
- * while this one formats the history table and does the epochs and the
- * scales (at the reference parameters about 175 and 130 million
- * instructions). Both read the model and the history, which are read-only
- * once built, and write their own results; a batch of wavenumbers gives the
- * same numbers on any thread, so the tables do not depend on it. The second
- * thread takes no interrupts (they stay with this one, whose handler
- * removes the temporary files) and touches no file. With one core the same
- * steps run one after the other. */
+/* Two cores or more: the growth grid runs on a second thread while this one
+ * formats the history table and does the epochs and the scales; then each
+ * formats half of the growth table (at the reference parameters the
+ * threads' shares are about 150 and 155 million instructions, after 38
+ * million of start-up and history). Both read the model and the history,
+ * which are read-only once built, and write their own results; a batch of
+ * wavenumbers gives the same numbers on any thread, so the tables do not
+ * depend on it. The second thread takes no interrupts (they stay with this
+ * one, whose handler removes the temporary files) and touches no file.
+ * With one core the same steps run one after the other. */
 static jg_status compute_all(const jg_params *p, const jg_thermal *th, jg_perturb_model *model,
                              jg_perturb_workspace *ws, run_results *r, jg_error *err) {
   r->k = malloc(sizeof(double) * JG_MAX_WAVENUMBERS);
   if (!r->k) return JG_FAIL(err, JG_ENOMEM, "out of memory for the wavenumbers");
   jg_status st = jg_perturb_wavenumbers(&p->perturbations, r->k, &r->n_k, err);
   if (st != JG_OK) return st;
-  growth_job job = {p, th, model, r, JG_OK, {0}};
+  growth_job job = {p, th, model, r, JG_OK, {0}, PTHREAD_MUTEX_INITIALIZER,
+                    PTHREAD_COND_INITIALIZER, 0};
   jg_error_clear(&job.err);
   pthread_t worker;
   int parallel = usable_cores() > 1;
@@ -171,8 +192,20 @@ static jg_status compute_all(const jg_params *p, const jg_thermal *th, jg_pertur
   if (st == JG_OK)
     st = jg_scales_add_streaming(model, ws, &p->streaming, p->output.redshifts,
                                  p->output.n_redshifts, r->scales, err);
+  if (parallel) {
+    pthread_mutex_lock(&job.lock);
+    while (!job.grid_done) pthread_cond_wait(&job.grid_ready, &job.lock);
+    pthread_mutex_unlock(&job.lock);
+  } else if (st == JG_OK) {
+    job.status = compute_growth(&job, ws);
+  }
+  if (st == JG_OK && job.status == JG_OK) {
+    format_table(FILE_GROWTH, p, th, r);
+    if (!parallel) format_table(PART_GROWTH_TAIL, p, th, r);
+  }
   if (parallel) pthread_join(worker, NULL);
-  else if (st == JG_OK) job.status = compute_growth(&job, ws);
+  pthread_cond_destroy(&job.grid_ready);
+  pthread_mutex_destroy(&job.lock);
   /* The first failure in the order of the sequential run is the one told. */
   if (st == JG_OK && job.status != JG_OK) {
     *err = job.err;
@@ -367,12 +400,16 @@ int cmd_run(const cli_command *cmd, int argc, char **argv) {
     /* A table that could not be formatted fails where writing it would
      * have, after its file was opened: the first failure of the run in
      * its order is the one told. */
-    const table_text *t = &r->tables[i];
-    if (rc < 0 && t->status != JG_OK) {
-      err = t->err;
-      st = t->status;
-    } else if (rc < 0) {
-      fwrite(t->text, 1, t->size, jg_output_stream(out[i]));
+    for (int part = 0; rc < 0 && st == JG_OK && part < N_TABLE_PARTS; part++) {
+      const table_text *t = &r->tables[part];
+      if (file_of_part(part) != i) continue;
+      if (t->status != JG_OK) {
+        err = t->err;
+        st = t->status;
+      } else {
+        /* a failed write shows in the stream's error flag at the commit */
+        fwrite(t->text, 1, t->size, jg_output_stream(out[i]));
+      }
     }
   }
   if (rc < 0 && st == JG_OK) {
@@ -400,7 +437,7 @@ int cmd_run(const cli_command *cmd, int argc, char **argv) {
     if (figures) rc = draw_figures(dir);
   }
   if (r) {
-    for (int i = 0; i < N_RUN_FILES; i++) free(r->tables[i].text);
+    for (int i = 0; i < N_TABLE_PARTS; i++) free(r->tables[i].text);
     jg_growth_grid_free(r->growth);
     free(r->k);
     free(r);
