@@ -158,7 +158,7 @@ static int usable_cores(void) {
 /* Two cores or more: the growth grid runs on a second thread while this one
  * formats the history table and does the epochs and the scales; then each
  * formats half of the growth table (at the reference parameters the
- * threads' shares are about 150 and 155 million instructions, after 38
+ * threads' shares are about 158 and 154 million instructions, after 35
  * million of start-up and history). Both read the model and the history,
  * which are read-only once built, and write their own results; a batch of
  * wavenumbers gives the same numbers on any thread, so the tables do not
