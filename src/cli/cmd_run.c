@@ -68,9 +68,12 @@ typedef struct run_results {
   table_text tables[N_TABLE_PARTS];
 } run_results;
 
+/* Only the growth parts look at r->growth, which the second thread may be
+ * writing while this thread formats the history table. */
+static int growth_rows(const run_results *r) { return r->growth->n_z * r->growth->n_k; }
+
 static jg_status write_table(int which, FILE *f, const jg_params *p, const jg_thermal *th,
                              const run_results *r, jg_error *err) {
-  const int n_growth_rows = r->growth ? r->growth->n_z * r->growth->n_k : 0;
   switch (which) {
   case FILE_HISTORY:
     return jg_report_history(f, p, th, err);
@@ -80,9 +83,9 @@ static jg_status write_table(int which, FILE *f, const jg_params *p, const jg_th
     return jg_report_scales(f, p, th, r->scales, p->output.n_redshifts, err);
   case FILE_GROWTH:
     jg_report_growth_header(f, p, th, r->growth);
-    return jg_report_growth_rows(f, p, th, r->growth, 0, n_growth_rows / 2, err);
+    return jg_report_growth_rows(f, p, th, r->growth, 0, growth_rows(r) / 2, err);
   default:
-    return jg_report_growth_rows(f, p, th, r->growth, n_growth_rows / 2, n_growth_rows, err);
+    return jg_report_growth_rows(f, p, th, r->growth, growth_rows(r) / 2, growth_rows(r), err);
   }
 }
 
