@@ -7,11 +7,13 @@
  * promise in their --help text and in the conventions: the table layout,
  * exact requested redshifts, --set applied and recorded, atomic output.
  */
+#define _GNU_SOURCE /* sched_setaffinity: `run` with one usable core */
 #include <criterion/criterion.h>
 #include <dirent.h>
 #include <errno.h>
 #include <fcntl.h>
 #include <math.h>
+#include <sched.h>
 #include <signal.h>
 #include <stdio.h>
 #include <stdlib.h>
@@ -741,6 +743,61 @@ Test(good_runs, run_tables_equal_the_single_commands, .timeout = 120) {
     cr_expect(strcmp(a, b) == 0, "%s of run differs from the single command's", names[i]);
     free(a);
     free(b);
+  }
+  remove_dir(dir);
+}
+
+/* `run` formats its tables on a second thread when it may use two cores
+ * and on one thread otherwise (its CPU affinity decides, which the child
+ * inherits): either way each of its four files must be, byte for byte,
+ * what the single command writes to its own file. */
+Test(good_runs, run_files_equal_the_single_commands_on_one_core_and_two, .timeout = 120) {
+  cpu_set_t all, one;
+  cr_assert_eq(sched_getaffinity(0, sizeof all, &all), 0, "sched_getaffinity: %s",
+               strerror(errno));
+  if (CPU_COUNT(&all) < 2) cr_skip_test("needs two usable cores to run `run` both ways");
+  CPU_ZERO(&one);
+  for (int c = 0; c < CPU_SETSIZE; c++)
+    if (CPU_ISSET(c, &all)) {
+      CPU_SET(c, &one);
+      break;
+    }
+  char dir[64];
+  make_temp_dir(dir, sizeof dir);
+  static const char *const commands[] = {"history", "epochs", "scales", "growth"};
+  enum { N_TABLES = sizeof commands / sizeof commands[0] };
+  char single[N_TABLES][128];
+  for (int i = 0; i < N_TABLES; i++) {
+    snprintf(single[i], sizeof single[i], "%s/%s.txt", dir, commands[i]);
+    const char *args[] = {commands[i], REFERENCE, "--set", "perturbations.k_count=20",
+                          "-o", single[i], NULL};
+    run_result r;
+    run(args, &r);
+    cr_assert(exited_with(&r, 0), "%s failed: %s", commands[i], r.err);
+    run_free(&r);
+  }
+  for (int cores = 1; cores <= 2; cores++) {
+    char folder[128];
+    snprintf(folder, sizeof folder, "%s/cores%d", dir, cores);
+    const char *args[] = {"run", REFERENCE, "--set", "perturbations.k_count=20", "--no-figures",
+                          "-o", folder, NULL};
+    cr_assert_eq(sched_setaffinity(0, sizeof(cpu_set_t), cores == 1 ? &one : &all), 0,
+                 "sched_setaffinity: %s", strerror(errno));
+    run_result r;
+    run(args, &r);
+    sched_setaffinity(0, sizeof(cpu_set_t), &all);
+    cr_assert(exited_with(&r, 0), "run on %d core(s) failed: %s", cores, r.err);
+    run_free(&r);
+    for (int i = 0; i < N_TABLES; i++) {
+      char path[192];
+      snprintf(path, sizeof path, "%s/%s.txt", folder, commands[i]);
+      char *a = read_text(path), *b = read_text(single[i]);
+      cr_assert(a && b && a[0], "%s.txt missing", commands[i]);
+      cr_expect(strcmp(a, b) == 0, "%s.txt of run on %d core(s) differs from `%s -o`'s file",
+                commands[i], cores, commands[i]);
+      free(a);
+      free(b);
+    }
   }
   remove_dir(dir);
 }

@@ -253,6 +253,9 @@ Test(null_error, results) {
                JG_OK);
   g->points[0].delta_b = NAN;
   cr_assert_neq(jg_report_growth(sink, &s.p, s.th, g, NULL), JG_OK);
+  cr_assert_neq(jg_report_growth_rows(sink, &s.p, s.th, g, 0, 1, NULL), JG_OK);
+  /* and rows it does not have (two: one wavenumber, two redshifts) */
+  cr_assert_neq(jg_report_growth_rows(sink, &s.p, s.th, g, 1, 3, NULL), JG_OK);
   jg_growth_grid_free(g);
   fclose(sink);
 
@@ -490,6 +493,42 @@ Test(universe, tables_are_the_programs_character_for_character) {
   cr_assert(strstr(e.message, "output.redshifts") != NULL, "%s", e.message);
   jg_universe_free(u);
   jg_config_free(c);
+}
+
+/* The growth table written in pieces (header, then consecutive row ranges,
+ * as `run` does on two threads) is the whole table, whatever the cut. */
+Test(embed, growth_table_in_pieces_is_the_whole_table) {
+  stages s;
+  stages_build(&s);
+  double k[JG_MAX_WAVENUMBERS];
+  int n_k = 0;
+  cr_assert_eq(jg_perturb_wavenumbers(&s.p.perturbations, k, &n_k, NULL), JG_OK);
+  jg_growth_grid *g = NULL;
+  cr_assert_eq(jg_growth_grid_compute(s.m, s.w, k, n_k, s.p.output.redshifts,
+                                      s.p.output.n_redshifts, &g, NULL),
+               JG_OK);
+  const int n_rows = g->n_z * g->n_k;
+  char *whole = NULL;
+  size_t whole_size = 0;
+  FILE *f = open_memstream(&whole, &whole_size);
+  cr_assert_not_null(f);
+  cr_assert_eq(jg_report_growth(f, &s.p, s.th, g, NULL), JG_OK);
+  cr_assert_eq(fclose(f), 0);
+  for (int cut = 0; cut <= n_rows; cut++) {
+    char *pieces = NULL;
+    size_t size = 0;
+    f = open_memstream(&pieces, &size);
+    cr_assert_not_null(f);
+    jg_report_growth_header(f, &s.p, s.th, g);
+    cr_assert_eq(jg_report_growth_rows(f, &s.p, s.th, g, 0, cut, NULL), JG_OK);
+    cr_assert_eq(jg_report_growth_rows(f, &s.p, s.th, g, cut, n_rows, NULL), JG_OK);
+    cr_assert_eq(fclose(f), 0);
+    cr_assert_str_eq(pieces, whole, "cut after row %d of %d", cut, n_rows);
+    free(pieces);
+  }
+  free(whole);
+  jg_growth_grid_free(g);
+  stages_free(&s);
 }
 
 /* ---- version and GSL ---- */

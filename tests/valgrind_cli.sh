@@ -21,15 +21,19 @@ vg_status=99
 passed=0
 failed=0
 
-# check NAME EXPECTED_STATUS ARGS... (standard output to $stdout_to if set)
+# check NAME EXPECTED_STATUS ARGS... (standard output to $stdout_to if set;
+# the tool and its options from $tool_options)
 stdout_to=
+memcheck_options="--leak-check=full --show-leak-kinds=all --errors-for-leak-kinds=all"
+tool_options=$memcheck_options
 check() {
   name=$1
   expected=$2
   shift 2
   log=$work/$name.valgrind
-  "${VALGRIND:-valgrind}" --quiet --error-exitcode=$vg_status --leak-check=full --show-leak-kinds=all \
-    --errors-for-leak-kinds=all --log-file="$log" "$program" "$@" \
+  # shellcheck disable=SC2086 # the options are words
+  "${VALGRIND:-valgrind}" --quiet --error-exitcode=$vg_status $tool_options --log-file="$log" \
+    "$program" "$@" \
     >"${stdout_to:-$work/$name.out}" 2>"$work/$name.err" </dev/null
   status=$?
   if [ "$status" -eq "$expected" ] && [ ! -s "$log" ]; then
@@ -65,6 +69,13 @@ check unwritable_output 2 history "$ref" -o /nonexistent/dir/file
 stdout_to=/dev/full
 check full_stdout 1 history "$ref" --set output.history_rows=50
 stdout_to=
+
+# run's second thread computes the growth grid and formats half its table
+# beside this one: helgrind checks that the two threads share nothing
+# without an ordering between them (with two usable cores).
+tool_options=--tool=helgrind
+check run_two_threads 0 run "$ref" --no-figures --set perturbations.k_count=16 -o "$work/run"
+tool_options=$memcheck_options
 
 if [ -e "$work/never.txt" ]; then
   failed=$((failed + 1))

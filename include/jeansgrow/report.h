@@ -64,6 +64,16 @@ void jg_report_scales_row(const jg_thermal *th, const jg_scales_point *s, jg_out
 jg_status jg_report_growth(FILE *f, const jg_params *p, const jg_thermal *th,
                            const jg_growth_grid *g, jg_error *err);
 
+/* The same table in parts, for a program that formats it on several
+ * threads: everything before the first row, then rows [first, end) of the
+ * g->n_z * g->n_k in the table's order (row i is redshift i / n_k,
+ * wavenumber i % n_k). The header followed by rows 0 to n_z * n_k in
+ * consecutive pieces is exactly what jg_report_growth writes. */
+void jg_report_growth_header(FILE *f, const jg_params *p, const jg_thermal *th,
+                             const jg_growth_grid *g);
+jg_status jg_report_growth_rows(FILE *f, const jg_params *p, const jg_thermal *th,
+                                const jg_growth_grid *g, int first, int end, jg_error *err);
+
 #ifdef __cplusplus
 }
 #endif

@@ -456,14 +456,15 @@ const char *const jg__report_scan_growth_conventions[][JG__REPORT_SCAN_GROWTH_CO
     [JG_UNITS_MPC_H] = {JG__REPORT_SCAN_EPOCHS_CONVENTION, GROWTH_CONVENTIONS,
                         GROWTH_UNITS_MPC_H, NULL}};
 
-jg_status jg_report_growth(FILE *f, const jg_params *p, const jg_thermal *th,
-                           const jg_growth_grid *g, jg_error *err) {
+/* Without a real history there is no reference growth: its two columns are
+ * left out rather than filled. */
+static int growth_column_count(const jg_growth_grid *g) {
+  return g->has_reference ? N_GROWTH_COLUMNS : N_GROWTH_COLUMNS - 2;
+}
+
+void jg_report_growth_header(FILE *f, const jg_params *p, const jg_thermal *th,
+                             const jg_growth_grid *g) {
   const jg_output_units units = table_units(p->output.units);
-  const double h = p->cosmology.hubble_h;
-  const char *const *columns = jg__report_growth_columns[units];
-  /* Without a real history there is no reference growth: its two columns
-   * are left out rather than filled. */
-  const int n_columns = g->has_reference ? N_GROWTH_COLUMNS : N_GROWTH_COLUMNS - 2;
   /* The conventions plus the start line, which depends on the run. */
   const char *conventions[MAX_CONVENTIONS + 1] = {0};
   int n_conv = 0;
@@ -476,16 +477,32 @@ jg_status jg_report_growth(FILE *f, const jg_params *p, const jg_thermal *th,
   const int n_gamma = g->n_z < JG_MAX_REDSHIFTS ? g->n_z : JG_MAX_REDSHIFTS;
   for (int iz = 0; iz < n_gamma; iz++) gamma[iz] = g->limit[iz].gamma_uniform;
   write_effective_gamma(f, p, g->z, gamma, n_gamma);
-  jg_table_write_columns(f, columns, n_columns);
+  jg_table_write_columns(f, jg__report_growth_columns[units], growth_column_count(g));
+}
+
+jg_status jg_report_growth_rows(FILE *f, const jg_params *p, const jg_thermal *th,
+                                const jg_growth_grid *g, int first, int end, jg_error *err) {
+  const int n_rows = g->n_z * g->n_k;
+  if (first < 0 || first > end || end > n_rows)
+    return JG_FAIL(err, JG_EINVAL, "growth rows [%d, %d) asked of a table of %d rows", first, end,
+                   n_rows);
+  const jg_output_units units = table_units(p->output.units);
+  const double h = p->cosmology.hubble_h;
+  const char *const *columns = jg__report_growth_columns[units];
+  const int n_columns = growth_column_count(g);
   double row[N_GROWTH_COLUMNS];
-  for (int iz = 0; iz < g->n_z; iz++) {
-    for (int ik = 0; ik < g->n_k; ik++) {
-      jg__report_growth_row(th, g, ik, iz, units, h, row);
-      jg_status st = jg_table_write_row(f, row, n_columns, columns, err);
-      if (st != JG_OK) return st;
-    }
+  for (int i = first; i < end; i++) {
+    jg__report_growth_row(th, g, i % g->n_k, i / g->n_k, units, h, row);
+    jg_status st = jg_table_write_row(f, row, n_columns, columns, err);
+    if (st != JG_OK) return st;
   }
   return JG_OK;
+}
+
+jg_status jg_report_growth(FILE *f, const jg_params *p, const jg_thermal *th,
+                           const jg_growth_grid *g, jg_error *err) {
+  jg_report_growth_header(f, p, th, g);
+  return jg_report_growth_rows(f, p, th, g, 0, g->n_z * g->n_k, err);
 }
 
 void jg__report_growth_row(const jg_thermal *th, const jg_growth_grid *g, int ik, int iz,
