@@ -750,8 +750,10 @@ Test(good_runs, run_tables_equal_the_single_commands, .timeout = 120) {
 /* `run` formats its tables on a second thread when it may use two cores
  * and on one thread otherwise (its CPU affinity decides, which the child
  * inherits): either way each of its four files must be, byte for byte,
- * what the single command writes to its own file. */
-Test(good_runs, run_files_equal_the_single_commands_on_one_core_and_two, .timeout = 120) {
+ * what the single command writes to its own file; and `growth`, which
+ * shares its grid and its table out over the usable cores, must write the
+ * same file on one core as on two. */
+Test(good_runs, run_and_growth_files_equal_the_single_commands_on_one_core_and_two, .timeout = 120) {
   cpu_set_t all, one;
   cr_assert_eq(sched_getaffinity(0, sizeof all, &all), 0, "sched_getaffinity: %s",
                strerror(errno));
@@ -785,9 +787,23 @@ Test(good_runs, run_files_equal_the_single_commands_on_one_core_and_two, .timeou
                  "sched_setaffinity: %s", strerror(errno));
     run_result r;
     run(args, &r);
-    sched_setaffinity(0, sizeof(cpu_set_t), &all);
     cr_assert(exited_with(&r, 0), "run on %d core(s) failed: %s", cores, r.err);
     run_free(&r);
+    /* `growth` alone shares its grid and its table out over the usable
+     * cores too: the same file on one. */
+    char growth_alone[160];
+    snprintf(growth_alone, sizeof growth_alone, "%s/growth_alone%d.txt", dir, cores);
+    const char *growth_args[] = {"growth", REFERENCE, "--set", "perturbations.k_count=20", "-o",
+                                 growth_alone, NULL};
+    run(growth_args, &r);
+    sched_setaffinity(0, sizeof(cpu_set_t), &all);
+    cr_assert(exited_with(&r, 0), "growth on %d core(s) failed: %s", cores, r.err);
+    run_free(&r);
+    char *alone = read_text(growth_alone), *two = read_text(single[N_TABLES - 1]);
+    cr_assert(alone && two && alone[0], "growth file missing");
+    cr_expect(strcmp(alone, two) == 0, "growth on %d core(s) differs from growth on all", cores);
+    free(alone);
+    free(two);
     for (int i = 0; i < N_TABLES; i++) {
       char path[192];
       snprintf(path, sizeof path, "%s/%s.txt", folder, commands[i]);

@@ -3,6 +3,7 @@
 #define JEANSGROW_CLI_H
 
 #include <getopt.h>
+#include <pthread.h>
 
 #include "jeansgrow/jeansgrow.h"
 
@@ -59,6 +60,29 @@ int cli_open_output(const cli_options *o, jg_output **out);
 /* Remove the temporary output files and exit on SIGINT/SIGTERM from now on,
  * printing `message` (a whole line; NULL for the generic one). */
 void cli_protect_interrupts(const char *message);
+
+/* A table formatted in memory, with what went wrong formatting it. */
+typedef struct cli_text {
+  char *text; /* malloc'd (NULL if nothing could be formatted) */
+  size_t size;
+  jg_status status;
+  jg_error err;
+} cli_text;
+/* Format into t what `write` writes (formatting, mostly printf of %.10e,
+ * costs about as much as computing the numbers, so threads format their
+ * tables into memory while others compute); a failure to hold the text is
+ * "out of memory for NAME". */
+void cli_format_in_memory(cli_text *t, const char *name,
+                          jg_status (*write)(FILE *f, const void *context, jg_error *err),
+                          const void *context);
+
+/* The cores this process may run on (taskset and cpusets count, not only
+ * the machine's). */
+int cli_usable_cores(void);
+/* Start a thread that takes no interrupts (SIGINT and SIGTERM stay with the
+ * threads that were there, whose handler removes the temporary files);
+ * returns 1 if it started. */
+int cli_start_quiet_thread(pthread_t *thread, void *(*work)(void *), void *arg);
 /* Commit it; returns the exit status. */
 int cli_commit_output(jg_output *out);
 /* Throw it away (after a failure). */

@@ -1,5 +1,8 @@
 /* Option parsing, error reporting and interrupt safety shared by all commands. */
+#define _GNU_SOURCE /* sched_getaffinity: the cores this process may use */
 #include <getopt.h>
+#include <pthread.h>
+#include <sched.h>
 #include <signal.h>
 #include <stdio.h>
 #include <stdlib.h>
@@ -261,4 +264,39 @@ int cli_build_history(const jg_params *p, const char *param_path, jg_background 
     return cli_report(&err);
   }
   return -1;
+}
+
+int cli_usable_cores(void) {
+  cpu_set_t set;
+  if (sched_getaffinity(0, sizeof set, &set) == 0) return CPU_COUNT(&set);
+  return (int)sysconf(_SC_NPROCESSORS_ONLN);
+}
+
+int cli_start_quiet_thread(pthread_t *thread, void *(*work)(void *), void *arg) {
+  sigset_t interrupts, saved;
+  sigemptyset(&interrupts);
+  sigaddset(&interrupts, SIGINT);
+  sigaddset(&interrupts, SIGTERM);
+  pthread_sigmask(SIG_BLOCK, &interrupts, &saved);
+  const int started = pthread_create(thread, NULL, work, arg) == 0;
+  pthread_sigmask(SIG_SETMASK, &saved, NULL);
+  return started;
+}
+
+void cli_format_in_memory(cli_text *t, const char *name,
+                          jg_status (*write)(FILE *f, const void *context, jg_error *err),
+                          const void *context) {
+  jg_error_clear(&t->err);
+  t->text = NULL;
+  t->size = 0;
+  FILE *f = open_memstream(&t->text, &t->size);
+  if (!f) {
+    t->text = NULL;
+    t->status = JG_FAIL(&t->err, JG_ENOMEM, "out of memory for %s", name);
+    return;
+  }
+  t->status = write(f, context, &t->err);
+  const int failed = ferror(f);
+  if ((fclose(f) != 0 || failed) && t->status == JG_OK)
+    t->status = JG_FAIL(&t->err, JG_ENOMEM, "out of memory for %s", name);
 }

@@ -6,10 +6,8 @@
  * leaves the folder as it was; each table is written to a temporary file and
  * renamed into place.
  */
-#define _GNU_SOURCE /* sched_getaffinity: the cores this process may use */
 #include <errno.h>
 #include <pthread.h>
-#include <sched.h>
 #include <signal.h>
 #include <stdio.h>
 #include <stdlib.h>
@@ -51,21 +49,13 @@ static int prepare_folder(const char *dir) {
   return -1;
 }
 
-/* A table formatted in memory, with what went wrong formatting it. */
-typedef struct table_text {
-  char *text;
-  size_t size;
-  jg_status status;
-  jg_error err;
-} table_text;
-
 typedef struct run_results {
   jg_epochs epochs;
   jg_scales_point scales[JG_MAX_REDSHIFTS];
   jg_growth_grid *growth;
   double *k;
   int n_k;
-  table_text tables[N_TABLE_PARTS];
+  cli_text tables[N_TABLE_PARTS];
 } run_results;
 
 /* Only the growth parts look at r->growth, which the second thread may be
@@ -89,25 +79,23 @@ static jg_status write_table(int which, FILE *f, const jg_params *p, const jg_th
   }
 }
 
-/* Formatting (mostly printf of %.10e) costs about as much as the scales, so
- * the tables are formatted on the thread that has their numbers, as soon as
- * it has them, and only copied into their files at the end. */
+/* One part of the run's tables (write_table's arguments). */
+typedef struct table_part {
+  int which;
+  const jg_params *p;
+  const jg_thermal *th;
+  const run_results *r;
+} table_part;
+static jg_status write_part(FILE *f, const void *context, jg_error *err) {
+  const table_part *t = context;
+  return write_table(t->which, f, t->p, t->th, t->r, err);
+}
+
+/* Each table is formatted on the thread that has its numbers, as soon as it
+ * has them, and only copied into its file at the end. */
 static void format_table(int which, const jg_params *p, const jg_thermal *th, run_results *r) {
-  table_text *t = &r->tables[which];
-  const char *name = run_file_names[file_of_part(which)];
-  jg_error_clear(&t->err);
-  t->text = NULL;
-  t->size = 0;
-  FILE *f = open_memstream(&t->text, &t->size);
-  if (!f) {
-    t->text = NULL;
-    t->status = JG_FAIL(&t->err, JG_ENOMEM, "out of memory for %s", name);
-    return;
-  }
-  t->status = write_table(which, f, p, th, r, &t->err);
-  const int failed = ferror(f);
-  if ((fclose(f) != 0 || failed) && t->status == JG_OK)
-    t->status = JG_FAIL(&t->err, JG_ENOMEM, "out of memory for %s", name);
+  const table_part part = {which, p, th, r};
+  cli_format_in_memory(&r->tables[which], run_file_names[file_of_part(which)], write_part, &part);
 }
 
 /* The growth grid and half of its table, on a thread of its own beside the
@@ -150,14 +138,6 @@ static void *growth_thread(void *arg) {
   return NULL;
 }
 
-/* The cores this process may run on (taskset and cpusets count, not only
- * the machine's). */
-static int usable_cores(void) {
-  cpu_set_t set;
-  if (sched_getaffinity(0, sizeof set, &set) == 0) return CPU_COUNT(&set);
-  return (int)sysconf(_SC_NPROCESSORS_ONLN);
-}
-
 /* Two cores or more: the growth grid runs on a second thread while this one
  * formats the history table and does the epochs and the scales; then each
  * formats half of the growth table (at the reference parameters the
@@ -178,16 +158,7 @@ static jg_status compute_all(const jg_params *p, const jg_thermal *th, jg_pertur
                     PTHREAD_COND_INITIALIZER, 0};
   jg_error_clear(&job.err);
   pthread_t worker;
-  int parallel = usable_cores() > 1;
-  if (parallel) {
-    sigset_t interrupts, saved;
-    sigemptyset(&interrupts);
-    sigaddset(&interrupts, SIGINT);
-    sigaddset(&interrupts, SIGTERM);
-    pthread_sigmask(SIG_BLOCK, &interrupts, &saved);
-    parallel = pthread_create(&worker, NULL, growth_thread, &job) == 0;
-    pthread_sigmask(SIG_SETMASK, &saved, NULL);
-  }
+  const int parallel = cli_usable_cores() > 1 && cli_start_quiet_thread(&worker, growth_thread, &job);
   format_table(FILE_HISTORY, p, th, r);
   st = jg_epochs_compute(th, &r->epochs, err);
   if (st == JG_OK)
@@ -404,7 +375,7 @@ int cmd_run(const cli_command *cmd, int argc, char **argv) {
      * have, after its file was opened: the first failure of the run in
      * its order is the one told. */
     for (int part = 0; rc < 0 && st == JG_OK && part < N_TABLE_PARTS; part++) {
-      const table_text *t = &r->tables[part];
+      const cli_text *t = &r->tables[part];
       if (file_of_part(part) != i) continue;
       if (t->status != JG_OK) {
         err = t->err;

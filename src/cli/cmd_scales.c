@@ -1,6 +1,7 @@
 /* `jeansgrow scales` and `jeansgrow growth`: the perturbation stage as tables. */
+#include <errno.h>
 #include <stdlib.h>
-#include <unistd.h>
+#include <string.h>
 
 #include "cli.h"
 
@@ -77,6 +78,48 @@ int cmd_scales(const cli_command *cmd, int argc, char **argv) {
   return run_end(&r, st, &err);
 }
 
+/* The second half of the growth table's rows, formatted into memory on a
+ * thread of its own while this one writes the header and the first half. */
+typedef struct growth_rows {
+  const jg_params *p;
+  const jg_thermal *th;
+  const jg_growth_grid *g;
+  int first, end;
+  cli_text text;
+} growth_rows;
+static jg_status write_rows(FILE *f, const void *context, jg_error *err) {
+  const growth_rows *h = context;
+  return jg_report_growth_rows(f, h->p, h->th, h->g, h->first, h->end, err);
+}
+static void *format_rows(void *arg) {
+  growth_rows *h = arg;
+  cli_format_in_memory(&h->text, "the growth table", write_rows, h);
+  return NULL;
+}
+
+/* The growth table, in halves on two threads where two cores are usable
+ * (the same bytes: the halves are the rows in order); the first failure in
+ * the table's order is the one told. */
+static jg_status write_growth_table(FILE *out, const jg_params *p, const jg_thermal *th,
+                                    const jg_growth_grid *g, int cores, jg_error *err) {
+  const int rows = g->n_k * g->n_z;
+  growth_rows tail = {p, th, g, rows / 2, rows, {NULL, 0, JG_OK, {0}}};
+  pthread_t worker;
+  if (cores < 2 || rows < 2 || !cli_start_quiet_thread(&worker, format_rows, &tail))
+    return jg_report_growth(out, p, th, g, err);
+  jg_report_growth_header(out, p, th, g);
+  jg_status st = jg_report_growth_rows(out, p, th, g, 0, rows / 2, err);
+  pthread_join(worker, NULL);
+  if (st == JG_OK && tail.text.status != JG_OK) {
+    *err = tail.text.err;
+    st = tail.text.status;
+  }
+  if (st == JG_OK && fwrite(tail.text.text, 1, tail.text.size, out) != tail.text.size)
+    st = JG_FAIL(err, JG_EIO, "cannot write the growth table (%s)", strerror(errno));
+  free(tail.text.text);
+  return st;
+}
+
 int cmd_growth(const cli_command *cmd, int argc, char **argv) {
   perturbation_run r = {0};
   int rc = run_begin(cmd, argc, argv, &r);
@@ -88,14 +131,14 @@ int cmd_growth(const cli_command *cmd, int argc, char **argv) {
   jg_growth_grid *g = NULL;
   jg_status st = k ? jg_perturb_wavenumbers(&r.p.perturbations, k, &n_k, &err)
                    : JG_FAIL(&err, JG_ENOMEM, "out of memory for the wavenumbers");
-  /* Every core: the grid does not depend on the number of threads. */
-  long cores = sysconf(_SC_NPROCESSORS_ONLN);
-  const int threads = cores < 1 ? 1 : cores > JG_GROWTH_MAX_THREADS ? JG_GROWTH_MAX_THREADS : (int)cores;
+  /* Every usable core: the grid and the table do not depend on their number. */
+  const int cores = cli_usable_cores();
+  const int threads = cores < 1 ? 1 : cores > JG_GROWTH_MAX_THREADS ? JG_GROWTH_MAX_THREADS : cores;
   if (st == JG_OK)
     st = jg_growth_grid_compute_threads(r.model, r.ws, k, n_k, r.p.output.redshifts,
                                         r.p.output.n_redshifts, threads, &g, &err);
   if (st == JG_OK) st = jg_growth_grid_add_streaming(g, r.model, r.ws, &r.p.streaming, &err);
-  if (st == JG_OK) st = jg_report_growth(jg_output_stream(r.out), &r.p, r.th, g, &err);
+  if (st == JG_OK) st = write_growth_table(jg_output_stream(r.out), &r.p, r.th, g, threads, &err);
   jg_growth_grid_free(g);
   free(k);
   return run_end(&r, st, &err);
