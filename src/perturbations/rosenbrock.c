@@ -347,8 +347,7 @@ ROS_INLINE void solve_all(const pt_ros_work *w, int n, const int M, double *rest
 
 /* out = A v for every mode, over the entries. */
 ROS_INLINE void mat_vec(const pt_ros_work *w, const double *restrict A, const double *restrict v,
-                        double *restrict out, int n, const int M) {
-  (void)n;
+                        double *restrict out, const int M) {
   for (int r = 0; r < w->n_empty_rows; r++)
     for (int b = 0; b < M; b++) out[w->empty_row[r] + b] = 0.0;
   int t = 0;
@@ -362,8 +361,8 @@ ROS_INLINE void mat_vec(const pt_ros_work *w, const double *restrict A, const do
 ROS_INLINE void second_derivative(const pt_ros_work *w, const double *A, const double *dA,
                                   const double *y, const double *f, double *out, int n,
                                   const int M, double *tmp) {
-  mat_vec(w, dA, y, out, n, M);
-  mat_vec(w, A, f, tmp, n, M);
+  mat_vec(w, dA, y, out, M);
+  mat_vec(w, A, f, tmp, M);
   for (int i = 0; i < n * M; i++) out[i] += tmp[i];
 }
 
@@ -537,8 +536,8 @@ ROS_INLINE int integrate(const pt_ros_problem *p, pt_ros_work *w, double x0, dou
       h *= 0.25;
       continue;
     }
-    mat_vec(w, A0, y, w->f0, n, M);
-    mat_vec(w, dA0, y, w->fx0, n, M);
+    mat_vec(w, A0, y, w->f0, M);
+    mat_vec(w, dA0, y, w->fx0, M);
 
     /* Stage 1. */
     for (int i = 0; i < len; i++) U1[i] = w->f0[i] + h * D1 * w->fx0[i];
@@ -547,14 +546,14 @@ ROS_INLINE int integrate(const pt_ros_problem *p, pt_ros_work *w, double x0, dou
     w->stats.matrix_evals++;
     if (p->matrices(p->ctx, x + C2 * h, w->As, NULL, NULL) != 0) goto undefined;
     for (int i = 0; i < len; i++) w->ytmp[i] = y[i] + A21 * U1[i];
-    mat_vec(w, w->As, w->ytmp, U2, n, M);
+    mat_vec(w, w->As, w->ytmp, U2, M);
     for (int i = 0; i < len; i++) U2[i] += ih * C21 * U1[i] + h * D2 * w->fx0[i];
     solve_all(w, n, M, U2);
     /* Stage 3. */
     w->stats.matrix_evals++;
     if (p->matrices(p->ctx, x + C3 * h, w->As, NULL, NULL) != 0) goto undefined;
     for (int i = 0; i < len; i++) w->ytmp[i] = y[i] + A31 * U1[i] + A32 * U2[i];
-    mat_vec(w, w->As, w->ytmp, U3, n, M);
+    mat_vec(w, w->As, w->ytmp, U3, M);
     for (int i = 0; i < len; i++)
       U3[i] += ih * (C31 * U1[i] + C32 * U2[i]) + h * D3 * w->fx0[i];
     solve_all(w, n, M, U3);
@@ -563,7 +562,7 @@ ROS_INLINE int integrate(const pt_ros_problem *p, pt_ros_work *w, double x0, dou
     if (p->matrices(p->ctx, x + C4 * h, w->As, NULL, NULL) != 0) goto undefined;
     for (int i = 0; i < len; i++)
       w->ytmp[i] = y[i] + A41 * U1[i] + A42 * U2[i] + A43 * U3[i];
-    mat_vec(w, w->As, w->ytmp, U4, n, M);
+    mat_vec(w, w->As, w->ytmp, U4, M);
     for (int i = 0; i < len; i++)
       U4[i] += ih * (C41 * U1[i] + C42 * U2[i] + C43 * U3[i]) + h * D4 * w->fx0[i];
     solve_all(w, n, M, U4);
@@ -572,13 +571,13 @@ ROS_INLINE int integrate(const pt_ros_problem *p, pt_ros_work *w, double x0, dou
     if (p->matrices(p->ctx, x_new, A1, dA1, &rate1) != 0) goto undefined;
     for (int i = 0; i < len; i++)
       w->ytmp[i] = y[i] + A51 * U1[i] + A52 * U2[i] + A53 * U3[i] + A54 * U4[i];
-    mat_vec(w, A1, w->ytmp, U5, n, M);
+    mat_vec(w, A1, w->ytmp, U5, M);
     for (int i = 0; i < len; i++)
       U5[i] += ih * (C51 * U1[i] + C52 * U2[i] + C53 * U3[i] + C54 * U4[i]);
     solve_all(w, n, M, U5);
     /* Stage 6 from the embedded solution; U6 is the error estimate. */
     for (int i = 0; i < len; i++) w->ytmp[i] += U5[i];
-    mat_vec(w, A1, w->ytmp, U6, n, M);
+    mat_vec(w, A1, w->ytmp, U6, M);
     for (int i = 0; i < len; i++)
       U6[i] += ih * (C61 * U1[i] + C62 * U2[i] + C63 * U3[i] + C64 * U4[i] + C65 * U5[i]);
     solve_all(w, n, M, U6);
@@ -608,7 +607,7 @@ ROS_INLINE int integrate(const pt_ros_problem *p, pt_ros_work *w, double x0, dou
       /* Hermite data: derivatives at both ends (f1 into U1, y''0 into U2,
        * y''1 into U3; the stage values are no longer needed). */
       double *f1 = U1, *ydd0 = U2, *ydd1 = U3;
-      mat_vec(w, A1, w->ynew, f1, n, M);
+      mat_vec(w, A1, w->ynew, f1, M);
       second_derivative(w, A0, dA0, y, w->f0, ydd0, n, M, U4);
       second_derivative(w, A1, dA1, w->ynew, f1, ydd1, n, M, U4);
       while (next < n_out && x_out[next] <= x_new) {
