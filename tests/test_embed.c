@@ -160,6 +160,7 @@ Test(null_error, perturbations) {
   jg_perturb_settings ps = s.p.perturbations;
   snprintf(ps.initial_table, sizeof ps.initial_table, "/nonexistent/start.txt");
   cr_assert_null(jg_perturb_model_new(s.th, &ps, NULL, NULL));
+  cr_assert_null(jg_perturb_model_new_until(s.th, &s.p.perturbations, NULL, -1.0, NULL));
   cr_assert_neq(jg_perturb_check_start_table(&ps, NULL), JG_OK);
   cr_assert_null(jg_perturb_start_table_read("/nonexistent/start.txt", NULL));
   char good_table[] = "/tmp/jg_embed_start_XXXXXX";

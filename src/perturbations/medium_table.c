@@ -236,7 +236,7 @@ static void natural_spline_curvatures(const double *x, const double *y, int n, d
   }
 }
 
-thermal_medium *jg__pt_thermal_medium_new(const jg_thermal *th, double x_first,
+thermal_medium *jg__pt_thermal_medium_new(const jg_thermal *th, double x_first, double x_last,
                                           int effective_gamma, int ionisation, jg_error *err) {
   thermal_medium *tm = calloc(1, sizeof *tm);
   if (!tm) {
@@ -248,8 +248,14 @@ thermal_medium *jg__pt_thermal_medium_new(const jg_thermal *th, double x_first,
   tm->ionisation = ionisation;
   tm->dx = 1.0 / PT_NODES_PER_EFOLD;
   tm->inv_dx = PT_NODES_PER_EFOLD;
-  tm->n = (int)ceil(-x_first * PT_NODES_PER_EFOLD) + PT_MARGIN_NODES + 1;
-  tm->x0 = -(tm->n - 1) * tm->dx;
+  /* The nodes of the table that ends today; one that ends earlier stops
+   * PT_MARGIN_NODES after x_last on the same nodes, so that its values
+   * there are the whole table's (the natural end condition's effect on the
+   * spline dies away within a few nodes of the end). */
+  const int n_today = (int)ceil(-x_first * PT_NODES_PER_EFOLD) + PT_MARGIN_NODES + 1;
+  tm->x0 = -(n_today - 1) * tm->dx;
+  const int last_node = (int)ceil((x_last - tm->x0) * PT_NODES_PER_EFOLD);
+  tm->n = last_node + PT_MARGIN_NODES + 1 < n_today ? last_node + PT_MARGIN_NODES + 1 : n_today;
   const int n = tm->n;
   /* x, the N_Q ordinates, their curvatures, the elimination's two rows */
   double *x = malloc(sizeof(double) * (size_t)n * (3 + 2 * N_Q));
@@ -263,7 +269,7 @@ thermal_medium *jg__pt_thermal_medium_new(const jg_thermal *th, double x_first,
     double *curv = lq + (size_t)N_Q * n, *work = curv + (size_t)N_Q * n;
     gsl_interp_accel cursor = {0, 0, 0};
     for (int i = 0; i < n; i++) {
-      x[i] = i == n - 1 ? 0.0 : tm->x0 + i * tm->dx;
+      x[i] = i == n_today - 1 ? 0.0 : tm->x0 + i * tm->dx;
       double q[N_Q];
       thermal_coefficients(th, tm, x[i], &cursor, q);
       for (int k = 0; k < N_Q; k++) {

@@ -253,11 +253,24 @@ jg_perturb_model *jg_perturb_model_new_medium(const jg_medium *medium,
 
 jg_perturb_model *jg_perturb_model_new(const jg_thermal *th, const jg_perturb_settings *s,
                                        const jg_perturb_start *start, jg_error *err) {
+  return jg_perturb_model_new_until(th, s, start, 0.0, err);
+}
+
+jg_perturb_model *jg_perturb_model_new_until(const jg_thermal *th, const jg_perturb_settings *s,
+                                             const jg_perturb_start *start, double z_end,
+                                             jg_error *err) {
   if (!th || !s) {
     JG_FAIL(err, JG_EINVAL, "jg_perturb_model_new: thermal history and settings must be given");
     return NULL;
   }
   if (check_settings(s, err) != JG_OK) return NULL;
+  if (!(z_end >= 0.0 && z_end < s->z_initial)) {
+    JG_FAIL(err, JG_EINVAL,
+            "jg_perturb_model_new_until: the tables must end at a redshift from 0 to below "
+            "z_initial = %g (got %g)",
+            s->z_initial, z_end);
+    return NULL;
+  }
   const jg_background *bg = jg_thermal_background(th);
   jg_perturb_model *m = calloc(1, sizeof *m);
   if (!m) {
@@ -271,7 +284,9 @@ jg_perturb_model *jg_perturb_model_new(const jg_thermal *th, const jg_perturb_se
   m->effective_gamma = s->sound_speed == JG_SOUND_SPEED_EFFECTIVE_GAMMA;
   m->ionisation = s->sound_speed == JG_SOUND_SPEED_FLUCTUATING && s->ionisation_perturbation;
   const double x_init = -log1p(s->z_initial);
-  m->owned = jg__pt_thermal_medium_new(th, x_init, m->effective_gamma, m->ionisation, err);
+  const double x_end = -log1p(z_end);
+  m->owned =
+      jg__pt_thermal_medium_new(th, x_init, x_end, m->effective_gamma, m->ionisation, err);
   if (!m->owned) {
     free(m);
     return NULL;
@@ -281,7 +296,7 @@ jg_perturb_model *jg_perturb_model_new(const jg_thermal *th, const jg_perturb_se
   md->ctx = m->owned;
   md->a_equality = bg->omega_r / bg->omega_m;
   md->ln_a_min = m->owned->x0;
-  md->ln_a_max = 0.0;
+  md->ln_a_max = x_end;
   md->k_min = JG_PERTURB_K_MIN;
   md->k_max = JG_PERTURB_K_MAX;
   md->rho_m0 = bg->omega_m * bg->rho_crit0 * JG_MPC * JG_MPC * JG_MPC / JG_M_SUN;

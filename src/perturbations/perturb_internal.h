@@ -28,11 +28,14 @@
  * the pressure check of tests/test_gas_physics.c refuses). */
 #define PT_NODES_PER_EFOLD 500
 /* Extra nodes before the start, so that the finite difference for dfdt and
- * the first trial steps stay on the table. The table ends at a = 1 exactly:
- * beyond today the background is not checked (H^2 may turn negative soon
- * after a = 1 when Omega_de < 0, e.g. h = 0.1 with the largest densities), and
- * the only evaluations there, dfdt's PT_DFDT_STEP past the last output,
- * extrapolate the last interval's polynomial. */
+ * the first trial steps stay on the table; and after the end of a table
+ * that ends before today (jg_perturb_model_new_until), so that the natural
+ * spline's end condition does not reach the last wanted redshift. The
+ * table of today ends at a = 1 exactly: beyond today the background is not
+ * checked (H^2 may turn negative soon after a = 1 when Omega_de < 0, e.g.
+ * h = 0.1 with the largest densities), and the only evaluations there,
+ * dfdt's PT_DFDT_STEP past the last output, extrapolate the last
+ * interval's polynomial. */
 #define PT_MARGIN_NODES 8
 
 /* State layouts. */
@@ -68,8 +71,9 @@ enum {
   N_Q = 12
 };
 
-/* effective_gamma, ionisation: tabulate those optional coefficients. */
-thermal_medium *jg__pt_thermal_medium_new(const jg_thermal *th, double x_first,
+/* Tables from x_first (ln a) to x_last (<= 0: today's ln a is 0);
+ * effective_gamma, ionisation: tabulate those optional coefficients. */
+thermal_medium *jg__pt_thermal_medium_new(const jg_thermal *th, double x_first, double x_last,
                                           int effective_gamma, int ionisation, jg_error *err);
 void jg__pt_thermal_medium_free(thermal_medium *tm);
 int jg__pt_thermal_medium_eval(const void *ctx, double ln_a, jg_medium_coefficients *out);

@@ -6,6 +6,7 @@
  */
 #include "jeansgrow/scan.h"
 
+#include <math.h>
 #include <stdlib.h>
 #include <string.h>
 
@@ -117,7 +118,13 @@ typedef struct point_model {
 static jg_status point_model_build(const jg_params *p, point_model *pm, jg_error *err) {
   pm->bg = jg_background_new(&p->cosmology, err);
   pm->th = pm->bg ? jg_thermal_new(pm->bg, &p->thermal, err) : NULL;
-  pm->m = pm->th ? jg_perturb_model_new(pm->th, &p->perturbations, NULL, err) : NULL;
+  /* A point needs the perturbations only down to its latest output
+   * redshift: the coefficient tables end there (a quarter of their nodes
+   * spared for outputs down to z = 10). */
+  double z_end = HUGE_VAL;
+  for (int i = 0; i < p->output.n_redshifts; i++) z_end = fmin(z_end, p->output.redshifts[i]);
+  if (!(z_end > 0.0 && z_end < p->perturbations.z_initial)) z_end = 0.0;
+  pm->m = pm->th ? jg_perturb_model_new_until(pm->th, &p->perturbations, NULL, z_end, err) : NULL;
   pm->w = pm->m ? jg_perturb_workspace_new(pm->m, err) : NULL;
   return pm->w ? JG_OK : (err && err->status != JG_OK ? err->status : JG_ENUMERIC);
 }
