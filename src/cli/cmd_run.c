@@ -141,8 +141,8 @@ static void *growth_thread(void *arg) {
 /* Two cores or more: the growth grid runs on a second thread while this one
  * formats the history table and does the epochs and the scales; then each
  * formats half of the growth table (at the reference parameters the
- * threads' shares are about 158 and 154 million instructions, after 35
- * million of start-up and history). Both read the model and the history,
+ * threads run about 152 and 120 million instructions in all, start-up and
+ * history included on this one; callgrind, 2026-12-03). Both read the model and the history,
  * which are read-only once built, and write their own results; a batch of
  * wavenumbers gives the same numbers on any thread, so the tables do not
  * depend on it. The second thread takes no interrupts (they stay with this

@@ -228,6 +228,13 @@ typedef struct stream_run {
   unsigned char pattern[PT_ROS_MAX_ENTRIES];
   int n_entries, source[PT_ROS_MAX_ENTRIES], in_order[PT_ROS_MAX_ENTRIES];
   double advection[PT_ROS_MAX_ENTRIES];
+  /* The positions of the mode matrix's entries with a k^2 term (its
+   * pressure terms; every other entry is the same at k^2 = 0 and 1), and
+   * the mode matrix at zero coefficients for the baryon fraction zero_fb
+   * (NaN: not yet built; the slope's constant part): both found once per
+   * solve. */
+  int n_k2_entries, k2_position[PT_ROS_MAX_ENTRIES];
+  double zero_fb, M_zero[PT_ROS_MAX_ENTRIES];
 } stream_run;
 
 /* Error-scale groups: CDM and gas of each block (real and imaginary part;
@@ -273,14 +280,21 @@ static void stream_parts(const stream_run *r, const jg_medium_coefficients *c, d
                          const double *M_zero, double *B0, double *B1, double *B2) {
   const jg_perturb_model *m = r->sm->m;
   const int n = r->n;
-  /* (Zeroed over n x n only: the arrays have room for the largest system.) */
+  /* (Zeroed over n x n only: the arrays have room for the largest system.)
+   * The k^2 part A(1) - A(0) is exactly 0 but at the pressure terms, which
+   * alone are built at k^2 = 1 (the same numbers as the whole matrix
+   * there, tests/test_perturb.c). */
   double M0[PT_ROS_MAX_ENTRIES], M1[PT_ROS_MAX_ENTRIES];
   memset(M0, 0, sizeof(double) * (size_t)(n * n));
   memset(M1, 0, sizeof(double) * (size_t)(n * n));
   jg__pt_jac_mode(m, c, 0.0, M0, n, 0);
   if (r->sys != SYS_LIMIT) {
-    jg__pt_jac_mode(m, c, 1.0, M1, n, 0);
-    for (int i = 0; i < n * n; i++) M1[i] -= M0[i];
+    double at_one[PT_ROS_MAX_ENTRIES];
+    jg__pt_jac_mode_k2_terms(m, c, 1.0, at_one, n, 0);
+    for (int e = 0; e < r->n_k2_entries; e++) {
+      const int at = r->k2_position[e];
+      M1[at] = at_one[at] - M0[at];
+    }
   }
   if (M_zero)
     for (int i = 0; i < n * n; i++) M0[i] -= M_zero[i];
@@ -320,12 +334,14 @@ static int stream_matrices(void *ctx, double x, double *A, double *dA, double *r
     /* Slopes: the mode matrix is affine in the coefficients, dM/dx =
      * M(c') - M(0); v_bc / (a H) with v_bc ~ 1/a: the drift's slope is
      * -(2 + d ln H / d ln a) times it. */
-    jg_medium_coefficients zero = {0};
-    zero.baryon_fraction = c.baryon_fraction;
-    double M_zero[PT_ROS_MAX_ENTRIES];
-    memset(M_zero, 0, sizeof(double) * (size_t)(r->n * r->n));
-    jg__pt_jac_mode(sm->m, &zero, 0.0, M_zero, r->n, 0);
-    stream_parts(r, &dc, -(2.0 + c.dlnH_dlna) * drift, M_zero, B0, B1, B2);
+    if (!(c.baryon_fraction == r->zero_fb)) {
+      jg_medium_coefficients zero = {0};
+      zero.baryon_fraction = c.baryon_fraction;
+      memset(r->M_zero, 0, sizeof(double) * (size_t)(r->n * r->n));
+      jg__pt_jac_mode(sm->m, &zero, 0.0, r->M_zero, r->n, 0);
+      r->zero_fb = c.baryon_fraction;
+    }
+    stream_parts(r, &dc, -(2.0 + c.dlnH_dlna) * drift, r->M_zero, B0, B1, B2);
     jg__ros_gather(r->n_entries, r->in_order, r->modes, B0, k_dependent ? B1 : NULL, r->k2,
                    advected ? B2 : NULL, advection, dA);
   }
@@ -335,13 +351,21 @@ static int stream_matrices(void *ctx, double x, double *A, double *dA, double *r
 /* Which entries of the run's matrices can be non-zero, and where each comes
  * from (see stream_run), from the dense matrices at coefficients that are
  * all non-zero: the blocks of the mode matrix at k^2 = 1, the advection at
- * unit drift. */
+ * unit drift; and which entries of the mode matrix change with k^2. */
 static void stream_pattern(stream_run *r) {
   const int n = r->n, N = r->dim;
   jg_medium_coefficients c;
   jg__pt_structural_coefficients(&c);
-  double M[PT_ROS_MAX_ENTRIES] = {0}, blocks[PT_ROS_MAX_ENTRIES], advecting[PT_ROS_MAX_ENTRIES];
+  double M[PT_ROS_MAX_ENTRIES] = {0}, M_no_k2[PT_ROS_MAX_ENTRIES] = {0};
+  double blocks[PT_ROS_MAX_ENTRIES], advecting[PT_ROS_MAX_ENTRIES];
   jg__pt_jac_mode(r->sm->m, &c, 1.0, M, n, 0);
+  jg__pt_jac_mode(r->sm->m, &c, 0.0, M_no_k2, n, 0);
+  /* (The coefficients are distinct and non-zero: an entry with a k^2 term
+   * differs here.) */
+  r->n_k2_entries = 0;
+  for (int i = 0; i < n * n; i++)
+    if (M[i] != M_no_k2[i]) r->k2_position[r->n_k2_entries++] = i;
+  r->zero_fb = NAN;
   stream_matrix(r, M, 0.0, blocks);
   stream_matrix(r, NULL, 1.0, advecting);
   r->n_entries = 0;
