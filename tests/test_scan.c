@@ -18,6 +18,7 @@
 #include <fcntl.h>
 #include <gsl/gsl_errno.h>
 #include <math.h>
+#include <sched.h>
 #include <signal.h>
 #include <stdio.h>
 #include <stdlib.h>
@@ -763,6 +764,49 @@ Test(scan, program_writes_the_same_file_with_one_and_two_threads) {
   cr_assert(!exists(ck), "the checkpoint must go after success");
   cr_assert(strstr(o1.err, "8 points x 4 redshifts"), "summary line: %s", o1.err);
   free(t1), free(t2), free(o1.err), free(o2.err);
+  remove_dir(dir);
+}
+
+/* Without --threads a scan runs one thread per core it may use (its CPU
+ * affinity, which the child inherits: taskset, a batch system's binding),
+ * not one per core of the machine, and writes the same file. */
+Test(scan, program_without_threads_runs_one_thread_per_usable_core) {
+  cpu_set_t all, one;
+  cr_assert_eq(sched_getaffinity(0, sizeof all, &all), 0, "sched_getaffinity: %s",
+               strerror(errno));
+  CPU_ZERO(&one);
+  for (int c = 0; c < CPU_SETSIZE; c++)
+    if (CPU_ISSET(c, &all)) {
+      CPU_SET(c, &one);
+      break;
+    }
+  char dir[64], f1[128], fd[128], fa[128];
+  make_dir(dir, sizeof dir);
+  path_in(f1, sizeof f1, dir, "threads1.txt");
+  path_in(fd, sizeof fd, dir, "one_core.txt");
+  path_in(fa, sizeof fa, dir, "all_cores.txt");
+  const char *a1[] = {SCAN_ARGS(f1), "--threads", "1", NULL};
+  const char *ad[] = {SCAN_ARGS(fd), NULL};
+  const char *aa[] = {SCAN_ARGS(fa), NULL};
+  outcome o1 = run_program(dir, a1);
+  cr_assert_eq(sched_setaffinity(0, sizeof one, &one), 0, "sched_setaffinity: %s",
+               strerror(errno));
+  outcome od = run_program(dir, ad);
+  sched_setaffinity(0, sizeof all, &all);
+  outcome oa = run_program(dir, aa);
+  cr_assert_eq(exit_code(&o1), 0, "%s", o1.err);
+  cr_assert_eq(exit_code(&od), 0, "%s", od.err);
+  cr_assert_eq(exit_code(&oa), 0, "%s", oa.err);
+  cr_expect(strstr(od.err, "points/s on 1 thread\n"), "on one usable core: %s", od.err);
+  char on_all[64];
+  const int n_all = CPU_COUNT(&all);
+  snprintf(on_all, sizeof on_all, "points/s on %d thread%s\n", n_all, n_all == 1 ? "" : "s");
+  cr_expect(strstr(oa.err, on_all), "on %d usable cores: %s", n_all, oa.err);
+  char *t1 = read_text(f1), *td = read_text(fd), *ta = read_text(fa);
+  cr_assert(t1 && td && ta);
+  cr_expect_str_eq(td, t1);
+  cr_expect_str_eq(ta, t1);
+  free(t1), free(td), free(ta), free(o1.err), free(od.err), free(oa.err);
   remove_dir(dir);
 }
 

@@ -1,5 +1,5 @@
 /*
- * `jeansgrow scan`: one table over a grid of parameter sets, on all cores,
+ * `jeansgrow scan`: one table over a grid of parameter sets, on the usable cores,
  * on MPI ranks (under mpirun), or as slices of a job array; and
  * `jeansgrow merge`, which joins such slices.
  *
@@ -69,7 +69,7 @@ static void print_scan_help(const cli_command *cmd) {
          "                         epochs: one row per point)\n"
          "                         (--vary replaces the scan.vary list of PARAMFILE)\n"
          "  --set KEY=VALUE        override a base parameter (libconfig syntax; repeatable)\n"
-         "  --threads N            computing threads (default: all cores; 1 per MPI rank)\n"
+         "  --threads N            computing threads (default: one per usable core; 1 per MPI rank)\n"
          "  --part I/N             compute slice I of N (1 <= I <= N) for a job array;\n"
          "                         join the slice files with jeansgrow merge\n"
          "  --resume               finish an interrupted run from OUTPUT.checkpoint\n"
@@ -401,10 +401,13 @@ static int scan_finish(scan_setup *su, double t0, int threads, int ranks) {
   return rc;
 }
 
+/* The cores this process may run on (its CPU affinity: taskset, a batch
+ * system's binding, a container's cpuset), not all the machine's: a job
+ * given 4 cores of a 64-core node must not start 64 threads on them. */
 static int default_threads(int under_mpi) {
   if (under_mpi) return 1; /* a rank per core is the launcher's business */
-  long n = sysconf(_SC_NPROCESSORS_ONLN);
-  return n < 1 ? 1 : n > MAX_THREADS ? MAX_THREADS : (int)n;
+  const int n = cli_usable_cores();
+  return n < 1 ? 1 : n > MAX_THREADS ? MAX_THREADS : n;
 }
 
 int cmd_scan(const cli_command *cmd, int argc, char **argv) {

@@ -220,6 +220,18 @@ def test_a_scan_from_python_equals_jeansgrow_scan(tmp_path):
             numpy.testing.assert_array_equal(s[c], rows[c], err_msg=c)
 
 
+def test_scan_threads_default_to_the_cores_this_process_may_use():
+    # The CPU affinity (taskset, a batch system's binding), not all the
+    # machine's cores, as `jeansgrow scan` without --threads.
+    saved = os.sched_getaffinity(0)
+    try:
+        os.sched_setaffinity(0, {min(saved)})
+        assert jeansgrow._usable_cores() == 1
+    finally:
+        os.sched_setaffinity(0, saved)
+    assert jeansgrow._usable_cores() == len(saved)
+
+
 def test_threads_calling_at_once_give_the_same_answers():
     u = jeansgrow.Universe(REFERENCE, set={"perturbations.k_count": 8})
     requests = [("scales", [500.0, 50.0]), ("growth", [100.0]), ("history", [700.0]),

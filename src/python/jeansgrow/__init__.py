@@ -51,6 +51,15 @@ def version():
 __version__ = version()
 
 
+def _usable_cores():
+    # The cores this process may run on (its CPU affinity), not all the
+    # machine's: a batch job given 4 cores of a large node gets 4 threads.
+    try:
+        return max(len(os.sched_getaffinity(0)), 1)
+    except (AttributeError, OSError):
+        return os.cpu_count() or 1
+
+
 def _call(function, *args):
     err = _Error()
     status = function(*args, ctypes.byref(err))
@@ -227,7 +236,8 @@ def scan(params, vary, set=None, threads=None):
     """The table `jeansgrow scan` writes: `params` (a path or Parameters)
     with the overrides `set`, over the grid of `vary` (a text or a list of
     texts as --vary takes them: "KEY=FROM:TO:N[:log]" or "KEY=[V1, V2]";
-    the first varies slowest), on `threads` threads (default: all cores).
+    the first varies slowest), on `threads` threads (default: one per core
+    this process may use, as the program's scan).
     One row per (grid point, output redshift). A point whose solver fails
     gets no rows and is listed in the header (``table.failed`` counts them).
     """
@@ -238,7 +248,7 @@ def scan(params, vary, set=None, threads=None):
     texts = [vary] if isinstance(vary, str) else list(vary)
     encoded = [t.encode() for t in texts]
     array = (ctypes.c_char_p * max(len(encoded), 1))(*encoded)
-    n_threads = threads if threads is not None else (os.cpu_count() or 1)
+    n_threads = threads if threads is not None else _usable_cores()
     failed = ctypes.c_longlong()
     table = parse_table(_text_from(_lib.jg_config_scan, params._handle, array, len(encoded),
                                    int(n_threads), after=(ctypes.byref(failed),)), "scan")
