@@ -6,7 +6,9 @@
  * z = 10 with 7 output redshifts, one k at a time and in lockstep batches,
  * as the median of repeated runs; the same grid on the GSL paths (msbdf then
  * rk8pd, msbdf throughout); the cost of 512 output redshifts against 8
- * (dense output); and the peak memory.
+ * (dense output); the steps and the cost of one mode alone by wavenumber,
+ * 1 to 1e5 /Mpc (what makes a mode dear: its steps, not the cost of a
+ * step); and the peak memory.
  *
  * Then the comparison of the GSL path (msbdf then rk8pd, the cross-check
  * path) with SciPy on the same work: 16 modes of that grid,
@@ -326,6 +328,31 @@ int main(int argc, char **argv) {
   }
   double one = median(t1, R1), all = median(tn, RN), lim = median(tl, R1),
          all_batched = median(tb, RN);
+  /* Where a mode's cost comes from: its steps (attempted: six right-hand
+   * sides each), which grow with k once the gas oscillates after
+   * recombination, and the cost of one step, which does not. */
+  static const double k_steps[] = {1.0, 10.0, 100.0, 300.0, 1e3, 3e3, 5e3, 1e4, 3e4, 1e5};
+  enum { N_K_STEPS = sizeof k_steps / sizeof k_steps[0] };
+  double steps_by_k[N_K_STEPS], us_by_k[N_K_STEPS];
+  double k_lo, k_hi;
+  jg_perturb_model_k_range(m, &k_lo, &k_hi);
+  for (int i = 0; i < N_K_STEPS; i++) {
+    steps_by_k[i] = us_by_k[i] = NAN;
+    if (k_steps[i] < k_lo || k_steps[i] > k_hi) continue;
+    double t_k[RN];
+    jg_perturb_work w0 = jg_perturb_workspace_work(w);
+    for (int r = 0; r < RN; r++) {
+      double a = now();
+      if (jg_perturb_solve(m, w, k_steps[i], z, N_Z, out[0], &err) != JG_OK) {
+        fprintf(stderr, "bench_perturb (k = %g): %s\n", k_steps[i], err.message);
+        return 1;
+      }
+      t_k[r] = now() - a;
+    }
+    jg_perturb_work w1 = jg_perturb_workspace_work(w);
+    steps_by_k[i] = (double)(w1.rhs_evals - w0.rhs_evals) / (6.0 * RN);
+    us_by_k[i] = 1e6 * median(t_k, RN);
+  }
   /* The same grid on the GSL paths: msbdf then rk8pd, msbdf throughout. */
   double all_gsl[2];
   for (int g = 0; g < 2; g++) {
@@ -411,6 +438,12 @@ int main(int argc, char **argv) {
          "outputs %.3f ms/mode (%.0f): x%.2f time, x%.2f matrices\n",
          JG_PERTURB_BATCH, dense_ms[0][1], dense_evals[0][1], dense_ms[1][1], dense_evals[1][1],
          dense_ms[1][1] / dense_ms[0][1], dense_evals[1][1] / dense_evals[0][1]);
+  printf("one mode alone by wavenumber, %d redshifts 1000..10 (median of %d):\n", N_Z, RN);
+  printf("  %-9s %8s %10s %12s\n", "k [1/Mpc]", "steps", "us/mode", "us/step");
+  for (int i = 0; i < N_K_STEPS; i++)
+    if (isfinite(steps_by_k[i]))
+      printf("  %-9g %8.0f %10.1f %12.3f\n", k_steps[i], steps_by_k[i], us_by_k[i],
+             us_by_k[i] / steps_by_k[i]);
   printf("peak resident memory                 %10.1f MB\n", ru.ru_maxrss / 1024.0);
 
   /* Files for the SciPy comparison. */
