@@ -236,6 +236,13 @@ Test(null_error, results) {
                                                &g, NULL),
                 JG_OK);
   cr_assert_null(g);
+  cr_assert_null(jg_growth_grid_job_new(s.m, (double[]){1.0}, 0, z_bad, 1, NULL));
+  jg_growth_grid_job *job = jg_growth_grid_job_new(s.m, (double[]){1.0}, 1, s.p.output.redshifts,
+                                                   1, NULL);
+  cr_assert_not_null(job);
+  cr_assert_neq(jg_growth_grid_job_result(job, &g, NULL), JG_OK); /* nobody worked on it */
+  cr_assert_null(g);
+  jg_growth_grid_job_free(job);
   /* The reports refuse what is not finite. */
   FILE *sink = tmpfile();
   jg_params no_end = s.p;

@@ -6,6 +6,7 @@
  */
 #include <criterion/criterion.h>
 #include <math.h>
+#include <pthread.h>
 #include <string.h>
 
 #include "../src/perturbations/rosenbrock.h"
@@ -411,6 +412,80 @@ Test(integrator, growth_grid_on_threads_is_the_single_thread_grid) {
   cr_assert_str_eq(err_threads.message, err_one.message);
   cr_assert_eq(jg_growth_grid_compute_threads(r.m, r.w, k, NK, z, 3, 0, &three, &err_threads),
                JG_EINVAL);
+  real_case_close(&r);
+}
+
+/* The grid with threads that join the work when they come free (as `run`'s
+ * scales thread does): a helper started first and this thread joining
+ * later give the single-thread grid to the last bit, and the lowest failed
+ * batch's error; the result is refused before anyone worked and a second
+ * time, and a worker that comes after it finds nothing to do. */
+typedef struct late_worker {
+  const jg_perturb_model *m;
+  jg_growth_grid_job *job;
+} late_worker;
+
+static void *work_on_grid(void *arg) {
+  late_worker *lw = arg;
+  jg_error e;
+  jg_error_clear(&e);
+  jg_perturb_workspace *w = jg_perturb_workspace_new(lw->m, &e);
+  if (w) jg_growth_grid_job_work(lw->job, w);
+  jg_perturb_workspace_free(w);
+  return NULL;
+}
+
+static jg_status grid_with_late_joiner(real_case *r, const double *k, int n_k, const double *z,
+                                       int n_z, jg_growth_grid **out, jg_error *err) {
+  jg_growth_grid_job *job = jg_growth_grid_job_new(r->m, k, n_k, z, n_z, err);
+  cr_assert_not_null(job, "%s", err->message);
+  late_worker lw = {r->m, job};
+  pthread_t helper;
+  cr_assert_eq(pthread_create(&helper, NULL, work_on_grid, &lw), 0);
+  jg_growth_grid_job_work(job, r->w);
+  const jg_status st = jg_growth_grid_job_result(job, out, err);
+  pthread_join(helper, NULL);
+  jg_growth_grid_job_free(job);
+  return st;
+}
+
+Test(integrator, growth_grid_with_a_thread_joining_late_is_the_single_thread_grid) {
+  real_case r;
+  open_rosenbrock(&r);
+  enum { NK = 37 };
+  double k[NK];
+  for (int i = 0; i < NK; i++) k[i] = 2.0 * pow(2500.0, (double)i / (NK - 1));
+  const double z[3] = {1000.0, 100.0, 10.0};
+  jg_growth_grid *one = NULL, *shared = NULL;
+  jg_error err;
+  jg_error_clear(&err);
+  cr_assert_eq(jg_growth_grid_compute(r.m, r.w, k, NK, z, 3, &one, &err), JG_OK, "%s",
+               err.message);
+  cr_assert_eq(grid_with_late_joiner(&r, k, NK, z, 3, &shared, &err), JG_OK, "%s", err.message);
+  cr_assert(memcmp(one->points, shared->points, sizeof(jg_perturb_point) * NK * 3) == 0,
+            "the grid depends on who computed which part");
+  cr_assert(memcmp(one->limit, shared->limit, sizeof(jg_perturb_limit) * 3) == 0);
+  jg_growth_grid_free(one);
+  jg_growth_grid_free(shared);
+
+  jg_growth_grid_job *job = jg_growth_grid_job_new(r.m, k, NK, z, 3, &err);
+  cr_assert_not_null(job);
+  cr_assert_eq(jg_growth_grid_job_result(job, &shared, &err), JG_EINVAL,
+               "a result before anyone worked");
+  cr_assert_null(shared);
+  jg_growth_grid_job_work(job, r.w); /* after the result: nothing to do */
+  cr_assert_eq(jg_growth_grid_job_result(job, &shared, &err), JG_EINVAL, "a second result");
+  jg_growth_grid_job_free(job);
+
+  k[12] = 3e5; /* the second batch */
+  k[30] = 4e5; /* the fourth */
+  jg_error err_one, err_shared;
+  jg_error_clear(&err_one);
+  jg_error_clear(&err_shared);
+  cr_assert_neq(jg_growth_grid_compute(r.m, r.w, k, NK, z, 3, &one, &err_one), JG_OK);
+  cr_assert_neq(grid_with_late_joiner(&r, k, NK, z, 3, &shared, &err_shared), JG_OK);
+  cr_assert_null(shared);
+  cr_assert_str_eq(err_shared.message, err_one.message);
   real_case_close(&r);
 }
 

@@ -70,9 +70,10 @@ stdout_to=/dev/full
 check full_stdout 1 history "$ref" --set output.history_rows=50
 stdout_to=
 
-# run's second thread computes the growth grid and formats half its table
-# beside this one: helgrind checks that the two threads share nothing
-# without an ordering between them (with two usable cores).
+# run's second thread computes the growth grid beside this one, which joins
+# it after the scales, and both format its table's chunks: helgrind checks
+# that the two threads share nothing without an ordering between them
+# (with two usable cores).
 tool_options=--tool=helgrind
 check run_two_threads 0 run "$ref" --no-figures --set perturbations.k_count=16 -o "$work/run"
 tool_options=$memcheck_options

@@ -48,6 +48,27 @@ jg_status jg_growth_grid_compute_threads(const jg_perturb_model *m, jg_perturb_w
                                          int threads, jg_growth_grid **out, jg_error *err);
 void jg_growth_grid_free(jg_growth_grid *g);
 
+/* The same grid with threads that join the work when they come free (a
+ * program computing the grid beside other work, whose thread joins once
+ * that work is done): jg_growth_grid_job_new sets it up (the same checks
+ * and failures as jg_growth_grid_compute; m is only read); any number of
+ * threads call jg_growth_grid_job_work, each with a workspace of its own,
+ * at any time, each taking the next job not yet taken (the k -> 0
+ * reference, then the batches of the k list) until none is left;
+ * jg_growth_grid_job_result, called once, waits for the jobs taken to be
+ * finished and gives the grid (the caller frees it) or the failure the
+ * single-thread call reports (JG_EINVAL if no thread has worked on it);
+ * a worker that comes later finds nothing to do. jg_growth_grid_job_free
+ * once no thread works on it any more. The grid is the same to the last
+ * bit whoever computed which part. */
+typedef struct jg_growth_grid_job jg_growth_grid_job;
+jg_growth_grid_job *jg_growth_grid_job_new(const jg_perturb_model *m, const double *k, int n_k,
+                                           const double *z, int n_z, jg_error *err);
+void jg_growth_grid_job_work(jg_growth_grid_job *job, jg_perturb_workspace *w);
+jg_status jg_growth_grid_job_result(jg_growth_grid_job *job, jg_growth_grid **out,
+                                    jg_error *err);
+void jg_growth_grid_job_free(jg_growth_grid_job *job);
+
 /* The point for wavenumber index ik at redshift index iz. */
 const jg_perturb_point *jg_growth_grid_at(const jg_growth_grid *g, int ik, int iz);
 

@@ -23,10 +23,16 @@
 enum { FILE_HISTORY, FILE_EPOCHS, FILE_SCALES, FILE_GROWTH, N_RUN_FILES };
 static const char *const run_file_names[N_RUN_FILES] = {"history.txt", "epochs.txt",
                                                         "scales.txt", "growth.txt"};
-/* The pieces formatted apart: one per file, and the second half of the
- * growth table's rows, which goes into growth.txt after the first. */
-enum { PART_GROWTH_TAIL = N_RUN_FILES, N_TABLE_PARTS };
+/* The pieces formatted apart: one per file, the growth table's header and
+ * first chunk of rows in FILE_GROWTH's, and its other chunks in parts of
+ * their own that follow it into growth.txt in order. The chunks are handed
+ * out to whichever thread is free (see compute_all). */
+#define GROWTH_CHUNKS 16
+enum { PART_GROWTH_CHUNK_1 = N_RUN_FILES, N_TABLE_PARTS = N_RUN_FILES + GROWTH_CHUNKS - 1 };
 static int file_of_part(int part) { return part < N_RUN_FILES ? part : FILE_GROWTH; }
+static int part_of_growth_chunk(int chunk) {
+  return chunk == 0 ? FILE_GROWTH : PART_GROWTH_CHUNK_1 + chunk - 1;
+}
 
 /* Make sure the folder exists (create one level) and can be written, before
  * any long work. */
@@ -61,6 +67,10 @@ typedef struct run_results {
 /* Only the growth parts look at r->growth, which the second thread may be
  * writing while this thread formats the history table. */
 static int growth_rows(const run_results *r) { return r->growth->n_z * r->growth->n_k; }
+/* The first row of a chunk of the growth table (chunk GROWTH_CHUNKS: the end). */
+static int growth_chunk_start(const run_results *r, int chunk) {
+  return (int)((long long)growth_rows(r) * chunk / GROWTH_CHUNKS);
+}
 
 static jg_status write_table(int which, FILE *f, const jg_params *p, const jg_thermal *th,
                              const run_results *r, jg_error *err) {
@@ -73,9 +83,12 @@ static jg_status write_table(int which, FILE *f, const jg_params *p, const jg_th
     return jg_report_scales(f, p, th, r->scales, p->output.n_redshifts, err);
   case FILE_GROWTH:
     jg_report_growth_header(f, p, th, r->growth);
-    return jg_report_growth_rows(f, p, th, r->growth, 0, growth_rows(r) / 2, err);
-  default:
-    return jg_report_growth_rows(f, p, th, r->growth, growth_rows(r) / 2, growth_rows(r), err);
+    return jg_report_growth_rows(f, p, th, r->growth, 0, growth_chunk_start(r, 1), err);
+  default: {
+    const int chunk = which - PART_GROWTH_CHUNK_1 + 1;
+    return jg_report_growth_rows(f, p, th, r->growth, growth_chunk_start(r, chunk),
+                                 growth_chunk_start(r, chunk + 1), err);
+  }
   }
 }
 
@@ -98,27 +111,42 @@ static void format_table(int which, const jg_params *p, const jg_thermal *th, ru
   cli_format_in_memory(&r->tables[which], run_file_names[file_of_part(which)], write_part, &part);
 }
 
-/* The growth grid and half of its table, on a thread of its own beside the
- * scales (see compute_all): its own workspace, its own error records. It
- * says when the grid is done, so that the other half can be formatted
- * meanwhile. */
+/* The growth grid, on a thread of its own beside the scales (see
+ * compute_all): its own workspace, its own error records; the scales'
+ * thread joins its work (`grid`) when done with the scales. It says when
+ * the grid is done; then both threads format the growth table's chunks,
+ * each taking the next one not yet taken. */
 typedef struct growth_job {
   const jg_params *p;
   const jg_thermal *th;
   const jg_perturb_model *model;
   run_results *r;
+  jg_growth_grid_job *grid;
   jg_status status;
   jg_error err;
   pthread_mutex_t lock;
   pthread_cond_t grid_ready;
   int grid_done;
+  int next_chunk; /* the next chunk of the growth table to format (under lock) */
 } growth_job;
 
+static void format_growth_chunks(growth_job *job) {
+  for (;;) {
+    pthread_mutex_lock(&job->lock);
+    const int chunk = job->next_chunk++;
+    pthread_mutex_unlock(&job->lock);
+    if (chunk >= GROWTH_CHUNKS) return;
+    format_table(part_of_growth_chunk(chunk), job->p, job->th, job->r);
+  }
+}
+
+/* The grid's jobs this thread takes, the grid once every job is done (the
+ * other thread's included), and its streaming columns. */
 static jg_status compute_growth(growth_job *job, jg_perturb_workspace *ws) {
   const jg_params *p = job->p;
   run_results *r = job->r;
-  jg_status st = jg_growth_grid_compute(job->model, ws, r->k, r->n_k, p->output.redshifts,
-                                        p->output.n_redshifts, &r->growth, &job->err);
+  jg_growth_grid_job_work(job->grid, ws);
+  jg_status st = jg_growth_grid_job_result(job->grid, &r->growth, &job->err);
   if (st == JG_OK)
     st = jg_growth_grid_add_streaming(r->growth, job->model, ws, &p->streaming, &job->err);
   return st;
@@ -134,15 +162,17 @@ static void *growth_thread(void *arg) {
   job->grid_done = 1;
   pthread_cond_signal(&job->grid_ready);
   pthread_mutex_unlock(&job->lock);
-  if (st == JG_OK) format_table(PART_GROWTH_TAIL, job->p, job->th, job->r);
+  if (st == JG_OK) format_growth_chunks(job);
   return NULL;
 }
 
 /* Two cores or more: the growth grid runs on a second thread while this one
- * formats the history table and does the epochs and the scales; then each
- * formats half of the growth table (at the reference parameters the
- * threads run about 152 and 120 million instructions in all, start-up and
- * history included on this one; callgrind, 2026-12-03). Both read the model and the history,
+ * formats the history table and does the epochs and the scales, then takes
+ * the grid's batches still left; then both format the growth table's
+ * chunks as they come free, so that they finish together (at the
+ * reference parameters, timed in the program: the grid alone took ~20 ms
+ * of the second thread while this one was done with the scales after ~14
+ * ms and waited; 2026-12-03). Both read the model and the history,
  * which are read-only once built, and write their own results; a batch of
  * wavenumbers gives the same numbers on any thread, so the tables do not
  * depend on it. The second thread takes no interrupts (they stay with this
@@ -154,9 +184,12 @@ static jg_status compute_all(const jg_params *p, const jg_thermal *th, jg_pertur
   if (!r->k) return JG_FAIL(err, JG_ENOMEM, "out of memory for the wavenumbers");
   jg_status st = jg_perturb_wavenumbers(&p->perturbations, r->k, &r->n_k, err);
   if (st != JG_OK) return st;
-  growth_job job = {p, th, model, r, JG_OK, {0}, PTHREAD_MUTEX_INITIALIZER,
-                    PTHREAD_COND_INITIALIZER, 0};
+  growth_job job = {p, th, model, r, NULL, JG_OK, {0}, PTHREAD_MUTEX_INITIALIZER,
+                    PTHREAD_COND_INITIALIZER, 0, 0};
   jg_error_clear(&job.err);
+  job.grid = jg_growth_grid_job_new(model, r->k, r->n_k, p->output.redshifts,
+                                    p->output.n_redshifts, err);
+  if (!job.grid) return err->status;
   pthread_t worker;
   const int parallel = cli_usable_cores() > 1 && cli_start_quiet_thread(&worker, growth_thread, &job);
   format_table(FILE_HISTORY, p, th, r);
@@ -167,17 +200,16 @@ static jg_status compute_all(const jg_params *p, const jg_thermal *th, jg_pertur
     st = jg_scales_add_streaming(model, ws, &p->streaming, p->output.redshifts,
                                  p->output.n_redshifts, r->scales, err);
   if (parallel) {
+    if (st == JG_OK) jg_growth_grid_job_work(job.grid, ws);
     pthread_mutex_lock(&job.lock);
     while (!job.grid_done) pthread_cond_wait(&job.grid_ready, &job.lock);
     pthread_mutex_unlock(&job.lock);
   } else if (st == JG_OK) {
     job.status = compute_growth(&job, ws);
   }
-  if (st == JG_OK && job.status == JG_OK) {
-    format_table(FILE_GROWTH, p, th, r);
-    if (!parallel) format_table(PART_GROWTH_TAIL, p, th, r);
-  }
+  if (st == JG_OK && job.status == JG_OK) format_growth_chunks(&job);
   if (parallel) pthread_join(worker, NULL);
+  jg_growth_grid_job_free(job.grid);
   pthread_cond_destroy(&job.grid_ready);
   pthread_mutex_destroy(&job.lock);
   /* The first failure in the order of the sequential run is the one told. */

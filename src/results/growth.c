@@ -64,29 +64,35 @@ static jg_status grid_job(const jg_perturb_model *m, jg_perturb_workspace *w, jg
  * with a workspace of its own. A failed job stops the handing out of later
  * ones; every earlier one was handed out before it and is finished, so the
  * lowest failed job, the one told, is the one a single thread would have
- * stopped at. */
-typedef struct job_share {
+ * stopped at. Threads may join at any time (jg_growth_grid_job_work); the
+ * result waits for the jobs handed out to be finished (`active`). */
+struct jg_growth_grid_job {
   const jg_perturb_model *m;
   jg_growth_grid *g;
   pthread_mutex_t lock;
+  pthread_cond_t idle; /* signalled when `active` falls to 0 */
+  int n_jobs;
   int next;         /* the lowest job not yet handed out */
-  int first_failed; /* the lowest failed job (grid_jobs: none) */
+  int active;       /* jobs handed out and not finished */
+  int first_failed; /* the lowest failed job (n_jobs: none) */
   jg_status status; /* its failure */
   jg_error err;
-} job_share;
+  int closed;       /* the result was asked for: nothing more is handed out */
+};
 
-static void do_shared_jobs(job_share *s, jg_perturb_workspace *w) {
+void jg_growth_grid_job_work(jg_growth_grid_job *s, jg_perturb_workspace *w) {
   for (;;) {
     pthread_mutex_lock(&s->lock);
-    const int job = s->next < s->first_failed ? s->next++ : -1;
+    const int job = !s->closed && s->next < s->first_failed && s->next < s->n_jobs ? s->next++ : -1;
+    if (job >= 0) s->active++;
     pthread_mutex_unlock(&s->lock);
     if (job < 0) return;
     jg_error e;
     jg_error_clear(&e);
     const jg_status st = grid_job(s->m, w, s->g, job, &e);
-    if (st == JG_OK) continue;
     pthread_mutex_lock(&s->lock);
-    if (job < s->first_failed) s->first_failed = job, s->status = st, s->err = e;
+    if (st != JG_OK && job < s->first_failed) s->first_failed = job, s->status = st, s->err = e;
+    if (--s->active == 0) pthread_cond_broadcast(&s->idle);
     pthread_mutex_unlock(&s->lock);
   }
 }
@@ -94,35 +100,95 @@ static void do_shared_jobs(job_share *s, jg_perturb_workspace *w) {
 /* A helper thread: a workspace of its own (without one it leaves the jobs
  * to the others, which do them all). */
 static void *job_thread(void *arg) {
-  job_share *s = arg;
+  jg_growth_grid_job *s = arg;
   jg_error e;
   jg_error_clear(&e);
   jg_perturb_workspace *w = jg_perturb_workspace_new(s->m, &e);
-  if (w) do_shared_jobs(s, w);
+  if (w) jg_growth_grid_job_work(s, w);
   jg_perturb_workspace_free(w);
   return NULL;
 }
 
-static jg_status do_grid_jobs(const jg_perturb_model *m, jg_perturb_workspace *w,
-                              jg_growth_grid *g, int threads, jg_error *err) {
-  const int n_jobs = grid_jobs(g);
-  if (threads > n_jobs) threads = n_jobs;
-  job_share s = {.m = m, .g = g, .next = 0, .first_failed = n_jobs, .status = JG_OK};
-  if (threads <= 1 || pthread_mutex_init(&s.lock, NULL) != 0) {
-    jg_status st = JG_OK;
-    for (int job = 0; st == JG_OK && job < n_jobs; job++) st = grid_job(m, w, g, job, err);
-    return st;
+jg_growth_grid_job *jg_growth_grid_job_new(const jg_perturb_model *m, const double *k, int n_k,
+                                           const double *z, int n_z, jg_error *err) {
+  if (!m || !k || !z) {
+    JG_FAIL(err, JG_EINVAL, "growth grid: NULL model, wavenumbers or redshifts");
+    return NULL;
   }
-  jg_error_clear(&s.err);
-  pthread_t helper[JG_GROWTH_MAX_THREADS];
-  int started = 0;
-  while (started < threads - 1 && pthread_create(&helper[started], NULL, job_thread, &s) == 0)
-    started++;
-  do_shared_jobs(&s, w); /* the caller's thread takes its share */
-  for (int i = 0; i < started; i++) pthread_join(helper[i], NULL);
-  pthread_mutex_destroy(&s.lock);
-  if (s.status != JG_OK && err) *err = s.err;
-  return s.status;
+  if (n_k < 1 || n_z < 1) {
+    JG_FAIL(err, JG_EINVAL, "growth grid: need at least one wavenumber and one redshift");
+    return NULL;
+  }
+  jg_growth_grid_job *s = calloc(1, sizeof *s);
+  jg_growth_grid *g = calloc(1, sizeof *g);
+  if (!s || !g) {
+    free(s);
+    free(g);
+    JG_FAIL(err, JG_ENOMEM, "out of memory for the growth grid");
+    return NULL;
+  }
+  g->n_k = n_k;
+  g->n_z = n_z;
+  g->k = malloc(sizeof(double) * (size_t)n_k);
+  g->z = malloc(sizeof(double) * (size_t)n_z);
+  g->points = malloc(sizeof(jg_perturb_point) * (size_t)n_k * (size_t)n_z);
+  g->limit = malloc(sizeof(jg_perturb_limit) * (size_t)n_z);
+  g->D_ref = malloc(sizeof(double) * (size_t)n_z);
+  g->f_ref = malloc(sizeof(double) * (size_t)n_z);
+  int sync = 0;
+  if (g->k && g->z && g->points && g->limit && g->D_ref && g->f_ref) {
+    sync = pthread_mutex_init(&s->lock, NULL) == 0;
+    if (sync && pthread_cond_init(&s->idle, NULL) != 0) {
+      pthread_mutex_destroy(&s->lock);
+      sync = 0;
+    }
+  }
+  if (!sync) {
+    jg_growth_grid_free(g);
+    free(s);
+    JG_FAIL(err, JG_ENOMEM, "out of memory for the growth grid");
+    return NULL;
+  }
+  memcpy(g->k, k, sizeof(double) * (size_t)n_k);
+  memcpy(g->z, z, sizeof(double) * (size_t)n_z);
+  jg_perturb_model_describe_start(m, g->start, sizeof g->start);
+  s->m = m;
+  s->g = g;
+  s->n_jobs = grid_jobs(g);
+  s->first_failed = s->n_jobs;
+  s->status = JG_OK;
+  jg_error_clear(&s->err);
+  return s;
+}
+
+jg_status jg_growth_grid_job_result(jg_growth_grid_job *s, jg_growth_grid **out, jg_error *err) {
+  *out = NULL;
+  pthread_mutex_lock(&s->lock);
+  while (s->active > 0) pthread_cond_wait(&s->idle, &s->lock);
+  /* Nothing more is handed out: a late worker finds the jobs gone. */
+  const int unfinished = s->next < s->n_jobs && s->first_failed == s->n_jobs;
+  const int taken = s->closed;
+  s->closed = 1;
+  pthread_mutex_unlock(&s->lock);
+  if (taken) return JG_FAIL(err, JG_EINVAL, "growth grid: its result was already taken");
+  if (s->status != JG_OK) {
+    if (err) *err = s->err;
+    return s->status;
+  }
+  if (unfinished)
+    return JG_FAIL(err, JG_EINVAL, "growth grid: asked for its result before every wavenumber "
+                                   "was solved (no thread worked on it)");
+  *out = s->g;
+  s->g = NULL;
+  return JG_OK;
+}
+
+void jg_growth_grid_job_free(jg_growth_grid_job *s) {
+  if (!s) return;
+  jg_growth_grid_free(s->g);
+  pthread_cond_destroy(&s->idle);
+  pthread_mutex_destroy(&s->lock);
+  free(s);
 }
 
 jg_status jg_growth_grid_compute(const jg_perturb_model *m, jg_perturb_workspace *w,
@@ -138,30 +204,16 @@ jg_status jg_growth_grid_compute_threads(const jg_perturb_model *m, jg_perturb_w
   if (threads < 1 || threads > JG_GROWTH_MAX_THREADS)
     return JG_FAIL(err, JG_EINVAL, "growth grid: threads must be 1 to %d (got %d)",
                    JG_GROWTH_MAX_THREADS, threads);
-  if (n_k < 1 || n_z < 1)
-    return JG_FAIL(err, JG_EINVAL, "growth grid: need at least one wavenumber and one redshift");
-  jg_growth_grid *g = calloc(1, sizeof *g);
-  if (!g) return JG_FAIL(err, JG_ENOMEM, "out of memory for the growth grid");
-  g->n_k = n_k;
-  g->n_z = n_z;
-  g->k = malloc(sizeof(double) * (size_t)n_k);
-  g->z = malloc(sizeof(double) * (size_t)n_z);
-  g->points = malloc(sizeof(jg_perturb_point) * (size_t)n_k * (size_t)n_z);
-  g->limit = malloc(sizeof(jg_perturb_limit) * (size_t)n_z);
-  g->D_ref = malloc(sizeof(double) * (size_t)n_z);
-  g->f_ref = malloc(sizeof(double) * (size_t)n_z);
-  if (!g->k || !g->z || !g->points || !g->limit || !g->D_ref || !g->f_ref) {
-    jg_growth_grid_free(g);
-    return JG_FAIL(err, JG_ENOMEM, "out of memory for the growth grid");
-  }
-  memcpy(g->k, k, sizeof(double) * (size_t)n_k);
-  memcpy(g->z, z, sizeof(double) * (size_t)n_z);
-  jg_perturb_model_describe_start(m, g->start, sizeof g->start);
-  const jg_status st = do_grid_jobs(m, w, g, threads, err);
-  if (st != JG_OK) {
-    jg_growth_grid_free(g);
-    return st;
-  }
-  *out = g;
-  return JG_OK;
+  jg_growth_grid_job *s = jg_growth_grid_job_new(m, k, n_k, z, n_z, err);
+  if (!s) return err ? err->status : JG_ENOMEM;
+  if (threads > s->n_jobs) threads = s->n_jobs;
+  pthread_t helper[JG_GROWTH_MAX_THREADS];
+  int started = 0;
+  while (started < threads - 1 && pthread_create(&helper[started], NULL, job_thread, s) == 0)
+    started++;
+  jg_growth_grid_job_work(s, w); /* the caller's thread takes its share */
+  for (int i = 0; i < started; i++) pthread_join(helper[i], NULL);
+  const jg_status st = jg_growth_grid_job_result(s, out, err);
+  jg_growth_grid_job_free(s);
+  return st;
 }
