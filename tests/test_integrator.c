@@ -376,50 +376,8 @@ Test(integrator, batch_with_a_bad_k_names_it) {
   real_case_close(&r);
 }
 
-/* The growth grid on several threads: the same numbers to the last bit as
- * on one (the batches come from the k list alone, whoever solves them),
- * with a partial last batch; and with bad wavenumbers in two batches, the
- * failure told is the first in the list's order, as on one thread. */
-Test(integrator, growth_grid_on_threads_is_the_single_thread_grid) {
-  real_case r;
-  open_rosenbrock(&r);
-  enum { NK = 37 };
-  double k[NK];
-  for (int i = 0; i < NK; i++) k[i] = 2.0 * pow(2500.0, (double)i / (NK - 1));
-  const double z[3] = {1000.0, 100.0, 10.0};
-  jg_growth_grid *one = NULL, *three = NULL;
-  jg_error err;
-  jg_error_clear(&err);
-  cr_assert_eq(jg_growth_grid_compute(r.m, r.w, k, NK, z, 3, &one, &err), JG_OK, "%s",
-               err.message);
-  cr_assert_eq(jg_growth_grid_compute_threads(r.m, r.w, k, NK, z, 3, 3, &three, &err), JG_OK,
-               "%s", err.message);
-  cr_assert(memcmp(one->points, three->points, sizeof(jg_perturb_point) * NK * 3) == 0,
-            "the grid depends on the number of threads");
-  jg_growth_grid_free(one);
-  jg_growth_grid_free(three);
-
-  k[12] = 3e5; /* the second batch */
-  k[30] = 4e5; /* the fourth */
-  jg_error err_one, err_threads;
-  jg_error_clear(&err_one);
-  jg_error_clear(&err_threads);
-  cr_assert_neq(jg_growth_grid_compute(r.m, r.w, k, NK, z, 3, &one, &err_one), JG_OK);
-  cr_assert_neq(jg_growth_grid_compute_threads(r.m, r.w, k, NK, z, 3, 4, &three, &err_threads),
-                JG_OK);
-  cr_assert_null(three);
-  cr_assert(strstr(err_one.message, "k = 300000") != NULL, "%s", err_one.message);
-  cr_assert_str_eq(err_threads.message, err_one.message);
-  cr_assert_eq(jg_growth_grid_compute_threads(r.m, r.w, k, NK, z, 3, 0, &three, &err_threads),
-               JG_EINVAL);
-  real_case_close(&r);
-}
-
-/* The grid with threads that join the work when they come free (as `run`'s
- * scales thread does): a helper started first and this thread joining
- * later give the single-thread grid to the last bit, and the lowest failed
- * batch's error; the result is refused before anyone worked and a second
- * time, and a worker that comes after it finds nothing to do. */
+/* A grid computed by a helper thread started first and this thread joining
+ * its work later (jg_growth_grid_job, as `run`'s scales thread does). */
 typedef struct late_worker {
   const jg_perturb_model *m;
   jg_growth_grid_job *job;
@@ -449,45 +407,67 @@ static jg_status grid_with_late_joiner(real_case *r, const double *k, int n_k, c
   return st;
 }
 
-Test(integrator, growth_grid_with_a_thread_joining_late_is_the_single_thread_grid) {
+/* The growth grid on several threads, or with a thread joining the work
+ * late: the same numbers to the last bit as on one (the batches come from
+ * the k list alone, whoever solves them), with a partial last batch; and
+ * with bad wavenumbers in two batches, the failure told is the first in
+ * the list's order, as on one thread. */
+Test(integrator, growth_grid_on_threads_or_joined_late_is_the_single_thread_grid) {
   real_case r;
   open_rosenbrock(&r);
   enum { NK = 37 };
   double k[NK];
   for (int i = 0; i < NK; i++) k[i] = 2.0 * pow(2500.0, (double)i / (NK - 1));
   const double z[3] = {1000.0, 100.0, 10.0};
-  jg_growth_grid *one = NULL, *shared = NULL;
+  jg_growth_grid *one = NULL, *three = NULL;
   jg_error err;
   jg_error_clear(&err);
   cr_assert_eq(jg_growth_grid_compute(r.m, r.w, k, NK, z, 3, &one, &err), JG_OK, "%s",
                err.message);
-  cr_assert_eq(grid_with_late_joiner(&r, k, NK, z, 3, &shared, &err), JG_OK, "%s", err.message);
-  cr_assert(memcmp(one->points, shared->points, sizeof(jg_perturb_point) * NK * 3) == 0,
+  cr_assert_eq(jg_growth_grid_compute_threads(r.m, r.w, k, NK, z, 3, 3, &three, &err), JG_OK,
+               "%s", err.message);
+  cr_assert(memcmp(one->points, three->points, sizeof(jg_perturb_point) * NK * 3) == 0,
+            "the grid depends on the number of threads");
+  jg_growth_grid_free(three);
+  cr_assert_eq(grid_with_late_joiner(&r, k, NK, z, 3, &three, &err), JG_OK, "%s", err.message);
+  cr_assert(memcmp(one->points, three->points, sizeof(jg_perturb_point) * NK * 3) == 0,
             "the grid depends on who computed which part");
-  cr_assert(memcmp(one->limit, shared->limit, sizeof(jg_perturb_limit) * 3) == 0);
+  cr_assert(memcmp(one->limit, three->limit, sizeof(jg_perturb_limit) * 3) == 0);
   jg_growth_grid_free(one);
-  jg_growth_grid_free(shared);
-
+  jg_growth_grid_free(three);
+  /* Its result: refused before anyone worked and a second time; a worker
+   * that comes after it finds nothing to do. */
   jg_growth_grid_job *job = jg_growth_grid_job_new(r.m, k, NK, z, 3, &err);
   cr_assert_not_null(job);
-  cr_assert_eq(jg_growth_grid_job_result(job, &shared, &err), JG_EINVAL,
-               "a result before anyone worked");
-  cr_assert_null(shared);
-  jg_growth_grid_job_work(job, r.w); /* after the result: nothing to do */
-  cr_assert_eq(jg_growth_grid_job_result(job, &shared, &err), JG_EINVAL, "a second result");
+  cr_assert_eq(jg_growth_grid_job_result(job, &three, &err), JG_EINVAL);
+  cr_assert_null(three);
+  const jg_perturb_work before = jg_perturb_workspace_work(r.w);
+  jg_growth_grid_job_work(job, r.w);
+  cr_assert_eq(jg_perturb_workspace_work(r.w).rhs_evals, before.rhs_evals,
+               "a worker after the result solved something");
+  cr_assert_eq(jg_growth_grid_job_result(job, &three, &err), JG_EINVAL);
   jg_growth_grid_job_free(job);
 
   k[12] = 3e5; /* the second batch */
   k[30] = 4e5; /* the fourth */
-  jg_error err_one, err_shared;
+  jg_error err_one, err_threads;
   jg_error_clear(&err_one);
-  jg_error_clear(&err_shared);
+  jg_error_clear(&err_threads);
   cr_assert_neq(jg_growth_grid_compute(r.m, r.w, k, NK, z, 3, &one, &err_one), JG_OK);
-  cr_assert_neq(grid_with_late_joiner(&r, k, NK, z, 3, &shared, &err_shared), JG_OK);
-  cr_assert_null(shared);
-  cr_assert_str_eq(err_shared.message, err_one.message);
+  cr_assert_neq(jg_growth_grid_compute_threads(r.m, r.w, k, NK, z, 3, 4, &three, &err_threads),
+                JG_OK);
+  cr_assert_null(three);
+  cr_assert(strstr(err_one.message, "k = 300000") != NULL, "%s", err_one.message);
+  cr_assert_str_eq(err_threads.message, err_one.message);
+  jg_error_clear(&err_threads);
+  cr_assert_neq(grid_with_late_joiner(&r, k, NK, z, 3, &three, &err_threads), JG_OK);
+  cr_assert_null(three);
+  cr_assert_str_eq(err_threads.message, err_one.message);
+  cr_assert_eq(jg_growth_grid_compute_threads(r.m, r.w, k, NK, z, 3, 0, &three, &err_threads),
+               JG_EINVAL);
   real_case_close(&r);
 }
+
 
 /* A model whose coefficient tables end at z = 10 (what a scan point with
  * no later output builds): the same nodes as the model that ends today,
