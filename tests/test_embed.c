@@ -237,6 +237,8 @@ Test(null_error, results) {
                 JG_OK);
   cr_assert_null(g);
   cr_assert_null(jg_growth_grid_job_new(s.m, (double[]){1.0}, 0, z_bad, 1, NULL));
+  cr_assert_eq(jg_growth_grid_compute(s.m, s.w, (double[]){1.0}, 0, z_bad, 1, &g, NULL),
+               JG_EINVAL);
   jg_growth_grid_job *job = jg_growth_grid_job_new(s.m, (double[]){1.0}, 1, s.p.output.redshifts,
                                                    1, NULL);
   cr_assert_not_null(job);

@@ -204,8 +204,9 @@ jg_status jg_growth_grid_compute_threads(const jg_perturb_model *m, jg_perturb_w
   if (threads < 1 || threads > JG_GROWTH_MAX_THREADS)
     return JG_FAIL(err, JG_EINVAL, "growth grid: threads must be 1 to %d (got %d)",
                    JG_GROWTH_MAX_THREADS, threads);
-  jg_growth_grid_job *s = jg_growth_grid_job_new(m, k, n_k, z, n_z, err);
-  if (!s) return err ? err->status : JG_ENOMEM;
+  jg_error local; /* the failure's status, when the caller keeps no record */
+  jg_growth_grid_job *s = jg_growth_grid_job_new(m, k, n_k, z, n_z, err ? err : &local);
+  if (!s) return err ? err->status : local.status;
   if (threads > s->n_jobs) threads = s->n_jobs;
   pthread_t helper[JG_GROWTH_MAX_THREADS];
   int started = 0;
