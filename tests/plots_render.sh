@@ -56,6 +56,21 @@ rm "$work/Mpc/"*.png "$work/Mpc/"*.svg
 "$program" plot "$work/Mpc"
 for name in history masses scales suppression rates; do check_figure "$work/Mpc/$name"; done
 
+# The figures are drawn several at once, one gnuplot per usable core: on a
+# single usable core (one at a time) the same files, byte for byte.
+if command -v taskset >/dev/null 2>&1; then
+  mkdir "$work/all_cores"
+  cp "$work/Mpc/"*.png "$work/Mpc/"*.svg "$work/all_cores/"
+  rm "$work/Mpc/"*.png "$work/Mpc/"*.svg
+  first_core=$(taskset -pc $$ | sed 's/.*: *//; s/[^0-9].*//')
+  taskset -c "$first_core" "$program" plot "$work/Mpc"
+  for f in "$work/all_cores/"*; do
+    cmp -s "$f" "$work/Mpc/$(basename "$f")" ||
+      fail "$(basename "$f") drawn on one core differs from the one drawn on all"
+  done
+  ls -a "$work/Mpc" | grep -q '^\.jgfig' && fail "a temporary figure was left behind"
+fi
+
 # check_label SCRIPT TABLE AXIS LABEL: gnuplot's `show AXIS` after SCRIPT
 # drew TABLE must print exactly LABEL.
 check_label() {

@@ -68,15 +68,25 @@ static void append_variable(char *buf, size_t size, const char *name, const char
   }
 }
 
-/* Run gnuplot with `variables` set on the style followed by `script`
- * (gnuplot reads multi-line blocks from a file, not from a pipe); returns
- * its exit status (-1 if it could not start). */
-static int run_gnuplot(const char *variables, const char *script) {
-  const char *tmpdir = getenv("TMPDIR");
+/* One gnuplot at work: its process (0 if it could not start) and the
+ * script file it reads. */
+typedef struct gnuplot_run {
+  pid_t pid;
   char path[PATH_SIZE];
-  snprintf(path, sizeof path, "%s/jeansgrow-figure-XXXXXX", tmpdir && tmpdir[0] ? tmpdir : "/tmp");
-  int fd = mkstemp(path);
-  if (fd < 0) return -1;
+} gnuplot_run;
+
+/* Start gnuplot with `variables` set on the style followed by `script`
+ * (gnuplot reads multi-line blocks from a file, not from a pipe). */
+static void start_gnuplot(const char *variables, const char *script, gnuplot_run *g) {
+  g->pid = 0;
+  const char *tmpdir = getenv("TMPDIR");
+  snprintf(g->path, sizeof g->path, "%s/jeansgrow-figure-XXXXXX",
+           tmpdir && tmpdir[0] ? tmpdir : "/tmp");
+  int fd = mkstemp(g->path);
+  if (fd < 0) {
+    g->path[0] = '\0';
+    return;
+  }
   FILE *f = fdopen(fd, "w");
   int ok = f && fputs(script_text("style"), f) >= 0 && fputs("\n", f) >= 0 &&
            fputs(script, f) >= 0;
@@ -84,16 +94,42 @@ static int run_gnuplot(const char *variables, const char *script) {
   pid_t pid;
   /* posix_spawn takes char *const[]; it does not write to the strings. */
   char program[] = GNUPLOT, set[] = "-e";
-  char *const argv[] = {program, set, (char *)(uintptr_t)variables, path, NULL};
-  int status = -1;
-  if (ok && posix_spawnp(&pid, GNUPLOT, NULL, NULL, argv, environ) == 0) {
+  char *const argv[] = {program, set, (char *)(uintptr_t)variables, g->path, NULL};
+  if (ok && posix_spawnp(&pid, GNUPLOT, NULL, NULL, argv, environ) == 0) g->pid = pid;
+}
+
+/* Its exit status (-1 if it could not start or did not exit normally),
+ * once `how` is known; its script file removed. */
+static int gnuplot_status(gnuplot_run *g, int started, int how) {
+  if (g->path[0]) unlink(g->path);
+  g->path[0] = '\0';
+  return started && WIFEXITED(how) ? WEXITSTATUS(how) : -1;
+}
+
+/* Wait for whichever of run[0 .. n) that is still running ends first
+ * (status[i] < -1 marks them); returns its index, or -1 if none runs. */
+static int finish_one(gnuplot_run *run, int *status, int n) {
+  int running = 0;
+  for (int i = 0; i < n; i++) running += status[i] < -1;
+  while (running > 0) {
     int how;
-    while (waitpid(pid, &how, 0) < 0 && errno == EINTR) {
+    const pid_t pid = waitpid(-1, &how, 0);
+    if (pid < 0) {
+      if (errno == EINTR) continue;
+      break; /* no child left: none of ours can still run */
     }
-    status = WIFEXITED(how) ? WEXITSTATUS(how) : -1;
+    for (int i = 0; i < n; i++)
+      if (status[i] < -1 && run[i].pid == pid) {
+        status[i] = gnuplot_status(&run[i], 1, how);
+        return i;
+      }
   }
-  unlink(path);
-  return status;
+  for (int i = 0; i < n; i++) /* (only if waitpid failed) */
+    if (status[i] < -1) {
+      status[i] = gnuplot_status(&run[i], 0, 0);
+      return i;
+    }
+  return -1;
 }
 
 /* Rename (ok) or remove the files gnuplot wrote under `prefix` in `dir`. */
@@ -115,28 +151,63 @@ static int settle_outputs(const char *dir, const char *prefix, int ok) {
   return renamed;
 }
 
-/* Draw `script` from `table` into DIR/OUT_NAME.png and .svg (a scan script
- * writes DIR/OUT_NAME_*.png and .svg); `more` holds further variables. */
-static int draw(const char *script, const char *table, const char *dir, const char *out_name,
-                const char *more) {
-  const char *text = script_text(script);
-  if (!text) return -1;
-  char prefix[64], out[PATH_SIZE], variables[3 * PATH_SIZE];
-  snprintf(prefix, sizeof prefix, TEMP_MARK "%ld-", (long)getpid());
-  snprintf(out, sizeof out, "%s/%s%s", dir, prefix, out_name);
-  variables[0] = '\0';
-  append_variable(variables, sizeof variables, "table", table);
-  append_variable(variables, sizeof variables, "out", out);
-  if (more) strncat(variables, more, sizeof variables - strlen(variables) - 1);
-  const int status = run_gnuplot(variables, text);
-  const int drawn = settle_outputs(dir, prefix, status == 0);
-  if (status == 0 && drawn > 0) return 1;
-  if (status < 0)
-    fprintf(stderr, "jeansgrow: figures: cannot run " GNUPLOT " for %s\n", table);
-  else
-    fprintf(stderr, "jeansgrow: figures: " GNUPLOT " could not draw %s from %s (exit status %d)\n",
-            out_name, table, status);
-  return -1;
+/* A figure to draw: `script` from `table` into DIR/OUT_NAME.png and .svg
+ * (a scan script writes DIR/OUT_NAME_*.png and .svg); `more` holds further
+ * variables (or is empty). */
+typedef struct figure_request {
+  const char *script;
+  char table[PATH_SIZE], out_name[PATH_SIZE + 32], more[PATH_SIZE + 32];
+} figure_request;
+#define MAX_FIGURES 8
+
+/* Draw the figures into `dir`, as many at once as this process has usable
+ * cores (each gnuplot is one process on one core: `run`'s five figures
+ * took ~1.2 s one after the other), a new one as soon as any ends, each
+ * under its own hidden prefix; complaints in the figures' order. Returns
+ * how many were drawn, or -1 if any could not be. */
+static int draw(const figure_request *req, int n, const char *dir) {
+  const int at_once = cli_usable_cores() > 1 ? cli_usable_cores() : 1;
+  gnuplot_run run[MAX_FIGURES];
+  char prefix[MAX_FIGURES][64];
+  int status[MAX_FIGURES], running = 0;
+  for (int i = 0; i < n; i++) {
+    if (running >= at_once && finish_one(run, status, i) >= 0) running--;
+    snprintf(prefix[i], sizeof prefix[i], TEMP_MARK "%ld-%d-", (long)getpid(), i);
+    const char *text = script_text(req[i].script);
+    char out[PATH_SIZE], variables[3 * PATH_SIZE];
+    snprintf(out, sizeof out, "%s/%s%s", dir, prefix[i], req[i].out_name);
+    variables[0] = '\0';
+    append_variable(variables, sizeof variables, "table", req[i].table);
+    append_variable(variables, sizeof variables, "out", out);
+    strncat(variables, req[i].more, sizeof variables - strlen(variables) - 1);
+    run[i].pid = 0;
+    run[i].path[0] = '\0';
+    if (text) start_gnuplot(variables, text, &run[i]);
+    if (run[i].pid > 0) {
+      status[i] = -2; /* running */
+      running++;
+    } else {
+      status[i] = gnuplot_status(&run[i], 0, 0);
+    }
+  }
+  while (finish_one(run, status, n) >= 0) {
+  }
+  int drawn = 0, failed = 0;
+  for (int i = 0; i < n; i++) {
+    const int files = settle_outputs(dir, prefix[i], status[i] == 0);
+    if (status[i] == 0 && files > 0) {
+      drawn++;
+      continue;
+    }
+    failed = 1;
+    if (status[i] < 0)
+      fprintf(stderr, "jeansgrow: figures: cannot run " GNUPLOT " for %s\n", req[i].table);
+    else
+      fprintf(stderr,
+              "jeansgrow: figures: " GNUPLOT " could not draw %s from %s (exit status %d)\n",
+              req[i].out_name, req[i].table, status[i]);
+  }
+  return failed ? -1 : drawn;
 }
 
 static int readable(const char *path) { return access(path, R_OK) == 0; }
@@ -144,23 +215,27 @@ static int readable(const char *path) { return access(path, R_OK) == 0; }
 int cli_figures_for_folder(const char *dir) {
   static const struct {
     const char *script, *table;
-  } figures[] = {{"history", "history.txt"},   {"masses", "scales.txt"},
-                 {"scales", "scales.txt"},     {"suppression", "growth.txt"},
-                 {"rates", "growth.txt"}};
-  int drawn = 0, failed = 0;
-  char table[PATH_SIZE], scales[PATH_SIZE], more[PATH_SIZE + 32];
+  } figures[] = {/* the dearest first (each of growth's two ~0.45 s of gnuplot, the others
+                  * 0.03-0.15 s), so that the cores finish together */
+                 {"suppression", "growth.txt"}, {"rates", "growth.txt"},
+                 {"history", "history.txt"},    {"masses", "scales.txt"},
+                 {"scales", "scales.txt"}};
+  figure_request req[MAX_FIGURES];
+  int n = 0;
+  char scales[PATH_SIZE];
   snprintf(scales, sizeof scales, "%s/scales.txt", dir);
-  more[0] = '\0';
-  append_variable(more, sizeof more, "scales", scales);
   for (size_t i = 0; i < sizeof figures / sizeof figures[0]; i++) {
-    snprintf(table, sizeof table, "%s/%s", dir, figures[i].table);
-    if (!readable(table)) continue;
-    const int r = draw(figures[i].script, table, dir, figures[i].script,
-                       strcmp(figures[i].table, "growth.txt") == 0 ? more : NULL);
-    if (r < 0) failed = 1;
-    else drawn += r;
+    figure_request *r = &req[n];
+    snprintf(r->table, sizeof r->table, "%s/%s", dir, figures[i].table);
+    if (!readable(r->table)) continue;
+    r->script = figures[i].script;
+    snprintf(r->out_name, sizeof r->out_name, "%s", figures[i].script);
+    r->more[0] = '\0';
+    if (strcmp(figures[i].table, "growth.txt") == 0)
+      append_variable(r->more, sizeof r->more, "scales", scales);
+    n++;
   }
-  return failed ? -1 : drawn;
+  return n ? draw(req, n, dir) : 0;
 }
 
 /* The title of a table, from its first line "# jeansgrow VERSION: TITLE". */
@@ -184,7 +259,7 @@ int cli_figures_for_table(const char *table) {
     return -1;
   }
   /* Beside the table, named after it. */
-  char dir[PATH_SIZE], stem[PATH_SIZE], name[PATH_SIZE + 32];
+  char dir[PATH_SIZE], stem[PATH_SIZE];
   const char *slash = strrchr(table, '/');
   snprintf(dir, sizeof dir, "%.*s", slash ? (int)(slash - table) : 1, slash ? table : ".");
   if (slash == table) snprintf(dir, sizeof dir, "/");
@@ -199,15 +274,18 @@ int cli_figures_for_table(const char *table) {
                {"parameter scan", {"scan", NULL}}};
   for (size_t k = 0; k < sizeof kinds / sizeof kinds[0]; k++) {
     if (strncmp(title, kinds[k].title_start, strlen(kinds[k].title_start)) != 0) continue;
-    int drawn = 0;
-    for (int s = 0; s < 2 && kinds[k].scripts[s]; s++) {
-      if (strcmp(kinds[k].scripts[s], "scan") == 0) snprintf(name, sizeof name, "%s", stem);
-      else snprintf(name, sizeof name, "%s_%s", stem, kinds[k].scripts[s]);
-      const int r = draw(kinds[k].scripts[s], table, dir, name, NULL);
-      if (r < 0) return -1;
-      drawn += r;
+    figure_request req[2];
+    int n = 0;
+    for (int s = 0; s < 2 && kinds[k].scripts[s]; s++, n++) {
+      req[n].script = kinds[k].scripts[s];
+      snprintf(req[n].table, sizeof req[n].table, "%s", table);
+      if (strcmp(kinds[k].scripts[s], "scan") == 0)
+        snprintf(req[n].out_name, sizeof req[n].out_name, "%s", stem);
+      else
+        snprintf(req[n].out_name, sizeof req[n].out_name, "%s_%s", stem, kinds[k].scripts[s]);
+      req[n].more[0] = '\0';
     }
-    return drawn;
+    return draw(req, n, dir);
   }
   return 0;
 }
