@@ -14,6 +14,7 @@
 #include <string.h>
 #include <sys/stat.h>
 #include <sys/wait.h>
+#include <time.h>
 #include <unistd.h>
 
 #include "cli.h"
@@ -107,29 +108,31 @@ static int gnuplot_status(gnuplot_run *g, int started, int how) {
 }
 
 /* Wait for whichever of run[0 .. n) that is still running ends first
- * (status[i] < -1 marks them); returns its index, or -1 if none runs. */
+ * (status[i] < -1 marks them); returns its index, or -1 if none runs. Each
+ * of our own processes is asked in turn, a few milliseconds apart: waiting
+ * for any child at all could take the status of one the program did not
+ * start here (an MPI library's, say). */
 static int finish_one(gnuplot_run *run, int *status, int n) {
-  int running = 0;
-  for (int i = 0; i < n; i++) running += status[i] < -1;
-  while (running > 0) {
-    int how;
-    const pid_t pid = waitpid(-1, &how, 0);
-    if (pid < 0) {
-      if (errno == EINTR) continue;
-      break; /* no child left: none of ours can still run */
-    }
-    for (int i = 0; i < n; i++)
-      if (status[i] < -1 && run[i].pid == pid) {
+  for (;;) {
+    int running = 0;
+    for (int i = 0; i < n; i++) {
+      if (status[i] >= -1) continue;
+      running++;
+      int how;
+      const pid_t pid = waitpid(run[i].pid, &how, WNOHANG);
+      if (pid == run[i].pid) {
         status[i] = gnuplot_status(&run[i], 1, how);
         return i;
       }
-  }
-  for (int i = 0; i < n; i++) /* (only if waitpid failed) */
-    if (status[i] < -1) {
-      status[i] = gnuplot_status(&run[i], 0, 0);
-      return i;
+      if (pid < 0 && errno != EINTR) { /* not ours to wait for any more */
+        status[i] = gnuplot_status(&run[i], 0, 0);
+        return i;
+      }
     }
-  return -1;
+    if (!running) return -1;
+    const struct timespec pause = {0, 2000000};
+    nanosleep(&pause, NULL);
+  }
 }
 
 /* Rename (ok) or remove the files gnuplot wrote under `prefix` in `dir`. */
