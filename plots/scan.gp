@@ -7,6 +7,12 @@
 # convention (output.mass_radius); growth tables: delta_b/delta_c at each
 # wavenumber; epochs tables: z_star, z_drag, r_drag, z_gas_decoupling.
 figure = "the scan figure"
+# Several gnuplots may share the pictures (the program starts one per
+# usable core, with `part` and `parts`): this one draws pictures number
+# part, part + parts, ... of the (figure, format) pairs in their order.
+if (!exists("part")) { part = 0 }
+if (!exists("parts")) { parts = 1 }
+picture = 0
 n_axes = int(system(sprintf("awk '/^# scan vary: / { n++ } !/^#/ { exit } END { print n + 0 }' '%s'", table)))
 if (n_axes < 1 || n_axes > 2) { print sprintf("plots: %s is not a scan table of one or two varied keys (it varies %d)", table, n_axes); exit status 1 }
 axis_key(i) = word(columns, i + 1)
@@ -40,6 +46,8 @@ if (n_axes == 1) {
     panel_list = fig eq "masses" ? "M_J M_F_halfwave M_half" : is_growth ? ks : quantities
     n_panels = words(panel_list)
     do for [fmt in formats] {
+      picture = picture + 1
+      if ((picture - 1) % parts == part) {
       out_base = out
       out = sprintf("%s_%s", out_base, fig)
       @start_figure
@@ -60,6 +68,7 @@ if (n_axes == 1) {
              with linespoints ls i ps 0.6 title sprintf("z = %g", real(word(zs, i)))
       }
       unset multiplot
+      }
     }
   }
 }
@@ -73,6 +82,8 @@ if (n_axes == 2) {
   do for [q in map_list] {
     qc = col(q)
     do for [fmt in formats] {
+      picture = picture + 1
+      if ((picture - 1) % parts == part) {
       out_base = out
       out = sprintf("%s_map_%s", out_base, q)
       @start_figure
@@ -100,6 +111,7 @@ if (n_axes == 2) {
               selected using 1:2:(column(qc) > 0 ? column(qc) : NaN) with lines lc rgb "black" nosurface notitle
       }
       unset multiplot
+      }
     }
   }
 }

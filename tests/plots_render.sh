@@ -58,11 +58,11 @@ for name in history masses scales suppression rates; do check_figure "$work/Mpc/
 
 # The figures are drawn several at once, one gnuplot per usable core: on a
 # single usable core (one at a time) the same files, byte for byte.
+first_core=$(taskset -pc $$ 2>/dev/null | sed 's/.*: *//; s/[^0-9].*//')
 if command -v taskset >/dev/null 2>&1; then
   mkdir "$work/all_cores"
   cp "$work/Mpc/"*.png "$work/Mpc/"*.svg "$work/all_cores/"
   rm "$work/Mpc/"*.png "$work/Mpc/"*.svg
-  first_core=$(taskset -pc $$ | sed 's/.*: *//; s/[^0-9].*//')
   taskset -c "$first_core" "$program" plot "$work/Mpc"
   for f in "$work/all_cores/"*; do
     cmp -s "$f" "$work/Mpc/$(basename "$f")" ||
@@ -182,6 +182,19 @@ check_figure "$work/baryons_masses"
   --vary cosmology.cdm_density_h2=0.1:0.14:3 --set "$coarse" --set 'output.redshifts=[20.0]' \
   -o "$work/map.txt" 2>/dev/null
 for q in k_J k_F k_half; do check_figure "$work/map_map_$q"; done
+# A scan's pictures are shared out among one gnuplot per usable core: on a
+# single usable core (one gnuplot for all) the same files.
+if command -v taskset >/dev/null 2>&1; then
+  cp "$work/map.txt" "$work/map1.txt"
+  taskset -c "$first_core" "$program" plot "$work/map1.txt"
+  for q in k_J k_F k_half; do
+    for format in png svg; do
+      cmp -s "$work/map_map_$q.$format" "$work/map1_map_$q.$format" ||
+        fail "map_map_$q.$format drawn by one gnuplot differs from the one drawn by several"
+    done
+  done
+  ls -a "$work" | grep -q '^\.jgfig' && fail "a temporary scan figure was left behind"
+fi
 "$program" scan "$src/params/reference.cfg" --table growth \
   --vary 'perturbations.sound_speed=[isothermal, adiabatic]' --set "$coarse" \
   --set 'output.redshifts=[20.0]' --set 'perturbations.k_values=[100.0, 1000.0]' \

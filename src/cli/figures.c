@@ -160,6 +160,8 @@ static int settle_outputs(const char *dir, const char *prefix, int ok) {
 typedef struct figure_request {
   const char *script;
   char table[PATH_SIZE], out_name[PATH_SIZE + 32], more[PATH_SIZE + 32];
+  int shared; /* one of several gnuplots sharing the script's pictures (`part` of `parts`):
+                 it may have none to draw */
 } figure_request;
 #define MAX_FIGURES 8
 
@@ -198,8 +200,8 @@ static int draw(const figure_request *req, int n, const char *dir) {
   int drawn = 0, failed = 0;
   for (int i = 0; i < n; i++) {
     const int files = settle_outputs(dir, prefix[i], status[i] == 0);
-    if (status[i] == 0 && files > 0) {
-      drawn++;
+    if (status[i] == 0 && (files > 0 || req[i].shared)) {
+      drawn += files > 0;
       continue;
     }
     failed = 1;
@@ -229,6 +231,7 @@ int cli_figures_for_folder(const char *dir) {
   snprintf(scales, sizeof scales, "%s/scales.txt", dir);
   for (size_t i = 0; i < sizeof figures / sizeof figures[0]; i++) {
     figure_request *r = &req[n];
+    r->shared = 0;
     snprintf(r->table, sizeof r->table, "%s/%s", dir, figures[i].table);
     if (!readable(r->table)) continue;
     r->script = figures[i].script;
@@ -277,10 +280,11 @@ int cli_figures_for_table(const char *table) {
                {"parameter scan", {"scan", NULL}}};
   for (size_t k = 0; k < sizeof kinds / sizeof kinds[0]; k++) {
     if (strncmp(title, kinds[k].title_start, strlen(kinds[k].title_start)) != 0) continue;
-    figure_request req[2];
+    figure_request req[MAX_FIGURES];
     int n = 0;
     for (int s = 0; s < 2 && kinds[k].scripts[s]; s++, n++) {
       req[n].script = kinds[k].scripts[s];
+      req[n].shared = 0;
       snprintf(req[n].table, sizeof req[n].table, "%s", table);
       if (strcmp(kinds[k].scripts[s], "scan") == 0)
         snprintf(req[n].out_name, sizeof req[n].out_name, "%s", stem);
@@ -288,7 +292,20 @@ int cli_figures_for_table(const char *table) {
         snprintf(req[n].out_name, sizeof req[n].out_name, "%s_%s", stem, kinds[k].scripts[s]);
       req[n].more[0] = '\0';
     }
-    return draw(req, n, dir);
+    /* A scan's pictures (up to 8: a map per quantity and format) come from
+     * one script: one gnuplot per usable core shares them out. */
+    if (n == 1 && strcmp(req[0].script, "scan") == 0) {
+      const int cores = cli_usable_cores();
+      const int parts = cores < 1 ? 1 : cores > MAX_FIGURES ? MAX_FIGURES : cores;
+      for (int part = 0; part < parts; part++) {
+        req[part] = req[0];
+        req[part].shared = parts > 1;
+        snprintf(req[part].more, sizeof req[part].more, "part=%d; parts=%d; ", part, parts);
+      }
+      n = parts;
+    }
+    const int drawn = draw(req, n, dir);
+    return drawn > 0 && n > 1 && req[0].shared ? 1 : drawn;
   }
   return 0;
 }
