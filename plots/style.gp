@@ -64,6 +64,9 @@ formats = "png svg"
 distinct(n) = system(sprintf("awk -F'\t' '!/^#/ && !seen[$%d]++ { print $%d }' '%s'", n, n, table))
 # Rows of one redshift only (the growth and scan tables interleave them).
 at_z(zcol, zv, v) = abs(column(zcol) - zv) <= 1e-9 * (1 + abs(zv)) ? v : NaN
+# z_at[i]: the i-th word of zs as a number, worked out once instead of on
+# every row of every curve (`@z_values` after setting zs).
+z_values = "array z_at[words(zs)]; do for [i = 1:words(zs)] { z_at[i] = real(word(zs, i)) }"
 # The same as a data source, so that lines join consecutive points of that
 # redshift (and wavenumber, column kc > 0), with a blank line wherever
 # column 1 changes if `blocks` (the grid format of a map).

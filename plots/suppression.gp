@@ -31,7 +31,12 @@ if (streaming && have_scales) {
 }
 zs = distinct(1)
 flags = col("flags")
-streamed_ratio = "abs(column(col('b_over_c'))) * sqrt(column(col('stream_b_power')) / column(col('stream_c_power')))"
+# Column numbers looked up once, not on every row of every curve.
+c_b_over_c = col("b_over_c")
+c_stream_b = col("stream_b_power")
+c_stream_c = col("stream_c_power")
+@z_values
+streamed_ratio = "abs(column(c_b_over_c)) * sqrt(column(c_stream_b) / column(c_stream_c))"
 do for [fmt in formats] {
   @start_figure
   set logscale x
@@ -49,10 +54,10 @@ do for [fmt in formats] {
   } else {
     set title "Baryons behind the dark matter; marks: k_F (open), k_{1/2} (filled)"
   }
-  plot for [i = 1:words(zs)] table using 2:(at_z(1, real(word(zs, i)), column(col("b_over_c")))) with lines ls i title sprintf("%g", real(word(zs, i))), \
-       for [i = 1:(have_scales ? words(zs) : 0)] scales using (at_z(1, real(word(zs, i)), column(scol("k_half")))):(column(scol("half_found")) > 0 ? 0.5 * column(scol("b_over_c_large")) : NaN) with points ls i pt 7 ps 1.6 notitle, \
-       for [i = 1:(have_scales ? words(zs) : 0)] scales using (at_z(1, real(word(zs, i)), column(scol("k_F")) > 0 ? column(scol("k_F")) : NaN)):(exp(-1) * column(scol("b_over_c_large"))) with points ls i pt 6 ps 1.6 notitle, \
-       table using 2:(flags > 0 && column(flags) > 0 ? column(col("b_over_c")) : NaN) every 8 with points ls 20 title (flags > 0 && !streaming ? "flagged (flags column)" : "")
+  plot for [i = 1:words(zs)] table using 2:(at_z(1, z_at[i], column(c_b_over_c))) with lines ls i title sprintf("%g", real(word(zs, i))), \
+       for [i = 1:(have_scales ? words(zs) : 0)] scales using (at_z(1, z_at[i], column(scol("k_half")))):(column(scol("half_found")) > 0 ? 0.5 * column(scol("b_over_c_large")) : NaN) with points ls i pt 7 ps 1.6 notitle, \
+       for [i = 1:(have_scales ? words(zs) : 0)] scales using (at_z(1, z_at[i], column(scol("k_F")) > 0 ? column(scol("k_F")) : NaN)):(exp(-1) * column(scol("b_over_c_large"))) with points ls i pt 6 ps 1.6 notitle, \
+       table using 2:(flags > 0 && column(flags) > 0 ? column(c_b_over_c) : NaN) every 8 with points ls 20 title (flags > 0 && !streaming ? "flagged (flags column)" : "")
   if (streaming) {
     # The same axes as above, so that the two panels compare at a glance.
     set yrange [GPVAL_Y_MIN < 0 ? GPVAL_Y_MIN : 0:GPVAL_Y_MAX]
@@ -60,9 +65,9 @@ do for [fmt in formats] {
     set key notitle
     set xlabel sprintf("comoving wavenumber k [%s]", unit_of(col("k"))) noenhanced
     set ylabel "rms {/Symbol d}_b / rms {/Symbol d}_c"
-    plot for [i = 1:words(zs)] table using 2:(at_z(1, real(word(zs, i)), @streamed_ratio)) with lines ls i notitle, \
-         for [i = 1:(have_scales ? words(zs) : 0)] scales using (at_z(1, real(word(zs, i)), column(scol("k_half_stream")) > 0 ? column(scol("k_half_stream")) : NaN)):(0.5 * column(scol("b_over_c_large"))) with points ls i pt 7 ps 1.6 notitle, \
-         for [i = 1:(have_scales ? words(zs) : 0)] scales using (at_z(1, real(word(zs, i)), column(scol("k_F_stream")) > 0 ? column(scol("k_F_stream")) : NaN)):(exp(-1) * column(scol("b_over_c_large"))) with points ls i pt 6 ps 1.6 notitle, \
+    plot for [i = 1:words(zs)] table using 2:(at_z(1, z_at[i], @streamed_ratio)) with lines ls i notitle, \
+         for [i = 1:(have_scales ? words(zs) : 0)] scales using (at_z(1, z_at[i], column(scol("k_half_stream")) > 0 ? column(scol("k_half_stream")) : NaN)):(0.5 * column(scol("b_over_c_large"))) with points ls i pt 7 ps 1.6 notitle, \
+         for [i = 1:(have_scales ? words(zs) : 0)] scales using (at_z(1, z_at[i], column(scol("k_F_stream")) > 0 ? column(scol("k_F_stream")) : NaN)):(exp(-1) * column(scol("b_over_c_large"))) with points ls i pt 6 ps 1.6 notitle, \
          table using 2:(flags > 0 && column(flags) > 0 ? @streamed_ratio : NaN) every 8 with points ls 20 title (flags > 0 ? "flagged" : "")
     unset multiplot
   }
