@@ -220,6 +220,7 @@ Test(null_error, results) {
   double z_bad[] = {-5.0};
   jg_scales_point sp[1];
   cr_assert_neq(jg_scales_compute(s.m, s.w, z_bad, 1, sp, NULL), JG_OK);
+  cr_assert_neq(jg_scales_compute_from_limit(s.m, s.w, z_bad, 1, NULL, sp, NULL), JG_OK);
   double k_half = 0.0;
   int found = 0;
   cr_assert_neq(jg_scales_half_suppression(s.m, s.w, -5.0, 0.5, 10.0, &k_half, &found, NULL),
@@ -236,11 +237,11 @@ Test(null_error, results) {
                                                &g, NULL),
                 JG_OK);
   cr_assert_null(g);
-  cr_assert_null(jg_growth_grid_job_new(s.m, (double[]){1.0}, 0, z_bad, 1, NULL));
+  cr_assert_null(jg_growth_grid_job_new(s.m, (double[]){1.0}, 0, z_bad, 1, NULL, NULL));
   cr_assert_eq(jg_growth_grid_compute(s.m, s.w, (double[]){1.0}, 0, z_bad, 1, &g, NULL),
                JG_EINVAL);
   jg_growth_grid_job *job = jg_growth_grid_job_new(s.m, (double[]){1.0}, 1, s.p.output.redshifts,
-                                                   1, NULL);
+                                                   1, NULL, NULL);
   cr_assert_not_null(job);
   cr_assert_neq(jg_growth_grid_job_result(job, &g, NULL), JG_OK); /* nobody worked on it */
   cr_assert_null(g);

@@ -395,7 +395,7 @@ static void *work_on_grid(void *arg) {
 
 static jg_status grid_with_late_joiner(real_case *r, const double *k, int n_k, const double *z,
                                        int n_z, jg_growth_grid **out, jg_error *err) {
-  jg_growth_grid_job *job = jg_growth_grid_job_new(r->m, k, n_k, z, n_z, err);
+  jg_growth_grid_job *job = jg_growth_grid_job_new(r->m, k, n_k, z, n_z, NULL, err);
   cr_assert_not_null(job, "%s", err->message);
   late_worker lw = {r->m, job};
   pthread_t helper;
@@ -437,7 +437,7 @@ Test(integrator, growth_grid_on_threads_or_joined_late_is_the_single_thread_grid
   jg_growth_grid_free(three);
   /* Its result: refused before anyone worked and a second time; a worker
    * that comes after it finds nothing to do. */
-  jg_growth_grid_job *job = jg_growth_grid_job_new(r.m, k, NK, z, 3, &err);
+  jg_growth_grid_job *job = jg_growth_grid_job_new(r.m, k, NK, z, 3, NULL, &err);
   cr_assert_not_null(job);
   cr_assert_eq(jg_growth_grid_job_result(job, &three, &err), JG_EINVAL);
   cr_assert_null(three);
@@ -468,6 +468,39 @@ Test(integrator, growth_grid_on_threads_or_joined_late_is_the_single_thread_grid
   real_case_close(&r);
 }
 
+
+/* The k -> 0 reference solved once and given to the scales and to the
+ * growth grid (as `run` does): the same scales and the same grid, to the
+ * last bit, as when each solves it itself. */
+Test(integrator, scales_and_grid_from_a_given_limit_are_the_ones_that_solve_it) {
+  real_case r;
+  open_rosenbrock(&r);
+  const double z[3] = {1000.0, 100.0, 10.0};
+  const double k[10] = {1.0, 3.0, 10.0, 30.0, 100.0, 300.0, 1e3, 3e3, 1e4, 3e4};
+  jg_error err;
+  jg_error_clear(&err);
+  jg_perturb_limit limit[3];
+  cr_assert_eq(jg_perturb_solve_limit(r.m, r.w, z, 3, limit, &err), JG_OK, "%s", err.message);
+  jg_scales_point solved[3], given[3];
+  cr_assert_eq(jg_scales_compute(r.m, r.w, z, 3, solved, &err), JG_OK, "%s", err.message);
+  cr_assert_eq(jg_scales_compute_from_limit(r.m, r.w, z, 3, limit, given, &err), JG_OK, "%s",
+               err.message);
+  cr_assert(memcmp(solved, given, sizeof solved) == 0, "the scales differ");
+  jg_growth_grid *own = NULL, *shared = NULL;
+  cr_assert_eq(jg_growth_grid_compute(r.m, r.w, k, 10, z, 3, &own, &err), JG_OK, "%s",
+               err.message);
+  jg_growth_grid_job *job = jg_growth_grid_job_new(r.m, k, 10, z, 3, limit, &err);
+  cr_assert_not_null(job, "%s", err.message);
+  jg_growth_grid_job_work(job, r.w);
+  cr_assert_eq(jg_growth_grid_job_result(job, &shared, &err), JG_OK, "%s", err.message);
+  jg_growth_grid_job_free(job);
+  cr_assert(memcmp(own->points, shared->points, sizeof(jg_perturb_point) * 10 * 3) == 0);
+  cr_assert(memcmp(own->limit, shared->limit, sizeof(jg_perturb_limit) * 3) == 0);
+  cr_assert(memcmp(own->D_ref, shared->D_ref, sizeof(double) * 3) == 0);
+  jg_growth_grid_free(own);
+  jg_growth_grid_free(shared);
+  real_case_close(&r);
+}
 
 /* A model whose coefficient tables end at z = 10 (what a scan point with
  * no later output builds): the same nodes as the model that ends today,

@@ -51,7 +51,9 @@ void jg_growth_grid_free(jg_growth_grid *g);
 /* The same grid with threads that join the work when they come free (a
  * program computing the grid beside other work, whose thread joins once
  * that work is done): jg_growth_grid_job_new sets it up (the same checks
- * and failures as jg_growth_grid_compute; m is only read); any number of
+ * and failures as jg_growth_grid_compute; m is only read; `limit`, if not
+ * NULL, is the k -> 0 reference as jg_perturb_solve_limit gives it at z
+ * with this model, solved once for the grid and the scales); any number of
  * threads call jg_growth_grid_job_work, each with a workspace of its own,
  * at any time, each taking the next job not yet taken (the k -> 0
  * reference, then the batches of the k list) until none is left;
@@ -63,7 +65,8 @@ void jg_growth_grid_free(jg_growth_grid *g);
  * bit whoever computed which part. */
 typedef struct jg_growth_grid_job jg_growth_grid_job;
 jg_growth_grid_job *jg_growth_grid_job_new(const jg_perturb_model *m, const double *k, int n_k,
-                                           const double *z, int n_z, jg_error *err);
+                                           const double *z, int n_z,
+                                           const jg_perturb_limit *limit, jg_error *err);
 void jg_growth_grid_job_work(jg_growth_grid_job *job, jg_perturb_workspace *w);
 jg_status jg_growth_grid_job_result(jg_growth_grid_job *job, jg_growth_grid **out,
                                     jg_error *err);

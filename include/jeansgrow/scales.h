@@ -83,6 +83,12 @@ typedef struct jg_scales_point {
  * JG_ENUMERIC (naming the stage, k and z). */
 jg_status jg_scales_compute(const jg_perturb_model *m, jg_perturb_workspace *w, const double *z,
                             int n_z, jg_scales_point *out, jg_error *err);
+/* The same with the large-scale solve given: limit[i] as
+ * jg_perturb_solve_limit gives it at z[i] with this model (a program that
+ * also needs it for the growth grid solves it once; the same numbers). */
+jg_status jg_scales_compute_from_limit(const jg_perturb_model *m, jg_perturb_workspace *w,
+                                       const double *z, int n_z, const jg_perturb_limit *limit,
+                                       jg_scales_point *out, jg_error *err);
 
 /* The half-suppression wavenumber at one redshift: the first k (searched
  * upwards from k_start on its own ladder, then Brent's method) where

@@ -187,15 +187,29 @@ static jg_status compute_all(const jg_params *p, const jg_thermal *th, jg_pertur
   growth_job job = {p, th, model, r, NULL, JG_OK, {0}, PTHREAD_MUTEX_INITIALIZER,
                     PTHREAD_COND_INITIALIZER, 0, 0};
   jg_error_clear(&job.err);
+  /* The k -> 0 reference, which the scales and the growth grid both need:
+   * solved once, here. A failure is told where the scales' own solve would
+   * have told it (after the history and the epochs), and the grid then
+   * solves it again and fails after them, as in the sequential order. */
+  jg_perturb_limit limit[JG_MAX_REDSHIFTS];
+  jg_error limit_err;
+  jg_error_clear(&limit_err);
+  const jg_status limit_st = jg_perturb_solve_limit(model, ws, p->output.redshifts,
+                                                    p->output.n_redshifts, limit, &limit_err);
   job.grid = jg_growth_grid_job_new(model, r->k, r->n_k, p->output.redshifts,
-                                    p->output.n_redshifts, err);
+                                    p->output.n_redshifts, limit_st == JG_OK ? limit : NULL, err);
   if (!job.grid) return err->status;
   pthread_t worker;
   const int parallel = cli_usable_cores() > 1 && cli_start_quiet_thread(&worker, growth_thread, &job);
   format_table(FILE_HISTORY, p, th, r);
   st = jg_epochs_compute(th, &r->epochs, err);
+  if (st == JG_OK && limit_st != JG_OK) {
+    *err = limit_err;
+    st = limit_st;
+  }
   if (st == JG_OK)
-    st = jg_scales_compute(model, ws, p->output.redshifts, p->output.n_redshifts, r->scales, err);
+    st = jg_scales_compute_from_limit(model, ws, p->output.redshifts, p->output.n_redshifts, limit,
+                                      r->scales, err);
   if (st == JG_OK)
     st = jg_scales_add_streaming(model, ws, &p->streaming, p->output.redshifts,
                                  p->output.n_redshifts, r->scales, err);

@@ -26,11 +26,12 @@ const jg_perturb_point *jg_growth_grid_at(const jg_growth_grid *g, int ik, int i
 
 /* ---- the grid's jobs, on one thread or several ----------------------------- */
 
-/* The large-scale (k -> 0) reference at every redshift and, on a real
- * history, the scale-independent growth D(z). */
+/* The large-scale (k -> 0) reference at every redshift (unless the caller
+ * gave it: `limit_given`) and, on a real history, the scale-independent
+ * growth D(z). */
 static jg_status grid_reference(const jg_perturb_model *m, jg_perturb_workspace *w,
-                                jg_growth_grid *g, jg_error *err) {
-  jg_status st = jg_perturb_solve_limit(m, w, g->z, g->n_z, g->limit, err);
+                                jg_growth_grid *g, int limit_given, jg_error *err) {
+  jg_status st = limit_given ? JG_OK : jg_perturb_solve_limit(m, w, g->z, g->n_z, g->limit, err);
   const jg_thermal *th = jg_perturb_model_thermal(m);
   /* The reference growth exists only while matter and dark energy alone
    * keep H^2 > 0 (not in a universe that radiation dominates today): left
@@ -52,8 +53,8 @@ static int grid_jobs(const jg_growth_grid *g) {
   return 1 + (g->n_k + JG_PERTURB_BATCH - 1) / JG_PERTURB_BATCH;
 }
 static jg_status grid_job(const jg_perturb_model *m, jg_perturb_workspace *w, jg_growth_grid *g,
-                          int job, jg_error *err) {
-  if (job == 0) return grid_reference(m, w, g, err);
+                          int job, int limit_given, jg_error *err) {
+  if (job == 0) return grid_reference(m, w, g, limit_given, err);
   const int first = (job - 1) * JG_PERTURB_BATCH;
   const int n = g->n_k - first < JG_PERTURB_BATCH ? g->n_k - first : JG_PERTURB_BATCH;
   return jg_perturb_solve_many(m, w, g->k + first, n, g->z, g->n_z,
@@ -78,6 +79,7 @@ struct jg_growth_grid_job {
   jg_status status; /* its failure */
   jg_error err;
   int closed;       /* the result was asked for: nothing more is handed out */
+  int limit_given;  /* the k -> 0 reference came with the job */
 };
 
 void jg_growth_grid_job_work(jg_growth_grid_job *s, jg_perturb_workspace *w) {
@@ -89,7 +91,7 @@ void jg_growth_grid_job_work(jg_growth_grid_job *s, jg_perturb_workspace *w) {
     if (job < 0) return;
     jg_error e;
     jg_error_clear(&e);
-    const jg_status st = grid_job(s->m, w, s->g, job, &e);
+    const jg_status st = grid_job(s->m, w, s->g, job, s->limit_given, &e);
     pthread_mutex_lock(&s->lock);
     if (st != JG_OK && job < s->first_failed) s->first_failed = job, s->status = st, s->err = e;
     if (--s->active == 0) pthread_cond_broadcast(&s->idle);
@@ -110,7 +112,8 @@ static void *job_thread(void *arg) {
 }
 
 jg_growth_grid_job *jg_growth_grid_job_new(const jg_perturb_model *m, const double *k, int n_k,
-                                           const double *z, int n_z, jg_error *err) {
+                                           const double *z, int n_z,
+                                           const jg_perturb_limit *limit, jg_error *err) {
   if (!m || !k || !z) {
     JG_FAIL(err, JG_EINVAL, "growth grid: NULL model, wavenumbers or redshifts");
     return NULL;
@@ -151,6 +154,8 @@ jg_growth_grid_job *jg_growth_grid_job_new(const jg_perturb_model *m, const doub
   }
   memcpy(g->k, k, sizeof(double) * (size_t)n_k);
   memcpy(g->z, z, sizeof(double) * (size_t)n_z);
+  if (limit) memcpy(g->limit, limit, sizeof(jg_perturb_limit) * (size_t)n_z);
+  s->limit_given = limit != NULL;
   jg_perturb_model_describe_start(m, g->start, sizeof g->start);
   s->m = m;
   s->g = g;
@@ -205,7 +210,7 @@ jg_status jg_growth_grid_compute_threads(const jg_perturb_model *m, jg_perturb_w
     return JG_FAIL(err, JG_EINVAL, "growth grid: threads must be 1 to %d (got %d)",
                    JG_GROWTH_MAX_THREADS, threads);
   jg_error local; /* the failure's status, when the caller keeps no record */
-  jg_growth_grid_job *s = jg_growth_grid_job_new(m, k, n_k, z, n_z, err ? err : &local);
+  jg_growth_grid_job *s = jg_growth_grid_job_new(m, k, n_k, z, n_z, NULL, err ? err : &local);
   if (!s) return err ? err->status : local.status;
   if (threads > s->n_jobs) threads = s->n_jobs;
   pthread_t helper[JG_GROWTH_MAX_THREADS];

@@ -436,10 +436,22 @@ jg_status jg_scales_compute(const jg_perturb_model *m, jg_perturb_workspace *w, 
                    "jg_scales_compute: model, workspace, 1 to %d redshifts and output needed",
                    JG_MAX_REDSHIFTS);
   jg_perturb_limit limit[JG_MAX_REDSHIFTS];
-  double target[JG_MAX_REDSHIFTS], k_start[JG_MAX_REDSHIFTS], k_half[JG_MAX_REDSHIFTS];
-  int found[JG_MAX_REDSHIFTS];
   jg_status st = jg_perturb_solve_limit(m, w, z, n_z, limit, err);
   if (st != JG_OK) return st;
+  return jg_scales_compute_from_limit(m, w, z, n_z, limit, out, err);
+}
+
+jg_status jg_scales_compute_from_limit(const jg_perturb_model *m, jg_perturb_workspace *w,
+                                       const double *z, int n_z, const jg_perturb_limit *limit,
+                                       jg_scales_point *out, jg_error *err) {
+  if (!m || !w || !z || !limit || !out || n_z < 1 || n_z > JG_MAX_REDSHIFTS)
+    return JG_FAIL(err, JG_EINVAL,
+                   "jg_scales_compute_from_limit: model, workspace, 1 to %d redshifts, their "
+                   "large-scale solve and output needed",
+                   JG_MAX_REDSHIFTS);
+  double target[JG_MAX_REDSHIFTS], k_start[JG_MAX_REDSHIFTS], k_half[JG_MAX_REDSHIFTS];
+  int found[JG_MAX_REDSHIFTS];
+  jg_status st = JG_OK;
   const jg_thermal *th = jg_perturb_model_thermal(m);
   for (int i = 0; i < n_z; i++) {
     jg_scales_point *p = &out[i];
