@@ -165,13 +165,14 @@ typedef struct figure_request {
 } figure_request;
 #define MAX_FIGURES 8
 
-/* Draw the figures into `dir`, as many at once as this process has usable
- * cores (each gnuplot is one process on one core: `run`'s five figures
- * took ~1.2 s one after the other), a new one as soon as any ends, each
- * under its own hidden prefix; complaints in the figures' order. Returns
- * how many were drawn, or -1 if any could not be. */
+/* Draw the figures into `dir`, as many gnuplots at once as this process
+ * has usable cores (each is one process on one core), a new one as soon as
+ * any ends, each under its own hidden prefix; complaints in the requests'
+ * order. Returns how many figures were drawn (each a .png and an .svg), or
+ * -1 if any request could not be. */
 static int draw(const figure_request *req, int n, const char *dir) {
-  const int at_once = cli_usable_cores() > 1 ? cli_usable_cores() : 1;
+  const int cores = cli_usable_cores();
+  const int at_once = cores > 1 ? cores : 1;
   gnuplot_run run[MAX_FIGURES];
   char prefix[MAX_FIGURES][64];
   int status[MAX_FIGURES], running = 0;
@@ -197,13 +198,11 @@ static int draw(const figure_request *req, int n, const char *dir) {
   }
   while (finish_one(run, status, n) >= 0) {
   }
-  int drawn = 0, failed = 0;
+  int files = 0, failed = 0;
   for (int i = 0; i < n; i++) {
-    const int files = settle_outputs(dir, prefix[i], status[i] == 0);
-    if (status[i] == 0 && (files > 0 || req[i].shared)) {
-      drawn += files > 0;
-      continue;
-    }
+    const int settled = settle_outputs(dir, prefix[i], status[i] == 0);
+    files += settled;
+    if (status[i] == 0 && (settled > 0 || req[i].shared)) continue;
     failed = 1;
     if (status[i] < 0)
       fprintf(stderr, "jeansgrow: figures: cannot run " GNUPLOT " for %s\n", req[i].table);
@@ -212,7 +211,7 @@ static int draw(const figure_request *req, int n, const char *dir) {
               "jeansgrow: figures: " GNUPLOT " could not draw %s from %s (exit status %d)\n",
               req[i].out_name, req[i].table, status[i]);
   }
-  return failed ? -1 : drawn;
+  return failed ? -1 : files / 2;
 }
 
 static int readable(const char *path) { return access(path, R_OK) == 0; }
@@ -220,8 +219,8 @@ static int readable(const char *path) { return access(path, R_OK) == 0; }
 int cli_figures_for_folder(const char *dir) {
   static const struct {
     const char *script, *table;
-  } figures[] = {/* the dearest first (each of growth's two ~0.45 s of gnuplot, the others
-                  * 0.03-0.15 s), so that the cores finish together */
+  } figures[] = {/* the dearest first (growth's two ~0.2 s of gnuplot each, the history's
+                  * ~0.1 s, the scales' two ~0.08 s), so that the cores finish together */
                  {"suppression", "growth.txt"}, {"rates", "growth.txt"},
                  {"history", "history.txt"},    {"masses", "scales.txt"},
                  {"scales", "scales.txt"}};
@@ -280,32 +279,27 @@ int cli_figures_for_table(const char *table) {
                {"parameter scan", {"scan", NULL}}};
   for (size_t k = 0; k < sizeof kinds / sizeof kinds[0]; k++) {
     if (strncmp(title, kinds[k].title_start, strlen(kinds[k].title_start)) != 0) continue;
+    /* A scan's pictures (up to 8: a map per quantity and format) come from
+     * one script, named after the table alone: one gnuplot per usable core
+     * shares them out (`part` of `parts`). */
+    const int scan = strcmp(kinds[k].scripts[0], "scan") == 0, cores = cli_usable_cores();
+    const int parts = !scan || cores < 2 ? 1 : cores > MAX_FIGURES ? MAX_FIGURES : cores;
     figure_request req[MAX_FIGURES];
     int n = 0;
-    for (int s = 0; s < 2 && kinds[k].scripts[s]; s++, n++) {
-      req[n].script = kinds[k].scripts[s];
-      req[n].shared = 0;
-      snprintf(req[n].table, sizeof req[n].table, "%s", table);
-      if (strcmp(kinds[k].scripts[s], "scan") == 0)
-        snprintf(req[n].out_name, sizeof req[n].out_name, "%s", stem);
-      else
-        snprintf(req[n].out_name, sizeof req[n].out_name, "%s_%s", stem, kinds[k].scripts[s]);
-      req[n].more[0] = '\0';
-    }
-    /* A scan's pictures (up to 8: a map per quantity and format) come from
-     * one script: one gnuplot per usable core shares them out. */
-    if (n == 1 && strcmp(req[0].script, "scan") == 0) {
-      const int cores = cli_usable_cores();
-      const int parts = cores < 1 ? 1 : cores > MAX_FIGURES ? MAX_FIGURES : cores;
-      for (int part = 0; part < parts; part++) {
-        req[part] = req[0];
-        req[part].shared = parts > 1;
-        snprintf(req[part].more, sizeof req[part].more, "part=%d; parts=%d; ", part, parts);
+    for (int s = 0; s < 2 && kinds[k].scripts[s]; s++)
+      for (int part = 0; part < parts; part++, n++) {
+        req[n].script = kinds[k].scripts[s];
+        req[n].shared = parts > 1;
+        snprintf(req[n].table, sizeof req[n].table, "%s", table);
+        if (scan)
+          snprintf(req[n].out_name, sizeof req[n].out_name, "%s", stem);
+        else
+          snprintf(req[n].out_name, sizeof req[n].out_name, "%s_%s", stem, kinds[k].scripts[s]);
+        req[n].more[0] = '\0';
+        if (parts > 1)
+          snprintf(req[n].more, sizeof req[n].more, "part=%d; parts=%d; ", part, parts);
       }
-      n = parts;
-    }
-    const int drawn = draw(req, n, dir);
-    return drawn > 0 && n > 1 && req[0].shared ? 1 : drawn;
+    return draw(req, n, dir);
   }
   return 0;
 }
